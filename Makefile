@@ -1,0 +1,33 @@
+# matdb: two commands on a fresh clone: `make run` and `make test`.
+PY ?= python3
+VENV := .venv
+BIN := $(VENV)/bin
+STAMP := $(VENV)/.installed
+PORT ?= 8501
+
+.PHONY: run test bench seed install clean browser-deps
+
+$(BIN)/python:
+	$(PY) -m venv $(VENV)
+	$(BIN)/python -m pip install --upgrade --quiet pip
+
+$(STAMP): pyproject.toml | $(BIN)/python
+	$(BIN)/python -m pip install --quiet -e ".[test]"
+	touch $(STAMP)
+
+install: $(STAMP)
+
+seed: install
+	$(BIN)/matdb seed
+
+run: install seed
+	$(BIN)/matdb serve --port $(PORT)
+
+test: install
+	$(BIN)/python -m pytest -q -p no:cacheprovider -n 2 --dist loadfile
+
+bench: install
+	$(BIN)/python scripts/bench.py
+
+clean:
+	rm -rf $(VENV) build *.egg-info test-artifacts

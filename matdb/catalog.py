@@ -1,0 +1,302 @@
+"""Lookups over the database: the value in use for each material and grade, as plain
+dataclasses of SI floats (for the physics) or pandas DataFrames (for tables and the page).
+
+The value in use is the *preferred* value: the one set with ``matdb prefer``; else the
+newest measured value (by measurement date, then entry time); else the published value
+(standard, then handbook, then estimate). Retracted values are never used.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import difflib
+from dataclasses import asdict, dataclass
+from typing import Iterable, Optional
+
+import pandas as pd
+from sqlmodel import Session, select
+
+from .db import read_session
+from .errors import NotFoundError
+from .models import MagnetGrade, MagnetValue, Material, Source, SusceptibilityValue
+
+_QUALITY_RANK = {"standard": 0, "handbook": 1, "estimate": 2, "measured": 3}
+_MAGNET_FIELDS = (
+    "br_t", "br_min_t", "hcb_ka_m", "hcj_ka_m", "bhmax_kj_m3", "alpha_br_pct_per_k",
+    "beta_hcj_pct_per_k", "max_temp_c", "mu_rec", "density_kg_m3",
+)
+
+
+@dataclass(frozen=True)
+class MaterialProps:
+    id: str
+    name: str
+    kind: str
+    density_kg_m3: float
+    chi_si: float
+    chi_perp_si: Optional[float]
+    chi_par_si: Optional[float]
+    uncertainty_si: Optional[float]
+    temp_coeff_per_k: Optional[float]
+    temperature_k: Optional[float]
+    value_kind: str
+    value_id: int
+    source_key: str
+    source: str
+    anisotropic: bool
+    molar_mass_kg_mol: Optional[float]
+    price_usd_per_kg: Optional[float]
+    price_illustrative: bool
+
+    @property
+    def chi_vertical(self) -> float:
+        """chi seen by a vertical field in a plate with its c axis vertical."""
+        return self.chi_perp_si if self.chi_perp_si is not None else self.chi_si
+
+    @property
+    def chi_horizontal(self) -> float:
+        """chi seen by an in-plane field."""
+        return self.chi_par_si if self.chi_par_si is not None else self.chi_si
+
+    @property
+    def abs_chi_per_density(self) -> float:
+        return abs(self.chi_si) / self.density_kg_m3
+
+
+@dataclass(frozen=True)
+class GradeProps:
+    grade: str
+    family: str
+    br_t: float
+    br_min_t: Optional[float]
+    hcb_ka_m: Optional[float]
+    hcj_ka_m: float
+    bhmax_kj_m3: Optional[float]
+    alpha_br_pct_per_k: float
+    beta_hcj_pct_per_k: Optional[float]
+    max_temp_c: float
+    mu_rec: Optional[float]
+    density_kg_m3: float
+    price_usd_per_kg: Optional[float]
+    price_illustrative: bool
+    value_kind: str
+    value_id: int
+    source_key: str
+    source: str
+
+
+def _close(name: str, choices: Iterable[str]) -> str:
+    near = difflib.get_close_matches(name, list(choices), n=3, cutoff=0.5)
+    return f"; did you mean {', '.join(near)}?" if near else ""
+
+
+def _sort_date(v) -> tuple:
+    d = v.measured_on or (v.entered_at.date() if v.entered_at else _dt.date.min)
+    return (d, v.entered_at or _dt.datetime.min, v.id or 0)
+
+
+def choose_preferred(values: list, preferred_id: Optional[int]):
+    """The value in use among ``values`` (rows of one material or grade)."""
+    live = [v for v in values if not v.retracted]
+    if not live:
+        return None
+    if preferred_id is not None:
+        for v in live:
+            if v.id == preferred_id:
+                return v
+    measured = [v for v in live if v.quality == "measured"]
+    if measured:
+        return max(measured, key=_sort_date)
+    return min(live, key=lambda v: (_QUALITY_RANK.get(v.quality, 9), v.id or 0))
+
+
+def _sources(s: Session) -> dict[str, Source]:
+    return {src.key: src for src in s.exec(select(Source)).all()}
+
+
+def _material_props(m: Material, values: list[SusceptibilityValue], sources) -> MaterialProps:
+    v = choose_preferred(values, m.preferred_value_id)
+    if v is None:
+        raise NotFoundError(f"material {m.id}: every value is retracted")
+    src = sources.get(v.source_key)
+    citation = src.citation if src else v.source_key
+    if v.quality == "measured" and v.source_note:
+        citation = v.source_note
+    return MaterialProps(
+        id=m.id, name=m.name, kind=m.kind,
+        density_kg_m3=v.density_kg_m3 or m.density_kg_m3,
+        chi_si=v.chi_si, chi_perp_si=v.chi_perp_si, chi_par_si=v.chi_par_si,
+        uncertainty_si=v.uncertainty_si, temp_coeff_per_k=v.temp_coeff_per_k,
+        temperature_k=v.temperature_k, value_kind=v.quality, value_id=v.id,
+        source_key=v.source_key, source=citation, anisotropic=m.anisotropic,
+        molar_mass_kg_mol=m.molar_mass_kg_mol, price_usd_per_kg=m.price_usd_per_kg,
+        price_illustrative=m.price_illustrative,
+    )
+
+
+def _grade_props(g: MagnetGrade, values: list[MagnetValue], sources) -> GradeProps:
+    v = choose_preferred(values, g.preferred_value_id)
+    if v is None:
+        raise NotFoundError(f"grade {g.grade}: every value is retracted")
+    published = choose_preferred([x for x in values if x.quality != "measured"], None)
+    merged = {}
+    for f in _MAGNET_FIELDS:
+        val = getattr(v, f)
+        if val is None and published is not None:
+            val = getattr(published, f)
+        merged[f] = val
+    if v.quality == "measured" and published is not None and v.br_t is not None and v.br_min_t is None:
+        merged["br_min_t"] = v.br_t  # a measured magnet is its own minimum
+    src = sources.get(v.source_key)
+    citation = src.citation if src else v.source_key
+    if v.quality == "measured" and v.source_note:
+        citation = v.source_note
+    return GradeProps(
+        grade=g.grade, family=g.family, price_usd_per_kg=g.price_usd_per_kg,
+        price_illustrative=g.price_illustrative, value_kind=v.quality, value_id=v.id,
+        source_key=v.source_key, source=citation, **merged,
+    )
+
+
+def _values_by(s: Session, model, key_attr: str) -> dict[str, list]:
+    out: dict[str, list] = {}
+    for v in s.exec(select(model)).all():
+        out.setdefault(getattr(v, key_attr), []).append(v)
+    return out
+
+
+def list_materials(url: str | None = None) -> list[MaterialProps]:
+    with read_session(url) as s:
+        sources = _sources(s)
+        values = _values_by(s, SusceptibilityValue, "material_id")
+        mats = s.exec(select(Material).order_by(Material.id)).all()
+        return [_material_props(m, values.get(m.id, []), sources) for m in mats if values.get(m.id)]
+
+
+def list_grades(url: str | None = None) -> list[GradeProps]:
+    with read_session(url) as s:
+        sources = _sources(s)
+        values = _values_by(s, MagnetValue, "grade")
+        grades = s.exec(select(MagnetGrade)).all()
+        out = [_grade_props(g, values.get(g.grade, []), sources) for g in grades if values.get(g.grade)]
+    fam_order = {"NdFeB": 0, "SmCo": 1, "ferrite": 2, "AlNiCo": 3, "bonded-NdFeB": 4}
+    return sorted(out, key=lambda g: (fam_order.get(g.family, 9), g.max_temp_c, g.br_t, g.grade))
+
+
+def get_material(material_id: str, url: str | None = None) -> MaterialProps:
+    with read_session(url) as s:
+        m = s.get(Material, material_id)
+        if m is None:
+            ids = s.exec(select(Material.id)).all()
+            raise NotFoundError(f"material: unknown id {material_id!r}{_close(material_id, ids)}")
+        values = s.exec(select(SusceptibilityValue).where(SusceptibilityValue.material_id == m.id)).all()
+        return _material_props(m, list(values), _sources(s))
+
+
+def get_grade(grade: str, url: str | None = None) -> GradeProps:
+    with read_session(url) as s:
+        g = s.get(MagnetGrade, grade)
+        if g is None:
+            # grades are case-sensitive in the trade (N42SH); accept any case when unique
+            all_grades = s.exec(select(MagnetGrade.grade)).all()
+            same = [x for x in all_grades if x.lower() == grade.lower()]
+            if len(same) == 1:
+                g = s.get(MagnetGrade, same[0])
+            else:
+                raise NotFoundError(f"grade: unknown magnet grade {grade!r}{_close(grade, all_grades)}")
+        values = s.exec(select(MagnetValue).where(MagnetValue.grade == g.grade)).all()
+        return _grade_props(g, list(values), _sources(s))
+
+
+def material_record(p: MaterialProps) -> dict:
+    """The public JSON record of a material (contract keys first)."""
+    return {
+        "id": p.id,
+        "name": p.name,
+        "kind": p.kind,
+        "chi_si": p.chi_si,
+        "chi_perp_si": p.chi_perp_si,
+        "chi_par_si": p.chi_par_si,
+        "density_kg_m3": p.density_kg_m3,
+        "abs_chi_per_density_m3_kg": abs(p.chi_si) / p.density_kg_m3,
+        "uncertainty_si": p.uncertainty_si,
+        "temp_coeff_per_k": p.temp_coeff_per_k,
+        "source": p.source,
+        "source_key": p.source_key,
+        "value_kind": p.value_kind,
+        "value_id": p.value_id,
+        "price_usd_per_kg": p.price_usd_per_kg,
+        "price_illustrative": p.price_illustrative,
+    }
+
+
+def grade_record(g: GradeProps) -> dict:
+    d = asdict(g)
+    first = ["grade", "family", "br_t", "br_min_t", "hcb_ka_m", "hcj_ka_m", "bhmax_kj_m3",
+             "alpha_br_pct_per_k", "beta_hcj_pct_per_k", "max_temp_c", "density_kg_m3", "source"]
+    return {k: d[k] for k in first} | {k: v for k, v in d.items() if k not in first}
+
+
+def materials_df(url: str | None = None) -> pd.DataFrame:
+    return pd.DataFrame([material_record(p) for p in list_materials(url)])
+
+
+def magnets_df(url: str | None = None) -> pd.DataFrame:
+    return pd.DataFrame([grade_record(g) for g in list_grades(url)])
+
+
+def material_values(material_id: str, url: str | None = None) -> list[dict]:
+    """Every susceptibility row of a material with its provenance (for show/history)."""
+    with read_session(url) as s:
+        m = s.get(Material, material_id)
+        if m is None:
+            ids = s.exec(select(Material.id)).all()
+            raise NotFoundError(f"material: unknown id {material_id!r}{_close(material_id, ids)}")
+        values = list(s.exec(select(SusceptibilityValue).where(SusceptibilityValue.material_id == m.id)
+                             .order_by(SusceptibilityValue.id)).all())
+        pref = choose_preferred(values, m.preferred_value_id)
+        sources = _sources(s)
+        rows = []
+        for v in values:
+            src = sources.get(v.source_key)
+            rows.append({
+                "value_id": v.id, "value_kind": v.quality, "chi_si": v.chi_si,
+                "chi_perp_si": v.chi_perp_si, "chi_par_si": v.chi_par_si,
+                "value_published": v.value_published, "value_par_published": v.value_par_published,
+                "convention": v.convention,
+                "temperature_c": None if v.temperature_k is None else round(v.temperature_k - 273.15, 6),
+                "uncertainty": v.uncertainty_si, "temp_coeff_per_k": v.temp_coeff_per_k,
+                "density_kg_m3": v.density_kg_m3,
+                "source": (v.source_note or (src.citation if src else v.source_key)),
+                "source_key": v.source_key, "measured_by": v.measured_by,
+                "date": v.measured_on.isoformat() if v.measured_on else None,
+                "method": v.method, "note": v.note,
+                "entered_at": v.entered_at.isoformat(timespec="seconds") if v.entered_at else None,
+                "preferred": pref is not None and v.id == pref.id,
+                "retracted": v.retracted, "retract_reason": v.retract_reason,
+            })
+        return rows
+
+
+def grade_values(grade: str, url: str | None = None) -> list[dict]:
+    g = get_grade(grade, url)
+    with read_session(url) as s:
+        values = list(s.exec(select(MagnetValue).where(MagnetValue.grade == g.grade).order_by(MagnetValue.id)).all())
+        grade_row = s.get(MagnetGrade, g.grade)
+        pref = choose_preferred(values, grade_row.preferred_value_id)
+        sources = _sources(s)
+        rows = []
+        for v in values:
+            src = sources.get(v.source_key)
+            d = {"value_id": v.id, "value_kind": v.quality}
+            d.update({f: getattr(v, f) for f in _MAGNET_FIELDS})
+            d.update({
+                "source": v.source_note or (src.citation if src else v.source_key),
+                "source_key": v.source_key, "measured_by": v.measured_by,
+                "date": v.measured_on.isoformat() if v.measured_on else None,
+                "method": v.method, "note": v.note,
+                "preferred": pref is not None and v.id == pref.id,
+                "retracted": v.retracted, "retract_reason": v.retract_reason,
+            })
+            rows.append(d)
+        return rows

@@ -1,0 +1,123 @@
+"""Database tables (sqlmodel).
+
+Every number is a *value row* with provenance, never a column of the material or grade
+itself, so lab-measured values can be appended beside the published ones without touching
+them. A material or grade points to a preferred value (``preferred_value_id``); when that
+is unset the newest measured value (by measurement date, then entry time) is used, else
+the handbook value.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+from typing import Optional
+
+from sqlmodel import Field, SQLModel
+
+QUALITY_CLASSES = ("handbook", "standard", "measured", "estimate")
+MATERIAL_KINDS = ("diamagnetic", "paramagnetic")
+FAMILIES = ("NdFeB", "SmCo", "ferrite", "AlNiCo", "bonded-NdFeB")
+AXES = ("iso", "perp", "par")
+
+
+def _now() -> _dt.datetime:
+    return _dt.datetime.now(_dt.timezone.utc).replace(tzinfo=None)
+
+
+class Source(SQLModel, table=True):
+    """A bibliography entry every value row cites by key."""
+
+    key: str = Field(primary_key=True)
+    citation: str
+    kind: str  # handbook | standard | paper | datasheet | common-practice | lab
+    year: Optional[int] = None
+    note: str = ""
+
+
+class Material(SQLModel, table=True):
+    id: str = Field(primary_key=True)  # lower-case slug
+    name: str
+    kind: str  # diamagnetic | paramagnetic
+    density_kg_m3: float
+    molar_mass_kg_mol: Optional[float] = None
+    anisotropic: bool = False
+    price_usd_per_kg: Optional[float] = None
+    price_note: str = ""
+    price_illustrative: bool = True
+    density_source_key: Optional[str] = Field(default=None, foreign_key="source.key")
+    note: str = ""
+    preferred_value_id: Optional[int] = None
+    origin: str = "seed"  # seed | user
+
+
+class SusceptibilityValue(SQLModel, table=True):
+    """One published or measured susceptibility of a material.
+
+    ``chi_si`` is the SI volume susceptibility in use for the row: the isotropic value, or
+    for anisotropic materials the value with the field perpendicular to the basal plane
+    (``chi_perp_si``); ``chi_par_si`` the in-plane value.
+    """
+
+    id: Optional[int] = Field(default=None, primary_key=True)
+    material_id: str = Field(foreign_key="material.id", index=True)
+    value_published: float
+    value_par_published: Optional[float] = None
+    convention: str = "si-volume"
+    chi_si: float
+    chi_perp_si: Optional[float] = None
+    chi_par_si: Optional[float] = None
+    temperature_k: Optional[float] = None
+    uncertainty_si: Optional[float] = None
+    temp_coeff_per_k: Optional[float] = None
+    density_kg_m3: Optional[float] = None  # measured density, if given with the value
+    quality: str = "handbook"
+    source_key: str = Field(foreign_key="source.key")
+    source_note: str = ""  # free text given with a measurement
+    note: str = ""
+    measured_by: Optional[str] = None
+    measured_on: Optional[_dt.date] = None
+    method: Optional[str] = None
+    entered_at: _dt.datetime = Field(default_factory=_now)
+    retracted: bool = False
+    retract_reason: Optional[str] = None
+
+
+class MagnetGrade(SQLModel, table=True):
+    grade: str = Field(primary_key=True)
+    family: str
+    price_usd_per_kg: Optional[float] = None
+    price_illustrative: bool = True
+    note: str = ""
+    preferred_value_id: Optional[int] = None
+    origin: str = "seed"
+
+
+class MagnetValue(SQLModel, table=True):
+    """One published or measured property set of a magnet grade.
+
+    A measured row may hold only some properties (say, Br from a gaussmeter); the rest are
+    taken from the grade's published row.
+    """
+
+    id: Optional[int] = Field(default=None, primary_key=True)
+    grade: str = Field(foreign_key="magnetgrade.grade", index=True)
+    br_t: Optional[float] = None
+    br_min_t: Optional[float] = None
+    hcb_ka_m: Optional[float] = None
+    hcj_ka_m: Optional[float] = None
+    bhmax_kj_m3: Optional[float] = None
+    alpha_br_pct_per_k: Optional[float] = None
+    beta_hcj_pct_per_k: Optional[float] = None
+    max_temp_c: Optional[float] = None
+    mu_rec: Optional[float] = None
+    density_kg_m3: Optional[float] = None
+    quality: str = "standard"
+    source_key: str = Field(foreign_key="source.key")
+    source_note: str = ""
+    note: str = ""
+    measured_by: Optional[str] = None
+    measured_on: Optional[_dt.date] = None
+    method: Optional[str] = None
+    entered_at: _dt.datetime = Field(default_factory=_now)
+    retracted: bool = False
+    retract_reason: Optional[str] = None

@@ -1,0 +1,133 @@
+"""Printing records as an aligned table, JSON or CSV (pandas-readable)."""
+
+from __future__ import annotations
+
+import json
+import math
+import sys
+from typing import Any, Iterable, Sequence
+
+import pandas as pd
+
+FORMATS = ("table", "json", "csv")
+
+
+def add_format_argument(parser, choices: Sequence[str] = FORMATS, default: str = "table") -> None:
+    parser.add_argument("--format", choices=list(choices), default=default,
+                        help=f"output format ({', '.join(choices)}; default {default})")
+
+
+def _json_default(o: Any):
+    try:
+        import numpy as np
+
+        if isinstance(o, np.generic):
+            return o.item()
+        if isinstance(o, np.ndarray):
+            return o.tolist()
+    except ImportError:  # pragma: no cover
+        pass
+    if hasattr(o, "isoformat"):
+        return o.isoformat()
+    raise TypeError(f"not JSON serialisable: {type(o).__name__}")
+
+
+def _clean(o):
+    """NaN and inf are not JSON: turn them into null."""
+    if isinstance(o, float) and not math.isfinite(o):
+        return None
+    if isinstance(o, dict):
+        return {k: _clean(v) for k, v in o.items()}
+    if isinstance(o, (list, tuple)):
+        return [_clean(v) for v in o]
+    return o
+
+
+def to_json(data: Any) -> str:
+    return json.dumps(_clean(data), indent=2, default=_json_default, ensure_ascii=False)
+
+
+def _fmt_cell(v: Any) -> str:
+    if v is None:
+        return "-"
+    if isinstance(v, bool):
+        return "yes" if v else "no"
+    if isinstance(v, float):
+        if not math.isfinite(v):
+            return "-"
+        if v == 0:
+            return "0"
+        a = abs(v)
+        if a >= 1e5 or a < 1e-3:
+            return f"{v:.4g}"
+        return f"{v:.4g}"
+    if isinstance(v, (list, dict)):
+        return json.dumps(v, default=_json_default)[:40]
+    return str(v)
+
+
+def format_table(rows: Sequence[dict], columns: Sequence[str] | None = None,
+                 headers: dict[str, str] | None = None, max_width: int = 60) -> str:
+    """Aligned plain-text table; numbers right-aligned."""
+    if not rows:
+        return "(no rows)"
+    columns = list(columns or rows[0].keys())
+    headers = headers or {}
+    cells = [[_fmt_cell(r.get(c)) for c in columns] for r in rows]
+    cells = [[c if len(c) <= max_width else c[: max_width - 3] + "..." for c in row] for row in cells]
+    head = [headers.get(c, c) for c in columns]
+    widths = [max(len(h), *(len(row[i]) for row in cells)) for i, h in enumerate(head)]
+    numeric = [all(isinstance(r.get(c), (int, float)) and not isinstance(r.get(c), bool)
+                   for r in rows if r.get(c) is not None) for c in columns]
+    def line(vals):
+        return "  ".join(v.rjust(w) if num else v.ljust(w) for v, w, num in zip(vals, widths, numeric)).rstrip()
+    out = [line(head), "  ".join("-" * w for w in widths)]
+    out += [line(row) for row in cells]
+    return "\n".join(out)
+
+
+def format_keyvalue(record: dict, units: dict[str, str] | None = None) -> str:
+    units = units or {}
+    width = max(len(k) for k in record) if record else 0
+    lines = []
+    for k, v in record.items():
+        if isinstance(v, (list, dict)):
+            continue
+        u = units.get(k, "")
+        lines.append(f"{k.ljust(width)}  {_fmt_cell(v)}{(' ' + u) if u and v is not None else ''}")
+    return "\n".join(lines)
+
+
+def emit(data: Any, fmt: str, columns: Sequence[str] | None = None,
+         headers: dict[str, str] | None = None, stream=None) -> None:
+    """Print ``data`` (a list of records or one record) in ``fmt``."""
+    stream = stream or sys.stdout
+    if fmt == "json":
+        stream.write(to_json(data) + "\n")
+        return
+    rows = data if isinstance(data, list) else [data]
+    if fmt == "csv":
+        df = pd.DataFrame(rows)
+        if columns:
+            df = df[[c for c in columns if c in df.columns]]
+        for c in df.columns:
+            if df[c].map(lambda v: isinstance(v, (list, dict))).any():
+                df[c] = df[c].map(lambda v: json.dumps(v, default=_json_default) if isinstance(v, (list, dict)) else v)
+        stream.write(df.to_csv(index=False, float_format="%.10g"))
+        return
+    if isinstance(data, dict):
+        stream.write(format_keyvalue(data) + "\n")
+    else:
+        stream.write(format_table(rows, columns, headers) + "\n")
+
+
+def records(df: pd.DataFrame) -> list[dict]:
+    """DataFrame rows as plain dicts with None for missing values."""
+    out = []
+    for r in df.to_dict(orient="records"):
+        out.append({k: (None if (isinstance(v, float) and math.isnan(v)) else v) for k, v in r.items()})
+    return out
+
+
+def iter_lines(text: str) -> Iterable[str]:
+    return text.splitlines()

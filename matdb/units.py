@@ -1,0 +1,393 @@
+"""The one unit registry, parsing of what people type, and susceptibility conventions.
+
+Everything below the boundary works in SI floats. This module turns strings such as
+``"12.7 mm"``, ``"5000 G"``, ``"20 degC"`` or ``"-280.1e-6 cm^3/mol"`` into SI numbers
+and back, and converts magnetic susceptibilities between the six conventions found in
+handbooks.
+
+Susceptibility conventions
+--------------------------
+=============  ==================  ===========================================
+name           unit as published   to SI volume susceptibility chi_v
+=============  ==================  ===========================================
+si-volume      1                   chi_v
+cgs-volume     emu/(cm^3 Oe)       4 pi chi
+si-mass        m^3/kg              chi * rho
+cgs-mass       cm^3/g              4 pi * 1e-3 * chi * rho
+si-molar       m^3/mol             chi * rho / M
+cgs-molar      cm^3/mol            4 pi * 1e-6 * chi * rho / M
+=============  ==================  ===========================================
+
+rho in kg/m^3, M in kg/mol. The factor 4 pi is the rationalisation between the
+Gaussian (emu) and SI systems; cm^3/g and cm^3/mol are the emu conventions, so a
+plain volume-unit conversion would be wrong by 4 pi. The factor lives in one place,
+:data:`_FOUR_PI_CGS`, and nowhere else in matdb.
+
+References
+----------
+.. [1] IUPAC, "Quantities, Units and Symbols in Physical Chemistry" (Green Book),
+   3rd ed., 2007, section 7.4 (conversion of electromagnetic quantities).
+.. [2] R. B. Goldfarb and F. R. Fickett, "Units for Magnetic Properties",
+   NBS Special Publication 696 (1985).
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from typing import Iterable
+
+import pint
+
+from .errors import InputError
+
+ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
+ureg.define("MGOe = 1e5 / (4 * pi) * J / m**3")
+ureg.define("USD = [currency]")
+Q_ = ureg.Quantity
+
+MU0 = 4e-7 * math.pi * 1.00000000055  # vacuum permeability, CODATA 2018 [T m / A]
+G_STANDARD = 9.80665  # standard gravity [m/s^2] (CGPM 1901)
+
+CONVENTIONS = ("si-volume", "cgs-volume", "si-mass", "cgs-mass", "si-molar", "cgs-molar")
+
+# 4 pi times the unit scale between the emu convention and SI, per convention.
+_FOUR_PI_CGS = {
+    "si-volume": 1.0,
+    "cgs-volume": 4.0 * math.pi,
+    "si-mass": 1.0,
+    "cgs-mass": 4.0 * math.pi * 1e-3,  # cm^3/g -> m^3/kg is 1e-3
+    "si-molar": 1.0,
+    "cgs-molar": 4.0 * math.pi * 1e-6,  # cm^3/mol -> m^3/mol is 1e-6
+}
+
+_UNIT_ALIASES = {
+    "si-volume": "si-volume",
+    "si": "si-volume",
+    "cgs-volume": "cgs-volume",
+    "si-mass": "si-mass",
+    "cgs-mass": "cgs-mass",
+    "si-molar": "si-molar",
+    "cgs-molar": "cgs-molar",
+    "m^3/kg": "si-mass",
+    "m^3/mol": "si-molar",
+    "cm^3/g": "cgs-mass",
+    "cm^3/mol": "cgs-molar",
+    "emu/(gOe)": "cgs-mass",
+    "emu/(molOe)": "cgs-molar",
+    "emu/(cm^3Oe)": "cgs-volume",
+}
+
+ACCEPTED_CHI_UNITS = (
+    "si-volume, cgs-volume, si-mass, cgs-mass, si-molar, cgs-molar, "
+    "m^3/kg, m^3/mol (SI), cm^3/g, cm^3/mol, emu/(g Oe), emu/(mol Oe) (CGS-emu)"
+)
+
+_NUMBER_RE = re.compile(r"^[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?$")
+_NEG_NUMBER_RE = re.compile(r"^-(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?(\s.*)?$")
+
+
+# ---------------------------------------------------------------------------
+# numbers and quantities
+# ---------------------------------------------------------------------------
+def parse_number(text: str | float | int, field: str) -> float:
+    """A finite float from a number or a string such as ``"-1.6e-4"``."""
+    if isinstance(text, bool):
+        raise InputError(f"{field}: expected a number, got {text!r}")
+    if isinstance(text, (int, float)):
+        value = float(text)
+    else:
+        s = str(text).strip()
+        if not _NUMBER_RE.match(s):
+            raise InputError(f"{field}: expected a number such as -1.6e-4, got {text!r}")
+        value = float(s)
+    if not math.isfinite(value):
+        raise InputError(f"{field}: expected a finite number, got {text!r}")
+    return value
+
+
+def _normalise_unit_text(text: str) -> str:
+    s = text.strip().replace("**", "^").replace("·", " ").replace("µ", "u").replace("μ", "u")
+    s = re.sub(r"\bdeg\s*C\b|°C|℃", "degC", s)
+    s = re.sub(r"°F", "degF", s)
+    return s
+
+
+def _split_number_unit(text: str, field: str) -> tuple[float, str]:
+    s = str(text).strip()
+    m = re.match(r"^([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*)$", s)
+    if not m:
+        raise InputError(f"{field}: expected a number with a unit, got {text!r}")
+    value = parse_number(m.group(1), field)
+    return value, m.group(2).strip()
+
+
+def to_quantity(text: str | float | int, field: str) -> pint.Quantity:
+    """Parse ``text`` into a pint Quantity (number and unit), with a field-named error."""
+    if isinstance(text, pint.Quantity):
+        return text
+    if isinstance(text, (int, float)) and not isinstance(text, bool):
+        return Q_(parse_number(text, field), "")
+    value, unit = _split_number_unit(str(text), field)
+    unit = _normalise_unit_text(unit)
+    if unit in ("C",):
+        unit = "degC"
+    elif unit in ("F",):
+        unit = "degF"
+    try:
+        u = ureg.parse_units(unit) if unit else ureg.dimensionless
+    except Exception as exc:  # pint raises several types for junk units
+        raise InputError(f"{field}: unknown unit {unit!r} in {text!r}") from exc
+    return Q_(value, u)
+
+
+def _convert(q: pint.Quantity, unit: str, field: str, text) -> float:
+    for ctx in ((), ("Gaussian",)):
+        try:
+            return float(q.to(unit, *ctx).magnitude)
+        except pint.DimensionalityError:
+            continue
+        except Exception:
+            continue
+    want = ureg.parse_units(unit).dimensionality
+    raise InputError(
+        f"{field}: expected a quantity with units of {want} (e.g. '1 {unit}'), got {text!r}"
+    )
+
+
+def parse_quantity(
+    text: str | float | int,
+    unit: str,
+    field: str,
+    *,
+    require_unit: bool = True,
+    min_value: float | None = None,
+    positive: bool = False,
+) -> float:
+    """Parse a quantity a person typed and return its magnitude in ``unit``.
+
+    Parameters
+    ----------
+    text : str or number
+        ``"12.7 mm"``, ``"0.5 T"``, ``"5000 G"``, ``"9.78 g/cm^3"``...
+    unit : str
+        pint unit to return the magnitude in, e.g. ``"m"``, ``"T"``, ``"kg/m^3"``.
+    field : str
+        Name of the input, used in error messages.
+    require_unit : bool
+        When True a bare number is refused (``"12.7"`` for a length is ambiguous).
+    min_value, positive : optional bounds, checked in ``unit``.
+    """
+    q = to_quantity(text, field)
+    target = ureg.parse_units(unit)
+    if str(q.units) == "dimensionless" and not (1 * target).dimensionless:
+        if require_unit:
+            raise InputError(
+                f"{field}: missing unit in {text!r}; expected a quantity such as '1 {unit}'"
+            )
+        value = float(q.magnitude)
+    else:
+        value = _convert(q, unit, field, text)
+    if not math.isfinite(value):
+        raise InputError(f"{field}: expected a finite value, got {text!r}")
+    if positive and value <= 0:
+        raise InputError(f"{field}: expected a positive value, got {text!r}")
+    if min_value is not None and value < min_value:
+        raise InputError(f"{field}: expected at least {min_value:g} {unit}, got {text!r}")
+    return value
+
+
+def parse_length(text, field: str, *, positive: bool = False, allow_zero: bool = True) -> float:
+    """Length in metres; negative lengths are refused."""
+    v = parse_quantity(text, "m", field)
+    if v < 0 or (positive and v == 0) or (not allow_zero and v == 0):
+        raise InputError(f"{field}: expected a positive length, got {text!r}")
+    return v
+
+
+def parse_mass(text, field: str) -> float:
+    """Mass in kg, not negative."""
+    v = parse_quantity(text, "kg", field)
+    if v < 0:
+        raise InputError(f"{field}: expected a mass of zero or more, got {text!r}")
+    return v
+
+
+def parse_flux_density(text, field: str) -> float:
+    """Magnetic flux density in tesla ("1.32 T", "13200 G", "1320 mT")."""
+    return parse_quantity(text, "T", field)
+
+
+def parse_temperature(text, field: str) -> float:
+    """Absolute temperature in kelvin from ``"20 degC"``, ``"293.15 K"``, ``"68 degF"``."""
+    q = to_quantity(text, field)
+    if str(q.units) == "dimensionless":
+        raise InputError(f"{field}: missing unit in {text!r}; expected e.g. '20 degC' or '293 K'")
+    try:
+        k = float(q.to("K").magnitude)
+    except Exception as exc:
+        raise InputError(f"{field}: expected a temperature such as '20 degC', got {text!r}") from exc
+    if k <= 0:
+        raise InputError(f"{field}: temperature below absolute zero: {text!r}")
+    return k
+
+
+def kelvin_to_celsius(t_k: float) -> float:
+    return t_k - 273.15
+
+
+def celsius_to_kelvin(t_c: float) -> float:
+    return t_c + 273.15
+
+
+def parse_density(text, field: str = "density") -> float:
+    """Density in kg/m^3, refusing values outside 1 to 25000 kg/m^3."""
+    v = parse_quantity(text, "kg/m^3", field)
+    if not (1.0 <= v <= 25000.0):
+        raise InputError(f"{field}: density {text!r} is outside 1 to 25000 kg/m^3")
+    return v
+
+
+def parse_molar_mass(text, field: str = "molar_mass") -> float:
+    """Molar mass in kg/mol ("208.98 g/mol")."""
+    return parse_quantity(text, "kg/mol", field, positive=True)
+
+
+def format_quantity(value_si: float, si_unit: str, unit: str, digits: int = 4) -> str:
+    """Format an SI magnitude in a human unit: ``format_quantity(1.2e-3, "m", "mm")``."""
+    q = Q_(value_si, si_unit)
+    try:
+        mag = q.to(unit).magnitude
+    except pint.DimensionalityError:
+        mag = q.to(unit, "Gaussian").magnitude
+    return f"{mag:.{digits}g} {unit}"
+
+
+def tesla_to_gauss(b_t: float) -> float:
+    """Flux density in gauss, via pint's Gaussian context."""
+    return float(Q_(b_t, "T").to("gauss", "Gaussian").magnitude)
+
+
+# ---------------------------------------------------------------------------
+# susceptibility conventions
+# ---------------------------------------------------------------------------
+def parse_convention(unit_text: str, field: str = "unit") -> str:
+    """Map a convention name or a unit string to one of :data:`CONVENTIONS`."""
+    key = re.sub(r"\s+", "", _normalise_unit_text(str(unit_text))).replace("*", "")
+    key = key.replace("cm3", "cm^3").replace("m3", "m^3")
+    key = key.replace("(g.Oe)", "(gOe)").replace("(mol.Oe)", "(molOe)")
+    conv = _UNIT_ALIASES.get(key) or _UNIT_ALIASES.get(key.lower())
+    if conv is None:
+        raise InputError(
+            f"{field}: unknown susceptibility unit {unit_text!r}; accepted: {ACCEPTED_CHI_UNITS}"
+        )
+    return conv
+
+
+def needs_density(convention: str) -> bool:
+    return convention in ("si-mass", "cgs-mass", "si-molar", "cgs-molar")
+
+
+def needs_molar_mass(convention: str) -> bool:
+    return convention in ("si-molar", "cgs-molar")
+
+
+def _check_inputs(convention: str, density_kg_m3, molar_mass_kg_mol, what: str) -> None:
+    if convention not in CONVENTIONS:
+        raise InputError(f"convention: expected one of {', '.join(CONVENTIONS)}, got {convention!r}")
+    if needs_density(convention) and density_kg_m3 is None:
+        raise InputError(f"density: needed to convert {what} {convention}; give e.g. --density '9.78 g/cm^3'")
+    if needs_molar_mass(convention) and molar_mass_kg_mol is None:
+        raise InputError(
+            f"molar_mass: needed to convert {what} {convention}; give e.g. --molar-mass '208.98 g/mol'"
+        )
+    if density_kg_m3 is not None and not (density_kg_m3 > 0 and math.isfinite(density_kg_m3)):
+        raise InputError(f"density: expected a positive density, got {density_kg_m3!r}")
+    if molar_mass_kg_mol is not None and not (molar_mass_kg_mol > 0 and math.isfinite(molar_mass_kg_mol)):
+        raise InputError(f"molar_mass: expected a positive molar mass, got {molar_mass_kg_mol!r}")
+
+
+def chi_to_si_volume(
+    value: float,
+    convention: str,
+    density_kg_m3: float | None = None,
+    molar_mass_kg_mol: float | None = None,
+) -> float:
+    """Convert a susceptibility in ``convention`` to the SI volume susceptibility [1].
+
+    Parameters
+    ----------
+    value : float
+        The number as published.
+    convention : str
+        One of :data:`CONVENTIONS`.
+    density_kg_m3 : float, optional
+        Needed for mass and molar conventions [kg/m^3].
+    molar_mass_kg_mol : float, optional
+        Needed for molar conventions [kg/mol].
+    """
+    _check_inputs(convention, density_kg_m3, molar_mass_kg_mol, "from")
+    chi = float(value) * _FOUR_PI_CGS[convention]
+    if convention in ("si-mass", "cgs-mass"):
+        chi *= density_kg_m3
+    elif convention in ("si-molar", "cgs-molar"):
+        chi *= density_kg_m3 / molar_mass_kg_mol
+    return chi
+
+
+def chi_from_si_volume(
+    chi_si: float,
+    convention: str,
+    density_kg_m3: float | None = None,
+    molar_mass_kg_mol: float | None = None,
+) -> float:
+    """Inverse of :func:`chi_to_si_volume`."""
+    _check_inputs(convention, density_kg_m3, molar_mass_kg_mol, "to")
+    value = float(chi_si) / _FOUR_PI_CGS[convention]
+    if convention in ("si-mass", "cgs-mass"):
+        value /= density_kg_m3
+    elif convention in ("si-molar", "cgs-molar"):
+        value *= molar_mass_kg_mol / density_kg_m3
+    return value
+
+
+def parse_chi(
+    text: str | float,
+    field: str = "chi",
+    *,
+    density_kg_m3: float | None = None,
+    molar_mass_kg_mol: float | None = None,
+) -> tuple[float, float, str]:
+    """Parse ``"-1.6e-4"``, ``"-1.31e-5 cgs-volume"`` or ``"-280e-6 cm^3/mol"``.
+
+    Returns ``(chi_si_volume, value_as_published, convention)``. A bare number is an SI
+    volume susceptibility. A dimension that is not a susceptibility ("5 kg") is refused.
+    """
+    if isinstance(text, (int, float)) and not isinstance(text, bool):
+        v = parse_number(text, field)
+        return v, v, "si-volume"
+    value, unit = _split_number_unit(str(text), field)
+    if not unit:
+        return value, value, "si-volume"
+    conv = parse_convention(unit, field)
+    return chi_to_si_volume(value, conv, density_kg_m3, molar_mass_kg_mol), value, conv
+
+
+# ---------------------------------------------------------------------------
+# command lines
+# ---------------------------------------------------------------------------
+def protect_negative_numbers(argv: Iterable[str]) -> list[str]:
+    """Make argparse accept negative numbers in exponent notation.
+
+    argparse takes ``-1.6e-4`` for an option flag (its negative-number rule does not cover
+    exponent notation). A token that reads as a negative number, alone or followed by a
+    unit (``"-280e-6 cm^3/mol"``), gets a leading space, which argparse never treats as a
+    flag and which every parser here strips again.
+    """
+    out = []
+    for tok in argv:
+        if _NEG_NUMBER_RE.match(tok):
+            out.append(" " + tok)
+        else:
+            out.append(tok)
+    return out
