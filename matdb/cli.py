@@ -16,6 +16,7 @@ from .units import protect_negative_numbers
 
 COMMAND_MODULES = [
     "matdb.commands.catalog",
+    "matdb.commands.serve",
 ]
 
 
