@@ -1,0 +1,481 @@
+"""Magnet arrangements: superposition of closed-form fields, steel back plate by images.
+
+Conventions (other modules rely on them): magnets' top faces at z = 0, the arrangement
+centred on the z axis; ``cols`` run along x, ``rows`` along y; ``spacing`` is the clear
+gap between neighbours; magnet (row 0, col 0) at -x, -y is magnetised +z; the sign is
+(-1)^(row+col) for "checkerboard" and (-1)^row for "stripes"; "grid" is all +z;
+"single" is one magnet centred at x = y = 0. A "list" keeps the x, y given for each
+magnet and is shifted in z so that its highest top face is at z = 0.
+
+A back plate is an ideal high-permeability half-space under the magnets, its surface at
+the lowest bottom face. By the method of images its effect above the surface is that
+of the mirror image of every magnet in that plane with J' = (-Jx, -Jy, +Jz) [1]_: a
+magnet standing on the plate acts as one of twice its height.
+
+References
+----------
+.. [1] J. D. Jackson, Classical Electrodynamics, 3rd ed., Wiley (1999), section 5.9
+   (boundary conditions at a high-permeability surface; image of a magnetic charge
+   distribution in a mu -> infinity half-space).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field, replace
+from typing import Any, Sequence
+
+import numpy as np
+
+from ..errors import InputError
+from ..units import MU0
+from .fields import CuboidSet, _as_points, _cyl_sum
+
+__all__ = ["Magnet", "Arrangement", "build_arrangement", "SHAPES", "PATTERNS"]
+
+SHAPES = ("cuboid", "cylinder", "ring")
+PATTERNS = ("single", "grid", "checkerboard", "stripes", "list")
+_SIZE_FORM = {
+    "cuboid": "(x, y, height)",
+    "cylinder": "(diameter, height)",
+    "ring": "(outer diameter, inner diameter, height)",
+}
+_SIZE_LEN = {"cuboid": 3, "cylinder": 2, "ring": 3}
+
+
+def _float(value: Any, field_name: str) -> float:
+    try:
+        v = float(value)
+    except (TypeError, ValueError) as exc:
+        raise InputError(f"{field_name}: expected a number, got {value!r}") from exc
+    if not math.isfinite(v):
+        raise InputError(f"{field_name}: expected a finite number, got {value!r}")
+    return v
+
+
+def _vector(value: Any, field_name: str) -> tuple[float, float, float]:
+    try:
+        items = list(value)
+    except TypeError as exc:
+        raise InputError(f"{field_name}: expected 3 numbers, got {value!r}") from exc
+    if len(items) != 3:
+        raise InputError(f"{field_name}: expected 3 numbers, got {value!r}")
+    return tuple(_float(v, field_name) for v in items)  # type: ignore[return-value]
+
+
+def _check_shape(shape: Any) -> str:
+    s = str(shape).strip().lower() if isinstance(shape, str) else shape
+    if s not in SHAPES:
+        raise InputError(f"shape: expected one of {', '.join(SHAPES)}, got {shape!r}")
+    return s
+
+
+def _check_size(shape: str, size: Any) -> tuple[float, ...]:
+    form = _SIZE_FORM[shape]
+    try:
+        items = list(size)
+    except TypeError as exc:
+        raise InputError(f"size: expected {form} in metres for a {shape}, got {size!r}") from exc
+    if len(items) != _SIZE_LEN[shape]:
+        raise InputError(f"size: expected {form} in metres for a {shape}, got {size!r}")
+    vals = tuple(_float(v, "size") for v in items)
+    if shape == "ring":
+        outer, inner, h = vals
+        if not (outer > 0 and h > 0 and 0 <= inner < outer):
+            raise InputError(
+                f"size: expected {form} with 0 <= inner < outer and positive lengths, got {size!r}"
+            )
+    elif not all(v > 0 for v in vals):
+        raise InputError(f"size: expected {form} of positive lengths in metres, got {size!r}")
+    return vals
+
+
+@dataclass(frozen=True)
+class Magnet:
+    """One uniformly magnetised permanent magnet (SI).
+
+    Attributes
+    ----------
+    shape : str
+        "cuboid", "cylinder" or "ring" (axis-aligned; cylinders and rings along z).
+    size : tuple of float
+        cuboid (x, y, height); cylinder (diameter, height); ring (outer diameter,
+        inner diameter, height) [m].
+    position : tuple of float
+        Centre [m].
+    direction : tuple of float
+        Magnetisation direction, normalised on creation; (0, 0, +-1) for cylinders and
+        rings.
+    br : float
+        Remanence [T]; the polarisation is J = br * direction.
+    grade : str or None
+        Grade name, descriptive.
+    """
+
+    shape: str
+    size: tuple[float, ...]
+    position: tuple[float, float, float]
+    direction: tuple[float, float, float]
+    br: float
+    grade: str | None = None
+
+    def __post_init__(self) -> None:
+        shape = _check_shape(self.shape)
+        size = _check_size(shape, self.size)
+        pos = _vector(self.position, "position")
+        d = _vector(self.direction, "direction")
+        n = math.sqrt(sum(c * c for c in d))
+        if n == 0:
+            raise InputError(f"direction: expected a non-zero vector, got {self.direction!r}")
+        d = tuple(c / n for c in d)
+        if shape != "cuboid" and (abs(d[0]) > 1e-12 or abs(d[1]) > 1e-12):
+            raise InputError(
+                f"direction: a {shape} is magnetised along its axis, expected (0, 0, 1) or (0, 0, -1), "
+                f"got {self.direction!r}"
+            )
+        if shape != "cuboid":
+            d = (0.0, 0.0, math.copysign(1.0, d[2]))
+        br = _float(self.br, "br")
+        object.__setattr__(self, "shape", shape)
+        object.__setattr__(self, "size", size)
+        object.__setattr__(self, "position", pos)
+        object.__setattr__(self, "direction", d)
+        object.__setattr__(self, "br", br)
+
+    @property
+    def height(self) -> float:
+        """Extent along z [m]."""
+        return self.size[-1]
+
+    @property
+    def polarization(self) -> tuple[float, float, float]:
+        """J = br * direction [T]."""
+        return tuple(self.br * c for c in self.direction)  # type: ignore[return-value]
+
+    @property
+    def half_extents(self) -> tuple[float, float, float]:
+        """Half sizes of the bounding box along x, y, z [m]."""
+        if self.shape == "cuboid":
+            return (self.size[0] / 2, self.size[1] / 2, self.size[2] / 2)
+        r = self.size[0] / 2
+        return (r, r, self.size[-1] / 2)
+
+    @property
+    def volume(self) -> float:
+        """Volume [m^3]."""
+        if self.shape == "cuboid":
+            return self.size[0] * self.size[1] * self.size[2]
+        if self.shape == "cylinder":
+            return math.pi / 4 * self.size[0] ** 2 * self.size[1]
+        return math.pi / 4 * (self.size[0] ** 2 - self.size[1] ** 2) * self.size[2]
+
+    @property
+    def top_z(self) -> float:
+        return self.position[2] + self.height / 2
+
+    @property
+    def bottom_z(self) -> float:
+        return self.position[2] - self.height / 2
+
+
+class _Fields:
+    """Precomputed sources of an arrangement (real magnets and images)."""
+
+    def __init__(self, magnets: Sequence[Magnet], plate_z: float | None):
+        cub_d, cub_j, cub_p = [], [], []
+        cyl_r, cyl_h, cyl_j, cyl_p, cyl_s = [], [], [], [], []
+
+        def add(mag: Magnet, pos, j):
+            if mag.shape == "cuboid":
+                cub_d.append(mag.size)
+                cub_j.append(j)
+                cub_p.append(pos)
+            else:
+                cyl_r.append(mag.size[0] / 2)
+                cyl_h.append(mag.size[-1] / 2)
+                cyl_j.append(j[2])
+                cyl_p.append(pos)
+                cyl_s.append(1.0)
+                if mag.shape == "ring" and mag.size[1] > 0:
+                    cyl_r.append(mag.size[1] / 2)
+                    cyl_h.append(mag.size[-1] / 2)
+                    cyl_j.append(-j[2])
+                    cyl_p.append(pos)
+                    cyl_s.append(-1.0)
+
+        for mag in magnets:
+            j = mag.polarization
+            add(mag, mag.position, j)
+            if plate_z is not None:
+                x, y, z = mag.position
+                add(mag, (x, y, 2 * plate_z - z), (-j[0], -j[1], j[2]))
+        self.cuboids = CuboidSet(np.reshape(cub_d, (-1, 3)), np.reshape(cub_j, (-1, 3)),
+                                 np.reshape(cub_p, (-1, 3))) if cub_d else None
+        self.cyl = None
+        if cyl_r:
+            self.cyl = tuple(np.asarray(a, dtype=float) for a in (cyl_r, cyl_h, cyl_j, cyl_s))
+            self.cyl_pos = np.reshape(np.asarray(cyl_p, dtype=float), (-1, 3))
+
+    def B(self, p: np.ndarray) -> np.ndarray:
+        out = np.zeros_like(p)
+        if self.cuboids is not None:
+            out += self.cuboids.B(p)
+        if self.cyl is not None:
+            r, h, j, s = self.cyl
+            for sign in (1.0, -1.0):
+                sel = s == sign
+                if np.any(sel):
+                    out += _cyl_sum(p, r[sel], h[sel], j[sel], self.cyl_pos[sel], sign)
+        return out
+
+
+@dataclass(frozen=True)
+class Arrangement:
+    """A set of magnets, optionally on an ideal steel back plate.
+
+    Attributes
+    ----------
+    magnets : tuple of Magnet
+    back_plate : bool
+        Ideal high-permeability half-space under the magnets, surface at the lowest
+        bottom face, modelled by image magnets with J' = (-Jx, -Jy, +Jz).
+    pattern, rows, cols : descriptive.
+    """
+
+    magnets: tuple[Magnet, ...]
+    back_plate: bool = False
+    pattern: str = "list"
+    rows: int = 1
+    cols: int = 1
+    _cache: dict = field(default_factory=dict, init=False, repr=False, compare=False)
+
+    def __post_init__(self) -> None:
+        mags = tuple(self.magnets)
+        if not mags:
+            raise InputError("magnets: expected at least one magnet")
+        for m in mags:
+            if not isinstance(m, Magnet):
+                raise InputError(f"magnets: expected Magnet objects, got {type(m).__name__}")
+        object.__setattr__(self, "magnets", mags)
+        object.__setattr__(self, "back_plate", bool(self.back_plate))
+
+    # -- geometry --------------------------------------------------------------
+    @property
+    def count(self) -> int:
+        return len(self.magnets)
+
+    @property
+    def magnet_volume_m3(self) -> float:
+        """Total magnet volume [m^3] (images not counted)."""
+        return float(sum(m.volume for m in self.magnets))
+
+    @property
+    def top_z(self) -> float:
+        """Highest top face [m]."""
+        return max(m.top_z for m in self.magnets)
+
+    @property
+    def bottom_z(self) -> float:
+        """Lowest bottom face [m] (the back plate surface when there is one)."""
+        return min(m.bottom_z for m in self.magnets)
+
+    def bounds(self) -> tuple[float, float, float, float, float, float]:
+        """Bounding box of the real magnets: (xmin, xmax, ymin, ymax, zmin, zmax) [m]."""
+        lo = np.array([[p - h for p, h in zip(m.position, m.half_extents)] for m in self.magnets])
+        hi = np.array([[p + h for p, h in zip(m.position, m.half_extents)] for m in self.magnets])
+        mn, mx = lo.min(axis=0), hi.max(axis=0)
+        return (float(mn[0]), float(mx[0]), float(mn[1]), float(mx[1]), float(mn[2]), float(mx[2]))
+
+    # -- fields ----------------------------------------------------------------
+    def _fields(self) -> _Fields:
+        f = self._cache.get("fields")
+        if f is None:
+            f = _Fields(self.magnets, self.bottom_z if self.back_plate else None)
+            self._cache["fields"] = f
+        return f
+
+    def B(self, points) -> np.ndarray:
+        """Total flux density (images included) at ``points`` (3,) or (n, 3) [m].
+
+        Returns shape (n, 3) [T] (n = 1 for a single point). Inside a magnet B includes
+        its polarisation; on faces the inside limit, finite on edges (see
+        :mod:`matdb.physics.fields`).
+        """
+        p = _as_points(points, "points")
+        return self._fields().B(p)
+
+    def _pol_table(self) -> np.ndarray:
+        t = self._cache.get("pol")
+        if t is None:
+            t = np.array([m.polarization for m in self.magnets], dtype=float)
+            self._cache["pol"] = t
+        return t
+
+    def H(self, points) -> np.ndarray:
+        """Magnetic field H = (B - J_inside) / mu0 [A/m], shape (n, 3).
+
+        J_inside is the polarisation of the real magnet containing the point (0 outside).
+        """
+        p = _as_points(points, "points")
+        b = self._fields().B(p)
+        idx = self.inside(p)
+        j = np.zeros_like(p)
+        hit = idx >= 0
+        j[hit] = self._pol_table()[idx[hit]]
+        return (b - j) / MU0
+
+    def inside(self, points) -> np.ndarray:
+        """Index of the (real) magnet containing each point, -1 outside; shape (n,).
+
+        Magnets are closed sets (faces count as inside); where magnets touch, the lower
+        index wins.
+        """
+        p = _as_points(points, "points")
+        out = np.full(p.shape[0], -1, dtype=int)
+        for i in range(len(self.magnets) - 1, -1, -1):  # loop over magnets, not points
+            m = self.magnets[i]
+            d = p - np.asarray(m.position)
+            hz = m.height / 2
+            inz = np.abs(d[:, 2]) <= hz
+            if m.shape == "cuboid":
+                ins = inz & (np.abs(d[:, 0]) <= m.size[0] / 2) & (np.abs(d[:, 1]) <= m.size[1] / 2)
+            else:
+                rho2 = d[:, 0] ** 2 + d[:, 1] ** 2
+                ins = inz & (rho2 <= (m.size[0] / 2) ** 2)
+                if m.shape == "ring":
+                    ins &= rho2 >= (m.size[1] / 2) ** 2
+            out[ins] = i
+        return out
+
+    # -- derived arrangements --------------------------------------------------
+    def scaled(self, factor: float) -> "Arrangement":
+        """Every br multiplied by ``factor`` (the field is linear in J)."""
+        f = _float(factor, "factor")
+        mags = tuple(replace(m, br=m.br * f) for m in self.magnets)
+        return Arrangement(mags, self.back_plate, self.pattern, self.rows, self.cols)
+
+    def with_unit_polarization(self) -> "Arrangement":
+        """Every |br| = 1 T, magnetisation directions kept (sign of br kept)."""
+        mags = tuple(replace(m, br=-1.0 if m.br < 0 else 1.0) for m in self.magnets)
+        return Arrangement(mags, self.back_plate, self.pattern, self.rows, self.cols)
+
+
+def _footprint(shape: str, size: tuple[float, ...]) -> tuple[float, float]:
+    if shape == "cuboid":
+        return size[0], size[1]
+    return size[0], size[0]
+
+
+def _positive_int(value: Any, field_name: str) -> int:
+    if isinstance(value, bool):
+        raise InputError(f"{field_name}: expected a positive whole number, got {value!r}")
+    try:
+        f = float(value)
+    except (TypeError, ValueError) as exc:
+        raise InputError(f"{field_name}: expected a positive whole number, got {value!r}") from exc
+    if not math.isfinite(f) or f != int(f) or f < 1:
+        raise InputError(f"{field_name}: expected a positive whole number, got {value!r}")
+    return int(f)
+
+
+def build_arrangement(
+    shape: str,
+    size: Sequence[float],
+    pattern: str = "single",
+    rows: int = 1,
+    cols: int = 1,
+    spacing: float = 0.0,
+    br: float = 1.0,
+    back_plate: bool = False,
+    items: Sequence[dict] | None = None,
+    grade: str | None = None,
+) -> Arrangement:
+    """Build an arrangement by the matdb conventions (see the module docstring).
+
+    Parameters
+    ----------
+    shape : str
+        "cuboid", "cylinder" or "ring".
+    size : sequence of float
+        cuboid (x, y, height); cylinder (diameter, height); ring (outer d, inner d,
+        height) [m].
+    pattern : str
+        "single", "grid" (all +z), "checkerboard", "stripes" or "list".
+    rows, cols : int
+        Magnets along y and along x.
+    spacing : float
+        Clear gap between neighbouring magnets [m].
+    br : float
+        Remanence [T], positive.
+    back_plate : bool
+        Ideal steel back plate under the magnets (image method).
+    items : list of dict
+        For "list": each with ``position`` (3 floats, centre [m]), ``direction``
+        (3 floats, normalised; zero refused) and optional ``size``, ``shape``, ``grade``,
+        ``br`` (defaults from the call).
+    grade : str, optional
+        Grade name, stored on each magnet.
+
+    Returns
+    -------
+    Arrangement
+    """
+    shape = _check_shape(shape)
+    size_t = _check_size(shape, size)
+    if not isinstance(pattern, str) or pattern.strip().lower() not in PATTERNS:
+        raise InputError(f"pattern: expected one of {', '.join(PATTERNS)}, got {pattern!r}")
+    pattern = pattern.strip().lower()
+    br_v = _float(br, "br")
+    if br_v <= 0:
+        raise InputError(f"br: expected a positive remanence in tesla, got {br!r}")
+    gap = _float(spacing, "spacing")
+    if gap < 0:
+        raise InputError(f"spacing: expected a clear gap of zero or more metres, got {spacing!r}")
+    h = size_t[-1]
+
+    if pattern == "list":
+        if items is None or len(items) == 0:
+            raise InputError("items: expected a non-empty list of magnets for pattern 'list'")
+        mags = []
+        for i, it in enumerate(items):
+            if not isinstance(it, dict):
+                raise InputError(f"items[{i}]: expected a dict with position and direction, got {it!r}")
+            if "position" not in it or "direction" not in it:
+                raise InputError(f"items[{i}]: expected keys 'position' and 'direction'")
+            shp = _check_shape(it.get("shape", shape))
+            sz = _check_size(shp, it.get("size", size_t if shp == shape else None))
+            b = _float(it.get("br", br_v), f"items[{i}].br")
+            mags.append(
+                Magnet(
+                    shape=shp,
+                    size=sz,
+                    position=_vector(it["position"], f"items[{i}].position"),
+                    direction=_vector(it["direction"], f"items[{i}].direction"),
+                    br=b,
+                    grade=it.get("grade", grade),
+                )
+            )
+        shift = max(m.top_z for m in mags)
+        mags = [replace(m, position=(m.position[0], m.position[1], m.position[2] - shift)) for m in mags]
+        return Arrangement(tuple(mags), back_plate, "list", 1, len(mags))
+
+    if pattern == "single":
+        rows_i = cols_i = 1
+    else:
+        rows_i = _positive_int(rows, "rows")
+        cols_i = _positive_int(cols, "cols")
+    fx, fy = _footprint(shape, size_t)
+    px, py = fx + gap, fy + gap
+    mags = []
+    for r in range(rows_i):
+        for c in range(cols_i):
+            if pattern == "checkerboard":
+                sign = (-1) ** (r + c)
+            elif pattern == "stripes":
+                sign = (-1) ** r
+            else:
+                sign = 1
+            x = (c - (cols_i - 1) / 2) * px
+            y = (r - (rows_i - 1) / 2) * py
+            mags.append(Magnet(shape, size_t, (x, y, -h / 2), (0.0, 0.0, float(sign)), br_v, grade))
+    return Arrangement(tuple(mags), back_plate, pattern, rows_i, cols_i)
