@@ -1,0 +1,394 @@
+"""Tables and curves the local web page shows, prepared without any page code.
+
+Every function here returns plain pandas DataFrames or floats in SI units (column names
+carry the unit), so the page only lays them out and the same numbers can be checked in
+tests or printed elsewhere. Nothing here imports Streamlit.
+
+The levitation view
+-------------------
+A body of volume susceptibility chi < 0 and density rho floats freely in a static field
+where the upward magnetic force per volume, (|chi| / mu0) (-B dB/dz), reaches its weight
+per volume rho g, i.e. where the field-gradient product
+
+    -B dB/dz = -(1/2) d(B^2)/dz  >=  mu0 rho g / |chi|                       [T^2/m]
+
+(M. V. Berry and A. K. Geim, "Of flying frogs and levitrons", Eur. J. Phys. 18, 307
+(1997); water needs about 1400 T^2/m). :func:`levitation_requirements` gives the right-hand
+side per material; :func:`arrangement_reach` evaluates the left-hand side over a few
+common NdFeB arrangements with the field engine, so the page can mark which materials
+such magnets can float.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Iterable, Sequence
+
+import numpy as np
+import pandas as pd
+
+from . import catalog
+from .errors import InputError
+from .units import CONVENTIONS, G_STANDARD, MU0, chi_from_si_volume
+
+# ---------------------------------------------------------------------------
+# susceptibility conventions as people read them
+# ---------------------------------------------------------------------------
+
+CHI_UNIT_LABELS = {
+    "si-volume": "SI volume (dimensionless)",
+    "cgs-volume": "CGS volume, emu/(cm^3 Oe)",
+    "si-mass": "SI mass, m^3/kg",
+    "cgs-mass": "CGS mass, cm^3/g (emu)",
+    "si-molar": "SI molar, m^3/mol",
+    "cgs-molar": "CGS molar, cm^3/mol (emu)",
+}
+CHI_UNIT_SHORT = {
+    "si-volume": "1",
+    "cgs-volume": "emu/(cm^3 Oe)",
+    "si-mass": "m^3/kg",
+    "cgs-mass": "cm^3/g",
+    "si-molar": "m^3/mol",
+    "cgs-molar": "cm^3/mol",
+}
+
+MATERIAL_COLUMNS = [
+    "id", "name", "kind", "chi_si", "chi_perp_si", "chi_par_si", "density_kg_m3",
+    "abs_chi_per_density", "uncertainty_si", "temp_coeff_per_k", "molar_mass_kg_mol",
+    "price_usd_per_kg", "price_illustrative", "source", "value_kind",
+]
+
+
+def _check_convention(convention: str) -> str:
+    if convention not in CONVENTIONS:
+        raise InputError(f"unit: expected one of {', '.join(CONVENTIONS)}, got {convention!r}")
+    return convention
+
+
+def chi_in_convention(chi_si, density_kg_m3, molar_mass_kg_mol, convention: str) -> float:
+    """One SI volume susceptibility expressed in ``convention`` (NaN when the molar mass
+    a molar convention needs is unknown, e.g. for a polymer)."""
+    _check_convention(convention)
+    if chi_si is None or (isinstance(chi_si, float) and math.isnan(chi_si)):
+        return math.nan
+    mm = None if molar_mass_kg_mol is None or pd.isna(molar_mass_kg_mol) else float(molar_mass_kg_mol)
+    if convention in ("si-molar", "cgs-molar") and mm is None:
+        return math.nan
+    return chi_from_si_volume(float(chi_si), convention, float(density_kg_m3), mm)
+
+
+def materials_table(convention: str = "si-volume", url: str | None = None) -> pd.DataFrame:
+    """Every material with the value in use, plus its chi in ``convention``.
+
+    Columns: :data:`MATERIAL_COLUMNS`, then ``chi_shown``, ``chi_perp_shown`` and
+    ``chi_par_shown`` (the SI volume values converted with
+    :func:`matdb.units.chi_from_si_volume`; NaN where a molar value needs a molar mass the
+    database does not hold). ``abs_chi_per_density`` is |chi_si| / rho in m^3/kg.
+    """
+    _check_convention(convention)
+    rows = []
+    for p in catalog.list_materials(url):
+        rows.append({
+            "id": p.id, "name": p.name, "kind": p.kind, "chi_si": p.chi_si,
+            "chi_perp_si": p.chi_perp_si, "chi_par_si": p.chi_par_si,
+            "density_kg_m3": p.density_kg_m3, "abs_chi_per_density": p.abs_chi_per_density,
+            "uncertainty_si": p.uncertainty_si, "temp_coeff_per_k": p.temp_coeff_per_k,
+            "molar_mass_kg_mol": p.molar_mass_kg_mol, "price_usd_per_kg": p.price_usd_per_kg,
+            "price_illustrative": p.price_illustrative, "source": p.source,
+            "value_kind": p.value_kind,
+        })
+    df = pd.DataFrame(rows, columns=MATERIAL_COLUMNS)
+    for col, out in (("chi_si", "chi_shown"), ("chi_perp_si", "chi_perp_shown"), ("chi_par_si", "chi_par_shown")):
+        df[out] = [
+            chi_in_convention(c, rho, mm, convention)
+            for c, rho, mm in zip(df[col], df["density_kg_m3"], df["molar_mass_kg_mol"])
+        ]
+    for col in ("chi_si", "chi_perp_si", "chi_par_si", "uncertainty_si", "temp_coeff_per_k",
+                "molar_mass_kg_mol", "price_usd_per_kg", "chi_shown", "chi_perp_shown", "chi_par_shown"):
+        df[col] = pd.to_numeric(df[col], errors="coerce").astype(float)
+    return df
+
+
+def filter_materials(df: pd.DataFrame, text: str = "", diamagnets_only: bool = False,
+                     value_kinds: Sequence[str] | None = None) -> pd.DataFrame:
+    """Rows whose id or name contains ``text`` (any case), optionally diamagnets only and
+    only the given value kinds."""
+    out = df
+    t = (text or "").strip().lower()
+    if t:
+        mask = out["id"].str.lower().str.contains(t, regex=False) | out["name"].str.lower().str.contains(t, regex=False)
+        out = out[mask]
+    if diamagnets_only:
+        out = out[out["chi_si"] < 0]
+    if value_kinds:
+        out = out[out["value_kind"].isin(list(value_kinds))]
+    return out.reset_index(drop=True)
+
+
+def compare_materials(df: pd.DataFrame, ids: Sequence[str], rounded: bool = False) -> pd.DataFrame:
+    """Side-by-side view: one column per chosen material, one row per property (units in
+    the row names). ``rounded`` turns numbers into short strings for people (4
+    significant digits; susceptibilities in exponent form)."""
+    unknown = [i for i in ids if i not in set(df["id"])]
+    if unknown:
+        raise InputError(f"compare: unknown material id(s) {', '.join(unknown)}")
+    fields = {
+        "name": "name",
+        "chi_si": "chi, SI volume",
+        "chi_perp_si": "chi perpendicular (c axis), SI volume",
+        "chi_par_si": "chi parallel (basal plane), SI volume",
+        "density_kg_m3": "density, kg/m^3",
+        "abs_chi_per_density": "|chi|/density, m^3/kg",
+        "required_t2_m": "-B dB/dz needed to float, T^2/m",
+        "value_kind": "value kind",
+        "source": "source",
+    }
+    sub = df.set_index("id").loc[list(ids)]
+    if "required_t2_m" not in sub.columns:
+        sub = sub.assign(required_t2_m=[levitation_requirement(c, r) for c, r in zip(sub["chi_si"], sub["density_kg_m3"])])
+    table = sub[list(fields)].T.astype(object)
+    if rounded:
+        for key in table.index:
+            table.loc[key] = [_human(v, sci=key.startswith("chi") or key == "abs_chi_per_density")
+                              for v in table.loc[key]]
+    table.index = [fields[k] for k in table.index]
+    return table
+
+
+def _human(v, sci: bool = False) -> str:
+    if v is None or (isinstance(v, float) and math.isnan(v)):
+        return ""
+    if isinstance(v, (int, float, np.floating)) and not isinstance(v, bool):
+        return f"{float(v):.3e}" if sci else f"{float(v):.4g}"
+    return str(v)
+
+
+# ---------------------------------------------------------------------------
+# levitation requirement per material
+# ---------------------------------------------------------------------------
+
+def levitation_requirement(chi_si: float, density_kg_m3: float, g: float = G_STANDARD) -> float:
+    """Field-gradient product a free body needs to float: mu0 rho g / |chi| [T^2/m].
+
+    Only diamagnets (chi < 0) are pushed out of the field; for chi >= 0 the answer is
+    ``inf`` (no field floats it from below).
+
+    References
+    ----------
+    .. [1] M. V. Berry and A. K. Geim, Eur. J. Phys. 18, 307 (1997), eq. (3).
+    """
+    chi = float(chi_si)
+    rho = float(density_kg_m3)
+    if not (math.isfinite(rho) and rho > 0):
+        raise InputError(f"density: expected a positive density in kg/m^3, got {density_kg_m3!r}")
+    if not math.isfinite(chi):
+        raise InputError(f"chi: expected a finite susceptibility, got {chi_si!r}")
+    if chi >= 0:
+        return math.inf
+    return MU0 * rho * g / abs(chi)
+
+
+def levitation_requirements(df: pd.DataFrame, reach: tuple[float, float] | None = None) -> pd.DataFrame:
+    """The levitation view: every diamagnet with the -B dB/dz it needs, easiest first.
+
+    ``df`` is :func:`materials_table` output. Uses ``chi_si`` (for pyrolytic graphite the
+    perpendicular value, the one a plate with its c axis vertical sees over magnets).
+    With ``reach = (low, high)`` in T^2/m the column ``verdict`` says whether common
+    magnet arrangements reach the requirement: ``"plate floats"`` (needs at most ``low``),
+    ``"small pieces only"`` (between low and high: only near the strongest spots of the
+    field) or ``"out of reach"``. Paramagnets are listed last with ``required_t2_m`` = NaN and
+    ``verdict`` = ``"pulled in (paramagnetic)"``.
+    """
+    req = [levitation_requirement(c, r) for c, r in zip(df["chi_si"], df["density_kg_m3"])]
+    out = df[["id", "name", "chi_si", "density_kg_m3", "source", "value_kind"]].copy()
+    out["required_t2_m"] = [v if math.isfinite(v) else math.nan for v in req]
+    verdicts = []
+    for v in out["required_t2_m"]:
+        if math.isnan(v):
+            verdicts.append("pulled in (paramagnetic)")
+        elif reach is None:
+            verdicts.append("")
+        elif v <= reach[0]:
+            verdicts.append("plate floats")
+        elif v <= reach[1]:
+            verdicts.append("small pieces only")
+        else:
+            verdicts.append("out of reach")
+    out["verdict"] = verdicts
+    out = out.sort_values(["required_t2_m", "id"], na_position="last").reset_index(drop=True)
+    out["rank"] = range(1, len(out) + 1)
+    return out
+
+
+# ---------------------------------------------------------------------------
+# what common magnet arrangements reach
+# ---------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class StandardArrangement:
+    """A magnet arrangement people commonly build, in design-file terms (SI)."""
+
+    key: str
+    description: str
+    shape: str
+    size_m: tuple[float, ...]
+    grade: str
+    pattern: str
+    rows: int = 1
+    cols: int = 1
+
+
+STANDARD_ARRANGEMENTS: tuple[StandardArrangement, ...] = (
+    StandardArrangement("cube-10", "one 10 mm N42 cube", "cuboid", (0.010, 0.010, 0.010), "N42", "single"),
+    StandardArrangement("cyl-20x10", "one 20 mm x 10 mm N42 disc", "cylinder", (0.020, 0.010), "N42", "single"),
+    StandardArrangement("check-2x2-12.7", "2x2 checkerboard of 12.7 mm N42 cubes", "cuboid",
+                        (0.0127, 0.0127, 0.0127), "N42", "checkerboard", 2, 2),
+    StandardArrangement("check-4x4-6", "4x4 checkerboard of 6 mm N42 cubes", "cuboid",
+                        (0.006, 0.006, 0.006), "N42", "checkerboard", 4, 4),
+    StandardArrangement("stripes-4-5", "4 stripes of 5 x 5 x 40 mm N52 bars", "cuboid",
+                        (0.040, 0.005, 0.005), "N52", "stripes", 4, 1),
+)
+
+REACH_GAP_M = 0.2e-3  # gap above the magnets' top faces where the reach is read [m]
+REACH_PLATE_M = 1.0e-3  # plate thickness for the plate-averaged figure [m]
+_FD_STEP_M = 1e-6  # central-difference step for d(B^2)/dz [m]
+
+
+def field_engine_available() -> bool:
+    """True when :func:`matdb.physics.arrangement.build_arrangement` can be imported."""
+    try:
+        from .physics.arrangement import build_arrangement  # noqa: F401
+    except ImportError:
+        return False
+    return True
+
+
+def build_standard(spec: StandardArrangement, br_t: float | None = None, url: str | None = None):
+    """The field-engine arrangement for ``spec`` (Br from the catalogue unless given)."""
+    from .physics.arrangement import build_arrangement
+
+    if br_t is None:
+        br_t = catalog.get_grade(spec.grade, url).br_t
+    return build_arrangement(
+        shape=spec.shape, size=spec.size_m, br=br_t, pattern=spec.pattern,
+        rows=spec.rows, cols=spec.cols, grade=spec.grade,
+    )
+
+
+def gradient_product(arrangement, points: np.ndarray, step_m: float = _FD_STEP_M) -> np.ndarray:
+    """-(1/2) d(B^2)/dz at ``points`` (n, 3) [T^2/m], by central differences of the
+    field engine's B (B^2 is smooth off the magnets, so the O(h^2) error is tiny)."""
+    p = np.asarray(points, dtype=float).reshape(-1, 3)
+    dz = np.array([0.0, 0.0, step_m])
+    b_up = np.asarray(arrangement.B(p + dz), dtype=float).reshape(-1, 3)
+    b_dn = np.asarray(arrangement.B(p - dz), dtype=float).reshape(-1, 3)
+    return -0.5 * (np.sum(b_up**2, axis=1) - np.sum(b_dn**2, axis=1)) / (2.0 * step_m)
+
+
+def _footprint_grid(arrangement, z: float, n: int) -> np.ndarray:
+    xmin, xmax, ymin, ymax, _zmin, _zmax = (float(v) for v in arrangement.bounds())
+    xs = xmin + (np.arange(n) + 0.5) * (xmax - xmin) / n
+    ys = ymin + (np.arange(n) + 0.5) * (ymax - ymin) / n
+    gx, gy = np.meshgrid(xs, ys, indexing="xy")
+    return np.column_stack([gx.ravel(), gy.ravel(), np.full(gx.size, z)])
+
+
+def reach_of(arrangement, gap_m: float = REACH_GAP_M, plate_m: float = REACH_PLATE_M, n: int = 41) -> dict:
+    """What one arrangement offers a diamagnet at ``gap_m`` above its top faces.
+
+    Returns ``peak_t2_m``: the largest local -(1/2) d(B^2)/dz over the footprint (what a
+    small chip at the best spot feels), and ``plate_avg_t2_m``: the footprint mean of
+    [B^2(gap) - B^2(gap + plate)] / (2 plate), the average push on a plate of thickness
+    ``plate_m`` covering the arrangement (the vertical lift of such a plate is exactly
+    |chi| / mu0 times this times its volume).
+    """
+    pts = _footprint_grid(arrangement, gap_m, n)
+    peak = float(np.max(gradient_product(arrangement, pts)))
+    b0 = np.asarray(arrangement.B(pts), dtype=float).reshape(-1, 3)
+    b1 = np.asarray(arrangement.B(pts + np.array([0.0, 0.0, plate_m])), dtype=float).reshape(-1, 3)
+    avg = float(np.mean(np.sum(b0**2, axis=1) - np.sum(b1**2, axis=1)) / (2.0 * plate_m))
+    return {"peak_t2_m": peak, "plate_avg_t2_m": avg}
+
+
+def arrangement_reach(specs: Iterable[StandardArrangement] = STANDARD_ARRANGEMENTS,
+                      gap_m: float = REACH_GAP_M, plate_m: float = REACH_PLATE_M,
+                      url: str | None = None) -> pd.DataFrame:
+    """Per standard arrangement: ``key``, ``description``, ``grade``, ``br_t``,
+    ``gap_m``, ``plate_avg_t2_m``, ``peak_t2_m``. Needs the field engine."""
+    rows = []
+    for spec in specs:
+        br = catalog.get_grade(spec.grade, url).br_t
+        arr = build_standard(spec, br)
+        r = reach_of(arr, gap_m, plate_m)
+        rows.append({"key": spec.key, "description": spec.description, "grade": spec.grade,
+                     "br_t": br, "gap_m": gap_m, **r})
+    return pd.DataFrame(rows)
+
+
+def reach_band(reach_df: pd.DataFrame) -> tuple[float, float]:
+    """(low, high) in T^2/m: the best plate average and the best local peak over the
+    arrangements. Below ``low`` a plate floats over the best common arrangement; between
+    the two only a small piece near the strongest spot can."""
+    if reach_df is None or reach_df.empty:
+        raise InputError("reach: no arrangements evaluated")
+    return float(reach_df["plate_avg_t2_m"].max()), float(reach_df["peak_t2_m"].max())
+
+
+# ---------------------------------------------------------------------------
+# magnet grades against temperature
+# ---------------------------------------------------------------------------
+
+def grade_temperature_curves(grades_df: pd.DataFrame, grades: Sequence[str],
+                             t_min_c: float = -40.0, t_max_c: float = 200.0, n: int = 121) -> pd.DataFrame:
+    """Br(T) and relative lift (Br(T)/Br(20 C))^2 for the chosen grades.
+
+    Long format, one row per grade and temperature: ``grade``, ``temp_c``, ``br_t``
+    (from :func:`matdb.physics.thermal.br_at`), ``relative_lift`` (lift over a
+    diamagnet scales with B^2, hence with Br^2), ``max_temp_c`` and ``beyond_max``
+    (True above the grade's maximum working temperature, where the linear model no
+    longer describes a usable magnet).
+    """
+    from .physics.thermal import br_at
+
+    if not (math.isfinite(t_min_c) and math.isfinite(t_max_c)) or t_min_c >= t_max_c:
+        raise InputError(f"temperature range: expected min < max, got {t_min_c!r} to {t_max_c!r} degC")
+    if t_min_c <= -273.15:
+        raise InputError(f"temperature range: {t_min_c!r} degC is below absolute zero")
+    if n < 2:
+        raise InputError(f"n: expected at least 2 temperatures, got {n!r}")
+    known = set(grades_df["grade"])
+    unknown = [g for g in grades if g not in known]
+    if unknown:
+        raise InputError(f"grades: unknown grade(s) {', '.join(unknown)}")
+    t_c = np.linspace(float(t_min_c), float(t_max_c), int(n))
+    t_k = t_c + 273.15
+    parts = []
+    by = grades_df.set_index("grade")
+    for g in grades:
+        row = by.loc[g]
+        br20 = float(row["br_t"])
+        br = np.asarray(br_at(br20, float(row["alpha_br_pct_per_k"]), t_k), dtype=float)
+        tmax = float(row["max_temp_c"])
+        parts.append(pd.DataFrame({
+            "grade": g, "family": row["family"], "temp_c": t_c, "br_t": br,
+            "relative_lift": (br / br20) ** 2, "max_temp_c": tmax, "beyond_max": t_c > tmax,
+        }))
+    if not parts:
+        return pd.DataFrame(columns=["grade", "family", "temp_c", "br_t", "relative_lift", "max_temp_c", "beyond_max"])
+    return pd.concat(parts, ignore_index=True)
+
+
+def grade_max_temp_marks(curves: pd.DataFrame) -> pd.DataFrame:
+    """One row per grade at its maximum working temperature (inside the plotted range):
+    ``grade``, ``max_temp_c``, ``br_t`` and ``relative_lift`` there (interpolated)."""
+    rows = []
+    for g, part in curves.groupby("grade", sort=False):
+        tmax = float(part["max_temp_c"].iloc[0])
+        t = part["temp_c"].to_numpy()
+        if not (t.min() <= tmax <= t.max()):
+            continue
+        rows.append({"grade": g, "max_temp_c": tmax,
+                     "br_t": float(np.interp(tmax, t, part["br_t"].to_numpy())),
+                     "relative_lift": float(np.interp(tmax, t, part["relative_lift"].to_numpy()))})
+    return pd.DataFrame(rows, columns=["grade", "max_temp_c", "br_t", "relative_lift"])

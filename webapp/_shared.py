@@ -1,0 +1,73 @@
+"""Helpers the page scripts share: cached calls into the library, availability of the
+parts still being built, and error display. No physics and no SQL here: every number
+comes from a public matdb function."""
+
+from __future__ import annotations
+
+import importlib
+import os
+from contextlib import contextmanager
+
+import streamlit as st
+
+from matdb import catalog, presentation
+from matdb.db import default_url
+from matdb.errors import MatdbError
+
+
+def db_url() -> str:
+    """The database in force (``MATDB_URL`` or the default); part of every cache key."""
+    return os.environ.get("MATDB_URL", "").strip() or default_url()
+
+
+def module_or_none(name: str):
+    """The module, or None while that part of matdb has not landed yet."""
+    try:
+        return importlib.import_module(name)
+    except ImportError:
+        return None
+
+
+def not_available(what: str) -> None:
+    st.info(f"{what} is not available yet in this version of matdb.")
+
+
+@contextmanager
+def shown_errors(where: str | None = None):
+    """Show a matdb error (a bad input, an unknown id, no solution) as a message at this
+    place on the page instead of a crash."""
+    try:
+        yield
+    except MatdbError as exc:
+        st.error(f"{where}: {exc}" if where else str(exc))
+
+
+# ---------------------------------------------------------------------------
+# cached library calls (keyed by their arguments and the database URL)
+# ---------------------------------------------------------------------------
+
+@st.cache_data(show_spinner=False, max_entries=32)
+def materials_table(convention: str, url: str):
+    return presentation.materials_table(convention, url)
+
+
+@st.cache_data(show_spinner=False, max_entries=8)
+def arrangement_reach(url: str):
+    return presentation.arrangement_reach(url=url)
+
+
+@st.cache_data(show_spinner=False, max_entries=8)
+def magnets_df(url: str):
+    return catalog.magnets_df(url)
+
+
+@st.cache_data(show_spinner=False, max_entries=64)
+def grade_curves(url: str, grades: tuple[str, ...], t_min_c: float, t_max_c: float):
+    return presentation.grade_temperature_curves(magnets_df(url), list(grades), t_min_c, t_max_c)
+
+
+def clear_catalog_caches() -> None:
+    """After a write to the database (a lab value), forget cached tables."""
+    materials_table.clear()
+    magnets_df.clear()
+    grade_curves.clear()

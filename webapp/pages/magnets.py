@@ -1,0 +1,98 @@
+"""Magnets: grades and how their remanence and lift fall with temperature."""
+
+import altair as alt
+import streamlit as st
+
+from matdb import presentation
+from matdb.errors import MatdbError
+from webapp import _shared as sh
+
+st.title("Magnets")
+url = sh.db_url()
+try:
+    grades = sh.magnets_df(url)
+except MatdbError as exc:
+    st.error(f"magnet grades: {exc}")
+    st.stop()
+
+all_grades = list(grades["grade"])
+preferred = [g for g in ("N42", "N42SH", "N52", "N35EH") if g in all_grades]
+smco = [g for g in all_grades if grades.set_index("grade").loc[g, "family"] == "SmCo"][:1]
+ferrite = [g for g in all_grades if grades.set_index("grade").loc[g, "family"] == "ferrite"][:1]
+default = (preferred[:3] + smco + ferrite) or all_grades[:3]
+
+# ---- lead chart -----------------------------------------------------------
+st.subheader("Remanence and lift against temperature")
+c1, c2 = st.columns([3, 2])
+chosen = c1.multiselect("Grades", all_grades, default=default, key="mag_grades")
+t_lo, t_hi = c2.slider("Temperature range (degC)", min_value=-60, max_value=350, value=(-20, 220), step=5,
+                       key="mag_trange")
+if not chosen:
+    st.info("Choose one or more grades to plot.")
+else:
+    try:
+        curves = sh.grade_curves(url, tuple(chosen), float(t_lo), float(t_hi))
+    except MatdbError as exc:
+        st.error(f"temperature range: {exc}")
+        curves = None
+    if curves is not None:
+        marks = presentation.grade_max_temp_marks(curves)
+        color = alt.Color("grade:N", title="grade", sort=chosen)
+        tips = [alt.Tooltip("grade:N"), alt.Tooltip("temp_c:Q", title="T (degC)", format=".0f"),
+                alt.Tooltip("br_t:Q", title="Br (T)", format=".3f"),
+                alt.Tooltip("relative_lift:Q", title="lift vs 20 degC", format=".1%"),
+                alt.Tooltip("max_temp_c:Q", title="max working T (degC)", format=".0f")]
+        dash = alt.StrokeDash("beyond_max:N", title="above max working T",
+                              scale=alt.Scale(domain=[False, True], range=[[1, 0], [4, 3]]))
+
+        def panel(field: str, title: str, fmt: str):
+            base = alt.Chart(curves).encode(
+                x=alt.X("temp_c:Q", title="temperature (degC)"),
+                y=alt.Y(f"{field}:Q", title=title, axis=alt.Axis(format=fmt)),
+                color=color)
+            lines = base.mark_line(strokeWidth=2).encode(strokeDash=dash, detail="beyond_max:N", tooltip=tips)
+            rules = alt.Chart(marks).mark_rule(strokeDash=[2, 2]).encode(
+                x="max_temp_c:Q", color=color,
+                tooltip=[alt.Tooltip("grade:N"), alt.Tooltip("max_temp_c:Q", title="max working T (degC)")])
+            dots = alt.Chart(marks).mark_point(shape="diamond", size=110, filled=True).encode(
+                x="max_temp_c:Q", y=f"{field}:Q", color=color,
+                tooltip=[alt.Tooltip("grade:N"), alt.Tooltip("max_temp_c:Q", title="max working T (degC)"),
+                         alt.Tooltip(f"{field}:Q", format=fmt)])
+            return alt.layer(lines, rules, dots).properties(height=320)
+
+        chart = alt.hconcat(panel("br_t", "Br (T)", ".2f"),
+                            panel("relative_lift", "relative lift (Br/Br at 20 degC)^2", ".0%"))
+        st.altair_chart(chart, width="content")
+        st.caption(
+            "Br(T) = Br20 (1 + alpha/100 (T - 20 degC)) from each grade's reversible coefficient; lift over a "
+            "diamagnet scales with B^2, so with Br^2. Diamonds and dotted rules: each grade's maximum working "
+            "temperature; dashed line beyond it."
+        )
+        st.download_button("Download curves (CSV, exact values)", curves.to_csv(index=False).encode(),
+                           file_name="matdb-grade-curves.csv", mime="text/csv", key="curves_download")
+
+# ---- table ----------------------------------------------------------------
+st.subheader("Grades")
+families = sorted(grades["family"].unique())
+fam = st.multiselect("Families", families, key="mag_family")
+shown = grades[grades["family"].isin(fam)] if fam else grades
+st.dataframe(
+    shown[["grade", "family", "br_t", "br_min_t", "hcb_ka_m", "hcj_ka_m", "bhmax_kj_m3", "alpha_br_pct_per_k",
+           "beta_hcj_pct_per_k", "max_temp_c", "density_kg_m3", "price_usd_per_kg", "source"]],
+    hide_index=True, key="grades_table",
+    column_config={
+        "br_t": st.column_config.NumberColumn("Br (T)", format="%.3f"),
+        "br_min_t": st.column_config.NumberColumn("Br min (T)", format="%.3f"),
+        "hcb_ka_m": st.column_config.NumberColumn("Hcb (kA/m)", format="%.0f"),
+        "hcj_ka_m": st.column_config.NumberColumn("Hcj min (kA/m)", format="%.0f"),
+        "bhmax_kj_m3": st.column_config.NumberColumn("BHmax (kJ/m^3)", format="%.0f"),
+        "alpha_br_pct_per_k": st.column_config.NumberColumn("alpha Br (%/K)", format="%.3f"),
+        "beta_hcj_pct_per_k": st.column_config.NumberColumn("beta Hcj (%/K)", format="%.2f"),
+        "max_temp_c": st.column_config.NumberColumn("max working T (degC)", format="%.0f"),
+        "density_kg_m3": st.column_config.NumberColumn("density (kg/m^3)", format="%.0f"),
+        "price_usd_per_kg": st.column_config.NumberColumn("price (USD/kg, illustrative)", format="%.0f"),
+    },
+)
+st.caption("Prices are illustrative, not quotes.")
+st.download_button("Download grades (CSV, exact values)", shown.to_csv(index=False).encode(),
+                   file_name="matdb-grades.csv", mime="text/csv", key="grades_download")

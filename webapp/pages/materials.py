@@ -1,0 +1,154 @@
+"""Materials: what each material needs to float, and its cited properties."""
+
+import altair as alt
+import pandas as pd
+import streamlit as st
+
+from matdb import presentation
+from matdb.errors import MatdbError
+from matdb.units import CONVENTIONS
+from webapp import _shared as sh
+
+st.title("Materials")
+url = sh.db_url()
+
+conv = st.selectbox(
+    "Show susceptibility as", CONVENTIONS, key="chi_unit",
+    format_func=lambda c: presentation.CHI_UNIT_LABELS[c],
+    help="The database stores SI volume susceptibilities; this converts them to the convention your handbook uses.",
+)
+try:
+    mats = sh.materials_table(conv, url)
+except MatdbError as exc:
+    st.error(f"materials: {exc}")
+    st.stop()
+
+# ---- the levitation view -------------------------------------------------
+st.subheader("What each material needs to float freely")
+st.caption(
+    "A diamagnet floats where the field-gradient product -B dB/dz reaches mu0 rho g / |chi| "
+    "(Berry and Geim, Eur. J. Phys. 18, 307 (1997)). Lower is easier. Pyrolytic graphite uses its "
+    "value along the c axis, the one a plate lying flat over magnets feels."
+)
+reach_df, band, reach_msg = None, None, ""
+if presentation.field_engine_available():
+    try:
+        with st.spinner("Computing the field of common magnet arrangements..."):
+            reach_df = sh.arrangement_reach(url)
+        band = presentation.reach_band(reach_df)
+    except MatdbError as exc:
+        reach_msg = f"range of common arrangements: {exc}"
+else:
+    reach_msg = "The range that common magnet arrangements reach needs the field engine, which is not available yet."
+
+need = presentation.levitation_requirements(mats, band)
+diam = need[need["required_t2_m"].notna()].copy()
+para = need[need["required_t2_m"].isna()]
+compare_ids = st.session_state.get("mat_compare", [])
+diam["chosen"] = diam["id"].isin(compare_ids)
+order = list(diam["name"])
+
+points = alt.Chart(diam).mark_circle(opacity=0.9).encode(
+    x=alt.X("required_t2_m:Q", scale=alt.Scale(type="log"),
+            title="-B dB/dz needed to float (T^2/m, log scale)"),
+    y=alt.Y("name:N", sort=order, title=None),
+    color=alt.Color("verdict:N", title="over common NdFeB arrangements",
+                    scale=alt.Scale(domain=["plate floats", "small pieces only", "out of reach", ""],
+                                    range=["#1b7837", "#d98c00", "#8c8c8c", "#3d6fb6"])),
+    size=alt.condition("datum.chosen", alt.value(220), alt.value(90)),
+    tooltip=[
+        alt.Tooltip("name:N", title="material"),
+        alt.Tooltip("required_t2_m:Q", title="needs (T^2/m)", format=".3~g"),
+        alt.Tooltip("chi_si:Q", title="chi (SI volume)", format=".3e"),
+        alt.Tooltip("density_kg_m3:Q", title="density (kg/m^3)", format=",.0f"),
+        alt.Tooltip("value_kind:N", title="value kind"),
+        alt.Tooltip("source:N", title="source"),
+    ],
+)
+layers = []
+if band is not None and reach_df is not None:
+    band_df = pd.DataFrame({"low": [band[0]], "high": [band[1]],
+                            "label": ["reach of common NdFeB arrangements at 0.2 mm"]})
+    layers.append(alt.Chart(band_df).mark_rect(color="#9ecae1", opacity=0.25).encode(
+        x="low:Q", x2="high:Q",
+        tooltip=[alt.Tooltip("label:N", title=""),
+                 alt.Tooltip("low:Q", title="plate average (T^2/m)", format=".3~g"),
+                 alt.Tooltip("high:Q", title="local peak (T^2/m)", format=".3~g")]))
+    layers.append(alt.Chart(reach_df).mark_rule(color="#3182bd", strokeDash=[3, 3]).encode(
+        x="plate_avg_t2_m:Q",
+        tooltip=[alt.Tooltip("description:N", title="arrangement"),
+                 alt.Tooltip("plate_avg_t2_m:Q", title="1 mm plate average (T^2/m)", format=".3~g"),
+                 alt.Tooltip("peak_t2_m:Q", title="local peak (T^2/m)", format=".3~g")]))
+chart = alt.layer(*layers, points).properties(height=max(260, 22 * len(diam)))
+st.altair_chart(chart, width="stretch")
+if band is not None:
+    st.caption(
+        f"Shaded: what common NdFeB arrangements offer at a 0.2 mm gap, from {band[0]:.3g} T^2/m "
+        f"(the best average over a 1 mm plate covering the array: a plate needing less floats) to "
+        f"{band[1]:.3g} T^2/m (the strongest local spot near magnet edges: only small pieces there). "
+        "Dashed lines: each arrangement's plate average (hover for its name)."
+    )
+    with st.expander("Arrangements behind the shaded range"):
+        st.dataframe(
+            reach_df[["description", "grade", "br_t", "plate_avg_t2_m", "peak_t2_m"]], hide_index=True,
+            column_config={
+                "description": "arrangement",
+                "br_t": st.column_config.NumberColumn("Br (T)", format="%.3f"),
+                "plate_avg_t2_m": st.column_config.NumberColumn("1 mm plate average (T^2/m)", format="%.0f"),
+                "peak_t2_m": st.column_config.NumberColumn("local peak (T^2/m)", format="%.0f"),
+            }, key="reach_table")
+elif reach_msg:
+    st.info(reach_msg)
+if len(para):
+    st.caption("Pulled towards magnets (paramagnetic, cannot float this way): " + ", ".join(para["name"]))
+
+# ---- table ---------------------------------------------------------------
+st.subheader("Properties")
+c1, c2, c3 = st.columns([2, 1, 2])
+text = c1.text_input("Filter by name or id", key="mat_filter", placeholder="e.g. graphite")
+dia_only = c2.checkbox("Diamagnets only", key="mat_diamag_only")
+kinds = c3.multiselect("Value kind", sorted(mats["value_kind"].unique()), key="mat_kinds")
+sort_options = {
+    "needed -B dB/dz (easiest first)": ("required_t2_m", True),
+    "|chi| / density (largest first)": ("abs_chi_per_density", False),
+    "chi (most diamagnetic first)": ("chi_si", True),
+    "density (lightest first)": ("density_kg_m3", True),
+    "name": ("name", True),
+}
+sort_by = st.selectbox("Sort by", list(sort_options), key="mat_sort")
+shown = presentation.filter_materials(mats, text, dia_only, kinds)
+shown = shown.merge(need[["id", "required_t2_m"]], on="id", how="left")
+col, asc = sort_options[sort_by]
+shown = shown.sort_values(col, ascending=asc, na_position="last").reset_index(drop=True)
+unit = presentation.CHI_UNIT_SHORT[conv]
+chi_fmt = "%.3e"
+st.dataframe(
+    shown[["id", "name", "chi_shown", "chi_perp_shown", "chi_par_shown", "density_kg_m3",
+           "abs_chi_per_density", "required_t2_m", "value_kind", "source"]],
+    hide_index=True, key="materials_table",
+    column_config={
+        "chi_shown": st.column_config.NumberColumn(f"chi ({unit})", format=chi_fmt),
+        "chi_perp_shown": st.column_config.NumberColumn(f"chi perp. ({unit})", format=chi_fmt,
+                                                        help="field along the c axis (anisotropic plates)"),
+        "chi_par_shown": st.column_config.NumberColumn(f"chi par. ({unit})", format=chi_fmt,
+                                                       help="field in the basal plane"),
+        "density_kg_m3": st.column_config.NumberColumn("density (kg/m^3)", format="%.0f"),
+        "abs_chi_per_density": st.column_config.NumberColumn("|chi|/density (m^3/kg)", format=chi_fmt),
+        "required_t2_m": st.column_config.NumberColumn("needs -B dB/dz (T^2/m)", format="%.3g"),
+        "value_kind": "value kind",
+    },
+)
+if conv in ("si-molar", "cgs-molar") and shown["chi_shown"].isna().any():
+    st.caption("Empty molar values: the database holds no molar mass for that material (e.g. polymers).")
+st.download_button("Download this table (CSV, exact values)", shown.to_csv(index=False).encode(),
+                   file_name="matdb-materials.csv", mime="text/csv", key="mat_download")
+
+# ---- compare -------------------------------------------------------------
+st.subheader("Compare")
+picked = st.multiselect("Materials to compare side by side", list(mats["id"]), key="mat_compare",
+                        format_func=lambda i: f"{mats.set_index('id').loc[i, 'name']} ({i})")
+if picked:
+    with sh.shown_errors("compare"):
+        st.dataframe(presentation.compare_materials(mats.merge(need[["id", "required_t2_m"]], on="id"), picked,
+                                                      rounded=True),
+                     key="compare_table")
