@@ -287,6 +287,15 @@ KNEE_FRACTION: dict[str, tuple[float, str]] = {
 }
 
 
+_FAMILY_WORDS = {
+    "NdFeB": "sintered NdFeB",
+    "SmCo": "SmCo",
+    "ferrite": "hard ferrite",
+    "AlNiCo": "AlNiCo",
+    "bonded-NdFeB": "bonded NdFeB",
+}
+
+
 @dataclass(frozen=True)
 class DemagResult:
     """Outcome of :func:`demag_check`.
@@ -547,10 +556,11 @@ def demag_check(
     why = ""
     if temps.size > 1:
         b = beta[i_mag]
+        name = _FAMILY_WORDS.get(fams[i_mag], fams[i_mag])
         if b > 0 and t_w == temps.min():
-            why = f" ({fams[i_mag]} loses coercivity when cold)"
+            why = f" ({name} loses coercivity when cold)"
         elif b < 0 and t_w == temps.max():
-            why = f" ({fams[i_mag]} loses coercivity when hot)"
+            why = f" ({name} loses coercivity when hot)"
     risk = worst >= 1.0
     shown = f"{math.floor(worst * 100.0) / 100.0:.2f}"  # never rounds across 1
     if risk:
