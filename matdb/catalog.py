@@ -179,8 +179,20 @@ def list_grades(url: str | None = None) -> list[GradeProps]:
         values = _values_by(s, MagnetValue, "grade")
         grades = s.exec(select(MagnetGrade)).all()
         out = [_grade_props(g, values.get(g.grade, []), sources) for g in grades if values.get(g.grade)]
-    fam_order = {"NdFeB": 0, "SmCo": 1, "ferrite": 2, "AlNiCo": 3, "bonded-NdFeB": 4}
-    return sorted(out, key=lambda g: (fam_order.get(g.family, 9), g.max_temp_c, g.br_t, g.grade))
+    return sorted(out, key=grade_sort_key)
+
+
+_FAMILY_ORDER = {"NdFeB": 0, "SmCo": 1, "ferrite": 2, "AlNiCo": 3, "bonded-NdFeB": 4}
+_SUFFIX_ORDER = {"": 0, "M": 1, "H": 2, "SH": 3, "UH": 4, "EH": 5, "AH": 6}
+
+
+def grade_sort_key(g) -> tuple:
+    """Family, then the usual temperature-suffix order (N, M, H, SH, UH, EH, AH), then Br."""
+    import re
+
+    m = re.match(r"^N(\d+)([A-Z]*)$", g.grade)
+    suffix = _SUFFIX_ORDER.get(m.group(2), 9) if m else 0
+    return (_FAMILY_ORDER.get(g.family, 9), suffix, g.br_t, g.grade)
 
 
 def get_material(material_id: str, url: str | None = None) -> MaterialProps:

@@ -21,7 +21,7 @@ AXES = ("iso", "perp", "par")
 
 
 def _now() -> _dt.datetime:
-    return _dt.datetime.now(_dt.timezone.utc).replace(tzinfo=None)
+    return _dt.datetime.now(_dt.timezone.utc)
 
 
 class Source(SQLModel, table=True):

@@ -58,9 +58,10 @@ def _fmt_cell(v: Any) -> str:
         if v == 0:
             return "0"
         a = abs(v)
-        if a >= 1e5 or a < 1e-3:
+        if a >= 1e7 or a < 1e-3:
             return f"{v:.4g}"
-        return f"{v:.4g}"
+        decimals = max(0, 3 - int(math.floor(math.log10(a))))
+        return f"{v:.{decimals}f}".rstrip("0").rstrip(".") if "." in f"{v:.{decimals}f}" else f"{v:.{decimals}f}"
     if isinstance(v, (list, dict)):
         return json.dumps(v, default=_json_default)[:40]
     return str(v)

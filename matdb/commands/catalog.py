@@ -104,8 +104,9 @@ def cmd_show(args) -> int:
     try:
         g = catalog.get_grade(key)
     except NotFoundError:
-        raise NotFoundError(f"id: {key!r} is neither a material id nor a magnet grade "
-                            "(see 'matdb materials' and 'matdb magnets')") from None
+        names = [m.id for m in catalog.list_materials()] + [x.grade for x in catalog.list_grades()]
+        raise NotFoundError(f"id: {key!r} is neither a material id nor a magnet grade"
+                            f"{catalog._close(key, names) or ' (see matdb materials, matdb magnets)'}") from None
     rec = catalog.grade_record(g)
     values = catalog.grade_values(g.grade)
     if args.format == "json":
