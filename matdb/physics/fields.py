@@ -142,12 +142,12 @@ def _log_term(t: np.ndarray, r: np.ndarray, rho2: np.ndarray) -> np.ndarray:
 
 
 def _atan_term(a: np.ndarray, b: np.ndarray, c: np.ndarray, r: np.ndarray) -> np.ndarray:
-    """``atan(a b / (c r))``; 0 where ``c r = 0`` (mean of the two one-sided limits)."""
-    den = c * r
-    num = a * b
-    out = np.zeros(np.broadcast_shapes(num.shape, den.shape))
-    np.divide(num, den, out=out, where=den != 0)
-    return np.arctan(out)
+    """``atan(a b / (c r))`` without a division; 0 where ``c r = 0``.
+
+    Written as ``arctan2(sign(c) a b, |c| r)``, equal to the arctangent wherever ``c r``
+    is non-zero; at ``c = 0`` it gives 0, the mean of the two one-sided limits.
+    """
+    return np.arctan2(np.sign(c) * (a * b), np.abs(c) * r)
 
 
 class CuboidSet:

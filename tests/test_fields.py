@@ -1,0 +1,447 @@
+"""Tests of matdb.physics.fields against references outside matdb.
+
+References used:
+- magpylib (independent implementation, test-only reference): M. Ortner and
+  L. G. Coliado Bandeira, SoftwareX 11, 100466 (2020).
+- handbook on-axis formulas for a rectangular block and a cylinder;
+- the point-dipole formula, J. D. Jackson, Classical Electrodynamics 3rd ed., eq. (5.56);
+- scipy.special / scipy.integrate for the elliptic integral;
+- Maxwell's equations div B = 0, curl B = 0 in a current-free region.
+"""
+
+from __future__ import annotations
+
+import math
+
+import magpylib as magpy
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from scipy import integrate, special
+
+from matdb.errors import InputError
+from matdb.physics.fields import CuboidSet, cel, cuboid_B, cylinder_B, dipole_B, ring_B
+from matdb.units import MU0
+
+RNG = np.random.default_rng(20260202)
+
+
+def _tol(ref: np.ndarray) -> float:
+    # acceptance used throughout the brief: 1e-9 of the largest |B| plus 1e-12 T
+    return 1e-9 * float(np.max(np.linalg.norm(ref, axis=-1))) + 1e-12
+
+
+def _near_cuboid_edges(p, dims, positions, delta):
+    """True where a point is within delta of an edge line of any cuboid (two coordinates
+    on boundary planes)."""
+    p = np.asarray(p)[:, None, :]
+    lo = np.asarray(positions) - np.asarray(dims) / 2
+    hi = np.asarray(positions) + np.asarray(dims) / 2
+    d = np.minimum(np.abs(p - lo[None]), np.abs(p - hi[None]))  # (n,m,3)
+    near = d < delta
+    return np.any(near.sum(axis=2) >= 2, axis=1)
+
+
+def _points(n, scale, center=(0, 0, 0)):
+    """Random points near (within scale) and far (up to 10 scale) of a centre."""
+    near = RNG.uniform(-scale, scale, (n, 3))
+    far = RNG.normal(size=(n, 3))
+    far *= (RNG.uniform(1.5, 10, n) * scale / np.linalg.norm(far, axis=1))[:, None]
+    return np.vstack([near, far]) + np.asarray(center)
+
+
+# ---------------------------------------------------------------------------
+# magpylib comparisons
+# ---------------------------------------------------------------------------
+@pytest.mark.parametrize(
+    "pol",
+    [(0, 0, 1.3), (0, 0, -1.1), (1.2, 0, 0), (0, 0.9, 0), (0.4, -0.7, 0.8)],
+    ids=["z", "minus-z", "x", "y", "oblique"],
+)
+def test_cuboid_matches_magpylib(pol):
+    # reference: magpylib.magnet.Cuboid (independent closed form), near/far/inside points
+    dims = np.array([[0.010, 0.006, 0.004]])
+    pos = np.array([[0.001, -0.002, -0.002]])
+    p = _points(3000, 0.012, pos[0])
+    p = p[~_near_cuboid_edges(p, dims, pos, 1e-7)]
+    ref = magpy.getB(magpy.magnet.Cuboid(polarization=pol, dimension=dims[0], position=pos[0]), p)
+    got = cuboid_B(p, dims, [pol], pos)
+    assert got.shape == p.shape
+    assert np.max(np.abs(got - ref)) < _tol(ref)
+
+
+def test_several_cuboids_touching_and_apart_match_magpylib():
+    # reference: magpylib Collection of Cuboids; touching neighbours share corners
+    dims = np.array([[0.01, 0.01, 0.01], [0.01, 0.01, 0.01], [0.004, 0.01, 0.002], [0.02, 0.003, 0.005]])
+    pos = np.array([[-0.005, 0, -0.005], [0.005, 0, -0.005], [0.012, 0.0, -0.001], [0.0, 0.02, -0.0025]])
+    pols = np.array([[0, 0, 1.3], [0, 0, -1.3], [0.3, 0.2, 1.0], [1.0, -0.2, 0.1]])
+    srcs = [magpy.magnet.Cuboid(polarization=j, dimension=d, position=c) for d, j, c in zip(dims, pols, pos)]
+    p = _points(3000, 0.03)
+    p = p[~_near_cuboid_edges(p, dims, pos, 1e-7)]
+    ref = magpy.getB(magpy.Collection(*srcs), p)
+    got = cuboid_B(p, dims, pols, pos)
+    assert np.max(np.abs(got - ref)) < _tol(ref)
+
+
+def test_cylinders_match_magpylib():
+    # reference: magpylib.magnet.Cylinder, axial polarisation, signed
+    d = np.array([0.010, 0.004, 0.020])
+    h = np.array([0.005, 0.012, 0.002])
+    j = np.array([1.2, -1.0, 0.4])
+    pos = np.array([[0.0, 0.0, -0.0025], [0.012, -0.003, 0.004], [-0.02, 0.01, 0.0]])
+    srcs = [magpy.magnet.Cylinder(polarization=(0, 0, jj), dimension=(dd, hh), position=c)
+            for dd, hh, jj, c in zip(d, h, j, pos)]
+    p = _points(3000, 0.03)
+    ref = magpy.getB(magpy.Collection(*srcs), p)
+    got = cylinder_B(p, d, h, j, pos)
+    assert np.max(np.abs(got - ref)) < _tol(ref)
+
+
+def test_rings_match_magpylib():
+    # reference: magpylib.magnet.CylinderSegment over 360 degrees (r_in, r_out, h, 0, 360)
+    do = np.array([0.020, 0.010])
+    di = np.array([0.008, 0.002])
+    h = np.array([0.005, 0.003])
+    j = np.array([1.3, -0.8])
+    pos = np.array([[0.0, 0.0, -0.0025], [0.005, 0.015, 0.003]])
+    srcs = [magpy.magnet.CylinderSegment(polarization=(0, 0, jj), dimension=(a / 2, b / 2, hh, 0, 360), position=c)
+            for b, a, hh, jj, c in zip(do, di, h, j, pos)]
+    p = _points(3000, 0.03)
+    ref = magpy.getB(magpy.Collection(*srcs), p)
+    got = ring_B(p, do, di, h, j, pos)
+    assert np.max(np.abs(got - ref)) < _tol(ref)
+
+
+def test_dipole_matches_magpylib():
+    # reference: magpylib.misc.Dipole. magpylib uses mu0 from CODATA 2022, matdb CODATA 2018
+    # (relative difference 7e-10), hence the 2e-9 relative tolerance.
+    mom = np.array([[0.1, 0.2, -0.3], [0.0, 0.0, 1.0]])
+    pos = np.array([[0.0, 0.0, 0.0], [0.01, 0.0, 0.02]])
+    p = _points(1000, 0.05)
+    ref = magpy.getB(magpy.Collection(*[magpy.misc.Dipole(moment=m, position=c) for m, c in zip(mom, pos)]), p)
+    got = dipole_B(p, mom, pos)
+    assert np.all(np.abs(got - ref) <= 2e-9 * np.abs(ref) + 1e-15 * np.max(np.abs(ref)) + 1e-300)
+
+
+# ---------------------------------------------------------------------------
+# closed-form on-axis formulas
+# ---------------------------------------------------------------------------
+def test_cuboid_on_axis_handbook_formula():
+    # common handbook formula for a block a x b x h on the axis through the centre of the
+    # pole face, z measured from the face:
+    # Bz = Br/pi [atan(ab/(2z sqrt(4z^2+a^2+b^2))) - atan(ab/(2(z+h) sqrt(4(z+h)^2+a^2+b^2)))]
+    a, b, h, br = 0.02, 0.01, 0.005, 1.32
+    z = np.geomspace(1e-5, 0.2, 60)
+    zz = z + h
+    expected = br / math.pi * (
+        np.arctan(a * b / (2 * z * np.sqrt(4 * z**2 + a**2 + b**2)))
+        - np.arctan(a * b / (2 * zz * np.sqrt(4 * zz**2 + a**2 + b**2)))
+    )
+    p = np.column_stack([np.zeros_like(z), np.zeros_like(z), z])
+    got = cuboid_B(p, [(a, b, h)], [(0, 0, br)], [(0, 0, -h / 2)])
+    np.testing.assert_allclose(got[:, 2], expected, rtol=1e-11, atol=1e-14)
+    np.testing.assert_allclose(got[:, :2], 0.0, atol=1e-13)
+
+
+def test_cylinder_on_axis_formula():
+    # common handbook formula: Bz = Br/2 [(h+z)/sqrt(R^2+(h+z)^2) - z/sqrt(R^2+z^2)],
+    # z measured from the pole face (also Derby & Olbert, Am. J. Phys. 78, 229, eq. 3)
+    R, h, br = 0.006, 0.004, 1.2
+    z = np.geomspace(1e-5, 0.2, 60)
+    expected = br / 2 * ((h + z) / np.sqrt(R**2 + (h + z) ** 2) - z / np.sqrt(R**2 + z**2))
+    p = np.column_stack([np.zeros_like(z), np.zeros_like(z), z])
+    got = cylinder_B(p, [2 * R], [h], [br], [(0, 0, -h / 2)])
+    np.testing.assert_allclose(got[:, 2], expected, rtol=1e-11, atol=1e-14)
+    np.testing.assert_allclose(got[:, :2], 0.0, atol=1e-14)
+
+
+def test_ring_on_axis_formula():
+    # ring = outer cylinder minus inner one: difference of the two handbook on-axis formulas
+    Ro, Ri, h, br = 0.01, 0.004, 0.005, 1.3
+    z = np.geomspace(1e-5, 0.2, 40)
+
+    def cyl(R):
+        return br / 2 * ((h + z) / np.sqrt(R**2 + (h + z) ** 2) - z / np.sqrt(R**2 + z**2))
+
+    p = np.column_stack([np.zeros_like(z), np.zeros_like(z), z])
+    got = ring_B(p, [2 * Ro], [2 * Ri], [h], [br], [(0, 0, -h / 2)])
+    np.testing.assert_allclose(got[:, 2], cyl(Ro) - cyl(Ri), rtol=1e-10, atol=1e-14)
+
+
+def test_n40_cube_probe_reading():
+    # fact of the trade (common practice, no source): a 10 mm N40 cube (Br ~ 1.26 T) reads
+    # roughly 0.5 T on a probe just above the centre of its pole face
+    b = cuboid_B([(0, 0, 0.5e-3)], [(0.01, 0.01, 0.01)], [(0, 0, 1.26)], [(0, 0, -0.005)])
+    assert 0.40 < b[0, 2] < 0.55
+
+
+# ---------------------------------------------------------------------------
+# far field -> dipole
+# ---------------------------------------------------------------------------
+def _far_points(r, n=40):
+    d = RNG.normal(size=(n, 3))
+    return r * d / np.linalg.norm(d, axis=1)[:, None]
+
+
+@pytest.mark.parametrize("shape", ["cuboid", "cylinder", "ring"])
+def test_far_field_is_dipole(shape):
+    # point-dipole limit (Jackson eq. 5.56) with m = J V / mu0; multipole corrections are
+    # of relative order (size / r)^2
+    if shape == "cuboid":
+        size, vol, j = 0.01, 0.01 * 0.006 * 0.004, np.array([0.3, -0.5, 1.1])
+
+        def field(p):
+            return cuboid_B(p, [(0.01, 0.006, 0.004)], [j], [(0, 0, 0)])
+    elif shape == "cylinder":
+        size, vol, j = 0.01, math.pi / 4 * 0.01**2 * 0.004, np.array([0, 0, 1.2])
+
+        def field(p):
+            return cylinder_B(p, [0.01], [0.004], [1.2], [(0, 0, 0)])
+    else:
+        size, vol, j = 0.012, math.pi / 4 * (0.012**2 - 0.005**2) * 0.003, np.array([0, 0, -1.2])
+
+        def field(p):
+            return ring_B(p, [0.012], [0.005], [0.003], [-1.2], [(0, 0, 0)])
+
+    r = 20 * size
+    p = _far_points(r)
+    ref = dipole_B(p, [j * vol / MU0], [(0, 0, 0)])
+    got = field(p)
+    err = np.linalg.norm(got - ref, axis=1) / np.linalg.norm(ref, axis=1)
+    assert np.max(err) < (size / r) ** 2
+
+
+# ---------------------------------------------------------------------------
+# inside, faces, edges, corners
+# ---------------------------------------------------------------------------
+def _grid_through(lo, hi, n=9):
+    """Grid whose coordinates include the boundary planes, the centre and points outside."""
+    axes = []
+    for a, b in zip(lo, hi):
+        w = b - a
+        axes.append(np.unique(np.concatenate([np.linspace(a - 0.5 * w, b + 0.5 * w, n), [a, b, (a + b) / 2]])))
+    g = np.meshgrid(*axes, indexing="ij")
+    return np.stack([x.ravel() for x in g], axis=1)
+
+
+def test_cuboids_finite_on_faces_edges_corners():
+    # a field value is a number everywhere; edge/corner lines are regularised (module notes)
+    dims = [(0.01, 0.01, 0.01), (0.01, 0.01, 0.01), (0.01, 0.01, 0.005)]
+    pos = [(-0.005, 0, -0.005), (0.005, 0, -0.005), (0.005, 0.0, -0.0125)]
+    pols = [(0, 0, 1.3), (0.3, -0.4, -1.0), (1.0, 0.2, 0.0)]
+    p = _grid_through((-0.01, -0.005, -0.015), (0.01, 0.005, 0.0))
+    b = cuboid_B(p, dims, pols, pos)
+    assert np.all(np.isfinite(b))
+
+
+def test_cylinders_and_rings_finite_on_faces_rims_axis():
+    # rims (rho = R, z = +-h/2), walls, axis and faces included on purpose
+    R, Ri, h = 0.005, 0.002, 0.004
+    rho = np.array([0, Ri, R, 0.5 * (R + Ri), 1.5 * R, 0.001])
+    z = np.array([-h, -h / 2, -h / 4, 0, h / 2, h])
+    phi = np.array([0, 0.7, math.pi / 2])
+    rr, zz, pp = np.meshgrid(rho, z, phi, indexing="ij")
+    p = np.column_stack([(rr * np.cos(pp)).ravel(), (rr * np.sin(pp)).ravel(), zz.ravel()])
+    assert np.all(np.isfinite(cylinder_B(p, [2 * R], [h], [1.3], [(0, 0, 0)])))
+    assert np.all(np.isfinite(ring_B(p, [2 * R], [2 * Ri], [h], [-1.3], [(0, 0, 0)])))
+
+
+def test_dipole_finite_at_its_position():
+    assert np.all(np.isfinite(dipole_B([(0, 0, 0), (1, 0, 0)], [(0, 0, 1)], [(0, 0, 0)])))
+
+
+@pytest.mark.parametrize("pol", [(0, 0, 1.3), (1.3, 0, 0), (0.3, 0.5, -0.9)])
+def test_cuboid_face_values_are_inside_limits(pol):
+    # on a face B is the limit from inside the magnet; the normal component is continuous
+    # across the face (div B = 0, Jackson section 5.9) so it also matches the outside limit
+    dims, pos = np.array([0.01, 0.008, 0.006]), np.array([0.001, 0.002, -0.003])
+    eps = 1e-10
+    for axis in range(3):
+        for side in (-1, 1):
+            f = pos.copy()
+            f[axis] += side * dims[axis] / 2
+            n = np.zeros(3)
+            n[axis] = side
+            on, inner, outer = (cuboid_B([q], [dims], [pol], [pos])[0] for q in (f, f - eps * n, f + eps * n))
+            np.testing.assert_allclose(on, inner, atol=1e-6)
+            assert abs(on[axis] - outer[axis]) < 1e-6
+
+
+def test_cylinder_and_ring_wall_values_are_inside_limits():
+    # as above for the side walls and pole faces of a cylinder and a ring
+    args_c = ([0.01], [0.006], [1.2], [(0, 0, -0.003)])
+    args_r = ([0.01], [0.004], [0.006], [1.2], [(0, 0, -0.003)])
+    eps = 1e-10
+    cases = [
+        (cylinder_B, args_c, (0.005, 0, -0.002), (1, 0, 0)),
+        (cylinder_B, args_c, (0.0, 0.002, 0.0), (0, 0, 1)),
+        (ring_B, args_r, (0.0, 0.005, -0.002), (0, 1, 0)),
+        (ring_B, args_r, (0.002, 0.0, -0.002), (-1, 0, 0)),
+        (ring_B, args_r, (0.003, 0.0, -0.006), (0, 0, -1)),
+    ]
+    for fn, args, f, n in cases:
+        f, n = np.array(f, float), np.array(n, float)
+        on, inner = fn([f], *args)[0], fn([f - eps * n], *args)[0]
+        np.testing.assert_allclose(on, inner, atol=1e-6)
+
+
+def test_cube_centre_demagnetising_field():
+    # a uniformly magnetised cube has demagnetising factor 1/3 along each axis by symmetry
+    # (A. Aharoni, J. Appl. Phys. 83, 3432 (1998)): at its centre B = J - J/3 = 2J/3
+    for pol in [(0, 0, 1.2), (0.5, -0.3, 0.4)]:
+        b = cuboid_B([(0.0, 0.0, 0.0)], [(0.01, 0.01, 0.01)], [pol], [(0, 0, 0)])[0]
+        np.testing.assert_allclose(b, 2 / 3 * np.array(pol), atol=1e-14)
+
+
+# ---------------------------------------------------------------------------
+# Bulirsch's cel against scipy
+# ---------------------------------------------------------------------------
+def test_cel_special_cases_match_scipy():
+    # cel(kc,1,1,1) = K(m), cel(kc,1,1,kc^2) = E(m) with m = 1 - kc^2 (Bulirsch 1969;
+    # DLMF 19.2) -- scipy.special.ellipk / ellipe as the reference
+    kc = np.geomspace(1e-6, 1.0, 50)
+    m = 1 - kc**2
+    one = np.ones_like(kc)
+    np.testing.assert_allclose(cel(kc, one, one, one), special.ellipkm1(kc**2), rtol=1e-13)  # K via 1 - m = kc^2
+    np.testing.assert_allclose(cel(kc, one, one, kc**2), special.ellipe(m), rtol=1e-13)
+
+
+@pytest.mark.parametrize("p", [0.05, 0.7, 3.0, -0.4, -5.0])
+def test_cel_matches_quadrature(p):
+    # definition of cel integrated with scipy.integrate.quad (principal value for p < 0)
+    for kc, c, s in [(0.3, 1.0, -1.0), (0.8, 0.4, 2.0), (1.0, 1.0, 0.5)]:
+        def f(phi):
+            co, si = math.cos(phi) ** 2, math.sin(phi) ** 2
+            return (c * co + s * si) / ((co + p * si) * math.sqrt(co + kc**2 * si))
+
+        if p > 0:
+            ref = integrate.quad(f, 0, math.pi / 2, epsabs=1e-14, epsrel=1e-13)[0]
+        else:
+            phi0 = math.atan(math.sqrt(-1 / p))  # pole where cos^2 + p sin^2 = 0
+
+            def g(phi):
+                co, si = math.cos(phi) ** 2, math.sin(phi) ** 2
+                return (c * co + s * si) / math.sqrt(co + kc**2 * si)
+
+            # f = g / (cos^2 + p sin^2); weight 1/(phi - phi0) handled by quad's cauchy rule
+            def h(phi):
+                den = math.cos(phi) ** 2 + p * math.sin(phi) ** 2
+                return g(phi) * (phi - phi0) / den if phi != phi0 else g(phi) / (-(1 - p) * math.sin(2 * phi0))
+
+            ref = integrate.quad(h, 0, math.pi / 2, weight="cauchy", wvar=phi0, epsabs=1e-14, epsrel=1e-12)[0]
+        got = float(cel(kc, p, c, s))
+        assert got == pytest.approx(ref, rel=1e-10, abs=1e-12)
+
+
+# ---------------------------------------------------------------------------
+# properties (hypothesis)
+# ---------------------------------------------------------------------------
+coord = st.floats(-0.03, 0.03, allow_nan=False)
+point = st.tuples(coord, coord, coord)
+pol_c = st.floats(-1.5, 1.5, allow_nan=False)
+
+
+@settings(max_examples=30, deadline=None)
+@given(pts=st.lists(point, min_size=1, max_size=20), j1=pol_c, j2=pol_c, j3=pol_c, k=st.floats(-3, 3))
+def test_superposition_and_linearity(pts, j1, j2, j3, k):
+    # linear superposition of fields (Maxwell's equations are linear in the sources):
+    # touching cuboids evaluated together (shared corners merged) equal the sum of each alone
+    dims = np.array([[0.01, 0.01, 0.01], [0.01, 0.01, 0.01], [0.01, 0.01, 0.005]])
+    pos = np.array([[-0.005, 0, -0.005], [0.005, 0, -0.005], [0.005, 0.0, -0.0125]])
+    pols = np.array([[0, 0, j1], [j2, 0, -j1], [j3, j2, j1]])
+    p = np.array(pts)
+    together = cuboid_B(p, dims, pols, pos)
+    alone = sum(cuboid_B(p, dims[i : i + 1], pols[i : i + 1], pos[i : i + 1]) for i in range(3))
+    assert np.max(np.abs(together - alone)) < 1e-12 * (1.0 + float(np.max(np.abs(alone))))
+    np.testing.assert_allclose(cuboid_B(p, dims, k * pols, pos), k * together, rtol=1e-12, atol=1e-13)
+    np.testing.assert_allclose(
+        cylinder_B(p, [0.01], [0.004], [k * j1], [(0, 0, 0)]),
+        k * cylinder_B(p, [0.01], [0.004], [j1], [(0, 0, 0)]),
+        rtol=1e-12,
+        atol=1e-13,
+    )
+
+
+def _jacobian(fn, p, h):
+    jac = np.empty((p.shape[0], 3, 3))  # jac[:, i, k] = dB_i / dx_k
+    for k in range(3):
+        e = np.zeros(3)
+        e[k] = h
+        jac[:, :, k] = (fn(p + e) - fn(p - e)) / (2 * h)
+    return jac
+
+
+outside_pt = st.tuples(st.floats(-0.02, 0.02), st.floats(-0.02, 0.02), st.floats(0.001, 0.02))
+
+
+@settings(max_examples=20, deadline=None)
+@given(pts=st.lists(outside_pt, min_size=1, max_size=10))
+def test_div_and_curl_vanish_outside(pts):
+    # Maxwell: div B = 0 everywhere, curl B = 0 where there is no current (outside the
+    # magnets); central finite differences, truncation error O(h^2)
+    p = np.array(pts)
+    h = 2e-6
+    sources = [
+        lambda q: cuboid_B(q, [(0.01, 0.01, 0.01), (0.01, 0.01, 0.01)], [(0.2, 0.3, 1.3), (0, 0, -1.3)],
+                           [(-0.005, 0, -0.005), (0.005, 0, -0.005)]),
+        lambda q: cylinder_B(q, [0.01], [0.005], [1.2], [(0.002, 0, -0.0025)]),
+        lambda q: ring_B(q, [0.012], [0.004], [0.005], [-1.2], [(0, 0.001, -0.0025)]),
+    ]
+    for fn in sources:
+        jac = _jacobian(fn, p, h)
+        norm = np.linalg.norm(jac, axis=(1, 2))
+        div = np.trace(jac, axis1=1, axis2=2)
+        curl = np.stack([jac[:, 2, 1] - jac[:, 1, 2], jac[:, 0, 2] - jac[:, 2, 0], jac[:, 1, 0] - jac[:, 0, 1]], 1)
+        assert np.all(np.abs(div) <= 1e-5 * norm + 1e-6)
+        assert np.all(np.linalg.norm(curl, axis=1) <= 1e-5 * norm + 1e-6)
+
+
+@settings(max_examples=30, deadline=None)
+@given(pts=st.lists(point, min_size=1, max_size=20))
+def test_mirror_symmetry_of_opposite_pair(pts):
+    # symmetry (Neumann's principle): two z-polarised cubes at x = -+5 mm with opposite J
+    # map onto each other under x -> -x with J -> -J, so B(-x, y, z) = (Bx, -By, -Bz)(x, y, z)
+    dims = [(0.01, 0.01, 0.01)] * 2
+    pos = [(-0.005, 0, -0.005), (0.005, 0, -0.005)]
+    pols = [(0, 0, 1.3), (0, 0, -1.3)]
+    p = np.array(pts)
+    q = p * np.array([-1, 1, 1])
+    b, bq = cuboid_B(p, dims, pols, pos), cuboid_B(q, dims, pols, pos)
+    np.testing.assert_allclose(bq, b * np.array([1, -1, -1]), atol=1e-12)
+
+
+# ---------------------------------------------------------------------------
+# corner sharing and input checking
+# ---------------------------------------------------------------------------
+def test_checkerboard_corner_count():
+    # a 4 x 4 checkerboard of touching cubes has 5 x 5 x 2 = 50 distinct corners, none
+    # cancelling (counting argument, no source needed beyond geometry)
+    xs = (np.arange(4) - 1.5) * 0.01
+    pos = np.array([(x, y, -0.005) for y in xs for x in xs])
+    signs = np.array([(-1) ** (i + j) for j in range(4) for i in range(4)])
+    s = CuboidSet(np.full((16, 3), 0.01), np.outer(signs, [0, 0, 1.3]), pos)
+    assert s.corners.shape == (50, 3)
+    # a uniform 4 x 4 grid acts as one 40 x 40 x 10 mm block: every shared corner cancels
+    # and only the block's 8 corners remain
+    s2 = CuboidSet(np.full((16, 3), 0.01), np.tile([0, 0, 1.3], (16, 1)), pos)
+    assert s2.corners.shape == (8, 3)
+
+
+def test_bad_inputs_raise_input_error():
+    with pytest.raises(InputError, match="observers"):
+        cuboid_B(np.zeros((3, 2)), [(1, 1, 1)], [(0, 0, 1)], [(0, 0, 0)])
+    with pytest.raises(InputError, match="dimensions"):
+        cuboid_B(np.zeros((3, 3)), [(1, -1, 1)], [(0, 0, 1)], [(0, 0, 0)])
+    with pytest.raises(InputError, match="magnets"):
+        cuboid_B(np.zeros((3, 3)), [(1, 1, 1)], [(0, 0, 1), (0, 0, 1)], [(0, 0, 0)])
+    with pytest.raises(InputError, match="inner_diameters"):
+        ring_B(np.zeros((1, 3)), [0.01], [0.02], [0.01], [1.0], [(0, 0, 0)])
+    with pytest.raises(InputError, match="observers"):
+        dipole_B([(np.nan, 0, 0)], [(0, 0, 1)], [(0, 0, 0)])
+
+
+def test_shapes_and_single_point():
+    b = cuboid_B((0, 0, 0.01), [(0.01, 0.01, 0.01)], [(0, 0, 1)], [(0, 0, 0)])
+    assert b.shape == (1, 3)
+    assert cylinder_B(np.zeros((0, 3)), [0.01], [0.01], [1.0], [(0, 0, 0)]).shape == (0, 3)
