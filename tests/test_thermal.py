@@ -171,7 +171,7 @@ def _grid(lo, hi, n, delta):
 
 
 def _magpylib_sample_max(sources_and_boxes, n=7, pull=1e-6):
-    """Largest reverse field over cuboid sample grids, computed with magpylib.
+    """Largest reverse field over full cuboid grids (interior included), with magpylib.
 
     ``sources_and_boxes`` is a list of (centre, size, J vector). Each grid includes the
     faces, edges and corners, pulled in by the same absolute distance on every axis.
@@ -438,3 +438,16 @@ def test_safety_text_covers_the_usual_cautions():
                  "defibrillator", "insulin pump", "0.5 mt", "card", "watch", "electronics",
                  "regulations"):
         assert word in text, word
+
+
+def test_missing_coercivity_coefficient_holds_hcj():
+    # AlNiCo rows may have no beta: Hcj is then held at its 20 C value. Even a long
+    # AlNiCo 5 rod (Br 1.25 T, Hcj 51 kA/m, from memory of MMPA 0100-00) is flagged:
+    # just inside a pole face H_rev >= M/2 = 497 kA/m (charge sheet, Jackson s. 5.9),
+    # far above its knee; bare AlNiCo demagnetises at its ends (common practice)
+    arr = build_arrangement("cylinder", (5e-3, 40e-3), br=1.25)
+    res = demag_check(arr, 51e3, None, "AlNiCo", [20 + C, 100 + C])
+    assert res.risk
+    assert res.worst_ratio >= 0.5 * 1.25 / MU0 / (KNEE_FRACTION["AlNiCo"][0] * 51e3)
+    same = demag_check(arr, 51e3, 0.0, "AlNiCo", [20 + C, 100 + C])
+    assert same.worst_ratio == res.worst_ratio

@@ -440,8 +440,12 @@ def demag_check(
 ) -> DemagResult:
     """Check whether any magnet is pushed past the knee of its intrinsic loop.
 
-    Every magnet is sampled on a grid that includes its faces, edges and corners
-    (pulled inside by a relative 1e-9 of its size). At each sample point the reverse
+    Every magnet is sampled on the surface points of a grid of ``n_per_axis`` points
+    per axis (cylinders and rings: radius, height and at least 8 angles), its faces,
+    edges and corners, each boundary coordinate pulled inside by the same distance,
+    1e-9 of the magnet's largest dimension; interior points are skipped because each
+    component of H is harmonic inside a uniformly magnetised body and so peaks on its
+    boundary (maximum principle). At each sample point the reverse
     field along the magnet's own magnetisation, ``H_rev = -H . d_hat`` (positive
     demagnetises), comes from the whole arrangement, neighbours and steel images
     included. It is compared with ``KNEE_FRACTION[family] * Hcj(T)`` at every
@@ -453,8 +457,9 @@ def demag_check(
         Magnets as built by :func:`matdb.physics.arrangement.build_arrangement`.
     hcj_20_a_m : float or sequence of float
         Intrinsic coercivity at 20 C, one value or one per magnet [A/m].
-    beta_pct_per_k : float or sequence of float
-        Temperature coefficient of Hcj [%/K].
+    beta_pct_per_k : float, sequence of float, or None
+        Temperature coefficient of Hcj [%/K]; ``None`` (no coefficient known, as for
+        some AlNiCo grades) holds Hcj at its 20 C value.
     family : str or sequence of str
         Key of :data:`KNEE_FRACTION`.
     temps_k : sequence of float
@@ -474,10 +479,19 @@ def demag_check(
     overstates the reverse field of a material with ``mu_rec > 1``: the check errs
     towards caution.
 
+    At an ideal sharp edge or corner the component of H along J depends on the
+    direction from which the point is approached; the equal pull-in on every axis
+    fixes that direction (the cube diagonal at a corner). Just inside a pole face the
+    magnet's own surface charge alone gives ``H_rev >= M/2``, so an isolated magnet
+    is flagged whenever ``KNEE_FRACTION * Hcj(T) < Br(T) / (2 mu0)`` whatever its
+    shape (every bare AlNiCo magnet, plain NdFeB grades well above their rating).
+
     References
     ----------
     .. [1] Coey (2010), ch. 13: demagnetising field, the intrinsic loop and squareness.
     .. [2] IEC 60404-8-1:2015; MMPA 0100-00 (Hcj and its temperature coefficient).
+    .. [3] L. C. Evans, "Partial Differential Equations", 2nd ed., AMS, 2010,
+       section 2.2.3 (strong maximum principle for harmonic functions).
     """
     magnets = tuple(arrangement.magnets)
     n_mag = len(magnets)
@@ -493,7 +507,8 @@ def demag_check(
     hcj20 = np.array([float(v) for v in _per_magnet(hcj_20_a_m, n_mag, "hcj_20_a_m")])
     if not np.all(np.isfinite(hcj20)) or np.any(hcj20 <= 0):
         raise InputError(f"hcj_20_a_m: expected positive coercivities in A/m, got {hcj_20_a_m!r}")
-    beta = np.array([float(v) for v in _per_magnet(beta_pct_per_k, n_mag, "beta_pct_per_k")])
+    betas = _per_magnet(beta_pct_per_k, n_mag, "beta_pct_per_k", allow_none=True)
+    beta = np.array([0.0 if b is None else float(b) for b in betas])
     fams = _per_magnet(family, n_mag, "family")
     for f in fams:
         if f not in KNEE_FRACTION:
@@ -505,15 +520,17 @@ def demag_check(
     # knee field per temperature and magnet, (n_t, n_mag)
     hcj_t = np.asarray(hcj_at(hcj20[None, :], beta[None, :], temps[:, None]), dtype=float).reshape(temps.size, n_mag)
     if np.any(hcj_t <= 0):
-        bad = temps[np.any(hcj_t <= 0, axis=1)][0]
+        k_bad, i_bad = (int(v[0]) for v in np.nonzero(hcj_t <= 0))
         raise PhysicsError(
-            f"temps_k: {_celsius(bad)} is outside the range where the linear coercivity model holds"
+            f"temps_k: at {_celsius(temps[k_bad])} the linear coefficient {beta[i_bad]:g} %/K "
+            f"gives Hcj <= 0; the linear model does not reach that far"
         )
     br_f = np.asarray(br_at(1.0, alpha[None, :], temps[:, None]), dtype=float).reshape(temps.size, n_mag)
     if np.any(br_f <= 0):
-        bad = temps[np.any(br_f <= 0, axis=1)][0]
+        k_bad, i_bad = (int(v[0]) for v in np.nonzero(br_f <= 0))
         raise PhysicsError(
-            f"temps_k: {_celsius(bad)} is outside the range where the linear remanence model holds"
+            f"temps_k: at {_celsius(temps[k_bad])} the linear coefficient {alpha[i_bad]:g} %/K "
+            f"gives Br <= 0; the linear model does not reach that far"
         )
     h_knee = knee[None, :] * hcj_t
 
@@ -521,6 +538,11 @@ def demag_check(
     pts_all, owner, where, d_hat = [], [], [], []
     for i, mag in enumerate(magnets):
         local, code = _sample_local(mag.shape, mag.size, n)
+        # Inside a uniformly magnetised body with no free currents every component of
+        # H is harmonic (div H = -div M = 0, curl H = 0), so its largest value lies on
+        # the boundary (maximum principle): interior samples cannot be the worst.
+        surface = code > 0
+        local, code = local[surface], code[surface]
         d = _magnetisation_axis(mag)
         pts_all.append(local + np.asarray(mag.position, dtype=float).reshape(1, 3))
         owner.append(np.full(len(local), i))
