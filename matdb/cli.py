@@ -17,6 +17,7 @@ from .units import protect_negative_numbers
 COMMAND_MODULES = [
     "matdb.commands.catalog",
     "matdb.commands.serve",
+    "matdb.commands.lab",
 ]
 
 
