@@ -23,14 +23,12 @@ References
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
-from typing import Sequence
+from dataclasses import dataclass, replace
 
 import numpy as np
 from scipy.optimize import brentq
 
 from ..errors import InputError, PhysicsError
-from ..units import MU0
 
 T_REF_K = 293.15  # 20 C, the reference temperature of catalogue magnet data [K]
 
@@ -418,8 +416,6 @@ def _magnetisation_axis(mag) -> np.ndarray:
 
 def _rescaled(arrangement, factors: np.ndarray):
     """The arrangement with magnet i's br multiplied by ``factors[i]``."""
-    from dataclasses import replace
-
     mags = tuple(replace(m, br=m.br * float(f)) for m, f in zip(arrangement.magnets, factors))
     return replace(arrangement, magnets=mags)
 
@@ -606,10 +602,10 @@ def demag_check(
 # safety distance for implanted medical devices
 # ---------------------------------------------------------------------------
 
-PACEMAKER_THRESHOLD_T = 5e-4  # 0.5 mT, see safe_distance
+PACEMAKER_THRESHOLD_T = 5e-4  # 0.5 mT, see safe_distance [T]
 
 
-def safe_distance(arrangement, threshold_t: float = 5e-4) -> float:
+def safe_distance(arrangement, threshold_t: float = PACEMAKER_THRESHOLD_T) -> float:
     """Distance from the magnets beyond which ``|B|`` stays below ``threshold_t``.
 
     Rays leave the arrangement's bounding box from its centre in +z, -z, +x, -x, +y,
@@ -643,8 +639,9 @@ def safe_distance(arrangement, threshold_t: float = 5e-4) -> float:
     .. [1] ISO 14117:2019, "Active implantable medical devices - Electromagnetic
        compatibility - EMC test protocols for implantable cardiac pacemakers,
        implantable cardioverter defibrillators and cardiac resynchronization
-       devices" (static magnetic field immunity); 0.5 mT as the public exposure
-       limit for wearers of such devices is common practice.
+       devices" (static magnetic field immunity; from memory, verify). Keeping
+       wearers of such devices outside the 0.5 mT line is common practice, as around
+       MR scanners (from memory of IEC 60601-2-33; verify).
     .. [2] Jackson (1999), eq. (5.56): the far field falls as a dipole's, r^-3, so
        the threshold is crossed once at large distance.
     """
@@ -715,6 +712,6 @@ SAFETY_TEXT = (
     "than the 0.5 mT distance shown for this design.\n"
     "- Other objects: keep magnets away from bank cards and other magnetic stripes, "
     "mechanical watches, hearing aids, phones, hard drives and other electronics.\n"
-    "These notes do not replace local regulations, the supplier's safety data or the "
-    "advice of a qualified professional; where they differ, follow those."
+    "These notes are general. Local codes, the supplier's safety data and the advice "
+    "of licensed professionals take precedence over them."
 )
