@@ -2,12 +2,14 @@
 
 Field references used below:
 
-* on-axis field of a uniformly magnetised cylinder (equivalent solenoid), e.g. J. M. D.
-  Coey, Magnetism and Magnetic Materials (2010), section 2.2 / any electromagnetism text;
+* on-axis field of a uniformly magnetised cylinder (equivalent finite solenoid), a
+  standard textbook result (e.g. J. M. D. Coey, Magnetism and Magnetic Materials, 2010,
+  ch. 2; from memory);
 * magnetic surface charge sigma = M.n and the field of a charged sheet through its solid
   angle, H_n = sigma * Omega / (4 pi) (J. D. Jackson, Classical Electrodynamics, 3rd ed.,
-  section 5.9); the solid angle of a rectangle seen from above one corner,
-  Omega = atan(A B / (h sqrt(A^2 + B^2 + h^2))) (standard result, e.g. the same section);
+  section 5.9, from memory of the section number; "Jackson s. 5.9" below); the solid
+  angle of a rectangle seen from above one corner, Omega = atan(A B / (h sqrt(A^2 + B^2
+  + h^2))) (standard geometry result);
 * the dipole field, Jackson eq. (5.56);
 * magpylib (independent closed-form implementation), used as a reference only.
 """
@@ -71,7 +73,7 @@ def test_hcj_at_follows_its_coefficient_in_both_directions():
 
 
 def test_lift_derating_at_60c():
-    # derived: lift ~ chi grad(B^2) (force on a weakly magnetic body, Coey 2010 s. 2.5),
+    # derived: lift ~ chi grad(B^2) (Berry & Geim, Eur. J. Phys. 18, 307 (1997)),
     # so lift(T)/lift(20 C) = (1 + alpha dT)^2 = (1 - 0.048)^2 -> 9.37 % lost
     assert lift_derating_pct(-0.12, 60 + C) == pytest.approx(100 * (1 - (1 - 0.048) ** 2), rel=1e-12)
     assert lift_factor(-0.12, 60 + C) == pytest.approx((1 - 0.048) ** 2, rel=1e-12)

@@ -162,8 +162,9 @@ def lift_factor(alpha_pct_per_k, t_k, chi_temp_coeff_per_k=None):
 
     References
     ----------
-    .. [1] Force on a linear magnetisable body in the small-chi limit, e.g.
-       Coey (2010), section 2.5; Br(T) per IEC 60404-8-1.
+    .. [1] M. V. Berry and A. K. Geim, "Of flying frogs and levitrons", Eur. J. Phys.
+       18, 307-313 (1997): energy of a weakly magnetic body -chi V B^2 / (2 mu0);
+       Br(T) per IEC 60404-8-1.
     """
     fb = br_at(1.0, alpha_pct_per_k, t_k)
     fc = chi_at(1.0, chi_temp_coeff_per_k, t_k)
