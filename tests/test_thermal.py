@@ -172,17 +172,18 @@ def _grid(lo, hi, n, delta):
     return x
 
 
-def _magpylib_sample_max(sources_and_boxes, n=7, pull=1e-6):
+def _magpylib_sample_max(sources_and_boxes, n=7, pull=1e-6, sampled=None):
     """Largest reverse field over full cuboid grids (interior included), with magpylib.
 
     ``sources_and_boxes`` is a list of (centre, size, J vector). Each grid includes the
     faces, edges and corners, pulled in by the same absolute distance on every axis.
+    Only the first ``sampled`` boxes are sampled (default all); the rest are sources.
     """
     coll = magpylib.Collection(
         [magpylib.magnet.Cuboid(dimension=s, polarization=j, position=c) for c, s, j in sources_and_boxes]
     )
     best = -np.inf
-    for c, s, j in sources_and_boxes:
+    for c, s, j in sources_and_boxes[:sampled]:
         d = pull * max(s)
         axes = [_grid(-si / 2, si / 2, n, d) + ci for si, ci in zip(s, c)]
         g = np.stack(np.meshgrid(*axes, indexing="ij"), axis=-1).reshape(-1, 3)
@@ -453,3 +454,36 @@ def test_missing_coercivity_coefficient_holds_hcj():
     assert res.worst_ratio >= 0.5 * 1.25 / MU0 / (KNEE_FRACTION["AlNiCo"][0] * 51e3)
     same = demag_check(arr, 51e3, 0.0, "AlNiCo", [20 + C, 100 + C])
     assert same.worst_ratio == res.worst_ratio
+
+
+def test_ring_sample_agrees_with_magpylib():
+    # a ring's worst point (inner or outer rim, faces) checked against magpylib's ring
+    # (CylinderSegment over 360 degrees) at the same point
+    od, idia, h = 20e-3, 8e-3, 3e-3
+    arr = build_arrangement("ring", (od, idia, h), br=N42_BR)
+    res = demag_check(arr, N_HCJ, NDFEB_BETA, "NdFeB", [20 + C])
+    ring = magpylib.magnet.CylinderSegment(dimension=(idia / 2, od / 2, h, 0, 360),
+                                           polarization=(0, 0, N42_BR), position=arr.magnets[0].position)
+    h_ref = -float(ring.getH(np.array([res.worst_point])).reshape(-1, 3)[0, 2])
+    assert res.worst_ratio * KNEE_FRACTION["NdFeB"][0] * N_HCJ == pytest.approx(h_ref, rel=1e-5)
+    # a flat ring sees at least the M/2 of its own pole face (Jackson s. 5.9)
+    assert res.worst_ratio * KNEE_FRACTION["NdFeB"][0] * N_HCJ > 0.5 * N42_BR / MU0
+
+
+def test_back_plate_images_are_included():
+    # an ideal steel back plate acts as a mirror image magnet with the same J_z below the
+    # plate surface (method of images for a high-permeability half-space, a standard
+    # magnetostatics result; the model of matdb.physics.arrangement): magpylib with the explicit image
+    # is the reference; the image adds forward field, so the reverse field falls
+    s, t = 10e-3, 3e-3
+    bare = build_arrangement("cuboid", (s, s, t), br=N42_BR)
+    plate = build_arrangement("cuboid", (s, s, t), br=N42_BR, back_plate=True)
+    r_bare = demag_check(bare, N_HCJ, NDFEB_BETA, "NdFeB", [20 + C])
+    r_plate = demag_check(plate, N_HCJ, NDFEB_BETA, "NdFeB", [20 + C])
+    pos = np.asarray(plate.magnets[0].position)
+    image = pos.copy()
+    image[2] = 2 * plate.bottom_z - pos[2]
+    boxes = [(pos, (s, s, t), (0, 0, N42_BR)), (image, (s, s, t), (0, 0, N42_BR))]
+    ref = _magpylib_sample_max(boxes, sampled=1)
+    assert r_plate.worst_ratio * KNEE_FRACTION["NdFeB"][0] * N_HCJ == pytest.approx(ref, rel=1e-4)
+    assert r_plate.worst_ratio < r_bare.worst_ratio
