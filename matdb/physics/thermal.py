@@ -515,14 +515,15 @@ def demag_check(
     alpha = np.array([0.0 if a is None else float(a) for a in alphas])
 
     # knee field per temperature and magnet, (n_t, n_mag)
-    hcj_t = np.asarray(hcj_at(hcj20[None, :], beta[None, :], temps[:, None]), dtype=float).reshape(temps.size, n_mag)
+    shape_tm = (temps.size, n_mag)
+    hcj_t = np.asarray(hcj_at(hcj20[None, :], beta[None, :], temps[:, None]), dtype=float).reshape(shape_tm)
     if np.any(hcj_t <= 0):
         k_bad, i_bad = (int(v[0]) for v in np.nonzero(hcj_t <= 0))
         raise PhysicsError(
             f"temps_k: at {_celsius(temps[k_bad])} the linear coefficient {beta[i_bad]:g} %/K "
             f"gives Hcj <= 0; the linear model does not reach that far"
         )
-    br_f = np.asarray(br_at(1.0, alpha[None, :], temps[:, None]), dtype=float).reshape(temps.size, n_mag)
+    br_f = np.asarray(br_at(1.0, alpha[None, :], temps[:, None]), dtype=float).reshape(shape_tm)
     if np.any(br_f <= 0):
         k_bad, i_bad = (int(v[0]) for v in np.nonzero(br_f <= 0))
         raise PhysicsError(
