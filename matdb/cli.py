@@ -18,6 +18,7 @@ COMMAND_MODULES = [
     "matdb.commands.catalog",
     "matdb.commands.serve",
     "matdb.commands.lab",
+    "matdb.commands.physics",
 ]
 
 
