@@ -998,9 +998,9 @@ def _parse_entered(text: str, label: str) -> Optional[_dt.datetime]:
         d = _dt.datetime.fromisoformat(text)
     except ValueError:
         raise InputError(f"{label}: expected an ISO date and time, got {text!r}") from None
-    if d.tzinfo is not None:
-        d = d.astimezone(_dt.timezone.utc).replace(tzinfo=None)
-    return d
+    if d.tzinfo is None:  # entry times are UTC (matdb.models)
+        return d.replace(tzinfo=_dt.timezone.utc)
+    return d.astimezone(_dt.timezone.utc)
 
 
 def _row_chi(s: Session, c: dict[str, str], mat: _Mat, source_keys: set[str]) -> SusceptibilityValue:
