@@ -262,6 +262,25 @@ def test_inside_and_H():
     assert h[0, 2] < 0
 
 
+def test_H_on_shared_and_plate_faces_is_the_inside_limit():
+    # the demagnetisation check samples faces: there H must be the limit from inside the
+    # magnet that inside() reports (H tangential is continuous across a face and B normal
+    # is continuous, Jackson section 5.9)
+    eps = 1e-10
+    a = build_arrangement("cuboid", CUBE, "checkerboard", 2, 2, br=1.3, back_plate=True)
+    faces = [
+        ((0.0, -0.005, -0.005), (-1, 0, 0)),  # shared side face, magnet (0,0) owns it
+        ((-0.005, 0.0, -0.003), (0, -1, 0)),  # shared side face along y
+        ((-0.004, -0.006, -0.01), (0, 0, 1)),  # bottom face on the plate
+        ((0.003, 0.004, 0.0), (0, 0, -1)),  # top face
+    ]
+    for f, into in faces:
+        f, into = np.array(f), np.array(into, float)
+        idx = a.inside([f, f + eps * into])
+        assert idx[0] == idx[1] >= 0
+        np.testing.assert_allclose(a.H(f), a.H(f + eps * into), rtol=1e-5, atol=1.0)
+
+
 def test_single_cube_centre_H_is_minus_M_over_3():
     # demagnetising factor of a cube is 1/3 (A. Aharoni, J. Appl. Phys. 83, 3432 (1998)):
     # H at the centre = -M/3 = -Br/(3 mu0)

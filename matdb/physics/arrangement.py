@@ -29,7 +29,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..units import MU0
-from .fields import CuboidSet, _as_points, _cyl_sum
+from .fields import MagnetSet, _as_points
 
 __all__ = ["Magnet", "Arrangement", "build_arrangement", "SHAPES", "PATTERNS"]
 
@@ -178,55 +178,21 @@ class Magnet:
         return self.position[2] - self.height / 2
 
 
-class _Fields:
-    """Precomputed sources of an arrangement (real magnets and images)."""
-
-    def __init__(self, magnets: Sequence[Magnet], plate_z: float | None):
-        cub_d, cub_j, cub_p = [], [], []
-        cyl_r, cyl_h, cyl_j, cyl_p, cyl_s = [], [], [], [], []
-
-        def add(mag: Magnet, pos, j):
-            if mag.shape == "cuboid":
-                cub_d.append(mag.size)
-                cub_j.append(j)
-                cub_p.append(pos)
-            else:
-                cyl_r.append(mag.size[0] / 2)
-                cyl_h.append(mag.size[-1] / 2)
-                cyl_j.append(j[2])
-                cyl_p.append(pos)
-                cyl_s.append(1.0)
-                if mag.shape == "ring" and mag.size[1] > 0:
-                    cyl_r.append(mag.size[1] / 2)
-                    cyl_h.append(mag.size[-1] / 2)
-                    cyl_j.append(-j[2])
-                    cyl_p.append(pos)
-                    cyl_s.append(-1.0)
-
-        for mag in magnets:
-            j = mag.polarization
-            add(mag, mag.position, j)
-            if plate_z is not None:
-                x, y, z = mag.position
-                add(mag, (x, y, 2 * plate_z - z), (-j[0], -j[1], j[2]))
-        self.cuboids = CuboidSet(np.reshape(cub_d, (-1, 3)), np.reshape(cub_j, (-1, 3)),
-                                 np.reshape(cub_p, (-1, 3))) if cub_d else None
-        self.cyl = None
-        if cyl_r:
-            self.cyl = tuple(np.asarray(a, dtype=float) for a in (cyl_r, cyl_h, cyl_j, cyl_s))
-            self.cyl_pos = np.reshape(np.asarray(cyl_p, dtype=float), (-1, 3))
-
-    def B(self, p: np.ndarray) -> np.ndarray:
-        out = np.zeros_like(p)
-        if self.cuboids is not None:
-            out += self.cuboids.B(p)
-        if self.cyl is not None:
-            r, h, j, s = self.cyl
-            for sign in (1.0, -1.0):
-                sel = s == sign
-                if np.any(sel):
-                    out += _cyl_sum(p, r[sel], h[sel], j[sel], self.cyl_pos[sel], sign)
-        return out
+def _sources(magnets: Sequence[Magnet], plate_z: float | None) -> MagnetSet:
+    """All sources in priority order: the real magnets, then their images (if any)."""
+    kinds = [m.shape for m in magnets]
+    sizes = [m.size for m in magnets]
+    pols = [m.polarization for m in magnets]
+    pos = [m.position for m in magnets]
+    if plate_z is not None:
+        for m in magnets:
+            x, y, z = m.position
+            jx, jy, jz = m.polarization
+            kinds.append(m.shape)
+            sizes.append(m.size)
+            pols.append((-jx, -jy, jz))
+            pos.append((x, y, 2.0 * plate_z - z))
+    return MagnetSet(kinds, sizes, np.asarray(pols, dtype=float), np.asarray(pos, dtype=float))
 
 
 @dataclass(frozen=True)
@@ -287,10 +253,10 @@ class Arrangement:
         return (float(mn[0]), float(mx[0]), float(mn[1]), float(mx[1]), float(mn[2]), float(mx[2]))
 
     # -- fields ----------------------------------------------------------------
-    def _fields(self) -> _Fields:
+    def _fields(self) -> MagnetSet:
         f = self._cache.get("fields")
         if f is None:
-            f = _Fields(self.magnets, self.bottom_z if self.back_plate else None)
+            f = _sources(self.magnets, self.bottom_z if self.back_plate else None)
             self._cache["fields"] = f
         return f
 
@@ -328,24 +294,12 @@ class Arrangement:
         """Index of the (real) magnet containing each point, -1 outside; shape (n,).
 
         Magnets are closed sets (faces count as inside); where magnets touch, the lower
-        index wins.
+        index wins (the same owner whose inside limit :meth:`B` returns on the face).
         """
         p = _as_points(points, "points")
-        out = np.full(p.shape[0], -1, dtype=int)
-        for i in range(len(self.magnets) - 1, -1, -1):  # loop over magnets, not points
-            m = self.magnets[i]
-            d = p - np.asarray(m.position)
-            hz = m.height / 2
-            inz = np.abs(d[:, 2]) <= hz
-            if m.shape == "cuboid":
-                ins = inz & (np.abs(d[:, 0]) <= m.size[0] / 2) & (np.abs(d[:, 1]) <= m.size[1] / 2)
-            else:
-                rho2 = d[:, 0] ** 2 + d[:, 1] ** 2
-                ins = inz & (rho2 <= (m.size[0] / 2) ** 2)
-                if m.shape == "ring":
-                    ins &= rho2 >= (m.size[1] / 2) ** 2
-            out[ins] = i
-        return out
+        idx = self._fields().owner(p)
+        idx[idx >= self.count] = -1  # images are not magnets
+        return idx
 
     # -- derived arrangements --------------------------------------------------
     def scaled(self, factor: float) -> "Arrangement":
