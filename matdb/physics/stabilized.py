@@ -824,7 +824,7 @@ class StationModel:
         if need <= 0:
             return math.inf
         if k(lo) <= need:
-            return None
+            return lo if k(lo) >= need * (1 - 1e-6) else None
         hi = 2 * lo
         while k(hi) > need:
             hi *= 2.0
@@ -1243,6 +1243,23 @@ def levitate_stabilized(design, temp_k: Optional[float] = None, n_window: int = 
                      share_fraction=float(frac[i]), floater_mass_kg=st.floater.mass_kg)
             stations.append(e)
             warnings.extend(r["warnings"])
+        # the other stations' lifters also pull on each floater: the model leaves that out, say how much
+        if ok:
+            for i, (si, mi, ri) in enumerate(zip(design.stations, models, reps)):
+                own = lifter_force(mi.lifter_at(ri["lifter_distance_m"]), mi.floater)
+                cross = np.zeros(3)
+                for j, (sj, mj, rj) in enumerate(zip(design.stations, models, reps)):
+                    if j != i:
+                        lj = mj.lifter_at(rj["lifter_distance_m"])
+                        off = np.array([sj.x - si.x, sj.y - si.y, 0.0]) + np.asarray(lj.centre)
+                        cross += lifter_force(lj.at(off), mi.floater)
+                rel = float(np.linalg.norm(cross) / abs(own[2]))
+                if rel > 0.01:
+                    warnings.append(
+                        f"station[{i}].: the other stations' lifters pull on this floater with "
+                        f"{100 * rel:.3g}% of its own lifter's pull, which this model leaves out; "
+                        "place the stations farther apart or expect to trim the lifter distances"
+                    )
         rc = reps[crit]
         result = {k: v for k, v in rc.items() if k not in ("warnings", "hessian", "stable")}
         floats = bool(ok and all(r["stable"] for r in reps) and tilt_stable)
@@ -1270,7 +1287,8 @@ def levitate_stabilized(design, temp_k: Optional[float] = None, n_window: int = 
                     off + [0, 0, r["lifter_distance_m"] + m.lifter0.half_height]))
     result["safe_distance_m"] = float(safe_distance(_System(bodies)))
     result["warnings"] = warnings + [SAFETY_TEXT]
-    return _plain(result)
+    head = {k: result.pop(k) for k in ("mode", "floats")}
+    return _plain({**head, **result})
 
 
 def _plain(x):
