@@ -157,7 +157,7 @@ def test_cuboid_on_axis_handbook_formula():
 
 def test_cylinder_on_axis_formula():
     # common handbook formula: Bz = Br/2 [(h+z)/sqrt(R^2+(h+z)^2) - z/sqrt(R^2+z^2)],
-    # z measured from the pole face (also Derby & Olbert, Am. J. Phys. 78, 229, eq. 3)
+    # z measured from the pole face (also the on-axis limit in Derby & Olbert, Am. J. Phys. 78, 229 (2010))
     R, h, br = 0.006, 0.004, 1.2
     z = np.geomspace(1e-5, 0.2, 60)
     expected = br / 2 * ((h + z) / np.sqrt(R**2 + (h + z) ** 2) - z / np.sqrt(R**2 + z**2))

@@ -10,7 +10,8 @@ finite numbers everywhere:
 
 * strictly inside or outside a magnet the closed forms are exact;
 * on a face the value is the limit from the inside of the magnet (the normal component
-  of B is continuous there anyway; the tangential one takes the inside value);
+  of B is continuous there anyway; the tangential one takes the inside value); where
+  magnets touch, from inside the first one listed (see :class:`MagnetSet`);
 * on an edge or corner, where the exact field of an ideal sharp-edged magnet diverges
   logarithmically, the singular logarithm is dropped (its coefficient is finite) and a
   finite regularised value is returned, the way published treatments mask those terms.
@@ -182,8 +183,8 @@ class CuboidSet:
     -----
     With corner ``c`` of a cuboid, ``(u, v, w) = x - c``, ``r = |x - c|`` and the sign
     ``s_c = prod(+1 upper, -1 lower)`` over the three axes, the surface-charge solution of
-    [1]_ (their eqs. 7-9 generalised to the three polarisation directions by cyclic
-    permutation) is
+    [1]_ (generalised to the three polarisation directions by cyclic permutation of
+    the axes) is
 
     .. math::
 
@@ -309,7 +310,7 @@ def cuboid_B(observers, dimensions, polarizations, positions) -> np.ndarray:
 
     Notes
     -----
-    Surface-charge closed form of Engel-Herbert and Hesjedal [1]_ (eqs. 7-9), the same
+    Surface-charge closed form of Engel-Herbert and Hesjedal [1]_, the same
     as Yang et al. [2]_: for polarisation along z, with corners ``x_i, y_j, z_k``
     (``i, j, k`` = 1 lower, 2 upper) and ``r_ijk`` the distance to the corner,
 
@@ -497,10 +498,11 @@ def cylinder_B(observers, diameters, heights, polarizations_z, positions) -> np.
 
     Notes
     -----
-    Derby and Olbert [1]_, eqs. (17)-(18): with radius a, half-height b,
-    ``z_pm = z -+ b`` measured from the centre... in their notation ``z_+- = z +- b``,
-    ``alpha = a / sqrt(z^2 + (rho + a)^2)``, ``beta = z / sqrt(z^2 + (rho + a)^2)``,
-    ``gamma = (a - rho)/(a + rho)``, ``k = sqrt((z^2 + (a - rho)^2)/(z^2 + (a + rho)^2))``,
+    The closed form of Derby and Olbert [1]_ in terms of Bulirsch's ``cel``: with radius
+    a, half-height b, (rho, z) measured from the centre, ``z_+- = z +- b`` and, for each
+    of ``z_+`` and ``z_-``, ``alpha = a / sqrt(z^2 + (rho + a)^2)``,
+    ``beta = z / sqrt(z^2 + (rho + a)^2)``, ``gamma = (a - rho)/(a + rho)``,
+    ``k = sqrt((z^2 + (a - rho)^2)/(z^2 + (a + rho)^2))`` (the complementary modulus),
 
     .. math::
 
