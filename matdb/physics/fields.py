@@ -340,7 +340,7 @@ def cuboid_B(observers, dimensions, polarizations, positions) -> np.ndarray:
 # ---------------------------------------------------------------------------
 # Bulirsch's cel and cylinders
 # ---------------------------------------------------------------------------
-def cel(kc, p, c, s, *, rtol: float = 1e-15, max_iter: int = 60) -> np.ndarray:
+def cel(kc, p, c, s, *, rtol: float = 1e-8, max_iter: int = 40) -> np.ndarray:
     """Bulirsch's generalised complete elliptic integral, vectorised.
 
     .. math::
@@ -358,7 +358,9 @@ def cel(kc, p, c, s, *, rtol: float = 1e-15, max_iter: int = 60) -> np.ndarray:
         Parameters, broadcast against ``kc``; ``p`` non-zero [1].
     rtol : float
         Relative tolerance of the arithmetic-geometric iteration, run on the whole array
-        until every element has converged.
+        until every element has converged. The iteration converges quadratically, so
+        Bulirsch's choice of the square root of the working precision gives results
+        accurate to the working precision.
 
     Returns
     -------
@@ -372,31 +374,36 @@ def cel(kc, p, c, s, *, rtol: float = 1e-15, max_iter: int = 60) -> np.ndarray:
     """
     kc, p, c, s = np.broadcast_arrays(*(np.asarray(x, dtype=float) for x in (kc, p, c, s)))
     bad = (kc == 0) | (p == 0)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        k = np.abs(np.where(bad, 1.0, kc))
-        p_ = np.where(bad, 1.0, p)
-        pos = p_ > 0
-        # p > 0 branch
-        pp_pos = np.sqrt(np.abs(p_))
-        ss_pos = s / pp_pos
-        cc_pos = c
-        # p < 0 branch
-        f = k * k
-        q = (1.0 - f) * (s - c * p_)
-        g = 1.0 - p_
-        f = f - p_
-        pp_neg = np.sqrt(np.abs(f / g))
-        cc_neg = (c - s) / g
-        ss_neg = -q / (g * g * pp_neg) + cc_neg * pp_neg
-        pp = np.where(pos, pp_pos, pp_neg)
-        cc = np.where(pos, cc_pos, cc_neg)
-        ss = np.where(pos, ss_pos, ss_neg)
+    any_bad = bool(np.any(bad))
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        if any_bad:
+            kc = np.where(bad, 1.0, kc)
+            p = np.where(bad, 1.0, p)
+        k = np.abs(kc)
+        if np.all(p > 0):
+            pp = np.sqrt(p)
+            ss = s / pp
+            cc = np.array(c, dtype=float, copy=True)
+        else:  # Bulirsch's transformation for p < 0 (Cauchy principal value)
+            pos = p > 0
+            pp_pos = np.sqrt(np.abs(p))
+            f = k * k
+            q = (1.0 - f) * (s - c * p)
+            g = 1.0 - p
+            f = f - p
+            pp_neg = np.sqrt(np.abs(f / g))
+            cc_neg = (c - s) / g
+            ss_neg = -q / (g * g * pp_neg) + cc_neg * pp_neg
+            pp = np.where(pos, pp_pos, pp_neg)
+            cc = np.where(pos, c, cc_neg)
+            ss = np.where(pos, s / pp_pos, ss_neg)
         em = np.ones_like(k)
-        f = cc
-        cc = cc + ss / pp
+        f = cc.copy()
+        cc += ss / pp
         g = k / pp
-        ss = 2.0 * (ss + f * g)
-        pp = g + pp
+        ss += f * g
+        ss *= 2.0
+        pp += g
         g = em
         em = k + em
         kk = k
@@ -405,15 +412,18 @@ def cel(kc, p, c, s, *, rtol: float = 1e-15, max_iter: int = 60) -> np.ndarray:
                 break
             k = 2.0 * np.sqrt(kk)
             kk = k * em
-            f = cc
-            cc = cc + ss / pp
+            f = cc.copy()
+            cc += ss / pp
             g = kk / pp
-            ss = 2.0 * (ss + f * g)
-            pp = g + pp
+            ss += f * g
+            ss *= 2.0
+            pp += g
             g = em
             em = k + em
         out = 0.5 * math.pi * (ss + cc * em) / (em * (em + pp))
-    return np.where(bad, np.nan, out)
+    if any_bad:
+        out = np.where(bad, np.nan, out)
+    return out
 
 
 def _cyl_core(p: np.ndarray, radius, half_h, jz, centre) -> np.ndarray:
