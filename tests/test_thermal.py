@@ -487,3 +487,14 @@ def test_back_plate_images_are_included():
     ref = _magpylib_sample_max(boxes, sampled=1)
     assert r_plate.worst_ratio * KNEE_FRACTION["NdFeB"][0] * N_HCJ == pytest.approx(ref, rel=1e-4)
     assert r_plate.worst_ratio < r_bare.worst_ratio
+
+
+def test_coefficient_extrapolated_past_zero_is_a_risk_not_a_crash():
+    # Arithmetic of the reversible coefficient (IEC 60404-8-1 definition): beta = -0.5 %/K
+    # from 20 C reaches Hcj = 0 at 220 C, so at 230 C there is no knee left: flag, don't raise.
+    from matdb.physics.arrangement import build_arrangement
+    from matdb.physics.thermal import demag_check
+
+    arr = build_arrangement("cuboid", (0.01, 0.01, 0.01), br=1.1)
+    res = demag_check(arr, 2785e3, -0.5, "NdFeB", [293.15, 503.15], alpha_pct_per_k=-0.10)
+    assert res.risk and "extrapolates Hcj to zero" in res.message

@@ -518,10 +518,21 @@ def demag_check(
     shape_tm = (temps.size, n_mag)
     hcj_t = np.asarray(hcj_at(hcj20[None, :], beta[None, :], temps[:, None]), dtype=float).reshape(shape_tm)
     if np.any(hcj_t <= 0):
+        # The reversible coefficient is a straight line fitted over a limited range; where
+        # it extrapolates to no coercivity at all the model has no knee left to compare
+        # with. That is a risk verdict, not a crash: the magnet is far outside the range
+        # its coefficient describes.
         k_bad, i_bad = (int(v[0]) for v in np.nonzero(hcj_t <= 0))
-        raise PhysicsError(
-            f"temps_k: at {_celsius(temps[k_bad])} the linear coefficient {beta[i_bad]:g} %/K "
-            f"gives Hcj <= 0; the linear model does not reach that far"
+        return DemagResult(
+            risk=True,
+            worst_ratio=math.inf,
+            worst_temp_k=float(temps[k_bad]),
+            worst_magnet=i_bad,
+            worst_point=tuple(float(v) for v in magnets[i_bad].position),
+            temps_k=tuple(float(t) for t in temps),
+            message=(f"at {_celsius(temps[k_bad])} the linear coefficient {beta[i_bad]:g} %/K of magnet "
+                     f"{i_bad + 1} extrapolates Hcj to zero: outside the coefficient's range, "
+                     f"treat as at risk of irreversible loss"),
         )
     br_f = np.asarray(br_at(1.0, alpha[None, :], temps[:, None]), dtype=float).reshape(shape_tm)
     if np.any(br_f <= 0):
