@@ -381,6 +381,20 @@ def test_two_station_demo_shares_and_tilt(tmp_path):
     assert right["lifter_distance_m"] < left["lifter_distance_m"]
     assert isinstance(r["tilt_stable"], bool)
     assert r["max_payload_kg"] > d.payload.mass_kg
+    # statics with every lifter pulling on every floater: magpylib's forces of both lifters
+    # on each floater add up to that floater's load (its weight plus its share)
+    magpy = pytest.importorskip("magpylib")
+    for i, s_i in enumerate(d.stations):
+        srcs = []
+        for j, s_j in enumerate(d.stations):
+            D = r["stations"][j]["lifter_distance_m"]
+            h = s_j.lifter.size[-1]
+            srcs.append(magpy.magnet.Cylinder(dimension=s_j.lifter.size, polarization=(0, 0, s_j.lifter.br_t),
+                                              position=(s_j.x - s_i.x, s_j.y - s_i.y, D + h / 2)))
+        tgt = magpy.magnet.Cylinder(dimension=s_i.floater.size, polarization=(0, 0, s_i.floater.br_t))
+        F, _ = magpy.getFT(srcs, tgt, meshing=2000)
+        load = (s_i.floater.mass_kg + s_i.payload_kg) * 9.80665 + r["stations"][i]["share_n"]
+        assert F[:, 2].sum() == pytest.approx(load, rel=1e-4)
 
 
 def test_centred_identical_stations_share_equally():

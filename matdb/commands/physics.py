@@ -118,6 +118,10 @@ def _num(v, scale: float = 1.0, digits: int = 4, unit: str = "") -> str:
 
 def format_levitate(r: dict) -> str:
     """The result of a plate levitate as text for a person (mm, g, Hz, N/m, mN)."""
+    if r.get("mode") == "stabilized":
+        from ..physics.stabilized import format_table
+
+        return format_table(r)
     if r.get("mode") != "plate":
         lines = [f"{k}: {v}" for k, v in r.items() if not isinstance(v, (list, dict))]
         lines += [f"warning: {w}" for w in r.get("warnings", [])]

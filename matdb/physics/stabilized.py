@@ -74,6 +74,7 @@ __all__ = [
     "StationModel",
     "weight_shares",
     "levitate_stabilized",
+    "format_table",
 ]
 
 _C = MU0 / (4.0 * math.pi)  # mu0 / 4 pi [T m / A]
@@ -748,19 +749,30 @@ class StationModel:
         self.plates = FinitePlates(self.floater, chi_perp, chi_par, thickness, g_min=0.5 * g_min)
         self.chi_dip = self.plates.chi_dipole
         self._scan = None
+        self.others: tuple = ()
 
     # -- lifter
     def lifter_at(self, distance: float) -> Body:
         """The lifter with its near face ``distance`` above the floater's centre."""
         return self.lifter0.at((0.0, 0.0, distance + self.lifter0.half_height))
 
+    def set_others(self, bodies) -> None:
+        """Other stations' lifters, placed relative to this floater's centre (held fixed)."""
+        self.others = tuple(bodies)
+        self._scan = None
+
+    def source(self, distance: float):
+        """What pulls on the floater: its lifter at ``distance`` plus any other lifters."""
+        own = self.lifter_at(distance)
+        return _System((own,) + self.others) if self.others else own
+
     def force(self, distance: float) -> float:
         """Upward pull of the lifter at lifter distance ``distance`` [N]."""
-        return float(lifter_force(self.lifter_at(distance), self.floater)[2])
+        return float(lifter_force(self.source(distance), self.floater)[2])
 
     def stiffness(self, distance: float) -> tuple[float, float]:
         """``(k_z, k_r)`` of the lifter at ``distance`` [N/m]."""
-        return lifter_stiffness(self.lifter_at(distance), self.floater)
+        return lifter_stiffness(self.source(distance), self.floater)
 
     def _grid(self):
         if self._scan is None:
@@ -863,7 +875,7 @@ class StationModel:
 
     def tilt(self, distance: float, plate_distance: float) -> dict:
         """Lateral and tilt stiffnesses at lifter distance ``distance``, plates at ``plate_distance``."""
-        hz = lifter_hessian(self.lifter_at(distance), self.floater)
+        hz = lifter_hessian(self.source(distance), self.floater)
         kp = self.plates.tilt_stiffness(plate_distance)
         kd = dipole_plates_tilt_stiffness(self.floater.moment, self.chi_dip, plate_distance, self.t)
         return {**hz, "kappa_plates": kp, "kappa_plates_dipole": kd}
@@ -971,6 +983,7 @@ def _f(x) -> Optional[float]:
 def _station_report(st, model: StationModel, weight_n: float, where: str, n_window: int = 11) -> dict:
     """Everything about one station carrying ``weight_n`` (floater included)."""
     warnings: list[str] = []
+    label = where.rstrip(".") + ": " if where else ""
     a_design = st.plates.distance
     D = model.balance(weight_n)
     w_max = model.max_weight()
@@ -984,7 +997,7 @@ def _station_report(st, model: StationModel, weight_n: float, where: str, n_wind
     if D is None:
         d_pk, f_pk = model.peak_force()
         warnings.append(
-            f"{where}: the lifter cannot hold {weight_n:.4g} N at any distance "
+            f"{label}the lifter cannot hold {weight_n:.4g} N at any distance "
             f"(its largest pull is {f_pk:.4g} N, at {d_pk * 1e3:.3g} mm): use a stronger lifter or a lighter load"
         )
         out.update(k_lifter_z_n_m=None, k_lifter_r_n_m=None, k_plates_n_m=None, k_plates_dipole_n_m=None,
@@ -1021,7 +1034,7 @@ def _station_report(st, model: StationModel, weight_n: float, where: str, n_wind
     stable = bool(in_window and kz_tot > 0 and tilt_ok and radial_ok)
     if a_max is None:
         warnings.append(
-            f"{where}no stable point: even at the smallest plate distance "
+            f"{label}no stable point: even at the smallest plate distance "
             f"({model.a_min * 1e3:.3g} mm) the plates' stiffness ({model.k_plates(model.a_min):.4g} N/m) "
             f"cannot beat the lifter's ({kz:.4g} N/m); use a stronger diamagnet, a lighter load or "
             "a smaller floater-to-lifter size ratio"
@@ -1033,13 +1046,13 @@ def _station_report(st, model: StationModel, weight_n: float, where: str, n_wind
         )
     if a_max is not None and a_max > clear_limit:
         warnings.append(
-            f"{where}the lifter, not stability, limits the plate distance: the upper plate must "
+            f"{label}the lifter, not stability, limits the plate distance: the upper plate must "
             f"stay below {clear_limit * 1e3:.4g} mm"
         )
     if not tilt_ok:
-        warnings.append(f"{where}the floater tips over: the plates' tilting push beats the lifter's aligning torque")
+        warnings.append(f"{label}the floater tips over: the plates' tilting push beats the lifter's aligning torque")
     elif not radial_ok:
-        warnings.append(f"{where}the floater slides off the axis: lateral stiffness {kr_eff:.4g} N/m with the tilt relaxed")
+        warnings.append(f"{label}the floater slides off the axis: lateral stiffness {kr_eff:.4g} N/m with the tilt relaxed")
     out.update(
         k_lifter_z_n_m=kz,
         k_lifter_r_n_m=kr,
@@ -1062,6 +1075,64 @@ def _station_report(st, model: StationModel, weight_n: float, where: str, n_wind
         hessian={**tl, "k_z": kz_tot},
     )
     return out | {"warnings": warnings}
+
+
+def _placed_others(stations, models, heights, i: int) -> list:
+    """The lifters of every station but ``i``, placed relative to floater ``i``'s centre."""
+    out = []
+    for j, (sj, mj) in enumerate(zip(stations, models)):
+        if j != i:
+            c = mj.lifter_at(heights[j]).centre
+            out.append(mj.lifter0.at((sj.x - stations[i].x + c[0], sj.y - stations[i].y + c[1], c[2])))
+    return out
+
+
+def _coupled_heights(stations, models, totals, start) -> tuple[list, list]:
+    """Lifter distances at which every floater's total pull (all lifters) equals its load.
+
+    Solves ``F_i(D_1..D_n) = W_i`` with scipy's hybrid Powell method from the uncoupled
+    distances, then fixes the other lifters in each station model. Returns the
+    distances and, per station, the other lifters' share of the pull.
+    """
+    from scipy.optimize import root
+
+    n = len(models)
+
+    def pulls(h):
+        out = np.empty(n)
+        for i, m in enumerate(models):
+            src = _System([m.lifter_at(h[i])] + _placed_others(stations, models, h, i))
+            out[i] = lifter_force(src, m.floater)[2]
+        return out
+
+    sol = root(lambda h: pulls(h) / totals - 1.0, np.asarray(start, dtype=float), method="hybr",
+               options={"xtol": 1e-12})
+    if not sol.success:
+        raise PhysicsError(f"station: no set of lifter distances holds every floater ({sol.message})")
+    h = [float(v) for v in sol.x]
+    cross = []
+    for i, m in enumerate(models):
+        others = _placed_others(stations, models, h, i)
+        m.set_others(others)
+        own = lifter_force(m.lifter_at(h[i]), m.floater)[2]
+        cross.append(float(abs(1.0 - own / totals[i])))
+    return h, cross
+
+
+def _drift(st, temp_k: float, weight_n: float, dt: float = 5.0) -> Optional[float]:
+    """d(lifter distance)/dT at fixed weight [m/K], central difference over +-dt kelvin.
+
+    Br falls as the magnets warm (reversible coefficient, IEC 60404-8-1), so a lifter
+    set at one temperature must come closer when it is warmer.
+    """
+    lo, hi = temp_k - dt, temp_k + dt
+    if lo <= 0:
+        return None
+    d_lo = _station_model(st, lo).balance(weight_n)
+    d_hi = _station_model(st, hi).balance(weight_n)
+    if d_lo is None or d_hi is None:
+        return None
+    return (d_hi - d_lo) / (2 * dt)
 
 
 def _window(model: StationModel, weights_n, payloads_kg) -> list[dict]:
@@ -1159,6 +1230,17 @@ def levitate_stabilized(design, temp_k: Optional[float] = None, n_window: int = 
                     "from the floater's centre (each plate's facing surface)"
                 )
         result = {k: v for k, v in rep.items() if k not in ("warnings", "hessian", "stable")}
+        drift = _drift(st, t, weight) if D is not None else None
+        result["lifter_distance_drift_um_per_k"] = None if drift is None else drift * 1e6
+        if design.temp_min_k is not None and D is not None:
+            ends = [_station_model(st, tt).balance(weight) for tt in (design.temp_min_k, design.temp_max_k)]
+            result["lifter_distance_at_temp_min_m"], result["lifter_distance_at_temp_max_m"] = ends
+            if drift is not None:
+                warnings.append(
+                    f"the lifter distance moves {abs(drift) * 1e6:.3g} um per kelvin "
+                    f"({'closer' if drift < 0 else 'farther'} when warmer): re-set it, or regulate it, "
+                    "as the temperature changes"
+                )
         result.update(
             mode="stabilized",
             floats=floats,
@@ -1182,16 +1264,29 @@ def levitate_stabilized(design, temp_k: Optional[float] = None, n_window: int = 
         else:
             shares = weight_shares(pos, wp, p.centre_of_mass[:2])
         frac = shares / wp if wp > 0 else weight_shares(pos, 1.0, p.centre_of_mass[:2])
-        reps = []
-        for i, (st, model) in enumerate(zip(design.stations, models)):
-            total = fixed[i] + shares[i]
-            where = f"station[{i}]."
+        totals = fixed + shares
+        for i, total in enumerate(totals):
             if not total > 0:
                 raise InputError(
                     f"payload.centre_of_mass: station[{i}] would have to pull its floater down "
                     f"({total:.4g} N); move the centre of mass inside the stations"
                 )
-            reps.append(_station_report(st, model, float(total), where))
+        # each floater hangs in the field of every lifter: solve the lifter distances together
+        heights = [m.balance(float(w)) for m, w in zip(models, totals)]
+        coupled = all(h is not None for h in heights)
+        if coupled and len(models) > 1:
+            heights, cross = _coupled_heights(design.stations, models, totals, heights)
+            for i, c in enumerate(cross):
+                if c > 0.01:
+                    warnings.append(
+                        f"station[{i}]: the other stations' lifters give {100 * c:.3g}% of this "
+                        "floater's pull (included in the lifter distances; each station's window and "
+                        "largest load hold the other lifters where they are)"
+                    )
+        reps = [
+            _station_report(st, model, float(totals[i]), f"station[{i}].")
+            for i, (st, model) in enumerate(zip(design.stations, models))
+        ]
         ok = all(r["lifter_distance_m"] is not None for r in reps)
         tilt_stable = False
         eig = None
@@ -1243,23 +1338,6 @@ def levitate_stabilized(design, temp_k: Optional[float] = None, n_window: int = 
                      share_fraction=float(frac[i]), floater_mass_kg=st.floater.mass_kg)
             stations.append(e)
             warnings.extend(r["warnings"])
-        # the other stations' lifters also pull on each floater: the model leaves that out, say how much
-        if ok:
-            for i, (si, mi, ri) in enumerate(zip(design.stations, models, reps)):
-                own = lifter_force(mi.lifter_at(ri["lifter_distance_m"]), mi.floater)
-                cross = np.zeros(3)
-                for j, (sj, mj, rj) in enumerate(zip(design.stations, models, reps)):
-                    if j != i:
-                        lj = mj.lifter_at(rj["lifter_distance_m"])
-                        off = np.array([sj.x - si.x, sj.y - si.y, 0.0]) + np.asarray(lj.centre)
-                        cross += lifter_force(lj.at(off), mi.floater)
-                rel = float(np.linalg.norm(cross) / abs(own[2]))
-                if rel > 0.01:
-                    warnings.append(
-                        f"station[{i}].: the other stations' lifters pull on this floater with "
-                        f"{100 * rel:.3g}% of its own lifter's pull, which this model leaves out; "
-                        "place the stations farther apart or expect to trim the lifter distances"
-                    )
         rc = reps[crit]
         result = {k: v for k, v in rc.items() if k not in ("warnings", "hessian", "stable")}
         floats = bool(ok and all(r["stable"] for r in reps) and tilt_stable)
@@ -1289,6 +1367,56 @@ def levitate_stabilized(design, temp_k: Optional[float] = None, n_window: int = 
     result["warnings"] = warnings + [SAFETY_TEXT]
     head = {k: result.pop(k) for k in ("mode", "floats")}
     return _plain({**head, **result})
+
+
+def format_table(r: dict) -> str:
+    """The stabilized-mode result as text for a person (mm, g, N/m, mN m/rad)."""
+
+    def num(v, scale=1.0, unit="", digits=4):
+        if v is None:
+            return "-"
+        return f"{v * scale:.{digits}g} {unit}".rstrip()
+
+    yes = lambda b: "yes" if b else "no"  # noqa: E731
+    rows = [
+        ("floats (stable)", yes(r.get("floats"))),
+        ("payload", num(r.get("payload_kg"), 1e3, "g")),
+        ("lifter distance (floater centre to lifter face)", num(r.get("lifter_distance_m"), 1e3, "mm")),
+        ("lifter stiffness k_z / k_r", f"{num(r.get('k_lifter_z_n_m'), 1, 'N/m')} / {num(r.get('k_lifter_r_n_m'), 1, 'N/m')}"),
+        ("plate distance (design)", num(r.get("plate_distance_m"), 1e3, "mm")),
+        ("plates' stiffness finite-size / dipole", f"{num(r.get('k_plates_n_m'), 1, 'N/m')} / {num(r.get('k_plates_dipole_n_m'), 1, 'N/m')}"),
+        ("stable plate distance, finite-size", f"{num(r.get('min_plate_distance_m'), 1e3, 'mm')} to {num(r.get('max_plate_distance_m'), 1e3, 'mm')}"),
+        ("largest plate distance, dipole model", num(r.get("max_plate_distance_dipole_m"), 1e3, "mm")),
+        ("plate distance in window", yes(r.get("plate_distance_in_window"))),
+        ("tilt stiffness lifter / plates", f"{num(r.get('k_tilt_lifter_n_m_per_rad'), 1e3, 'mN m/rad')} / {num(r.get('k_tilt_plates_n_m_per_rad'), 1e3, 'mN m/rad')}"),
+        ("lateral stiffness, tilt relaxed", num(r.get("k_r_effective_n_m"), 1, "N/m")),
+        ("tilt stable", yes(r.get("tilt_stable"))),
+        ("largest payload", num(r.get("max_payload_kg"), 1e3, "g")),
+        ("lifter distance drift", num(r.get("lifter_distance_drift_um_per_k"), 1, "um/K", 3)),
+        ("0.5 mT safety distance", num(r.get("safe_distance_m"), 1e3, "mm", 3)),
+        ("verdict model", str(r.get("verdict_model"))),
+    ]
+    width = max(len(k) for k, _ in rows)
+    lines = [f"{k.ljust(width)}  {v}" for k, v in rows]
+    if r.get("stations"):
+        lines += ["", "stations (share of the payload's weight, lifter distance, stable plate distances):"]
+        for i, s in enumerate(r["stations"]):
+            lines.append(
+                f"  [{i}] {s.get('name') or ''} x {num(s['x_m'], 1e3, 'mm')}, y {num(s['y_m'], 1e3, 'mm')}: "
+                f"share {num(s['share_n'], 1e3, 'mN')} ({num(s['share_fraction'], 100, '%', 3)}), "
+                f"lifter {num(s['lifter_distance_m'], 1e3, 'mm')}, plates "
+                f"{num(s['min_plate_distance_m'], 1e3, 'mm')} to {num(s['max_plate_distance_m'], 1e3, 'mm')}"
+            )
+    if r.get("window"):
+        lines += ["", "schedule: payload g | lifter distance mm | largest plate distance mm"]
+        for w in r["window"]:
+            d, a = w["lifter_distance_m"], w["max_plate_distance_m"]
+            ds = ", ".join(num(x, 1e3) for x in d) if isinstance(d, list) else num(d, 1e3)
+            as_ = ", ".join(num(x, 1e3) for x in a) if isinstance(a, list) else num(a, 1e3)
+            lines.append(f"  {num(w['payload_kg'], 1e3):>8} | {ds} | {as_}")
+    if r.get("warnings"):
+        lines += ["", "warnings:"] + [f"- {w}" for w in r["warnings"]]
+    return "\n".join(lines)
 
 
 def _plain(x):
