@@ -1,0 +1,1331 @@
+"""Selection advisor: rank plate-material x magnet-grade x arrangement candidates.
+
+The question it answers: "this payload (mass, footprint) must float at least this high,
+between these temperatures, within this budget: which plate material, which grade,
+which arrangement, and how sure can I be?"
+
+How it stays fast
+-----------------
+The field of an arrangement of one remanence is linear in ``B_r``, and every force and
+stiffness of a weak diamagnet is linear in ``(|chi_perp|, |chi_par|)`` and in ``B_r^2``
+(:mod:`matdb.physics.plate`). So each *geometry* (arrangement x plate footprint) is
+integrated once at unit polarisation, split by field component, and every grade (its
+``B_r^2``), temperature (:func:`matdb.physics.thermal.lift_factor`) and material (its two
+chi parts) is a multiplication. The gravity term of the tilt stiffness does not scale;
+it enters through the pivot (the combined centre of mass), which is why tilt is only
+judged when a candidate is worked out exactly (below).
+
+Two levels of precision:
+
+* **Screening** (every candidate): the lift at the required gap, the equilibrium gaps,
+  ``k_z`` and the lateral stiffnesses come from per-geometry tables on a height grid,
+  integrated with a coarser rule of :func:`matdb.physics.plate.plane_integrals` (about
+  1e-4 relative from the exact rule), gaps and stiffnesses interpolated between heights.
+* **Exact** (the rows shown, ``polish`` of them): the same steps as
+  :func:`matdb.levitate.levitate_plate` -- lift curve, highest stable root, vertical
+  stiffness, full stiffness matrix about the combined centre of mass, worst case -- but
+  evaluated from unit-polarisation integrals scaled per candidate. Column ``exact``
+  says which rows are.
+
+Unit-polarisation integrals are cached in memory and on disk (``MATDB_CACHE_DIR``, else
+the user cache directory), keyed by a hash of the geometry, the quadrature settings and
+:data:`CODE_VERSION`.
+
+Score and Pareto front
+----------------------
+``score = w_margin ln(margin) - w_cost ln(cost / 1 USD) - w_derating derating_pct / 10``
+(higher is better; ``margin`` is the worst-case lift / weight at the required gap). The
+Pareto front is taken over the feasible candidates on (margin up, cost down, derating
+down): a candidate is on it when no other feasible candidate is at least as good on all
+three and better on one.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+import os
+import re
+from dataclasses import asdict, dataclass, field
+from pathlib import Path
+from typing import Any, Iterable, Sequence
+
+import numpy as np
+import pandas as pd
+
+from .errors import InputError, NotFoundError
+from .units import G_STANDARD, MU0, parse_length, parse_mass, parse_quantity, parse_temperature
+
+CODE_VERSION = "advisor-1"
+T20_K = 293.15
+
+#: standard cube edges [m] and cylinder (diameter, height) [m] of the default arrangements
+STANDARD_CUBES_M = (6.35e-3, 10e-3, 12.7e-3, 19.05e-3, 25.4e-3)
+STANDARD_CYLINDERS_M = ((10e-3, 5e-3), (12.7e-3, 6.35e-3), (20e-3, 10e-3))
+DEFAULT_THICKNESSES_M = (0.5e-3, 1e-3, 2e-3)
+DEFAULT_PATTERNS = ("checkerboard", "stripes")
+MAX_MAGNETS = 400  # default arrangements with more magnets are skipped
+
+#: screening height grid [m]: 0.05 to 0.2 mm, then 0.25 mm steps to 6 mm
+SCREEN_HEIGHTS_M = np.concatenate([[5e-5, 1e-4, 1.5e-4, 2e-4], np.arange(1, 25) * 2.5e-4])
+SCREEN_ORDER = 4  # Gauss-Legendre nodes per panel of the screening rule
+SCREEN_RULE_FLOOR_M = 5e-4  # the screening rule is graded no finer than for this height
+LATERAL_STEP_M = 1e-6  # central difference of w across a side face
+EXACT_ORDER = 8  # = matdb.physics.plate.DEFAULT_ORDER (kept equal: checked in tests)
+
+COLUMNS = ["rank", "material", "grade", "family", "arrangement", "pattern", "shape",
+           "size_m", "rows", "cols", "thickness_m", "feasible", "lift_per_area_n_m2",
+           "gap_m", "gap_worst_m", "margin", "margin_nominal", "laterally_stable",
+           "derating_pct", "cost_usd", "score", "pareto", "reasons", "notes", "exact"]
+
+
+# ---------------------------------------------------------------------------
+# inputs
+# ---------------------------------------------------------------------------
+@dataclass(frozen=True)
+class Weights:
+    """Weights of the score terms (zero or more)."""
+
+    margin: float = 1.0
+    cost: float = 1.0
+    derating: float = 1.0
+
+
+@dataclass(frozen=True)
+class AdviceRequest:
+    """What the user asked, in SI (kg, m, K, USD)."""
+
+    mass_kg: float
+    footprint_m: tuple[float, float]
+    plate_m: tuple[float, float]
+    min_gap_m: float = 2e-4
+    temp_min_k: float = T20_K
+    temp_max_k: float = T20_K
+    budget_usd: float | None = None
+    materials: tuple[str, ...] | None = None
+    families: tuple[str, ...] | None = None
+    grades: tuple[str, ...] | None = None
+    max_magnet_size_m: float | None = None
+    thicknesses_m: tuple[float, ...] = DEFAULT_THICKNESSES_M
+    weights: Weights = field(default_factory=Weights)
+    payload_height_m: float = 0.0
+
+
+_PAIR_RE = re.compile(r"^\s*(.+?)\s*[x×X*]\s*(.+?)\s*$")
+
+
+def parse_footprint(text, field_name: str = "--footprint") -> tuple[float, float]:
+    """``"17 mm x 17 mm"``, ``"17 x 17 mm"`` or ``"17 mm"`` (a square) -> (x, y) [m]."""
+    if isinstance(text, (tuple, list)) and len(text) == 2:
+        vals = [_length_si(v, field_name) for v in text]
+    else:
+        s = str(text).strip()
+        m = _PAIR_RE.match(s)
+        if m:
+            a, b = m.group(1), m.group(2)
+            if re.fullmatch(r"[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?", a):  # "17 x 17 mm"
+                unit = re.sub(r"^[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?\s*", "", b)
+                if not unit:
+                    raise InputError(f"{field_name}: missing unit in {text!r}; expected e.g. '17 mm x 17 mm'")
+                a = f"{a} {unit}"
+            parts = [a, b]
+        else:
+            parts = [s, s]
+        try:
+            vals = [parse_length(p, field_name, positive=True) for p in parts]
+        except InputError as exc:
+            raise InputError(f"{field_name}: expected two lengths such as '17 mm x 17 mm', got {text!r} "
+                             f"({str(exc).split(': ', 1)[-1]})") from None
+    if not all(v > 0 for v in vals):
+        raise InputError(f"{field_name}: expected positive lengths, got {text!r}")
+    return float(vals[0]), float(vals[1])
+
+
+def parse_weights(text) -> Weights:
+    """``"margin=1,cost=0.5,derating=1"`` (any subset) or a dict -> :class:`Weights`."""
+    if text is None:
+        return Weights()
+    if isinstance(text, Weights):
+        return text
+    if isinstance(text, dict):
+        items = list(text.items())
+    else:
+        items = []
+        for part in str(text).split(","):
+            if not part.strip():
+                continue
+            if "=" not in part:
+                raise InputError(f"--weights: expected name=value pairs such as 'margin=1,cost=1,derating=1', got {text!r}")
+            k, v = part.split("=", 1)
+            items.append((k.strip(), v.strip()))
+    out = asdict(Weights())
+    for k, v in items:
+        if k not in out:
+            raise InputError(f"--weights: unknown weight {k!r}; expected margin, cost or derating")
+        try:
+            f = float(v)
+        except (TypeError, ValueError):
+            raise InputError(f"--weights: expected a number for {k}, got {v!r}") from None
+        if not math.isfinite(f) or f < 0:
+            raise InputError(f"--weights: expected a weight of zero or more for {k}, got {v!r}")
+        out[k] = f
+    return Weights(**out)
+
+
+def _length_si(v, field_name: str) -> float:
+    if isinstance(v, (int, float)) and not isinstance(v, bool):
+        if not (math.isfinite(v) and v >= 0):
+            raise InputError(f"{field_name}: expected a length of zero or more, got {v!r}")
+        return float(v)
+    return parse_length(v, field_name)
+
+
+def _temp_si(v, field_name: str) -> float:
+    if isinstance(v, (int, float)) and not isinstance(v, bool):
+        if not (math.isfinite(v) and v > 0):
+            raise InputError(f"{field_name}: expected an absolute temperature in K, got {v!r}")
+        return float(v)
+    return parse_temperature(v, field_name)
+
+
+def _names(values, field_name: str) -> tuple[str, ...] | None:
+    if values is None:
+        return None
+    if isinstance(values, str):
+        values = [values]
+    out = []
+    for v in values:
+        for part in str(v).split(","):
+            if part.strip():
+                out.append(part.strip())
+    if not out:
+        raise InputError(f"{field_name}: expected at least one name")
+    return tuple(out)
+
+
+def parse_request(mass, footprint, *, min_gap="0.2 mm", temp_min="20 degC", temp_max="20 degC",
+                  budget=None, materials=None, families=None, grades=None, max_magnet_size=None,
+                  thickness=None, plate_size=None, weights=None, payload_height="0 mm") -> AdviceRequest:
+    """Parse what a person typed (strings with units; numbers are taken as SI)."""
+    def _s(v):
+        return v.strip() if isinstance(v, str) else v
+
+    mass, footprint, min_gap, temp_min, temp_max, budget, max_magnet_size, plate_size, payload_height = (
+        _s(v) for v in (mass, footprint, min_gap, temp_min, temp_max, budget, max_magnet_size,
+                        plate_size, payload_height))
+    if isinstance(mass, (int, float)) and not isinstance(mass, bool):
+        if not (math.isfinite(mass) and mass >= 0):
+            raise InputError(f"--mass: expected a mass of zero or more, got {mass!r}")
+        m = float(mass)
+    else:
+        m = parse_mass(mass, "--mass")
+    fp = parse_footprint(footprint, "--footprint")
+    plate = parse_footprint(plate_size, "--plate-size") if plate_size is not None else fp
+    gap = _length_si(min_gap, "--min-gap")
+    t_lo = _temp_si(temp_min, "--temp-min")
+    t_hi = _temp_si(temp_max, "--temp-max")
+    if t_lo > t_hi:
+        raise InputError(f"--temp-min: expected at most --temp-max, got {temp_min!r} > {temp_max!r}")
+    b = None
+    if budget is not None:
+        if isinstance(budget, (int, float)) and not isinstance(budget, bool):
+            b = float(budget)
+        else:
+            b = parse_quantity(budget, "USD", "--budget", require_unit=False)
+        if not (math.isfinite(b) and b >= 0):
+            raise InputError(f"--budget: expected an amount of zero or more, got {budget!r}")
+    mms = None
+    if max_magnet_size is not None:
+        mms = _length_si(max_magnet_size, "--max-magnet-size")
+        if mms <= 0:
+            raise InputError(f"--max-magnet-size: expected a positive length, got {max_magnet_size!r}")
+    th = DEFAULT_THICKNESSES_M
+    if thickness is not None:
+        items = [thickness] if isinstance(thickness, (str, int, float)) else list(thickness)
+        vals = []
+        for it in items:
+            parts = str(it).split(",") if isinstance(it, str) else [it]
+            for p in parts:
+                v = _length_si(p.strip() if isinstance(p, str) else p, "--thickness")
+                if v <= 0:
+                    raise InputError(f"--thickness: expected a positive length, got {p!r}")
+                vals.append(v)
+        if not vals:
+            raise InputError("--thickness: expected at least one thickness such as '1 mm'")
+        th = tuple(sorted(set(vals)))
+    ph = _length_si(payload_height, "--payload-height")
+    return AdviceRequest(mass_kg=m, footprint_m=fp, plate_m=plate, min_gap_m=gap, temp_min_k=t_lo,
+                         temp_max_k=t_hi, budget_usd=b, materials=_names(materials, "--material"),
+                         families=_names(families, "--family"), grades=_names(grades, "--grade"),
+                         max_magnet_size_m=mms, thicknesses_m=th, weights=parse_weights(weights),
+                         payload_height_m=ph)
+
+
+# ---------------------------------------------------------------------------
+# arrangements
+# ---------------------------------------------------------------------------
+def _mm_text(v: float) -> str:
+    return f"{v * 1e3:.4g}"
+
+
+@dataclass(frozen=True)
+class ArrangementSpec:
+    """A magnet arrangement by the matdb conventions (sizes in metres)."""
+
+    shape: str  # "cuboid" or "cylinder"
+    size: tuple[float, ...]  # cuboid (x, y, h); cylinder (d, h)
+    pattern: str
+    rows: int
+    cols: int
+    spacing: float = 0.0
+    back_plate: bool = False
+
+    @property
+    def count(self) -> int:
+        return self.rows * self.cols
+
+    @property
+    def pitch(self) -> tuple[float, float]:
+        fx = self.size[0]
+        fy = self.size[1] if self.shape == "cuboid" else self.size[0]
+        return fx + self.spacing, fy + self.spacing
+
+    @property
+    def extent(self) -> tuple[float, float]:
+        px, py = self.pitch
+        return self.cols * px - self.spacing, self.rows * py - self.spacing
+
+    @property
+    def max_dimension(self) -> float:
+        return float(max(self.size))
+
+    @property
+    def magnet_volume_m3(self) -> float:
+        if self.shape == "cuboid":
+            v = self.size[0] * self.size[1] * self.size[2]
+        else:
+            v = math.pi / 4 * self.size[0] ** 2 * self.size[1]
+        return v * self.count
+
+    @property
+    def description(self) -> str:
+        if self.shape == "cuboid":
+            a, b, h = self.size
+            what = (f"{_mm_text(a)} mm cubes" if a == b == h
+                    else f"{_mm_text(a)}x{_mm_text(b)}x{_mm_text(h)} mm blocks")
+        else:
+            what = f"{_mm_text(self.size[0])}x{_mm_text(self.size[1])} mm cylinders"
+        extra = " on a steel back plate" if self.back_plate else ""
+        gap = f", {_mm_text(self.spacing)} mm apart" if self.spacing else ""
+        return f"{self.rows}x{self.cols} {self.pattern} of {what}{gap}{extra}"
+
+    def build(self, br: float = 1.0, grade: str | None = None):
+        from .physics.arrangement import build_arrangement
+
+        return build_arrangement(self.shape, self.size, self.pattern, self.rows, self.cols,
+                                 self.spacing, br=br, back_plate=self.back_plate, grade=grade)
+
+    def key(self) -> dict:
+        return {"shape": self.shape, "size": [repr(float(s)) for s in self.size],
+                "pattern": self.pattern, "rows": self.rows, "cols": self.cols,
+                "spacing": repr(float(self.spacing)), "back_plate": self.back_plate}
+
+    def record(self) -> dict:
+        return {"description": self.description, "pattern": self.pattern, "shape": self.shape,
+                "size_m": [float(s) for s in self.size], "rows": self.rows, "cols": self.cols}
+
+
+def _counts(length: float, pitch: float) -> list[int]:
+    n = max(2, int(round(length / pitch)))
+    return [n, n + 1]
+
+
+def default_arrangements(plate_m: tuple[float, float], max_magnet_size_m: float | None = None,
+                         patterns: Sequence[str] = DEFAULT_PATTERNS) -> list[ArrangementSpec]:
+    """Checkerboards and stripes of the standard cubes and cylinders, rows x cols scaled to
+    the plate: about as many magnets as cover it, and one more per axis (so some
+    arrangements are larger than the plate)."""
+    sizes: list[tuple[str, tuple[float, ...]]] = [("cuboid", (a, a, a)) for a in STANDARD_CUBES_M]
+    sizes += [("cylinder", (d, h)) for d, h in STANDARD_CYLINDERS_M]
+    out: list[ArrangementSpec] = []
+    for shape, size in sizes:
+        if max_magnet_size_m is not None and max(size) > max_magnet_size_m * (1 + 1e-9):
+            continue
+        p = size[0]
+        for nc, nr in zip(_counts(plate_m[0], p), _counts(plate_m[1], p)):
+            if nr * nc > MAX_MAGNETS:
+                continue
+            for pat in patterns:
+                out.append(ArrangementSpec(shape, tuple(size), pat, nr, nc))
+    return out
+
+
+# ---------------------------------------------------------------------------
+# cache of unit-polarisation integrals
+# ---------------------------------------------------------------------------
+def cache_dir() -> Path:
+    """``MATDB_CACHE_DIR`` or the user cache directory, with an ``advisor`` sub-folder."""
+    env = os.environ.get("MATDB_CACHE_DIR")
+    if env:
+        base = Path(env)
+    else:
+        from platformdirs import user_cache_dir
+
+        base = Path(user_cache_dir("matdb"))
+    return base / "advisor"
+
+
+def _hkey(h: float) -> int:
+    """Dictionary key of a height: the float's bits (exact reuse only)."""
+    return int(np.float64(h).view(np.int64))
+
+
+class GeometryData:
+    """Unit-polarisation integrals of one arrangement under one plate footprint.
+
+    Stores (all at ``B_r = 1 T``, split by field component):
+
+    * ``exact``: footprint integrals of ``B_z^2`` and ``B_x^2 + B_y^2`` at single heights
+      with the quadrature of :func:`matdb.physics.plate.plane_integrals` (order
+      :data:`EXACT_ORDER`, graded for each height);
+    * ``coarse``: the same on the screening rule;
+    * ``lateral``: line integrals across the side faces of ``d(B_z^2)/dn`` and
+      ``d(B_x^2+B_y^2)/dn`` (x faces, then y faces) per height, screening rule;
+    * ``hmax``: the largest reverse field along the magnetisation found by
+      :func:`matdb.physics.thermal.demag_check` at unit polarisation [A/m];
+    * ``curves``: memo of per-thickness quantities from the exact path (keyed by text).
+    """
+
+    def __init__(self, spec: ArrangementSpec, plate_m: tuple[float, float]):
+        from .physics import plate as P
+
+        self.spec = spec
+        self.plate_m = (float(plate_m[0]), float(plate_m[1]))
+        self.unit = spec.build(1.0)
+        bx, by = P.edge_lines(self.unit.magnets)
+        self.breaks = (bx, by)
+        self.geom = P.PlateGeometry("rectangle", self.plate_m[0], self.plate_m[1], 1e-3, 0.0, 0.0, bx, by)
+        key = {"v": CODE_VERSION, "arr": spec.key(), "plate": [repr(v) for v in self.plate_m],
+               "exact_order": EXACT_ORDER, "screen": [SCREEN_ORDER, repr(SCREEN_RULE_FLOOR_M),
+                                                      repr(LATERAL_STEP_M)],
+               "plate_version": getattr(P, "__doc__", "")[:0] + "1"}
+        self.key = hashlib.sha256(json.dumps(key, sort_keys=True).encode()).hexdigest()[:24]
+        self.stores: dict[str, dict[int, tuple]] = {"exact": {}, "coarse": {}, "lateral": {}}
+        self.hmax: float | None = None
+        self.memo: dict[str, Any] = {}
+        self.dirty = False
+        self._loaded = False
+
+    # -- persistence ----------------------------------------------------------
+    @property
+    def path(self) -> Path:
+        return cache_dir() / f"{self.key}.npz"
+
+    def load(self) -> None:
+        if self._loaded:
+            return
+        self._loaded = True
+        p = self.path
+        if not p.exists():
+            return
+        try:
+            with np.load(p, allow_pickle=False) as z:
+                for name in self.stores:
+                    if f"{name}_h" in z:
+                        hs, vals = z[f"{name}_h"], z[f"{name}_v"]
+                        for h, v in zip(hs, vals):
+                            self.stores[name][_hkey(h)] = tuple(float(x) for x in v)
+                if "hmax" in z:
+                    self.hmax = float(z["hmax"])
+                if "memo" in z:
+                    self.memo.update(json.loads(str(z["memo"])))
+        except Exception:  # a damaged cache file is recomputed, never trusted
+            self.stores = {"exact": {}, "coarse": {}, "lateral": {}}
+            self.hmax = None
+
+    def save(self) -> None:
+        if not self.dirty:
+            return
+        d = cache_dir()
+        d.mkdir(parents=True, exist_ok=True)
+        arrays: dict[str, Any] = {}
+        for name, st in self.stores.items():
+            if st:
+                hs = np.array(list(st.keys()), dtype=np.int64).view(np.float64)
+                arrays[f"{name}_h"] = hs
+                arrays[f"{name}_v"] = np.array(list(st.values()), dtype=float)
+        if self.hmax is not None:
+            arrays["hmax"] = np.array(self.hmax)
+        arrays["memo"] = np.array(json.dumps(self.memo))
+        tmp = d / f".{self.key}.{os.getpid()}.tmp.npz"
+        np.savez(tmp, **arrays)
+        os.replace(tmp, self.path)
+        self.dirty = False
+
+    # -- integrals --------------------------------------------------------------
+    def _fill(self, name: str, heights: np.ndarray, compute) -> np.ndarray:
+        self.load()
+        st = self.stores[name]
+        hs = np.asarray(heights, dtype=float).ravel()
+        missing = sorted({float(h) for h in hs if _hkey(h) not in st})
+        if missing:
+            vals = compute(np.asarray(missing))
+            for h, v in zip(missing, vals):
+                st[_hkey(h)] = tuple(float(x) for x in v)
+            self.dirty = True
+        return np.array([st[_hkey(h)] for h in hs], dtype=float).reshape(len(hs), -1)
+
+    def exact(self, heights) -> np.ndarray:
+        """(n, 2): ``int B_z^2 dA``, ``int (B_x^2 + B_y^2) dA`` [T^2 m^2] at unit polarisation,
+        each height on its own rule (as :func:`matdb.physics.plate.plate_surface_integrals`)."""
+        from .physics import plate as P
+
+        def compute(h):
+            iz, ixy = P.plane_integrals(self.unit.B, self.geom, h, EXACT_ORDER)
+            return np.column_stack([iz, ixy])
+
+        return self._fill("exact", heights, compute)
+
+    def coarse(self, heights) -> np.ndarray:
+        """Like :meth:`exact` on the screening rule."""
+        from .physics import plate as P
+
+        def compute(h):
+            iz, ixy = P.plane_integrals(self.unit.B, self.geom, h, SCREEN_ORDER,
+                                        rule_heights=np.maximum(h, SCREEN_RULE_FLOOR_M))
+            return np.column_stack([iz, ixy])
+
+        return self._fill("coarse", heights, compute)
+
+    def lateral(self, heights) -> np.ndarray:
+        """(n, 4): per height, ``int [d_x w]_(+x face) - [d_x w]_(-x face) dy`` for the
+        ``B_z^2`` and ``B_x^2+B_y^2`` parts, then the same across the y faces [T^2]."""
+        from .physics import plate as P
+
+        lx, ly = self.plate_m
+        bx, by = self.breaks
+        d = LATERAL_STEP_M
+
+        def compute(hs):
+            pts, wts, idx, sign, comp = [], [], [], [], []
+            for i, h in enumerate(hs):
+                scale = max(float(h), SCREEN_RULE_FLOOR_M)
+                yb = P.graded_breaks(-ly / 2, ly / 2, by, scale)
+                y, wy = P.gauss_panels(yb, SCREEN_ORDER)
+                xb = P.graded_breaks(-lx / 2, lx / 2, bx, scale)
+                x, wx = P.gauss_panels(xb, SCREEN_ORDER)
+                for face in (1.0, -1.0):
+                    for s in (1.0, -1.0):  # x faces, central difference in x
+                        pts.append(np.column_stack([np.full(y.size, face * lx / 2 + s * d), y,
+                                                    np.full(y.size, h)]))
+                        wts.append(wy * s * face / (2 * d))
+                        idx.append(np.full(y.size, i))
+                        comp.append(np.zeros(y.size, dtype=int))
+                    for s in (1.0, -1.0):  # y faces
+                        pts.append(np.column_stack([x, np.full(x.size, face * ly / 2 + s * d),
+                                                    np.full(x.size, h)]))
+                        wts.append(wx * s * face / (2 * d))
+                        idx.append(np.full(x.size, i))
+                        comp.append(np.ones(x.size, dtype=int))
+            p = np.concatenate(pts)
+            b = self.unit.B(p)
+            w = np.concatenate(wts)
+            ii = np.concatenate(idx)
+            cc = np.concatenate(comp)
+            wz = b[:, 2] ** 2
+            wxy = b[:, 0] ** 2 + b[:, 1] ** 2
+            out = np.zeros((len(hs), 4))
+            for c in (0, 1):
+                sel = cc == c
+                out[:, 2 * c] = np.bincount(ii[sel], weights=(w * wz)[sel], minlength=len(hs))
+                out[:, 2 * c + 1] = np.bincount(ii[sel], weights=(w * wxy)[sel], minlength=len(hs))
+            return out
+
+        return self._fill("lateral", heights, compute)
+
+    def demag_hmax(self) -> float:
+        """Largest reverse field along the magnetisation at unit polarisation [A/m]."""
+        self.load()
+        if self.hmax is None:
+            from .physics import thermal as TH
+
+            knee = TH.KNEE_FRACTION["NdFeB"][0]
+            r = TH.demag_check(self.unit, 1.0, 0.0, "NdFeB", [T20_K])
+            self.hmax = float(r.worst_ratio * knee)
+            self.dirty = True
+        return self.hmax
+
+
+_GEOMETRIES: dict[tuple, GeometryData] = {}
+
+
+def geometry(spec: ArrangementSpec, plate_m: tuple[float, float]) -> GeometryData:
+    """The (memory-cached) :class:`GeometryData` of ``spec`` under a plate of ``plate_m``."""
+    k = (spec, float(plate_m[0]), float(plate_m[1]))
+    g = _GEOMETRIES.get(k)
+    if g is None:
+        g = GeometryData(spec, plate_m)
+        _GEOMETRIES[k] = g
+    return g
+
+
+def clear_memory_cache() -> None:
+    """Forget the in-memory geometry cache (the disk cache stays)."""
+    _GEOMETRIES.clear()
+
+
+# ---------------------------------------------------------------------------
+# candidates
+# ---------------------------------------------------------------------------
+def _select_materials(req: AdviceRequest, url=None):
+    from . import catalog
+
+    if req.materials:
+        return [catalog.get_material(m, url) for m in req.materials]
+    return catalog.list_materials(url)
+
+
+def _select_grades(req: AdviceRequest, url=None):
+    from . import catalog
+
+    grades = catalog.list_grades(url)
+    if req.grades:
+        wanted = [catalog.get_grade(g, url).grade for g in req.grades]
+        grades = [g for g in grades if g.grade in wanted]
+    if req.families:
+        fams = {g.family.lower(): g.family for g in grades}
+        for f in req.families:
+            if f.lower() not in fams and not req.grades:
+                known = sorted({g.family for g in catalog.list_grades(url)})
+                raise NotFoundError(f"--family: unknown magnet family {f!r}; expected one of {', '.join(known)}")
+        want = {f.lower() for f in req.families}
+        grades = [g for g in grades if g.family.lower() in want]
+    if not grades:
+        raise InputError("--grade/--family: no magnet grade matches the restrictions")
+    return grades
+
+
+def _fnum(x, none=np.nan) -> float:
+    return none if x is None else float(x)
+
+
+def _brf(alpha_pct, t_k):
+    return 1.0 + np.asarray(alpha_pct, dtype=float) / 100.0 * (t_k - T20_K)
+
+
+def _lin(coeff, t_k):
+    c = np.nan_to_num(np.asarray(coeff, dtype=float), nan=0.0)
+    return 1.0 + c * (t_k - T20_K)
+
+
+def _highest_root_grid(G: np.ndarray, y: np.ndarray, gaps: np.ndarray):
+    """Highest g with G(g) = y on tabulated curves (rows of G), log-linear between nodes.
+
+    Returns (gap or nan, index i of the bracketing node, fraction) per row.
+    """
+    m = np.maximum.accumulate(G[:, ::-1], axis=1)[:, ::-1]  # max over g' >= g
+    count = np.sum(m >= y[:, None], axis=1)
+    n = G.shape[1]
+    ok = (count > 0) & (count < n) & (y > 0)
+    i = np.clip(count - 1, 0, n - 2)
+    r = np.arange(G.shape[0])
+    g0, g1 = G[r, i], G[r, i + 1]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        pos = (g0 > 0) & (g1 > 0)
+        fr_log = (np.log(y) - np.log(g0)) / (np.log(g1) - np.log(g0))
+        fr_lin = (y - g0) / (g1 - g0)
+        fr = np.where(pos, fr_log, fr_lin)
+    fr = np.clip(np.nan_to_num(fr, nan=0.0), 0.0, 1.0)
+    gap = np.where(ok, gaps[i] + fr * (gaps[i + 1] - gaps[i]), np.nan)
+    return gap, i, fr
+
+
+def _interp_rows(tab: np.ndarray, rows: np.ndarray, x: np.ndarray, grid: np.ndarray) -> np.ndarray:
+    """Linear interpolation of ``tab[rows[k], :]`` (a function on ``grid``) at ``x[k]``."""
+    xi = np.clip(x, grid[0], grid[-1])
+    j = np.clip(np.searchsorted(grid, xi, side="right") - 1, 0, grid.size - 2)
+    f = (xi - grid[j]) / (grid[j + 1] - grid[j])
+    return tab[rows, j] * (1 - f) + tab[rows, j + 1] * f
+
+
+def pareto_front(margin, cost, derating) -> np.ndarray:
+    """Mask of points no other point dominates (margin up, cost down, derating down).
+
+    NaN cost counts as the worst cost; NaN margin or derating as the worst of theirs.
+    """
+    m = np.nan_to_num(np.asarray(margin, dtype=float), nan=-np.inf)
+    c = np.nan_to_num(np.asarray(cost, dtype=float), nan=np.inf)
+    d = np.nan_to_num(np.asarray(derating, dtype=float), nan=np.inf)
+    n = m.size
+    dominated = np.zeros(n, dtype=bool)
+    if n == 0:
+        return ~dominated
+    levels = np.unique(d)
+    order = np.argsort(c, kind="stable")
+    cs = c[order]
+
+    def prefix_max(sel: np.ndarray):
+        """cost-sorted costs and running max margin over points in ``sel``."""
+        o = order[sel[order]]
+        return c[o], np.maximum.accumulate(m[o]) if o.size else np.array([])
+
+    prev = None
+    for lev in levels:
+        sel_le = d <= lev
+        c_le, mx_le = prefix_max(sel_le)
+        here = np.nonzero(d == lev)[0]
+        ci, mi = c[here], m[here]
+        # (c) some j with c_j <= c_i, d_j <= d_i and m_j > m_i
+        k = np.searchsorted(c_le, ci, side="right") - 1
+        best = np.where(k >= 0, mx_le[np.maximum(k, 0)], -np.inf)
+        dom = best > mi
+        # (a) some j with c_j < c_i strictly, d_j <= d_i, m_j >= m_i
+        k = np.searchsorted(c_le, ci, side="left") - 1
+        best = np.where(k >= 0, mx_le[np.maximum(k, 0)], -np.inf)
+        dom |= best >= mi
+        # (b) some j with d_j < d_i strictly, c_j <= c_i, m_j >= m_i
+        if prev is not None:
+            c_lt, mx_lt = prev
+            k = np.searchsorted(c_lt, ci, side="right") - 1
+            best = np.where(k >= 0, mx_lt[np.maximum(k, 0)], -np.inf)
+            dom |= best >= mi
+        dominated[here] = dom
+        prev = (c_le, mx_le)
+    del cs
+    return ~dominated
+
+
+def score_values(margin, cost, derating, weights: Weights) -> np.ndarray:
+    """``w_m ln(margin) - w_c ln(cost / 1 USD) - w_d derating_pct / 10`` (NaN when unknown)."""
+    m = np.asarray(margin, dtype=float)
+    c = np.asarray(cost, dtype=float)
+    d = np.asarray(derating, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        s = weights.margin * np.log(np.maximum(m, 1e-9)) if weights.margin else np.zeros_like(m)
+        if weights.cost:
+            s = s - weights.cost * np.log(np.maximum(c, 1e-6))
+        if weights.derating:
+            s = s - weights.derating * d / 10.0
+    return s
+
+
+@dataclass
+class _Catalogue:
+    mats: list
+    grades: list
+    specs: list
+    thick: tuple
+
+
+def _evaluate(req: AdviceRequest, cat: _Catalogue) -> pd.DataFrame:
+    """Screen every candidate (vectorised); returns the unsorted frame."""
+    mats, grades, specs, thick = cat.mats, cat.grades, cat.specs, cat.thick
+    nm, ng, ns, nt = len(mats), len(grades), len(specs), len(thick)
+    if ns == 0:
+        raise InputError("--max-magnet-size: no default arrangement has magnets that small")
+    lx, ly = req.plate_m
+    area = lx * ly
+    t_op = req.temp_max_k  # nominal: typical values at the hottest temperature
+    t_w = req.temp_max_k  # worst case for lift: hottest, minimum Br, low |chi|
+    g_start = 5e-5
+    g_req = max(req.min_gap_m, g_start)
+
+    # per material
+    chi_v = np.array([m.chi_vertical for m in mats])
+    chi_h = np.array([m.chi_horizontal for m in mats])
+    coeff = np.array([_fnum(m.temp_coeff_per_k, 0.0) for m in mats])
+    rho_p = np.array([m.density_kg_m3 for m in mats])
+    price_p = np.array([_fnum(m.price_usd_per_kg) for m in mats])
+    unc_f = np.ones(nm)
+    for i, m in enumerate(mats):
+        ref = abs(m.chi_vertical)
+        if m.uncertainty_si is not None and ref > 0:
+            unc_f[i] = max(ref - abs(m.uncertainty_si), 0.0) / ref
+    diamag = (chi_v < 0) & (chi_h < 0)
+    cf_op = _lin(coeff, t_op)
+    a_nom = -chi_v * cf_op
+    b_nom = -chi_h * cf_op
+    a_w = a_nom * unc_f
+    b_w = b_nom * unc_f
+
+    # per grade
+    br = np.array([g.br_t for g in grades])
+    br_min = np.array([(g.br_min_t * g.br_t / g.br_t) if g.br_min_t is not None else g.br_t for g in grades])
+    alpha = np.array([g.alpha_br_pct_per_k for g in grades])
+    beta = np.array([_fnum(g.beta_hcj_pct_per_k, 0.0) for g in grades])
+    hcj = np.array([g.hcj_ka_m * 1e3 for g in grades])
+    tmax_c = np.array([g.max_temp_c for g in grades])
+    rho_m = np.array([g.density_kg_m3 for g in grades])
+    price_m = np.array([_fnum(g.price_usd_per_kg) for g in grades])
+    from .physics.thermal import KNEE_FRACTION
+
+    knee = np.array([KNEE_FRACTION.get(g.family, (0.5, ""))[0] for g in grades])
+    s_nom = (br * _brf(alpha, t_op)) ** 2 / (2 * MU0)
+    s_w = (br_min * _brf(alpha, t_w)) ** 2 / (2 * MU0)
+
+    # per geometry
+    geos = [geometry(s, req.plate_m) for s in specs]
+    hmax = np.array([g.demag_hmax() for g in geos])
+    vol = np.array([s.magnet_volume_m3 for s in specs])
+    grid = SCREEN_HEIGHTS_M
+    th = np.asarray(thick)
+    ng_ = grid.size
+    # group tables (spec, thickness): lift parts on the grid, exact parts at g_req, lateral
+    Zc = np.empty((ns, nt, ng_))
+    Xc = np.empty((ns, nt, ng_))
+    Zr = np.empty((ns, nt))
+    Xr = np.empty((ns, nt))
+    lat_heights = np.unique(np.concatenate([grid, (grid[:, None] + th[None, :]).ravel()]))
+    LAT = np.empty((ns, 4, lat_heights.size))
+    for si, g in enumerate(geos):
+        hs = np.concatenate([grid, (grid[None, :] + th[:, None]).ravel()])
+        c = g.coarse(hs)
+        base = c[:ng_]
+        tops = c[ng_:].reshape(nt, ng_, 2)
+        Zc[si] = base[None, :, 0] - tops[:, :, 0]
+        Xc[si] = base[None, :, 1] - tops[:, :, 1]
+        e = g.coarse(np.concatenate([[g_req], g_req + th]))
+        Zr[si] = e[0, 0] - e[1:, 0]
+        Xr[si] = e[0, 1] - e[1:, 1]
+        lat = g.lateral(lat_heights)  # (nh, 4)
+        # cumulative integral over height (trapezoid) of each part
+        cum = np.concatenate([np.zeros((1, 4)), np.cumsum(0.5 * (lat[1:] + lat[:-1]) * np.diff(lat_heights)[:, None], axis=0)])
+        LAT[si] = cum.T
+        g.save()
+
+    # candidates: material x grade x spec x thickness
+    im, ig, is_, it = (a.ravel() for a in np.meshgrid(np.arange(nm), np.arange(ng), np.arange(ns),
+                                                         np.arange(nt), indexing="ij"))
+    n = im.size
+    t_c = th[it]
+    plate_mass = rho_p[im] * area * t_c
+    m_tot = plate_mass + req.mass_kg
+    weight = m_tot * G_STANDARD
+
+    # lift at the required gap (screening rule; exact for the rows worked out)
+    fz_r, fx_r = Zr[is_, it], Xr[is_, it]
+    lift_nom = s_nom[ig] * (a_nom[im] * fz_r + b_nom[im] * fx_r)
+    lift_w = s_w[ig] * (a_w[im] * fz_r + b_w[im] * fx_r)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        margin = np.where(weight > 0, lift_w / weight, np.inf)
+        margin_nom = np.where(weight > 0, lift_nom / weight, np.inf)
+
+    # equilibrium gaps on the screening tables
+    grp = is_ * nt + it
+    Zg = Zc.reshape(ns * nt, ng_)
+    Xg = Xc.reshape(ns * nt, ng_)
+    gap_nom = np.full(n, np.nan)
+    gap_w = np.full(n, np.nan)
+    kz = np.full(n, np.nan)
+    ok = diamag[im] & (weight > 0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        r_nom = np.where(a_nom[im] > 0, b_nom[im] / a_nom[im], 0.0)
+        y_nom = weight / (s_nom[ig] * a_nom[im])
+        y_w = weight / (s_w[ig] * a_w[im])
+    sel = np.nonzero(ok)[0]
+    if sel.size:
+        G = Zg[grp[sel]] + r_nom[sel, None] * Xg[grp[sel]]
+        gn, i_n, f_n = _highest_root_grid(G, y_nom[sel], grid)
+        gw, _, _ = _highest_root_grid(G, np.where(np.isfinite(y_w[sel]), y_w[sel], np.inf), grid)
+        gap_nom[sel] = gn
+        gap_w[sel] = gw
+        dZ = np.gradient(Zg, grid, axis=1)
+        dX = np.gradient(Xg, grid, axis=1)
+        gs = grp[sel]
+        i1 = np.minimum(i_n + 1, ng_ - 1)
+        d_at = ((dZ[gs, i_n] + r_nom[sel] * dX[gs, i_n]) * (1 - f_n)
+                + (dZ[gs, i1] + r_nom[sel] * dX[gs, i1]) * f_n)
+        kz[sel] = np.where(np.isfinite(gn), -d_at * s_nom[ig[sel]] * a_nom[im[sel]], np.nan)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        f_z = np.where(kz > 0, np.sqrt(np.maximum(kz, 0) / m_tot) / (2 * math.pi), 0.0)
+
+    # lateral stiffness at the nominal gap (screening)
+    kx = np.full(n, np.nan)
+    ky = np.full(n, np.nan)
+    fin = np.nonzero(np.isfinite(gap_nom))[0]
+    if fin.size:
+        g0 = gap_nom[fin]
+        g1 = g0 + t_c[fin]
+        rows = is_[fin]
+        parts = []
+        for q in range(4):
+            tab = LAT[:, q, :]
+            parts.append(_interp_rows(tab, rows, g1, lat_heights) - _interp_rows(tab, rows, g0, lat_heights))
+        sa, sb = s_nom[ig[fin]] * a_nom[im[fin]], s_nom[ig[fin]] * b_nom[im[fin]]
+        kx[fin] = sa * parts[0] + sb * parts[1]
+        ky[fin] = sa * parts[2] + sb * parts[3]
+    lat_stable = np.isfinite(kx) & (kx > 0) & (ky > 0)
+
+    # thermal
+    from .physics.thermal import lift_derating_pct
+
+    der_m_g = np.array([np.broadcast_to(lift_derating_pct(alpha, req.temp_max_k, mm.temp_coeff_per_k), (ng,))
+                        for mm in mats])  # (nm, ng)
+    derating = der_m_g[im, ig]
+    temps = sorted({req.temp_min_k, req.temp_max_k})
+    ratio_g = np.full((ns, ng), -np.inf)
+    ratio_t = np.full((ns, ng), temps[0])
+    bad_model = np.zeros(ng, dtype=bool)
+    for t in temps:
+        bf = _brf(alpha, t)
+        hf = 1.0 + beta / 100.0 * (t - T20_K)
+        bad_model |= (bf <= 0) | (hf <= 0)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            r = hmax[:, None] * (br * bf)[None, :] / (knee * hcj * hf)[None, :]
+        r = np.where((hf > 0)[None, :], r, np.inf)
+        upd = r > ratio_g
+        ratio_g = np.where(upd, r, ratio_g)
+        ratio_t = np.where(upd, t, ratio_t)
+    demag_ratio = ratio_g[is_, ig]
+    demag_temp = ratio_t[is_, ig]
+    demag_risk = demag_ratio >= 1.0
+    too_hot = (req.temp_max_k - 273.15) > tmax_c[ig] + 1e-9
+
+    # cost
+    magnet_mass = vol[is_] * rho_m[ig]
+    cost = magnet_mass * price_m[ig] + plate_mass * price_p[im]
+    illus = np.array([g.price_illustrative for g in grades])[ig] | np.array([m.price_illustrative for m in mats])[im]
+    over_budget = np.zeros(n, dtype=bool) if req.budget_usd is None else ~(cost <= req.budget_usd)
+
+    feasible = diamag[im] & (margin >= 1.0) & lat_stable & ~demag_risk & ~too_hot & ~over_budget
+    score = score_values(margin, cost, derating, req.weights)
+
+    df = pd.DataFrame({
+        "material": np.array([m.id for m in mats], dtype=object)[im],
+        "grade": np.array([g.grade for g in grades], dtype=object)[ig],
+        "family": np.array([g.family for g in grades], dtype=object)[ig],
+        "spec_index": is_, "mat_index": im, "grade_index": ig,
+        "thickness_m": t_c, "plate_mass_kg": plate_mass, "magnet_mass_kg": magnet_mass,
+        "weight_n": weight, "feasible": feasible,
+        "lift_per_area_n_m2": lift_w / area, "lift_nominal_n": lift_nom, "lift_worst_n": lift_w,
+        "gap_m": gap_nom, "gap_worst_m": gap_w, "margin": margin, "margin_nominal": margin_nom,
+        "max_payload_worst_kg": np.maximum(lift_w / G_STANDARD - plate_mass, 0.0),
+        "k_z_n_m": kz, "f_z_hz": f_z, "k_x_n_m": kx, "k_y_n_m": ky,
+        "k_tilt_n_m_per_rad": np.full(n, np.nan), "laterally_stable": lat_stable,
+        "derating_pct": derating, "demag_risk": demag_risk, "demag_ratio": demag_ratio,
+        "demag_temp_k": demag_temp, "too_hot": too_hot, "diamagnetic": diamag[im],
+        "cost_usd": cost, "price_illustrative": illus, "over_budget": over_budget,
+        "score": score, "exact": np.zeros(n, dtype=bool),
+        "stable_plate_side_max_m": np.full(n, np.nan), "tilt_stable": np.ones(n, dtype=bool),
+    })
+    return df
+
+
+# ---------------------------------------------------------------------------
+# plain-words reasons
+# ---------------------------------------------------------------------------
+def _c(t_k: float) -> str:
+    return f"{t_k - 273.15:.0f} C"
+
+
+def _mm(v: float) -> str:
+    return f"{v * 1e3:.3g} mm"
+
+
+def reasons_for(row: dict, req: AdviceRequest, cat: _Catalogue) -> tuple[list[str], list[str]]:
+    """(reasons it is rejected, notes) for one candidate row, in plain words."""
+    mat = cat.mats[int(row["mat_index"])]
+    grade = cat.grades[int(row["grade_index"])]
+    spec = cat.specs[int(row["spec_index"])]
+    reasons: list[str] = []
+    notes: list[str] = []
+    g_req = max(req.min_gap_m, 5e-5)
+    if not row["diamagnetic"]:
+        reasons.append(f"{mat.id} is paramagnetic (chi = {mat.chi_si:+.3g}): it is pulled towards "
+                       "the magnets and cannot float")
+    else:
+        m = row["margin"]
+        if not (m >= 1.0):
+            if math.isfinite(m):
+                reasons.append(f"lift at {_mm(g_req)} is {m:.2f}x the weight at {_c(req.temp_max_k)} "
+                               f"in the worst case (minimum Br, low end of |chi|)")
+            if not math.isfinite(row["gap_worst_m"]) and not math.isfinite(row["gap_m"]):
+                reasons.append("it does not float at any gap with this payload")
+        if row["too_hot"]:
+            reasons.append(f"{grade.grade} is rated to {grade.max_temp_c:g} C; the range reaches "
+                           f"{_c(req.temp_max_k)}")
+        if row["demag_risk"]:
+            why = ""
+            if grade.beta_hcj_pct_per_k is not None and grade.beta_hcj_pct_per_k > 0 and \
+                    row["demag_temp_k"] == req.temp_min_k and req.temp_min_k < req.temp_max_k:
+                why = f" ({grade.family} loses coercivity when cold)"
+            elif row["demag_temp_k"] == req.temp_max_k and req.temp_min_k < req.temp_max_k:
+                why = f" ({grade.family} loses coercivity when hot)"
+            ratio = row["demag_ratio"]
+            rtxt = f"{ratio:.2f}x" if math.isfinite(ratio) else "beyond"
+            reasons.append(f"irreversible loss of magnetisation: the reverse field reaches {rtxt} "
+                           f"the knee at {_c(row['demag_temp_k'])}{why}")
+        if math.isfinite(row["gap_m"]) and not row["laterally_stable"]:
+            side = row.get("stable_plate_side_max_m")
+            w = max(req.plate_m)
+            if side is not None and math.isfinite(side) and side < w:
+                reasons.append(f"the plate ({_mm(w)} wide) is wider than the largest laterally "
+                               f"stable side over this arrangement, {_mm(side)}")
+            kx, ky = row["k_x_n_m"], row["k_y_n_m"]
+            if not (kx > 0 and ky > 0):
+                reasons.append(f"laterally unstable: it slides off the magnets (k_x = {kx:.3g} N/m, "
+                               f"k_y = {ky:.3g} N/m)")
+            elif not row.get("tilt_stable", True):
+                reasons.append(f"it tips over (tilt stiffness {row['k_tilt_n_m_per_rad']:.3g} N m/rad "
+                               "not positive)")
+            else:
+                reasons.append("sliding and tilting together have no restoring force")
+        if row["over_budget"]:
+            c = row["cost_usd"]
+            if math.isfinite(c):
+                reasons.append(f"cost {c:.2f} USD is over the budget of {req.budget_usd:.2f} USD")
+            else:
+                reasons.append("no price in the database for "
+                               + ("the plate material" if mat.price_usd_per_kg is None else "the magnets")
+                               + "; the budget cannot be checked")
+    if row["price_illustrative"]:
+        notes.append("prices are illustrative")
+    if not math.isfinite(row["cost_usd"]):
+        notes.append("cost unknown (no price in the database)")
+    if spec.pattern == "stripes" and row["feasible"]:
+        notes.append("stripes restore almost nothing along the stripes (x)")
+    if not row["exact"]:
+        notes.append("screening values (gap, stiffness interpolated; tilt not checked)")
+    return reasons, notes
+
+
+# ---------------------------------------------------------------------------
+# the exact path for the rows shown
+# ---------------------------------------------------------------------------
+def _scaled_force(g: GeometryData, t: float, s: float, a: float, b: float):
+    """``F(g) = s (a (Iz(g) - Iz(g+t)) + b (Ixy(g) - Ixy(g+t)))`` from unit integrals."""
+    def force(gaps):
+        gg = np.atleast_1d(np.asarray(gaps, dtype=float))
+        e = g.exact(np.concatenate([gg, gg + t]))
+        k = gg.size
+        return (a * (e[:k, 0] - e[k:, 0]) + b * (e[:k, 1] - e[k:, 1])) * s
+    return force
+
+
+def _curve(force, weight: float, g_start: float, n_gaps: int):
+    """Lift curve as :func:`matdb.physics.plate.analyse_plate` samples it, and the root."""
+    from .physics import plate as P
+
+    f1 = lambda x: float(force([x])[0])  # noqa: E731
+    top = max(3e-3, g_start + 1e-3)
+    while f1(top) >= weight and top < 0.2:
+        top *= 2.0
+    gaps = np.linspace(g_start, top, n_gaps)
+    forces = force(gaps)
+    gap = None if forces[-1] >= weight else P.highest_stable_root(gaps, forces, weight, f1)
+    if gap is not None and gap > 0.8 * top:
+        gaps = np.linspace(g_start, 1.25 * gap, n_gaps)
+        forces = force(gaps)
+    return gaps, forces, gap, f1
+
+
+def exact_evaluation(row: dict, req: AdviceRequest, cat: _Catalogue, *, side: bool = True) -> dict:
+    """Work one candidate out the way ``matdb levitate`` does, from unit-polarisation
+    integrals scaled by ``B_r^2`` and the chi parts. Returns updated row values."""
+    from .physics import plate as P
+    from .physics.thermal import worst_case_abs_chi, worst_case_br
+
+    mat = cat.mats[int(row["mat_index"])]
+    grade = cat.grades[int(row["grade_index"])]
+    spec = cat.specs[int(row["spec_index"])]
+    g = geometry(spec, req.plate_m)
+    t = float(row["thickness_m"])
+    lx, ly = req.plate_m
+    geom = P.PlateGeometry("rectangle", lx, ly, t, 0.0, 0.0, *g.breaks)
+    g_start = 5e-5
+    g_req = max(req.min_gap_m, g_start)
+    t_op = t_w = req.temp_max_k
+    coeff = mat.temp_coeff_per_k
+    cf = 1.0 if coeff is None else 1.0 + coeff * (t_op - T20_K)
+    a, b = abs(mat.chi_vertical * cf), abs(mat.chi_horizontal * cf)
+    br_op = grade.br_t * (1.0 + grade.alpha_br_pct_per_k / 100.0 * (t_op - T20_K))
+    s_op = br_op ** 2 / (2.0 * MU0)
+    plate_mass = mat.density_kg_m3 * geom.volume
+    weight = (plate_mass + req.mass_kg) * G_STANDARD
+    m_tot = plate_mass + req.mass_kg
+    out: dict[str, Any] = {"exact": True}
+    if not (mat.chi_vertical < 0 and mat.chi_horizontal < 0):
+        return out
+    force = _scaled_force(g, t, s_op, a, b)
+    gaps, forces, gap, f1 = _curve(force, weight, g_start, 60)
+    out["lift_nominal_n"] = float(force([g_req])[0])
+    out["margin_nominal"] = out["lift_nominal_n"] / weight if weight > 0 else math.inf
+    out["gap_m"] = np.nan if gap is None else float(gap)
+    kz = fz = kx = ky = kt = np.nan
+    stable = False
+    tilt_ok = True
+    if gap is not None:
+        h = max(1e-7, 1e-3 * gap)
+        hs = np.array([gap + h, gap - h, gap + h + t, gap - h + t])
+        iz, ixy = P.plane_integrals(g.unit.B, geom, hs, EXACT_ORDER,
+                                    rule_heights=[gap, gap, gap + t, gap + t])
+        fp = (a * (iz[0] - iz[2]) + b * (ixy[0] - ixy[2])) * s_op
+        fm = (a * (iz[1] - iz[3]) + b * (ixy[1] - ixy[3])) * s_op
+        kz = -(fp - fm) / (2 * h)
+        fz = math.sqrt(kz / m_tot) / (2 * math.pi) if kz > 0 else 0.0
+        st = P.stability(g.unit.B, geom, gap, a * br_op ** 2, b * br_op ** 2, plate_mass,
+                         req.mass_kg, req.payload_height_m, EXACT_ORDER)
+        kx, ky, kt = st.k_x, st.k_y, min(st.k_pitch, st.k_roll)
+        stable = st.laterally_stable
+        tilt_ok = st.k_pitch > 0 and st.k_roll > 0
+        if side and not stable and geom.is_square:
+            ext = g.unit.bounds()
+            size = max(ext[1] - ext[0], ext[3] - ext[2])
+            s_side = P.stable_side_max(g.unit.B, geom, a * br_op ** 2, b * br_op ** 2,
+                                       mat.density_kg_m3, size, req.mass_kg,
+                                       req.payload_height_m, g_start)
+            out["stable_plate_side_max_m"] = np.nan if s_side is None else float(s_side)
+    out.update({"k_z_n_m": kz, "f_z_hz": fz, "k_x_n_m": kx, "k_y_n_m": ky,
+                "k_tilt_n_m_per_rad": kt, "laterally_stable": bool(stable), "tilt_stable": tilt_ok})
+    # worst case
+    ref = abs(mat.chi_vertical)
+    fw = 1.0
+    if mat.uncertainty_si is not None and ref > 0:
+        fw = worst_case_abs_chi(mat.chi_vertical, mat.uncertainty_si) / ref
+    cfw = 1.0 if coeff is None else 1.0 + coeff * (t_w - T20_K)
+    aw, bw = abs(mat.chi_vertical * cfw) * fw, abs(mat.chi_horizontal * cfw) * fw
+    b20 = worst_case_br(grade.br_t, None if grade.br_min_t is None else grade.br_min_t * grade.br_t / grade.br_t)
+    br_w = b20 * (1.0 + grade.alpha_br_pct_per_k / 100.0 * (t_w - T20_K))
+    force_w = _scaled_force(g, t, br_w ** 2 / (2.0 * MU0), aw, bw)
+    gaps_w, forces_w, gap_w, f1w = _curve(force_w, weight, g_start, 30)
+    out["gap_worst_m"] = np.nan if gap_w is None else float(gap_w)
+    lift_w = float(force_w([g_req])[0])
+    out["lift_worst_n"] = lift_w
+    out["lift_per_area_n_m2"] = lift_w / geom.area
+    out["margin"] = lift_w / weight if weight > 0 else math.inf
+    best, _ = P.max_lift_above(gaps_w, forces_w, g_req, f1w)
+    out["max_payload_worst_kg"] = float(max(best / G_STANDARD - plate_mass, 0.0))
+    return out
+
+
+# ---------------------------------------------------------------------------
+# the API
+# ---------------------------------------------------------------------------
+def build_catalogue(req: AdviceRequest, arrangements: Sequence[ArrangementSpec] | None = None,
+                    url=None) -> _Catalogue:
+    mats = _select_materials(req, url)
+    grades = _select_grades(req, url)
+    specs = list(arrangements) if arrangements is not None else \
+        default_arrangements(req.plate_m, req.max_magnet_size_m)
+    if req.max_magnet_size_m is not None and arrangements is not None:
+        specs = [s for s in specs if s.max_dimension <= req.max_magnet_size_m * (1 + 1e-9)]
+    return _Catalogue(mats, grades, specs, tuple(req.thicknesses_m))
+
+
+def _sort(df: pd.DataFrame) -> pd.DataFrame:
+    key_s = df["score"].fillna(-np.inf)
+    key_m = df["margin"].fillna(-np.inf)
+    order = np.lexsort((-key_m.to_numpy(), -key_s.to_numpy(), ~df["feasible"].to_numpy()))
+    return df.iloc[order].reset_index(drop=True)
+
+
+def _refresh_flags(df: pd.DataFrame, idx, req: AdviceRequest) -> None:
+    sub = df.loc[idx]
+    feas = (sub["diamagnetic"] & (sub["margin"] >= 1.0) & sub["laterally_stable"].astype(bool)
+            & ~sub["demag_risk"] & ~sub["too_hot"] & ~sub["over_budget"])
+    df.loc[idx, "feasible"] = feas.astype(bool)
+    df.loc[idx, "score"] = score_values(sub["margin"], sub["cost_usd"], sub["derating_pct"], req.weights)
+
+
+def rank(req: AdviceRequest, arrangements: Sequence[ArrangementSpec] | None = None, *,
+         polish: int = 10, url=None, catalogue: _Catalogue | None = None) -> tuple[pd.DataFrame, _Catalogue]:
+    """Screen and sort every candidate; work the first ``polish`` rows out exactly.
+
+    Returns the full frame (internal columns included) and the catalogue used.
+    """
+    cat = catalogue or build_catalogue(req, arrangements, url)
+    df = _evaluate(req, cat)
+    df = _sort(df)
+    done: set[int] = set()
+    ids = np.arange(len(df))
+    df["cid"] = ids
+    for _ in range(8):  # polish until the first `polish` rows are all exact
+        head = df.head(polish)
+        todo = [i for i in head.index if not df.at[i, "exact"]]
+        if not todo:
+            break
+        for i in todo:
+            row = df.loc[i].to_dict()
+            key = _polish_key(row, req, cat)
+            g = geometry(cat.specs[int(row["spec_index"])], req.plate_m)
+            upd = g.memo.get(key)
+            if upd is None:
+                upd = exact_evaluation(row, req, cat)
+                upd = {k: (float(v) if isinstance(v, (float, np.floating)) else v) for k, v in upd.items()}
+                g.memo[key] = upd
+                g.dirty = True
+            for k, v in upd.items():
+                df.at[i, k] = v
+            done.add(int(row["cid"]))
+        _refresh_flags(df, todo, req)
+        df = _sort(df)
+    for s in cat.specs:
+        geometry(s, req.plate_m).save()
+    # the Pareto front over feasible candidates
+    feas = df["feasible"].to_numpy(dtype=bool)
+    par = np.zeros(len(df), dtype=bool)
+    if feas.any():
+        par[feas] = pareto_front(df.loc[feas, "margin"], df.loc[feas, "cost_usd"], df.loc[feas, "derating_pct"])
+    df["pareto"] = par
+    df["rank"] = np.arange(1, len(df) + 1)
+    return df, cat
+
+
+def _polish_key(row: dict, req: AdviceRequest, cat: _Catalogue) -> str:
+    mat = cat.mats[int(row["mat_index"])]
+    grade = cat.grades[int(row["grade_index"])]
+    d = {"m": [mat.id, repr(mat.chi_vertical), repr(mat.chi_horizontal), repr(mat.uncertainty_si),
+               repr(mat.temp_coeff_per_k), repr(mat.density_kg_m3)],
+         "g": [grade.grade, repr(grade.br_t), repr(grade.br_min_t), repr(grade.alpha_br_pct_per_k)],
+         "t": repr(float(row["thickness_m"])), "mass": repr(req.mass_kg), "gap": repr(req.min_gap_m),
+         "T": repr(req.temp_max_k), "ph": repr(req.payload_height_m)}
+    return hashlib.sha256(json.dumps(d, sort_keys=True).encode()).hexdigest()[:20]
+
+
+def finish(df: pd.DataFrame, req: AdviceRequest, cat: _Catalogue, top: int | None = None,
+           feasible_only: bool = False) -> pd.DataFrame:
+    """The public frame: contract columns first, reasons in words, ``top`` rows."""
+    if feasible_only:
+        df = df[df["feasible"]]
+    if top is not None:
+        df = df.head(top)
+    df = df.copy()
+    reasons, notes, descr, pat, shp, size, rows, cols = [], [], [], [], [], [], [], []
+    for row in df.to_dict(orient="records"):
+        r, n_ = reasons_for(row, req, cat)
+        reasons.append(r)
+        notes.append(n_)
+        spec = cat.specs[int(row["spec_index"])]
+        descr.append(spec.description)
+        pat.append(spec.pattern)
+        shp.append(spec.shape)
+        size.append([float(s) for s in spec.size])
+        rows.append(spec.rows)
+        cols.append(spec.cols)
+    df["reasons"] = reasons
+    df["notes"] = notes
+    df["arrangement"] = descr
+    df["pattern"] = pat
+    df["shape"] = shp
+    df["size_m"] = size
+    df["rows"] = rows
+    df["cols"] = cols
+    front = [c for c in COLUMNS if c in df.columns]
+    rest = [c for c in df.columns if c not in front]
+    return df[front + rest].reset_index(drop=True)
+
+
+def advise(mass, footprint, *, min_gap="0.2 mm", temp_min="20 degC", temp_max="20 degC",
+           budget=None, materials=None, families=None, grades=None, max_magnet_size=None,
+           thickness=None, plate_size=None, weights=None, payload_height="0 mm",
+           arrangements: Sequence[ArrangementSpec] | None = None, top: int | None = None,
+           feasible_only: bool = False, polish: int | None = None, url=None) -> pd.DataFrame:
+    """Rank every plate material x magnet grade x arrangement x thickness for a payload.
+
+    Parameters are what a person types (strings with units; numbers are SI): ``mass``
+    (payload), ``footprint`` ("17 mm x 17 mm"), ``min_gap``, ``temp_min``/``temp_max``,
+    ``budget`` ("20 USD"), restrictions ``materials``, ``families``, ``grades``,
+    ``max_magnet_size``, ``thickness`` (one or more), ``plate_size`` (default the
+    footprint), ``weights`` ("margin=1,cost=1,derating=1"), ``payload_height`` (payload
+    centre of mass above the plate). ``top`` limits the rows returned; ``polish`` rows
+    (default ``top`` or 10) are worked out exactly.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Best first: feasible candidates by score, then the rejected ones with their
+        ``reasons``. Contract columns: rank, material, grade, arrangement (description),
+        pattern, shape, size_m, rows, cols, feasible, lift_per_area_n_m2, gap_m,
+        gap_worst_m, margin, laterally_stable, derating_pct, cost_usd, score, pareto,
+        reasons; more follow (SI units in the names).
+    """
+    req = parse_request(mass, footprint, min_gap=min_gap, temp_min=temp_min, temp_max=temp_max,
+                        budget=budget, materials=materials, families=families, grades=grades,
+                        max_magnet_size=max_magnet_size, thickness=thickness, plate_size=plate_size,
+                        weights=weights, payload_height=payload_height)
+    n_pol = polish if polish is not None else min(3, top or 3)
+    df, cat = rank(req, arrangements, polish=n_pol, url=url)
+    if feasible_only:
+        pass
+    return finish(df, req, cat, top=top, feasible_only=feasible_only)
+
+
+def advise_request(req: AdviceRequest, arrangements=None, *, top=None, feasible_only=False,
+                   polish=None, url=None):
+    """:func:`advise` for an already parsed :class:`AdviceRequest`; returns (frame, catalogue)."""
+    n_pol = polish if polish is not None else min(3, top or 3)
+    df, cat = rank(req, arrangements, polish=n_pol, url=url)
+    return finish(df, req, cat, top=top, feasible_only=feasible_only), cat
+
+
+# ---------------------------------------------------------------------------
+# output helpers
+# ---------------------------------------------------------------------------
+def _jnum(v):
+    if v is None:
+        return None
+    if isinstance(v, (bool, np.bool_)):
+        return bool(v)
+    if isinstance(v, (int, np.integer)):
+        return int(v)
+    f = float(v)
+    return f if math.isfinite(f) else None
+
+
+JSON_EXTRA = ["family", "thickness_m", "margin_nominal", "max_payload_worst_kg", "k_z_n_m", "f_z_hz",
+              "k_x_n_m", "k_y_n_m", "k_tilt_n_m_per_rad", "demag_risk", "demag_ratio",
+              "plate_mass_kg", "magnet_mass_kg", "price_illustrative", "stable_plate_side_max_m",
+              "exact", "notes"]
+
+
+def records(df: pd.DataFrame) -> list[dict]:
+    """Rows as the JSON objects of ``matdb advise --format json`` (contract keys first)."""
+    out = []
+    for r in df.to_dict(orient="records"):
+        d = {"rank": int(r["rank"]), "material": r["material"], "grade": r["grade"],
+             "arrangement": {"description": r["arrangement"], "pattern": r["pattern"],
+                             "shape": r["shape"], "size_m": list(r["size_m"]),
+                             "rows": int(r["rows"]), "cols": int(r["cols"])},
+             "feasible": bool(r["feasible"])}
+        for k in ("lift_per_area_n_m2", "gap_m", "gap_worst_m", "margin"):
+            d[k] = _jnum(r[k])
+        d["laterally_stable"] = bool(r["laterally_stable"])
+        for k in ("derating_pct", "cost_usd", "score"):
+            d[k] = _jnum(r[k])
+        d["pareto"] = bool(r["pareto"])
+        d["reasons"] = list(r["reasons"])
+        for k in JSON_EXTRA:
+            v = r.get(k)
+            d[k] = list(v) if isinstance(v, list) else _jnum(v) if not isinstance(v, str) else v
+        out.append(d)
+    return out
+
+
+def candidate_design(row: dict, req: AdviceRequest, cat: _Catalogue | None = None, name: str | None = None):
+    """A :class:`matdb.design.PlateDesign` of one candidate row (for ``--save``)."""
+    from . import catalog
+    from .design import Conditions, MagnetSpec, PlateDesign, PlateSpec
+
+    grade = catalog.get_grade(row["grade"])
+    mat = catalog.get_material(row["material"])
+    if cat is not None:
+        spec = cat.specs[int(row["spec_index"])]
+    else:
+        spec = ArrangementSpec(row["shape"], tuple(row["size_m"]), row["pattern"], int(row["rows"]),
+                               int(row["cols"]))
+    mags = MagnetSpec(spec.shape, tuple(spec.size), grade.grade, None, spec.pattern, spec.rows,
+                      spec.cols, spec.spacing, spec.back_plate, 0.0, (), {grade.grade: grade})
+    lx, ly = req.plate_m
+    plate = PlateSpec(mat.id, "rectangle", (lx, ly, float(row["thickness_m"])), None, None, None,
+                      req.mass_kg, req.payload_height_m, req.min_gap_m, (0.0, 0.0), mat)
+    cond = Conditions(None, req.temp_min_k, req.temp_max_k)
+    desc = f"matdb advise: {mat.id} plate over a {spec.description}, grade {grade.grade}"
+    return PlateDesign(mags, plate, cond, name=name or f"{mat.id}-{grade.grade}", description=desc)
+
+
+def save_design(row: dict, req: AdviceRequest, path, cat: _Catalogue | None = None) -> Path:
+    """Write one candidate as a design file ``matdb levitate`` reads."""
+    from .design import write_design
+
+    return write_design(candidate_design(row, req, cat), path)

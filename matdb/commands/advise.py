@@ -1,0 +1,121 @@
+"""``matdb advise``: rank plate material x magnet grade x arrangement for a payload.
+
+    matdb advise --mass "0.2 g" --footprint "17 mm x 17 mm" [--min-gap "0.3 mm"]
+        [--temp-min "0 degC"] [--temp-max "60 degC"] [--budget "20 USD"]
+        [--material ID ...] [--family NdFeB ...] [--grade N42 ...] [--max-magnet-size "13 mm"]
+        [--thickness "1 mm" ...] [--plate-size "20 mm x 20 mm"] [--payload-height "2 mm"]
+        [--weights margin=1,cost=1,derating=1] [--top N] [--feasible-only] [--exact N]
+        [--save DESIGN.toml] [--format table|json|csv]
+
+A thin layer over :func:`matdb.advisor.advise_request`.
+"""
+
+from __future__ import annotations
+
+import math
+
+from .. import advisor as A
+from ..errors import InputError
+from ..output import add_format_argument, emit, to_json
+
+TABLE_COLUMNS = ["rank", "material", "grade", "arrangement", "t_mm", "feasible", "margin",
+                 "gap_mm", "gap_worst_mm", "derating_pct", "cost_usd", "score", "pareto", "why"]
+TABLE_HEADERS = {"t_mm": "plate t mm", "gap_mm": "gap mm", "gap_worst_mm": "worst gap mm",
+                 "derating_pct": "derating %", "cost_usd": "cost USD*", "why": "reasons / notes"}
+CSV_COLUMNS = ["rank", "material", "grade", "arrangement", "pattern", "shape", "size_m", "rows",
+               "cols", "thickness_m", "feasible", "lift_per_area_n_m2", "gap_m", "gap_worst_m",
+               "margin", "margin_nominal", "laterally_stable", "derating_pct", "cost_usd", "score",
+               "pareto", "reasons", "exact"]
+
+
+def register(sub) -> None:
+    p = sub.add_parser(
+        "advise",
+        help="rank plate materials x magnet grades x arrangements for a payload",
+        description="Rank every plate material x magnet grade x default arrangement x plate "
+        "thickness for a payload: worst-case margin at the required gap, stability, thermal "
+        "derating, demagnetisation risk, cost; every rejection with its reason. "
+        "Example: matdb advise --mass '0.2 g' --footprint '17 mm x 17 mm' --temp-max '60 degC'",
+    )
+    p.add_argument("--mass", required=True, help="payload mass, e.g. '0.2 g'")
+    p.add_argument("--footprint", required=True, help="payload outline, e.g. '17 mm x 17 mm'")
+    p.add_argument("--min-gap", default="0.2 mm", help="required gap above the magnets (default 0.2 mm)")
+    p.add_argument("--temp-min", default="20 degC", help="coldest operating temperature (default 20 degC)")
+    p.add_argument("--temp-max", default="20 degC", help="hottest operating temperature (default 20 degC)")
+    p.add_argument("--budget", help="most the magnets plus plate may cost, e.g. '20 USD'")
+    p.add_argument("--material", action="append", help="only this plate material id (repeatable)")
+    p.add_argument("--family", action="append", help="only this magnet family, e.g. NdFeB (repeatable)")
+    p.add_argument("--grade", action="append", help="only this magnet grade, e.g. N42 (repeatable)")
+    p.add_argument("--max-magnet-size", help="largest magnet dimension allowed, e.g. '13 mm'")
+    p.add_argument("--thickness", action="append",
+                   help="plate thickness to consider (repeatable; default 0.5, 1 and 2 mm)")
+    p.add_argument("--plate-size", help="fix the plate outline instead of the footprint, e.g. '20 mm x 20 mm'")
+    p.add_argument("--payload-height", default="0 mm",
+                   help="payload centre of mass above the plate (default 0 mm)")
+    p.add_argument("--weights", help="score weights, e.g. 'margin=1,cost=1,derating=1'")
+    p.add_argument("--top", type=int, default=None,
+                   help="rows to show (default 10 for the table, every row for json and csv)")
+    p.add_argument("--feasible-only", action="store_true", help="omit the rejected candidates")
+    p.add_argument("--exact", type=int, default=None,
+                   help="rows worked out exactly as 'matdb levitate' does (default 3); the rest "
+                   "are screening values")
+    p.add_argument("--save", metavar="DESIGN.toml", help="write the top candidate as a design file")
+    add_format_argument(p)
+    p.set_defaults(func=cmd_advise)
+
+
+def _mm(v) -> float | None:
+    return None if v is None or not math.isfinite(v) else v * 1e3
+
+
+def table_rows(df) -> list[dict]:
+    rows = []
+    for r in df.to_dict(orient="records"):
+        why = list(r["reasons"]) or list(r["notes"])
+        rows.append({"rank": int(r["rank"]), "material": r["material"], "grade": r["grade"],
+                     "arrangement": r["arrangement"], "t_mm": r["thickness_m"] * 1e3,
+                     "feasible": bool(r["feasible"]), "margin": r["margin"],
+                     "gap_mm": _mm(r["gap_m"]), "gap_worst_mm": _mm(r["gap_worst_m"]),
+                     "derating_pct": r["derating_pct"],
+                     "cost_usd": r["cost_usd"] if math.isfinite(r["cost_usd"]) else None,
+                     "score": r["score"] if math.isfinite(r["score"]) else None,
+                     "pareto": bool(r["pareto"]), "why": "; ".join(why)})
+    return rows
+
+
+def cmd_advise(args) -> int:
+    if args.top is not None and args.top < 1:
+        raise InputError(f"--top: expected a positive whole number, got {args.top}")
+    if args.exact is not None and args.exact < 0:
+        raise InputError(f"--exact: expected zero or more, got {args.exact}")
+    req = A.parse_request(args.mass, args.footprint, min_gap=args.min_gap, temp_min=args.temp_min,
+                          temp_max=args.temp_max, budget=args.budget, materials=args.material,
+                          families=args.family, grades=args.grade,
+                          max_magnet_size=args.max_magnet_size, thickness=args.thickness,
+                          plate_size=args.plate_size, weights=args.weights,
+                          payload_height=args.payload_height)
+    top = args.top if args.top is not None else (10 if args.format == "table" else None)
+    exact = args.exact if args.exact is not None else min(3, top or 3)
+    df, cat = A.advise_request(req, top=top, feasible_only=args.feasible_only, polish=exact)
+    if args.save:
+        if df.empty:
+            raise InputError("--save: no candidate to save")
+        path = A.save_design(df.iloc[0].to_dict(), req, args.save, cat)
+    if args.format == "json":
+        print(to_json(A.records(df)))
+    elif args.format == "csv":
+        recs = []
+        for r in df.to_dict(orient="records"):
+            recs.append({c: r.get(c) for c in CSV_COLUMNS})
+        emit(recs, "csv", columns=CSV_COLUMNS)
+    else:
+        n_feas = int(df["feasible"].sum())
+        print(f"{n_feas} feasible of {len(df)} shown; payload {req.mass_kg * 1e3:.4g} g on a "
+              f"{req.plate_m[0] * 1e3:.4g} x {req.plate_m[1] * 1e3:.4g} mm plate, gap >= "
+              f"{req.min_gap_m * 1e3:.3g} mm, {req.temp_min_k - 273.15:.0f} to {req.temp_max_k - 273.15:.0f} C.")
+        emit(table_rows(df), "table", TABLE_COLUMNS, TABLE_HEADERS)
+        print("* prices are illustrative, not quotes. margin = worst-case lift / weight at the "
+              "required gap; rows past the first few are screening values (see --exact).")
+    if args.save:
+        print(f"saved {path}" if args.format == "table" else "", end="\n" if args.format == "table" else "")
+    return 0
