@@ -19,6 +19,7 @@ COMMAND_MODULES = [
     "matdb.commands.serve",
     "matdb.commands.lab",
     "matdb.commands.physics",
+    "matdb.commands.advise",
 ]
 
 
