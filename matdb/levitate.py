@@ -192,6 +192,11 @@ def levitate_plate(design: PlateDesign, temp_k: float | None = None,
     out["demag_message"] = demag.message
     if demag.risk:
         warnings.append(demag.message[0].upper() + demag.message[1:] + ".")
+    hot_c = t_hot - 273.15
+    for g in {g.grade: g for g in gprops}.values():
+        if g.max_temp_c is not None and hot_c > g.max_temp_c:
+            warnings.append(f"{g.grade} is rated to {g.max_temp_c:.0f} C; at {hot_c:.0f} C it "
+                            "can lose magnetisation for good: choose a higher-temperature grade.")
     if missing_beta:
         warnings.append("A grade has no temperature coefficient of coercivity; the "
                         "irreversible-loss check used its 20 C coercivity at every temperature.")

@@ -44,7 +44,11 @@ With a field at unit polarisation ``B_1`` (``B = B_r B_1``),
     F(g) = (|chi_perp| (Iz(g) - Iz(g + t)) + |chi_par| (Ixy(g) - Ixy(g + t))) B_r^2 / (2 mu0)
 
 where ``Iz(h) = integral_footprint B_z^2 dA`` and ``Ixy(h) = integral_footprint (B_x^2 +
-B_y^2) dA`` at height ``h`` (:func:`plate_surface_integrals`).
+B_y^2) dA`` at height ``h`` (:func:`plate_surface_integrals`). The same split holds for
+forces and torques at any pose (:func:`generalized_forces_split`) and for the stiffness
+matrix (:func:`stiffness_split`): computed once with the unit-polarisation field at a
+given gap and centre-of-mass height, ``K = B_r^2 (|chi_perp| K[0] + |chi_par| K[1])``.
+Only the equilibrium gap, which depends on the weight, has to be found per material.
 
 **Quadrature.** Tensor Gauss-Legendre panels whose boundaries fall on the magnets' edge
 lines (``x`` and ``y`` of every magnet edge), geometrically graded towards those lines
