@@ -438,7 +438,10 @@ def record_material_value(
         if _given(from_float_gap):
             if mat.new:
                 raise InputError("--from-float-gap: needs an existing material (its perp/par ratio and density)")
-            f.update(_chi_from_float_gap(mid, from_float_gap, design, url))
+            extra = _chi_from_float_gap(mid, from_float_gap, design, url)
+            if _given(temperature):
+                extra.pop("temperature")
+            f.update(extra)
         v = _build_chi_value(mat, f, CLI_LABELS)
         if mat.new:
             _add_material(s, mat)
@@ -614,27 +617,68 @@ def _chi_from_float_gap(material_id: str, gap: Any, design: Any, url: Optional[s
     except UnicodeDecodeError:
         raise InputError(f"--design: {str(path)!r} is not UTF-8 text") from None
     m = catalog.get_material(material_id, url)
-    chi_v = invert_float_gap(gap_m, path, m)
-    ratio = None
-    if m.anisotropic and m.chi_perp_si and m.chi_par_si:
-        ratio = m.chi_par_si / m.chi_perp_si
+    chi_v, assumed = invert_float_gap(gap_m, path, m)
+    aniso = m.anisotropic and m.chi_par_si is not None
     one_line = " | ".join(x.strip() for x in content.splitlines() if x.strip() and not x.strip().startswith("#"))
-    note = (f"chi from float gap: plate floated at {gap_m * 1000:g} mm over the design in {str(path)!r}; "
-            f"lift taken proportional to |chi|" + (f", perp/par ratio kept from value {m.value_id}" if ratio else "")
+    note = (f"chi from float gap: plate bottom {gap_m * 1000:g} mm above the magnets' top faces over the design "
+            f"{str(path)!r}; magnets at {assumed['temperature_k'] - 273.15:g} C; weight {assumed['weight_n']:.6g} N "
+            f"with density {m.density_kg_m3:g} kg/m^3; lift taken linear in |chi|"
+            + (f", chi_par/chi_perp = {assumed['ratio']:.6g} kept from value {m.value_id}" if aniso else "")
             + f"; design: {one_line}")
-    out: dict = {"note": note}
-    if ratio is not None:
+    out: dict = {"note": note, "temperature": f"{assumed['temperature_k']} K"}
+    if aniso:
         out["chi_perp"] = repr(chi_v)
-        out["chi_par"] = repr(chi_v * ratio)
+        out["chi_par"] = repr(chi_v * assumed["ratio"])
         out["chi"] = None
     else:
         out["chi"] = repr(chi_v)
     return out
 
 
-def invert_float_gap(gap_m: float, design_path: Path, material) -> float:
-    """chi (vertical-field SI volume value) that floats the design's plate at ``gap_m``."""
-    raise InputError("--from-float-gap: the plate physics is not available yet")  # replaced below
+def invert_float_gap(gap_m: float, design_path: Path, material) -> tuple[float, dict]:
+    """The vertical-field chi (SI volume, negative) that floats the design's plate at ``gap_m``.
+
+    The lift is linear in the susceptibilities, ``F(g) = |chi_perp| F_perp(g) + |chi_par|
+    F_par(g)`` (:mod:`matdb.physics.plate`), so with the material's ratio ``r =
+    chi_par / chi_perp`` kept (1 for an isotropic material) the measured gap gives
+    ``|chi_perp| = W / (F_perp(g) + r F_par(g))``, ``W`` the weight of plate and payload.
+    Returns (chi_perp, what was assumed: temperature_k, ratio, weight_n, unit_lift_n).
+    """
+    from .design import PlateDesign, load_design
+    from .levitate import plate_geometry
+    from .physics import plate as P
+    from .units import G_STANDARD
+
+    d = load_design(design_path)
+    if not isinstance(d, PlateDesign):
+        raise InputError("--design: expected a floating-plate design ([magnets] and [plate] tables)")
+    if d.plate.material != material.id:
+        raise InputError(f"--design: the plate in {str(design_path)!r} is {d.plate.material!r}, "
+                         f"not {material.id!r}; use a design of the sample that was floated")
+    if material.kind != "diamagnetic":
+        raise InputError(f"--from-float-gap: {material.id} is not diamagnetic; it cannot float")
+    cover = d.magnets.cover_m
+    if gap_m <= cover:
+        raise InputError(f"--from-float-gap: the gap ({gap_m * 1000:g} mm, plate bottom above the magnets' "
+                         f"top faces) must exceed the cover sheet ({cover * 1000:g} mm)")
+    t_k = d.conditions.nominal_k
+    arr = d.arrangement(t_k)
+    geom = plate_geometry(d, arr)
+    ratio = 1.0
+    if material.anisotropic and material.chi_perp_si and material.chi_par_si is not None:
+        ratio = material.chi_par_si / material.chi_perp_si
+    weight = (material.density_kg_m3 * d.plate.volume_m3 + d.plate.payload_kg) * G_STANDARD
+    f1, f2 = (float(x) for x in P.lift_force(arr.B, geom, [gap_m, gap_m * 1.02], 1.0, ratio))
+    if not (f1 > 0 and math.isfinite(f1)):
+        raise InputError("--from-float-gap: the design gives no lift at that gap")
+    if f2 >= f1:
+        raise InputError(f"--from-float-gap: at {gap_m * 1000:g} mm the lift of this design still rises with "
+                         "the gap, so a plate cannot rest there stably; check the gap and the design")
+    chi_abs = weight / f1
+    if chi_abs > CHI_LIMIT:
+        raise InputError(f"--from-float-gap: a float at {gap_m * 1000:g} mm needs |chi| = {chi_abs:.3g}, "
+                         "absurd for a diamagnet; check the gap and the design")
+    return -chi_abs, {"temperature_k": t_k, "ratio": ratio, "weight_n": weight, "unit_lift_n": f1}
 
 
 # ---------------------------------------------------------------------------

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import json
 import math
+from pathlib import Path
 
 import pytest
 
@@ -325,3 +326,48 @@ def test_unit_field_is_linear_in_br():
     a, _ = labvalues.surface_field_to_br("0.25 T", "cuboid", "20 mm, 20 mm, 10 mm", "1 mm")
     b, _ = labvalues.surface_field_to_br("0.5 T", "cuboid", "20 mm, 20 mm, 10 mm", "1 mm")
     assert b == pytest.approx(2 * a, rel=1e-12)
+
+
+# ---------------------------------------------------------------------------
+# float-gap inversion
+# ---------------------------------------------------------------------------
+DESIGN = Path(__file__).resolve().parent / "data" / "plate_checkerboard.toml"
+
+
+def test_float_gap_inverts_the_plate_physics(fresh_db, run_cli):
+    from matdb.design import load_design
+    from matdb.levitate import levitate
+
+    hb = catalog.get_material("pyrolytic-graphite")  # handbook chi (Simon and Geim 2000, seed data)
+    gap = levitate(load_design(DESIGN))["gap_m"]
+    r = _rec(run_cli, "material", "pyrolytic-graphite", "--from-float-gap", f"{gap * 1000!r} mm",
+             "--design", str(DESIGN), "--source", "floated sheet 3 over the demo array, feeler gauge")
+    # the forward equilibrium of the handbook value, inverted, gives that value back; the
+    # perp/par ratio is kept
+    assert r["chi_si"] == pytest.approx(hb.chi_vertical, rel=1e-4)
+    assert r["chi_par_si"] / r["chi_si"] == pytest.approx(hb.chi_horizontal / hb.chi_vertical, rel=1e-12)
+    assert "float gap" in r["note"] and "plate_checkerboard.toml" in r["note"] and 'grade = "N42"' in r["note"]
+    assert r["temperature_c"] == pytest.approx(20.0)
+    # lift is linear in |chi| (Berry and Geim 1997): a higher float means a larger |chi|
+    higher = labvalues.record_material_value("pyrolytic-graphite", from_float_gap=f"{gap * 1.2} m",
+                                             design=str(DESIGN), source="higher")
+    assert abs(higher["chi_si"]) > abs(r["chi_si"])
+
+
+def test_float_gap_errors_write_nothing(fresh_db, run_cli, tmp_path):
+    other = tmp_path / "bismuth.toml"
+    other.write_text(DESIGN.read_text(encoding="utf-8").replace('"pyrolytic-graphite"', '"bismuth"'),
+                     encoding="utf-8")
+    before = _export(run_cli)
+    cases = [
+        (["--from-float-gap", "0.9 mm", "--design", str(other)], "--design"),         # another material
+        (["--from-float-gap", "0.9 mm", "--design", str(tmp_path / "none.toml")], "--design"),
+        (["--from-float-gap", "0.9 mm"], "--design"),
+        (["--from-float-gap", "0.9", "--design", str(DESIGN)], "--from-float-gap"),    # missing unit
+        (["--from-float-gap", "40 mm", "--design", str(DESIGN)], "--from-float-gap"),  # absurd |chi|
+        (["--from-float-gap", "0.9 mm", "--design", str(DESIGN), "--chi", "-1e-4"], "--from-float-gap"),
+    ]
+    for extra, field in cases:
+        code, _, err = run_cli("record", "material", "pyrolytic-graphite", *extra, "--source", "s")
+        assert code == 2 and field in err, (extra, err)
+    assert _export(run_cli) == before
