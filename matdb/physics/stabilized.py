@@ -58,7 +58,7 @@ from scipy.optimize import brentq
 
 from ..errors import InputError, PhysicsError
 from ..units import G_STANDARD, MU0
-from .fields import cuboid_B, cylinder_B, ring_B
+from .fields import MagnetSet
 
 __all__ = [
     "Body",
@@ -151,12 +151,7 @@ class Body:
         """Flux density at ``points`` (n, 3) [m] -> (n, 3) [T]."""
         p = np.asarray(points, dtype=float).reshape(-1, 3)
         c = np.asarray(self.centre, dtype=float).reshape(1, 3)
-        s = self.size
-        if self.shape == "cuboid":
-            return cuboid_B(p, [list(s)], [[0.0, 0.0, self.j_t]], c)
-        if self.shape == "cylinder":
-            return cylinder_B(p, [s[0]], [s[1]], [self.j_t], c)
-        return ring_B(p, [s[0]], [s[1]], [s[2]], [self.j_t], c)
+        return _evaluator(self.shape, tuple(float(v) for v in self.size), float(self.j_t))(p - c)
 
     def bounds(self) -> tuple:
         """``(xmin, xmax, ymin, ymax, zmin, zmax)`` [m]."""
@@ -164,6 +159,12 @@ class Body:
         hx, hy = (0.5 * s[0], 0.5 * s[1]) if self.shape == "cuboid" else (0.5 * s[0], 0.5 * s[0])
         x, y, z = self.centre
         return (x - hx, x + hx, y - hy, y + hy, z - self.half_height, z + self.half_height)
+
+
+@lru_cache(maxsize=256)
+def _evaluator(shape: str, size: tuple, j_t: float):
+    """B of one magnet centred at the origin, as a function of points (set up once)."""
+    return MagnetSet([shape], [size], [[0.0, 0.0, j_t]], [[0.0, 0.0, 0.0]]).B
 
 
 class _System:
@@ -418,7 +419,8 @@ def lifter_force(lifter: Body, floater: Body, n: int = 12, n_phi: int = 24) -> n
     c = np.asarray(floater.centre, dtype=float)
     top = np.column_stack([xy + c[:2], np.full(w.size, c[2] + floater.half_height)])
     bot = np.column_stack([xy + c[:2], np.full(w.size, c[2] - floater.half_height)])
-    return floater.j_t / MU0 * (w @ lifter.B(top) - w @ lifter.B(bot))
+    b = lifter.B(np.concatenate([top, bot]))
+    return floater.j_t / MU0 * (w @ b[: w.size] - w @ b[w.size:])
 
 
 def lifter_stiffness(lifter: Body, floater: Body, step: Optional[float] = None) -> tuple[float, float]:
