@@ -10,6 +10,8 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as hst
 from scipy import integrate
 
 from matdb.errors import InputError
@@ -242,6 +244,18 @@ def test_lifter_torque_vs_magpylib_on_a_tilted_floater():
     assert torque[1] == pytest.approx(-hz["kappa_y"] * th, rel=1e-3)
 
 
+@settings(max_examples=15, deadline=None)
+@given(j1=hst.floats(0.2, 1.5), j2=hst.floats(0.2, 1.5), d=hst.floats(2e-3, 60e-3))
+def test_lifter_force_is_bilinear_in_the_polarisations(j1, j2, d):
+    # F = integral of (M . grad) B_lifter: linear in the floater's M and in the lifter's J
+    # (superposition, Jackson sec. 5.9)
+    lif = S.Body("cylinder", (20e-3, 10e-3), j1).at((0, 0, d + 5e-3))
+    flo = S.Body("cylinder", FLOATER.size, j2)
+    ref = S.lifter_force(S.Body("cylinder", (20e-3, 10e-3), 1.0).at((0, 0, d + 5e-3)),
+                         S.Body("cylinder", FLOATER.size, 1.0))
+    assert S.lifter_force(lif, flo)[2] == pytest.approx(j1 * j2 * ref[2], rel=1e-9)
+
+
 @pytest.mark.parametrize("lifter", [S.Body("cylinder", (25.4e-3, 25.4e-3), 1.3),
                                     S.Body("cuboid", (20e-3, 20e-3, 10e-3), 1.2),
                                     S.Body("ring", (30e-3, 10e-3, 10e-3), 1.3)])
@@ -461,3 +475,22 @@ def test_cli_levitate_json(run_cli):
     assert r["mode"] == "stabilized"
     assert r["k_lifter_z_n_m"] < 0
     assert r["window"] and r["verdict_model"] == "finite-size"
+
+
+def test_cli_levitate_table_shows_the_schedule_in_mm(run_cli):
+    # the table is for a person: lifter distance in mm, the payload schedule, the cautions
+    code, out, err = run_cli("levitate", str(EXAMPLE), "--format", "json")
+    r = json.loads(out)
+    code, out, err = run_cli("levitate", str(EXAMPLE))
+    assert code == 0, err
+    assert f"{r['lifter_distance_m'] * 1e3:.4g} mm" in out
+    assert "schedule" in out and "Strong magnets need care" in out
+
+
+def test_cli_refuses_unknown_key(run_cli, tmp_path):
+    # errors are one line naming the key, exit status 2 (DEVELOPERS.md contract)
+    doc = EXAMPLE.read_text().replace('payload = "0.2 g"', 'payload = "0.2 g"\ncolour = "red"')
+    p = tmp_path / "bad.toml"
+    p.write_text(doc)
+    code, out, err = run_cli("levitate", str(p))
+    assert code == 2 and "floater.colour" in err

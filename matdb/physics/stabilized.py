@@ -982,7 +982,7 @@ def _f(x) -> Optional[float]:
     return x if math.isfinite(x) else None
 
 
-def _station_report(st, model: StationModel, weight_n: float, where: str, n_window: int = 11) -> dict:
+def _station_report(st, model: StationModel, weight_n: float, where: str) -> dict:
     """Everything about one station carrying ``weight_n`` (floater included)."""
     warnings: list[str] = []
     label = where.rstrip(".") + ": " if where else ""
@@ -1177,10 +1177,15 @@ def levitate_stabilized(design, temp_k: Optional[float] = None, n_window: int = 
         ``k_plates_dipole_n_m``, ``max_plate_distance_m`` (finite-size),
         ``max_plate_distance_dipole_m``, ``max_payload_kg``, ``verdict_model``,
         ``window`` (list of ``payload_kg``, ``lifter_distance_m``,
-        ``max_plate_distance_m``, ``min_plate_distance_m``), ``safe_distance_m``,
-        ``warnings``, ``tilt_stable``; with stations, ``stations`` (``share_n``,
-        ``share_fraction``, ``lifter_distance_m``... per station) and the top-level
-        scalars of the most constrained station (``critical_station``).
+        ``max_plate_distance_m``, ``min_plate_distance_m``; the largest plate distance
+        there is also capped by the lifter, ``D - t``), ``safe_distance_m``,
+        ``warnings``, ``tilt_stable``, and extras (``k_z_total_n_m``,
+        ``k_r_effective_n_m``, tilt stiffnesses, ``lifter_distance_drift_um_per_k``...).
+        With stations: ``stations`` (``share_n``, ``share_fraction``,
+        ``lifter_distance_m``... per station), window rows whose
+        ``lifter_distance_m`` and ``max_plate_distance_m`` are lists (one per station),
+        ``body_stiffness_eigenvalues`` of the rigid payload, and the top-level scalars of
+        the most constrained station (``critical_station``).
 
     Notes
     -----
