@@ -8,6 +8,8 @@ import json
 from pathlib import Path
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from matdb import catalog, db, labvalues
 
@@ -100,7 +102,8 @@ def _populate(run_cli):
     argv = [
         ("material", "bismuth", "--chi", "-1.6e-4", "--date", "2026-10-01", "--temperature", "21 degC",
          "--uncertainty", "4%", "--source", '=HYPERLINK("http://example.invalid","x")', "--measured-by=-me"),
-        ("material", "bismuth", "--chi", "-1.4e-4", "--date", "2026-10-02", "--source", "@wrong holder"),
+        ("material", "bismuth", "--chi", "-1.4e-4", "--date", "2026-10-02", "--source", "@wrong holder",
+         "--method", 'Gouy, two "points"\nsecond line; ünïcode'),
         ("material", "pyrolytic-graphite", "--chi-perp", "-4.2e-4", "--chi-par", "-8e-5", "--source", "sheet 2"),
         ("material", "own-alloy", "--name", "Own alloy", "--density", "9 g/cm^3", "--chi", "-5e-5",
          "--source", "'quoted note"),
@@ -187,3 +190,12 @@ def test_retraction_travels_with_an_import(fresh_db, run_cli, tmp_path):
     s = _import(run_cli, dump)
     assert s["retracted"] == 1 and s["added"] == 0
     assert next(r for r in labvalues.history("graphite") if r["value_id"] == vid)["retracted"] is True
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.text(max_size=30))
+def test_escape_round_trip_and_neutralises_formulas(text):
+    # OWASP "CSV Injection": a cell must not begin with = + - @ tab or CR when a spreadsheet opens it
+    esc = labvalues.escape_cell(text)
+    assert labvalues.unescape_cell(esc) == text
+    assert not esc or esc[0] not in "=+-@\t\r"
