@@ -199,3 +199,12 @@ def test_escape_round_trip_and_neutralises_formulas(text):
     esc = labvalues.escape_cell(text)
     assert labvalues.unescape_cell(esc) == text
     assert not esc or esc[0] not in "=+-@\t\r"
+
+
+def test_history_csv_is_escaped_too(fresh_db, run_cli):
+    code, _, err = run_cli("record", "material", "bismuth", "--chi", "-1.6e-4", "--source", "=1+2", "--date",
+                           "2026-11-01")
+    assert code == 0, err
+    code, out, _ = run_cli("history", "bismuth", "--format", "csv")
+    row = next(r for r in csv.DictReader(io.StringIO(out)) if r["value_kind"] == "measured")
+    assert row["source"] == "'=1+2" and float(row["chi_si"]) == pytest.approx(-1.6e-4)
