@@ -43,9 +43,9 @@ def _near_cuboid_edges(p, dims, positions, delta):
     return np.any(near.sum(axis=2) >= 2, axis=1)
 
 
-def _on_cuboid_surface(p, dims, positions, delta=1e-12):
-    """True where a point lies on the surface of any cuboid (closed box, a coordinate on a
-    boundary plane): there the value follows the owner convention, not superposition."""
+def _on_cuboid_surface(p, dims, positions, delta=1e-8):
+    """True where a point lies on (within delta of) the surface of any cuboid: there the
+    value follows the owner convention and face snapping, not plain superposition."""
     p = np.asarray(p)[:, None, :]
     lo = np.asarray(positions) - np.asarray(dims) / 2
     hi = np.asarray(positions) + np.asarray(dims) / 2
@@ -256,6 +256,45 @@ def test_cylinders_and_rings_finite_on_faces_rims_axis():
     p = np.column_stack([(rr * np.cos(pp)).ravel(), (rr * np.sin(pp)).ravel(), zz.ravel()])
     assert np.all(np.isfinite(cylinder_B(p, [2 * R], [h], [1.3], [(0, 0, 0)])))
     assert np.all(np.isfinite(ring_B(p, [2 * R], [2 * Ri], [h], [-1.3], [(0, 0, 0)])))
+
+
+@pytest.mark.parametrize("lam", [1e-3, 7.0, 1e3])
+def test_scale_invariance_including_edges_and_corners(lam):
+    # dimensional analysis: the B of uniformly polarised bodies depends only on J and on
+    # ratios of lengths, so scaling every length (magnets and points) by the same factor
+    # leaves B unchanged -- on faces, edges and corners too (the edge regularisation is a
+    # fraction of the magnet size, not a fixed length)
+    dims = np.array([(0.01, 0.01, 0.01), (0.01, 0.01, 0.01), (0.01, 0.01, 0.005)])
+    pos = np.array([(-0.005, 0, -0.005), (0.005, 0, -0.005), (0.005, 0.0, -0.0125)])
+    pols = np.array([(0, 0, 1.3), (0.3, -0.4, -1.0), (1.0, 0.2, 0.0)])
+    p = _grid_through((-0.01, -0.005, -0.015), (0.01, 0.005, 0.0), n=5)
+    b1 = cuboid_B(p, dims, pols, pos)
+    b2 = cuboid_B(lam * p, lam * dims, pols, lam * pos)
+    np.testing.assert_allclose(b2, b1, rtol=1e-9, atol=1e-9)
+    rho = np.array([0.0, 0.002, 0.005, 0.007])
+    z = np.array([-0.004, -0.002, 0.0, 0.002])
+    rr, zz = np.meshgrid(rho, z, indexing="ij")
+    q = np.column_stack([rr.ravel(), np.zeros(rr.size), zz.ravel()])
+    for fn, lengths in ((cylinder_B, ([0.01], [0.004])), (ring_B, ([0.01], [0.004], [0.004]))):
+        c1 = fn(q, *lengths, [1.2], [(0, 0, -0.002)])
+        c2 = fn(lam * q, *[lam * np.asarray(x) for x in lengths], [1.2], [(0, 0, -0.002 * lam)])
+        np.testing.assert_allclose(c2, c1, rtol=1e-9, atol=1e-9)
+
+
+def test_rounding_of_inputs_does_not_move_edge_values():
+    # robustness (common practice, no source): a corner or edge point computed with a
+    # rounding error of a few ulp (e.g. centre + size/2 done another way) gets the same value
+    dims = np.array([(0.01, 0.006, 0.004), (0.01, 0.006, 0.004)])
+    pos = np.array([(0.0013, -0.0021, -0.002), (0.0113, -0.0021, -0.002)])
+    pols = np.array([(0.2, 0.1, 1.3), (0.0, 0.5, -1.1)])
+    lo, hi = pos[0] - dims[0] / 2, pos[0] + dims[0] / 2
+    pts = np.array([hi, lo, (hi[0], lo[1], 0.0), (hi[0], 0.0, hi[2]), (0.0, lo[1], lo[2])])
+    jiggle = pts * (1 + 3e-16) + 1e-19
+    np.testing.assert_allclose(cuboid_B(jiggle, dims, pols, pos), cuboid_B(pts, dims, pols, pos), atol=1e-9)
+    rim = np.array([(0.005, 0.0, 0.0), (0.005 * math.cos(0.3), 0.005 * math.sin(0.3), -0.004)])
+    for fn, args in ((cylinder_B, ([0.01], [0.004], [1.2], [(0, 0, -0.002)])),
+                     (ring_B, ([0.01], [0.004], [0.004], [1.2], [(0, 0, -0.002)]))):
+        np.testing.assert_allclose(fn(rim * (1 + 3e-16), *args), fn(rim, *args), atol=1e-9)
 
 
 def test_dipole_finite_at_its_position():

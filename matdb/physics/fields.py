@@ -13,8 +13,11 @@ finite numbers everywhere:
   of B is continuous there anyway; the tangential one takes the inside value); where
   magnets touch, from inside the first one listed (see :class:`MagnetSet`);
 * on an edge or corner, where the exact field of an ideal sharp-edged magnet diverges
-  logarithmically, the singular logarithm is dropped (its coefficient is finite) and a
-  finite regularised value is returned, the way published treatments mask those terms.
+  logarithmically (in components perpendicular to J; the component along J stays
+  bounded), the singular logarithm is evaluated
+  at a rounding length of :data:`EDGE_ROUNDING` (1 %) of the smallest magnet dimension,
+  the way published treatments mask those terms but independent of the length unit:
+  scaling every length by the same factor leaves every value, edges included, unchanged.
 
 Uniformly polarised, axis-aligned cuboids use the surface-charge solution of
 Engel-Herbert and Hesjedal [1]_ (equivalently Yang et al. [2]_): each component is a
@@ -65,6 +68,14 @@ MU0_OVER_4PI = MU0 / _FOUR_PI  # [T m / A]
 # Number of (point x source) pairs evaluated at once. Temporaries of 128 kB stay below
 # the allocator's mmap threshold and in cache; larger chunks are measurably slower.
 _CHUNK_ELEMENTS = 1 << 14
+
+#: On an edge or corner line the logarithmically divergent term is evaluated at this
+#: fraction of the smallest dimension of the magnets (an edge rounding about the size of
+#: a real chamfer), which keeps the value finite and independent of the length unit.
+EDGE_ROUNDING = 0.01
+#: Points closer to an edge line than this fraction of the rounding length count as on it
+#: (1e-9 of the magnet size: far below any meaningful distance, far above rounding).
+EDGE_SNAP = 1e-7
 
 
 # ---------------------------------------------------------------------------
@@ -127,14 +138,16 @@ def _snap(values: np.ndarray, tol: float) -> np.ndarray:
     return flat[first][inverse.ravel()].reshape(values.shape)
 
 
-def _log_term(t: np.ndarray, r: np.ndarray, rho2: np.ndarray) -> np.ndarray:
+def _log_term(t: np.ndarray, r: np.ndarray, rho2: np.ndarray, ell: float) -> np.ndarray:
     """``ln(t + r)`` with ``r = sqrt(t^2 + rho2)``, cancellation-free, finite everywhere.
 
     For ``t < 0`` the identity ``t + r = rho2 / (r - t)`` avoids the cancellation. On the
-    line ``rho2 = 0`` with ``t < 0`` the divergent ``ln(rho2)`` is dropped: it cancels
-    between the two corners at the ends of an edge for points on the edge's extension,
-    and on the edge itself it is the logarithmic edge singularity, masked. At a corner
-    (``r = 0``) the term is 0.
+    line ``rho2 = 0`` (to within ``EDGE_SNAP * ell``, so that rounding of the inputs does
+    not matter) the divergent ``ln(rho2)`` is evaluated at ``rho = ell``, the rounding
+    length: for points on an edge's extension the substitution cancels exactly between
+    the two corners at the ends of the edge, and on the edge itself it replaces the
+    logarithmic edge singularity by its value at ``ell``. At a corner the term is
+    ``ln(ell)``.
     """
     neg = t < 0
     arg = np.abs(t)
@@ -142,11 +155,15 @@ def _log_term(t: np.ndarray, r: np.ndarray, rho2: np.ndarray) -> np.ndarray:
     np.divide(rho2, arg, out=arg, where=neg)
     with np.errstate(divide="ignore"):
         out = np.log(arg)
-    bad = out == -np.inf  # rho2 == 0 with t < 0, or a corner
-    if np.any(bad):
-        tb = np.abs(t[bad])
-        with np.errstate(divide="ignore"):
-            out[bad] = np.where(tb > 0, -np.log(np.where(tb > 0, 2.0 * tb, 1.0)), 0.0)
+    snap = EDGE_SNAP * ell
+    near = rho2 <= snap * snap
+    if np.any(near):
+        tb, rb = t[near], r[near]
+        log_ell = math.log(ell)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            s = np.abs(tb) + rb
+            line = np.where(tb < 0, 2.0 * log_ell - np.log(s), np.log(s))
+        out[near] = np.where(rb <= snap, log_ell, line)
     return out
 
 
@@ -213,6 +230,7 @@ class CuboidSet:
         if m == 0:
             self.corners = np.zeros((0, 3))
             self.coefficients = np.zeros((0, 3))
+            self.edge_length = 1.0
             self.lo = self.hi = np.zeros((0, 3))
             self.polarizations = pols
             return
@@ -239,6 +257,7 @@ class CuboidSet:
         keep = np.any(np.abs(net) > 1e-13 * max(jmax, 1e-300), axis=1)
         self.corners = uniq[keep]
         self.coefficients = net[keep]
+        self.edge_length = EDGE_ROUNDING * float(np.min(hi - lo))  # rounding length [m]
         self.lo = lo
         self.hi = hi
         self.polarizations = pols
@@ -275,15 +294,15 @@ class CuboidSet:
         if nz:
             bz += _atan_term(u, v, w, r) @ cz
         if nx or ny:  # ln(w + r): couples x and y
-            lw = _log_term(w, r, uu + vv)
+            lw = _log_term(w, r, uu + vv, self.edge_length)
             bx -= lw @ cy
             by -= lw @ cx
         if nx or nz:  # ln(v + r): couples x and z
-            lv = _log_term(v, r, uu + ww)
+            lv = _log_term(v, r, uu + ww, self.edge_length)
             bx -= lv @ cz
             bz -= lv @ cx
         if ny or nz:  # ln(u + r): couples y and z
-            lu = _log_term(u, r, vv + ww)
+            lu = _log_term(u, r, vv + ww, self.edge_length)
             by -= lu @ cz
             bz -= lu @ cy
         return np.stack([bx, by, bz], axis=1) / _FOUR_PI
@@ -426,11 +445,12 @@ def cel(kc, p, c, s, *, rtol: float = 1e-8, max_iter: int = 40) -> np.ndarray:
     return out
 
 
-def _cyl_core(p: np.ndarray, radius, half_h, jz, centre) -> np.ndarray:
+def _cyl_core(p: np.ndarray, radius, half_h, jz, centre, ell) -> np.ndarray:
     """B of axially polarised cylinders; p (n,3); per-source arrays (m,).
 
     On the side wall (``rho == a`` exactly) the formula with ``gamma = 0`` gives the mean
-    of the inside and outside values of Bz; on the rim the divergent term is masked.
+    of the inside and outside values of Bz. On the rim (``k = 0``) the divergent term is
+    evaluated at the distance ``ell`` (m,) from the rim, i.e. at ``k = ell / (2 a)``.
     """
     x = p[:, 0:1] - centre[None, :, 0]
     y = p[:, 1:2] - centre[None, :, 1]
@@ -446,13 +466,15 @@ def _cyl_core(p: np.ndarray, radius, half_h, jz, centre) -> np.ndarray:
     dm = np.sqrt(zm * zm + sum2)
     kp = np.sqrt(zp * zp + dif2) / dp
     km = np.sqrt(zm * zm + dif2) / dm
-    gamma = (a - rho) / (a + rho)
-    on_wall = gamma == 0
+    tol = EDGE_SNAP * ell[None, :]
+    on_wall = np.abs(a - rho) <= tol
+    gamma = np.where(on_wall, 0.0, (a - rho) / (a + rho))
     # rim: kc == 0 only where rho == a and z == +-b; the divergent term is masked
-    kp_ok = kp > 0
-    km_ok = km > 0
-    kp_s = np.where(kp_ok, kp, 1.0)
-    km_s = np.where(km_ok, km, 1.0)
+    k_rim = ell[None, :] / (2.0 * a)
+    kp_ok = kp > EDGE_SNAP * k_rim  # off the rim (k is the distance to the rim / 2a)
+    km_ok = km > EDGE_SNAP * k_rim
+    kp_s = np.where(kp_ok, kp, k_rim)
+    km_s = np.where(km_ok, km, k_rim)
     one = np.ones_like(kp_s)
     p1p = cel(kp_s, one, one, -one)
     p1m = cel(km_s, one, one, -one)
@@ -460,9 +482,9 @@ def _cyl_core(p: np.ndarray, radius, half_h, jz, centre) -> np.ndarray:
     gs = np.where(on_wall, 1.0, gamma)  # on the wall cel(kc, 0, 1, 0) = cel(kc, 1, 1, 1)
     p2p = cel(kp_s, g2, one, gs)
     p2m = cel(km_s, g2, one, gs)
-    alp = np.where(kp_ok, a / dp * p1p, 0.0)
-    alm = np.where(km_ok, a / dm * p1m, 0.0)
-    bep = np.where(kp_ok, zp / dp * p2p, 0.0)
+    alp = a / dp * p1p
+    alm = a / dm * p1m
+    bep = np.where(kp_ok, zp / dp * p2p, 0.0)  # z_+ = 0 on the rim: beta K -> 0
     bem = np.where(km_ok, zm / dm * p2m, 0.0)
     j = jz[None, :]
     b_rho = j / math.pi * (alp - alm)
@@ -476,13 +498,13 @@ def _cyl_core(p: np.ndarray, radius, half_h, jz, centre) -> np.ndarray:
     return np.stack([bx, by, bz], axis=1)
 
 
-def _cyl_sum(p: np.ndarray, radii, half_h, jz, positions) -> np.ndarray:
+def _cyl_sum(p: np.ndarray, radii, half_h, jz, positions, ell) -> np.ndarray:
     out = np.zeros_like(p)
     m = radii.shape[0]
     if m == 0 or p.shape[0] == 0:
         return out
     for sl in _chunks(p.shape[0], m):
-        out[sl] = _cyl_core(p[sl], radii, half_h, jz, positions)
+        out[sl] = _cyl_core(p[sl], radii, half_h, jz, positions, ell)
     return out
 
 
@@ -585,10 +607,10 @@ def ring_B(observers, outer_diameters, inner_diameters, heights, polarizations_z
 _KINDS = ("cuboid", "cylinder", "ring")
 
 
-def _interval_weight(d: np.ndarray, half: np.ndarray) -> np.ndarray:
-    """1 strictly inside ``|d| < half``, 1/2 on the end points, 0 outside."""
+def _interval_weight(d: np.ndarray, half: np.ndarray, tol) -> np.ndarray:
+    """1 inside ``|d| < half``, 1/2 within ``tol`` of the end points, 0 outside."""
     ad = np.abs(d)
-    return np.where(ad < half, 1.0, np.where(ad == half, 0.5, 0.0))
+    return np.where(np.abs(ad - half) <= tol, 0.5, np.where(ad < half, 1.0, 0.0))
 
 
 class MagnetSet:
@@ -685,13 +707,29 @@ class MagnetSet:
             lo[ci], hi[ci] = self.cuboids.lo, self.cuboids.hi  # snapped, shared faces identical
         self.lo, self.hi = lo, hi
         self.radius, self.inner, self.half_h = radius, inner, half_h
+        # rim rounding length per cylinder/ring: a fraction of its smallest dimension
+        wall = np.where(inner > 0, radius - inner, 2.0 * radius)
+        self.ell = EDGE_ROUNDING * np.minimum(wall, 2.0 * half_h)
         if m:
             self.glo, self.ghi = lo.min(axis=0), hi.max(axis=0)
             extent = float(max(np.max(np.abs(lo)), np.max(np.abs(hi)), np.max(hi - lo)))
         else:
             self.glo = self.ghi = np.zeros(3)
             extent = 1.0
-        self._eps = 1e-9 * extent  # step across a face to find the neighbour's J
+        # distances below tol (1e-9 of the smallest dimension) count as on a face
+        self.tol = EDGE_SNAP * self.ell
+        if self.cub_idx.size:
+            ci = self.cub_idx
+            self.tol[ci] = EDGE_SNAP * self.cuboids.edge_length
+            # face planes of the cuboids per axis: observers this close are put on them
+            self._planes = [np.unique(np.concatenate([lo[ci, ax], hi[ci, ax]])) for ax in range(3)]
+            self._plane_tol = EDGE_SNAP * self.cuboids.edge_length
+        else:
+            self._planes = None
+        self._eps = 10.0 * float(np.max(self.tol)) if m else 0.0  # step across a face
+        self.glo = self.glo - self._eps  # candidate box, generous by the face tolerance
+        self.ghi = self.ghi + self._eps
+        del extent
         holes = self.cyl_idx[inner[self.cyl_idx] > 0]
         self._holes = holes
 
@@ -713,16 +751,16 @@ class MagnetSet:
             dy = q[:, 1:2] - self.positions[None, k, 1]
             dz = q[:, 2:3] - self.positions[None, k, 2]
             rho = np.hypot(dx, dy)
-            wr = _interval_weight(rho, self.radius[None, k])
+            tol = self.tol[None, k]
+            wr = _interval_weight(rho, self.radius[None, k], tol)
             ri = self.inner[None, k]
-            wr = wr - np.where(ri > 0, _interval_weight(rho, ri), 0.0)
-            wr = np.where((ri > 0) & (rho == ri), 0.5, wr)
-            out[:, k] = wr * _interval_weight(dz, self.half_h[None, k])
+            wr = wr - np.where(ri > 0, _interval_weight(rho, ri, tol), 0.0)
+            out[:, k] = wr * _interval_weight(dz, self.half_h[None, k], tol)
         return out
 
     def owner(self, observers) -> np.ndarray:
         """Index of the first magnet containing each point (faces included), -1 outside."""
-        p = _as_points(observers)
+        p = self._snap_points(_as_points(observers))
         out = np.full(p.shape[0], -1, dtype=int)
         if self.count == 0:
             return out
@@ -735,9 +773,25 @@ class MagnetSet:
         return out
 
     # -- field -------------------------------------------------------------------
+    def _snap_points(self, p: np.ndarray) -> np.ndarray:
+        """Put coordinates within the face tolerance of a cuboid face plane on the plane."""
+        if self._planes is None or p.shape[0] == 0:
+            return p
+        out = p.copy()
+        for ax, planes in enumerate(self._planes):
+            x = out[:, ax]
+            i = np.searchsorted(planes, x)
+            lo_p = planes[np.maximum(i - 1, 0)]
+            hi_p = planes[np.minimum(i, planes.size - 1)]
+            near_lo = np.abs(x - lo_p) <= self._plane_tol
+            near_hi = np.abs(x - hi_p) <= self._plane_tol
+            x[near_hi] = hi_p[near_hi]
+            x[near_lo] = lo_p[near_lo]
+        return out
+
     def B(self, observers) -> np.ndarray:
         """Flux density B [T] at ``observers`` (n, 3) [m], shape (n, 3)."""
-        p = _as_points(observers)
+        p = self._snap_points(_as_points(observers))
         out = np.zeros_like(p)
         if self.count == 0 or p.shape[0] == 0:
             return out
@@ -745,10 +799,11 @@ class MagnetSet:
             out += self.cuboids.mu0_h_mean(p)
         if self.cyl_idx.size:
             k = self.cyl_idx
-            out += _cyl_sum(p, self.radius[k], self.half_h[k], self.J[k, 2], self.positions[k])
+            out += _cyl_sum(p, self.radius[k], self.half_h[k], self.J[k, 2], self.positions[k], self.ell[k])
             hk = self._holes
             if hk.size:
-                out += _cyl_sum(p, self.inner[hk], self.half_h[hk], -self.J[hk, 2], self.positions[hk])
+                out += _cyl_sum(p, self.inner[hk], self.half_h[hk], -self.J[hk, 2], self.positions[hk],
+                                self.ell[hk])
         self._add_inside(p, out)
         return out
 
@@ -800,11 +855,12 @@ class MagnetSet:
             ncyl[:, 2] = er
             ncyl[:, 3] = -er
             vcyl = np.zeros((o.size, 6), dtype=bool)
-            vcyl[:, 0] = np.abs(d[:, 2]) == self.half_h[o]
-            vcyl[:, 0] &= d[:, 2] < 0
-            vcyl[:, 1] = (np.abs(d[:, 2]) == self.half_h[o]) & (d[:, 2] > 0)
-            vcyl[:, 2] = rho == self.radius[o]
-            vcyl[:, 3] = (self.inner[o] > 0) & (rho == self.inner[o])
+            tol = self.tol[o]
+            on_z = np.abs(np.abs(d[:, 2]) - self.half_h[o]) <= tol
+            vcyl[:, 0] = on_z & (d[:, 2] < 0)
+            vcyl[:, 1] = on_z & (d[:, 2] > 0)
+            vcyl[:, 2] = np.abs(rho - self.radius[o]) <= tol
+            vcyl[:, 3] = (self.inner[o] > 0) & (np.abs(rho - self.inner[o]) <= tol)
             normals[cyl] = ncyl
             valid[cyl] = vcyl
         rows, faces = np.nonzero(valid)
