@@ -376,6 +376,24 @@ def cache_dir() -> Path:
     return base / "advisor"
 
 
+_FINGERPRINT: str | None = None
+
+
+def _physics_fingerprint() -> str:
+    """Hash of the field and plate code, so a change there invalidates cached integrals."""
+    global _FINGERPRINT
+    if _FINGERPRINT is None:
+        h = hashlib.sha256(CODE_VERSION.encode())
+        here = Path(__file__).resolve().parent / "physics"
+        for name in ("fields.py", "arrangement.py", "plate.py", "thermal.py"):
+            try:
+                h.update((here / name).read_bytes())
+            except OSError:
+                h.update(name.encode())
+        _FINGERPRINT = h.hexdigest()[:16]
+    return _FINGERPRINT
+
+
 def _hkey(h: float) -> int:
     """Dictionary key of a height: the float's bits (exact reuse only)."""
     return int(np.float64(h).view(np.int64))
@@ -409,7 +427,7 @@ class GeometryData:
         key = {"v": CODE_VERSION, "arr": spec.key(), "plate": [repr(v) for v in self.plate_m],
                "exact_order": EXACT_ORDER, "screen": [SCREEN_ORDER, repr(SCREEN_RULE_FLOOR_M),
                                                       repr(LATERAL_STEP_M)],
-               "plate_version": getattr(P, "__doc__", "")[:0] + "1"}
+               "physics": _physics_fingerprint()}
         self.key = hashlib.sha256(json.dumps(key, sort_keys=True).encode()).hexdigest()[:24]
         self.stores: dict[str, dict[int, tuple]] = {"exact": {}, "coarse": {}, "lateral": {}}
         self.hmax: float | None = None
