@@ -334,6 +334,14 @@ def test_heavier_payload_sits_closer_and_window_narrows(demo_result):
     # beyond the largest payload no stable point exists
     last = demo_result["window"][-1]
     assert last["payload_kg"] == pytest.approx(demo_result["max_payload_kg"])
+    # with the plates fixed at the design's distance the largest payload is where the
+    # narrowing window passes that distance
+    a = demo_result["plate_distance_m"]
+    p_here = demo_result["max_payload_at_plate_distance_kg"]
+    below = [r for r in rows if r["payload_kg"] < p_here]
+    above = [r for r in rows if r["payload_kg"] > p_here]
+    assert below and above
+    assert below[-1]["max_plate_distance_m"] > a > above[0]["max_plate_distance_m"]
 
 
 def test_plates_too_far_or_too_weak_give_no_stable_point(demo):

@@ -844,7 +844,7 @@ class StationModel:
             hi *= 2.0
         return float(brentq(lambda a: k(a) - need, lo, hi, xtol=1e-12, rtol=1e-10))
 
-    def smallest_stable_distance(self) -> Optional[float]:
+    def smallest_stable_distance(self, plate_distance: Optional[float] = None) -> Optional[float]:
         """Smallest lifter distance that still leaves a stable window [m].
 
         The window closes when the plates at their smallest distance can no longer beat
@@ -854,8 +854,9 @@ class StationModel:
         d, f = self._grid()
         i0 = int(np.argmax(f))
         d_peak = float(d[i0])
-        kp = self.k_plates(self.a_min)
-        d_clear = self.a_min + self.t
+        a = self.a_min if plate_distance is None else float(plate_distance)
+        kp = self.k_plates(a)
+        d_clear = a + self.t
         lo = max(d_peak, d_clear)
 
         def margin(x):
@@ -870,9 +871,13 @@ class StationModel:
                 return None
         return float(brentq(margin, lo, hi, xtol=1e-12, rtol=1e-10))
 
-    def max_weight(self) -> Optional[float]:
-        """Largest total weight (floater plus load) with a stable window [N]."""
-        d = self.smallest_stable_distance()
+    def max_weight(self, plate_distance: Optional[float] = None) -> Optional[float]:
+        """Largest total weight (floater plus load) with a stable window [N].
+
+        With ``plate_distance`` the plates stay there; otherwise they may be set anywhere
+        in the window (the smallest distance is then the best).
+        """
+        d = self.smallest_stable_distance(plate_distance)
         return None if d is None else self.force(d)
 
     def tilt(self, distance: float, plate_distance: float) -> dict:
@@ -1237,6 +1242,12 @@ def levitate_stabilized(design, temp_k: Optional[float] = None, n_window: int = 
                     "from the floater's centre (each plate's facing surface)"
                 )
         result = {k: v for k, v in rep.items() if k not in ("warnings", "hessian", "stable")}
+        if st.plates.distance is not None and st.plates.distance >= model.a_min:
+            w_here = model.max_weight(st.plates.distance)
+            p_here = None if w_here is None else w_here / g - st.floater.mass_kg
+            result["max_payload_at_plate_distance_kg"] = None if p_here is None or p_here < 0 else p_here
+        else:
+            result["max_payload_at_plate_distance_kg"] = None
         drift = _drift(st, t, weight) if D is not None else None
         result["lifter_distance_drift_um_per_k"] = None if drift is None else drift * 1e6
         if design.temp_min_k is not None and D is not None:
