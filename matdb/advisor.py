@@ -1155,9 +1155,6 @@ def rank(req: AdviceRequest, arrangements: Sequence[ArrangementSpec] | None = No
     cat = catalogue or build_catalogue(req, arrangements, url)
     df = _evaluate(req, cat)
     df = _sort(df)
-    done: set[int] = set()
-    ids = np.arange(len(df))
-    df["cid"] = ids
     for _ in range(8):  # polish until the first `polish` rows are all exact
         head = df.head(polish)
         todo = [i for i in head.index if not df.at[i, "exact"]]
@@ -1175,7 +1172,6 @@ def rank(req: AdviceRequest, arrangements: Sequence[ArrangementSpec] | None = No
                 g.dirty = True
             for k, v in upd.items():
                 df.at[i, k] = v
-            done.add(int(row["cid"]))
         _refresh_flags(df, todo, req)
         df = _sort(df)
     for s in cat.specs:
@@ -1264,8 +1260,6 @@ def advise(mass, footprint, *, min_gap="0.2 mm", temp_min="20 degC", temp_max="2
                         weights=weights, payload_height=payload_height)
     n_pol = polish if polish is not None else min(3, top or 3)
     df, cat = rank(req, arrangements, polish=n_pol, url=url)
-    if feasible_only:
-        pass
     return finish(df, req, cat, top=top, feasible_only=feasible_only)
 
 

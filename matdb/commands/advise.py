@@ -54,7 +54,8 @@ def register(sub) -> None:
                    help="payload centre of mass above the plate (default 0 mm)")
     p.add_argument("--weights", help="score weights, e.g. 'margin=1,cost=1,derating=1'")
     p.add_argument("--top", type=int, default=None,
-                   help="rows to show (default 10 for the table, every row for json and csv)")
+                   help="rows to show (default 10 for the table, 50 for json and csv; 0 = every "
+                   "candidate, which can be tens of thousands)")
     p.add_argument("--feasible-only", action="store_true", help="omit the rejected candidates")
     p.add_argument("--exact", type=int, default=None,
                    help="rows worked out exactly as 'matdb levitate' does (default 3); the rest "
@@ -84,8 +85,8 @@ def table_rows(df) -> list[dict]:
 
 
 def cmd_advise(args) -> int:
-    if args.top is not None and args.top < 1:
-        raise InputError(f"--top: expected a positive whole number, got {args.top}")
+    if args.top is not None and args.top < 0:
+        raise InputError(f"--top: expected a whole number of zero or more, got {args.top}")
     if args.exact is not None and args.exact < 0:
         raise InputError(f"--exact: expected zero or more, got {args.exact}")
     req = A.parse_request(args.mass, args.footprint, min_gap=args.min_gap, temp_min=args.temp_min,
@@ -94,7 +95,8 @@ def cmd_advise(args) -> int:
                           max_magnet_size=args.max_magnet_size, thickness=args.thickness,
                           plate_size=args.plate_size, weights=args.weights,
                           payload_height=args.payload_height)
-    top = args.top if args.top is not None else (10 if args.format == "table" else None)
+    top = args.top if args.top is not None else (10 if args.format == "table" else 50)
+    top = None if top == 0 else top
     exact = args.exact if args.exact is not None else min(3, top or 3)
     df, cat = A.advise_request(req, top=top, feasible_only=args.feasible_only, polish=exact)
     if args.save:
