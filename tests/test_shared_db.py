@@ -123,7 +123,7 @@ sys.exit(main(['record', 'material', 'bismuth', '--chi', '-1.6' + i + 'e-4', '--
 
 
 def test_concurrent_writers_all_succeed(backend, tmp_path):
-    n = 5
+    n = 4
     go = tmp_path / "go"
     procs = [subprocess.Popen([sys.executable, "-c", _WRITER, str(go), str(i)], env=_env(backend), cwd=REPO,
                               stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
