@@ -270,7 +270,8 @@ def test_scale_invariance_including_edges_and_corners(lam):
     p = _grid_through((-0.01, -0.005, -0.015), (0.01, 0.005, 0.0), n=5)
     b1 = cuboid_B(p, dims, pols, pos)
     b2 = cuboid_B(lam * p, lam * dims, pols, lam * pos)
-    np.testing.assert_allclose(b2, b1, rtol=1e-9, atol=1e-9)
+    # edge values are limits taken numerically 1e-7 of the size inside: rounding-level 1e-8
+    np.testing.assert_allclose(b2, b1, rtol=1e-7, atol=1e-8)
     rho = np.array([0.0, 0.002, 0.005, 0.007])
     z = np.array([-0.004, -0.002, 0.0, 0.002])
     rr, zz = np.meshgrid(rho, z, indexing="ij")
@@ -278,7 +279,7 @@ def test_scale_invariance_including_edges_and_corners(lam):
     for fn, lengths in ((cylinder_B, ([0.01], [0.004])), (ring_B, ([0.01], [0.004], [0.004]))):
         c1 = fn(q, *lengths, [1.2], [(0, 0, -0.002)])
         c2 = fn(lam * q, *[lam * np.asarray(x) for x in lengths], [1.2], [(0, 0, -0.002 * lam)])
-        np.testing.assert_allclose(c2, c1, rtol=1e-9, atol=1e-9)
+        np.testing.assert_allclose(c2, c1, rtol=1e-7, atol=1e-8)
 
 
 def test_rounding_of_inputs_does_not_move_edge_values():
@@ -295,6 +296,22 @@ def test_rounding_of_inputs_does_not_move_edge_values():
     for fn, args in ((cylinder_B, ([0.01], [0.004], [1.2], [(0, 0, -0.002)])),
                      (ring_B, ([0.01], [0.004], [0.004], [1.2], [(0, 0, -0.002)]))):
         np.testing.assert_allclose(fn(rim * (1 + 3e-16), *args), fn(rim, *args), atol=1e-9)
+
+
+def test_cube_corner_value_is_the_diagonal_limit():
+    # on a corner the bounded component is the limit from inside along the bisector. The
+    # local demagnetising tensor has trace 1 inside a body (from memory of D. J. Newell,
+    # W. Williams and D. J. Dunlop, J. Geophys. Res. 98, 9551 (1993)); on a cube's
+    # diagonal the three-fold symmetry makes N_zz = 1/3, so B_z = J - J/3 = 2J/3 at every
+    # corner; magpylib at 1e-6 inside along the diagonal agrees
+    dims, pos, j = (0.01, 0.01, 0.01), (0.001, 0.002, -0.005), 1.3
+    signs = np.array([(sx, sy, sz) for sx in (-1, 1) for sy in (-1, 1) for sz in (-1, 1)], float)
+    corners = np.array(pos) + 0.005 * signs
+    b = cuboid_B(corners, [dims], [(0, 0, j)], [pos])
+    np.testing.assert_allclose(b[:, 2], 2 * j / 3, rtol=1e-7)
+    near = np.array(pos) + 0.005 * (1 - 1e-6) * signs
+    ref = magpy.getB(magpy.magnet.Cuboid(polarization=(0, 0, j), dimension=dims, position=pos), near)
+    np.testing.assert_allclose(b[:, 2], ref[:, 2], rtol=1e-5)
 
 
 def test_dipole_finite_at_its_position():
@@ -436,7 +453,9 @@ def test_superposition_and_linearity(pts, j1, j2, j3, k):
         return
     together = cuboid_B(p, dims, pols, pos)
     alone = sum(cuboid_B(p, dims[i : i + 1], pols[i : i + 1], pos[i : i + 1]) for i in range(3))
-    assert np.max(np.abs(together - alone)) < 1e-12 * (1.0 + float(np.max(np.abs(alone))))
+    # points within 1e-9 of the size of a face plane are put on it (face snapping), which
+    # moves B by at most ~1e-9 of its size; corner-merging mistakes would be of order 1
+    assert np.max(np.abs(together - alone)) < 2e-9 * float(np.max(np.abs(alone))) + 1e-12
     np.testing.assert_allclose(cuboid_B(p, dims, k * pols, pos), k * together, rtol=1e-12, atol=1e-13)
     np.testing.assert_allclose(
         cylinder_B(p, [0.01], [0.004], [k * j1], [(0, 0, 0)]),

@@ -263,16 +263,20 @@ class CuboidSet:
         self.polarizations = pols
 
     # -- field ---------------------------------------------------------------
-    def mu0_h_mean(self, p: np.ndarray) -> np.ndarray:
-        """mu0 H [T] at points ``p`` (n, 3), the mean of the one-sided limits on faces."""
+    def mu0_h_mean(self, p: np.ndarray, atan: bool = True, log: bool = True) -> np.ndarray:
+        """mu0 H [T] at points ``p`` (n, 3), the mean of the one-sided limits on faces.
+
+        ``atan`` / ``log`` select the bounded diagonal part (arctangents) and the
+        off-diagonal part (logarithms, divergent on edge lines) of the corner sum.
+        """
         out = np.zeros_like(p)
         if self.corners.shape[0] == 0 or p.shape[0] == 0:
             return out
         for sl in _chunks(p.shape[0], self.corners.shape[0]):
-            out[sl] = self._mu0_h(p[sl])
+            out[sl] = self._mu0_h(p[sl], atan, log)
         return out
 
-    def _mu0_h(self, p: np.ndarray) -> np.ndarray:
+    def _mu0_h(self, p: np.ndarray, atan: bool = True, log: bool = True) -> np.ndarray:
         c = self.corners
         C = self.coefficients
         u = p[:, 0:1] - c[None, :, 0]
@@ -287,12 +291,14 @@ class CuboidSet:
         bx = np.zeros(p.shape[0])
         by = np.zeros(p.shape[0])
         bz = np.zeros(p.shape[0])
-        if nx:
+        if atan and nx:
             bx += _atan_term(v, w, u, r) @ cx
-        if ny:
+        if atan and ny:
             by += _atan_term(u, w, v, r) @ cy
-        if nz:
+        if atan and nz:
             bz += _atan_term(u, v, w, r) @ cz
+        if not log:
+            return np.stack([bx, by, bz], axis=1) / _FOUR_PI
         if nx or ny:  # ln(w + r): couples x and y
             lw = _log_term(w, r, uu + vv, self.edge_length)
             bx -= lw @ cy
@@ -644,10 +650,11 @@ class MagnetSet:
 
         B = B_{mean} + \\tfrac12 \\left[(J_o - J_n) - ((J_o - J_n)\\cdot n)\\, n\\right]
 
-    summed over the owner's faces through the point (two on an edge, three at a
-    corner, where the field of an ideal sharp edge diverges and a finite regularised
-    value is returned). ``J_n`` is the mean polarisation just across the face (a touching
-    neighbour, an image magnet, or none).
+    on a face of the owner.
+    ``J_n`` is the mean polarisation just across the face (a touching neighbour, an image
+    magnet, or none). On an edge or corner of the owner the bounded part of B is the limit
+    from inside the owner along the bisector of its faces there, and the part that
+    diverges logarithmically on an ideal sharp edge is regularised (:data:`EDGE_ROUNDING`).
 
     References
     ----------
@@ -798,13 +805,17 @@ class MagnetSet:
         if self.cuboids is not None:
             out += self.cuboids.mu0_h_mean(p)
         if self.cyl_idx.size:
-            k = self.cyl_idx
-            out += _cyl_sum(p, self.radius[k], self.half_h[k], self.J[k, 2], self.positions[k], self.ell[k])
-            hk = self._holes
-            if hk.size:
-                out += _cyl_sum(p, self.inner[hk], self.half_h[hk], -self.J[hk, 2], self.positions[hk],
-                                self.ell[hk])
+            out += self._cyl_raw(p)
         self._add_inside(p, out)
+        return out
+
+    def _cyl_raw(self, p: np.ndarray) -> np.ndarray:
+        """Cylinders and rings (Derby-Olbert B, mean of the two sides on the walls)."""
+        k = self.cyl_idx
+        out = _cyl_sum(p, self.radius[k], self.half_h[k], self.J[k, 2], self.positions[k], self.ell[k])
+        hk = self._holes
+        if hk.size:
+            out += _cyl_sum(p, self.inner[hk], self.half_h[hk], -self.J[hk, 2], self.positions[hk], self.ell[hk])
         return out
 
     def _add_inside(self, p: np.ndarray, out: np.ndarray) -> None:
@@ -820,12 +831,45 @@ class MagnetSet:
             any_ = has.any(axis=1)
             own = np.argmax(has, axis=1)
             w_own = w[np.arange(q.shape[0]), own]
-            edge = any_ & (w_own < 1.0)
+            bnd = np.nonzero(any_ & (w_own < 1.0))[0]
+            if bnd.size == 0:
+                continue
+            normals, valid = self._owner_faces(q[bnd], own[bnd])
+            nf = valid.sum(axis=1)
+            face = nf == 1
+            if np.any(face):
+                out[idx[bnd[face]]] += self._face_correction(q[bnd[face]], own[bnd[face]],
+                                                             normals[face], valid[face])
+            edge = nf >= 2
             if np.any(edge):
-                out[idx[edge]] += self._face_correction(q[edge], own[edge])
+                out[idx[bnd[edge]]] = self._edge_value(q[bnd[edge]], own[bnd[edge]], normals[edge], valid[edge])
 
-    def _face_correction(self, q: np.ndarray, own: np.ndarray) -> np.ndarray:
-        """Half the tangential jump of J toward the owner, over the owner's faces at q."""
+    def _edge_value(self, q: np.ndarray, own: np.ndarray, normals: np.ndarray, valid: np.ndarray) -> np.ndarray:
+        """B on an edge or corner of the owner.
+
+        The bounded part (the arctangent terms of cuboids, Bz of cylinders, J) is the limit
+        approached from inside the owner along the bisector of its faces through the point;
+        the part that diverges logarithmically on the edge line (logarithm terms, B_rho of
+        cylinders) is taken at the point itself, regularised (see :data:`EDGE_ROUNDING`).
+        """
+        d_in = -np.sum(normals * valid[:, :, None], axis=1)
+        d_in /= np.linalg.norm(d_in, axis=1)[:, None]
+        # 1e-7 of the owner's smallest dimension: the bounded part is then within ~1e-8 of
+        # its limit (it converges like delta ln delta) and well clear of rounding noise
+        p_in = q + (100.0 * self.tol[own])[:, None] * d_in
+        val = np.zeros_like(q)
+        if self.cuboids is not None:
+            ci = self.cub_idx
+            val += self.cuboids.mu0_h_mean(p_in, log=False)
+            val += self.cuboids.mu0_h_mean(q, atan=False)
+            val += self.weights(p_in)[:, ci] @ self.J[ci]
+        if self.cyl_idx.size:
+            val[:, 2] += self._cyl_raw(p_in)[:, 2]
+            val[:, :2] += self._cyl_raw(q)[:, :2]
+        return val
+
+    def _owner_faces(self, q: np.ndarray, own: np.ndarray):
+        """Outward normals (b, 6, 3) of the owner's faces and which of them pass through q."""
         nb = q.shape[0]
         normals = np.zeros((nb, 6, 3))
         valid = np.zeros((nb, 6), dtype=bool)
@@ -863,6 +907,10 @@ class MagnetSet:
             vcyl[:, 3] = (self.inner[o] > 0) & (np.abs(rho - self.inner[o]) <= tol)
             normals[cyl] = ncyl
             valid[cyl] = vcyl
+        return normals, valid
+
+    def _face_correction(self, q, own, normals, valid) -> np.ndarray:
+        """Half the tangential jump of J toward the owner across the owner's face at q."""
         rows, faces = np.nonzero(valid)
         if rows.size == 0:
             return np.zeros_like(q)
