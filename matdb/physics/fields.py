@@ -9,15 +9,20 @@ functions can be sampled inside magnets (the demagnetisation check does). They r
 finite numbers everywhere:
 
 * strictly inside or outside a magnet the closed forms are exact;
-* on a face the value is the limit from the inside of the magnet (the normal component
-  of B is continuous there anyway; the tangential one takes the inside value); where
-  magnets touch, from inside the first one listed (see :class:`MagnetSet`);
-* on an edge or corner, where the exact field of an ideal sharp-edged magnet diverges
-  logarithmically (in components perpendicular to J; the component along J stays
-  bounded), the singular logarithm is evaluated
-  at a rounding length of :data:`EDGE_ROUNDING` (1 %) of the smallest magnet dimension,
-  the way published treatments mask those terms but independent of the length unit:
-  scaling every length by the same factor leaves every value, edges included, unchanged.
+* on a face the value is the limit from inside the magnet (the normal component of B is
+  continuous there anyway; the tangential one takes the inside value); where magnets
+  touch, from inside the first one listed (see :class:`MagnetSet`);
+* on an edge or corner the part of B that stays bounded (for a cuboid the arctangent
+  terms, which carry the component along each polarisation component; Bz of a
+  cylinder) is the limit from inside the magnet along the bisector of its faces there;
+  the part that diverges logarithmically on an ideal sharp edge (the logarithm terms;
+  B_rho of a cylinder on its rim) is evaluated at a rounding length of
+  :data:`EDGE_ROUNDING` (1 %) of the magnet's smallest dimension instead, the way
+  published treatments mask those terms but independent of the length unit;
+* points closer than 1e-9 of the magnet size to a face, edge or corner count as on it,
+  so rounding of the inputs does not change the result.
+
+Scaling every length by one factor leaves every value unchanged, edges included.
 
 Uniformly polarised, axis-aligned cuboids use the surface-charge solution of
 Engel-Herbert and Hesjedal [1]_ (equivalently Yang et al. [2]_): each component is a
