@@ -111,9 +111,13 @@ def emit(data: Any, fmt: str, columns: Sequence[str] | None = None,
         df = pd.DataFrame(rows)
         if columns:
             df = df[[c for c in columns if c in df.columns]]
+        from .labvalues import escape_cell
+
         for c in df.columns:
             if df[c].map(lambda v: isinstance(v, (list, dict))).any():
                 df[c] = df[c].map(lambda v: json.dumps(v, default=_json_default) if isinstance(v, (list, dict)) else v)
+            # text cells that a spreadsheet would run as a formula are escaped; numbers never are
+            df[c] = df[c].map(lambda v: escape_cell(v) if isinstance(v, str) else v)
         stream.write(df.to_csv(index=False, float_format="%.10g"))
         return
     if isinstance(data, dict):

@@ -141,3 +141,15 @@ def test_real_entry_point_subprocess():
                         "--format", "json"], capture_output=True, text=True, timeout=120)
     assert r.returncode == 0, r.stderr
     assert json.loads(r.stdout)["chi_si"] < 0
+
+
+def test_csv_output_neutralises_formulas_but_not_numbers(fresh_db, run_cli):
+    # OWASP "CSV injection" guidance: text cells starting with = + - @ are escaped.
+    code, _, err = run_cli("record", "material", "bismuth", "--chi", "-1.6e-4",
+                           "--source", "=HYPERLINK(\"http://x\",\"y\")", "--date", "2026-01-05")
+    assert code == 0, err
+    code, out, _ = run_cli("materials", "--format", "csv")
+    df = pd.read_csv(io.StringIO(out))
+    row = df[df["id"] == "bismuth"].iloc[0]
+    assert row["source"].startswith("'=HYPERLINK")
+    assert row["chi_si"] == pytest.approx(-1.6e-4)  # negative number stays a number
