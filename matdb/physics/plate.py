@@ -649,7 +649,7 @@ DOF = ("x", "y", "z", "roll", "pitch", "yaw")
 
 def stiffness_split(field: FieldFn, plate: PlateGeometry, gap: float, pivot,
                     order: int = DEFAULT_ORDER, step_m: float | None = None,
-                    step_rad: float = 1e-3, dofs: Sequence[int] = (0, 1, 2, 3, 4, 5)
+                    step_rad: float = 2e-4, dofs: Sequence[int] = (0, 1, 2, 3, 4, 5)
                     ) -> np.ndarray:
     """Stiffness matrices ``K = -dQ/dq`` about ``pivot``, split by chi component.
 
@@ -670,7 +670,7 @@ def stiffness_split(field: FieldFn, plate: PlateGeometry, gap: float, pivot,
        stable when the stiffness matrix is positive definite).
     """
     dofs = [int(d) for d in dofs]
-    hs = step_m if step_m is not None else max(2e-6, 2e-3 * min(plate.lx, plate.ly, 10 * gap))
+    hs = step_m if step_m is not None else max(1e-7, 5e-4 * min(plate.lx, plate.ly, 10 * gap))
     steps = np.array([hs] * 3 + [step_rad] * 3)[dofs]
     poses = np.zeros((2 * len(dofs), 6))
     for j, d in enumerate(dofs):
