@@ -265,7 +265,8 @@ class Arrangement:
 
         Returns shape (n, 3) [T] (n = 1 for a single point). Inside a magnet B includes
         its polarisation; on faces the inside limit, finite on edges (see
-        :mod:`matdb.physics.fields`).
+        :mod:`matdb.physics.fields`). With a back plate, values below the plate surface
+        (inside the steel) include the images and have no physical meaning.
         """
         p = _as_points(points, "points")
         return self._fields().B(p)
