@@ -42,7 +42,7 @@ def run() -> dict:
         A.clear_memory_cache()
         t_disk, _ = _timed(lambda: A.rank(req, polish=0, catalogue=cat))
         t_fin, _ = _timed(lambda: A.finish(df, req, cat, top=20))
-        n_exact = 3
+        n_exact = 1
         t_exact, _ = _timed(lambda: A.rank(req, polish=n_exact, catalogue=cat))
         t_exact_warm, _ = _timed(lambda: A.rank(req, polish=n_exact, catalogue=cat))
         return {

@@ -58,8 +58,8 @@ def register(sub) -> None:
                    "candidate, which can be tens of thousands)")
     p.add_argument("--feasible-only", action="store_true", help="omit the rejected candidates")
     p.add_argument("--exact", type=int, default=None,
-                   help="rows worked out exactly as 'matdb levitate' does (default 3); the rest "
-                   "are screening values")
+                   help="rows worked out exactly as 'matdb levitate' does (default 1: the top one, "
+                   "a few seconds each when not cached); the rest are screening values")
     p.add_argument("--save", metavar="DESIGN.toml", help="write the top candidate as a design file")
     add_format_argument(p)
     p.set_defaults(func=cmd_advise)
@@ -97,7 +97,7 @@ def cmd_advise(args) -> int:
                           payload_height=args.payload_height)
     top = args.top if args.top is not None else (10 if args.format == "table" else 50)
     top = None if top == 0 else top
-    exact = args.exact if args.exact is not None else min(3, top or 3)
+    exact = args.exact if args.exact is not None else 1
     df, cat = A.advise_request(req, top=top, feasible_only=args.feasible_only, polish=exact)
     if args.save:
         if df.empty:
