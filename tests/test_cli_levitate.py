@@ -239,3 +239,39 @@ def test_floating_magnet_designs_dispatch(monkeypatch):
     fake.levitate_stabilized = lambda design, temp_k=None: {"mode": "stabilized", "t": temp_k}
     monkeypatch.setitem(sys.modules, "matdb.physics.stabilized", fake)
     assert levitate(object(), temp_k=300.0) == {"mode": "stabilized", "t": 300.0}
+
+
+def test_cover_sheet_moves_the_curve_and_the_clearance():
+    # glossary (DEVELOPERS.md): gap from the magnets' top faces, clearance from the cover
+    r = levitate(load_design(Path(__file__).parent.parent / "examples" / "plate_disc_4x4.toml"))
+    assert r["lift_curve"][0]["gap_m"] == pytest.approx(0.5e-3 + 5e-5)
+    assert r["clearance_m"] == pytest.approx(r["gap_m"] - 0.5e-3)
+
+
+def test_back_plate_equals_a_magnet_of_twice_the_height(tmp_path):
+    # method of images (Jackson, Classical Electrodynamics, 3rd ed., sec. 5.9): on an
+    # ideal steel plate a magnet acts as one of twice its height, so the lift is the same
+    text = ('[magnets]\nsize = ["12.7 mm", "12.7 mm", "{h}"]\ngrade = "N42"\n'
+            'pattern = "checkerboard"\nrows = 2\ncols = 2\nback_plate = {bp}\n'
+            '[plate]\nmaterial = "pyrolytic-graphite"\nsize = ["10 mm", "10 mm", "1 mm"]\n')
+    forces = []
+    for h, bp in (("3 mm", "true"), ("6 mm", "false")):
+        f = tmp_path / f"d{bp}.toml"
+        f.write_text(text.format(h=h, bp=bp))
+        d = load_design(f)
+        arr = d.arrangement()
+        forces.append(P.lift_force(arr.B, plate_geometry(d, arr), [3e-4, 1e-3], 4.5e-4, 8.5e-5))
+    np.testing.assert_allclose(forces[0], forces[1], rtol=1e-9)
+
+
+def test_demag_check_covers_coldest_and_hottest(tmp_path):
+    # issue 3: the knee is checked at the hottest and the coldest temperature (hard
+    # ferrite loses coercivity when cold)
+    f = tmp_path / "ferrite.toml"
+    f.write_text('[magnets]\nsize = ["20 mm", "20 mm", "5 mm"]\ngrade = "Ferrite-C8"\n'
+                 'pattern = "checkerboard"\nrows = 2\ncols = 2\n'
+                 '[plate]\nmaterial = "pyrolytic-graphite"\nsize = ["5 mm", "5 mm", "0.5 mm"]\n'
+                 '[conditions]\ntemp_min = "-40 degC"\ntemp_max = "60 degC"\n')
+    r = levitate(load_design(f))
+    assert r["demag_temperatures_k"] == pytest.approx([233.15, 333.15])
+    assert isinstance(r["demag_risk"], bool) and r["demag_message"]

@@ -316,3 +316,18 @@ def test_bad_geometry_is_an_input_error():
         P.PlateGeometry("rectangle", 0.01, 0.01, -1e-3)
     with pytest.raises(InputError, match="plate.shape"):
         P.PlateGeometry("triangle", 0.01, 0.01, 1e-3)
+
+
+@pytest.mark.parametrize("dof,step", [(0, 3e-5), (4, 2e-3)])
+def test_stiffness_equals_energy_curvature(checker, dof, step):
+    # small oscillations (Goldstein ch. 6): K = d^2 U / dq^2 of the volume energy,
+    # independent of the surface-integral route used by stiffness_split
+    plate = _geom(checker, 0.010)
+    gap, pivot = 7e-4, (0.0, 0.0, 1.5e-3)
+    poses = np.zeros((3, 6))
+    poses[0, dof], poses[2, dof] = step, -step
+    u = P.combine(P.stored_energy_split(checker.B, plate, gap, pivot, poses, order=12).T, *PG.values())
+    k_energy = (u[0] - 2 * u[1] + u[2]) / step ** 2
+    k = P.combine(P.stiffness_split(checker.B, plate, gap, pivot, order=12, dofs=(dof,)),
+                  *PG.values())[0, 0]
+    assert k == pytest.approx(k_energy, rel=3e-3)
