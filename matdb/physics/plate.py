@@ -182,6 +182,12 @@ def edge_lines(magnets) -> tuple[tuple[float, ...], tuple[float, ...]]:
     -------
     xs, ys : tuple of float
         Sorted, de-duplicated [m].
+
+    References
+    ----------
+    .. [1] P. J. Davis and P. Rabinowitz, Methods of Numerical Integration, 2nd ed.,
+       Academic Press (1984), ch. 2 (Gauss-Legendre and compound rules, subdivision
+       towards singular points).
     """
     xs: list[float] = []
     ys: list[float] = []
@@ -238,6 +244,12 @@ def graded_breaks(lo: float, hi: float, singular: Sequence[float], scale: float,
     -------
     ndarray
         Sorted boundaries including ``lo`` and ``hi``.
+
+    References
+    ----------
+    .. [1] P. J. Davis and P. Rabinowitz, Methods of Numerical Integration, 2nd ed.,
+       Academic Press (1984), ch. 2 (Gauss-Legendre and compound rules, subdivision
+       towards singular points).
     """
     length = hi - lo
     if not (length > 0):
@@ -269,7 +281,14 @@ def graded_breaks(lo: float, hi: float, singular: Sequence[float], scale: float,
 
 
 def gauss_panels(breaks: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray]:
-    """Composite Gauss-Legendre nodes and weights, ``n`` per panel between ``breaks``."""
+    """Composite Gauss-Legendre nodes and weights, ``n`` per panel between ``breaks``.
+
+    References
+    ----------
+    .. [1] P. J. Davis and P. Rabinowitz, Methods of Numerical Integration, 2nd ed.,
+       Academic Press (1984), ch. 2 (Gauss-Legendre and compound rules, subdivision
+       towards singular points).
+    """
     xi, wi = _gl(n)
     a, b = breaks[:-1, None], breaks[1:, None]
     half = 0.5 * (b - a)
@@ -285,6 +304,12 @@ def footprint_rule(plate: PlateGeometry, scale: float, order: int = DEFAULT_ORDE
     -------
     x, y, w : ndarray
         Node coordinates [m] and area weights [m^2]; ``sum(w)`` is the area.
+
+    References
+    ----------
+    .. [1] P. J. Davis and P. Rabinowitz, Methods of Numerical Integration, 2nd ed.,
+       Academic Press (1984), ch. 2 (Gauss-Legendre and compound rules, subdivision
+       towards singular points).
     """
     if plate.shape == "rectangle":
         xb = graded_breaks(plate.cx - plate.lx / 2, plate.cx + plate.lx / 2, plate.breaks_x, scale)
@@ -308,7 +333,14 @@ def footprint_rule(plate: PlateGeometry, scale: float, order: int = DEFAULT_ORDE
 
 
 def _z_rule(z_lo: float, z_hi: float, order: int) -> tuple[np.ndarray, np.ndarray]:
-    """Nodes through the thickness, graded towards the magnets' top faces at z = 0."""
+    """Nodes through the thickness, graded towards the magnets' top faces at z = 0.
+
+    References
+    ----------
+    .. [1] P. J. Davis and P. Rabinowitz, Methods of Numerical Integration, 2nd ed.,
+       Academic Press (1984), ch. 2 (Gauss-Legendre and compound rules, subdivision
+       towards singular points).
+    """
     zb = graded_breaks(z_lo, z_hi, [0.0], max(z_lo, 1e-9))
     return gauss_panels(zb, order)
 
@@ -322,6 +354,12 @@ def side_rule(plate: PlateGeometry, z_lo: float, z_hi: float, order: int = DEFAU
     points : (m, 3) ndarray [m]
     normals : (m, 3) ndarray, outward unit normals
     w : (m,) ndarray, area weights [m^2]
+
+    References
+    ----------
+    .. [1] P. J. Davis and P. Rabinowitz, Methods of Numerical Integration, 2nd ed.,
+       Academic Press (1984), ch. 2 (Gauss-Legendre and compound rules, subdivision
+       towards singular points).
     """
     z, wz = _z_rule(z_lo, z_hi, order)
     scale = max(z_lo, 1e-9)
@@ -371,6 +409,12 @@ def surface_rule(plate: PlateGeometry, gap: float, order: int = DEFAULT_ORDER
     """Closed-surface quadrature of the level plate with its bottom at ``gap``.
 
     Returns points (m, 3) [m], outward normals (m, 3) and weights (m,) [m^2].
+
+    References
+    ----------
+    .. [1] P. J. Davis and P. Rabinowitz, Methods of Numerical Integration, 2nd ed.,
+       Academic Press (1984), ch. 2 (Gauss-Legendre and compound rules, subdivision
+       towards singular points).
     """
     t = plate.thickness
     xb, yb, wb = footprint_rule(plate, gap, order)
@@ -385,7 +429,14 @@ def surface_rule(plate: PlateGeometry, gap: float, order: int = DEFAULT_ORDER
 
 def volume_rule(plate: PlateGeometry, gap: float, order: int = DEFAULT_ORDER
                 ) -> tuple[np.ndarray, np.ndarray]:
-    """Volume quadrature of the level plate: points (m, 3) [m], weights (m,) [m^3]."""
+    """Volume quadrature of the level plate: points (m, 3) [m], weights (m,) [m^3].
+
+    References
+    ----------
+    .. [1] P. J. Davis and P. Rabinowitz, Methods of Numerical Integration, 2nd ed.,
+       Academic Press (1984), ch. 2 (Gauss-Legendre and compound rules, subdivision
+       towards singular points).
+    """
     x, y, w = footprint_rule(plate, gap, order)
     z, wz = _z_rule(gap, gap + plate.thickness, max(4, order // 2 + 1))
     pts = np.column_stack([np.repeat(x, z.size), np.repeat(y, z.size), np.tile(z, x.size)])
@@ -683,7 +734,13 @@ def stiffness_split(field: FieldFn, plate: PlateGeometry, gap: float, pivot,
 
 
 def combine(split: np.ndarray, chi_perp_abs: float, chi_par_abs: float) -> np.ndarray:
-    """``|chi_perp| split[0] + |chi_par| split[1]``."""
+    """``|chi_perp| split[0] + |chi_par| split[1]``.
+
+    References
+    ----------
+    .. [1] J. D. Jackson, Classical Electrodynamics, 3rd ed. (1999), sec. 5.16: the energy
+       of a weakly magnetisable body is linear in its susceptibility tensor.
+    """
     return chi_perp_abs * split[0] + chi_par_abs * split[1]
 
 
@@ -695,6 +752,11 @@ def combined_com_height(plate: PlateGeometry, gap: float, plate_mass: float,
     """Height of the centre of mass of plate plus payload [m].
 
     The payload's centre of mass sits ``payload_height`` above the plate's top face.
+
+    References
+    ----------
+    .. [1] H. Goldstein, C. Poole and J. Safko, Classical Mechanics, 3rd ed., Addison-Wesley
+       (2002), sec. 5.1 (centre of mass) and ch. 6 (small oscillations).
     """
     zp = gap + plate.thickness / 2
     zl = gap + plate.thickness + payload_height
@@ -778,6 +840,13 @@ def highest_stable_root(gaps: np.ndarray, forces: np.ndarray, weight: float,
     -------
     float or None
         The equilibrium gap [m], or None when the curve never falls through ``W``.
+
+    References
+    ----------
+    .. [1] R. P. Brent, Algorithms for Minimization without Derivatives, Prentice-Hall
+       (1973) (the root finder behind scipy.optimize.brentq and the bounded minimiser).
+    .. [2] M. D. Simon and A. K. Geim, J. Appl. Phys. 87, 6200 (2000) (stable float: the
+       lift falls with height at the equilibrium).
     """
     above = forces >= weight
     idx = np.nonzero(above[:-1] & ~above[1:])[0]
@@ -802,6 +871,13 @@ def max_lift_above(gaps: np.ndarray, forces: np.ndarray, g_req: float,
     Returns
     -------
     (force [N], gap where it is reached [m])
+
+    References
+    ----------
+    .. [1] R. P. Brent, Algorithms for Minimization without Derivatives, Prentice-Hall
+       (1973) (the root finder behind scipy.optimize.brentq and the bounded minimiser).
+    .. [2] M. D. Simon and A. K. Geim, J. Appl. Phys. 87, 6200 (2000) (stable float: the
+       lift falls with height at the equilibrium).
     """
     f_req = float(force_at(g_req))
     sel = gaps > g_req
@@ -848,7 +924,15 @@ def _force_fn(field, plate, chi_perp_abs, chi_par_abs, order):
 def lift_curve_range(field: FieldFn, plate: PlateGeometry, chi_perp_abs: float,
                      chi_par_abs: float, weight: float, g_start: float, g_end: float = 3e-3,
                      order: int = DEFAULT_ORDER, g_cap: float = 0.2) -> float:
-    """Upper end of the lift curve: ``g_end``, or doubled until ``F < W`` (at most ``g_cap``)."""
+    """Upper end of the lift curve: ``g_end``, or doubled until ``F < W`` (at most ``g_cap``).
+
+    References
+    ----------
+    .. [1] R. P. Brent, Algorithms for Minimization without Derivatives, Prentice-Hall
+       (1973) (the root finder behind scipy.optimize.brentq and the bounded minimiser).
+    .. [2] M. D. Simon and A. K. Geim, J. Appl. Phys. 87, 6200 (2000) (stable float: the
+       lift falls with height at the equilibrium).
+    """
     f = _force_fn(field, plate, chi_perp_abs, chi_par_abs, order)
     g = max(g_end, g_start + 1e-3)
     while f(g) >= weight and g < g_cap:
@@ -959,7 +1043,15 @@ def is_stable_floating(field: FieldFn, plate: PlateGeometry, chi_perp_abs: float
                        chi_par_abs: float, density: float, payload_kg: float = 0.0,
                        payload_height: float = 0.0, g_start: float = MIN_GAP,
                        order: int = 4) -> bool:
-    """True when the plate floats and is laterally stable (a cheaper rule, for scans)."""
+    """True when the plate floats and is laterally stable (a cheaper rule, for scans).
+
+    References
+    ----------
+    .. [1] R. P. Brent, Algorithms for Minimization without Derivatives, Prentice-Hall
+       (1973) (the root finder behind scipy.optimize.brentq and the bounded minimiser).
+    .. [2] M. D. Simon and A. K. Geim, J. Appl. Phys. 87, 6200 (2000) (stable float: the
+       lift falls with height at the equilibrium).
+    """
     mass = density * plate.volume
     weight = (mass + payload_kg) * G_STANDARD
     gap = equilibrium_gap(field, plate, chi_perp_abs, chi_par_abs, weight, g_start, order,
