@@ -81,8 +81,8 @@ References
    magnets", J. Appl. Phys. 87, 6200-6204 (2000).
 .. [3] W. Braunbek, "Freischwebende Koerper im elektrischen und magnetischen Feld",
    Z. Phys. 112, 753-763 (1939).
-.. [4] J. D. Jackson, Classical Electrodynamics, 3rd ed., Wiley (1999), sec. 5.16 and
-   problem 5.21 (energy and force of a linear magnetisable body in an applied field).
+.. [4] J. D. Jackson, Classical Electrodynamics, 3rd ed., Wiley (1999), sec. 5.16 (energy
+   of a linear magnetisable body in an applied field; section number from memory).
 """
 
 from __future__ import annotations
