@@ -275,3 +275,13 @@ def test_demag_check_covers_coldest_and_hottest(tmp_path):
     r = levitate(load_design(f))
     assert r["demag_temperatures_k"] == pytest.approx([233.15, 333.15])
     assert isinstance(r["demag_risk"], bool) and r["demag_message"]
+
+
+def test_levitate_floating_magnet_design_through_the_cli(run_cli):
+    # the same command serves floating-magnet designs (their own module does the physics)
+    path = Path(__file__).parent.parent / "examples" / "floating_magnet.toml"
+    if not path.exists():
+        pytest.skip("no floating-magnet example in this tree")
+    code, out, err = run_cli("levitate", str(path), "--format", "json")
+    assert code == 0, err
+    assert json.loads(out)["mode"] != "plate"

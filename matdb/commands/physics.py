@@ -123,6 +123,12 @@ def format_levitate(r: dict) -> str:
 
         return format_table(r)
     if r.get("mode") != "plate":
+        try:  # the floating-magnet mode brings its own table
+            from ..physics.stabilized import format_table
+
+            return format_table(r)
+        except ImportError:  # pragma: no cover
+            pass
         lines = [f"{k}: {v}" for k, v in r.items() if not isinstance(v, (list, dict))]
         lines += [f"warning: {w}" for w in r.get("warnings", [])]
         return "\n".join(lines)
