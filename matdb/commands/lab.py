@@ -158,8 +158,7 @@ def cmd_prefer(args) -> int:
 
 def cmd_history(args) -> int:
     rows = labvalues.history(args.id)
-    if args.format == "csv":  # spreadsheet-safe: text cells that could run as formulas are escaped
-        rows = [{k: labvalues.escape_cell(v) if isinstance(v, str) else v for k, v in r.items()} for r in rows]
+    # CSV output is spreadsheet-safe already: emit() escapes formula-like text cells
     if args.format != "table":
         emit(rows, args.format)
         return 0
