@@ -65,7 +65,7 @@ STANDARD_CUBES_M = (6.35e-3, 10e-3, 12.7e-3, 19.05e-3, 25.4e-3)
 STANDARD_CYLINDERS_M = ((10e-3, 5e-3), (12.7e-3, 6.35e-3), (20e-3, 10e-3))
 DEFAULT_THICKNESSES_M = (0.5e-3, 1e-3, 2e-3)
 DEFAULT_PATTERNS = ("checkerboard", "stripes")
-MAX_MAGNETS = 400  # default arrangements with more magnets are skipped
+MAX_MAGNETS = 100  # default arrangements with more magnets are skipped (cost grows with count)
 
 #: screening height grid [m]: 0.05 to 0.2 mm, then 0.25 mm steps to 6 mm
 SCREEN_HEIGHTS_M = np.concatenate([[5e-5, 1e-4, 1.5e-4, 2e-4], np.arange(1, 25) * 2.5e-4])
@@ -1167,10 +1167,20 @@ def build_catalogue(req: AdviceRequest, arrangements: Sequence[ArrangementSpec] 
     return _Catalogue(mats, grades, specs, tuple(req.thicknesses_m))
 
 
+def _failures(df: pd.DataFrame) -> np.ndarray:
+    """How many of the feasibility criteria a candidate misses (0 when feasible)."""
+    return (np.asarray(~df["diamagnetic"], dtype=int) + np.asarray(~(df["margin"] >= 1.0), dtype=int)
+            + np.asarray(~df["laterally_stable"].astype(bool), dtype=int)
+            + np.asarray(df["demag_risk"], dtype=int) + np.asarray(df["too_hot"], dtype=int)
+            + np.asarray(df["over_budget"], dtype=int))
+
+
 def _sort(df: pd.DataFrame) -> pd.DataFrame:
+    """Feasible first by score; then the rejected ones, fewest failed criteria first."""
     key_s = df["score"].fillna(-np.inf)
     key_m = df["margin"].fillna(-np.inf)
-    order = np.lexsort((-key_m.to_numpy(), -key_s.to_numpy(), ~df["feasible"].to_numpy()))
+    order = np.lexsort((-key_m.to_numpy(), -key_s.to_numpy(), _failures(df),
+                        ~df["feasible"].to_numpy()))
     return df.iloc[order].reset_index(drop=True)
 
 
