@@ -43,11 +43,11 @@ def register(sub) -> None:
     p.add_argument("--temp-min", default="20 degC", help="coldest operating temperature (default 20 degC)")
     p.add_argument("--temp-max", default="20 degC", help="hottest operating temperature (default 20 degC)")
     p.add_argument("--budget", help="most the magnets plus plate may cost, e.g. '20 USD'")
-    p.add_argument("--material", action="append", help="only this plate material id (repeatable)")
-    p.add_argument("--family", action="append", help="only this magnet family, e.g. NdFeB (repeatable)")
-    p.add_argument("--grade", action="append", help="only this magnet grade, e.g. N42 (repeatable)")
+    p.add_argument("--material", action="extend", nargs="+", help="only these plate material ids (several, or repeat the option)")
+    p.add_argument("--family", action="extend", nargs="+", help="only these magnet families, e.g. NdFeB SmCo")
+    p.add_argument("--grade", action="extend", nargs="+", help="only these magnet grades, e.g. N42 N42SH")
     p.add_argument("--max-magnet-size", help="largest magnet dimension allowed, e.g. '13 mm'")
-    p.add_argument("--thickness", action="append",
+    p.add_argument("--thickness", action="extend", nargs="+",
                    help="plate thickness to consider (repeatable; default 0.5, 1 and 2 mm)")
     p.add_argument("--plate-size", help="fix the plate outline instead of the footprint, e.g. '20 mm x 20 mm'")
     p.add_argument("--payload-height", default="0 mm",
