@@ -87,8 +87,10 @@ References
 
 from __future__ import annotations
 
+import bisect
 import math
 from dataclasses import dataclass, field as dc_field, replace
+from functools import lru_cache
 from typing import Callable, Sequence
 
 import numpy as np
@@ -251,33 +253,52 @@ def graded_breaks(lo: float, hi: float, singular: Sequence[float], scale: float,
        Academic Press (1984), ch. 2 (Gauss-Legendre and compound rules, subdivision
        towards singular points).
     """
+    return np.asarray(_graded_breaks(float(lo), float(hi), tuple(float(v) for v in singular),
+                                     float(scale), float(ratio)))
+
+
+@lru_cache(maxsize=4096)
+def _graded_breaks(lo: float, hi: float, singular: tuple[float, ...], scale: float,
+                   ratio: float) -> tuple[float, ...]:
     length = hi - lo
     if not (length > 0):
-        return np.array([lo, hi], dtype=float)
-    sing = np.asarray([s for s in singular if max(lo - s, s - hi, 0.0) <= 0.5 * length], float)
-    if scale <= 0 or sing.size == 0:
-        return np.array([lo, hi], dtype=float)
+        return (lo, hi)
+    sing = sorted(x for x in singular if max(lo - x, x - hi, 0.0) <= 0.5 * length)
+    if scale <= 0 or not sing:
+        return (lo, hi)
     levels = int(math.ceil(math.log(max(2.0 * length / scale, 1.0)) / math.log(ratio))) + 1
-    steps = scale * ratio ** np.arange(levels)
-    cand = np.concatenate([sing, (sing[:, None] - steps).ravel(), (sing[:, None] + steps).ravel()])
-    inner = np.unique(cand[(cand > lo) & (cand < hi)])
-    hard = set(float(s) for s in sing if lo < s < hi)
+    steps = [scale * ratio ** k for k in range(levels)]
+    cand = set()
+    for x in sing:
+        if lo < x < hi:
+            cand.add(x)
+        for d in steps:
+            for c in (x - d, x + d):
+                if lo < c < hi:
+                    cand.add(c)
+    inner = sorted(cand)
+    hard = {x for x in sing if lo < x < hi}
     allowed = ratio - 1.0
 
-    def width_ok(a: float, b: float) -> bool:
-        # distance from the panel [a, b] to the nearest singular point, at least scale
-        d = np.where(sing < a, a - sing, np.where(sing > b, sing - b, 0.0))
-        return (b - a) <= allowed * max(float(d.min()), scale)
+    def dist(a: float, b: float) -> float:
+        # distance from the panel [a, b] to the nearest singular point
+        k = bisect.bisect_left(sing, a)
+        if k < len(sing) and sing[k] <= b:
+            return 0.0
+        left = a - sing[k - 1] if k > 0 else math.inf
+        right = sing[k] - b if k < len(sing) else math.inf
+        return min(left, right)
 
     out = [lo]
-    pts = list(inner) + [hi]
+    pts = inner + [hi]
+    tiny = 1e-9 * length
     for i, p in enumerate(pts[:-1]):
         nxt = pts[i + 1]
-        if float(p) in hard or not width_ok(out[-1], nxt):
-            if p - out[-1] > 1e-9 * length:
-                out.append(float(p))
+        if p in hard or (nxt - out[-1]) > allowed * max(dist(out[-1], nxt), scale):
+            if p - out[-1] > tiny:
+                out.append(p)
     out.append(hi)
-    return np.asarray(out, dtype=float)
+    return tuple(out)
 
 
 def gauss_panels(breaks: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray]:
