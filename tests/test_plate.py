@@ -331,3 +331,18 @@ def test_stiffness_equals_energy_curvature(checker, dof, step):
     k = P.combine(P.stiffness_split(checker.B, plate, gap, pivot, order=12, dofs=(dof,)),
                   *PG.values())[0, 0]
     assert k == pytest.approx(k_energy, rel=3e-3)
+
+
+@pytest.mark.parametrize("shape", ["rectangle", "disc"])
+def test_closed_surface_rule_geometry(checker, shape):
+    # geometry: side area = perimeter x thickness; for a closed surface the integral of
+    # n dS vanishes and that of r x n dS too (Gauss theorem applied to constant fields)
+    plate = _geom(checker, 0.012, t=1e-3, shape=shape, cx=1e-3)
+    ps, ns, ws = P.side_rule(plate, 4e-4, 1.4e-3)
+    perimeter = math.pi * 0.012 if shape == "disc" else 4 * 0.012
+    assert ws.sum() == pytest.approx(perimeter * 1e-3, rel=1e-12)
+    pts, nrm, w = P.surface_rule(plate, 4e-4)
+    np.testing.assert_allclose(nrm.T @ w, 0.0, atol=1e-15)
+    np.testing.assert_allclose(np.cross(pts, nrm).T @ w, 0.0, atol=1e-17)
+    vp, vw = P.volume_rule(plate, 4e-4)
+    assert vw.sum() == pytest.approx(plate.volume, rel=1e-12)
