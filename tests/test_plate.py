@@ -346,3 +346,30 @@ def test_closed_surface_rule_geometry(checker, shape):
     np.testing.assert_allclose(np.cross(pts, nrm).T @ w, 0.0, atol=1e-17)
     vp, vw = P.volume_rule(plate, 4e-4)
     assert vw.sum() == pytest.approx(plate.volume, rel=1e-12)
+
+
+def test_lateral_force_and_stiffness_against_plain_midpoint_energy(checker):
+    # an independent route: the stored energy U = (1/(2 mu0)) integral w dV on a plain
+    # uniform midpoint grid carried with the plate (no panels, no surface integrals), and
+    # F_x = -dU/dx, k_x = d^2U/dx^2 (Berry & Geim 1997 energy; Goldstein ch. 6)
+    lx, ly, t, gap, cx = 0.010, 0.010, 1e-3, 7e-4, 1.5e-3
+    n, nz = 120, 4
+    ux = (np.arange(n) + 0.5) / n - 0.5
+    uz = (np.arange(nz) + 0.5) / nz
+    X, Y, Z = np.meshgrid(ux * lx, ux * ly, uz * t, indexing="ij")
+    base = np.column_stack([X.ravel(), Y.ravel(), Z.ravel() + gap])
+    dv = lx * ly * t / base.shape[0]
+
+    def energy(dx):
+        b = checker.B(base + [cx + dx, 0.0, 0.0])
+        w = PG["chi_perp_abs"] * b[:, 2] ** 2 + PG["chi_par_abs"] * (b[:, 0] ** 2 + b[:, 1] ** 2)
+        return w.sum() * dv / (2 * MU0)
+
+    h = 5e-5
+    u = [energy(h), energy(0.0), energy(-h)]
+    plate = _geom(checker, lx, ly, t, cx=cx)
+    q = P.combine(P.generalized_forces_split(checker.B, plate, gap, (cx, 0, gap),
+                                             np.zeros((1, 6)))[0], *PG.values())
+    assert q[0] == pytest.approx(-(u[0] - u[2]) / (2 * h), rel=5e-3)
+    k = P.combine(P.stiffness_split(checker.B, plate, gap, (cx, 0, gap), dofs=(0,)), *PG.values())
+    assert k[0, 0] == pytest.approx((u[0] - 2 * u[1] + u[2]) / h ** 2, rel=1e-2)
