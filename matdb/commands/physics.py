@@ -208,7 +208,9 @@ def register(subparsers) -> None:
     q = subparsers.add_parser("levitate", help="does the plate float, where, and is it stable",
                               description="Floating-plate analysis of a design: lift curve, "
                               "equilibrium gap, payload, stiffnesses, stability, thermal "
-                              "derating, worst case and safety distance.")
+                              "derating, worst case and safety distance. Floating-magnet "
+                              "designs ([lifter]/[floater] or [[station]] tables) get their "
+                              "own analysis.")
     q.add_argument("design", help="design TOML file")
     q.add_argument("--temp", help="operating temperature, e.g. '60 degC'")
     q.add_argument("--gap", help="required gap for the payload figure, e.g. '0.3 mm'")
