@@ -449,11 +449,13 @@ class GeometryData:
             return
         try:
             with np.load(p, allow_pickle=False) as z:
-                for name in self.stores:
-                    if f"{name}_h" in z:
-                        hs, vals = z[f"{name}_h"], z[f"{name}_v"]
+                for f in z.files:
+                    if f.endswith("_h"):
+                        name = f[:-2]
+                        hs, vals = z[f], z[f"{name}_v"]
+                        st = self.stores.setdefault(name, {})
                         for h, v in zip(hs, vals):
-                            self.stores[name][_hkey(h)] = tuple(float(x) for x in v)
+                            st[_hkey(h)] = tuple(float(x) for x in v)
                 if "hmax" in z:
                     self.hmax = float(z["hmax"])
                 if "memo" in z:
@@ -561,6 +563,27 @@ class GeometryData:
             return out
 
         return self._fill("lateral", heights, compute)
+
+    def tilt(self, thickness: float, gaps) -> np.ndarray:
+        """(n, 2, 4, 4): stiffness matrices over (x, y, roll, pitch) about the plate's own
+        centre, split by chi part, at unit polarisation (screening rule, order
+        :data:`SCREEN_ORDER`), for a plate of ``thickness`` at each gap."""
+        from .physics import plate as P
+
+        geom = P.PlateGeometry("rectangle", self.plate_m[0], self.plate_m[1], float(thickness),
+                               0.0, 0.0, *self.breaks)
+
+        def compute(gs):
+            out = []
+            for g in gs:
+                k = P.stiffness_split(self.unit.B, geom, float(g), (0.0, 0.0, float(g) + thickness / 2),
+                                      SCREEN_ORDER, dofs=(0, 1, 3, 4))
+                out.append(k.ravel())
+            return np.array(out)
+
+        name = f"tilt{int(round(thickness * 1e9))}"
+        self.stores.setdefault(name, {})
+        return self._fill(name, gaps, compute).reshape(-1, 2, 4, 4)
 
     def demag_hmax(self) -> float:
         """Largest reverse field along the magnetisation at unit polarisation [A/m]."""
@@ -962,6 +985,7 @@ def _evaluate(req: AdviceRequest, cat: _Catalogue) -> pd.DataFrame:
         "cost_usd": cost, "price_illustrative": illus, "over_budget": over_budget,
         "score": score, "exact": np.zeros(n, dtype=bool),
         "stable_plate_side_max_m": np.full(n, np.nan), "tilt_stable": np.ones(n, dtype=bool),
+        "tilt_checked": np.zeros(n, dtype=bool),
     })
     return df
 
@@ -1040,7 +1064,8 @@ def reasons_for(row: dict, req: AdviceRequest, cat: _Catalogue) -> tuple[list[st
     if spec.pattern == "stripes" and row["feasible"]:
         notes.append("stripes restore almost nothing along the stripes (x)")
     if not row["exact"]:
-        notes.append("screening values (gap, stiffness interpolated; tilt not checked)")
+        notes.append("screening values (gaps and stiffnesses interpolated)" if row.get("tilt_checked")
+                     else "screening values (gaps and stiffnesses interpolated; tilt not checked)")
     return reasons, notes
 
 
@@ -1098,7 +1123,7 @@ def exact_evaluation(row: dict, req: AdviceRequest, cat: _Catalogue, *, side: bo
     plate_mass = mat.density_kg_m3 * geom.volume
     weight = (plate_mass + req.mass_kg) * G_STANDARD
     m_tot = plate_mass + req.mass_kg
-    out: dict[str, Any] = {"exact": True}
+    out: dict[str, Any] = {"exact": True, "tilt_checked": True}
     if not (mat.chi_vertical < 0 and mat.chi_horizontal < 0):
         return out
     force = _scaled_force(g, t, s_op, a, b)
@@ -1192,15 +1217,84 @@ def _refresh_flags(df: pd.DataFrame, idx, req: AdviceRequest) -> None:
     df.loc[idx, "score"] = score_values(sub["margin"], sub["cost_usd"], sub["derating_pct"], req.weights)
 
 
+#: gaps of the tilt tables [m] (interpolated in log gap)
+TILT_GAPS_M = np.array([5e-5, 1e-4, 2e-4, 3.5e-4, 6e-4, 1e-3, 1.7e-3, 3e-3, 5e-3])
+
+
+def _screen_tilt(df: pd.DataFrame, idx, req: AdviceRequest, cat: _Catalogue) -> None:
+    """Tilt (and coupled) stability of screened rows ``idx``.
+
+    The stiffness matrix over (x, y, roll, pitch) about the plate's centre ``O`` is tabulated
+    per geometry and thickness at unit polarisation, split by chi part, and scaled by
+    ``B_r^2`` and the chi parts; it is moved to the combined centre of mass ``C``, a height
+    ``h`` above ``O``, by the rigid-body change of pivot:
+    ``k_pitch,C = k_pitch,O - 2 h k_x,pitch + h^2 k_x - h F_z`` (roll likewise with
+    ``+2 h k_y,roll``), ``k_x,pitch,C = k_x,pitch,O - h k_x``. The last term is the one
+    that does not scale with ``|chi| B_r^2``: at equilibrium ``F_z`` is the weight.
+    """
+    rows = [i for i in idx if math.isfinite(df.at[i, "gap_m"]) and not df.at[i, "exact"]
+            and bool(df.at[i, "diamagnetic"])]
+    groups: dict[tuple, list] = {}
+    for i in rows:
+        groups.setdefault((int(df.at[i, "spec_index"]), float(df.at[i, "thickness_m"])), []).append(i)
+    lg = np.log(TILT_GAPS_M)
+    for (si, t), members in groups.items():
+        g = geometry(cat.specs[si], req.plate_m)
+        K = g.tilt(t, TILT_GAPS_M)  # (n_gap, 2, 4, 4)
+        g.save()
+        for i in members:
+            mat = cat.mats[int(df.at[i, "mat_index"])]
+            grade = cat.grades[int(df.at[i, "grade_index"])]
+            gap = float(df.at[i, "gap_m"])
+            x = np.clip(math.log(gap), lg[0], lg[-1])
+            j = int(np.clip(np.searchsorted(lg, x) - 1, 0, lg.size - 2))
+            f = (x - lg[j]) / (lg[j + 1] - lg[j])
+            kk = K[j] * (1 - f) + K[j + 1] * f
+            coeff = mat.temp_coeff_per_k
+            cf = 1.0 if coeff is None else 1.0 + coeff * (req.temp_max_k - T20_K)
+            a, b = abs(mat.chi_vertical * cf), abs(mat.chi_horizontal * cf)
+            br = grade.br_t * (1.0 + grade.alpha_br_pct_per_k / 100.0 * (req.temp_max_k - T20_K))
+            k = br ** 2 * (a * kk[0] + b * kk[1])  # about O; order x, y, roll, pitch
+            pm = float(df.at[i, "plate_mass_kg"])
+            m_tot = pm + req.mass_kg
+            zo = gap + t / 2
+            zl = gap + t + req.payload_height_m
+            zc = (pm * zo + req.mass_kg * zl) / m_tot if m_tot > 0 else zo
+            h = zc - zo
+            w = float(df.at[i, "weight_n"])
+            kx, ky = k[0, 0], k[1, 1]
+            kp = k[3, 3] - 2 * h * k[0, 3] + h * h * kx - h * w
+            kr = k[2, 2] + 2 * h * k[1, 2] + h * h * ky - h * w
+            kxp = k[0, 3] - h * kx
+            kyr = k[1, 2] + h * ky
+            xp_ok = kx > 0 and kp > 0 and kx * kp - kxp * kxp > 0
+            yr_ok = ky > 0 and kr > 0 and ky * kr - kyr * kyr > 0
+            df.at[i, "k_tilt_n_m_per_rad"] = float(min(kp, kr))
+            df.at[i, "tilt_stable"] = bool(kp > 0 and kr > 0)
+            df.at[i, "laterally_stable"] = bool(df.at[i, "laterally_stable"]) and xp_ok and yr_ok
+            df.at[i, "tilt_checked"] = True
+
+
 def rank(req: AdviceRequest, arrangements: Sequence[ArrangementSpec] | None = None, *,
-         polish: int = 10, url=None, catalogue: _Catalogue | None = None) -> tuple[pd.DataFrame, _Catalogue]:
-    """Screen and sort every candidate; work the first ``polish`` rows out exactly.
+         polish: int = 1, url=None, catalogue: _Catalogue | None = None,
+         tilt_rows: int = 50) -> tuple[pd.DataFrame, _Catalogue]:
+    """Screen and sort every candidate; check tilt on the first ``tilt_rows`` feasible-looking
+    rows (:func:`_screen_tilt`); work the first ``polish`` rows out exactly.
 
     Returns the full frame (internal columns included) and the catalogue used.
     """
     cat = catalogue or build_catalogue(req, arrangements, url)
     df = _evaluate(req, cat)
     df = _sort(df)
+    for _ in range(6):  # until the first `tilt_rows` feasible rows have had their tilt checked
+        head = df.head(tilt_rows)
+        todo = [i for i in head.index if head.at[i, "feasible"] and not head.at[i, "tilt_checked"]
+                and not head.at[i, "exact"]]
+        if not todo:
+            break
+        _screen_tilt(df, todo, req, cat)
+        _refresh_flags(df, todo, req)
+        df = _sort(df)
     for _ in range(8):  # polish until the first `polish` rows are all exact
         head = df.head(polish)
         todo = [i for i in head.index if not df.at[i, "exact"]]
@@ -1305,7 +1399,7 @@ def advise(mass, footprint, *, min_gap="0.2 mm", temp_min="20 degC", temp_max="2
                         max_magnet_size=max_magnet_size, thickness=thickness, plate_size=plate_size,
                         weights=weights, payload_height=payload_height)
     n_pol = polish if polish is not None else 1
-    df, cat = rank(req, arrangements, polish=n_pol, url=url)
+    df, cat = rank(req, arrangements, polish=n_pol, url=url, tilt_rows=max(top or 50, n_pol))
     return finish(df, req, cat, top=top, feasible_only=feasible_only)
 
 
@@ -1313,7 +1407,7 @@ def advise_request(req: AdviceRequest, arrangements=None, *, top=None, feasible_
                    polish=None, url=None):
     """:func:`advise` for an already parsed :class:`AdviceRequest`; returns (frame, catalogue)."""
     n_pol = polish if polish is not None else 1
-    df, cat = rank(req, arrangements, polish=n_pol, url=url)
+    df, cat = rank(req, arrangements, polish=n_pol, url=url, tilt_rows=max(top or 50, n_pol))
     return finish(df, req, cat, top=top, feasible_only=feasible_only), cat
 
 

@@ -299,3 +299,29 @@ def test_screening_is_close_to_the_exact_rows():
     assert screen["gap_m"] == pytest.approx(exact["gap_m"], rel=0.03)
     assert screen["k_x_n_m"] == pytest.approx(exact["k_x_n_m"], rel=0.1)
     assert screen["k_z_n_m"] == pytest.approx(exact["k_z_n_m"], rel=0.1)
+
+
+def test_screened_tilt_follows_the_exact_matrix_and_a_high_payload_falls():
+    # Screening moves the tabulated stiffness matrix to the combined centre of mass; it must
+    # track the exact matrix about that point (plate.stability). A payload whose centre of
+    # mass is high enough makes the coupled (sliding, tilting) matrix lose positive
+    # definiteness through the -h M g term (small-oscillation stability, Goldstein,
+    # Classical Mechanics, 3rd ed., ch. 6).
+    for height, stable in (("2 mm", True), ("300 mm", False)):
+        req = A.parse_request("0.05 g", PLATE, materials=["pyrolytic-graphite"], grades=["N42"],
+                              thickness="1 mm", payload_height=height)
+        cat = A.build_catalogue(req, [CUBE10_2X2])
+        df = A._evaluate(req, cat)
+        assert df.at[0, "laterally_stable"]  # sliding alone is restored
+        A._screen_tilt(df, [0], req, cat)
+        row = df.iloc[0].to_dict()
+        exact = A.exact_evaluation(row, req, cat, side=False)
+        assert row["tilt_checked"]
+        assert bool(exact["laterally_stable"]) == stable
+        assert bool(row["laterally_stable"]) == stable
+        assert row["k_tilt_n_m_per_rad"] == pytest.approx(exact["k_tilt_n_m_per_rad"], rel=0.1)
+        if not stable:
+            A._refresh_flags(df, [0], req)
+            assert not df.at[0, "feasible"]
+            r, _ = A.reasons_for(df.iloc[0].to_dict(), req, cat)
+            assert any("sliding and tilting together" in x or "tips over" in x for x in r)
