@@ -147,6 +147,16 @@ def test_round_trip_is_exact(tmp_path):
     doc["magnets"]["br"] = "1.41 T"
     d2 = parse_design(doc)
     assert load_design_text(design_to_toml(d2)) == d2
+    # list items, plate centre, disc
+    doc = _doc()
+    doc["magnets"].update(pattern="list", item=[
+        {"position": ["-5 mm", "0 mm", "0 mm"], "direction": [0, 0, 1]},
+        {"position": ["5 mm", "1 mm", "0 mm"], "direction": [0, 0, -1], "grade": "N42",
+         "br": "1.31 T", "shape": "cylinder", "size": ["9 mm", "9 mm"]}])
+    del doc["magnets"]["rows"], doc["magnets"]["cols"]
+    doc["plate"].update(shape="disc", size=["9 mm", "0.7 mm"], center=["0.5 mm", "-1 mm"])
+    d3 = parse_design(doc)
+    assert load_design_text(design_to_toml(d3)) == d3
 
 
 @pytest.mark.parametrize("edit,key", [
