@@ -67,8 +67,9 @@ DEFAULT_THICKNESSES_M = (0.5e-3, 1e-3, 2e-3)
 DEFAULT_PATTERNS = ("checkerboard", "stripes")
 MAX_MAGNETS = 100  # default arrangements with more magnets are skipped (cost grows with count)
 
-#: screening height grid [m]: 0.05 to 0.2 mm, then 0.25 mm steps to 6 mm
-SCREEN_HEIGHTS_M = np.concatenate([[5e-5, 1e-4, 1.5e-4, 2e-4], np.arange(1, 25) * 2.5e-4])
+#: screening height grid [m]: 0.05 to 0.2 mm, 0.25 mm steps to 6 mm, then wider to 20 mm
+SCREEN_HEIGHTS_M = np.concatenate([[5e-5, 1e-4, 1.5e-4, 2e-4], np.arange(1, 25) * 2.5e-4,
+                                   [7e-3, 8.5e-3, 1e-2, 1.3e-2, 1.6e-2, 2e-2]])
 SCREEN_ORDER = 4  # Gauss-Legendre nodes per panel of the screening rule
 SCREEN_RULE_FLOOR_M = 5e-4  # the screening rule is graded no finer than for this height
 LATERAL_STEP_M = 1e-6  # central difference of w across a side face
@@ -1058,6 +1059,12 @@ def reasons_for(row: dict, req: AdviceRequest, cat: _Catalogue) -> tuple[list[st
                 reasons.append("no price in the database for "
                                + ("the plate material" if mat.price_usd_per_kg is None else "the magnets")
                                + "; the budget cannot be checked")
+    if not row["feasible"] and not reasons:
+        if not math.isfinite(row["gap_m"]):
+            reasons.append(f"no equilibrium found between 0.05 mm and {SCREEN_HEIGHTS_M[-1] * 1e3:.0f} mm "
+                           "in screening (see --exact)")
+        else:
+            reasons.append("not feasible after the exact check")
     if row["price_illustrative"]:
         notes.append("prices are illustrative")
     if not math.isfinite(row["cost_usd"]):
