@@ -851,7 +851,7 @@ def _evaluate(req: AdviceRequest, cat: _Catalogue) -> pd.DataFrame:
     Xc = np.empty((ns, nt, ng_))
     Zr = np.empty((ns, nt))
     Xr = np.empty((ns, nt))
-    lat_heights = np.unique(np.concatenate([grid, (grid[:, None] + th[None, :]).ravel()]))
+    lat_heights = grid  # the cumulative over height is interpolated at g and g + t
     LAT = np.empty((ns, 4, lat_heights.size))
     hs_all = np.concatenate([grid, (grid[None, :] + th[:, None]).ravel(), [g_req], g_req + th])
     _prepare_all(geos, hs_all, lat_heights)
