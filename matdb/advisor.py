@@ -1289,7 +1289,7 @@ def _screen_tilt(df: pd.DataFrame, idx, req: AdviceRequest, cat: _Catalogue) -> 
 
 def rank(req: AdviceRequest, arrangements: Sequence[ArrangementSpec] | None = None, *,
          polish: int = 1, url=None, catalogue: _Catalogue | None = None,
-         tilt_rows: int = 50) -> tuple[pd.DataFrame, _Catalogue]:
+         tilt_rows: int = 20) -> tuple[pd.DataFrame, _Catalogue]:
     """Screen and sort every candidate; check tilt on the first ``tilt_rows`` feasible-looking
     rows (:func:`_screen_tilt`); work the first ``polish`` rows out exactly.
 
@@ -1411,7 +1411,7 @@ def advise(mass, footprint, *, min_gap="0.2 mm", temp_min="20 degC", temp_max="2
                         max_magnet_size=max_magnet_size, thickness=thickness, plate_size=plate_size,
                         weights=weights, payload_height=payload_height)
     n_pol = polish if polish is not None else 1
-    df, cat = rank(req, arrangements, polish=n_pol, url=url, tilt_rows=max(top or 50, n_pol))
+    df, cat = rank(req, arrangements, polish=n_pol, url=url, tilt_rows=max(top or 20, n_pol))
     return finish(df, req, cat, top=top, feasible_only=feasible_only)
 
 
@@ -1419,7 +1419,7 @@ def advise_request(req: AdviceRequest, arrangements=None, *, top=None, feasible_
                    polish=None, url=None):
     """:func:`advise` for an already parsed :class:`AdviceRequest`; returns (frame, catalogue)."""
     n_pol = polish if polish is not None else 1
-    df, cat = rank(req, arrangements, polish=n_pol, url=url, tilt_rows=max(top or 50, n_pol))
+    df, cat = rank(req, arrangements, polish=n_pol, url=url, tilt_rows=max(top or 20, n_pol))
     return finish(df, req, cat, top=top, feasible_only=feasible_only), cat
 
 
