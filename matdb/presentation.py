@@ -392,3 +392,170 @@ def grade_max_temp_marks(curves: pd.DataFrame) -> pd.DataFrame:
                      "br_t": float(np.interp(tmax, t, part["br_t"].to_numpy())),
                      "relative_lift": float(np.interp(tmax, t, part["relative_lift"].to_numpy()))})
     return pd.DataFrame(rows, columns=["grade", "max_temp_c", "br_t", "relative_lift"])
+
+
+# ---------------------------------------------------------------------------
+# design page
+# ---------------------------------------------------------------------------
+
+def _split_lengths(text: str) -> list[str]:
+    """"12.7 mm, 12.7 mm, 5 mm" or "12.7 mm x 12.7 mm x 5 mm" -> list of length strings."""
+    import re
+
+    parts = [p.strip() for p in re.split(r",|\s+x\s+", str(text)) if p.strip()]
+    return parts
+
+
+def design_text_from_fields(f: dict) -> str:
+    """TOML design text from the page's form fields (strings with units as typed).
+
+    Keys: ``shape``, ``size`` (lengths separated by commas or " x "), ``grade``,
+    ``pattern``, ``rows``, ``cols``, ``spacing``, ``back_plate``, ``cover``,
+    ``material``, ``plate_shape``, ``plate_size``, ``payload``, ``payload_height``,
+    ``min_gap``, ``temperature`` (or ``temp_min`` and ``temp_max``). The text is parsed
+    by :func:`matdb.design.load_design_text`, which names any bad key.
+    """
+    import tomli_w
+
+    mags = {"shape": f["shape"], "size": _split_lengths(f["size"]), "grade": f["grade"],
+            "pattern": f["pattern"], "rows": int(f.get("rows", 1)), "cols": int(f.get("cols", 1)),
+            "spacing": f.get("spacing") or "0 mm", "back_plate": bool(f.get("back_plate", False)),
+            "cover": f.get("cover") or "0 mm"}
+    plate = {"material": f["material"], "shape": f["plate_shape"], "size": _split_lengths(f["plate_size"]),
+             "payload": f.get("payload") or "0 g"}
+    for k in ("payload_height", "min_gap"):
+        if f.get(k):
+            plate[k] = f[k]
+    cond = {}
+    if f.get("temp_min") or f.get("temp_max"):
+        cond = {"temp_min": f.get("temp_min") or f.get("temp_max"), "temp_max": f.get("temp_max") or f.get("temp_min")}
+    elif f.get("temperature"):
+        cond = {"temperature": f["temperature"]}
+    doc = {"magnets": mags, "plate": plate}
+    if cond:
+        doc["conditions"] = cond
+    return tomli_w.dumps(doc)
+
+
+def lift_curve_df(result: dict) -> pd.DataFrame:
+    """The lift curve F(g) of a plate result: ``gap_mm``, ``force_mn`` (magnetic force,
+    upward positive) and ``weight_mn`` (plate plus payload)."""
+    lc = pd.DataFrame(result["lift_curve"])
+    return pd.DataFrame({"gap_mm": lc["gap_m"] * 1e3, "force_mn": lc["force_n"] * 1e3,
+                         "weight_mn": result["weight_n"] * 1e3})
+
+
+def field_map_df(arrangement, gap_m: float, extent_m: tuple[float, float] | None = None, n: int = 41) -> pd.DataFrame:
+    """|B| and B^2 on an n x n grid at height ``gap_m`` over the arrangement's footprint
+    (or a centred ``extent_m`` = (x, y) if larger): ``x_mm``, ``y_mm``, ``b_t``, ``b2_t2``,
+    ``bz_t``."""
+    xmin, xmax, ymin, ymax, _a, _b = (float(v) for v in arrangement.bounds())
+    if extent_m is not None:
+        xmin, xmax = min(xmin, -extent_m[0] / 2), max(xmax, extent_m[0] / 2)
+        ymin, ymax = min(ymin, -extent_m[1] / 2), max(ymax, extent_m[1] / 2)
+    xs = np.linspace(xmin, xmax, n)
+    ys = np.linspace(ymin, ymax, n)
+    gx, gy = np.meshgrid(xs, ys, indexing="xy")
+    pts = np.column_stack([gx.ravel(), gy.ravel(), np.full(gx.size, float(gap_m))])
+    b = np.asarray(arrangement.B(pts), dtype=float).reshape(-1, 3)
+    b2 = np.sum(b**2, axis=1)
+    return pd.DataFrame({"x_mm": pts[:, 0] * 1e3, "y_mm": pts[:, 1] * 1e3, "b_t": np.sqrt(b2),
+                         "b2_t2": b2, "bz_t": b[:, 2]})
+
+
+def polarity_df(arrangement) -> pd.DataFrame:
+    """Top view of the magnets: centre, footprint corners (mm), which way each points."""
+    rows = []
+    for i, m in enumerate(arrangement.magnets):
+        hx, hy, _hz = m.half_extents
+        dz = float(m.direction[2]) if len(m.direction) == 3 else 0.0
+        rows.append({"magnet": i + 1, "x_mm": m.position[0] * 1e3, "y_mm": m.position[1] * 1e3,
+                     "x0_mm": (m.position[0] - hx) * 1e3, "x1_mm": (m.position[0] + hx) * 1e3,
+                     "y0_mm": (m.position[1] - hy) * 1e3, "y1_mm": (m.position[1] + hy) * 1e3,
+                     "shape": m.shape, "grade": m.grade,
+                     "points": "north up" if dz > 0.5 else "north down" if dz < -0.5 else "sideways",
+                     "label": "N" if dz > 0.5 else "S" if dz < -0.5 else "-"})
+    return pd.DataFrame(rows)
+
+
+def _size_text(shape: str, size) -> str:
+    mm = [f"{v * 1e3:.4g}" for v in size]
+    if shape == "cylinder":
+        return f"disc {mm[0]} mm dia. x {mm[1]} mm"
+    if shape == "ring":
+        return f"ring {mm[0]}/{mm[1]} mm dia. x {mm[2]} mm"
+    if shape == "disc":
+        return f"disc {mm[0]} mm dia. x {mm[1]} mm"
+    return " x ".join(mm) + " mm"
+
+
+def bill_of_materials(design, url: str | None = None) -> pd.DataFrame:
+    """Magnets by shape, size and grade with counts, and the plate: ``item``, ``size``,
+    ``grade_or_material``, ``count``, ``mass_g``, ``price_usd_per_kg``,
+    ``cost_usd`` (illustrative unless the price row says otherwise), ``illustrative``."""
+    arr = design.arrangement()
+    groups: dict[tuple, dict] = {}
+    for m in arr.magnets:
+        grade_name = m.grade or design.magnets.grade
+        g = design.magnets.grades.get(grade_name) or catalog.get_grade(grade_name, url)
+        key = (m.shape, tuple(round(v, 12) for v in m.size), grade_name)
+        row = groups.setdefault(key, {"item": "magnet", "size": _size_text(m.shape, m.size),
+                                      "grade_or_material": grade_name, "count": 0, "mass_g": 0.0,
+                                      "price_usd_per_kg": g.price_usd_per_kg,
+                                      "illustrative": bool(g.price_illustrative)})
+        row["count"] += 1
+        row["mass_g"] += m.volume * g.density_kg_m3 * 1e3
+    rows = list(groups.values())
+    p = design.plate
+    mat = p.material_props or catalog.get_material(p.material, url)
+    if p.shape == "disc":
+        vol = math.pi * (p.size[0] / 2) ** 2 * p.size[1]
+    else:
+        vol = p.size[0] * p.size[1] * p.size[2]
+    rows.append({"item": "plate", "size": _size_text(p.shape, p.size), "grade_or_material": mat.id, "count": 1,
+                 "mass_g": vol * mat.density_kg_m3 * 1e3, "price_usd_per_kg": mat.price_usd_per_kg,
+                 "illustrative": bool(mat.price_illustrative)})
+    df = pd.DataFrame(rows)
+    df["cost_usd"] = [None if pr is None or pd.isna(pr) else m * 1e-3 * pr
+                      for m, pr in zip(df["mass_g"], df["price_usd_per_kg"])]
+    df["cost_usd"] = pd.to_numeric(df["cost_usd"], errors="coerce").astype(float)
+    return df
+
+
+def plate_summary(result: dict) -> pd.DataFrame:
+    """The key numbers of a plate result as (quantity, value, unit) rows for people."""
+    def mm(v):
+        return None if v is None else v * 1e3
+
+    items = [
+        ("floats", "yes" if result.get("floats") else "no", ""),
+        ("equilibrium gap", mm(result.get("gap_m")), "mm"),
+        ("worst-case gap", mm(result.get("gap_worst_m")), "mm"),
+        ("margin at the required gap (lift / weight)", result.get("margin"), ""),
+        ("largest payload at the required gap", None if result.get("max_payload_kg") is None
+         else result["max_payload_kg"] * 1e3, "g"),
+        ("vertical stiffness k_z", result.get("k_z_n_m"), "N/m"),
+        ("vertical natural frequency", result.get("f_z_hz"), "Hz"),
+        ("lateral stiffness k_x", result.get("k_x_n_m"), "N/m"),
+        ("lateral stiffness k_y", result.get("k_y_n_m"), "N/m"),
+        ("tilt stiffness", result.get("k_tilt_n_m_per_rad"), "N m/rad"),
+        ("laterally stable", "yes" if result.get("laterally_stable") else "no", ""),
+        ("largest stable square plate side", mm(result.get("stable_plate_side_max_m")), "mm"),
+        ("lift lost when hot", result.get("lift_derating_pct"), "%"),
+        ("gap drift", result.get("gap_drift_um_per_k"), "um/K"),
+        ("demagnetisation risk", "yes" if result.get("demag_risk") else "no", ""),
+        ("distance to 0.5 mT", None if result.get("safe_distance_m") is None
+         else result["safe_distance_m"] * 1e2, "cm"),
+    ]
+    return pd.DataFrame([{"quantity": q, "value": _human(v) if not isinstance(v, str) else v, "unit": u}
+                         for q, v, u in items])
+
+
+def stabilized_window_df(result: dict) -> pd.DataFrame:
+    """The schedule of a floating-magnet result: per payload (g) the lifter distance and
+    the plate-distance window (mm)."""
+    w = pd.DataFrame(result["window"])
+    out = pd.DataFrame({"payload_g": w["payload_kg"] * 1e3, "lifter_distance_mm": w["lifter_distance_m"] * 1e3})
+    out["max_plate_distance_mm"] = pd.to_numeric(w.get("max_plate_distance_m"), errors="coerce") * 1e3
+    out["min_plate_distance_mm"] = pd.to_numeric(w.get("min_plate_distance_m"), errors="coerce") * 1e3
+    return out

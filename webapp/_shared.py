@@ -71,3 +71,30 @@ def clear_catalog_caches() -> None:
     materials_table.clear()
     magnets_df.clear()
     grade_curves.clear()
+
+
+# ---------------------------------------------------------------------------
+# designs (cached by the design text, so unchanged geometry is never recomputed)
+# ---------------------------------------------------------------------------
+
+@st.cache_data(show_spinner=False, max_entries=32)
+def levitate_text(text: str, temp_k: float | None, gap_m: float | None, url: str):
+    from matdb.design import load_design_text
+    from matdb.levitate import levitate
+
+    return levitate(load_design_text(text), temp_k=temp_k, gap_m=gap_m)
+
+
+@st.cache_data(show_spinner=False, max_entries=64)
+def field_map(magnets_key: str, temp_k: float | None, gap_m: float, extent: tuple, _design):
+    """Keyed by the magnets' description only: changing the plate or payload reuses it."""
+    return presentation.field_map_df(_design.arrangement(temp_k), gap_m, extent)
+
+
+def checked(parse, value: str, where: str):
+    """Parse one field; on a bad value show the message right under the field."""
+    try:
+        return parse(value)
+    except MatdbError as exc:
+        st.error(f"{where}: {exc}")
+        return None
