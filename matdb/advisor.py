@@ -1107,9 +1107,13 @@ def _curve(force, weight: float, g_start: float, n_gaps: int):
     return gaps, forces, gap, f1
 
 
-def exact_evaluation(row: dict, req: AdviceRequest, cat: _Catalogue, *, side: bool = True) -> dict:
+def exact_evaluation(row: dict, req: AdviceRequest, cat: _Catalogue, *, side: bool = True,
+                     at_gap_m: float | None = None) -> dict:
     """Work one candidate out the way ``matdb levitate`` does, from unit-polarisation
-    integrals scaled by ``B_r^2`` and the chi parts. Returns updated row values."""
+    integrals scaled by ``B_r^2`` and the chi parts. Returns updated row values.
+
+    ``at_gap_m`` evaluates the stiffnesses at that gap instead of the equilibrium found
+    (to compare with another solver's root at the same point)."""
     from .physics import plate as P
     from .physics.thermal import worst_case_abs_chi, worst_case_br
 
@@ -1139,6 +1143,8 @@ def exact_evaluation(row: dict, req: AdviceRequest, cat: _Catalogue, *, side: bo
     out["lift_nominal_n"] = float(force([g_req])[0])
     out["margin_nominal"] = out["lift_nominal_n"] / weight if weight > 0 else math.inf
     out["gap_m"] = np.nan if gap is None else float(gap)
+    if at_gap_m is not None:
+        gap = float(at_gap_m)
     kz = fz = kx = ky = kt = np.nan
     stable = False
     tilt_ok = True
