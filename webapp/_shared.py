@@ -98,3 +98,12 @@ def checked(parse, value: str, where: str):
     except MatdbError as exc:
         st.error(f"{where}: {exc}")
         return None
+
+
+@st.cache_data(show_spinner=False, max_entries=16)
+def advise(params: tuple, url: str):
+    """The ranked DataFrame for one set of form values (a sorted tuple of items)."""
+    from matdb import advisor
+
+    p = dict(params)
+    return advisor.advise(url=url, **p)

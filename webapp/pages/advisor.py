@@ -1,9 +1,154 @@
-"""Advisor page (filled in when matdb.advisor lands)."""
+"""Advisor: which plate material, grade and arrangement float this payload, ranked."""
 
+import altair as alt
 import streamlit as st
 
+from matdb import presentation
+from matdb.errors import MatdbError
+from matdb.units import parse_length, parse_mass, parse_temperature
 from webapp import _shared as sh
 
 st.title("Advisor")
-if sh.module_or_none("matdb.advisor") is None:
+advisor = sh.module_or_none("matdb.advisor")
+if advisor is None:
     sh.not_available("The Advisor page")
+    st.stop()
+url = sh.db_url()
+mats = sh.materials_table("si-volume", url)
+grades = sh.magnets_df(url)
+
+DEFAULTS = {"mass": "0.2 g", "footprint": "17 mm x 17 mm", "min_gap": "0.2 mm", "temp_min": "20 degC",
+            "temp_max": "20 degC", "budget": "", "materials": (), "families": (), "top": 30,
+            "weights": "margin=1,cost=1,derating=1"}
+
+st.subheader("Payload")
+with st.form("adv_form"):
+    c1, c2, c3 = st.columns(3)
+    mass = c1.text_input("Payload mass", DEFAULTS["mass"], key="adv_mass")
+    footprint = c2.text_input("Footprint (x by y)", DEFAULTS["footprint"], key="adv_footprint")
+    min_gap = c3.text_input("Smallest gap needed", DEFAULTS["min_gap"], key="adv_min_gap")
+    c4, c5, c6 = st.columns(3)
+    temp_min = c4.text_input("Coldest temperature", DEFAULTS["temp_min"], key="adv_temp_min")
+    temp_max = c5.text_input("Hottest temperature", DEFAULTS["temp_max"], key="adv_temp_max")
+    budget = c6.text_input("Budget (optional, e.g. 20 USD)", DEFAULTS["budget"], key="adv_budget")
+    c7, c8 = st.columns(2)
+    materials = c7.multiselect("Only these plate materials (empty: every diamagnet)",
+                               list(mats[mats["chi_si"] < 0]["id"]), key="adv_materials")
+    families = c8.multiselect("Only these magnet families (empty: all)", sorted(grades["family"].unique()),
+                              key="adv_families")
+    c9, c10 = st.columns(2)
+    top = c9.number_input("Rows to show", 5, 500, DEFAULTS["top"], key="adv_top")
+    weights = c10.text_input("Score weights", DEFAULTS["weights"], key="adv_weights",
+                             help="How much margin, cost and lift lost to heat count in the score.")
+    submitted = st.form_submit_button("Rank candidates", key="adv_submit", type="primary")
+
+# field-by-field checks, each message under the form naming the field
+bad = []
+for label, value, parse in (("payload mass", mass, lambda v: parse_mass(v, "mass")),
+                            ("smallest gap", min_gap, lambda v: parse_length(v, "min_gap")),
+                            ("coldest temperature", temp_min, lambda v: parse_temperature(v, "temp_min")),
+                            ("hottest temperature", temp_max, lambda v: parse_temperature(v, "temp_max"))):
+    if sh.checked(parse, value, label) is None:
+        bad.append(label)
+with sh.shown_errors("footprint"):
+    try:
+        advisor.parse_footprint(footprint, "footprint")
+    except MatdbError:
+        bad.append("footprint")
+        raise
+
+params = dict(mass=mass.strip(), footprint=footprint.strip(), min_gap=min_gap.strip(), temp_min=temp_min.strip(),
+              temp_max=temp_max.strip(), budget=budget.strip() or None,
+              materials=tuple(materials) or None, families=tuple(families) or None,
+              weights=weights.strip() or None, top=int(top))
+if bad:
+    st.stop()
+try:
+    request = advisor.parse_request(**{k: v for k, v in params.items() if k != "top"})
+except MatdbError as exc:
+    st.error(f"payload form: {exc}")
+    st.stop()
+
+try:
+    with st.spinner("Ranking every plate material, grade and arrangement..."):
+        ranked = sh.advise(tuple(sorted(params.items())), url)
+except MatdbError as exc:
+    st.error(f"advisor: {exc}")
+    st.stop()
+
+if ranked.empty:
+    st.warning("No candidates match these restrictions.")
+    st.stop()
+table = presentation.advisor_table(ranked)
+n_ok = int(table["feasible"].sum())
+if n_ok == 0:
+    st.warning("No candidate floats this payload in the worst case; the reasons are in the table.")
+else:
+    best = table.iloc[0]
+    st.success(f"{n_ok} feasible candidate(s). Best: {presentation.candidate_label(best)}.")
+
+# ---- Pareto chart -------------------------------------------------------------
+st.subheader("Cost against worst-case margin")
+plot = table[["rank", "material", "grade", "arrangement", "thickness_mm", "margin", "cost_usd", "feasible",
+              "pareto", "reasons_text"]].dropna(subset=["margin", "cost_usd"])
+pick = alt.selection_point(fields=["rank"], name="pick")
+chart = alt.Chart(plot).mark_point(filled=True, size=90).encode(
+    x=alt.X("cost_usd:Q", title="indicative cost (USD, illustrative)", scale=alt.Scale(type="log")),
+    y=alt.Y("margin:Q", title="worst-case margin (lift / weight at the required gap)"),
+    color=alt.Color("material:N", title="plate material"),
+    shape=alt.Shape("pareto:N", title="on the Pareto front", scale=alt.Scale(domain=[True, False],
+                                                                             range=["diamond", "circle"])),
+    opacity=alt.condition("datum.feasible", alt.value(0.95), alt.value(0.25)),
+    tooltip=[alt.Tooltip("rank:Q"), "material:N", "grade:N", "arrangement:N",
+             alt.Tooltip("thickness_mm:Q", title="plate thickness (mm)", format=".2f"),
+             alt.Tooltip("margin:Q", format=".2f"), alt.Tooltip("cost_usd:Q", title="cost (USD)", format=".2f"),
+             "feasible:N", alt.Tooltip("reasons_text:N", title="reasons")],
+).add_params(pick)
+rule = alt.Chart(plot.head(1)).mark_rule(color="#b2182b", strokeDash=[4, 3]).encode(y=alt.datum(1.0))
+event = st.altair_chart(alt.layer(chart, rule).properties(height=360), width="stretch", on_select="rerun",
+                        key="adv_chart")
+st.caption("Diamonds: candidates no other candidate beats on margin, cost and derating at once. Faded: "
+           "rejected. Dashed line: margin 1 (just floats). Click a point to choose it.")
+
+# ---- ranked table -------------------------------------------------------------
+st.subheader("Ranking")
+st.dataframe(
+    table[presentation.ADVISOR_SHOWN], hide_index=True, key="adv_table",
+    column_config={
+        "thickness_mm": st.column_config.NumberColumn("plate (mm)", format="%.2f"),
+        "margin": st.column_config.NumberColumn("margin, worst case", format="%.2f"),
+        "gap_mm": st.column_config.NumberColumn("gap (mm)", format="%.3f"),
+        "gap_worst_mm": st.column_config.NumberColumn("gap, worst case (mm)", format="%.3f"),
+        "derating_pct": st.column_config.NumberColumn("lift lost hot (%)", format="%.1f"),
+        "cost_usd": st.column_config.NumberColumn("cost (USD, illustrative)", format="%.2f"),
+        "score": st.column_config.NumberColumn("score", format="%.3f"),
+        "reasons_text": st.column_config.TextColumn("reasons", width="large"),
+    })
+st.download_button("Download the ranking (CSV, exact values)", presentation.ranking_csv(ranked).encode(),
+                   file_name="matdb-ranking.csv", mime="text/csv", key="adv_download_csv")
+
+# ---- choose a candidate ----------------------------------------------------------
+st.subheader("Open a candidate")
+ranks = [int(r) for r in table["rank"]]
+try:
+    clicked = [int(p["rank"]) for p in event.selection.get("pick", []) if "rank" in p]
+except (AttributeError, TypeError, KeyError):
+    clicked = []
+if clicked and clicked[0] in ranks and st.session_state.get("adv_last_click") != clicked[0]:
+    st.session_state["adv_last_click"] = clicked[0]
+    st.session_state["adv_choice"] = clicked[0]
+labels = {int(r["rank"]): presentation.candidate_label(r) for _, r in table.iterrows()}
+choice = st.selectbox("Candidate", ranks, key="adv_choice", format_func=lambda r: labels[r])
+row = ranked[ranked["rank"] == choice].iloc[0].to_dict()
+with sh.shown_errors("candidate design"):
+    toml_text = presentation.candidate_toml(row, request)
+    if row.get("reasons"):
+        st.info("Rejected because: " + "; ".join(row["reasons"]))
+    d1, d2 = st.columns(2)
+    d1.download_button("Download this design (TOML)", toml_text.encode(),
+                       file_name=f"design-{row['material']}-{row['grade']}.toml", mime="application/toml",
+                       key="adv_download_design")
+    if d2.button("Open on the Design page", key="adv_open", type="primary"):
+        st.session_state["design_text"] = toml_text
+        st.session_state["design_source"] = "design file"
+        st.switch_page("pages/design.py")
