@@ -1377,6 +1377,7 @@ def finish(df: pd.DataFrame, req: AdviceRequest, cat: _Catalogue, top: int | Non
         cols.append(spec.cols)
     df["reasons"] = reasons
     df["notes"] = notes
+    df["lift_per_area_nominal_n_m2"] = df["lift_nominal_n"] / (req.plate_m[0] * req.plate_m[1])
     df["arrangement"] = descr
     df["pattern"] = pat
     df["shape"] = shp
@@ -1443,10 +1444,10 @@ def _jnum(v):
     return f if math.isfinite(f) else None
 
 
-JSON_EXTRA = ["family", "thickness_m", "margin_nominal", "max_payload_worst_kg", "k_z_n_m", "f_z_hz",
-              "k_x_n_m", "k_y_n_m", "k_tilt_n_m_per_rad", "demag_risk", "demag_ratio",
-              "plate_mass_kg", "magnet_mass_kg", "price_illustrative", "stable_plate_side_max_m",
-              "exact", "notes"]
+JSON_EXTRA = ["family", "thickness_m", "margin_nominal", "lift_per_area_nominal_n_m2",
+              "max_payload_worst_kg", "k_z_n_m", "f_z_hz", "k_x_n_m", "k_y_n_m",
+              "k_tilt_n_m_per_rad", "demag_risk", "demag_ratio", "plate_mass_kg", "magnet_mass_kg",
+              "price_illustrative", "stable_plate_side_max_m", "exact", "tilt_checked", "notes"]
 
 
 def records(df: pd.DataFrame) -> list[dict]:

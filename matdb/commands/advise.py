@@ -116,8 +116,9 @@ def cmd_advise(args) -> int:
               f"{req.plate_m[0] * 1e3:.4g} x {req.plate_m[1] * 1e3:.4g} mm plate, gap >= "
               f"{req.min_gap_m * 1e3:.3g} mm, {req.temp_min_k - 273.15:.0f} to {req.temp_max_k - 273.15:.0f} C.")
         emit(table_rows(df), "table", TABLE_COLUMNS, TABLE_HEADERS)
+        screened = int((~df["exact"].astype(bool)).sum())
         print("* prices are illustrative, not quotes. margin = worst-case lift / weight at the "
-              "required gap; rows past the first few are screening values (see --exact).")
+              "required gap." + (f" {screened} row(s) are screening values (see --exact)." if screened else ""))
     if args.save:
         print(f"saved {path}" if args.format == "table" else "", end="\n" if args.format == "table" else "")
     return 0
