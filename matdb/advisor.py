@@ -11,9 +11,10 @@ stiffness of a weak diamagnet is linear in ``(|chi_perp|, |chi_par|)`` and in ``
 (:mod:`matdb.physics.plate`). So each *geometry* (arrangement x plate footprint) is
 integrated once at unit polarisation, split by field component, and every grade (its
 ``B_r^2``), temperature (:func:`matdb.physics.thermal.lift_factor`) and material (its two
-chi parts) is a multiplication. The gravity term of the tilt stiffness does not scale;
-it enters through the pivot (the combined centre of mass), which is why tilt is only
-judged when a candidate is worked out exactly (below).
+chi parts) is a multiplication. The gravity term of the tilt stiffness does not scale:
+the stiffness matrix is tabulated about the plate's own centre and moved to the combined
+centre of mass of each candidate, which adds ``-h W`` (``h`` the height of that centre
+above the plate's, ``W`` the weight) besides the scaled terms (:func:`_screen_tilt`).
 
 Two levels of precision:
 
@@ -21,15 +22,18 @@ Two levels of precision:
   ``k_z`` and the lateral stiffnesses come from per-geometry tables on a height grid,
   integrated with a coarser rule of :func:`matdb.physics.plate.plane_integrals` (about
   1e-4 relative from the exact rule), gaps and stiffnesses interpolated between heights.
-* **Exact** (the rows shown, ``polish`` of them): the same steps as
+  Tilt (and the coupled sliding-tilting matrices) is screened for the first rows shown
+  (``tilt_rows``, column ``tilt_checked``), tables computed only at the gaps needed.
+* **Exact** (the first ``polish`` rows, default 1): the same steps as
   :func:`matdb.levitate.levitate_plate` -- lift curve, highest stable root, vertical
   stiffness, full stiffness matrix about the combined centre of mass, worst case -- but
   evaluated from unit-polarisation integrals scaled per candidate. Column ``exact``
   says which rows are.
 
 Unit-polarisation integrals are cached in memory and on disk (``MATDB_CACHE_DIR``, else
-the user cache directory), keyed by a hash of the geometry, the quadrature settings and
-:data:`CODE_VERSION`.
+the user cache directory), keyed by a hash of the geometry, the quadrature settings,
+:data:`CODE_VERSION` and the source of the field, plate and thermal modules (a change there
+recomputes).
 
 Score and Pareto front
 ----------------------
