@@ -336,3 +336,18 @@ def test_screened_tilt_follows_the_exact_matrix_and_a_high_payload_falls():
             assert not df.at[0, "feasible"]
             r, _ = A.reasons_for(df.iloc[0].to_dict(), req, cat)
             assert any("sliding and tilting together" in x or "tips over" in x for x in r)
+
+
+def test_lift_scales_with_chi_and_br_squared():
+    # F = |chi| / (2 mu0) * integral of grad(B^2) (Berry and Geim, Eur. J. Phys. 18, 307
+    # (1997)): for one geometry the lift of an isotropic plate scales with |chi| and with Br^2.
+    from matdb import catalog
+
+    df = A.advise("0 g", PLATE, materials=["bismuth", "antimony"], grades=["N35", "N52"],
+                  thickness="1 mm", arrangements=[CUBE10_2X2], polish=0)
+    lift = {(r["material"], r["grade"]): r["lift_nominal_n"] for _, r in df.iterrows()}
+    bi, sb = catalog.get_material("bismuth"), catalog.get_material("antimony")
+    n35, n52 = catalog.get_grade("N35"), catalog.get_grade("N52")
+    assert n35.alpha_br_pct_per_k == n52.alpha_br_pct_per_k  # same temperature factor
+    assert lift[("bismuth", "N52")] / lift[("antimony", "N52")] == pytest.approx(bi.chi_si / sb.chi_si, rel=1e-12)
+    assert lift[("bismuth", "N52")] / lift[("bismuth", "N35")] == pytest.approx((n52.br_t / n35.br_t) ** 2, rel=1e-12)
