@@ -71,6 +71,8 @@ def clear_catalog_caches() -> None:
     materials_table.clear()
     magnets_df.clear()
     grade_curves.clear()
+    levitate_text.clear()
+    advise.clear()
 
 
 # ---------------------------------------------------------------------------

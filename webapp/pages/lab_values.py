@@ -1,9 +1,114 @@
-"""Lab values page (filled in when matdb.labvalues lands)."""
+"""Lab values: record a measured susceptibility with its source, see every value of a
+material and which one the advisor and the design page use."""
 
+import pandas as pd
 import streamlit as st
 
+from matdb.errors import MatdbError
 from webapp import _shared as sh
 
 st.title("Lab values")
-if sh.module_or_none("matdb.labvalues") is None:
+lab = sh.module_or_none("matdb.labvalues")
+if lab is None:
     sh.not_available("The Lab values page")
+    st.stop()
+url = sh.db_url()
+mats = sh.materials_table("si-volume", url)
+ids = list(mats["id"])
+names = dict(zip(mats["id"], mats["name"]))
+mid = st.selectbox("Material", ids, index=ids.index("bismuth") if "bismuth" in ids else 0, key="lab_material",
+                   format_func=lambda i: f"{names[i]} ({i})")
+
+flash = st.session_state.pop("lab_flash", None)
+if flash:
+    st.success(flash)
+
+# ---- history ------------------------------------------------------------------
+try:
+    hist = pd.DataFrame(lab.history(mid, url))
+except MatdbError as exc:
+    st.error(f"history: {exc}")
+    st.stop()
+in_use = hist[hist["preferred"]]
+if len(in_use):
+    r = in_use.iloc[0]
+    st.info(f"In use by the advisor and the design page: value {int(r['value_id'])} ({r['value_kind']}), "
+            f"chi = {r['chi_si']:.4g} (SI volume), from {r['source']}.")
+st.subheader("Every value of this material")
+cols = [c for c in ("value_id", "value_kind", "chi_si", "chi_par_si", "uncertainty", "temperature_c", "source",
+                    "measured_by", "date", "method", "preferred", "retracted", "retract_reason") if c in hist.columns]
+st.dataframe(hist[cols], hide_index=True, key="lab_history", column_config={
+    "value_id": "value id",
+    "chi_si": st.column_config.NumberColumn("chi (SI volume)", format="%.4e"),
+    "chi_par_si": st.column_config.NumberColumn("chi parallel (SI volume)", format="%.4e"),
+    "uncertainty": st.column_config.NumberColumn("uncertainty (SI volume)", format="%.2e"),
+    "temperature_c": st.column_config.NumberColumn("temperature (degC)", format="%.1f"),
+    "preferred": "in use"})
+
+# ---- record -------------------------------------------------------------------
+st.subheader("Record a measured value")
+anisotropic = bool(mats.set_index("id").loc[mid, "chi_par_si"] == mats.set_index("id").loc[mid, "chi_par_si"])
+with st.form("lab_form", clear_on_submit=False):
+    if anisotropic:
+        a1, a2 = st.columns(2)
+        chi_perp = a1.text_input("chi along the c axis (number = SI volume, or with a unit such as cgs-volume)",
+                                 key="lab_chi_perp")
+        chi_par = a2.text_input("chi in the basal plane", key="lab_chi_par")
+        chi = ""
+    else:
+        chi = st.text_input("chi (a number is SI volume; or e.g. '-1.31e-5 cgs-volume', '-280e-6 cm^3/mol')",
+                            key="lab_chi")
+        chi_perp = chi_par = ""
+    b1, b2, b3 = st.columns(3)
+    temperature = b1.text_input("Temperature (optional)", key="lab_temperature", placeholder="20 degC")
+    uncertainty = b2.text_input("Uncertainty (optional; absolute or with %)", key="lab_uncertainty")
+    density = b3.text_input("Density of your sample (optional)", key="lab_density", placeholder="9.78 g/cm^3")
+    source = st.text_input("Source note (required: where the number comes from)", key="lab_source")
+    c1, c2, c3 = st.columns(3)
+    measured_by = c1.text_input("Measured by", key="lab_by")
+    date = c2.text_input("Date (YYYY-MM-DD)", key="lab_date")
+    method = c3.text_input("Method", key="lab_method")
+    submitted = st.form_submit_button("Record", key="lab_submit", type="primary")
+if submitted:
+    try:
+        row = lab.record_material_value(
+            mid, chi=chi or None, chi_perp=chi_perp or None, chi_par=chi_par or None, density=density or None,
+            temperature=temperature or None, uncertainty=uncertainty or None, source=source,
+            measured_by=measured_by or None, date=date or None, method=method or None, url=url)
+    except MatdbError as exc:
+        st.error(f"not recorded: {exc}")
+    else:
+        sh.clear_catalog_caches()
+        st.session_state["lab_flash"] = (f"Recorded value {row['value_id']} for {mid}: chi = {row['chi_si']:.4g} "
+                                         "(SI volume).")
+        st.rerun()
+
+# ---- prefer / retract ---------------------------------------------------------------
+st.subheader("Choose the value in use, or retract a wrong one")
+live = [int(v) for v, r in zip(hist["value_id"], hist["retracted"]) if not r]
+p1, p2 = st.columns(2)
+with p1:
+    vid = st.selectbox("Value to use", live, key="lab_prefer_id")
+    if st.button("Use this value", key="lab_prefer"):
+        try:
+            lab.prefer(mid, vid, url)
+        except MatdbError as exc:
+            st.error(f"not changed: {exc}")
+        else:
+            sh.clear_catalog_caches()
+            st.session_state["lab_flash"] = f"Value {vid} is now in use for {mid}."
+            st.rerun()
+with p2:
+    measured = [int(v) for v, k, r in zip(hist["value_id"], hist["value_kind"], hist["retracted"])
+                if k == "measured" and not r]
+    rid = st.selectbox("Measured value to retract", measured, key="lab_retract_id")
+    reason = st.text_input("Reason (required)", key="lab_retract_reason")
+    if st.button("Retract", key="lab_retract", disabled=not measured):
+        try:
+            lab.retract(rid, reason, mid, url)
+        except MatdbError as exc:
+            st.error(f"not retracted: {exc}")
+        else:
+            sh.clear_catalog_caches()
+            st.session_state["lab_flash"] = f"Value {rid} retracted; it stays in the history."
+            st.rerun()
