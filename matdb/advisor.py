@@ -1022,7 +1022,8 @@ def reasons_for(row: dict, req: AdviceRequest, cat: _Catalogue) -> tuple[list[st
         m = row["margin"]
         if not (m >= 1.0):
             if math.isfinite(m):
-                reasons.append(f"lift at {_mm(g_req)} is {m:.2f}x the weight at {_c(req.temp_max_k)} "
+                mt = f"{m:.2f}" if abs(m) >= 0.01 else f"{m:.2g}"
+                reasons.append(f"lift at {_mm(g_req)} is {mt}x the weight at {_c(req.temp_max_k)} "
                                f"in the worst case (minimum Br, low end of |chi|)")
             if not math.isfinite(row["gap_worst_m"]) and not math.isfinite(row["gap_m"]):
                 reasons.append("it does not float at any gap with this payload")

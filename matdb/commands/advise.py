@@ -103,6 +103,11 @@ def cmd_advise(args) -> int:
         if df.empty:
             raise InputError("--save: no candidate to save")
         path = A.save_design(df.iloc[0].to_dict(), req, args.save, cat)
+        if not bool(df.iloc[0]["feasible"]):
+            import sys
+
+            print(f"matdb: note: no candidate is feasible; {path} holds the best rejected one "
+                  f"({'; '.join(df.iloc[0]['reasons'])})", file=sys.stderr)
     if args.format == "json":
         print(to_json(A.records(df)))
     elif args.format == "csv":
