@@ -8,6 +8,7 @@ import json
 import math
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 from matdb import catalog
@@ -213,3 +214,168 @@ def test_magnets_empty_selection_is_a_message_not_a_crash():
     at.multiselect(key="mag_grades").set_value([]).run()
     assert not at.exception
     assert any("Choose" in i.value for i in at.info)
+
+
+# ---------------------------------------------------------------------------
+# Design
+# ---------------------------------------------------------------------------
+
+def _design_page():
+    at = _app()
+    at.switch_page("pages/design.py").run()
+    assert not at.exception, [e.message for e in at.exception]
+    return at
+
+
+def _metric(at, label):
+    for m in at.metric:
+        if m.label == label:
+            return m.value
+    raise AssertionError(f"no metric {label!r}")
+
+
+def test_design_default_floats_with_weight_line_and_equilibrium():
+    """Common practice: a ~1 mm pyrolytic graphite plate floats over a 2x2 NdFeB
+    checkerboard of 1/2 inch cubes."""
+    at = _design_page()
+    assert _metric(at, "Floats") == "yes"
+    assert _metric(at, "Laterally stable") == "yes"
+    lift = _frame_with(_charts(at)[0], "force_mn")
+    # weight = (plate volume x density + payload) g, plate 12 x 12 x 1 mm of the catalogue's graphite
+    pg = catalog.get_material("pyrolytic-graphite")
+    weight_mn = (12e-3 * 12e-3 * 1e-3 * pg.density_kg_m3 + 0.1e-3) * G_STANDARD * 1e3
+    assert lift["weight_mn"].iloc[0] == pytest.approx(weight_mn, rel=1e-9)
+    gap_mm = float(_metric(at, "Equilibrium gap").split()[0])
+    # at the equilibrium the lift equals the weight (definition of the float gap)
+    f_at_gap = float(np.interp(gap_mm, lift["gap_mm"], lift["force_mn"]))
+    assert f_at_gap == pytest.approx(weight_mn, rel=0.02)
+    text = json.dumps(json.loads(_charts(at)[0].proto.spec))
+    assert "gap above the magnets (mm)" in text and "force (mN)" in text
+
+
+def test_design_polarity_map_bill_of_materials_and_cautions():
+    at = _design_page()
+    pol = None
+    for el in _charts(at):
+        for df in _chart_frames(el):
+            if "label" in df.columns and "points" in df.columns:
+                pol = df
+    assert pol is not None
+    # DEVELOPERS.md convention: magnet (row 0, col 0) at -x, -y points +z; checkerboard alternates
+    first = pol.sort_values(["y_mm", "x_mm"]).iloc[0]
+    assert first["points"] == "north up"
+    assert sorted(pol["label"]) == ["N", "N", "S", "S"]
+    bom = _table(at, "grade_or_material").set_index("item")
+    n50 = catalog.get_grade("N50")
+    assert bom.loc["magnet", "count"] == 4
+    assert bom.loc["magnet", "mass_g"] == pytest.approx(4 * 12.7e-3**3 * n50.density_kg_m3 * 1e3, rel=1e-9)
+    summary = _table(at, "quantity").set_index("quantity")
+    assert summary.loc["distance to 0.5 mT", "unit"] == "cm"
+    labels = json.dumps([d.proto.columns for d in at.dataframe])
+    assert "illustrative" in labels
+    assert any(e.label == "Strong-magnet cautions" for e in at.expander)
+
+
+def test_design_heavy_payload_does_not_float_and_bad_input_is_a_message():
+    at = _design_page()
+    at.text_input(key="d_payload").set_value("1 kg").run()
+    assert not at.exception
+    assert _metric(at, "Floats") == "no"
+    at.text_input(key="d_size").set_value("-3 mm, 12.7 mm, 12.7 mm").run()
+    assert not at.exception
+    assert any("magnet size" in e.value for e in at.error)
+
+
+def test_design_file_mode_bad_toml_and_floating_magnet_schedule():
+    at = _design_page()
+    at.radio(key="design_source").set_value("design file").run()
+    at.text_area(key="design_text").set_value("[magnets\nshape = 1").run()
+    assert not at.exception
+    assert any("design" in e.value for e in at.error)
+    text = (Path(__file__).resolve().parent.parent / "examples" / "floating_magnet.toml").read_text()
+    at.text_area(key="design_text").set_value(text).run()
+    assert not at.exception, [e.message for e in at.exception]
+    sched = _table(at, "lifter_distance_mm").sort_values("payload_g")
+    # common practice: a floater sits closer to the lifter as its payload grows
+    assert (np.diff(sched["lifter_distance_mm"].to_numpy()) < 0).all()
+
+
+# ---------------------------------------------------------------------------
+# Advisor
+# ---------------------------------------------------------------------------
+
+def _advisor_page():
+    at = _app()
+    at.switch_page("pages/advisor.py").run()
+    assert not at.exception, [e.message for e in at.exception]
+    return at
+
+
+def test_advisor_ranks_pyrolytic_graphite_first_for_a_small_payload():
+    """Issue 5 ordering fact: pyrolytic graphite outranks bismuth for floating plates
+    (|chi|/density about ten times larger: handbook values)."""
+    at = _advisor_page()
+    table = _table(at, "reasons_text")
+    assert table["material"].iloc[0] == "pyrolytic-graphite"
+    assert bool(table["feasible"].iloc[0])
+    chart = _charts(at)[0]
+    pts = _frame_with(chart, "cost_usd")
+    assert {"material", "margin", "pareto"} <= set(pts.columns)
+    text = json.dumps(json.loads(chart.proto.spec))
+    assert "illustrative" in text and "worst-case margin" in text
+    assert any(d.label.startswith("Download the ranking") for d in at.get("download_button"))
+
+
+def test_advisor_bad_input_is_a_message_next_to_the_form():
+    at = _advisor_page()
+    at.text_input(key="adv_mass").set_value("-1 g")
+    at.button(key="adv_submit").click().run()
+    assert not at.exception
+    assert any("payload mass" in e.value for e in at.error)
+    at.text_input(key="adv_mass").set_value("0.2 g")
+    at.text_input(key="adv_footprint").set_value("17 x 17")
+    at.button(key="adv_submit").click().run()
+    assert not at.exception
+    assert any("footprint" in e.value for e in at.error)
+
+
+def test_advisor_choice_opens_on_the_design_page():
+    at = _advisor_page()
+    table = _table(at, "reasons_text")
+    second = int(table["rank"].iloc[1])
+    at.selectbox(key="adv_choice").set_value(second).run()
+    at.button(key="adv_open").click().run()
+    assert not at.exception, [e.message for e in at.exception]
+    assert at.title[0].value == "Design"
+    row = table.iloc[1]
+    assert f'material = "{row["material"]}"' in at.session_state["design_text"]
+    assert f'grade = "{row["grade"]}"' in at.session_state["design_text"]
+    assert _metric(at, "Floats") == ("yes" if row["feasible"] else _metric(at, "Floats"))
+
+
+# ---------------------------------------------------------------------------
+# Lab values
+# ---------------------------------------------------------------------------
+
+def test_lab_values_record_needs_a_source_and_then_is_in_use(fresh_db):
+    at = _app()
+    at.switch_page("pages/lab_values.py").run()
+    assert not at.exception, [e.message for e in at.exception]
+    at.selectbox(key="lab_material").set_value("bismuth").run()
+    before = len(_table(at, "value_kind"))
+    at.text_input(key="lab_chi").set_value("-1.6e-4")
+    at.button(key="lab_submit").click().run()
+    assert not at.exception
+    assert any("source" in e.value for e in at.error)
+    assert len(_table(at, "value_kind")) == before  # nothing written
+    at.text_input(key="lab_chi").set_value("-1.6e-4")
+    at.text_input(key="lab_source").set_value("cast plate B3, Gouy balance, notebook 4 p. 12")
+    at.button(key="lab_submit").click().run()
+    assert not at.exception
+    hist = _table(at, "value_kind")
+    assert len(hist) == before + 1
+    new = hist[hist["value_kind"] == "measured"].iloc[-1]
+    assert new["chi_si"] == pytest.approx(-1.6e-4) and bool(new["preferred"])
+    assert any("measured" in i.value for i in at.info)
+    # the value in use is the measured one everywhere (issue 7: newest measured value preferred)
+    assert catalog.get_material("bismuth", fresh_db).value_kind == "measured"
