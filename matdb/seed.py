@@ -324,6 +324,21 @@ def _upsert(session: Session, obj, pk_name: str) -> None:
     session.add(existing)
 
 
+def _upsert_value(session: Session, model, value, owner_clause) -> None:
+    """Update the published row with the same owner and source in place (ids stay stable);
+    measured rows are never matched, so they are never touched."""
+    old = session.exec(
+        select(model).where(owner_clause, model.source_key == value.source_key, model.quality != "measured")
+    ).first()
+    if old is None:
+        session.add(value)
+        return
+    for name in model.model_fields:
+        if name not in ("id", "entered_at"):
+            setattr(old, name, getattr(value, name))
+    session.add(old)
+
+
 def seed_database(engine: Engine, folder: Path | None = None) -> dict[str, int]:
     """Validate the seed files, then write them in one transaction. Idempotent."""
     data = parse_seed(folder)
@@ -339,35 +354,9 @@ def seed_database(engine: Engine, folder: Path | None = None) -> dict[str, int]:
                 _upsert(s, g, "grade")
             s.flush()
             for v in data.chi_values:
-                old = s.exec(
-                    select(SusceptibilityValue).where(
-                        SusceptibilityValue.material_id == v.material_id,
-                        SusceptibilityValue.source_key == v.source_key,
-                        SusceptibilityValue.quality != "measured",
-                    )
-                ).first()
-                if old is None:
-                    s.add(v)
-                else:
-                    for name in SusceptibilityValue.model_fields:
-                        if name not in ("id", "entered_at"):
-                            setattr(old, name, getattr(v, name))
-                    s.add(old)
+                _upsert_value(s, SusceptibilityValue, v, SusceptibilityValue.material_id == v.material_id)
             for v in data.magnet_values:
-                old = s.exec(
-                    select(MagnetValue).where(
-                        MagnetValue.grade == v.grade,
-                        MagnetValue.source_key == v.source_key,
-                        MagnetValue.quality != "measured",
-                    )
-                ).first()
-                if old is None:
-                    s.add(v)
-                else:
-                    for name in MagnetValue.model_fields:
-                        if name not in ("id", "entered_at"):
-                            setattr(old, name, getattr(v, name))
-                    s.add(old)
+                _upsert_value(s, MagnetValue, v, MagnetValue.grade == v.grade)
             s.commit()
         except BaseException:
             s.rollback()
