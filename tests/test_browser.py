@@ -113,7 +113,7 @@ def test_page_renders_and_screenshot(server, browser, path, heading):
     page = _open(browser, f"{server}/{path}")
     try:
         page.get_by_role("heading", name=heading, exact=True).first.wait_for(timeout=60_000)
-        if path in ("", "magnets"):
+        if path in ("", "magnets", "design", "advisor"):
             page.locator('[data-testid="stVegaLiteChart"] >> visible=true').first.wait_for(timeout=60_000)
             page.locator('[data-testid="stDataFrame"] >> visible=true').first.wait_for(timeout=60_000)
         _wait_idle(page)
@@ -137,5 +137,30 @@ def test_materials_unit_selector_in_browser(server, browser):
         _wait_idle(page)
         _no_exception(page, "Materials, CGS molar")
         page.screenshot(path=str(ARTIFACTS / "page-materials-cgs-molar.png"), full_page=True)
+    finally:
+        page.close()
+
+
+def test_advisor_form_fills_and_ranks_in_browser(server, browser):
+    page = _open(browser, f"{server}/advisor")
+    try:
+        page.get_by_role("heading", name="Advisor", exact=True).first.wait_for(timeout=60_000)
+        page.locator('[data-testid="stDataFrame"] >> visible=true').first.wait_for(timeout=120_000)
+        mass = page.get_by_label("Payload mass")
+        mass.fill("0.5 g")
+        page.get_by_label("Footprint (x by y)").fill("20 mm x 20 mm")
+        page.get_by_role("button", name="Rank candidates").click()
+        _wait_idle(page)
+        page.locator('[data-testid="stDataFrame"] >> visible=true').first.wait_for(timeout=120_000)
+        page.get_by_text("feasible candidate").first.wait_for(timeout=120_000)
+        _no_exception(page, "Advisor, 0.5 g over 20 mm x 20 mm")
+        ARTIFACTS.mkdir(exist_ok=True)
+        page.screenshot(path=str(ARTIFACTS / "page-advisor-ranked.png"), full_page=True)
+        page.get_by_role("button", name="Open on the Design page").click()
+        page.get_by_role("heading", name="Design", exact=True).first.wait_for(timeout=60_000)
+        page.locator('[data-testid="stVegaLiteChart"] >> visible=true').first.wait_for(timeout=120_000)
+        _wait_idle(page)
+        _no_exception(page, "Design, opened from the advisor")
+        page.screenshot(path=str(ARTIFACTS / "page-design-from-advisor.png"), full_page=True)
     finally:
         page.close()
