@@ -51,6 +51,7 @@ import json
 import math
 import os
 import re
+import threading
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
 from typing import Any, Iterable, Sequence
@@ -484,7 +485,7 @@ class GeometryData:
         if self.hmax is not None:
             arrays["hmax"] = np.array(self.hmax)
         arrays["memo"] = np.array(json.dumps(self.memo))
-        tmp = d / f".{self.key}.{os.getpid()}.tmp.npz"
+        tmp = d / f".{self.key}.{os.getpid()}.{threading.get_ident()}.tmp.npz"
         np.savez(tmp, **arrays)
         os.replace(tmp, self.path)
         self.dirty = False
@@ -1307,6 +1308,14 @@ def rank(req: AdviceRequest, arrangements: Sequence[ArrangementSpec] | None = No
     Returns the full frame (internal columns included) and the catalogue used.
     """
     cat = catalogue or build_catalogue(req, arrangements, url)
+    with _LOCK:  # the geometry caches are shared by every caller in the process (page sessions)
+        return _rank_locked(req, cat, polish, tilt_rows)
+
+
+_LOCK = threading.RLock()
+
+
+def _rank_locked(req: AdviceRequest, cat: _Catalogue, polish: int, tilt_rows: int):
     df = _evaluate(req, cat)
     df = _sort(df)
     for _ in range(6):  # until the first `tilt_rows` feasible rows have had their tilt checked
