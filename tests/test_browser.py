@@ -87,7 +87,7 @@ def browser():
 
 
 def _open(browser, url: str):
-    page = browser.new_page(viewport={"width": 1400, "height": 1000})
+    page = browser.new_page(viewport={"width": 1400, "height": 2400})
     page.goto(url, wait_until="load", timeout=60_000)
     return page
 

@@ -29,132 +29,137 @@ if "design_text" not in st.session_state:
 if "design_source" not in st.session_state:
     st.session_state["design_source"] = "form"
 
-source = st.radio("Edit the design with", ["form", "design file"], key="design_source", horizontal=True,
-                  format_func=lambda s: {"form": "the form", "design file": "a design file (TOML)"}[s])
-
+left, right = st.columns([2, 3], gap="large")
 text = None
-if source == "form":
-    mats = sh.materials_table("si-volume", url)
-    grades = sh.magnets_df(url)
-    dia = list(mats[mats["chi_si"] < 0]["id"])
-    c1, c2 = st.columns(2)
-    with c1:
-        st.markdown("**Magnets**")
-        shape = st.selectbox("Magnet shape", ["cuboid", "cylinder", "ring"], key="d_shape")
-        size_help = {"cuboid": "x, y, height", "cylinder": "diameter, height",
-                     "ring": "outer diameter, inner diameter, height"}[shape]
-        size = st.text_input(f"Magnet size ({size_help})", "12.7 mm, 12.7 mm, 12.7 mm", key="d_size")
-        for i, part in enumerate(presentation._split_lengths(size)):
-            sh.checked(lambda v: parse_length(v, "size", positive=True), part, f"magnet size, value {i + 1}")
-        glist = list(grades["grade"])
-        grade = st.selectbox("Grade", glist, index=glist.index("N50") if "N50" in glist else 0, key="d_grade")
-        pattern = st.selectbox("Arrangement", ["single", "checkerboard", "stripes", "grid"], index=1, key="d_pattern")
-        r1, r2 = st.columns(2)
-        rows = r1.number_input("Rows (along y)", 1, 40, 2, key="d_rows")
-        cols = r2.number_input("Columns (along x)", 1, 40, 2, key="d_cols")
-        spacing = st.text_input("Clear gap between magnets", "0 mm", key="d_spacing")
-        sh.checked(lambda v: parse_length(v, "spacing"), spacing, "gap between magnets")
-        back = st.checkbox("Steel back plate under the magnets", key="d_back")
-        cover = st.text_input("Cover sheet thickness", "0 mm", key="d_cover")
-        sh.checked(lambda v: parse_length(v, "cover"), cover, "cover sheet")
-    with c2:
-        st.markdown("**Plate and payload**")
-        material = st.selectbox("Plate material", dia, index=dia.index("pyrolytic-graphite")
-                                if "pyrolytic-graphite" in dia else 0, key="d_material")
-        pshape = st.selectbox("Plate shape", ["rectangle", "disc"], key="d_pshape")
-        psize = st.text_input("Plate size (" + ("x, y, thickness" if pshape == "rectangle" else "diameter, thickness")
-                              + ")", "12 mm, 12 mm, 1 mm" if pshape == "rectangle" else "12 mm, 1 mm", key="d_psize")
-        for i, part in enumerate(presentation._split_lengths(psize)):
-            sh.checked(lambda v: parse_length(v, "plate size", positive=True), part, f"plate size, value {i + 1}")
-        payload = st.text_input("Payload mass", "0.1 g", key="d_payload")
-        pheight = st.text_input("Payload centre of mass above the plate", "2 mm", key="d_pheight")
-        sh.checked(lambda v: parse_length(v, "payload height"), pheight, "payload height")
-        min_gap = st.text_input("Required gap", "0.2 mm", key="d_mingap")
-        sh.checked(lambda v: parse_length(v, "required gap"), min_gap, "required gap")
-        temp = st.text_input("Temperature", "20 degC", key="d_temp")
-        sh.checked(lambda v: parse_temperature(v, "temperature"), temp, "temperature")
-    text = presentation.design_text_from_fields(dict(
-        shape=shape, size=size, grade=grade, pattern=pattern, rows=rows, cols=cols, spacing=spacing,
-        back_plate=back, cover=cover, material=material, plate_shape=pshape, plate_size=psize,
-        payload=payload, payload_height=pheight, min_gap=min_gap, temperature=temp))
-else:
-    up = st.file_uploader("Load a design file", type=["toml"], key="design_upload")
-    if up is not None:
-        if st.session_state.get("design_upload_name") != (up.name, up.size):
-            st.session_state["design_upload_name"] = (up.name, up.size)
-            try:
-                st.session_state["design_text"] = up.getvalue().decode("utf-8")
-            except UnicodeDecodeError:
-                st.error("design file: not UTF-8 text")
-    text = st.text_area("Design (TOML; every quantity with its unit)", key="design_text", height=320)
+with left:
+    source = st.radio("Edit the design with", ["form", "design file"], key="design_source", horizontal=True,
+                      format_func=lambda s: {"form": "the form", "design file": "a design file (TOML)"}[s])
 
-# ---- parse ------------------------------------------------------------------
-try:
-    design = design_mod.load_design_text(text)
-except MatdbError as exc:
-    st.error(f"design: {exc}")
-    st.stop()
+    if source == "form":
+        mats = sh.materials_table("si-volume", url)
+        grades = sh.magnets_df(url)
+        dia = list(mats[mats["chi_si"] < 0]["id"])
+        c1, c2 = st.columns(2)
+        with c1:
+            st.markdown("**Magnets**")
+            shape = st.selectbox("Magnet shape", ["cuboid", "cylinder", "ring"], key="d_shape")
+            size_help = {"cuboid": "x, y, height", "cylinder": "diameter, height",
+                         "ring": "outer diameter, inner diameter, height"}[shape]
+            size = st.text_input(f"Magnet size ({size_help})", "12.7 mm, 12.7 mm, 12.7 mm", key="d_size")
+            for i, part in enumerate(presentation._split_lengths(size)):
+                sh.checked(lambda v: parse_length(v, "size", positive=True), part, f"magnet size, value {i + 1}")
+            glist = list(grades["grade"])
+            grade = st.selectbox("Grade", glist, index=glist.index("N50") if "N50" in glist else 0, key="d_grade")
+            pattern = st.selectbox("Arrangement", ["single", "checkerboard", "stripes", "grid"], index=1, key="d_pattern")
+            r1, r2 = st.columns(2)
+            rows = r1.number_input("Rows (along y)", 1, 40, 2, key="d_rows")
+            cols = r2.number_input("Columns (along x)", 1, 40, 2, key="d_cols")
+            spacing = st.text_input("Clear gap between magnets", "0 mm", key="d_spacing")
+            sh.checked(lambda v: parse_length(v, "spacing"), spacing, "gap between magnets")
+            back = st.checkbox("Steel back plate under the magnets", key="d_back")
+            cover = st.text_input("Cover sheet thickness", "0 mm", key="d_cover")
+            sh.checked(lambda v: parse_length(v, "cover"), cover, "cover sheet")
+        with c2:
+            st.markdown("**Plate and payload**")
+            material = st.selectbox("Plate material", dia, index=dia.index("pyrolytic-graphite")
+                                    if "pyrolytic-graphite" in dia else 0, key="d_material")
+            pshape = st.selectbox("Plate shape", ["rectangle", "disc"], key="d_pshape")
+            psize = st.text_input("Plate size (" + ("x, y, thickness" if pshape == "rectangle" else "diameter, thickness")
+                                  + ")", "12 mm, 12 mm, 1 mm" if pshape == "rectangle" else "12 mm, 1 mm", key="d_psize")
+            for i, part in enumerate(presentation._split_lengths(psize)):
+                sh.checked(lambda v: parse_length(v, "plate size", positive=True), part, f"plate size, value {i + 1}")
+            payload = st.text_input("Payload mass", "0.1 g", key="d_payload")
+            pheight = st.text_input("Payload centre of mass above the plate", "2 mm", key="d_pheight")
+            sh.checked(lambda v: parse_length(v, "payload height"), pheight, "payload height")
+            min_gap = st.text_input("Required gap", "0.2 mm", key="d_mingap")
+            sh.checked(lambda v: parse_length(v, "required gap"), min_gap, "required gap")
+            temp = st.text_input("Temperature", "20 degC", key="d_temp")
+            sh.checked(lambda v: parse_temperature(v, "temperature"), temp, "temperature")
+        text = presentation.design_text_from_fields(dict(
+            shape=shape, size=size, grade=grade, pattern=pattern, rows=rows, cols=cols, spacing=spacing,
+            back_plate=back, cover=cover, material=material, plate_shape=pshape, plate_size=psize,
+            payload=payload, payload_height=pheight, min_gap=min_gap, temperature=temp))
+    else:
+        up = st.file_uploader("Load a design file", type=["toml"], key="design_upload")
+        if up is not None:
+            if st.session_state.get("design_upload_name") != (up.name, up.size):
+                st.session_state["design_upload_name"] = (up.name, up.size)
+                try:
+                    st.session_state["design_text"] = up.getvalue().decode("utf-8")
+                except UnicodeDecodeError:
+                    st.error("design file: not UTF-8 text")
+        text = st.text_area("Design (TOML; every quantity with its unit)", key="design_text", height=320)
 
-st.download_button("Save this design (TOML)", text.encode(), file_name="design.toml",
-                   mime="application/toml", key="design_download")
-with st.expander("Design file text"):
-    st.code(text, language="toml")
+with left:
+    # ---- parse ------------------------------------------------------------------
+    try:
+        design = design_mod.load_design_text(text)
+    except MatdbError as exc:
+        st.error(f"design: {exc}")
+        st.stop()
+
+    st.download_button("Save this design (TOML)", text.encode(), file_name="design.toml",
+                       mime="application/toml", key="design_download")
+    with st.expander("Design file text"):
+        st.code(text, language="toml")
 
 # ---- results ----------------------------------------------------------------
-try:
-    with st.spinner("Computing the lift curve, stiffnesses and checks..."):
-        result = sh.levitate_text(text, None, None, url)
-except MatdbError as exc:
-    st.error(f"levitation: {exc}")
-    st.stop()
+with right:
+    try:
+        with st.spinner("Computing the lift curve, stiffnesses and checks..."):
+            result = sh.levitate_text(text, None, None, url)
+    except MatdbError as exc:
+        st.error(f"levitation: {exc}")
+        st.stop()
 
-if result.get("mode") == "stabilized":
-    st.subheader("Floating magnet: lifter distance and stability window against payload")
-    st.metric("Floats", "yes" if result.get("floats") else "no")
-    sched = presentation.stabilized_window_df(result)
-    base = alt.Chart(sched).encode(x=alt.X("payload_g:Q", title="payload (g)"))
-    lifter = base.mark_line(point=True, color="#3d6fb6").encode(
-        y=alt.Y("lifter_distance_mm:Q", title="lifter distance, floater centre to lifter face (mm)"),
-        tooltip=[alt.Tooltip("payload_g:Q", title="payload (g)", format=".3g"),
-                 alt.Tooltip("lifter_distance_mm:Q", title="lifter distance (mm)", format=".2f")])
-    window = base.mark_area(opacity=0.3, color="#1b7837").encode(
-        y=alt.Y("min_plate_distance_mm:Q", title="plate distance window (mm)"), y2="max_plate_distance_mm:Q",
-        tooltip=[alt.Tooltip("payload_g:Q", title="payload (g)", format=".3g"),
-                 alt.Tooltip("min_plate_distance_mm:Q", title="smallest plate distance (mm)", format=".2f"),
-                 alt.Tooltip("max_plate_distance_mm:Q", title="largest stable plate distance (mm)", format=".2f")])
-    st.altair_chart(alt.hconcat(lifter.properties(height=300), window.properties(height=300)), width="content")
-    st.dataframe(sched, hide_index=True, column_config={
-        "payload_g": st.column_config.NumberColumn("payload (g)", format="%.3g"),
-        "lifter_distance_mm": st.column_config.NumberColumn("lifter distance (mm)", format="%.2f"),
-        "max_plate_distance_mm": st.column_config.NumberColumn("largest plate distance (mm)", format="%.2f"),
-        "min_plate_distance_mm": st.column_config.NumberColumn("smallest plate distance (mm)", format="%.2f")})
-    for w in result.get("warnings", []):
-        st.warning(w)
-    st.stop()
+    if result.get("mode") == "stabilized":
+        st.subheader("Floating magnet: lifter distance and stability window against payload")
+        st.metric("Floats", "yes" if result.get("floats") else "no")
+        sched = presentation.stabilized_window_df(result)
+        base = alt.Chart(sched).encode(x=alt.X("payload_g:Q", title="payload (g)"))
+        lifter = base.mark_line(point=True, color="#3d6fb6").encode(
+            y=alt.Y("lifter_distance_mm:Q", title="lifter distance, floater centre to lifter face (mm)"),
+            tooltip=[alt.Tooltip("payload_g:Q", title="payload (g)", format=".3g"),
+                     alt.Tooltip("lifter_distance_mm:Q", title="lifter distance (mm)", format=".2f")])
+        window = base.mark_area(opacity=0.3, color="#1b7837").encode(
+            y=alt.Y("min_plate_distance_mm:Q", title="plate distance window (mm)"), y2="max_plate_distance_mm:Q",
+            tooltip=[alt.Tooltip("payload_g:Q", title="payload (g)", format=".3g"),
+                     alt.Tooltip("min_plate_distance_mm:Q", title="smallest plate distance (mm)", format=".2f"),
+                     alt.Tooltip("max_plate_distance_mm:Q", title="largest stable plate distance (mm)", format=".2f")])
+        st.altair_chart(alt.vconcat(lifter.properties(height=240, width=420), window.properties(height=240, width=420)),
+                        width="content")
+        st.dataframe(sched, hide_index=True, column_config={
+            "payload_g": st.column_config.NumberColumn("payload (g)", format="%.3g"),
+            "lifter_distance_mm": st.column_config.NumberColumn("lifter distance (mm)", format="%.2f"),
+            "max_plate_distance_mm": st.column_config.NumberColumn("largest plate distance (mm)", format="%.2f"),
+            "min_plate_distance_mm": st.column_config.NumberColumn("smallest plate distance (mm)", format="%.2f")})
+        for w in result.get("warnings", []):
+            st.warning(w)
+        st.stop()
 
-c1, c2, c3, c4 = st.columns(4)
-c1.metric("Floats", "yes" if result["floats"] else "no")
-c2.metric("Equilibrium gap", "-" if result["gap_m"] is None else f"{result['gap_m'] * 1e3:.3f} mm")
-c3.metric("Laterally stable", "yes" if result["laterally_stable"] else "no")
-c4.metric("0.5 mT distance", f"{result['safe_distance_m'] * 1e2:.1f} cm")
+    c1, c2, c3, c4 = st.columns(4)
+    c1.metric("Floats", "yes" if result["floats"] else "no")
+    c2.metric("Equilibrium gap", "-" if result["gap_m"] is None else f"{result['gap_m'] * 1e3:.2f} mm")
+    c3.metric("Laterally stable", "yes" if result["laterally_stable"] else "no")
+    c4.metric("0.5 mT distance", f"{result['safe_distance_m'] * 1e2:.1f} cm")
 
-st.subheader("Lift against gap")
-curve = presentation.lift_curve_df(result)
-lift = alt.Chart(curve).mark_line(color="#3d6fb6", strokeWidth=2).encode(
-    x=alt.X("gap_mm:Q", title="gap above the magnets (mm)"),
-    y=alt.Y("force_mn:Q", title="force (mN)"),
-    tooltip=[alt.Tooltip("gap_mm:Q", title="gap (mm)", format=".3f"),
-             alt.Tooltip("force_mn:Q", title="lift (mN)", format=".3g")])
-weight = alt.Chart(curve).mark_line(color="#b2182b", strokeDash=[5, 3]).encode(
-    x="gap_mm:Q", y="weight_mn:Q", tooltip=[alt.Tooltip("weight_mn:Q", title="weight, plate + payload (mN)", format=".3g")])
-layers = [lift, weight]
-if result["gap_m"] is not None:
-    eq = pd.DataFrame({"gap_mm": [result["gap_m"] * 1e3], "force_mn": [result["weight_n"] * 1e3]})
-    layers.append(alt.Chart(eq).mark_point(size=140, filled=True, color="#1b7837").encode(
-        x="gap_mm:Q", y="force_mn:Q", tooltip=[alt.Tooltip("gap_mm:Q", title="equilibrium gap (mm)", format=".3f")]))
-st.altair_chart(alt.layer(*layers).properties(height=300), width="stretch")
-st.caption("Solid: magnetic lift on the plate; dashed: weight of plate and payload; dot: where they balance "
-           "on the falling branch (the equilibrium gap).")
+    st.subheader("Lift against gap")
+    curve = presentation.lift_curve_df(result)
+    lift = alt.Chart(curve).mark_line(color="#3d6fb6", strokeWidth=2).encode(
+        x=alt.X("gap_mm:Q", title="gap above the magnets (mm)"),
+        y=alt.Y("force_mn:Q", title="force (mN)"),
+        tooltip=[alt.Tooltip("gap_mm:Q", title="gap (mm)", format=".3f"),
+                 alt.Tooltip("force_mn:Q", title="lift (mN)", format=".3g")])
+    weight = alt.Chart(curve).mark_line(color="#b2182b", strokeDash=[5, 3]).encode(
+        x="gap_mm:Q", y="weight_mn:Q", tooltip=[alt.Tooltip("weight_mn:Q", title="weight, plate + payload (mN)", format=".3g")])
+    layers = [lift, weight]
+    if result["gap_m"] is not None:
+        eq = pd.DataFrame({"gap_mm": [result["gap_m"] * 1e3], "force_mn": [result["weight_n"] * 1e3]})
+        layers.append(alt.Chart(eq).mark_point(size=140, filled=True, color="#1b7837").encode(
+            x="gap_mm:Q", y="force_mn:Q", tooltip=[alt.Tooltip("gap_mm:Q", title="equilibrium gap (mm)", format=".3f")]))
+    st.altair_chart(alt.layer(*layers).properties(height=300), width="stretch")
+    st.caption("Solid: magnetic lift on the plate; dashed: weight of plate and payload; dot: where they balance "
+               "on the falling branch (the equilibrium gap).")
 
 st.subheader("Field over the footprint, and which magnet points up")
 m1, m2 = st.columns(2)
@@ -188,7 +193,8 @@ st.altair_chart(alt.hconcat(heat, alt.layer(boxes, labels).properties(height=340
 st.subheader("Numbers")
 n1, n2 = st.columns([3, 2])
 with n1:
-    st.dataframe(presentation.plate_summary(result), hide_index=True, key="design_summary")
+    summary = presentation.plate_summary(result)
+    st.dataframe(summary, hide_index=True, key="design_summary", height=35 * (len(summary) + 1) + 3)
 with n2:
     st.markdown("**Bill of materials**")
     with sh.shown_errors("bill of materials"):

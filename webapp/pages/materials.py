@@ -47,14 +47,17 @@ para = need[need["required_t2_m"].isna()]
 compare_ids = st.session_state.get("mat_compare", [])
 diam["chosen"] = diam["id"].isin(compare_ids)
 order = list(diam["name"])
+if band is not None:
+    VERDICTS, COLOURS = ["plate floats", "small pieces only", "out of reach"], ["#1b7837", "#d98c00", "#8c8c8c"]
+else:
+    VERDICTS, COLOURS = [""], ["#3d6fb6"]
 
 points = alt.Chart(diam).mark_circle(opacity=0.9).encode(
     x=alt.X("required_t2_m:Q", scale=alt.Scale(type="log"),
             title="-B dB/dz needed to float (T^2/m, log scale)"),
-    y=alt.Y("name:N", sort=order, title=None),
-    color=alt.Color("verdict:N", title="over common NdFeB arrangements",
-                    scale=alt.Scale(domain=["plate floats", "small pieces only", "out of reach", ""],
-                                    range=["#1b7837", "#d98c00", "#8c8c8c", "#3d6fb6"])),
+    y=alt.Y("name:N", sort=order, title=None, axis=alt.Axis(labelLimit=260)),
+    color=alt.Color("verdict:N", title="over NdFeB magnets", legend=alt.Legend(labelLimit=200),
+                    scale=alt.Scale(domain=VERDICTS, range=COLOURS)),
     size=alt.condition("datum.chosen", alt.value(220), alt.value(90)),
     tooltip=[
         alt.Tooltip("name:N", title="material"),
