@@ -379,3 +379,15 @@ def test_lab_values_record_needs_a_source_and_then_is_in_use(fresh_db):
     assert any("measured" in i.value for i in at.info)
     # the value in use is the measured one everywhere (issue 7: newest measured value preferred)
     assert catalog.get_material("bismuth", fresh_db).value_kind == "measured"
+
+
+def test_design_large_magnets_show_the_strong_magnet_cautions():
+    """Issue 6: cautions visible where large magnets are proposed (matdb.levitate marks a
+    magnet over 25 mm as large)."""
+    at = _design_page()
+    at.text_input(key="d_size").set_value("30 mm, 30 mm, 15 mm").run()
+    at.text_input(key="d_psize").set_value("30 mm, 30 mm, 1 mm").run()
+    assert not at.exception, [e.message for e in at.exception]
+    assert any("Strong magnets need care" in w.value for w in at.warning)
+    exp = [e for e in at.expander if e.label == "Strong-magnet cautions"]
+    assert exp and exp[0].proto.expanded

@@ -5,6 +5,8 @@ import streamlit as st
 
 from matdb import presentation
 from matdb.errors import MatdbError
+from matdb.levitate import LARGE_MAGNET_M, LARGE_MAGNET_MASS_KG
+from matdb.physics.thermal import SAFETY_TEXT
 from matdb.units import parse_length, parse_mass, parse_temperature
 from webapp import _shared as sh
 
@@ -144,6 +146,9 @@ with sh.shown_errors("candidate design"):
     toml_text = presentation.candidate_toml(row, request)
     if row.get("reasons"):
         st.info("Rejected because: " + "; ".join(row["reasons"]))
+    big = max(row["size_m"]) > LARGE_MAGNET_M or (row.get("magnet_mass_kg") or 0) > LARGE_MAGNET_MASS_KG
+    if big:
+        st.warning(SAFETY_TEXT.replace("\n", "  \n"))
     d1, d2 = st.columns(2)
     d1.download_button("Download this design (TOML)", toml_text.encode(),
                        file_name=f"design-{row['material']}-{row['grade']}.toml", mime="application/toml",

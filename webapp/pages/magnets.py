@@ -58,10 +58,11 @@ else:
                 x="max_temp_c:Q", y=f"{field}:Q", color=color,
                 tooltip=[alt.Tooltip("grade:N"), alt.Tooltip("max_temp_c:Q", title="max working T (degC)"),
                          alt.Tooltip(f"{field}:Q", format=fmt)])
-            return alt.layer(lines, rules, dots).properties(height=320)
+            return alt.layer(lines, rules, dots).properties(height=320, width=380)
 
         chart = alt.hconcat(panel("br_t", "Br (T)", ".2f"),
-                            panel("relative_lift", "relative lift (Br/Br at 20 degC)^2", ".0%"))
+                            panel("relative_lift", "relative lift (Br/Br at 20 degC)^2", ".0%")
+                            ).configure_legend(orient="bottom", columns=4, labelLimit=200, titleLimit=200)
         st.altair_chart(chart, width="content")
         st.caption(
             "Br(T) = Br20 (1 + alpha/100 (T - 20 degC)) from each grade's reversible coefficient; lift over a "
