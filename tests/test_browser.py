@@ -88,6 +88,10 @@ def browser():
 
 def _open(browser, url: str):
     page = browser.new_page(viewport={"width": 1400, "height": 2400})
+    base = url.split("/", 3)[:3]
+    page.outside = []  # requests to anything but the local server (the page must work offline)
+    page.on("request", lambda r: r.url.split("/", 3)[:3] != base and not r.url.startswith(("data:", "blob:"))
+            and page.outside.append(r.url))
     page.goto(url, wait_until="load", timeout=60_000)
     return page
 
@@ -121,6 +125,7 @@ def test_page_renders_and_screenshot(server, browser, path, heading):
         ARTIFACTS.mkdir(exist_ok=True)
         page.screenshot(path=str(ARTIFACTS / f"page-{path or 'materials'}.png"), full_page=True)
         _no_exception(page, heading)
+        assert page.outside == [], f"page {heading!r} fetched outside resources: {page.outside[:5]}"
     finally:
         page.close()
 

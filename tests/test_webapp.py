@@ -391,3 +391,22 @@ def test_design_large_magnets_show_the_strong_magnet_cautions():
     assert any("Strong magnets need care" in w.value for w in at.warning)
     exp = [e for e in at.expander if e.label == "Strong-magnet cautions"]
     assert exp and exp[0].proto.expanded
+
+
+# ---------------------------------------------------------------------------
+# matdb serve
+# ---------------------------------------------------------------------------
+
+def test_serve_command_is_local_and_without_telemetry(run_cli):
+    from matdb.commands.serve import APP as SERVED, serve_command
+    from matdb.errors import InputError
+
+    cmd = serve_command(8765)
+    assert cmd[1:4] == ["-m", "streamlit", "run"] and Path(cmd[4]) == SERVED and SERVED.is_file()
+    opts = dict(zip(cmd[5::2], cmd[6::2]))
+    assert opts == {"--server.headless": "true", "--server.port": "8765", "--server.address": "127.0.0.1",
+                    "--browser.gatherUsageStats": "false"}
+    with pytest.raises(InputError, match="port"):
+        serve_command(70000)
+    code, out, _err = run_cli("serve", "--help")
+    assert code == 0 and "--port" in out
