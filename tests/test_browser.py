@@ -103,13 +103,14 @@ def _no_exception(page, name: str) -> None:
 
 
 def _wait_idle(page) -> None:
-    """Wait until the script run ends (Streamlit shows a status widget while running)."""
-    page.wait_for_timeout(300)
-    page.wait_for_function(
-        "() => !document.querySelector('[data-testid=\"stStatusWidget\"]')"
-        " || !document.querySelector('[data-testid=\"stStatusWidget\"]').innerText.includes('Running')",
-        timeout=90_000,
-    )
+    """Wait until the script run has ended: no running indicator and no stale (greyed,
+    from the previous run) elements, twice in a row half a second apart."""
+    idle = ("() => !document.querySelector('[data-stale=\"true\"]')"
+            " && !document.querySelector('[data-testid=\"stStatusWidget\"] [data-testid=\"stStatusWidgetRunningIcon\"]')"
+            " && !(document.querySelector('[data-testid=\"stStatusWidget\"]') || {innerText: ''}).innerText.includes('Running')")
+    for _ in range(2):
+        page.wait_for_timeout(500)
+        page.wait_for_function(idle, timeout=120_000)
 
 
 @pytest.mark.parametrize("path,heading", PAGES)
@@ -122,6 +123,9 @@ def test_page_renders_and_screenshot(server, browser, path, heading):
             page.locator('[data-testid="stDataFrame"] >> visible=true').first.wait_for(timeout=60_000)
         _wait_idle(page)
         _no_exception(page, heading)
+        # the page runs inside the app's navigation (titles in plain words), not as a bare script
+        nav = page.locator('[data-testid="stSidebarNav"]').inner_text()
+        assert [t.strip() for t in nav.splitlines() if t.strip()] == [h for _, h in PAGES]
         ARTIFACTS.mkdir(exist_ok=True)
         page.screenshot(path=str(ARTIFACTS / f"page-{path or 'materials'}.png"), full_page=True)
         _no_exception(page, heading)
@@ -157,7 +161,8 @@ def test_advisor_form_fills_and_ranks_in_browser(server, browser):
         page.get_by_role("button", name="Rank candidates").click()
         _wait_idle(page)
         page.locator('[data-testid="stDataFrame"] >> visible=true').first.wait_for(timeout=120_000)
-        page.get_by_text("feasible candidate").first.wait_for(timeout=120_000)
+        page.get_by_text("Ranked for 0.5 g over 20 mm x 20 mm").first.wait_for(timeout=120_000)
+        _wait_idle(page)
         _no_exception(page, "Advisor, 0.5 g over 20 mm x 20 mm")
         ARTIFACTS.mkdir(exist_ok=True)
         page.screenshot(path=str(ARTIFACTS / "page-advisor-ranked.png"), full_page=True)

@@ -19,7 +19,7 @@ from streamlit.dataframe_util import convert_arrow_bytes_to_pandas_df  # noqa: E
 from streamlit.testing.v1 import AppTest  # noqa: E402
 
 APP = str(Path(__file__).resolve().parent.parent / "webapp" / "app.py")
-PAGES = ["pages/materials.py", "pages/magnets.py", "pages/design.py", "pages/advisor.py", "pages/lab_values.py"]
+PAGES = ["views/materials.py", "views/magnets.py", "views/design.py", "views/advisor.py", "views/lab_values.py"]
 
 
 def _app() -> AppTest:
@@ -165,7 +165,7 @@ def test_materials_diamagnets_only():
 
 def _magnets_page():
     at = _app()
-    at.switch_page("pages/magnets.py").run()
+    at.switch_page("views/magnets.py").run()
     assert not at.exception
     return at
 
@@ -222,7 +222,7 @@ def test_magnets_empty_selection_is_a_message_not_a_crash():
 
 def _design_page():
     at = _app()
-    at.switch_page("pages/design.py").run()
+    at.switch_page("views/design.py").run()
     assert not at.exception, [e.message for e in at.exception]
     return at
 
@@ -306,7 +306,7 @@ def test_design_file_mode_bad_toml_and_floating_magnet_schedule():
 
 def _advisor_page():
     at = _app()
-    at.switch_page("pages/advisor.py").run()
+    at.switch_page("views/advisor.py").run()
     assert not at.exception, [e.message for e in at.exception]
     return at
 
@@ -359,7 +359,7 @@ def test_advisor_choice_opens_on_the_design_page():
 
 def test_lab_values_record_needs_a_source_and_then_is_in_use(fresh_db):
     at = _app()
-    at.switch_page("pages/lab_values.py").run()
+    at.switch_page("views/lab_values.py").run()
     assert not at.exception, [e.message for e in at.exception]
     at.selectbox(key="lab_material").set_value("bismuth").run()
     before = len(_table(at, "value_kind"))

@@ -1,15 +1,15 @@
-"""matdb's local page: navigation over one short script per page (webapp/pages/)."""
+"""matdb's local page: navigation over one short script per page (webapp/views/; not named pages/, which Streamlit would also serve as its own automatic pages)."""
 
 import streamlit as st
 
 st.set_page_config(page_title="matdb: diamagnetic levitation", layout="wide")
 
 PAGES = [
-    st.Page("pages/materials.py", title="Materials", default=True),
-    st.Page("pages/magnets.py", title="Magnets"),
-    st.Page("pages/design.py", title="Design"),
-    st.Page("pages/advisor.py", title="Advisor"),
-    st.Page("pages/lab_values.py", title="Lab values"),
+    st.Page("views/materials.py", title="Materials", default=True),
+    st.Page("views/magnets.py", title="Magnets"),
+    st.Page("views/design.py", title="Design"),
+    st.Page("views/advisor.py", title="Advisor"),
+    st.Page("views/lab_values.py", title="Lab values"),
 ]
 
 st.navigation(PAGES).run()

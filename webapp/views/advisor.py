@@ -82,6 +82,9 @@ if ranked.empty:
     st.warning("No candidates match these restrictions.")
     st.stop()
 table = presentation.advisor_table(ranked)
+st.caption(f"Ranked for {params['mass']} over {params['footprint']}, gap at least {params['min_gap']}, "
+           f"{params['temp_min']} to {params['temp_max']}"
+           + (f", budget {params['budget']}" if params["budget"] else "") + f"; best {int(top)} shown.")
 n_ok = int(table["feasible"].sum())
 if n_ok == 0:
     st.warning("No candidate floats this payload in the worst case; the reasons are in the table.")
@@ -156,4 +159,4 @@ with sh.shown_errors("candidate design"):
     if d2.button("Open on the Design page", key="adv_open", type="primary"):
         st.session_state["design_text"] = toml_text
         st.session_state["design_source"] = "design file"
-        st.switch_page("pages/design.py")
+        st.switch_page("views/design.py")
