@@ -410,3 +410,15 @@ def test_serve_command_is_local_and_without_telemetry(run_cli):
         serve_command(70000)
     code, out, _err = run_cli("serve", "--help")
     assert code == 0 and "--port" in out
+
+
+def test_lab_values_chart_marks_the_value_in_use():
+    at = _app()
+    at.switch_page("views/lab_values.py").run()
+    at.selectbox(key="lab_material").set_value("pyrolytic-graphite").run()
+    assert not at.exception, [e.message for e in at.exception]
+    pts = _frame_with(_charts(at)[0], "status")
+    pg = catalog.get_material("pyrolytic-graphite")
+    in_use = pts[pts["status"] == "in use"]
+    assert list(in_use["value_id"]) == [pg.value_id]
+    assert float(in_use["chi_si"].iloc[0]) == pytest.approx(pg.chi_si, rel=1e-12)

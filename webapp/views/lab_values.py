@@ -1,6 +1,7 @@
 """Lab values: record a measured susceptibility with its source, see every value of a
 material and which one the advisor and the design page use."""
 
+import altair as alt
 import pandas as pd
 import streamlit as st
 
@@ -33,12 +34,30 @@ in_use = hist[hist["preferred"]]
 if len(in_use):
     r = in_use.iloc[0]
     st.info(f"In use by the advisor and the design page: value {int(r['value_id'])} ({r['value_kind']}), "
-            f"chi = {r['chi_si']:.4g} (SI volume), from {r['source']}.")
+            f"chi = {r['chi_si']:.4e} (SI volume), from {r['source']}.")
 st.subheader("Every value of this material")
+pts = hist[["value_id", "value_kind", "chi_si", "uncertainty", "preferred", "retracted", "source"]].copy()
+pts["label"] = [f"{int(v)} ({k})" for v, k in zip(pts["value_id"], pts["value_kind"])]
+pts["uncertainty"] = pd.to_numeric(pts["uncertainty"], errors="coerce").fillna(0.0)
+pts["lo"] = pts["chi_si"] - pts["uncertainty"]
+pts["hi"] = pts["chi_si"] + pts["uncertainty"]
+pts["status"] = ["in use" if p else "retracted" if r else "kept" for p, r in zip(pts["preferred"], pts["retracted"])]
+base = alt.Chart(pts).encode(x=alt.X("label:N", title="value (id and kind), oldest first", sort=list(pts["label"])))
+bars = base.mark_rule(strokeWidth=2).encode(y=alt.Y("lo:Q", title="chi (SI volume)", axis=alt.Axis(format=".2e")),
+                                             y2="hi:Q", color=alt.Color("status:N", legend=None))
+dots = base.mark_point(filled=True, size=120).encode(
+    y="chi_si:Q", color=alt.Color("status:N", title="", scale=alt.Scale(domain=["in use", "kept", "retracted"],
+                                                                    range=["#1b7837", "#3d6fb6", "#bbbbbb"])),
+    tooltip=[alt.Tooltip("value_id:Q", title="value id"), alt.Tooltip("value_kind:N", title="kind"),
+             alt.Tooltip("chi_si:Q", title="chi (SI volume)", format=".4e"),
+             alt.Tooltip("uncertainty:Q", title="uncertainty", format=".2e"), "status:N", "source:N"])
+st.altair_chart(alt.layer(bars, dots).properties(height=240), width="stretch")
+st.caption("Bars: stated uncertainty. Nothing is ever deleted: retracted values stay, greyed.")
 cols = [c for c in ("value_id", "value_kind", "chi_si", "chi_par_si", "uncertainty", "temperature_c", "source",
                     "measured_by", "date", "method", "preferred", "retracted", "retract_reason") if c in hist.columns]
 st.dataframe(hist[cols], hide_index=True, key="lab_history", column_config={
     "value_id": "value id",
+    "value_kind": "value kind",
     "chi_si": st.column_config.NumberColumn("chi (SI volume)", format="%.4e"),
     "chi_par_si": st.column_config.NumberColumn("chi parallel (SI volume)", format="%.4e"),
     "uncertainty": st.column_config.NumberColumn("uncertainty (SI volume)", format="%.2e"),
