@@ -422,3 +422,14 @@ def test_lab_values_chart_marks_the_value_in_use():
     in_use = pts[pts["status"] == "in use"]
     assert list(in_use["value_id"]) == [pg.value_id]
     assert float(in_use["chi_si"].iloc[0]) == pytest.approx(pg.chi_si, rel=1e-12)
+
+
+def test_design_bad_payload_and_temperature_are_messages_next_to_the_fields():
+    at = _design_page()
+    at.text_input(key="d_payload").set_value("heavy").run()
+    assert not at.exception
+    assert any(e.value.startswith("payload mass:") for e in at.error)
+    at.text_input(key="d_payload").set_value("0.1 g")
+    at.text_input(key="d_temp").set_value("-300 degC").run()
+    assert not at.exception
+    assert any(e.value.startswith("temperature:") for e in at.error)

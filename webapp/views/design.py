@@ -8,7 +8,7 @@ import streamlit as st
 
 from matdb import presentation
 from matdb.errors import MatdbError
-from matdb.units import parse_length, parse_temperature
+from matdb.units import parse_length, parse_mass, parse_temperature
 from webapp import _shared as sh
 
 st.title("Design")
@@ -69,6 +69,7 @@ with left:
             for i, part in enumerate(presentation._split_lengths(psize)):
                 sh.checked(lambda v: parse_length(v, "plate size", positive=True), part, f"plate size, value {i + 1}")
             payload = st.text_input("Payload mass", "0.1 g", key="d_payload")
+            sh.checked(lambda v: parse_mass(v, "payload"), payload, "payload mass")
             pheight = st.text_input("Payload centre of mass above the plate", "2 mm", key="d_pheight")
             sh.checked(lambda v: parse_length(v, "payload height"), pheight, "payload height")
             min_gap = st.text_input("Required gap", "0.2 mm", key="d_mingap")
