@@ -552,55 +552,53 @@ def plate_summary(result: dict) -> pd.DataFrame:
 
 
 def stabilized_window_df(result: dict) -> pd.DataFrame:
-    """The schedule of a floating-magnet result: per payload (g) the lifter distance and
-    the plate-distance window (mm)."""
-    w = pd.DataFrame(result["window"])
-    out = pd.DataFrame({"payload_g": w["payload_kg"] * 1e3, "lifter_distance_mm": w["lifter_distance_m"] * 1e3})
-    out["max_plate_distance_mm"] = pd.to_numeric(w.get("max_plate_distance_m"), errors="coerce") * 1e3
-    out["min_plate_distance_mm"] = pd.to_numeric(w.get("min_plate_distance_m"), errors="coerce") * 1e3
-    return out
+    """The schedule of a floating-magnet result, long format: per payload (g) and
+    station, the lifter distance and the plate-distance window (mm). Columns
+    ``payload_g``, ``station``, ``lifter_distance_mm``, ``min_plate_distance_mm``,
+    ``max_plate_distance_mm``. One station is called "floater"."""
+    stations = result.get("stations") or []
+    names = [st.get("name") or f"station {i + 1}" for i, st in enumerate(stations)]
+    st_min = [st.get("min_plate_distance_m") for st in stations]
+
+    def pick(v, i):
+        if isinstance(v, (list, tuple)):
+            return v[i] if i < len(v) else None
+        return v
+
+    rows = []
+    for w in result.get("window", []):
+        lifts = w.get("lifter_distance_m")
+        n = len(lifts) if isinstance(lifts, (list, tuple)) else 1
+        for i in range(n):
+            mn = pick(w.get("min_plate_distance_m"), i)
+            if mn is None and i < len(st_min):
+                mn = st_min[i]
+            if mn is None:
+                mn = result.get("min_plate_distance_m")
+            mx = pick(w.get("max_plate_distance_m"), i)
+            ld = pick(lifts, i)
+            rows.append({
+                "payload_g": float(w["payload_kg"]) * 1e3,
+                "station": names[i] if n > 1 and i < len(names) else ("floater" if n == 1 else f"station {i + 1}"),
+                "lifter_distance_mm": None if ld is None else float(ld) * 1e3,
+                "min_plate_distance_mm": None if mn is None else float(mn) * 1e3,
+                "max_plate_distance_mm": None if mx is None else float(mx) * 1e3,
+            })
+    df = pd.DataFrame(rows, columns=["payload_g", "station", "lifter_distance_mm", "min_plate_distance_mm",
+                                     "max_plate_distance_mm"])
+    for c in ("lifter_distance_mm", "min_plate_distance_mm", "max_plate_distance_mm"):
+        df[c] = pd.to_numeric(df[c], errors="coerce").astype(float)
+    return df
 
 
-# ---------------------------------------------------------------------------
-# advisor page
-# ---------------------------------------------------------------------------
-
-ADVISOR_SHOWN = ["rank", "material", "grade", "arrangement", "thickness_mm", "feasible", "margin", "gap_mm",
-                 "gap_worst_mm", "derating_pct", "cost_usd", "score", "pareto", "reasons_text"]
-
-
-def advisor_table(df: pd.DataFrame) -> pd.DataFrame:
-    """The ranking of :func:`matdb.advisor.advise` for people: lengths in mm, reasons as
-    one sentence list (``reasons_text``); the other columns as they are."""
-    out = df.copy()
-    out["thickness_mm"] = out["thickness_m"] * 1e3
-    out["gap_mm"] = pd.to_numeric(out["gap_m"], errors="coerce") * 1e3
-    out["gap_worst_mm"] = pd.to_numeric(out["gap_worst_m"], errors="coerce") * 1e3
-    out["reasons_text"] = [
-        "; ".join(list(r) + [n for n in (notes if isinstance(notes, list) else [])])
-        for r, notes in zip(out["reasons"], out.get("notes", [[]] * len(out)))
-    ]
-    return out
-
-
-def ranking_csv(df: pd.DataFrame) -> str:
-    """The full ranking as CSV, exact values (lists joined with '; ')."""
-    out = df.copy()
-    for col in out.columns:
-        if out[col].map(lambda v: isinstance(v, (list, tuple))).any():
-            out[col] = out[col].map(lambda v: "; ".join(str(x) for x in v) if isinstance(v, (list, tuple)) else v)
-    return out.to_csv(index=False)
-
-
-def candidate_label(row) -> str:
-    ok = "feasible" if row["feasible"] else "rejected"
-    return (f"#{int(row['rank'])}: {row['material']} {row['thickness_m'] * 1e3:.3g} mm over "
-            f"{row['arrangement']}, {row['grade']} ({ok})")
-
-
-def candidate_toml(row: dict, request) -> str:
-    """Design-file text of one ranked candidate (what ``matdb advise --save`` writes)."""
-    from .advisor import candidate_design
-    from .design import design_to_toml
-
-    return design_to_toml(candidate_design(dict(row), request))
+def stations_df(result: dict) -> pd.DataFrame:
+    """Per station of a multi-floater result: name, position (mm), share of the weight,
+    lifter distance (mm), stable."""
+    rows = []
+    for i, st in enumerate(result.get("stations") or []):
+        rows.append({"station": st.get("name") or f"station {i + 1}",
+                     "x_mm": st.get("x_m", 0.0) * 1e3, "y_mm": st.get("y_m", 0.0) * 1e3,
+                     "share_pct": None if st.get("share_fraction") is None else st["share_fraction"] * 100,
+                     "lifter_distance_mm": None if st.get("lifter_distance_m") is None else st["lifter_distance_m"] * 1e3,
+                     "stable": bool(st.get("stable"))})
+    return pd.DataFrame(rows)

@@ -433,3 +433,19 @@ def test_design_bad_payload_and_temperature_are_messages_next_to_the_fields():
     at.text_input(key="d_temp").set_value("-300 degC").run()
     assert not at.exception
     assert any(e.value.startswith("temperature:") for e in at.error)
+
+
+def test_design_two_floaters_schedule_and_weight_shares():
+    at = _design_page()
+    at.radio(key="design_source").set_value("design file").run()
+    text = (Path(__file__).resolve().parent.parent / "examples" / "floating_magnet_two_stations.toml").read_text()
+    at.text_area(key="design_text").set_value(text).run()
+    assert not at.exception, [e.message for e in at.exception]
+    sched = _table(at, "min_plate_distance_mm")
+    assert sched["station"].nunique() == 2
+    stations = _table(at, "share_pct")
+    # statics of a rigid body on supports: the shares of the weight add up to all of it
+    assert stations["share_pct"].sum() == pytest.approx(100.0, rel=1e-9)
+    # common practice: each floater sits closer to its lifter as the payload grows
+    for _, part in sched.groupby("station"):
+        assert (np.diff(part.sort_values("payload_g")["lifter_distance_mm"].to_numpy()) < 0).all()

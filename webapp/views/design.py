@@ -117,23 +117,37 @@ with right:
         st.subheader("Floating magnet: lifter distance and stability window against payload")
         st.metric("Floats", "yes" if result.get("floats") else "no")
         sched = presentation.stabilized_window_df(result)
-        base = alt.Chart(sched).encode(x=alt.X("payload_g:Q", title="payload (g)"))
-        lifter = base.mark_line(point=True, color="#3d6fb6").encode(
-            y=alt.Y("lifter_distance_mm:Q", title="lifter distance, floater centre to lifter face (mm)"),
-            tooltip=[alt.Tooltip("payload_g:Q", title="payload (g)", format=".3g"),
+        colour = alt.Color("station:N", title="station")
+        base = alt.Chart(sched).encode(x=alt.X("payload_g:Q", title="payload (g)"), color=colour)
+        lifter = base.mark_line(point=True).encode(
+            y=alt.Y("lifter_distance_mm:Q", title="lifter distance, floater centre to lifter face (mm)",
+                    scale=alt.Scale(zero=False)),
+            tooltip=["station:N", alt.Tooltip("payload_g:Q", title="payload (g)", format=".3g"),
                      alt.Tooltip("lifter_distance_mm:Q", title="lifter distance (mm)", format=".2f")])
-        window = base.mark_area(opacity=0.3, color="#1b7837").encode(
-            y=alt.Y("min_plate_distance_mm:Q", title="plate distance window (mm)"), y2="max_plate_distance_mm:Q",
-            tooltip=[alt.Tooltip("payload_g:Q", title="payload (g)", format=".3g"),
+        window = base.mark_area(opacity=0.25).encode(
+            y=alt.Y("min_plate_distance_mm:Q", title="stable plate distance, floater centre to plate (mm)",
+                    scale=alt.Scale(zero=False)), y2="max_plate_distance_mm:Q",
+            tooltip=["station:N", alt.Tooltip("payload_g:Q", title="payload (g)", format=".3g"),
                      alt.Tooltip("min_plate_distance_mm:Q", title="smallest plate distance (mm)", format=".2f"),
                      alt.Tooltip("max_plate_distance_mm:Q", title="largest stable plate distance (mm)", format=".2f")])
         st.altair_chart(alt.vconcat(lifter.properties(height=240, width=420), window.properties(height=240, width=420)),
                         width="content")
+        st.caption("Top: where to set the lifter for each payload. Bottom: the band of plate distances that "
+                   "keeps the floater stable; it narrows as the payload grows.")
         st.dataframe(sched, hide_index=True, column_config={
             "payload_g": st.column_config.NumberColumn("payload (g)", format="%.3g"),
             "lifter_distance_mm": st.column_config.NumberColumn("lifter distance (mm)", format="%.2f"),
             "max_plate_distance_mm": st.column_config.NumberColumn("largest plate distance (mm)", format="%.2f"),
             "min_plate_distance_mm": st.column_config.NumberColumn("smallest plate distance (mm)", format="%.2f")})
+        stations = presentation.stations_df(result)
+        if len(stations):
+            st.dataframe(stations, hide_index=True, column_config={
+                "x_mm": st.column_config.NumberColumn("x (mm)", format="%.1f"),
+                "y_mm": st.column_config.NumberColumn("y (mm)", format="%.1f"),
+                "share_pct": st.column_config.NumberColumn("share of the weight (%)", format="%.1f"),
+                "lifter_distance_mm": st.column_config.NumberColumn("lifter distance (mm)", format="%.2f")})
+        if result.get("safe_distance_m") is not None:
+            st.caption(f"Keep implants at least {result['safe_distance_m'] * 1e2:.1f} cm from the magnets (0.5 mT).")
         for w in result.get("warnings", []):
             st.warning(w)
         st.stop()
