@@ -602,3 +602,48 @@ def stations_df(result: dict) -> pd.DataFrame:
                      "lifter_distance_mm": None if st.get("lifter_distance_m") is None else st["lifter_distance_m"] * 1e3,
                      "stable": bool(st.get("stable"))})
     return pd.DataFrame(rows)
+
+
+# ---------------------------------------------------------------------------
+# advisor page
+# ---------------------------------------------------------------------------
+
+ADVISOR_SHOWN = ["rank", "material", "grade", "arrangement", "thickness_mm", "feasible", "margin", "gap_mm",
+                 "gap_worst_mm", "derating_pct", "cost_usd", "score", "pareto", "reasons_text"]
+
+
+def advisor_table(df: pd.DataFrame) -> pd.DataFrame:
+    """The ranking of :func:`matdb.advisor.advise` for people: lengths in mm, reasons as
+    one sentence list (``reasons_text``); the other columns as they are."""
+    out = df.copy()
+    out["thickness_mm"] = out["thickness_m"] * 1e3
+    out["gap_mm"] = pd.to_numeric(out["gap_m"], errors="coerce") * 1e3
+    out["gap_worst_mm"] = pd.to_numeric(out["gap_worst_m"], errors="coerce") * 1e3
+    out["reasons_text"] = [
+        "; ".join(list(r) + [n for n in (notes if isinstance(notes, list) else [])])
+        for r, notes in zip(out["reasons"], out.get("notes", [[]] * len(out)))
+    ]
+    return out
+
+
+def ranking_csv(df: pd.DataFrame) -> str:
+    """The full ranking as CSV, exact values (lists joined with '; ')."""
+    out = df.copy()
+    for col in out.columns:
+        if out[col].map(lambda v: isinstance(v, (list, tuple))).any():
+            out[col] = out[col].map(lambda v: "; ".join(str(x) for x in v) if isinstance(v, (list, tuple)) else v)
+    return out.to_csv(index=False)
+
+
+def candidate_label(row) -> str:
+    ok = "feasible" if row["feasible"] else "rejected"
+    return (f"#{int(row['rank'])}: {row['material']} {row['thickness_m'] * 1e3:.3g} mm over "
+            f"{row['arrangement']}, {row['grade']} ({ok})")
+
+
+def candidate_toml(row: dict, request) -> str:
+    """Design-file text of one ranked candidate (what ``matdb advise --save`` writes)."""
+    from .advisor import candidate_design
+    from .design import design_to_toml
+
+    return design_to_toml(candidate_design(dict(row), request))
