@@ -72,6 +72,8 @@ def clear_catalog_caches() -> None:
     magnets_df.clear()
     grade_curves.clear()
     levitate_text.clear()
+    field_map.clear()
+    arrangement_reach.clear()
     advise.clear()
 
 
