@@ -1156,6 +1156,30 @@ def _row_magnet(c: dict[str, str], grade: str, source_keys: set[str]) -> MagnetV
     return v
 
 
+def _plan_value(plan, kind: str, owner: str, v, pref: bool, existing: dict, same_fn, pinned: set) -> None:
+    """Plan one imported value row: skip it when the database already holds the same row
+    (a published row for the same source counts as the same), carrying over a retraction
+    or a preference; otherwise plan the insert. ``pinned`` owners already got a preference."""
+    rows = existing.get(owner, [])
+    same = next((o for o in rows if same_fn(o, v)), None)
+    if same is None and v.quality != "measured":
+        # a published value: the database's own published row for that source wins
+        same = next((o for o in rows if o.quality != "measured" and o.source_key == v.source_key), None)
+    if same is not None:
+        plan.skipped += 1
+        if same.id is not None:
+            if v.retracted and not same.retracted and same.quality == "measured":
+                plan.retractions.append((same, v.retract_reason))
+            if pref and owner not in pinned:
+                plan.preferences.append((kind, same))
+                pinned.add(owner)
+        return
+    existing.setdefault(owner, []).append(v)
+    plan.values.append((kind, v, pref and owner not in pinned))
+    if pref:
+        pinned.add(owner)
+
+
 def _plan_import(s: Session, rows: list[tuple[str, dict[str, str]]], label: str) -> _Plan:
     errors: list[str] = []
     plan = _Plan([], [], [], [], [], [], 0)
@@ -1271,24 +1295,7 @@ def _plan_import(s: Session, rows: list[tuple[str, dict[str, str]]], label: str)
                                                origin="user", price_illustrative=True))
             v = _row_chi(s, c, mat, source_keys)
             pref = _bool(c.get("preference_set"), "preference_set")
-            same = next((o for o in existing_chi.get(mid, []) if _same_chi(o, v)), None)
-            if same is None and v.quality != "measured":
-                # a published value: the database's own published row for that source wins
-                same = next((o for o in existing_chi.get(mid, [])
-                             if o.quality != "measured" and o.source_key == v.source_key), None)
-            if same is not None:
-                plan.skipped += 1
-                if isinstance(same, SusceptibilityValue) and same.id is not None:
-                    if v.retracted and not same.retracted and same.quality == "measured":
-                        plan.retractions.append((same, v.retract_reason))
-                    if pref and mid not in pinned_materials:
-                        plan.preferences.append(("material", same))
-                        pinned_materials.add(mid)
-                continue
-            existing_chi.setdefault(mid, []).append(v)
-            plan.values.append(("material", v, pref and mid not in pinned_materials))
-            if pref:
-                pinned_materials.add(mid)
+            _plan_value(plan, "material", mid, v, pref, existing_chi, _same_chi, pinned_materials)
         except InputError as exc:
             bad(loc, exc)
 
@@ -1302,23 +1309,7 @@ def _plan_import(s: Session, rows: list[tuple[str, dict[str, str]]], label: str)
                 raise InputError(f"id: unknown magnet grade {gid!r} (add a grade row for it)")
             v = _row_magnet(c, name, source_keys)
             pref = _bool(c.get("preference_set"), "preference_set")
-            same = next((o for o in existing_mag.get(name, []) if _same_magnet(o, v)), None)
-            if same is None and v.quality != "measured":
-                same = next((o for o in existing_mag.get(name, [])
-                             if o.quality != "measured" and o.source_key == v.source_key), None)
-            if same is not None:
-                plan.skipped += 1
-                if same.id is not None:
-                    if v.retracted and not same.retracted and same.quality == "measured":
-                        plan.retractions.append((same, v.retract_reason))
-                    if pref and name not in pinned_grades:
-                        plan.preferences.append(("magnet", same))
-                        pinned_grades.add(name)
-                continue
-            existing_mag.setdefault(name, []).append(v)
-            plan.values.append(("magnet", v, pref and name not in pinned_grades))
-            if pref:
-                pinned_grades.add(name)
+            _plan_value(plan, "magnet", name, v, pref, existing_mag, _same_magnet, pinned_grades)
         except InputError as exc:
             bad(loc, exc)
 
