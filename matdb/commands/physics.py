@@ -160,7 +160,8 @@ def format_levitate(r: dict) -> str:
         ("material / grade", f"{r.get('material')} / {r.get('grade')}"),
         ("chi_perp / chi_par (SI)", f"{_num(r.get('chi_perp_si'), 1, 3)} / {_num(r.get('chi_par_si'), 1, 3)}"
          f"  ({r.get('chi_value_kind')})"),
-        ("temperature", f"{_num(r.get('temperature_k'), 1, 5)} K"),
+        ("temperature", "-" if r.get("temperature_k") is None
+         else f"{r['temperature_k'] - 273.15:.4g} C ({r['temperature_k']:.5g} K)"),
     ]
     width = max(len(k) for k, _ in rows)
     lines = [f"{k.ljust(width)}  {v}" for k, v in rows]
