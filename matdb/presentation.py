@@ -30,6 +30,7 @@ import pandas as pd
 
 from . import catalog
 from .errors import InputError
+from .output import csv_text
 from .units import CONVENTIONS, G_STANDARD, MU0, chi_from_si_volume
 
 # ---------------------------------------------------------------------------
@@ -632,7 +633,7 @@ def ranking_csv(df: pd.DataFrame) -> str:
     for col in out.columns:
         if out[col].map(lambda v: isinstance(v, (list, tuple))).any():
             out[col] = out[col].map(lambda v: "; ".join(str(x) for x in v) if isinstance(v, (list, tuple)) else v)
-    return out.to_csv(index=False)
+    return csv_text(out)
 
 
 def candidate_label(row) -> str:

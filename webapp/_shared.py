@@ -6,6 +6,7 @@ from __future__ import annotations
 
 import importlib
 import os
+import re
 from contextlib import contextmanager
 
 import streamlit as st
@@ -13,6 +14,34 @@ import streamlit as st
 from matdb import catalog, presentation
 from matdb.db import default_url
 from matdb.errors import MatdbError
+from matdb.output import csv_text
+
+# every ASCII punctuation character may be backslash-escaped in CommonMark (spec 0.31, section 2.4)
+_MARKDOWN_PUNCT = re.compile(r"([!-/:-@\[-`{-~])")
+
+
+def plain(text) -> str:
+    """Text shown exactly as typed in a Streamlit element that renders Markdown
+    (``st.info``, ``st.error``, ``st.caption``...): every ASCII punctuation character is
+    backslash-escaped, so no link, image, emphasis, HTML or directive is made from user text
+    (notes, sources, names, error messages quoting input). Line breaks are kept."""
+    return "  \n".join(_MARKDOWN_PUNCT.sub(r"\\\1", line) for line in str(text).split("\n"))
+
+
+def csv_bytes(df) -> bytes:
+    """A table as CSV for ``st.download_button``: the same escaping as every CSV matdb writes."""
+    return csv_text(df).encode("utf-8")
+
+
+def run_page(page) -> None:
+    """Run one page; a matdb error that no page caught shows as one line. Any other error is
+    left to Streamlit, which with ``client.showErrorDetails = "none"`` (.streamlit/config.toml
+    and ``matdb serve``) shows a one-line notice in the browser and logs the traceback to the
+    server's standard error."""
+    try:
+        page.run()
+    except MatdbError as exc:
+        st.error(plain(str(exc).replace("\n", " ")))
 
 
 def db_url() -> str:
@@ -29,7 +58,7 @@ def module_or_none(name: str):
 
 
 def not_available(what: str) -> None:
-    st.info(f"{what} is not available yet in this version of matdb.")
+    st.info(plain(f"{what} is not available yet in this version of matdb."))
 
 
 @contextmanager
@@ -39,7 +68,7 @@ def shown_errors(where: str | None = None):
     try:
         yield
     except MatdbError as exc:
-        st.error(f"{where}: {exc}" if where else str(exc))
+        st.error(plain(f"{where}: {exc}" if where else str(exc)))
 
 
 # ---------------------------------------------------------------------------
@@ -100,7 +129,7 @@ def checked(parse, value: str, where: str):
     try:
         return parse(value)
     except MatdbError as exc:
-        st.error(f"{where}: {exc}")
+        st.error(plain(f"{where}: {exc}"))
         return None
 
 

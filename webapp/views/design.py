@@ -96,7 +96,7 @@ with left:
     try:
         design = design_mod.load_design_text(text)
     except MatdbError as exc:
-        st.error(f"design: {exc}")
+        st.error(sh.plain(f"design: {exc}"))
         st.stop()
 
     st.download_button("Save this design (TOML)", text.encode(), file_name="design.toml",
@@ -110,7 +110,7 @@ with right:
         with st.spinner("Computing the lift curve, stiffnesses and checks..."):
             result = sh.levitate_text(text, None, None, url)
     except MatdbError as exc:
-        st.error(f"levitation: {exc}")
+        st.error(sh.plain(f"levitation: {exc}"))
         st.stop()
 
     if result.get("mode") == "stabilized":
@@ -149,7 +149,7 @@ with right:
         if result.get("safe_distance_m") is not None:
             st.caption(f"Keep implants at least {result['safe_distance_m'] * 1e2:.1f} cm from the magnets (0.5 mT).")
         for w in result.get("warnings", []):
-            st.warning(w)
+            st.warning(sh.plain(w))
         st.stop()
 
     c1, c2, c3, c4 = st.columns(4)
@@ -227,7 +227,7 @@ with n2:
 st.subheader("Warnings and cautions")
 warns = result.get("warnings", [])
 for w in warns:
-    st.warning(w)
+    st.warning(sh.plain(w))
 if not warns:
     st.success("No warnings.")
 from matdb.physics.thermal import SAFETY_TEXT  # noqa: E402
