@@ -617,8 +617,7 @@ def schedule_csv(result: dict) -> str:
     """The schedule as CSV, SI columns (what ``matdb levitate --format csv`` prints)."""
     from .commands.physics import SCHEDULE_COLUMNS, schedule_records
 
-    return pd.DataFrame(schedule_records(result), columns=list(SCHEDULE_COLUMNS)).to_csv(
-        index=False, float_format="%.10g")
+    return csv_text(pd.DataFrame(schedule_records(result), columns=list(SCHEDULE_COLUMNS)), float_format="%.10g")
 
 
 def stations_df(result: dict) -> pd.DataFrame:

@@ -135,7 +135,7 @@ with right:
                 with st.spinner("Computing the schedule over the payload range..."):
                     result = sh.levitate_text(text, None, None, url, payloads, res_m)
             except MatdbError as exc:
-                st.error(f"payload range: {exc}")
+                st.error(sh.plain(f"payload range: {exc}"))
                 st.stop()
         wm = result.get("window_min_m")
         st.caption("Narrowest window of plate distances over the schedule: "
