@@ -244,10 +244,13 @@ def _find_grade(s: Session, grade: str) -> Optional[MagnetGrade]:
     return None
 
 
-def _pause_hook(written: int) -> None:
-    """Crash-test hook: with MATDB_TEST_IMPORT_PAUSE_AFTER=N, stop for a minute after N rows."""
+def _pause_hook(written: int, session: Optional[Session] = None) -> None:
+    """Crash-test hook: with MATDB_TEST_IMPORT_PAUSE_AFTER=N, stop for a minute after N rows
+    (flushed to the database inside the open transaction)."""
     env = os.environ.get(PAUSE_ENV, "").strip()
     if env and env.isdigit() and written == int(env):
+        if session is not None:
+            session.flush()
         print(f"matdb: import paused after {written} rows", file=sys.stderr, flush=True)
         time.sleep(120)
 
@@ -1216,6 +1219,9 @@ def _plan_import(s: Session, rows: list[tuple[str, dict[str, str]]], label: str)
         kinds[rec].append((loc, c))
 
     source_keys = set(s.exec(select(Source.key)).all()) | {LAB_SOURCE_KEY}
+    # strong references: the session's identity map holds rows weakly, so without these every
+    # s.get(Material, id) of a row would be a new query (one per imported row)
+    held = (s.exec(select(Material)).all(), s.exec(select(MagnetGrade)).all())
     for loc, c in kinds["source"]:
         try:
             key = _text(c.get("id"))
@@ -1328,6 +1334,7 @@ def _plan_import(s: Session, rows: list[tuple[str, dict[str, str]]], label: str)
         except InputError as exc:
             bad(loc, exc)
 
+    del held
     if errors:
         n = len(errors)
         raise InputError(f"{label}: {n} bad row{'s' if n > 1 else ''}, nothing imported: " + "; ".join(errors))
@@ -1366,11 +1373,13 @@ def import_file(path: Any, *, dry_run: bool = False, url: Optional[str] = None) 
         s.flush()
         pins: list[tuple[str, Any]] = []
         for i, (kind, v, pref) in enumerate(plan.values, start=1):
-            s.add(v)
-            s.flush()
-            _pause_hook(i)
+            s.add(v)  # inserted in batches (executemany), not one flush per row
+            if i % 2000 == 0:
+                s.flush()
+            _pause_hook(i, s)
             if pref:
                 pins.append((kind, v))
+        s.flush()
         for v, why in plan.retractions:
             v.retracted = True
             v.retract_reason = why

@@ -405,7 +405,7 @@ def test_serve_command_is_local_and_without_telemetry(run_cli):
     assert cmd[1:4] == ["-m", "streamlit", "run"] and Path(cmd[4]) == SERVED and SERVED.is_file()
     opts = dict(zip(cmd[5::2], cmd[6::2]))
     assert opts == {"--server.headless": "true", "--server.port": "8765", "--server.address": "127.0.0.1",
-                    "--browser.gatherUsageStats": "false"}
+                    "--browser.gatherUsageStats": "false", "--client.showErrorDetails": "none"}
     with pytest.raises(InputError, match="port"):
         serve_command(70000)
     code, out, _err = run_cli("serve", "--help")
