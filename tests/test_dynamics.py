@@ -392,3 +392,19 @@ def test_cli_dynamics_json_and_errors(run_cli):
     assert code == 2 and err.count("\n") == 1 and "--pressure" in err
     code, out, err = run_cli("conductivities", "--format", "csv")
     assert code == 0 and "pyrolytic-graphite" in out
+
+
+def test_database_without_conductivity_rows_gets_them_from_the_seed(fresh_db):
+    """A database upgraded from the baseline has an empty conductivity table; the first
+    lookup fills it from seed_data (idempotent seed write) -- regression check."""
+    from sqlmodel import Session, delete
+
+    from matdb import db
+    from matdb.catalog import get_conductivity
+    from matdb.models import ConductivityValue
+
+    with Session(db.get_engine(fresh_db)) as s:
+        s.exec(delete(ConductivityValue))
+        s.commit()
+    c = get_conductivity("bismuth", fresh_db)
+    assert c is not None and c.sigma_in_plane_s_m > 1e5
