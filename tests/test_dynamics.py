@@ -408,3 +408,23 @@ def test_database_without_conductivity_rows_gets_them_from_the_seed(fresh_db):
         s.commit()
     c = get_conductivity("bismuth", fresh_db)
     assert c is not None and c.sigma_in_plane_s_m > 1e5
+
+
+def test_advisor_lowest_noise_floor_and_minimum_q():
+    """Objective "lowest noise floor": at 1e-3 Pa the insulating composite has no eddy
+    damping (Chen et al. 2022), so it ranks above pyrolytic graphite; a minimum Q of 100
+    rejects the eddy-limited graphite plate with the reason in words. Rows shown are
+    solved exactly."""
+    from matdb import advisor as A
+
+    arrs = [A.ArrangementSpec("cuboid", (0.0127,) * 3, "checkerboard", 2, 2)]
+    df = A.advise("0 g", "10 mm x 10 mm", thickness="0.5 mm",
+                  materials=["pyrolytic-graphite", "graphite-composite"], grades=["N42"],
+                  arrangements=arrs, objective="noise", pressure_pa=1e-3, min_q=100, top=5)
+    assert list(df["material"])[:2] == ["graphite-composite", "pyrolytic-graphite"]
+    top, pg = df.iloc[0], df.iloc[1]
+    assert bool(top["feasible"]) and bool(top["dynamics_exact"])
+    assert not bool(pg["feasible"]) and any("below the minimum 100" in r for r in pg["reasons"])
+    assert top["noise_m_s2_rthz"] < pg["noise_m_s2_rthz"]
+    recs = A.records(df)
+    assert recs[0]["dynamics_exact"] is True and recs[0]["q_vertical"] > 100
