@@ -676,3 +676,14 @@ def candidate_toml(row: dict, request) -> str:
     from .design import design_to_toml
 
     return design_to_toml(candidate_design(dict(row), request))
+
+
+def stability_scan_df(rows: list[dict]) -> pd.DataFrame:
+    """:func:`matdb.levitate.stability_scan` records for people: ``side_mm``,
+    ``floats``, ``gap_mm`` (NaN when it does not float), ``laterally_stable``,
+    ``is_design``."""
+    df = pd.DataFrame(rows, columns=["side_m", "floats", "gap_m", "laterally_stable", "is_design"])
+    return pd.DataFrame({"side_mm": df["side_m"].astype(float) * 1e3, "floats": df["floats"].astype(bool),
+                         "gap_mm": pd.to_numeric(df["gap_m"], errors="coerce").astype(float) * 1e3,
+                         "laterally_stable": df["laterally_stable"].astype(bool),
+                         "is_design": df["is_design"].astype(bool)})

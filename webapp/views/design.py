@@ -2,13 +2,12 @@
 
 import math
 
-import altair as alt
-import pandas as pd
 import streamlit as st
 
-from matdb import presentation
+from matdb import charts, presentation
 from matdb.errors import MatdbError
 from matdb.units import parse_length, parse_mass, parse_temperature
+from webapp import _downloads
 from webapp import _shared as sh
 
 st.title("Design")
@@ -104,6 +103,8 @@ with left:
                        mime="application/toml", key="design_download")
     with st.expander("Design file text"):
         st.code(text, language="toml")
+    st.markdown("**Report and drawing**")
+    _downloads.report_buttons(text, url, "design")
 
 # ---- results ----------------------------------------------------------------
 with right:
@@ -141,21 +142,7 @@ with right:
         st.caption("Narrowest window of plate distances over the schedule: "
                    + ("none (some payload has no stable plate distance)" if wm is None else f"{wm * 1e3:.3g} mm"))
         sched = presentation.stabilized_window_df(result)
-        colour = alt.Color("station:N", title="station")
-        base = alt.Chart(sched).encode(x=alt.X("payload_g:Q", title="payload (g)"), color=colour)
-        lifter = base.mark_line(point=True).encode(
-            y=alt.Y("lifter_distance_mm:Q", title="lifter distance, floater centre to lifter face (mm)",
-                    scale=alt.Scale(zero=False)),
-            tooltip=["station:N", alt.Tooltip("payload_g:Q", title="payload (g)", format=".3g"),
-                     alt.Tooltip("lifter_distance_mm:Q", title="lifter distance (mm)", format=".2f")])
-        window = base.mark_area(opacity=0.25).encode(
-            y=alt.Y("min_plate_distance_mm:Q", title="stable plate distance, floater centre to plate (mm)",
-                    scale=alt.Scale(zero=False)), y2="max_plate_distance_mm:Q",
-            tooltip=["station:N", alt.Tooltip("payload_g:Q", title="payload (g)", format=".3g"),
-                     alt.Tooltip("min_plate_distance_mm:Q", title="smallest plate distance (mm)", format=".2f"),
-                     alt.Tooltip("max_plate_distance_mm:Q", title="largest stable plate distance (mm)", format=".2f")])
-        st.altair_chart(alt.vconcat(lifter.properties(height=240, width=420), window.properties(height=240, width=420)),
-                        width="content")
+        st.altair_chart(charts.schedule_chart(sched), width="content")
         st.caption("Top: where to set the lifter for each payload. Bottom: the band of plate distances that "
                    "keeps the floater stable; it narrows as the payload grows.")
         st.dataframe(sched, hide_index=True, column_config={
@@ -190,20 +177,7 @@ with right:
     c4.metric("0.5 mT distance", f"{result['safe_distance_m'] * 1e2:.1f} cm")
 
     st.subheader("Lift against gap")
-    curve = presentation.lift_curve_df(result)
-    lift = alt.Chart(curve).mark_line(color="#3d6fb6", strokeWidth=2).encode(
-        x=alt.X("gap_mm:Q", title="gap above the magnets (mm)"),
-        y=alt.Y("force_mn:Q", title="force (mN)"),
-        tooltip=[alt.Tooltip("gap_mm:Q", title="gap (mm)", format=".3f"),
-                 alt.Tooltip("force_mn:Q", title="lift (mN)", format=".3g")])
-    weight = alt.Chart(curve).mark_line(color="#b2182b", strokeDash=[5, 3]).encode(
-        x="gap_mm:Q", y="weight_mn:Q", tooltip=[alt.Tooltip("weight_mn:Q", title="weight, plate + payload (mN)", format=".3g")])
-    layers = [lift, weight]
-    if result["gap_m"] is not None:
-        eq = pd.DataFrame({"gap_mm": [result["gap_m"] * 1e3], "force_mn": [result["weight_n"] * 1e3]})
-        layers.append(alt.Chart(eq).mark_point(size=140, filled=True, color="#1b7837").encode(
-            x="gap_mm:Q", y="force_mn:Q", tooltip=[alt.Tooltip("gap_mm:Q", title="equilibrium gap (mm)", format=".3f")]))
-    st.altair_chart(alt.layer(*layers).properties(height=300), width="stretch")
+    st.altair_chart(charts.lift_chart(result), width="stretch")
     st.caption("Solid: magnetic lift on the plate; dashed: weight of plate and payload; dot: where they balance "
                "on the falling branch (the equilibrium gap).")
 
@@ -216,24 +190,8 @@ quantity = m2.radio("Show", ["|B| (T)", "B^2 (T^2)"], key="d_map_q", horizontal=
 extent = (design.plate.size[0], design.plate.size[1] if design.plate.shape == "rectangle" else design.plate.size[0])
 with st.spinner("Computing the field map..."):
     fmap = sh.field_map(repr(design.magnets), result["temperature_k"], gap_mm * 1e-3, extent, design)
-field = "b_t" if quantity.startswith("|B|") else "b2_t2"
-heat = alt.Chart(fmap).mark_rect().encode(
-    x=alt.X("x_mm:O", title="x (mm)", axis=alt.Axis(labelExpr="format(datum.value, '.1f')", labelOverlap=True)),
-    y=alt.Y("y_mm:O", title="y (mm)", sort="descending", axis=alt.Axis(labelExpr="format(datum.value, '.1f')",
-                                                                        labelOverlap=True)),
-    color=alt.Color(f"{field}:Q", title=quantity, scale=alt.Scale(scheme="viridis")),
-    tooltip=[alt.Tooltip("x_mm:Q", format=".2f", title="x (mm)"), alt.Tooltip("y_mm:Q", format=".2f", title="y (mm)"),
-             alt.Tooltip("b_t:Q", format=".3f", title="|B| (T)"), alt.Tooltip("bz_t:Q", format=".3f", title="Bz (T)")],
-).properties(height=340, width=340, title=f"{quantity} at {gap_mm:.2f} mm")
 pol = presentation.polarity_df(design.arrangement())
-boxes = alt.Chart(pol).mark_rect(stroke="black", strokeWidth=1).encode(
-    x=alt.X("x0_mm:Q", title="x (mm)"), x2="x1_mm:Q", y=alt.Y("y0_mm:Q", title="y (mm)"), y2="y1_mm:Q",
-    color=alt.Color("points:N", title="magnetisation",
-                    scale=alt.Scale(domain=["north up", "north down", "sideways"], range=["#d6604d", "#4393c3", "#bbbbbb"])),
-    tooltip=["magnet:Q", "points:N", "grade:N", alt.Tooltip("x_mm:Q", format=".2f"), alt.Tooltip("y_mm:Q", format=".2f")])
-labels = alt.Chart(pol).mark_text(fontSize=14, fontWeight="bold").encode(x="x_mm:Q", y="y_mm:Q", text="label:N")
-st.altair_chart(alt.hconcat(heat, alt.layer(boxes, labels).properties(height=340, width=340,
-                                                                     title="top view: N = north pole up")),
+st.altair_chart(charts.field_and_polarity_chart(fmap, pol, gap_mm, quantity, charts.plate_outline_df(design)),
                 width="content")
 
 st.subheader("Numbers")
