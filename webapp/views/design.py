@@ -138,6 +138,15 @@ with right:
             except MatdbError as exc:
                 st.error(f"payload range: {exc}")
                 st.stop()
+        if result.get("max_plate_distance_dipole_m") is not None:
+            ratio = result.get("plate_stiffness_dipole_ratio")
+            st.caption(
+                "Image-dipole idealisation, for comparison only: largest plate distance "
+                f"{result['max_plate_distance_dipole_m'] * 1e3:.3g} mm"
+                + ("" if result.get("max_plate_distance_m") is None
+                   else f" against {result['max_plate_distance_m'] * 1e3:.3g} mm from the finite-size model")
+                + ("" if ratio is None else f"; plate stiffness {ratio:.2g} x the finite-size value")
+                + ". The verdict and the window use the finite-size model.")
         wm = result.get("window_min_m")
         st.caption("Narrowest window of plate distances over the schedule: "
                    + ("none (some payload has no stable plate distance)" if wm is None else f"{wm * 1e3:.3g} mm"))
