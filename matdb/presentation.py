@@ -45,13 +45,92 @@ CHI_UNIT_LABELS = {
     "cgs-molar": "CGS molar, cm^3/mol (emu)",
 }
 CHI_UNIT_SHORT = {
-    "si-volume": "1",
+    "si-volume": "SI volume, dimensionless",
     "cgs-volume": "emu/(cm^3 Oe)",
     "si-mass": "m^3/kg",
     "cgs-mass": "cm^3/g",
     "si-molar": "m^3/mol",
     "cgs-molar": "cm^3/mol",
 }
+
+# ---------------------------------------------------------------------------
+# one number format for every page
+# ---------------------------------------------------------------------------
+
+SIG_DIGITS = 3  #: significant digits of an ordinary number shown to people
+CHI_SIG_DIGITS = 4  #: susceptibilities: handbooks quote them to about four digits
+CHI_PRINTF = f"%.{CHI_SIG_DIGITS - 1}e"  #: the same format for table columns (printf style)
+MISSING = "\u2014"  #: shown where there is no value (an em dash, never "None" or "nan")
+DIMENSIONLESS = "dimensionless"
+
+
+def _is_missing(value) -> bool:
+    if value is None:
+        return True
+    try:
+        return bool(pd.isna(value))
+    except (TypeError, ValueError):
+        return False
+
+
+def fmt_number(value, unit: str = "", *, sig: int = SIG_DIGITS, sci: bool | None = None,
+               missing: str = MISSING) -> str:
+    """One number as people read it: ``sig`` significant digits, then the unit.
+
+    Scientific notation (``-1.70e-04``) when ``sci`` is True, or, when ``sci`` is None, for
+    magnitudes below 1e-3 or from 1e5 on; fixed decimals otherwise (``0.640``, ``12.7``,
+    ``1400``). A unit of "1" or "dimensionless" prints nothing after the number. Missing
+    values print ``missing``; booleans print yes / no; infinities print "unbounded".
+    Downloads keep exact values: use this for display only.
+    """
+    if _is_missing(value):
+        return missing
+    if isinstance(value, (bool, np.bool_)):
+        return "yes" if value else "no"
+    if isinstance(value, str):
+        return value
+    v = float(value)
+    if not math.isfinite(v):
+        return "unbounded" if v > 0 else "minus unbounded"
+    if v == 0.0:
+        text = "0" if not sci else f"{0.0:.{sig - 1}e}"
+    else:
+        rounded = float(f"{v:.{sig - 1}e}")
+        use_sci = sci if sci is not None else (abs(rounded) < 1e-3 or abs(rounded) >= 1e5)
+        if use_sci:
+            text = f"{v:.{sig - 1}e}"
+        else:
+            decimals = max(0, sig - 1 - int(math.floor(math.log10(abs(rounded)))))
+            text = f"{rounded:.{decimals}f}"
+    u = (unit or "").strip()
+    return text if u in ("", "1", DIMENSIONLESS) else f"{text} {u}"
+
+
+def fmt_chi(value, unit: str = "") -> str:
+    """A susceptibility: always scientific, :data:`CHI_SIG_DIGITS` significant digits
+    (``-1.700e-04``); the same text as :data:`CHI_PRINTF` gives in table columns."""
+    return fmt_number(value, unit, sig=CHI_SIG_DIGITS, sci=True)
+
+
+def fmt_length_mm(value_m, sig: int = SIG_DIGITS) -> str:
+    """A length given in metres, shown in millimetres (``0.640 mm``)."""
+    return fmt_number(None if _is_missing(value_m) else float(value_m) * 1e3, "mm", sig=sig)
+
+
+def fmt_temperature_c(value_k) -> str:
+    """A temperature given in kelvin, shown in degrees Celsius to 0.1 degC."""
+    if _is_missing(value_k):
+        return MISSING
+    return f"{float(value_k) - 273.15:.1f} degC"
+
+
+def unit_label(label: str, unit: str) -> str:
+    """Column or axis label with its unit in brackets; "1" reads "dimensionless"."""
+    u = (unit or "").strip()
+    if u in ("", "1"):
+        u = DIMENSIONLESS
+    return f"{label} ({u})"
+
 
 MATERIAL_COLUMNS = [
     "id", "name", "kind", "chi_si", "chi_perp_si", "chi_par_si", "density_kg_m3",
@@ -157,10 +236,9 @@ def compare_materials(df: pd.DataFrame, ids: Sequence[str], rounded: bool = Fals
 
 
 def _human(v, sci: bool = False) -> str:
-    if v is None or (isinstance(v, float) and math.isnan(v)):
-        return ""
-    if isinstance(v, (int, float, np.floating)) and not isinstance(v, bool):
-        return f"{float(v):.3e}" if sci else f"{float(v):.4g}"
+    """:func:`fmt_chi` for susceptibilities, :func:`fmt_number` otherwise (no unit)."""
+    if isinstance(v, (int, float, np.floating)) and not isinstance(v, bool) or _is_missing(v):
+        return fmt_chi(v) if sci else fmt_number(v)
     return str(v)
 
 

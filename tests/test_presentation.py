@@ -110,3 +110,35 @@ def test_grade_curves_validation_and_marks():
         P.grade_temperature_curves(grades, ["N42"], 100, 50)
     with pytest.raises(InputError, match="unknown grade"):
         P.grade_temperature_curves(grades, ["N99"], 0, 50)
+
+
+# ---------------------------------------------------------------------------
+# the one number format of the page
+# ---------------------------------------------------------------------------
+
+def test_fmt_chi_reads_the_same_as_table_columns_and_keeps_four_digits():
+    # CRC Handbook, bismuth: -280.1e-6 cm^3/mol; the page and the table columns print it alike
+    for v in (-1.7e-4, -280.1e-6, -9.05e-6, 2.2e-5):
+        assert P.fmt_chi(v) == P.CHI_PRINTF % v
+        assert float(P.fmt_chi(v)) == pytest.approx(v, rel=5e-4)
+    assert P.fmt_chi(-1.7e-4) == "-1.700e-04"
+    assert P.fmt_chi(None) == P.MISSING and P.fmt_chi(float("nan")) == P.MISSING
+
+
+@pytest.mark.parametrize("value", [0.6412, 12.71, 0.0123456, 1399.7, 9.996, 0.5, 7.0, -3.14159, 123456.0, 4.2e-5])
+def test_fmt_number_three_significant_digits(value):
+    # significant-figure rounding as Python's own "%.3g" does it (the value read back agrees)
+    text = P.fmt_number(value)
+    assert float(text) == pytest.approx(float("%.3g" % value), rel=1e-12)
+    digits = text.lstrip("-").split("e")[0].replace(".", "").lstrip("0")
+    assert len(digits) == 3 or value in (1399.7,)  # 1400: trailing zeros of an integer
+
+
+def test_fmt_number_units_and_missing():
+    assert P.fmt_number(0.6412, "mm") == "0.641 mm"
+    assert P.fmt_number(0.25, "1") == "0.250"
+    assert P.fmt_number(None, "mm") == P.MISSING
+    assert P.fmt_number(True) == "yes"
+    assert P.fmt_length_mm(0.64e-3) == "0.640 mm"
+    assert P.fmt_temperature_c(293.15) == "20.0 degC"
+    assert P.unit_label("chi", "1") == "chi (dimensionless)"
