@@ -515,6 +515,83 @@ def design_text_from_fields(f: dict) -> str:
     return tomli_w.dumps(doc)
 
 
+#: The Design page's form fields with their starting values (a demo design: a 2 x 2 NdFeB
+#: checkerboard under a pyrolytic graphite plate).
+DESIGN_FORM_DEFAULTS = dict(
+    shape="cuboid", size="12.7 mm, 12.7 mm, 12.7 mm", grade="N50", pattern="checkerboard", rows=2, cols=2,
+    spacing="0 mm", back_plate=False, cover="0 mm", material="pyrolytic-graphite", plate_shape="rectangle",
+    plate_size="12 mm, 12 mm, 1 mm", payload="0.1 g", payload_height="2 mm", min_gap="0.2 mm",
+    temp_min="20 degC", temp_max="20 degC")
+FORM_PATTERNS = ("single", "checkerboard", "stripes", "grid")
+
+
+def form_fields_from_design(design) -> dict | None:
+    """The form fields (keys of :data:`DESIGN_FORM_DEFAULTS`) that give back ``design``,
+    or None when the design holds something the form cannot show (a list of magnets, a
+    Br or chi override, an off-centre plate, several grades, a floating-magnet design).
+    Lengths are written so that they read back exactly."""
+    from .design import PlateDesign, _mm as _mm_exact, _temp
+
+    if not isinstance(design, PlateDesign):
+        return None
+    m, p, c = design.magnets, design.plate, design.conditions
+    if m.items or m.br_t is not None or m.pattern not in FORM_PATTERNS or len(m.grades) > 1:
+        return None
+    if p.chi_si is not None or p.chi_perp_si is not None or tuple(p.center_m) != (0.0, 0.0):
+        return None
+    lo = c.temp_min_k if c.temp_min_k is not None else c.temperature_k
+    hi = c.temp_max_k if c.temp_max_k is not None else c.temperature_k
+    if c.temperature_k is not None and (c.temp_min_k is not None or c.temp_max_k is not None):
+        return None
+    lo = lo if lo is not None else hi
+    hi = hi if hi is not None else lo
+    from .design import _q
+    from .units import parse_length, parse_mass, parse_temperature
+
+    def _mm(v: float) -> str:  # shortest text that reads back exactly
+        for digits in range(1, 17):
+            t = f"{v * 1e3:.{digits}g} mm"
+            if parse_length(t, "length") == v:
+                return t
+        return _mm_exact(v)
+
+    def _g(v: float) -> str:
+        for digits in range(1, 17):
+            t = f"{v * 1e3:.{digits}g} g"
+            if parse_mass(t, "mass") == v:
+                return t
+        return _q(v, "kg", "g", 1e-3)
+
+    def _t(v: float) -> str:
+        for digits in range(1, 17):
+            t = f"{v - 273.15:.{digits}g} degC"
+            if parse_temperature(t, "temperature") == v:
+                return t
+        return _temp(v)
+
+    return dict(
+        shape=m.shape, size=", ".join(_mm(v) for v in m.size), grade=m.grade, pattern=m.pattern,
+        rows=int(m.rows), cols=int(m.cols), spacing=_mm(m.spacing_m), back_plate=bool(m.back_plate),
+        cover=_mm(m.cover_m), material=p.material, plate_shape=p.shape,
+        plate_size=", ".join(_mm(v) for v in p.size), payload=_g(p.payload_kg),
+        payload_height=_mm(p.payload_height_m), min_gap=_mm(p.min_gap_m),
+        temp_min="" if lo is None else _t(lo), temp_max="" if hi is None else _t(hi))
+
+
+def canonical_design_text(design, text: str) -> str:
+    """One text per design content (the cache key of its results): a floating-plate design
+    written back by :func:`matdb.design.design_to_toml` without its name and description,
+    so the same design typed in the form or in the editor computes once; other designs:
+    their text."""
+    from dataclasses import replace
+
+    from .design import PlateDesign, design_to_toml
+
+    if isinstance(design, PlateDesign):
+        return design_to_toml(replace(design, name=None, description=None))
+    return text
+
+
 def lift_curve_df(result: dict) -> pd.DataFrame:
     """The lift curve F(g) of a plate result: ``gap_mm``, ``force_mn`` (magnetic force,
     upward positive) and ``weight_mn`` (plate plus payload)."""
@@ -526,7 +603,7 @@ def lift_curve_df(result: dict) -> pd.DataFrame:
 def field_map_df(arrangement, gap_m: float, extent_m: tuple[float, float] | None = None, n: int = 41) -> pd.DataFrame:
     """|B| and B^2 on an n x n grid at height ``gap_m`` over the arrangement's footprint
     (or a centred ``extent_m`` = (x, y) if larger): ``x_mm``, ``y_mm``, ``b_t``, ``b2_t2``,
-    ``bz_t``."""
+    ``bz_t``, and each cell's edges ``x0_mm``, ``x1_mm``, ``y0_mm``, ``y1_mm``."""
     xmin, xmax, ymin, ymax, _a, _b = (float(v) for v in arrangement.bounds())
     if extent_m is not None:
         xmin, xmax = min(xmin, -extent_m[0] / 2), max(xmax, extent_m[0] / 2)
@@ -537,8 +614,12 @@ def field_map_df(arrangement, gap_m: float, extent_m: tuple[float, float] | None
     pts = np.column_stack([gx.ravel(), gy.ravel(), np.full(gx.size, float(gap_m))])
     b = np.asarray(arrangement.B(pts), dtype=float).reshape(-1, 3)
     b2 = np.sum(b**2, axis=1)
+    hx = (xs[1] - xs[0]) / 2 if n > 1 else (xmax - xmin) / 2
+    hy = (ys[1] - ys[0]) / 2 if n > 1 else (ymax - ymin) / 2
     return pd.DataFrame({"x_mm": pts[:, 0] * 1e3, "y_mm": pts[:, 1] * 1e3, "b_t": np.sqrt(b2),
-                         "b2_t2": b2, "bz_t": b[:, 2]})
+                         "b2_t2": b2, "bz_t": b[:, 2],
+                         "x0_mm": (pts[:, 0] - hx) * 1e3, "x1_mm": (pts[:, 0] + hx) * 1e3,
+                         "y0_mm": (pts[:, 1] - hy) * 1e3, "y1_mm": (pts[:, 1] + hy) * 1e3})
 
 
 def polarity_df(arrangement) -> pd.DataFrame:
