@@ -785,6 +785,24 @@ def advisor_table(df: pd.DataFrame) -> pd.DataFrame:
     return out
 
 
+ADVISOR_VERDICTS = ("feasible, Pareto front", "feasible", "rejected")
+
+
+def advisor_verdicts(df: pd.DataFrame) -> list[str]:
+    """Each candidate's verdict in words (the page also shows it by marker shape, never by
+    colour alone): one of :data:`ADVISOR_VERDICTS`."""
+    return [ADVISOR_VERDICTS[0] if f and p else ADVISOR_VERDICTS[1] if f else ADVISOR_VERDICTS[2]
+            for f, p in zip(df["feasible"].astype(bool), df["pareto"].astype(bool))]
+
+
+def ranking_signature(params: dict) -> str:
+    """A short stable name of one set of advisor inputs (widget keys that must start over
+    when the ranking changes)."""
+    import hashlib
+
+    return hashlib.sha256(repr(sorted(params.items())).encode()).hexdigest()[:12]
+
+
 def ranking_csv(df: pd.DataFrame) -> str:
     """The full ranking as CSV, exact values (lists joined with '; ')."""
     out = df.copy()

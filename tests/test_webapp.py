@@ -343,14 +343,38 @@ def test_advisor_choice_opens_on_the_design_page():
     at = _advisor_page()
     table = _table(at, "reasons_text")
     second = int(table["rank"].iloc[1])
-    at.selectbox(key="adv_choice").set_value(second).run()
+    _candidate_box(at).set_value(second).run()
     at.button(key="adv_open").click().run()
     assert not at.exception, [e.message for e in at.exception]
     assert at.title[0].value == "Design"
     row = table.iloc[1]
-    assert f'material = "{row["material"]}"' in at.session_state["design_text"]
-    assert f'grade = "{row["grade"]}"' in at.session_state["design_text"]
+    # "Open" fills the form (the candidate key of the box changed with each ranking: contract updated)
+    assert at.radio(key="design_source").value == "form"
+    assert at.selectbox(key="d_material").value == row["material"]
+    assert at.selectbox(key="d_grade").value == row["grade"]
     assert _metric(at, "Floats") == ("yes" if row["feasible"] else _metric(at, "Floats"))
+
+
+def _candidate_box(at):
+    return [s for s in at.selectbox if s.label == "Candidate"][0]
+
+
+def test_advisor_second_ranking_resets_the_candidate_box_and_says_by_how_much():
+    at = _advisor_page()
+    first = _table(at, "reasons_text")
+    _candidate_box(at).set_value(int(first["rank"].iloc[2])).run()
+    at.text_input(key="adv_mass").set_value("3 g")
+    at.button(key="adv_submit").click().run()
+    assert not at.exception, [e.message for e in at.exception]
+    table = _table(at, "reasons_text")
+    box = _candidate_box(at)
+    assert box.value == int(table["rank"].iloc[0])
+    assert box.options[box.index].startswith(f"#{int(table['rank'].iloc[0])}: {table['material'].iloc[0]}")
+    # a rejected candidate says by how much it missed (worst-case margin against the 1.00 it needs)
+    rejected = table[~table["feasible"].astype(bool)]
+    short = [t for t in rejected["reasons_text"] if "worst-case margin" in t]
+    assert short and all("needs 1.00" in t for t in short)
+
 
 
 # ---------------------------------------------------------------------------
