@@ -30,6 +30,9 @@ One floater::
     [conditions]
     temperature = "20 degC"         # optional
 
+    payload_range = "0 g..5 g"      # optional, top level: the payloads of the schedule
+                                    # (for stations: the shared payload's mass)
+
 Several floaters carrying one rigid payload: ``[[station]]`` tables, each with ``x``,
 ``y`` and its own ``lifter``, ``floater`` and ``plates`` sub-tables (a station that
 omits one takes the top-level table of that name), and a ``[payload]`` table with
@@ -57,6 +60,7 @@ __all__ = [
     "PayloadSpec",
     "StabilizedDesign",
     "parse_stabilized",
+    "parse_payload_range",
     "to_toml",
 ]
 
@@ -70,7 +74,8 @@ _SIZE_FORM = {
     "cylinder": "[diameter, height]",
     "ring": "[outer diameter, inner diameter, height]",
 }
-_TOP_KEYS = {"lifter", "floater", "plates", "station", "payload", "conditions", "name", "description"}
+_TOP_KEYS = {"lifter", "floater", "plates", "station", "payload", "conditions", "name", "description",
+             "payload_range"}
 _MAGNET_KEYS = {"shape", "size", "grade", "br"}
 _FLOATER_KEYS = _MAGNET_KEYS | {"payload"}
 _PLATES_KEYS = {"material", "chi", "chi_perp", "chi_par", "thickness", "distance", "clearance"}
@@ -214,6 +219,7 @@ class StabilizedDesign:
     name: str = ""
     description: str = ""
     source: Optional[str] = field(default=None, compare=False)
+    payload_range: Optional[tuple] = None
 
     mode = "stabilized"
 
@@ -426,6 +432,7 @@ def parse_stabilized(doc: dict, source: Optional[str] = None) -> StabilizedDesig
     name = _string(doc["name"], "name") if "name" in doc else ""
     description = _string(doc["description"], "description") if "description" in doc else ""
     temp, tmin, tmax = _parse_conditions(doc)
+    prange = parse_payload_range(doc["payload_range"], "payload_range") if "payload_range" in doc else None
     defaults = {}
     for part, allowed in (("lifter", _MAGNET_KEYS), ("floater", _FLOATER_KEYS), ("plates", _PLATES_KEYS)):
         if part in doc:
@@ -442,6 +449,7 @@ def parse_stabilized(doc: dict, source: Optional[str] = None) -> StabilizedDesig
         return StabilizedDesign(
             stations=(st,), payload=None, multi=False, temperature_k=temp,
             temp_min_k=tmin, temp_max_k=tmax, name=name, description=description, source=source,
+            payload_range=prange,
         )
 
     raw = doc["station"]
@@ -472,8 +480,35 @@ def parse_stabilized(doc: dict, source: Optional[str] = None) -> StabilizedDesig
     return StabilizedDesign(
         stations=tuple(stations), payload=PayloadSpec(mass_kg=mass, centre_of_mass=tuple(com)),
         multi=True, temperature_k=temp, temp_min_k=tmin, temp_max_k=tmax, name=name,
-        description=description, source=source,
+        description=description, source=source, payload_range=prange,
     )
+
+
+def parse_payload_range(text: Any, field: str = "payload_range") -> tuple[float, float]:
+    """``"0 g..5 g"`` (or ``"0..5 g"``: one unit for both) -> ``(lo, hi)`` [kg].
+
+    Raises
+    ------
+    InputError
+        Naming ``field`` when the text is not two masses joined by ``..``, a mass is
+        negative or the first is larger than the second.
+    """
+    import re
+
+    if not isinstance(text, str) or text.count("..") != 1:
+        raise InputError(f"{field}: expected a range of masses such as '0 g..5 g', got {text!r}")
+    a, b = (x.strip() for x in text.split(".."))
+    if not a or not b:
+        raise InputError(f"{field}: expected a range of masses such as '0 g..5 g', got {text!r}")
+    bare = r"^[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?$"
+    if re.match(bare, a) and not re.match(bare, b):
+        unit = re.sub(r"^[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?\s*", "", b)
+        a = f"{a} {unit}"
+    lo = parse_mass(a, f"{field} (from)")
+    hi = parse_mass(b, f"{field} (to)")
+    if not lo <= hi:
+        raise InputError(f"{field}: expected the first mass at most the second, got {text!r}")
+    return lo, hi
 
 
 def _signed_length(text: Any, key: str) -> float:
@@ -526,6 +561,9 @@ def to_toml(design: StabilizedDesign) -> str:
         doc["name"] = design.name
     if design.description:
         doc["description"] = design.description
+    if design.payload_range is not None:
+        lo, hi = design.payload_range
+        doc["payload_range"] = f"{lo * 1e3:.12g} g..{hi * 1e3:.12g} g"
     cond: dict = {"temperature": f"{design.temperature_k:.12g} K"}
     if design.temp_min_k is not None:
         cond["temp_min"] = f"{design.temp_min_k:.12g} K"

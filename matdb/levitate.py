@@ -15,7 +15,7 @@ from typing import Any
 
 import numpy as np
 
-from .design import PlateDesign, T20_K
+from .design import PlateDesign
 from .errors import InputError
 from .physics import plate as P
 from .physics import thermal as TH
@@ -294,11 +294,20 @@ def levitate_plate(design: PlateDesign, temp_k: float | None = None,
     return out
 
 
-def levitate(design, temp_k: float | None = None, gap_m: float | None = None) -> dict[str, Any]:
+def levitate(design, temp_k: float | None = None, gap_m: float | None = None, payloads_kg=None,
+             resolution_m: float | None = None) -> dict[str, Any]:
     """Plate designs go to :func:`levitate_plate`; floating-magnet designs to
-    :func:`matdb.physics.stabilized.levitate_stabilized`."""
+    :func:`matdb.physics.stabilized.levitate_stabilized` (with the schedule's payloads
+    [kg] and allowed floater shift [m] when given)."""
     if isinstance(design, PlateDesign):
+        if payloads_kg is not None or resolution_m is not None:
+            raise InputError("payload range: only floating-magnet designs have a payload schedule")
         return levitate_plate(design, temp_k=temp_k, gap_m=gap_m)
     from .physics.stabilized import levitate_stabilized
 
-    return levitate_stabilized(design, temp_k=temp_k)
+    extra = {}
+    if payloads_kg is not None:
+        extra["payloads_kg"] = payloads_kg
+    if resolution_m is not None:
+        extra["resolution_m"] = resolution_m
+    return levitate_stabilized(design, temp_k=temp_k, **extra)

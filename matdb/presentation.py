@@ -714,7 +714,9 @@ def stabilized_window_df(result: dict) -> pd.DataFrame:
     """The schedule of a floating-magnet result, long format: per payload (g) and
     station, the lifter distance and the plate-distance window (mm). Columns
     ``payload_g``, ``station``, ``lifter_distance_mm``, ``min_plate_distance_mm``,
-    ``max_plate_distance_mm``. One station is called "floater"."""
+    ``max_plate_distance_mm``, and where the result has them ``lifter_travel_mm``,
+    ``window_mm``, ``resolution_um``, ``drift_um_per_k`` and ``dforce_dd_n_m``. One
+    station is called "floater"."""
     stations = result.get("stations") or []
     names = [st.get("name") or f"station {i + 1}" for i, st in enumerate(stations)]
     st_min = [st.get("min_plate_distance_m") for st in stations]
@@ -735,19 +737,46 @@ def stabilized_window_df(result: dict) -> pd.DataFrame:
             if mn is None:
                 mn = result.get("min_plate_distance_m")
             mx = pick(w.get("max_plate_distance_m"), i)
+            if mx is None:  # no stable plate distance at this payload
+                mn = None
             ld = pick(lifts, i)
+
+            def val(key, scale, w=w, i=i):
+                v = pick(w.get(key), i)
+                return None if v is None else float(v) * scale
+
             rows.append({
                 "payload_g": float(w["payload_kg"]) * 1e3,
                 "station": names[i] if n > 1 and i < len(names) else ("floater" if n == 1 else f"station {i + 1}"),
                 "lifter_distance_mm": None if ld is None else float(ld) * 1e3,
                 "min_plate_distance_mm": None if mn is None else float(mn) * 1e3,
                 "max_plate_distance_mm": None if mx is None else float(mx) * 1e3,
+                "lifter_travel_mm": val("lifter_travel_m", 1e3),
+                "window_mm": val("window_m", 1e3),
+                "resolution_um": val("resolution_m", 1e6),
+                "drift_um_per_k": val("lifter_distance_drift_um_per_k", 1.0),
+                "dforce_dd_n_m": val("dforce_dd_n_m", 1.0),
             })
-    df = pd.DataFrame(rows, columns=["payload_g", "station", "lifter_distance_mm", "min_plate_distance_mm",
-                                     "max_plate_distance_mm"])
-    for c in ("lifter_distance_mm", "min_plate_distance_mm", "max_plate_distance_mm"):
+    cols = ["payload_g", "station", "lifter_distance_mm", "min_plate_distance_mm", "max_plate_distance_mm",
+            "lifter_travel_mm", "window_mm", "resolution_um", "drift_um_per_k", "dforce_dd_n_m"]
+    df = pd.DataFrame(rows, columns=cols)
+    for c in cols[2:]:
         df[c] = pd.to_numeric(df[c], errors="coerce").astype(float)
     return df
+
+
+def payload_steps(payload_range, steps: int) -> np.ndarray:
+    """``steps`` payloads evenly over ``(lo, hi)`` [kg] (one when they are equal)."""
+    lo, hi = payload_range
+    return np.array([lo]) if hi == lo else np.linspace(lo, hi, max(int(steps), 2))
+
+
+def schedule_csv(result: dict) -> str:
+    """The schedule as CSV, SI columns (what ``matdb levitate --format csv`` prints)."""
+    from .commands.physics import SCHEDULE_COLUMNS, schedule_records
+
+    return pd.DataFrame(schedule_records(result), columns=list(SCHEDULE_COLUMNS)).to_csv(
+        index=False, float_format="%.10g")
 
 
 def stations_df(result: dict) -> pd.DataFrame:

@@ -82,13 +82,15 @@ def clear_catalog_caches() -> None:
 # ---------------------------------------------------------------------------
 
 @st.cache_data(show_spinner=False, max_entries=64)
-def levitate_text(text: str, temp_k: float | None, gap_m: float | None, url: str):
+def levitate_text(text: str, temp_k: float | None, gap_m: float | None, url: str,
+                  payloads: tuple | None = None, resolution_m: float | None = None):
     """Keyed by the design's content: pass :func:`matdb.presentation.canonical_design_text`,
     so the same design from the form, the editor or a saved copy computes once."""
     from matdb.design import load_design_text
     from matdb.levitate import levitate
 
-    return levitate(load_design_text(text), temp_k=temp_k, gap_m=gap_m)
+    return levitate(load_design_text(text), temp_k=temp_k, gap_m=gap_m,
+                    payloads_kg=None if payloads is None else list(payloads), resolution_m=resolution_m)
 
 
 _LEVITATED: set = set()

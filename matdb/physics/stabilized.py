@@ -1142,27 +1142,107 @@ def _drift(st, temp_k: float, weight_n: float, dt: float = 5.0) -> Optional[floa
     return (d_hi - d_lo) / (2 * dt)
 
 
-def _window(model: StationModel, weights_n, payloads_kg) -> list[dict]:
-    rows = []
-    for w, p in zip(weights_n, payloads_kg):
-        D = model.balance(w) if w > 0 else None
-        if D is None:
-            rows.append({"payload_kg": float(p), "lifter_distance_m": None, "max_plate_distance_m": None,
-                         "min_plate_distance_m": model.a_min})
-            continue
-        kz, _ = model.stiffness(D)
-        a_max = model.max_plate_distance(kz)
-        rows.append({
-            "payload_kg": float(p),
-            "lifter_distance_m": float(D),
-            "max_plate_distance_m": _f(a_max if a_max is None else min(a_max, D - model.t)),
-            "min_plate_distance_m": model.a_min,
-            "k_lifter_z_n_m": float(kz),
-        })
-    return rows
+def lift_temperature_slope(st, temp_k: float) -> float:
+    """Relative change of the lifter's pull per kelvin, ``d ln F / dT`` [1/K].
+
+    The pull of one uniformly magnetised magnet on another scales with the product of
+    their remanences, ``F = Br_l(T) Br_f(T) F_1(D)``, so
+    ``d ln F/dT = alpha_l/(100 + alpha_l dT) + alpha_f/(100 + alpha_f dT)`` with
+    ``dT = T - 20 C`` (linear law of IEC 60404-8-1). The plates do not enter: at the
+    symmetric plate position their vertical forces cancel.
+    """
+    dt = float(temp_k) - 293.15
+    out = 0.0
+    for a in (st.lifter.alpha_br_pct_per_k, st.floater.alpha_br_pct_per_k):
+        out += a / (100.0 + a * dt)
+    return out
 
 
-def levitate_stabilized(design, temp_k: Optional[float] = None, n_window: int = 11) -> dict:
+def schedule_row(model: StationModel, weight_n: float, d_empty: Optional[float], dlnf_dt: float,
+                 plate_distance: Optional[float] = None, shift_m: Optional[float] = None) -> dict:
+    """One station's entry of the payload schedule at total weight ``weight_n`` [N].
+
+    Parameters
+    ----------
+    model : StationModel
+    weight_n : float
+        Floater plus its load [N].
+    d_empty : float or None
+        Lifter distance with no payload (the empty-float position) [m].
+    dlnf_dt : float
+        ``d ln F / dT`` of the pull (:func:`lift_temperature_slope`) [1/K].
+    plate_distance : float, optional
+        Where the plates are set [m]; default the smallest plate distance.
+    shift_m : float, optional
+        Allowed shift of the floater's equilibrium [m]; default a tenth of its clearance
+        to the nearer plate.
+
+    Returns
+    -------
+    dict
+        ``lifter_distance_m``, ``min_plate_distance_m``, ``max_plate_distance_m``
+        (both None when no plate distance is stable), ``window_m``,
+        ``lifter_travel_m`` (``d_empty - D``: how far the lifter has come towards the
+        floater), ``dforce_dd_n_m`` (``dF/dD``), ``resolution_m``,
+        ``lifter_distance_drift_um_per_k``, ``k_lifter_z_n_m``, ``k_z_total_n_m``.
+
+    Notes
+    -----
+    Moving the lifter by ``dD`` changes the pull by ``(dF/dD) dD``; the floater, held by
+    the total vertical stiffness ``k = k_lifter + k_plates``, moves by
+    ``(dF/dD) dD / k``. The lifter step that moves it by ``s`` is
+    ``s k / |dF/dD|`` (``s`` = 0.1 x clearance unless given). At fixed weight,
+    ``F(D, T) = W`` gives ``dD/dT = -(d ln F/dT) W / (dF/dD)``. Moving the floater up
+    by ``dz`` is moving the lifter down by ``dz``, so ``dF/dD = -dF/dz = k_lifter_z``.
+    """
+    D = model.balance(weight_n) if weight_n > 0 else None
+    row: dict = {"lifter_distance_m": _f(D), "min_plate_distance_m": None, "max_plate_distance_m": None,
+                 "window_m": None, "lifter_travel_m": None, "dforce_dd_n_m": None, "resolution_m": None,
+                 "lifter_distance_drift_um_per_k": None, "k_lifter_z_n_m": None, "k_z_total_n_m": None}
+    if D is None:
+        return row
+    kz, _ = model.stiffness(D)
+    a_max = model.max_plate_distance(kz)
+    hi = None if a_max is None else min(a_max, D - model.t)
+    if hi is not None and hi >= model.a_min:
+        row.update(min_plate_distance_m=model.a_min, max_plate_distance_m=_f(hi),
+                   window_m=_f(hi - model.a_min))
+    a = model.a_min if plate_distance is None else float(plate_distance)
+    k_tot = kz + model.k_plates(a)
+    shift = 0.1 * (a - model.floater.half_height) if shift_m is None else float(shift_m)
+    row.update(
+        lifter_travel_m=None if d_empty is None else float(d_empty - D),
+        dforce_dd_n_m=float(kz),
+        k_lifter_z_n_m=float(kz),
+        k_z_total_n_m=float(k_tot),
+        resolution_m=float(shift * k_tot / abs(kz)) if (k_tot > 0 and kz != 0) else None,
+        lifter_distance_drift_um_per_k=float(-dlnf_dt * weight_n / kz * 1e6) if kz != 0 else None,
+    )
+    return row
+
+
+def _window(model: StationModel, weights_n, payloads_kg, w_empty: float, dlnf_dt: float,
+            plate_distance: Optional[float] = None, shift_m: Optional[float] = None) -> list[dict]:
+    d_empty = model.balance(w_empty) if w_empty > 0 else None
+    return [{"payload_kg": float(p), **schedule_row(model, float(w), d_empty, dlnf_dt, plate_distance, shift_m)}
+            for w, p in zip(weights_n, payloads_kg)]
+
+
+def window_min(rows: list[dict]) -> Optional[float]:
+    """Narrowest plate-distance window over schedule rows and stations [m]; None when
+    some payload (or station) has none."""
+    out = math.inf
+    for r in rows:
+        w = r.get("window_m")
+        for v in (w if isinstance(w, list) else [w]):
+            if v is None:
+                return None
+            out = min(out, v)
+    return None if not math.isfinite(out) else float(out)
+
+
+def levitate_stabilized(design, temp_k: Optional[float] = None, n_window: int = 11,
+                        payloads_kg=None, resolution_m: Optional[float] = None) -> dict:
     """Floating-magnet mode: balance, stiffnesses, stability window and payload schedule.
 
     Parameters
@@ -1173,6 +1253,13 @@ def levitate_stabilized(design, temp_k: Optional[float] = None, n_window: int = 
         Temperature [K]; default the design's.
     n_window : int
         Number of payloads in the schedule (0 to the largest payload).
+    payloads_kg : array_like, optional
+        Payloads of the schedule [kg] (a payload range); default the design's
+        ``payload_range`` if it has one, else ``n_window`` payloads from 0 to the
+        largest. For several stations these are the shared payload's masses.
+    resolution_m : float, optional
+        Allowed shift of the floater's equilibrium for ``resolution_m`` in the
+        schedule [m]; default a tenth of the clearance to the nearer plate.
 
     Returns
     -------
@@ -1218,6 +1305,16 @@ def levitate_stabilized(design, temp_k: Optional[float] = None, n_window: int = 
     g = G_STANDARD
     models = [_station_model(st, t) for st in design.stations]
     warnings: list[str] = []
+    payloads = None
+    if payloads_kg is None and getattr(design, "payload_range", None) is not None:
+        lo, hi = design.payload_range
+        payloads_kg = np.linspace(lo, hi, n_window) if hi > lo else np.array([lo])
+    if payloads_kg is not None:
+        payloads = np.atleast_1d(np.asarray(payloads_kg, dtype=float))
+        if payloads.size == 0 or not np.all(np.isfinite(payloads)) or np.any(payloads < 0):
+            raise InputError(f"payload range: expected payloads of zero or more, got {payloads_kg!r}")
+    if resolution_m is not None and not (math.isfinite(resolution_m) and resolution_m > 0):
+        raise InputError(f"resolution: expected a positive length, got {resolution_m!r}")
 
     if not design.multi:
         st, model = design.stations[0], models[0]
@@ -1229,7 +1326,9 @@ def levitate_stabilized(design, temp_k: Optional[float] = None, n_window: int = 
             max_payload = None
         top = max_payload if max_payload is not None else st.payload_kg
         pay = np.linspace(0.0, top, n_window) if top > 0 else np.array([0.0])
-        window = _window(model, (st.floater.mass_kg + pay) * g, pay)
+        pay = pay if payloads is None else payloads
+        window = _window(model, (st.floater.mass_kg + pay) * g, pay, st.floater.mass_kg * g,
+                         lift_temperature_slope(st, t), st.plates.distance, resolution_m)
         D = rep["lifter_distance_m"]
         bodies = [model.floater] + ([model.lifter_at(D)] if D is not None else [])
         floats = bool(rep["stable"])
@@ -1339,14 +1438,13 @@ def levitate_stabilized(design, temp_k: Optional[float] = None, n_window: int = 
                 margins.append(min(r["max_plate_distance_m"], r["lifter_clear_limit_m"]) - r["min_plate_distance_m"])
         crit = int(np.argmin(margins))
         top = max_payload if max_payload else p.mass_kg
-        pay = np.linspace(0.0, top, n_window)
-        win_st = [_window(m, fixed[i] + frac[i] * pay * g, pay) for i, m in enumerate(models)]
+        pay = np.linspace(0.0, top, n_window) if payloads is None else payloads
+        win_st = [_window(m, fixed[i] + frac[i] * pay * g, pay, float(fixed[i]),
+                          lift_temperature_slope(design.stations[i], t), design.stations[i].plates.distance,
+                          resolution_m)
+                  for i, m in enumerate(models)]
         window = [
-            {
-                "payload_kg": float(pj),
-                "lifter_distance_m": [w[j]["lifter_distance_m"] for w in win_st],
-                "max_plate_distance_m": [w[j]["max_plate_distance_m"] for w in win_st],
-            }
+            {"payload_kg": float(pj), **{k: [w[j][k] for w in win_st] for k in win_st[0][j] if k != "payload_kg"}}
             for j, pj in enumerate(pay)
         ]
         stations = []
@@ -1381,6 +1479,10 @@ def levitate_stabilized(design, temp_k: Optional[float] = None, n_window: int = 
             if r["lifter_distance_m"] is not None:
                 bodies.append(m.lifter_at(r["lifter_distance_m"]).at(
                     off + [0, 0, r["lifter_distance_m"] + m.lifter0.half_height]))
+    result["window_min_m"] = window_min(result["window"])
+    if payloads is not None:
+        result["payload_range_kg"] = [float(payloads.min()), float(payloads.max())]
+    result["resolution_shift_m"] = _f(resolution_m)
     result["safe_distance_m"] = float(safe_distance(_System(bodies)))
     result["warnings"] = warnings + [SAFETY_TEXT]
     head = {k: result.pop(k) for k in ("mode", "floats")}
@@ -1396,6 +1498,12 @@ def format_table(r: dict) -> str:
         return f"{v * scale:.{digits}g} {unit}".rstrip()
 
     yes = lambda b: "yes" if b else "no"  # noqa: E731
+
+    def span(lo, hi):
+        if lo is None or hi is None:
+            return "none"
+        return f"{num(lo, 1e3, 'mm')} to {num(hi, 1e3, 'mm')}"
+
     rows = [
         ("floats (stable)", yes(r.get("floats"))),
         ("payload", num(r.get("payload_kg"), 1e3, "g")),
@@ -1403,7 +1511,7 @@ def format_table(r: dict) -> str:
         ("lifter stiffness k_z / k_r", f"{num(r.get('k_lifter_z_n_m'), 1, 'N/m')} / {num(r.get('k_lifter_r_n_m'), 1, 'N/m')}"),
         ("plate distance (design)", num(r.get("plate_distance_m"), 1e3, "mm")),
         ("plates' stiffness finite-size / dipole", f"{num(r.get('k_plates_n_m'), 1, 'N/m')} / {num(r.get('k_plates_dipole_n_m'), 1, 'N/m')}"),
-        ("stable plate distance, finite-size", f"{num(r.get('min_plate_distance_m'), 1e3, 'mm')} to {num(r.get('max_plate_distance_m'), 1e3, 'mm')}"),
+        ("stable plate distance, finite-size", span(r.get("min_plate_distance_m"), r.get("max_plate_distance_m"))),
         ("largest plate distance, dipole model", num(r.get("max_plate_distance_dipole_m"), 1e3, "mm")),
         ("plate distance in window", yes(r.get("plate_distance_in_window"))),
         ("tilt stiffness lifter / plates", f"{num(r.get('k_tilt_lifter_n_m_per_rad'), 1e3, 'mN m/rad')} / {num(r.get('k_tilt_plates_n_m_per_rad'), 1e3, 'mN m/rad')}"),
@@ -1426,15 +1534,52 @@ def format_table(r: dict) -> str:
                 f"{num(s['min_plate_distance_m'], 1e3, 'mm')} to {num(s['max_plate_distance_m'], 1e3, 'mm')}"
             )
     if r.get("window"):
-        lines += ["", "schedule: payload g | lifter distance mm | largest plate distance mm"]
-        for w in r["window"]:
-            d, a = w["lifter_distance_m"], w["max_plate_distance_m"]
-            ds = ", ".join(num(x, 1e3) for x in d) if isinstance(d, list) else num(d, 1e3)
-            as_ = ", ".join(num(x, 1e3) for x in a) if isinstance(a, list) else num(a, 1e3)
-            lines.append(f"  {num(w['payload_kg'], 1e3):>8} | {ds} | {as_}")
+        lines += schedule_lines(r)
     if r.get("warnings"):
         lines += ["", "warnings:"] + [f"- {w}" for w in r["warnings"]]
     return "\n".join(lines)
+
+
+def _per_station(v) -> list:
+    return list(v) if isinstance(v, list) else [v]
+
+
+def schedule_lines(r: dict) -> list[str]:
+    """The payload schedule of a result as text lines (mm, um, N/m); "none" where no
+    plate distance is stable."""
+    def cell(v, scale, digits=4):
+        return "-" if v is None else f"{v * scale:.{digits}g}"
+
+    head = ("payload g", "lifter mm", "travel mm", "stable plates mm", "window mm", "step um",
+            "drift um/K", "dF/dd N/m")
+    body = []
+    for w in r["window"]:
+        ds = _per_station(w.get("lifter_distance_m"))
+        n = len(ds)
+        col = {k: _per_station(w.get(k)) + [None] * n for k in (
+            "lifter_travel_m", "min_plate_distance_m", "max_plate_distance_m", "window_m", "resolution_m",
+            "lifter_distance_drift_um_per_k", "dforce_dd_n_m")}
+        for i in range(n):
+            lo, hi = col["min_plate_distance_m"][i], col["max_plate_distance_m"][i]
+            body.append((
+                cell(w["payload_kg"], 1e3) if i == 0 else "",
+                (f"[{i}] " if n > 1 else "") + cell(ds[i], 1e3),
+                cell(col["lifter_travel_m"][i], 1e3, 3),
+                "none" if lo is None or hi is None else f"{lo * 1e3:.4g} to {hi * 1e3:.4g}",
+                "none" if col["window_m"][i] is None else cell(col["window_m"][i], 1e3, 3),
+                cell(col["resolution_m"][i], 1e6, 3),
+                cell(col["lifter_distance_drift_um_per_k"][i], 1, 3),
+                cell(col["dforce_dd_n_m"][i], 1, 4),
+            ))
+    widths = [max(len(h), *(len(b[j]) for b in body)) for j, h in enumerate(head)]
+    out = ["", "schedule (lifter distance, its travel from the empty float, stable plate distances, the "
+           "lifter step that moves the floater by " + ("the given shift" if r.get("resolution_shift_m") else
+                                                       "a tenth of its clearance") + ", drift, dF/dd):"]
+    out.append("  " + " | ".join(h.rjust(wd) for h, wd in zip(head, widths)))
+    out += ["  " + " | ".join(c.rjust(wd) for c, wd in zip(b, widths)) for b in body]
+    wm = r.get("window_min_m")
+    out.append(f"  narrowest window over the schedule: {'none' if wm is None else f'{wm * 1e3:.3g} mm'}")
+    return out
 
 
 def _plain(x):

@@ -14,6 +14,7 @@ from webapp import _shared as sh
 st.title("Design")
 design_mod = sh.module_or_none("matdb.design")
 lev_mod = sh.module_or_none("matdb.levitate")
+design_mod_stab = sh.module_or_none("matdb.design_stabilized")
 if design_mod is None or lev_mod is None:
     sh.not_available("The Design page")
     st.stop()
@@ -261,6 +262,29 @@ with right:
     if result.get("mode") == "stabilized":
         st.subheader("Floating magnet: lifter distance and stability window against payload")
         st.metric("Floats", "yes" if result.get("floats") else "no")
+        r1, r2, r3 = st.columns([2, 1, 2])
+        prange = r1.text_input("Payload range (e.g. 0 g..5 g; empty: 0 to the largest payload)", "",
+                               key="d_payload_range")
+        steps = r2.number_input("Steps", 2, 200, 11, key="d_payload_steps")
+        shift = r3.text_input("Allowed floater shift for the lifter step (empty: a tenth of its clearance)", "",
+                              key="d_resolution")
+        payloads, res_m = None, None
+        if prange.strip():
+            rng = sh.checked(lambda v: design_mod_stab.parse_payload_range(v, "payload range"), prange, "payload range")
+            if rng is not None:
+                payloads = tuple(float(x) for x in presentation.payload_steps(rng, int(steps)))
+        if shift.strip():
+            res_m = sh.checked(lambda v: parse_length(v, "shift", positive=True), shift, "allowed floater shift")
+        if payloads is not None or res_m is not None:
+            try:
+                with st.spinner("Computing the schedule over the payload range..."):
+                    result = sh.levitate_text(text, None, None, url, payloads, res_m)
+            except MatdbError as exc:
+                st.error(f"payload range: {exc}")
+                st.stop()
+        wm = result.get("window_min_m")
+        st.caption("Narrowest window of plate distances over the schedule: "
+                   + ("none (some payload has no stable plate distance)" if wm is None else f"{wm * 1e3:.3g} mm"))
         sched = presentation.stabilized_window_df(result)
         colour = alt.Color("station:N", title="station")
         base = alt.Chart(sched).encode(x=alt.X("payload_g:Q", title="payload (g)"), color=colour)
@@ -283,7 +307,14 @@ with right:
             "payload_g": st.column_config.NumberColumn("payload (g)", format="%.3g"),
             "lifter_distance_mm": st.column_config.NumberColumn("lifter distance (mm)", format="%.2f"),
             "max_plate_distance_mm": st.column_config.NumberColumn("largest plate distance (mm)", format="%.2f"),
-            "min_plate_distance_mm": st.column_config.NumberColumn("smallest plate distance (mm)", format="%.2f")})
+            "min_plate_distance_mm": st.column_config.NumberColumn("smallest plate distance (mm)", format="%.2f"),
+            "lifter_travel_mm": st.column_config.NumberColumn("lifter travel from empty (mm)", format="%.3g"),
+            "window_mm": st.column_config.NumberColumn("window (mm)", format="%.3g"),
+            "resolution_um": st.column_config.NumberColumn("lifter step (um)", format="%.3g"),
+            "drift_um_per_k": st.column_config.NumberColumn("lifter drift (um/K)", format="%.3g"),
+            "dforce_dd_n_m": st.column_config.NumberColumn("dF/dd (N/m)", format="%.3g")})
+        st.download_button("Schedule as CSV (for a positioning stage)", presentation.schedule_csv(result).encode(),
+                           file_name="schedule.csv", mime="text/csv", key="d_schedule_csv")
         stations = presentation.stations_df(result)
         if len(stations):
             st.dataframe(stations, hide_index=True, column_config={
