@@ -457,6 +457,31 @@ def grade_temperature_curves(grades_df: pd.DataFrame, grades: Sequence[str],
     return pd.concat(parts, ignore_index=True)
 
 
+#: Distinct hues for grades on one chart (neighbouring grades such as N42 and N42SH get
+#: different hues, not two blues), each paired with a marker shape in :data:`GRADE_SHAPES`.
+GRADE_PALETTE = ("#1f77b4", "#d62728", "#2ca02c", "#ff7f0e", "#9467bd", "#8c564b", "#e377c2", "#17becf",
+                 "#7f7f7f", "#bcbd22")
+GRADE_SHAPES = ("circle", "square", "triangle-up", "diamond", "cross", "triangle-down", "triangle-right",
+                "triangle-left")
+RATING_LABELS = ("within rating", "above max working T")
+
+
+def rating_labels(beyond_max) -> list[str]:
+    """Words for the ``beyond_max`` flags of :func:`grade_temperature_curves`."""
+    return [RATING_LABELS[1] if bool(b) else RATING_LABELS[0] for b in beyond_max]
+
+
+def padded_domain(low, high, frac: float = 0.12) -> tuple[float, float]:
+    """An axis range that holds every value of ``low`` and ``high`` with a margin of
+    ``frac`` of the span on each side (so no point sits on or below the lowest gridline)."""
+    lo = float(np.nanmin(np.asarray(low, dtype=float)))
+    hi = float(np.nanmax(np.asarray(high, dtype=float)))
+    span = hi - lo
+    if not span > 0:
+        span = abs(hi) if hi != 0 else 1.0
+    return lo - frac * span, hi + frac * span
+
+
 def grade_max_temp_marks(curves: pd.DataFrame) -> pd.DataFrame:
     """One row per grade at its maximum working temperature (inside the plotted range):
     ``grade``, ``max_temp_c``, ``br_t`` and ``relative_lift`` there (interpolated)."""
