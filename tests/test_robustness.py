@@ -369,11 +369,11 @@ def test_note_is_text_in_a_real_browser(tmp_path):
                 page.goto(f"{base}/lab_values", wait_until="load", timeout=60_000)
                 alert = page.locator('[data-testid="stAlert"]', has_text="In use by the advisor").first
                 alert.wait_for(timeout=90_000)
-                text = alert.inner_text()
+                text = alert.inner_text().replace("\u200b", "")  # invisible breaks of bare links
                 assert "[evil-link](http://example.invalid)" in text and "**evilbold**" in text, text
                 assert '<img id="evil-img" src="x">' in text, text
                 assert page.locator("#evil-img").count() == 0
-                assert alert.locator("a").count() == 0 and alert.locator("strong").count() == 0
+                assert alert.locator("a").count() == 0 and alert.locator("strong").count() == 0, alert.inner_html()
             finally:
                 b.close()
     finally:

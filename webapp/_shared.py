@@ -20,12 +20,21 @@ from matdb.output import csv_text
 _MARKDOWN_PUNCT = re.compile(r"([!-/:-@\[-`{-~])")
 
 
+_AUTOLINK = re.compile(r"(?<=:)(?=//)|(?<=www)(?=\.)|(?<=@)", re.IGNORECASE)
+
+
 def plain(text) -> str:
     """Text shown exactly as typed in a Streamlit element that renders Markdown
     (``st.info``, ``st.error``, ``st.caption``...): every ASCII punctuation character is
     backslash-escaped, so no link, image, emphasis, HTML or directive is made from user text
-    (notes, sources, names, error messages quoting input). Line breaks are kept."""
-    return "  \n".join(_MARKDOWN_PUNCT.sub(r"\\\1", line) for line in str(text).split("\n"))
+    (notes, sources, names, error messages quoting input). The page's Markdown also turns
+    bare ``http://``, ``www.`` and e-mail addresses into links after escapes are read, so an
+    invisible zero-width space goes after ``:`` in ``://``, after ``www`` and after ``@``.
+    Line breaks are kept."""
+    def one(line: str) -> str:
+        return _MARKDOWN_PUNCT.sub(r"\\\1", _AUTOLINK.sub("\u200b", line))
+
+    return "  \n".join(one(line) for line in str(text).split("\n"))
 
 
 def csv_bytes(df) -> bytes:
