@@ -54,7 +54,7 @@ import re
 import threading
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
-from typing import Any, Iterable, Sequence
+from typing import Any, Sequence
 
 import numpy as np
 import pandas as pd
@@ -535,7 +535,7 @@ class GeometryData:
         d = LATERAL_STEP_M
 
         def compute(hs):
-            pts, wts, idx, sign, comp = [], [], [], [], []
+            pts, wts, idx, comp = [], [], [], []
             for i, h in enumerate(hs):
                 scale = max(float(h), SCREEN_RULE_FLOOR_M)
                 yb = P.graded_breaks(-ly / 2, ly / 2, by, scale)

@@ -15,7 +15,7 @@ from typing import Any
 
 import numpy as np
 
-from .design import PlateDesign, T20_K
+from .design import PlateDesign
 from .errors import InputError
 from .physics import plate as P
 from .physics import thermal as TH
