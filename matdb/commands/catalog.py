@@ -121,6 +121,9 @@ def cmd_sources(args) -> int:
     n = sum(totals.values())
     emit(rows, "table", ["key", "kind", "year", "values", "verified", "corrected", "unverified", "citation"],
          {"values": "values"})
+    if not n:
+        print("\nno checks recorded in this database (made before they existed): run 'matdb seed' to refresh "
+              "the published values and their provenance (lab values are kept).")
     if n:
         done = totals["verified"] + totals["corrected"]
         print(f"\n{n} stored published values: {totals['verified']} verified, {totals['corrected']} corrected, "
