@@ -25,6 +25,7 @@ from .models import (
     FAMILIES,
     MATERIAL_KINDS,
     QUALITY_CLASSES,
+    ConductivityValue,
     MagnetGrade,
     PROVENANCE_STATUSES,
     MagnetValue,
@@ -46,7 +47,9 @@ FILES = {
     "grades": "magnet_grades.csv",
     "provenance": "provenance.csv",
     "properties": "properties.csv",
+    "conductivities": "conductivities.csv",
 }
+OPTIONAL_FILES = ("conductivities", "provenance", "properties")  # a seed folder without them loads
 
 COLUMNS = {
     "sources": ["key", "citation", "kind", "year", "note"],
@@ -68,6 +71,10 @@ COLUMNS = {
         "subject_kind", "subject_id", "property", "axis", "value_published", "unit_published",
         "temperature_c", "status", "quality", "source_key", "locator", "sources_tried", "note",
     ],
+    "conductivities": [
+        "material_id", "sigma_in_plane_s_m", "sigma_across_s_m", "temperature_c", "quality",
+        "source_key", "note",
+    ],
 }
 
 #: Checked numbers per kind of value row (``value_id`` prefix in provenance.csv).
@@ -77,9 +84,11 @@ PROVENANCE_FIELDS = {
     "grade": ("br_t", "br_min_t", "hcb_ka_m", "hcj_ka_m", "bhmax_kj_m3", "alpha_br_pct_per_k",
               "beta_hcj_pct_per_k", "max_temp_c", "mu_rec", "density_kg_m3"),
     "material": ("density_kg_m3", "molar_mass_g_mol"),
+    "sigma": ("sigma_in_plane_s_m", "sigma_across_s_m"),
 }
 #: ``value_kind`` stored in the database for each ``value_id`` prefix.
-VALUE_KIND_OF_PREFIX = {"chi": "chi", "grade": "magnet", "material": "material", "prop": "property"}
+VALUE_KIND_OF_PREFIX = {"chi": "chi", "grade": "magnet", "material": "material", "prop": "property",
+                        "sigma": "conductivity"}
 
 #: Further properties (properties.csv): SI unit each is stored in. Axes: ``iso``; for
 #: materials ``perp`` = along the c axis (normal to the basal plane / plate), ``par`` = in
@@ -164,6 +173,8 @@ class _Row:
 def _read_csv(folder: Path, kind: str) -> list[_Row]:
     fname = FILES[kind]
     path = folder / fname
+    if not path.exists() and kind in OPTIONAL_FILES:
+        return []
     if not path.exists():
         raise DataError(f"{fname}: file missing in {folder}")
     try:
@@ -203,6 +214,7 @@ class SeedSet:
     #: one dict per checked number: value_kind, owner_id, field, status, source_key, locator,
     #: sources_tried, note (the value row id is filled in when written)
     provenance: list[dict] = field(default_factory=list)
+    conductivities: list[ConductivityValue] = field(default_factory=list)
 
 
 def parse_seed(folder: Path | None = None) -> SeedSet:
@@ -344,10 +356,33 @@ def parse_seed(folder: Path | None = None) -> SeedSet:
             MagnetValue(grade=grade, quality=r.choice("quality", [q for q in QUALITY_CLASSES if q != "measured"]),
                         source_key=skey, note=r.text("note", False), **vals)
         )
-    if (folder / FILES["properties"]).exists():
-        _parse_properties(folder, out, keys, set(mats), seen_grades)
-    if (folder / FILES["provenance"]).exists():
-        _parse_provenance(folder, out, keys)
+
+    seen_sigma: set[tuple[str, str]] = set()
+    for r in _read_csv(folder, "conductivities"):
+        mid = r.text("material_id")
+        if mid not in mats:
+            raise r.err("material_id", f"unknown material {mid!r} (not in materials.csv)")
+        skey = r.text("source_key")
+        if skey not in keys:
+            raise r.err("source_key", f"unknown source key {skey!r}")
+        if (mid, skey) in seen_sigma:
+            raise r.err("source_key", f"two conductivity rows for {mid} from source {skey}")
+        seen_sigma.add((mid, skey))
+        s_ab = r.num("sigma_in_plane_s_m", required=True)
+        s_c = r.num("sigma_across_s_m", required=True)
+        for col, v in (("sigma_in_plane_s_m", s_ab), ("sigma_across_s_m", s_c)):
+            if not (0 <= v <= 1e9):
+                raise r.err(col, f"expected a conductivity from 0 to 1e9 S/m, got {v}")
+        if not mats[mid].anisotropic and s_ab != s_c:
+            raise r.err("sigma_across_s_m", f"{mid} is isotropic: give the same value twice")
+        tc = r.num("temperature_c")
+        out.conductivities.append(ConductivityValue(
+            material_id=mid, sigma_in_plane_s_m=s_ab, sigma_across_s_m=s_c,
+            temperature_k=celsius_to_kelvin(tc) if tc is not None else None,
+            quality=r.choice("quality", [q for q in QUALITY_CLASSES if q != "measured"]),
+            source_key=skey, note=r.text("note", False)))
+    _parse_properties(folder, out, keys, set(mats), seen_grades)
+    _parse_provenance(folder, out, keys)
     return out
 
 
@@ -432,6 +467,8 @@ def _stored_numbers(out: SeedSet) -> dict[tuple[str, str], set[str]]:
         have[("grade", v.grade)] = {n for n in PROVENANCE_FIELDS["grade"] if getattr(v, n) is not None}
     for m in out.materials:
         have[("material", m.id)] = {"density_kg_m3"} | ({"molar_mass_g_mol"} if m.molar_mass_kg_mol else set())
+    for v in out.conductivities:
+        have[("sigma", v.material_id)] = set(PROVENANCE_FIELDS["sigma"])
     return have
 
 
@@ -446,12 +483,16 @@ def _parse_provenance(folder: Path, out: SeedSet, keys: set[str]) -> None:
             row_source[("grade", v.grade, f)] = v.source_key
     for m in out.materials:
         row_source[("material", m.id, "density_kg_m3")] = m.density_source_key
+        row_source[("material", m.id, "molar_mass_g_mol")] = m.density_source_key
+    for v in out.conductivities:
+        for f in PROVENANCE_FIELDS["sigma"]:
+            row_source[("sigma", v.material_id, f)] = v.source_key
     seen: set[tuple[str, str]] = set()
     for r in _read_csv(folder, "provenance"):
         vid = r.text("value_id")
         prefix, _, owner = vid.partition(":")
         if prefix not in PROVENANCE_FIELDS or not owner:
-            raise r.err("value_id", "expected chi:<material>, grade:<grade> or material:<material>, "
+            raise r.err("value_id", "expected chi:<material>, grade:<grade>, material:<material> or sigma:<material>, "
                         f"got {vid!r}")
         if (prefix, owner) not in have:
             raise r.err("value_id", f"no seed row {vid!r}")
@@ -551,6 +592,10 @@ def seed_database(engine: Engine, folder: Path | None = None) -> dict[str, int]:
                     s.add(old)
                     rows[("property", p.key)] = old
             s.flush()
+            for v in data.conductivities:
+                rows[("conductivity", v.material_id)] = _upsert_value(
+                    s, ConductivityValue, v, ConductivityValue.material_id == v.material_id)
+            s.flush()
             # provenance is rebuilt from the seed files every time (it describes seed rows only)
             for old in s.exec(select(ValueProvenance)).all():
                 s.delete(old)
@@ -564,5 +609,6 @@ def seed_database(engine: Engine, folder: Path | None = None) -> dict[str, int]:
             raise
     counts.update(sources=len(data.sources), materials=len(data.materials),
                   susceptibilities=len(data.chi_values), grades=len(data.grades),
-                  properties=len(data.properties), **{"checked values": len(data.provenance)})
+                  conductivities=len(data.conductivities), properties=len(data.properties),
+                  **{"checked values": len(data.provenance)})
     return counts

@@ -121,15 +121,15 @@ def test_row_count_fingerprint(sources, materials, sus, grades, provenance, prop
     # + 5 EH + 3 AH grades of the usual industry grade system, common practice, no source.)
     # Column sums catch an accidental edit of a checked number (regression check; update
     # together with seed_data/CHECKS.md when a number is corrected).
-    assert len(sources) == 43
+    assert len(sources) == 48
     assert grades.br_t.sum() == pytest.approx(56.55, abs=1e-6)
     assert grades.hcj_ka_m.sum() == pytest.approx(68835.0, abs=1e-6)
     assert grades.bhmax_kj_m3.sum() == pytest.approx(12964.2, abs=1e-6)
-    assert len(provenance) == 565
-    assert provenance.status.value_counts().to_dict() == {"verified": 398, "unverified": 101, "corrected": 66}
+    assert len(provenance) == 613
+    assert provenance.status.value_counts().to_dict() == {"verified": 404, "unverified": 143, "corrected": 66}
     assert len(properties) == 36
-    assert len(materials) == 21
-    assert len(sus) == 22  # one iso row per material, two (perp, par) for pyrolytic graphite
+    assert len(materials) == 22
+    assert len(sus) == 23  # one iso row per material, two (perp, par) for pyrolytic graphite
     assert len(grades) == 48
     assert grades.family.value_counts().to_dict() == {
         "NdFeB": 40,
@@ -523,3 +523,23 @@ def test_ndfeb_remanence_classes(grades):
     # Higher N-number, higher remanence.
     by_cls = nd.groupby("cls").br_t.first().sort_index()
     assert by_cls.is_monotonic_increasing and by_cls.is_unique
+
+
+def test_conductivities_cited_and_physical(sources):
+    """conductivities.csv: every row cites a known source, every material is in
+    materials.csv, pyrolytic graphite conducts far better in its basal plane than across
+    it (Krishnan and Ganguli, Nature 144, 667 (1939): large anisotropy of the electrical
+    conductivity of graphite), metals conduct above 1e5 S/m (CRC resistivity table, from
+    memory), and the composite is an insulator (Chen et al. 2022). Fingerprint: 22 rows."""
+    cond = pd.read_csv(SEED / "conductivities.csv")
+    mats = pd.read_csv(SEED / "materials.csv")
+    assert len(cond) == 22
+    assert set(cond.source_key) <= set(sources.key)
+    assert set(cond.material_id) <= set(mats.id)
+    assert not cond.material_id.duplicated().any()
+    by = cond.set_index("material_id")
+    assert by.loc["pyrolytic-graphite", "sigma_in_plane_s_m"] > 100 * by.loc["pyrolytic-graphite", "sigma_across_s_m"]
+    for metal in ("copper", "silver", "gold", "aluminium", "bismuth", "lead"):
+        assert by.loc[metal, "sigma_in_plane_s_m"] > 1e5
+    assert by.loc["graphite-composite", "sigma_in_plane_s_m"] == 0
+    assert cond.note.str.len().min() > 10

@@ -6,8 +6,8 @@ table (status verified | corrected | unverified, source, locator, sources tried)
 are filled by seeding: an upgraded database keeps its rows as they were (its published values
 may predate the checks) until ``matdb seed`` refreshes them; ``matdb sources`` says so.
 
-Revision ID: 0002_value_provenance
-Revises: 0001_baseline
+Revision ID: 0004_value_provenance
+Revises: 0003_saved_designs
 Create Date: 2026-12-03 07:20:57.970236
 """
 
@@ -18,8 +18,8 @@ import sqlmodel  # noqa: F401  (autogenerate writes sqlmodel.sql.sqltypes.AutoSt
 from alembic import op
 
 
-revision = '0002_value_provenance'
-down_revision = '0001_baseline'
+revision = '0004_value_provenance'
+down_revision = '0003_saved_designs'
 branch_labels = None
 depends_on = None
 
