@@ -257,17 +257,16 @@ def magnet_report(tmp_path_factory):
     """examples/floating_magnet.toml: report and levitate JSON."""
     d = tmp_path_factory.mktemp("report-fm")
     design = EXAMPLES / "floating_magnet.toml"
-    out = d / "fm.pdf"
     html_out = d / "fm.html"
     _cli("report", str(design), "-o", str(html_out))
     nominal = json.loads(_cli("levitate", str(design), "--format", "json"))
     return html_out.read_text(encoding="utf-8"), {"nominal": nominal, "coldest": nominal,
-                                                   "hottest": nominal, "worst": nominal}, out
+                                                   "hottest": nominal, "worst": nominal}
 
 
 @pytest.mark.slow
 def test_floating_magnet_report_numbers_and_schedule(magnet_report):
-    html, results, _pdf = magnet_report
+    html, results = magnet_report
     # a single temperature (20 degC): coldest = nominal = hottest
     assert _check_every_number(html, results) > 30
     keys = {c["data-key"] for c in _parse(html).cells}
