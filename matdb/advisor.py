@@ -51,7 +51,9 @@ import json
 import math
 import os
 import re
+import contextvars
 import threading
+from contextlib import contextmanager
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
 from typing import Any, Sequence
@@ -766,6 +768,26 @@ class _Catalogue:
     thick: tuple
 
 
+_PROGRESS: contextvars.ContextVar = contextvars.ContextVar("matdb_advisor_progress", default=None)
+
+
+@contextmanager
+def reporting_progress(callback):
+    """Within this block, ranking calls ``callback(fraction, text)`` as it goes
+    (``fraction`` from 0 to 1), so a page or a terminal can draw a progress bar."""
+    token = _PROGRESS.set(callback)
+    try:
+        yield
+    finally:
+        _PROGRESS.reset(token)
+
+
+def _report(fraction: float, text: str) -> None:
+    cb = _PROGRESS.get()
+    if cb is not None:
+        cb(min(1.0, max(0.0, float(fraction))), text)
+
+
 def _prepare_all(geos: list, heights: np.ndarray, lat_heights: np.ndarray) -> None:
     """Fill the integrals every candidate needs. ``MATDB_ADVISOR_THREADS`` > 1 computes cold
     geometries in threads (numpy releases the GIL); the default is one thread, since on a
@@ -789,7 +811,8 @@ def _prepare_all(geos: list, heights: np.ndarray, lat_heights: np.ndarray) -> No
         want = 1
     workers = max(1, min(len(cold), want, os.cpu_count() or 1))
     if workers <= 1:
-        for g in cold:
+        for i, g in enumerate(cold):
+            _report(0.05 + 0.55 * i / len(cold), f"field integrals of {g.spec.description} ({i + 1} of {len(cold)})")
             prep(g)
         return
     from concurrent.futures import ThreadPoolExecutor
@@ -1024,13 +1047,14 @@ def reasons_for(row: dict, req: AdviceRequest, cat: _Catalogue) -> tuple[list[st
         if not (m >= 1.0):
             if math.isfinite(m):
                 mt = f"{m:.2f}" if abs(m) >= 0.01 else f"{m:.2g}"
-                reasons.append(f"lift at {_mm(g_req)} is {mt}x the weight at {_c(req.temp_max_k)} "
-                               f"in the worst case (minimum Br, low end of |chi|)")
+                reasons.append(f"worst-case margin {mt}, needs 1.00: lift at {_mm(g_req)} is {mt}x the weight "
+                               f"at {_c(req.temp_max_k)} in the worst case (minimum Br, low end of |chi|)")
             if not math.isfinite(row["gap_worst_m"]) and not math.isfinite(row["gap_m"]):
                 reasons.append("it does not float at any gap with this payload")
         if row["too_hot"]:
+            over = req.temp_max_k - 273.15 - grade.max_temp_c
             reasons.append(f"{grade.grade} is rated to {grade.max_temp_c:g} C; the range reaches "
-                           f"{_c(req.temp_max_k)}")
+                           f"{_c(req.temp_max_k)} ({over:.0f} K over)")
         if row["demag_risk"]:
             why = ""
             if grade.beta_hcj_pct_per_k is not None and grade.beta_hcj_pct_per_k > 0 and \
@@ -1060,7 +1084,8 @@ def reasons_for(row: dict, req: AdviceRequest, cat: _Catalogue) -> tuple[list[st
         if row["over_budget"]:
             c = row["cost_usd"]
             if math.isfinite(c):
-                reasons.append(f"cost {c:.2f} USD is over the budget of {req.budget_usd:.2f} USD")
+                reasons.append(f"cost {c:.2f} USD is over the budget of {req.budget_usd:.2f} USD "
+                               f"(by {c - req.budget_usd:.2f} USD)")
             else:
                 reasons.append("no price in the database for "
                                + ("the plate material" if mat.price_usd_per_kg is None else "the magnets")
@@ -1316,8 +1341,10 @@ _LOCK = threading.RLock()
 
 
 def _rank_locked(req: AdviceRequest, cat: _Catalogue, polish: int, tilt_rows: int):
+    _report(0.02, "screening every candidate")
     df = _evaluate(req, cat)
     df = _sort(df)
+    _report(0.65, "checking tilt of the best candidates")
     for _ in range(6):  # until the first `tilt_rows` feasible rows have had their tilt checked
         head = df.head(tilt_rows)
         todo = [i for i in head.index if head.at[i, "feasible"] and not head.at[i, "tilt_checked"]
@@ -1327,6 +1354,7 @@ def _rank_locked(req: AdviceRequest, cat: _Catalogue, polish: int, tilt_rows: in
         _screen_tilt(df, todo, req, cat)
         _refresh_flags(df, todo, req)
         df = _sort(df)
+    _report(0.8, "working the best candidate out exactly")
     for _ in range(8):  # polish until the first `polish` rows are all exact
         head = df.head(polish)
         todo = [i for i in head.index if not df.at[i, "exact"]]
@@ -1355,6 +1383,7 @@ def _rank_locked(req: AdviceRequest, cat: _Catalogue, polish: int, tilt_rows: in
         par[feas] = pareto_front(df.loc[feas, "margin"], df.loc[feas, "cost_usd"], df.loc[feas, "derating_pct"])
     df["pareto"] = par
     df["rank"] = np.arange(1, len(df) + 1)
+    _report(1.0, "ranked")
     return df, cat
 
 

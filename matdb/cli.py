@@ -21,6 +21,7 @@ COMMAND_MODULES = [
     "matdb.commands.physics",
     "matdb.commands.advise",
     "matdb.commands.dynamics",
+    "matdb.commands.report",
 ]
 
 

@@ -168,3 +168,14 @@ class QualityFactorValue(SQLModel, table=True):
     note: str = ""
     entered_at: _dt.datetime = Field(default_factory=_now)
     retracted: bool = False
+
+
+class SavedDesign(SQLModel, table=True):
+    """A design a person named and saved, with a note (the design-file text as typed)."""
+
+    id: Optional[int] = Field(default=None, primary_key=True)
+    name: str = Field(index=True, unique=True)
+    note: str = ""
+    design_toml: str
+    created_at: _dt.datetime = Field(default_factory=_now)
+    updated_at: _dt.datetime = Field(default_factory=_now)
