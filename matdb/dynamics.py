@@ -174,6 +174,12 @@ def prepare_dynamics(design: PlateDesign, temp_k: float | None = None,
         if md.unstable:
             warnings.append(f"Unstable mode: {md.name[len('unstable: '):]} (negative stiffness); "
                             "it has no frequency or Q.")
+    from .levitate import LARGE_MAGNET_M, LARGE_MAGNET_MASS_KG, _lines
+    from .physics.thermal import SAFETY_TEXT
+
+    if (design.magnets.largest_dimension_m() > LARGE_MAGNET_M
+            or design.magnet_mass_kg() > LARGE_MAGNET_MASS_KG):
+        warnings.extend(_lines(SAFETY_TEXT))
     return DynamicsPrep(design, t_op, gap, air_gap, pivot, st.k, m, float(sum(parts_m)),
                         plate_mass, modes, c_eddy, s_ab, s_c, s_src, fem, area, polar, sq, h,
                         size, t, warnings, bool(st.laterally_stable))

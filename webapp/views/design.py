@@ -396,7 +396,8 @@ if dyn_mod is not None and result.get("mode") == "plate":
             ring = dyn_mod.outline_df(design)
             ring["path"] = ring["piece"].astype(str) + "-" + ring["ring"].astype(str)
             span = max(ring["x_mm"].max() - ring["x_mm"].min(), ring["y_mm"].max() - ring["y_mm"].min())
-            cx, cy = ring["x_mm"].mean(), ring["y_mm"].mean()
+            cx = 0.5 * (ring["x_mm"].max() + ring["x_mm"].min())
+            cy = 0.5 * (ring["y_mm"].max() + ring["y_mm"].min())
             drawing = alt.Chart(ring).mark_line(color="#333333", strokeWidth=1.5).encode(
                 x=alt.X("x_mm:Q", title="x (mm)", scale=alt.Scale(domain=[cx - 0.6 * span, cx + 0.6 * span])),
                 y=alt.Y("y_mm:Q", title="y (mm)", scale=alt.Scale(domain=[cy - 0.6 * span, cy + 0.6 * span])),
