@@ -45,3 +45,21 @@ def test_design_page_dynamics_section():
     # bad pressure: a message under the field, no exception
     at.text_input(key="d_dyn_pressure").set_value("fast").run()
     assert not at.exception and any("pressure" in e.value for e in at.error)
+
+
+def test_lab_values_page_records_a_measured_q():
+    """Lab values page: a measured Q needs a source note (nothing written without one) and
+    then appears in the table."""
+    at = AppTest.from_file(APP, default_timeout=120).run()
+    at.switch_page("views/lab_values.py").run()
+    assert not at.exception, [e.message for e in at.exception]
+    at.text_input(key="lab_q").set_value("40")
+    at.text_input(key="lab_q_f").set_value("16 Hz")
+    at.button(key="lab_q_submit").click().run()
+    assert any("--source" in e.value or "source" in e.value for e in at.error)
+    assert not any("frequency_hz" in d.value.columns for d in at.dataframe if hasattr(d.value, "columns"))
+    at.text_input(key="lab_q_source").set_value("demo ring-down, notebook 5 p. 1")
+    at.button(key="lab_q_submit").click().run()
+    assert not at.exception, [e.message for e in at.exception]
+    table = next(d.value for d in at.dataframe if "ring_down_s" in d.value.columns)
+    assert table["q"].iloc[-1] == 40
