@@ -313,6 +313,37 @@ with right:
             "dforce_dd_n_m": st.column_config.NumberColumn("dF/dd (N/m)", format="%.3g")})
         st.download_button("Schedule as CSV (for a positioning stage)", presentation.schedule_csv(result).encode(),
                            file_name="schedule.csv", mime="text/csv", key="d_schedule_csv")
+        with st.expander("Suggest designs that float a payload range", expanded=not result.get("floats")):
+            synth = sh.module_or_none("matdb.magnet_synthesis")
+            s1, s2, s3 = st.columns([2, 1, 2])
+            s_range = s1.text_input("Payload range to float", prange.strip() or "0 g..5 g", key="fm_s_range")
+            s_win = s2.text_input("Smallest window", "0.5 mm", key="fm_s_window")
+            s_mats = s3.multiselect("Plate materials", list(synth.DEFAULT_MATERIALS) if synth else [],
+                                    default=list(synth.DEFAULT_MATERIALS) if synth else [], key="fm_s_mats")
+            if synth is not None and st.button("Search designs", key="fm_s_go"):
+                rng = sh.checked(lambda v: design_mod_stab.parse_payload_range(v, "payload range"), s_range,
+                                 "payload range to float")
+                win = sh.checked(lambda v: parse_length(v, "window", positive=True), s_win, "smallest window")
+                if rng is not None and win is not None:
+                    bar = st.progress(0.0, text="searching lifter, floater, plates and stations")
+                    try:
+                        res = synth.search(synth.FMRequest(payload_range_kg=rng, min_window_m=win,
+                                                           materials=tuple(s_mats) or synth.DEFAULT_MATERIALS),
+                                           progress=lambda f, t="": bar.progress(min(max(f, 0.0), 1.0), text=t[:90]))
+                        st.session_state["fm_search"] = (synth.records(res), res.message, res.notes)
+                    except MatdbError as exc:
+                        st.error(f"search: {exc}")
+                    bar.empty()
+            found = st.session_state.get("fm_search")
+            if found:
+                recs, message, notes = found
+                if message:
+                    st.warning(message)
+                st.dataframe(presentation.floating_designs_df(recs), hide_index=True, key="fm_s_table")
+                for n in notes:
+                    st.caption(n)
+                st.caption("Suggestions are demo designs, each re-checked by the levitate analysis; "
+                           "large magnets need the strong-magnet cautions below.")
         stations = presentation.stations_df(result)
         if len(stations):
             st.dataframe(stations, hide_index=True, column_config={
