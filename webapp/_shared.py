@@ -152,6 +152,8 @@ def clear_catalog_caches() -> None:
     field_map.clear()
     arrangement_reach.clear()
     advise.clear()
+    dynamics_prep.clear()
+    pressure_sweep.clear()
 
 
 # ---------------------------------------------------------------------------
@@ -270,3 +272,30 @@ def run_with_progress(fn, *args, label: str = "Working..."):
             return fn(*args)
     finally:
         slot.empty()
+
+
+# ---------------------------------------------------------------------------
+# dynamics (modes, damping, Q) of a plate design, cached by the design text
+# ---------------------------------------------------------------------------
+
+@st.cache_resource(show_spinner=False, max_entries=16)
+def dynamics_prep(text: str, url: str):
+    """Not pickled (it holds the factorised finite-element matrices): a shared resource."""
+    from matdb.design import load_design_text
+    from matdb.dynamics import prepare_dynamics
+
+    return prepare_dynamics(load_design_text(text))
+
+
+def dynamics_text(text: str, pressure_pa: float, url: str) -> dict:
+    from matdb.dynamics import evaluate_dynamics
+
+    return evaluate_dynamics(dynamics_prep(text, url), pressure_pa)
+
+
+@st.cache_data(show_spinner=False, max_entries=16)
+def pressure_sweep(text: str, url: str):
+    from matdb.design import load_design_text
+    from matdb.dynamics import pressure_sweep_df
+
+    return pressure_sweep_df(load_design_text(text), prep=dynamics_prep(text, url))
