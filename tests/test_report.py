@@ -196,6 +196,7 @@ def test_report_sections(plate_report):
     # illustrative prices are marked; cautions defer to local codes and licensed practice
     assert "Illustrative price" in html
     assert "0.5 mT" in html and "local codes" in html.lower() and "licensed" in html.lower()
+    assert re.search(r"</span> cm from the magnets", html)  # regression check: words kept apart
     # provenance: the graphite value's kind and source
     assert "pyrolytic-graphite" in html and "handbook" in html or "standard" in html
     # reproducibility: version and database fingerprint
