@@ -326,6 +326,13 @@ def test_provenance_shows_a_lab_value_with_its_source_note_and_date(fresh_db):
     assert chi["value"] == "-0.000162" and chi["uncertainty"] == "3e-06"
     # the magnet grade rows name their published source
     assert any(r["property"] == "Br (T)" and r["source"] for r in rows)
+    # where the database keeps a checked-against-source status, every row carries it
+    from matdb import catalog
+
+    if hasattr(catalog, "status_marks"):
+        assert chi["status"] == "measured"
+        br = next(r for r in rows if r["property"] == "Br (T)")
+        assert br["status"] in ("verified", "corrected", "unverified")
     ctx = {"provenance": rows}
     _number_notes(ctx)
     assert all(r["note_number"] is None or 1 <= r["note_number"] <= len(ctx["provenance_notes"]) for r in rows)
