@@ -26,7 +26,7 @@ from pathlib import Path
 from typing import Any, Callable
 
 from . import __version__
-from .errors import InputError
+from .errors import InputError, PhysicsError
 
 PAPERS = ("A4", "Letter")
 CASES = ("coldest", "nominal", "hottest", "worst")
@@ -144,9 +144,9 @@ STABILIZED_LABELS = {
 
 # units of a key, from its suffix (the levitate JSON names every key after its SI unit)
 _SUFFIX_UNITS = (
-    ("_n_m_per_rad", "mN m/rad", 1e3), ("_um_per_k", "um/K", 1), ("_n_m", "N/m", 1), ("_hz", "Hz", 1),
+    ("_s_m", "S/m", 1), ("_n_m_per_rad", "mN m/rad", 1e3), ("_um_per_k", "um/K", 1), ("_n_m", "N/m", 1), ("_hz", "Hz", 1),
     ("_pct", "%", 1), ("_kg", "g", 1e3), ("_n", "mN", 1e3), ("_m", "mm", 1e3), ("_t", "T", 1),
-    ("_k", "degC", 1), ("_fraction", "", 1), ("_si", "", 1),
+    ("_k", "degC", 1), ("_fraction", "", 1), ("_si", "", 1), ("_s", "s", 1),
 )
 
 
@@ -180,11 +180,19 @@ def docstring_references(fn: Callable, _depth: int = 0) -> list[str]:
         text = " ".join(part.split())
         if not text:
             continue
-        see = re.match(r"See :func:`~?([\w.]+)`", text)
+        see = re.match(r"See :(func|mod):`~?([\w.]+)`", text)
         if see and _depth < 3:
-            target = see.group(1)
+            kind, target = see.groups()
             mod = inspect.getmodule(fn)
-            obj = getattr(mod, target.rpartition(".")[2], None) if mod else None
+            if kind == "mod":
+                import importlib
+
+                try:
+                    obj = importlib.import_module(target)
+                except ImportError:
+                    obj = None
+            else:
+                obj = getattr(mod, target.rpartition(".")[2], None) if mod else None
             if obj is not None:
                 refs.extend(docstring_references(obj, _depth + 1))
                 continue
@@ -277,10 +285,22 @@ def run_cases(design, levitate_fn=None) -> dict[str, dict]:
     from .levitate import levitate
 
     fn = levitate_fn or levitate
-    t_cold, _t_nom, t_hot = _temperatures(design)
+    return _three(design, fn)
+
+
+def _three(design, fn) -> dict[str, dict]:
+    """``fn(design)`` at the design's conditions and ``fn(design, temp_k=...)`` at its
+    coldest and hottest temperature (a case at the nominal temperature reuses it: the
+    result is the same)."""
+    t_cold, t_nom, t_hot = _temperatures(design)
     out = {"nominal": fn(design)}
-    out["coldest"] = fn(design, temp_k=t_cold)
-    out["hottest"] = out["coldest"] if t_hot == t_cold else fn(design, temp_k=t_hot)
+    out["coldest"] = out["nominal"] if t_cold == t_nom else fn(design, temp_k=t_cold)
+    if t_hot == t_nom:
+        out["hottest"] = out["nominal"]
+    elif t_hot == t_cold:
+        out["hottest"] = out["coldest"]
+    else:
+        out["hottest"] = fn(design, temp_k=t_hot)
     return out
 
 
@@ -438,19 +458,45 @@ def _provenance(design, url: str | None) -> list[dict]:
     return rows
 
 
+DYNAMICS_MODE_COLUMNS = (("frequency_hz", "frequency"), ("q", "Q"), ("q_eddy", "Q, eddy currents"),
+                         ("q_air", "Q, air"), ("ring_down_s", "ring-down time"),
+                         ("noise_micro_g_rthz", "thermal noise (micro-g/rtHz)"))
+
+
 def _dynamics(design) -> dict | None:
-    """The dynamics figures when :mod:`matdb.dynamics` is available (else None)."""
+    """Modes, damping, Q, ring-down and noise of a floating plate at the coldest, nominal
+    and hottest temperature, when :mod:`matdb.dynamics` is available (else None)."""
+    if getattr(design, "mode", "plate") != "plate":
+        return None
     try:
-        from . import dynamics  # type: ignore[attr-defined]
+        from .dynamics import analyse_dynamics
     except ImportError:
         return None
-    fn = getattr(dynamics, "analyse_dynamics", None)
-    if fn is None:
-        return None
     try:
-        return fn(design)
-    except InputError as exc:
+        cases = _three(design, analyse_dynamics)
+    except (InputError, PhysicsError) as exc:
         return {"error": str(exc)}
+    tables = []
+    for case in ("coldest", "nominal", "hottest"):
+        r = cases[case]
+        head = ["mode", *(f"{lbl} ({u})" if (u := _suffix_unit(k)[0]) else lbl for k, lbl in DYNAMICS_MODE_COLUMNS),
+                "dominant damping"]
+        rows = []
+        for i, m in enumerate(r.get("modes") or []):
+            rows.append({"name": m.get("name", ""), "dominant": m.get("dominant_damping") or "",
+                         "cells": [cell(m.get(k), f"dynamics.modes.{i}.{k}", case, *_suffix_unit(k))
+                                   for k, _lbl in DYNAMICS_MODE_COLUMNS]})
+        scalars = [{"label": lbl, "cell": cell(r.get(k), f"dynamics.{k}", case, *_suffix_unit(k))}
+                   for k, lbl in (("pressure_pa", "gas pressure (Pa)"), ("mass_kg", "moving mass (g)"),
+                                  ("sigma_in_plane_s_m", "conductivity in plane (S/m)"),
+                                  ("sigma_across_s_m", "conductivity across (S/m)")) if k in r]
+        tables.append({"case": case, "head": head, "rows": rows, "scalars": scalars,
+                       "warnings": r.get("warnings") or []})
+    return {"tables": tables, "results": cases,
+            "refs": docstring_references(analyse_dynamics),
+            "method": "Rigid-body modes of K v = omega^2 M v; eddy-current damping from a P1 finite-element "
+                      "solution on the plate outline (slots and holes included), squeeze-film and shear air "
+                      "damping; Q = 1 / (2 zeta); Brownian acceleration noise sqrt(4 k_B T omega_0 / (m Q))."}
 
 
 def _charts_plate(design, result) -> list[dict]:
@@ -595,6 +641,12 @@ def _number_references(ctx: dict) -> None:
                 refs.append(r)
             nums.append(refs.index(r) + 1)
         f["ref_numbers"] = nums
+    dyn = ctx.get("dynamics")
+    if dyn and dyn.get("refs"):
+        for r in dyn["refs"]:
+            if r not in refs:
+                refs.append(r)
+        dyn["ref_numbers"] = [refs.index(r) + 1 for r in dyn["refs"]]
     ctx["references"] = refs
 
 

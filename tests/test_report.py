@@ -79,8 +79,8 @@ def _lookup(result: dict, path: str):
 
 
 # the levitate JSON names each key after its unit (DEVELOPERS.md glossary)
-_KEY_UNITS = (("_n_m_per_rad", "N*m/rad"), ("_um_per_k", "micrometer/K"), ("_n_m", "N/m"), ("_hz", "Hz"),
-              ("_pct", "percent"), ("_kg", "kg"), ("_n", "N"), ("_m", "m"), ("_t", "T"), ("_k", "K"))
+_KEY_UNITS = (("_s_m", "S/m"), ("_n_m_per_rad", "N*m/rad"), ("_um_per_k", "micrometer/K"), ("_n_m", "N/m"), ("_hz", "Hz"),
+              ("_pct", "percent"), ("_kg", "kg"), ("_n", "N"), ("_m", "m"), ("_t", "T"), ("_k", "K"), ("_s", "s"))
 
 
 def _json_unit(key: str) -> str:
@@ -119,6 +119,14 @@ def plate_report(tmp_path_factory):
     hot = json.loads(_cli("levitate", str(design), "--format", "json", "--temp",
                           f"{nominal['temp_hottest_k']!r} K"))
     results = {"nominal": nominal, "coldest": cold, "hottest": hot, "worst": nominal}
+    # the dynamics section equals `matdb dynamics --format json` (with --temp at the extremes)
+    results["dynamics"] = {
+        "nominal": json.loads(_cli("dynamics", str(design), "--format", "json")),
+        "coldest": json.loads(_cli("dynamics", str(design), "--format", "json", "--temp",
+                                   f"{nominal['temp_coldest_k']!r} K")),
+        "hottest": json.loads(_cli("dynamics", str(design), "--format", "json", "--temp",
+                                   f"{nominal['temp_hottest_k']!r} K")),
+    }
     return out.read_text(encoding="utf-8"), results
 
 
@@ -127,9 +135,12 @@ def _check_every_number(html: str, results: dict) -> int:
     n = 0
     for c in cells:
         key, case, si = c["data-key"], c["data-case"], c.get("data-si")
-        if si is None or key.startswith("dynamics."):
+        if si is None:
             continue
-        expected = _lookup(results[case], key)
+        if key.startswith("dynamics."):
+            expected = _lookup(results["dynamics"][case], key[len("dynamics."):])
+        else:
+            expected = _lookup(results[case], key)
         if si == "null":
             assert expected is None, key
             assert c["text"].strip() == "-"
@@ -167,6 +178,9 @@ def test_every_levitate_figure_is_in_the_report(plate_report):
             assert (k, "coldest") in keys and (k, "hottest") in keys, k
     for i in range(len(nominal["lift_curve"])):
         assert (f"lift_curve.{i}.force_n", "nominal") in keys
+    for case in ("coldest", "nominal", "hottest"):
+        for i, _m in enumerate(results["dynamics"][case]["modes"]):
+            assert (f"dynamics.modes.{i}.q", case) in keys and (f"dynamics.modes.{i}.frequency_hz", case) in keys
     assert ("gap_worst_m", "worst") in keys and ("max_payload_worst_kg", "worst") in keys
 
 
