@@ -330,16 +330,23 @@ with right:
                         res = synth.search(synth.FMRequest(payload_range_kg=rng, min_window_m=win,
                                                            materials=tuple(s_mats) or synth.DEFAULT_MATERIALS),
                                            progress=lambda f, t="": bar.progress(min(max(f, 0.0), 1.0), text=t[:90]))
-                        st.session_state["fm_search"] = (synth.records(res), res.message, res.notes)
+                        best = next((d for r, d in zip(res.rows, res.designs) if r["feasible"] and d is not None),
+                                    None)
+                        best_text = None if best is None else design_mod_stab.to_toml(best)
+                        st.session_state["fm_search"] = (synth.records(res), res.message, res.notes, best_text)
                     except MatdbError as exc:
                         st.error(sh.plain(f"search: {exc}"))
                     bar.empty()
             found = st.session_state.get("fm_search")
             if found:
-                recs, message, notes = found
+                recs, message, notes, best_text = found
                 if message:
                     st.warning(sh.plain(message))
                 st.dataframe(presentation.floating_designs_df(recs), hide_index=True, key="fm_s_table")
+                if best_text:
+                    st.download_button("Download the best design (TOML; load it above to check it)", best_text.encode(),
+                                       file_name="suggested-floating-magnet.toml", mime="application/toml",
+                                       key="fm_s_download")
                 for n in notes:
                     st.caption(sh.plain(n))
                 st.caption("Suggestions are demo designs, each re-checked by the levitate analysis; "
