@@ -104,8 +104,47 @@ def grade_curves(url: str, grades: tuple[str, ...], t_min_c: float, t_max_c: flo
     return presentation.grade_temperature_curves(magnets_df(url), list(grades), t_min_c, t_max_c)
 
 
+@st.cache_data(show_spinner=False, max_entries=8)
+def status_marks(url: str):
+    return catalog.status_marks(url)
+
+
+@st.cache_data(show_spinner=False, max_entries=8)
+def sources_table(url: str):
+    return presentation.sources_table(url)
+
+
+def check_column_config(columns) -> dict:
+    """Narrow text columns for the provenance marks beside values."""
+    return {f"{c}_check": st.column_config.TextColumn(
+        "check", width="small", help=catalog.STATUS_LEGEND) for c in columns}
+
+
+def status_legend() -> None:
+    st.caption("check: " + catalog.STATUS_LEGEND + ". Each number's source and locator: 'Sources and checks' "
+               "below, or `matdb show ID`.")
+
+
+def sources_expander(url: str, key: str) -> None:
+    """The bibliography with how many values each source supports, by status."""
+    with st.expander("Sources and checks"):
+        try:
+            src = sources_table(url)
+        except MatdbError as exc:
+            st.error(f"sources: {exc}")
+            return
+        tot = src[["verified", "corrected", "unverified"]].sum()
+        n = int(tot.sum())
+        if n:
+            st.write(f"{n} stored published values: {int(tot['verified'])} verified against a table (v), "
+                     f"{int(tot['corrected'])} corrected from one (c), {int(tot['unverified'])} unverified (?).")
+        st.dataframe(src[["key", "kind", "year", "values", "verified", "corrected", "unverified", "citation"]],
+                     hide_index=True, key=key)
+
+
 def clear_catalog_caches() -> None:
     """After a write to the database (a lab value), forget cached tables."""
+    status_marks.clear()
     materials_table.clear()
     magnets_df.clear()
     grade_curves.clear()
@@ -113,6 +152,8 @@ def clear_catalog_caches() -> None:
     field_map.clear()
     arrangement_reach.clear()
     advise.clear()
+    dynamics_prep.clear()
+    pressure_sweep.clear()
 
 
 # ---------------------------------------------------------------------------
@@ -231,3 +272,30 @@ def run_with_progress(fn, *args, label: str = "Working..."):
             return fn(*args)
     finally:
         slot.empty()
+
+
+# ---------------------------------------------------------------------------
+# dynamics (modes, damping, Q) of a plate design, cached by the design text
+# ---------------------------------------------------------------------------
+
+@st.cache_resource(show_spinner=False, max_entries=16)
+def dynamics_prep(text: str, url: str):
+    """Not pickled (it holds the factorised finite-element matrices): a shared resource."""
+    from matdb.design import load_design_text
+    from matdb.dynamics import prepare_dynamics
+
+    return prepare_dynamics(load_design_text(text))
+
+
+def dynamics_text(text: str, pressure_pa: float, url: str) -> dict:
+    from matdb.dynamics import evaluate_dynamics
+
+    return evaluate_dynamics(dynamics_prep(text, url), pressure_pa)
+
+
+@st.cache_data(show_spinner=False, max_entries=16)
+def pressure_sweep(text: str, url: str):
+    from matdb.design import load_design_text
+    from matdb.dynamics import pressure_sweep_df
+
+    return pressure_sweep_df(load_design_text(text), prep=dynamics_prep(text, url))

@@ -125,11 +125,17 @@ col, asc = sort_options[sort_by]
 shown = shown.sort_values(col, ascending=asc, na_position="last").reset_index(drop=True)
 unit = presentation.CHI_UNIT_SHORT[conv]
 chi_fmt = "%.3e"
-st.dataframe(
+checked = {"chi_shown": "chi_si", "chi_perp_shown": "chi_perp_si", "chi_par_shown": "chi_par_si",
+           "density_kg_m3": "density_kg_m3"}
+table, order = presentation.add_status_columns(
     shown[["id", "name", "chi_shown", "chi_perp_shown", "chi_par_shown", "density_kg_m3",
            "abs_chi_per_density", "required_t2_m", "value_kind", "source"]],
+    sh.status_marks(url)["material"], "id", checked)
+st.dataframe(
+    table[order],
     hide_index=True, key="materials_table",
     column_config={
+        **sh.check_column_config(checked),
         "chi_shown": st.column_config.NumberColumn(f"chi ({unit})", format=chi_fmt),
         "chi_perp_shown": st.column_config.NumberColumn(f"chi perp. ({unit})", format=chi_fmt,
                                                         help="field along the c axis (anisotropic plates)"),
@@ -141,6 +147,7 @@ st.dataframe(
         "value_kind": "value kind",
     },
 )
+sh.status_legend()
 if conv in ("si-molar", "cgs-molar") and shown["chi_shown"].isna().any():
     st.caption("Empty molar values: the database holds no molar mass for that material (e.g. polymers).")
 st.download_button("Download this table (CSV, exact values)", sh.csv_bytes(shown),
@@ -155,3 +162,5 @@ if picked:
         st.dataframe(presentation.compare_materials(mats.merge(need[["id", "required_t2_m"]], on="id"), picked,
                                                       rounded=True),
                      key="compare_table")
+
+sh.sources_expander(url, "materials_sources")
