@@ -454,7 +454,7 @@ if dyn_mod is not None and result.get("mode") == "plate":
                 dres = sh.dynamics_text(text, pressure, url)
                 sweep = sh.pressure_sweep(text, url)
         except MatdbError as exc:
-            st.error(f"dynamics: {exc}")
+            st.error(sh.plain(f"dynamics: {exc}"))
         else:
             st.dataframe(dyn_mod.modes_df(dres), hide_index=True, key="design_modes", column_config={
                 "frequency_hz": st.column_config.NumberColumn("frequency (Hz)", format="%.3g"),
@@ -480,6 +480,6 @@ if dyn_mod is not None and result.get("mode") == "plate":
             st.caption("At high pressure the air film under the plate limits Q; in vacuum the eddy currents do "
                        "(a flat line), unless the plate does not conduct.")
             for w in dres.get("warnings", []):
-                st.warning(w)
+                st.warning(sh.plain(w))
 
 compare_section()

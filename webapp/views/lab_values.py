@@ -145,7 +145,7 @@ if dyn_lab is not None:
             "pressure_pa": st.column_config.NumberColumn("pressure (Pa)", format="%.3g"),
             "temperature_k": st.column_config.NumberColumn("temperature (K)", format="%.5g")})
     else:
-        st.caption(f"No measured Q recorded for {mid} yet.")
+        st.caption(sh.plain(f"No measured Q recorded for {mid} yet."))
     with st.form("lab_q_form", clear_on_submit=False):
         q1, q2, q3 = st.columns(3)
         q_val = q1.text_input("Q (a number)", key="lab_q")
@@ -163,7 +163,7 @@ if dyn_lab is not None:
                                           pressure=q_p or None, mode=q_mode, design=q_design,
                                           source=q_source, url=url)
         except MatdbError as exc:
-            st.error(f"not recorded: {exc}")
+            st.error(sh.plain(f"not recorded: {exc}"))
         else:
             st.session_state["lab_flash"] = f"Recorded Q value {qrow['id']} for {mid}."
             st.rerun()
