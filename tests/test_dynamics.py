@@ -237,6 +237,10 @@ def test_unstable_mode_is_reported_without_frequency():
     assert bad[0].name.startswith("unstable: yaw")
     ok = {md.dof: md.frequency_hz for md in modes if not md.unstable}
     assert ok["z"] == pytest.approx(math.sqrt(3.0) / (2 * math.pi))
+    # a zero stiffness (yaw of a disc over a round magnet) is neutral: frequency 0, no Q
+    neutral = D.rigid_modes(np.diag([1.0, 2.0, 3.0, 4.0, 5.0, 0.0]), np.eye(6))
+    yaw = next(md for md in neutral if md.dof == "yaw")
+    assert yaw.neutral and not yaw.unstable and yaw.name.startswith("neutral: yaw")
 
 
 def test_mode_names_in_plain_words():

@@ -804,6 +804,8 @@ def rigid_modes(k: np.ndarray, m: np.ndarray, neutral_rel: float = 1e-6) -> list
         omega = math.sqrt(lam[i]) if lam[i] > 0 and not neutral else 0.0
         if unstable:
             name = f"unstable: {name}"
+        elif neutral:
+            name = f"neutral: {name}"
         modes.append(Mode(name, main, None if unstable else omega / (2 * math.pi), omega,
                           float(lam[i]), v, {d: float(f) for d, f in zip(DOF, fr)},
                           bool(unstable), bool(neutral)))
