@@ -51,7 +51,7 @@ if "design_source" not in st.session_state:
     st.session_state["design_source"] = "form"
 flash = st.session_state.pop("d_flash", None)
 if flash:
-    st.success(flash)
+    st.success(sh.plain(flash))
 
 left, right = st.columns([5, 7], gap="large")
 text = None
@@ -150,7 +150,7 @@ def saved_designs_panel(design_text: str | None) -> None:
         try:
             row = saved.save_design(name, design_text, note, overwrite=overwrite, url=url)
         except MatdbError as exc:
-            st.error(f"not saved: {exc}")
+            st.error(sh.plain(f"not saved: {exc}"))
         else:
             st.session_state["d_flash"] = f"Saved the design as {row['name']!r}."
             st.rerun()
@@ -187,7 +187,7 @@ with left:
     try:
         design = design_mod.load_design_text(text)
     except MatdbError as exc:
-        st.error(f"design: {exc}")
+        st.error(sh.plain(f"design: {exc}"))
         design = None
 
     if design is not None:
@@ -230,7 +230,7 @@ def compare_section() -> None:
         c1, c2 = st.columns([1, 1], gap="large")
         c1.dataframe(shown, hide_index=True, key="d_compare_table",
                      column_config={"figure": st.column_config.TextColumn("key figure (unit)", width="large")})
-        c1.download_button("Download the comparison (CSV, exact values)", table.to_csv(index=False).encode(),
+        c1.download_button("Download the comparison (CSV, exact values)", sh.csv_bytes(table),
                            file_name="matdb-compare.csv", mime="text/csv", key="d_compare_csv")
         curves = saved.compare_curves(ev)
         if len(curves):
@@ -259,7 +259,7 @@ with right:
         result = sh.levitate_key(key_text, url)
     except MatdbError as exc:
         progress.empty()
-        st.error(f"levitation: {exc}")
+        st.error(sh.plain(f"levitation: {exc}"))
         st.stop()
 
     if result.get("mode") == "stabilized":
@@ -283,7 +283,7 @@ with right:
                 with st.spinner("Computing the schedule over the payload range..."):
                     result = sh.levitate_text(text, None, None, url, payloads, res_m)
             except MatdbError as exc:
-                st.error(f"payload range: {exc}")
+                st.error(sh.plain(f"payload range: {exc}"))
                 st.stop()
         if result.get("max_plate_distance_dipole_m") is not None:
             ratio = result.get("plate_stiffness_dipole_ratio")
@@ -330,18 +330,25 @@ with right:
                         res = synth.search(synth.FMRequest(payload_range_kg=rng, min_window_m=win,
                                                            materials=tuple(s_mats) or synth.DEFAULT_MATERIALS),
                                            progress=lambda f, t="": bar.progress(min(max(f, 0.0), 1.0), text=t[:90]))
-                        st.session_state["fm_search"] = (synth.records(res), res.message, res.notes)
+                        best = next((d for r, d in zip(res.rows, res.designs) if r["feasible"] and d is not None),
+                                    None)
+                        best_text = None if best is None else design_mod_stab.to_toml(best)
+                        st.session_state["fm_search"] = (synth.records(res), res.message, res.notes, best_text)
                     except MatdbError as exc:
-                        st.error(f"search: {exc}")
+                        st.error(sh.plain(f"search: {exc}"))
                     bar.empty()
             found = st.session_state.get("fm_search")
             if found:
-                recs, message, notes = found
+                recs, message, notes, best_text = found
                 if message:
-                    st.warning(message)
+                    st.warning(sh.plain(message))
                 st.dataframe(presentation.floating_designs_df(recs), hide_index=True, key="fm_s_table")
+                if best_text:
+                    st.download_button("Download the best design (TOML; load it above to check it)", best_text.encode(),
+                                       file_name="suggested-floating-magnet.toml", mime="application/toml",
+                                       key="fm_s_download")
                 for n in notes:
-                    st.caption(n)
+                    st.caption(sh.plain(n))
                 st.caption("Suggestions are demo designs, each re-checked by the levitate analysis; "
                            "large magnets need the strong-magnet cautions below.")
         stations = presentation.stations_df(result)
@@ -354,7 +361,7 @@ with right:
         if result.get("safe_distance_m") is not None:
             st.caption(f"Keep implants at least {result['safe_distance_m'] * 1e2:.1f} cm from the magnets (0.5 mT).")
         for w in result.get("warnings", []):
-            st.warning(w)
+            st.warning(sh.plain(w))
         progress.empty()
         compare_section()
         st.stop()
@@ -409,7 +416,7 @@ with n2:
 st.subheader("Warnings and cautions")
 warns = result.get("warnings", [])
 for w in warns:
-    st.warning(w)
+    st.warning(sh.plain(w))
 if not warns:
     st.success("No warnings.")
 from matdb.physics.thermal import SAFETY_TEXT  # noqa: E402

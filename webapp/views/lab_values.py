@@ -22,19 +22,19 @@ mid = st.selectbox("Material", ids, index=ids.index("bismuth") if "bismuth" in i
 
 flash = st.session_state.pop("lab_flash", None)
 if flash:
-    st.success(flash)
+    st.success(sh.plain(flash))
 
 # ---- history ------------------------------------------------------------------
 try:
     hist = pd.DataFrame(lab.history(mid, url))
 except MatdbError as exc:
-    st.error(f"history: {exc}")
+    st.error(sh.plain(f"history: {exc}"))
     st.stop()
 in_use = hist[hist["preferred"]]
 if len(in_use):
     r = in_use.iloc[0]
-    st.info(f"In use by the advisor and the design page: value {int(r['value_id'])} ({r['value_kind']}), "
-            f"chi = {r['chi_si']:.4e} (SI volume), from {r['source']}.")
+    st.info(sh.plain(f"In use by the advisor and the design page: value {int(r['value_id'])} ({r['value_kind']}), "
+                     f"chi = {r['chi_si']:.4e} (SI volume), from {r['source']}."))
 st.subheader("Every value of this material")
 pts = hist[["value_id", "value_kind", "chi_si", "uncertainty", "preferred", "retracted", "source"]].copy()
 pts["label"] = [f"{int(v)} ({k})" for v, k in zip(pts["value_id"], pts["value_kind"])]
@@ -95,7 +95,7 @@ if submitted:
             temperature=temperature or None, uncertainty=uncertainty or None, source=source,
             measured_by=measured_by or None, date=date or None, method=method or None, url=url)
     except MatdbError as exc:
-        st.error(f"not recorded: {exc}")
+        st.error(sh.plain(f"not recorded: {exc}"))
     else:
         sh.clear_catalog_caches()
         st.session_state["lab_flash"] = (f"Recorded value {row['value_id']} for {mid}: chi = {row['chi_si']:.4g} "
@@ -112,7 +112,7 @@ with p1:
         try:
             lab.prefer(mid, vid, url)
         except MatdbError as exc:
-            st.error(f"not changed: {exc}")
+            st.error(sh.plain(f"not changed: {exc}"))
         else:
             sh.clear_catalog_caches()
             st.session_state["lab_flash"] = f"Value {vid} is now in use for {mid}."
@@ -126,7 +126,7 @@ with p2:
         try:
             lab.retract(rid, reason, mid, url)
         except MatdbError as exc:
-            st.error(f"not retracted: {exc}")
+            st.error(sh.plain(f"not retracted: {exc}"))
         else:
             sh.clear_catalog_caches()
             st.session_state["lab_flash"] = f"Value {rid} retracted; it stays in the history."
