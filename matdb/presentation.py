@@ -206,10 +206,12 @@ def filter_materials(df: pd.DataFrame, text: str = "", diamagnets_only: bool = F
     return out.reset_index(drop=True)
 
 
-def compare_materials(df: pd.DataFrame, ids: Sequence[str], rounded: bool = False) -> pd.DataFrame:
+def compare_materials(df: pd.DataFrame, ids: Sequence[str], rounded: bool = False,
+                      marks: dict[str, dict[str, str]] | None = None) -> pd.DataFrame:
     """Side-by-side view: one column per chosen material, one row per property (units in
     the row names). ``rounded`` turns numbers into short strings for people (4
-    significant digits; susceptibilities in exponent form)."""
+    significant digits; susceptibilities in exponent form); with ``marks`` (from
+    :func:`matdb.catalog.status_marks`) each stored value is followed by its status mark."""
     unknown = [i for i in ids if i not in set(df["id"])]
     if unknown:
         raise InputError(f"compare: unknown material id(s) {', '.join(unknown)}")
@@ -229,9 +231,14 @@ def compare_materials(df: pd.DataFrame, ids: Sequence[str], rounded: bool = Fals
         sub = sub.assign(required_t2_m=[levitation_requirement(c, r) for c, r in zip(sub["chi_si"], sub["density_kg_m3"])])
     table = sub[list(fields)].T.astype(object)
     if rounded:
+        from .catalog import mark
+
         for key in table.index:
-            table.loc[key] = [_human(v, sci=key.startswith("chi") or key == "abs_chi_per_density")
-                              for v in table.loc[key]]
+            vals = [_human(v, sci=key.startswith("chi") or key == "abs_chi_per_density") for v in table.loc[key]]
+            if marks is not None and key in ("chi_si", "chi_perp_si", "chi_par_si", "density_kg_m3"):
+                vals = [f"{v} {mark(marks.get(i, {}).get(key))}" if v not in ("", "-") else v
+                        for v, i in zip(vals, table.columns)]
+            table.loc[key] = vals
     table.index = [fields[k] for k in table.index]
     return table
 
@@ -948,3 +955,18 @@ def sources_table(url: str | None = None) -> pd.DataFrame:
     rows = sources_summary(url=url)
     return pd.DataFrame(rows, columns=["key", "kind", "year", "values", "verified", "corrected",
                                        "unverified", "citation", "note"])
+
+
+def value_check_marks(rows: Sequence[dict], field: str = "value_published") -> list[str]:
+    """Status mark of one number in each value row of :func:`matdb.labvalues.history`
+    (``m`` for a lab measurement)."""
+    from .catalog import mark
+
+    out = []
+    for r in rows:
+        if r.get("value_kind") == "measured":
+            out.append("m")
+            continue
+        st = next((p["status"] for p in (r.get("provenance") or []) if p.get("field") == field), None)
+        out.append(mark(st))
+    return out
