@@ -5,7 +5,7 @@ BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed
 PORT ?= 8501
 
-.PHONY: run test bench seed install clean browser-deps
+.PHONY: run test lint bench seed install clean browser-deps
 
 $(BIN)/python:
 	$(PY) -m venv $(VENV)
@@ -23,7 +23,10 @@ seed: install
 run: install seed
 	$(BIN)/matdb serve --port $(PORT)
 
-test: install
+lint: install
+	$(BIN)/python -m ruff check .
+
+test: install lint
 	$(BIN)/python -m pytest -q -p no:cacheprovider -n 2 --dist loadfile
 
 bench: install

@@ -20,6 +20,8 @@ COMMAND_MODULES = [
     "matdb.commands.lab",
     "matdb.commands.physics",
     "matdb.commands.advise",
+    "matdb.commands.dynamics",
+    "matdb.commands.report",
 ]
 
 
