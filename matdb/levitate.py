@@ -409,6 +409,7 @@ def stability_scan(design: PlateDesign, temp_k: float | None = None, n: int = 10
     if own is not None:
         sides.append(own)
     g_start = design.magnets.cover_m + P.MIN_GAP
+    shift = 0.25 * max(geom.lx, geom.ly)  # as stable_side_intervals: near the design's centre
     rows = []
     for side in sorted(set(float(s) for s in sides)):
         g = geom.with_side(side)
@@ -417,8 +418,13 @@ def stability_scan(design: PlateDesign, temp_k: float | None = None, n: int = 10
         gap = P.equilibrium_gap(arr.B, g, chi_perp, chi_par, weight, g_start, 4, xtol=None)
         stable = False
         if gap is not None:
-            stable = P.stability(arr.B, g, gap, chi_perp, chi_par, mass, p.payload_kg,
-                                 p.payload_height_m, 4, full=False).laterally_stable
+            # judged at the lateral equilibrium near the centre, as the stable intervals are
+            es = P.stability_at_equilibrium(arr.B, g, chi_perp, chi_par, p.density_kg_m3,
+                                            p.payload_kg, p.payload_height_m, g_start, 4,
+                                            max_shift=shift)
+            stable = es.stable
+            if es.equilibrium.found:
+                gap = es.equilibrium.gap
         rows.append({"side_m": side, "floats": gap is not None, "gap_m": _f(gap),
                      "laterally_stable": bool(stable),
                      "is_design": own is not None and abs(side - own) < 1e-12})
