@@ -1011,6 +1011,7 @@ def _evaluate(req: AdviceRequest, cat: _Catalogue) -> pd.DataFrame:
         "cost_usd": cost, "price_illustrative": illus, "over_budget": over_budget,
         "score": score, "exact": np.zeros(n, dtype=bool),
         "stable_plate_side_max_m": np.full(n, np.nan), "tilt_stable": np.ones(n, dtype=bool),
+        "stable_sides_text": np.full(n, "", dtype=object),
         "tilt_checked": np.zeros(n, dtype=bool),
     })
     return df
@@ -1025,6 +1026,13 @@ def _c(t_k: float) -> str:
 
 def _mm(v: float) -> str:
     return f"{v * 1e3:.3g} mm"
+
+
+def _intervals_text(iv) -> str:
+    """Stable side intervals [m] in words ("none" when empty)."""
+    from .levitate import format_intervals
+
+    return "stable sides: " + format_intervals(iv)
 
 
 def reasons_for(row: dict, req: AdviceRequest, cat: _Catalogue) -> tuple[list[str], list[str]]:
@@ -1063,11 +1071,10 @@ def reasons_for(row: dict, req: AdviceRequest, cat: _Catalogue) -> tuple[list[st
             reasons.append(f"irreversible loss of magnetisation: the reverse field reaches {rtxt} "
                            f"the knee at {_c(row['demag_temp_k'])}{why}")
         if math.isfinite(row["gap_m"]) and not row["laterally_stable"]:
-            side = row.get("stable_plate_side_max_m")
-            w = max(req.plate_m)
-            if side is not None and math.isfinite(side) and side < w:
-                reasons.append(f"the plate ({_mm(w)} wide) is wider than the largest laterally "
-                               f"stable side over this arrangement, {_mm(side)}")
+            sides = row.get("stable_sides_text")
+            if isinstance(sides, str) and sides:
+                reasons.append(f"the plate side {_mm(max(req.plate_m))} is in no stable interval "
+                               f"of square sides over this arrangement ({sides})")
             kx, ky = row["k_x_n_m"], row["k_y_n_m"]
             if not (kx > 0 and ky > 0):
                 reasons.append(f"laterally unstable: it slides off the magnets (k_x = {kx:.3g} N/m, "
@@ -1190,12 +1197,14 @@ def exact_evaluation(row: dict, req: AdviceRequest, cat: _Catalogue, *, side: bo
         stable = st.laterally_stable
         tilt_ok = st.k_pitch > 0 and st.k_roll > 0
         if side and not stable and geom.is_square:
+            # where a square plate would be stable: the intervals of sides judged at their
+            # lateral equilibrium (the plate's own side is in none of them: not stable)
             ext = g.unit.bounds()
             size = max(ext[1] - ext[0], ext[3] - ext[2])
-            s_side = P.stable_side_max(g.unit.B, geom, a * br_op ** 2, b * br_op ** 2,
-                                       mat.density_kg_m3, size, req.mass_kg,
-                                       req.payload_height_m, g_start)
-            out["stable_plate_side_max_m"] = np.nan if s_side is None else float(s_side)
+            iv = P.stable_side_intervals(g.unit.B, geom, a * br_op ** 2, b * br_op ** 2,
+                                         mat.density_kg_m3, size, req.mass_kg,
+                                         req.payload_height_m, g_start, known={lx: False})
+            out["stable_sides_text"] = _intervals_text(iv)
     out.update({"k_z_n_m": kz, "f_z_hz": fz, "k_x_n_m": kx, "k_y_n_m": ky,
                 "k_tilt_n_m_per_rad": kt, "laterally_stable": bool(stable), "tilt_stable": tilt_ok})
     # worst case

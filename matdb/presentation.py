@@ -714,6 +714,24 @@ def bill_of_materials(design, url: str | None = None) -> pd.DataFrame:
     return df
 
 
+def _intervals_text(iv) -> str:
+    """Stable side intervals [m] as text in mm ("-" when not computed)."""
+    if iv is None:
+        return "-"
+    from .levitate import format_intervals
+
+    return format_intervals(iv)
+
+
+def _temp_pair(result: dict, key: str, scale: float = 1.0) -> str:
+    """``cold / hot`` values of one key of the ``cold`` and ``hot`` objects."""
+    c, h = result.get("cold") or {}, result.get("hot") or {}
+    vals = [c.get(key), h.get(key)]
+    if key == "temperature_k":
+        return " / ".join("-" if v is None else f"{v - 273.15:.4g}" for v in vals)
+    return " / ".join("-" if v is None else _human(v * scale) for v in vals)
+
+
 def plate_summary(result: dict) -> pd.DataFrame:
     """The key numbers of a plate result as (quantity, value, unit) rows for people."""
     def mm(v):
@@ -732,7 +750,13 @@ def plate_summary(result: dict) -> pd.DataFrame:
         ("lateral stiffness k_y", result.get("k_y_n_m"), "N/m"),
         ("tilt stiffness", result.get("k_tilt_n_m_per_rad"), "N m/rad"),
         ("laterally stable", "yes" if result.get("laterally_stable") else "no", ""),
-        ("largest stable square plate side", mm(result.get("stable_plate_side_max_m")), "mm"),
+        ("stable square plate sides", _intervals_text(result.get("stable_side_intervals_m")), ""),
+        ("coldest / hottest temperature", _temp_pair(result, "temperature_k"), "C"),
+        ("gap cold / hot", _temp_pair(result, "gap_m", 1e3), "mm"),
+        ("margin cold / hot", _temp_pair(result, "margin"), ""),
+        ("k_z cold / hot", _temp_pair(result, "k_z_n_m"), "N/m"),
+        ("k_x cold / hot", _temp_pair(result, "k_x_n_m"), "N/m"),
+        ("k_y cold / hot", _temp_pair(result, "k_y_n_m"), "N/m"),
         ("lift lost when hot", result.get("lift_derating_pct"), "%"),
         ("gap drift", result.get("gap_drift_um_per_k"), "um/K"),
         ("demagnetisation risk", "yes" if result.get("demag_risk") else "no", ""),
