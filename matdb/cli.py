@@ -20,6 +20,7 @@ COMMAND_MODULES = [
     "matdb.commands.lab",
     "matdb.commands.physics",
     "matdb.commands.advise",
+    "matdb.commands.optimise",
 ]
 
 

@@ -32,23 +32,23 @@ CSV_COLUMNS = ["rank", "material", "grade", "arrangement", "pattern", "shape", "
                "array_h_m", "magnet_count", "plate_m"]
 
 
-def add_request_arguments(p, *, budget: bool = True, family: bool = True) -> None:
-    """The request options ``advise`` and ``optimise`` share (what to float, where, how)."""
-    m = p.add_mutually_exclusive_group(required=True)
-    m.add_argument("--mass", help="payload mass on top of the plate, e.g. '0.2 g'")
-    m.add_argument("--total-mass", help="plate plus payload, e.g. '0.3 g' (the plate thickness is "
-                   "then matched to it)")
-    p.add_argument("--footprint", required=True,
-                   help="plate outline, e.g. '20 mm x 20 mm', '20x20 mm' or '20 by 20 mm'")
+def add_request_arguments(p, *, mass: bool = True) -> None:
+    """The request options ``advise`` and ``optimise`` share (what to float, where, how);
+    ``mass=False`` leaves out --mass, --total-mass and --footprint (the caller adds them)."""
+    if mass:
+        m = p.add_mutually_exclusive_group(required=True)
+        m.add_argument("--mass", help="payload mass on top of the plate, e.g. '0.2 g'")
+        m.add_argument("--total-mass", help="plate plus payload, e.g. '0.3 g' (the plate thickness "
+                       "and side are then matched to it)")
+        p.add_argument("--footprint", required=True,
+                       help="plate outline, e.g. '20 mm x 20 mm', '20x20 mm' or '20 by 20 mm'")
     p.add_argument("--min-gap", "--gap", dest="min_gap", default="0.2 mm",
                    help="required gap (clearance) above the magnets (default 0.2 mm)")
     p.add_argument("--temp-min", default="20 degC", help="coldest operating temperature (default 20 degC)")
     p.add_argument("--temp-max", default="20 degC", help="hottest operating temperature (default 20 degC)")
-    if budget:
-        p.add_argument("--budget", help="most the magnets plus plate may cost, e.g. '20 USD'")
+    p.add_argument("--budget", help="most the magnets plus plate may cost, e.g. '20 USD'")
     p.add_argument("--material", action="extend", nargs="+", help="only these plate material ids (several, or repeat the option)")
-    if family:
-        p.add_argument("--family", action="extend", nargs="+", help="only these magnet families, e.g. NdFeB SmCo")
+    p.add_argument("--family", action="extend", nargs="+", help="only these magnet families, e.g. NdFeB SmCo")
     p.add_argument("--grade", action="extend", nargs="+", help="only these magnet grades, e.g. N42 N42SH")
     p.add_argument("--max-magnet-size", help="largest magnet dimension allowed, e.g. '13 mm'")
     p.add_argument("--magnet-envelope", help="box the magnet array must fit in, width x length x "
