@@ -5,7 +5,7 @@ BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed
 PORT ?= 8501
 
-.PHONY: run test bench seed install clean browser-deps
+.PHONY: run test lint bench seed install clean browser-deps report-page
 
 $(BIN)/python:
 	$(PY) -m venv $(VENV)
@@ -23,8 +23,14 @@ seed: install
 run: install seed
 	$(BIN)/matdb serve --port $(PORT)
 
-test: install
+lint: install
+	$(BIN)/python -m ruff check .
+
+test: install lint
 	$(BIN)/python -m pytest -q -p no:cacheprovider -n 2 --dist loadfile
+
+report-page: install
+	$(BIN)/python scripts/report_page.py
 
 bench: install
 	$(BIN)/python scripts/bench.py

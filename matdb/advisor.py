@@ -51,10 +51,12 @@ import json
 import math
 import os
 import re
+import contextvars
 import threading
+from contextlib import contextmanager
 from dataclasses import asdict, dataclass, field, replace
 from pathlib import Path
-from typing import Any, Iterable, Sequence
+from typing import Any, Sequence
 
 import numpy as np
 import pandas as pd
@@ -633,7 +635,7 @@ class GeometryData:
         d = LATERAL_STEP_M
 
         def compute(hs):
-            pts, wts, idx, sign, comp = [], [], [], [], []
+            pts, wts, idx, comp = [], [], [], []
             for i, h in enumerate(hs):
                 scale = max(float(h), SCREEN_RULE_FLOOR_M)
                 yb = P.graded_breaks(-ly / 2, ly / 2, by, scale)
@@ -866,6 +868,26 @@ class _Catalogue:
     thick_owner: tuple = ()
 
 
+_PROGRESS: contextvars.ContextVar = contextvars.ContextVar("matdb_advisor_progress", default=None)
+
+
+@contextmanager
+def reporting_progress(callback):
+    """Within this block, ranking calls ``callback(fraction, text)`` as it goes
+    (``fraction`` from 0 to 1), so a page or a terminal can draw a progress bar."""
+    token = _PROGRESS.set(callback)
+    try:
+        yield
+    finally:
+        _PROGRESS.reset(token)
+
+
+def _report(fraction: float, text: str) -> None:
+    cb = _PROGRESS.get()
+    if cb is not None:
+        cb(min(1.0, max(0.0, float(fraction))), text)
+
+
 def _prepare_all(geos: list, heights: np.ndarray, lat_heights: np.ndarray) -> None:
     """Fill the integrals every candidate needs. ``MATDB_ADVISOR_THREADS`` > 1 computes cold
     geometries in threads (numpy releases the GIL); the default is one thread, since on a
@@ -889,7 +911,8 @@ def _prepare_all(geos: list, heights: np.ndarray, lat_heights: np.ndarray) -> No
         want = 1
     workers = max(1, min(len(cold), want, os.cpu_count() or 1))
     if workers <= 1:
-        for g in cold:
+        for i, g in enumerate(cold):
+            _report(0.05 + 0.55 * i / len(cold), f"field integrals of {g.spec.description} ({i + 1} of {len(cold)})")
             prep(g)
         return
     from concurrent.futures import ThreadPoolExecutor
@@ -1153,13 +1176,14 @@ def reasons_for(row: dict, req: AdviceRequest, cat: _Catalogue) -> tuple[list[st
         if not (m >= 1.0):
             if math.isfinite(m):
                 mt = f"{m:.2f}" if abs(m) >= 0.01 else f"{m:.2g}"
-                reasons.append(f"lift at {_mm(g_req)} is {mt}x the weight at {_c(req.temp_max_k)} "
-                               f"in the worst case (minimum Br, low end of |chi|)")
+                reasons.append(f"worst-case margin {mt}, needs 1.00: lift at {_mm(g_req)} is {mt}x the weight "
+                               f"at {_c(req.temp_max_k)} in the worst case (minimum Br, low end of |chi|)")
             if not math.isfinite(row["gap_worst_m"]) and not math.isfinite(row["gap_m"]):
                 reasons.append("it does not float at any gap with this payload")
         if row["too_hot"]:
+            over = req.temp_max_k - 273.15 - grade.max_temp_c
             reasons.append(f"{grade.grade} is rated to {grade.max_temp_c:g} C; the range reaches "
-                           f"{_c(req.temp_max_k)}")
+                           f"{_c(req.temp_max_k)} ({over:.0f} K over)")
         if row["demag_risk"]:
             why = ""
             if grade.beta_hcj_pct_per_k is not None and grade.beta_hcj_pct_per_k > 0 and \
@@ -1195,7 +1219,8 @@ def reasons_for(row: dict, req: AdviceRequest, cat: _Catalogue) -> tuple[list[st
         if row["over_budget"]:
             c = row["cost_usd"]
             if math.isfinite(c):
-                reasons.append(f"cost {c:.2f} USD is over the budget of {req.budget_usd:.2f} USD")
+                reasons.append(f"cost {c:.2f} USD is over the budget of {req.budget_usd:.2f} USD "
+                               f"(by {c - req.budget_usd:.2f} USD)")
             else:
                 reasons.append("no price in the database for "
                                + ("the plate material" if mat.price_usd_per_kg is None else "the magnets")
@@ -1525,8 +1550,10 @@ def _evaluate_plates(req: AdviceRequest, cat: _Catalogue) -> pd.DataFrame:
 
 
 def _rank_locked(req: AdviceRequest, cat: _Catalogue, polish: int, tilt_rows: int):
+    _report(0.02, "screening every candidate")
     df = _evaluate_plates(req, cat)
     df = _sort(df)
+    _report(0.65, "checking tilt of the best candidates")
     for _ in range(6):  # until the first `tilt_rows` feasible rows have had their tilt checked
         head = df.head(tilt_rows)
         todo = [i for i in head.index if head.at[i, "feasible"] and not head.at[i, "tilt_checked"]
@@ -1536,6 +1563,7 @@ def _rank_locked(req: AdviceRequest, cat: _Catalogue, polish: int, tilt_rows: in
         _screen_tilt(df, todo, req, cat)
         _refresh_flags(df, todo, req)
         df = _sort(df)
+    _report(0.8, "working the best candidate out exactly")
     for _ in range(8):  # polish until the first `polish` rows are all exact
         head = df.head(polish)
         todo = [i for i in head.index if not df.at[i, "exact"]]
@@ -1566,6 +1594,7 @@ def _rank_locked(req: AdviceRequest, cat: _Catalogue, polish: int, tilt_rows: in
         par[feas] = pareto_front(df.loc[feas, "margin"], df.loc[feas, "cost_usd"], df.loc[feas, "derating_pct"])
     df["pareto"] = par
     df["rank"] = np.arange(1, len(df) + 1)
+    _report(1.0, "ranked")
     return df, cat
 
 
@@ -1624,7 +1653,9 @@ def advise(mass=None, footprint=None, *, min_gap="0.2 mm", temp_min="20 degC", t
            thickness=None, plate_size=None, weights=None, payload_height="0 mm",
            total_mass=None, envelope=None,
            arrangements: Sequence[ArrangementSpec] | None = None, top: int | None = None,
-           feasible_only: bool = False, polish: int | None = None, url=None) -> pd.DataFrame:
+           feasible_only: bool = False, polish: int | None = None, url=None,
+           objective: str = "score", min_q: float | None = None,
+           pressure_pa: float = 101325.0) -> pd.DataFrame:
     """Rank every plate material x magnet grade x arrangement x thickness for a payload.
 
     Parameters are what a person types (strings with units; numbers are SI): ``mass``
@@ -1636,6 +1667,9 @@ def advise(mass=None, footprint=None, *, min_gap="0.2 mm", temp_min="20 degC", t
     ``mass``: each plate's thickness is matched to it), ``envelope`` ("24 x 24 x 15 mm":
     arrays outside it are rejected with by how much). ``top`` limits the rows returned; the first ``polish``
     rows (default 1) are worked out exactly as ``matdb levitate`` does (column ``exact``).
+    ``objective="noise"`` ranks the feasible rows by the lowest noise floor and ``min_q``
+    rejects rows below a vertical-mode Q, both at ``pressure_pa``
+    (:mod:`matdb.advisor_dynamics`).
 
     Returns
     -------
@@ -1652,16 +1686,35 @@ def advise(mass=None, footprint=None, *, min_gap="0.2 mm", temp_min="20 degC", t
                         max_magnet_size=max_magnet_size, thickness=thickness, plate_size=plate_size,
                         weights=weights, payload_height=payload_height, total_mass=total_mass,
                         envelope=envelope)
-    n_pol = polish if polish is not None else 1
-    df, cat = rank(req, arrangements, polish=n_pol, url=url, tilt_rows=max(top or 20, n_pol))
-    return finish(df, req, cat, top=top, feasible_only=feasible_only)
+    return advise_request(req, arrangements, top=top, feasible_only=feasible_only, polish=polish,
+                          url=url, objective=objective, min_q=min_q, pressure_pa=pressure_pa)[0]
 
 
 def advise_request(req: AdviceRequest, arrangements=None, *, top=None, feasible_only=False,
-                   polish=None, url=None):
-    """:func:`advise` for an already parsed :class:`AdviceRequest`; returns (frame, catalogue)."""
+                   polish=None, url=None, objective: str = "score", min_q: float | None = None,
+                   pressure_pa: float = 101325.0):
+    """:func:`advise` for an already parsed :class:`AdviceRequest`; returns (frame, catalogue).
+
+    ``objective="noise"`` (lowest noise floor) and ``min_q`` re-rank the feasible rows by
+    the dynamics of each candidate (:mod:`matdb.advisor_dynamics`: screening for a pool,
+    exact for the rows shown) at ``pressure_pa``.
+    """
     n_pol = polish if polish is not None else 1
     df, cat = rank(req, arrangements, polish=n_pol, url=url, tilt_rows=max(top or 20, n_pol))
+    if objective != "score" or min_q is not None:
+        from .advisor_dynamics import apply_dynamics_objective, reason_q_too_low
+
+        df = apply_dynamics_objective(df, req, cat, objective=objective, min_q=min_q,
+                                      pressure_pa=pressure_pa, shown=top or 10)
+        out = finish(df, req, cat, top=top, feasible_only=feasible_only)
+        if min_q is not None:
+            from .advisor_dynamics import GENERIC_REASON
+
+            out["reasons"] = [
+                ([x for x in r if x != GENERIC_REASON] + [reason_q_too_low(row, min_q)])
+                if row["q_too_low"] else list(r)
+                for r, row in zip(out["reasons"], out.to_dict(orient="records"))]
+        return out, cat
     return finish(df, req, cat, top=top, feasible_only=feasible_only), cat
 
 
@@ -1705,6 +1758,10 @@ def records(df: pd.DataFrame) -> list[dict]:
         for k in JSON_EXTRA:
             v = r.get(k)
             d[k] = list(v) if isinstance(v, list) else _jnum(v) if not isinstance(v, str) else v
+        if "noise_m_s2_rthz" in r:  # dynamics objective (matdb.advisor_dynamics)
+            for k in ("q_vertical", "noise_m_s2_rthz", "f_vertical_hz"):
+                d[k] = _jnum(r[k])
+            d["dynamics_exact"] = bool(r["dynamics_exact"])
         out.append(d)
     return out
 

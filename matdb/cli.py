@@ -21,6 +21,8 @@ COMMAND_MODULES = [
     "matdb.commands.physics",
     "matdb.commands.advise",
     "matdb.commands.optimise",
+    "matdb.commands.dynamics",
+    "matdb.commands.report",
 ]
 
 

@@ -15,10 +15,10 @@ from typing import Iterator
 
 from sqlalchemy import event, inspect
 from sqlalchemy.engine import Engine
-from sqlmodel import Session, SQLModel, create_engine, select
+from sqlmodel import Session, create_engine
 
 from . import models  # noqa: F401  (registers the tables)
-from .errors import DataError
+from .migrate import ensure_schema
 
 _ENGINES: dict[str, Engine] = {}
 _LOCK = threading.Lock()
@@ -54,15 +54,22 @@ def _make_engine(url: str) -> Engine:
 
 
 def get_engine(url: str | None = None, *, seed: bool = True) -> Engine:
-    """Engine for ``url`` (default :func:`default_url`), created and seeded on first use."""
+    """Engine for ``url`` (default :func:`default_url`), migrated and seeded on first use.
+
+    The schema is managed by Alembic (:mod:`matdb.migrate`): an empty database is created at
+    the newest revision, an older one upgraded (SQLite: after a backup copy), a newer one or
+    a damaged one refused with a one-line :class:`~matdb.errors.DataError`.
+    """
     url = url or default_url()
     with _LOCK:
         engine = _ENGINES.get(url)
         if engine is None:
             engine = _make_engine(url)
-            SQLModel.metadata.create_all(engine)
-            if seed:
-                _seed_if_empty(engine)
+            try:
+                ensure_schema(engine, seed=seed)
+            except BaseException:
+                engine.dispose()
+                raise
             _ENGINES[url] = engine
     return engine
 
@@ -73,23 +80,6 @@ def reset_engines() -> None:
         for e in _ENGINES.values():
             e.dispose()
         _ENGINES.clear()
-
-
-def _seed_if_empty(engine: Engine) -> None:
-    with Session(engine) as s:
-        has_any = s.exec(select(models.Source).limit(1)).first() is not None
-    if not has_any:
-        from .seed import seed_database
-
-        try:
-            seed_database(engine)
-        except DataError:
-            raise
-        except Exception:
-            # another process may have seeded at the same moment: fine if data is there now
-            with Session(engine) as s:
-                if s.exec(select(models.Source).limit(1)).first() is None:
-                    raise
 
 
 @contextmanager

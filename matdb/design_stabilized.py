@@ -26,9 +26,14 @@ One floater::
     thickness = "1 mm"
     distance = "3 mm"               # optional: floater centre to each plate's facing surface
     clearance = "0.5 mm"            # optional: smallest gap floater face to plate (default 0.5 mm)
+    width = "30 mm"                 # optional: side of square plates centred on the floater
+                                    # (default: very wide); at least the floater's width
 
     [conditions]
     temperature = "20 degC"         # optional
+
+    payload_range = "0 g..5 g"      # optional, top level: the payloads of the schedule
+                                    # (for stations: the shared payload's mass)
 
 Several floaters carrying one rigid payload: ``[[station]]`` tables, each with ``x``,
 ``y`` and its own ``lifter``, ``floater`` and ``plates`` sub-tables (a station that
@@ -57,6 +62,7 @@ __all__ = [
     "PayloadSpec",
     "StabilizedDesign",
     "parse_stabilized",
+    "parse_payload_range",
     "to_toml",
 ]
 
@@ -70,10 +76,11 @@ _SIZE_FORM = {
     "cylinder": "[diameter, height]",
     "ring": "[outer diameter, inner diameter, height]",
 }
-_TOP_KEYS = {"lifter", "floater", "plates", "station", "payload", "conditions", "name", "description"}
+_TOP_KEYS = {"lifter", "floater", "plates", "station", "payload", "conditions", "name", "description",
+             "payload_range"}
 _MAGNET_KEYS = {"shape", "size", "grade", "br"}
 _FLOATER_KEYS = _MAGNET_KEYS | {"payload"}
-_PLATES_KEYS = {"material", "chi", "chi_perp", "chi_par", "thickness", "distance", "clearance"}
+_PLATES_KEYS = {"material", "chi", "chi_perp", "chi_par", "thickness", "distance", "clearance", "width"}
 _STATION_KEYS = {"x", "y", "lifter", "floater", "plates", "name"}
 _PAYLOAD_KEYS = {"mass", "centre_of_mass"}
 _CONDITION_KEYS = {"temperature", "temp_min", "temp_max"}
@@ -136,6 +143,12 @@ class MagnetSpec:
         """Mass of the magnet [kg]."""
         return self.volume * self.density_kg_m3
 
+    @property
+    def width(self) -> float:
+        """Largest side-to-side size across the magnetisation [m] (a cuboid's longer
+        side, a cylinder's or ring's outer diameter)."""
+        return float(max(self.size[0], self.size[1]) if self.shape == "cuboid" else self.size[0])
+
 
 @dataclass(frozen=True)
 class PlatesSpec:
@@ -159,6 +172,9 @@ class PlatesSpec:
         Floater centre to each plate's facing surface [m]; None when not given.
     clearance : float
         Smallest gap between the floater's face and a plate [m].
+    width : float or None
+        Side of square plates centred on the floater's axis [m]; None for plates much
+        wider than the floater.
     """
 
     material: str
@@ -169,6 +185,7 @@ class PlatesSpec:
     thickness: float
     distance: Optional[float]
     clearance: float
+    width: Optional[float] = None
 
     @property
     def chi_dipole(self) -> float:
@@ -214,6 +231,7 @@ class StabilizedDesign:
     name: str = ""
     description: str = ""
     source: Optional[str] = field(default=None, compare=False)
+    payload_range: Optional[tuple] = None
 
     mode = "stabilized"
 
@@ -352,6 +370,15 @@ def _parse_plates(t: dict, key: str, floater: MagnetSpec) -> PlatesSpec:
                 f"{key}.distance: expected more than the floater's half-height "
                 f"({half * 1e3:.4g} mm), got {t['distance']!r}: the plates would cut into the floater"
             )
+    width = None
+    if "width" in t:
+        width = parse_length(t["width"], f"{key}.width", positive=True)
+        fw = floater.width
+        if width < fw * (1 - 1e-9):
+            raise InputError(
+                f"{key}.width: expected plates at least as wide as the floater ({fw * 1e3:.4g} mm), "
+                f"got {t['width']!r}: narrower plates cannot hold it on the axis"
+            )
     return PlatesSpec(
         material=m.id,
         chi_perp=float(perp),
@@ -361,6 +388,7 @@ def _parse_plates(t: dict, key: str, floater: MagnetSpec) -> PlatesSpec:
         thickness=thickness,
         distance=distance,
         clearance=clearance,
+        width=width,
     )
 
 
@@ -426,6 +454,7 @@ def parse_stabilized(doc: dict, source: Optional[str] = None) -> StabilizedDesig
     name = _string(doc["name"], "name") if "name" in doc else ""
     description = _string(doc["description"], "description") if "description" in doc else ""
     temp, tmin, tmax = _parse_conditions(doc)
+    prange = parse_payload_range(doc["payload_range"], "payload_range") if "payload_range" in doc else None
     defaults = {}
     for part, allowed in (("lifter", _MAGNET_KEYS), ("floater", _FLOATER_KEYS), ("plates", _PLATES_KEYS)):
         if part in doc:
@@ -442,6 +471,7 @@ def parse_stabilized(doc: dict, source: Optional[str] = None) -> StabilizedDesig
         return StabilizedDesign(
             stations=(st,), payload=None, multi=False, temperature_k=temp,
             temp_min_k=tmin, temp_max_k=tmax, name=name, description=description, source=source,
+            payload_range=prange,
         )
 
     raw = doc["station"]
@@ -472,8 +502,35 @@ def parse_stabilized(doc: dict, source: Optional[str] = None) -> StabilizedDesig
     return StabilizedDesign(
         stations=tuple(stations), payload=PayloadSpec(mass_kg=mass, centre_of_mass=tuple(com)),
         multi=True, temperature_k=temp, temp_min_k=tmin, temp_max_k=tmax, name=name,
-        description=description, source=source,
+        description=description, source=source, payload_range=prange,
     )
+
+
+def parse_payload_range(text: Any, field: str = "payload_range") -> tuple[float, float]:
+    """``"0 g..5 g"`` (or ``"0..5 g"``: one unit for both) -> ``(lo, hi)`` [kg].
+
+    Raises
+    ------
+    InputError
+        Naming ``field`` when the text is not two masses joined by ``..``, a mass is
+        negative or the first is larger than the second.
+    """
+    import re
+
+    if not isinstance(text, str) or text.count("..") != 1:
+        raise InputError(f"{field}: expected a range of masses such as '0 g..5 g', got {text!r}")
+    a, b = (x.strip() for x in text.split(".."))
+    if not a or not b:
+        raise InputError(f"{field}: expected a range of masses such as '0 g..5 g', got {text!r}")
+    bare = r"^[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?$"
+    if re.match(bare, a) and not re.match(bare, b):
+        unit = re.sub(r"^[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?\s*", "", b)
+        a = f"{a} {unit}"
+    lo = parse_mass(a, f"{field} (from)")
+    hi = parse_mass(b, f"{field} (to)")
+    if not lo <= hi:
+        raise InputError(f"{field}: expected the first mass at most the second, got {text!r}")
+    return lo, hi
 
 
 def _signed_length(text: Any, key: str) -> float:
@@ -510,6 +567,8 @@ def _plates_table(p: PlatesSpec) -> dict:
     if p.distance is not None:
         t["distance"] = _mm(p.distance)
     t["clearance"] = _mm(p.clearance)
+    if p.width is not None:
+        t["width"] = _mm(p.width)
     return t
 
 
@@ -526,6 +585,9 @@ def to_toml(design: StabilizedDesign) -> str:
         doc["name"] = design.name
     if design.description:
         doc["description"] = design.description
+    if design.payload_range is not None:
+        lo, hi = design.payload_range
+        doc["payload_range"] = f"{lo * 1e3:.12g} g..{hi * 1e3:.12g} g"
     cond: dict = {"temperature": f"{design.temperature_k:.12g} K"}
     if design.temp_min_k is not None:
         cond["temp_min"] = f"{design.temp_min_k:.12g} K"

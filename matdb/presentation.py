@@ -45,13 +45,92 @@ CHI_UNIT_LABELS = {
     "cgs-molar": "CGS molar, cm^3/mol (emu)",
 }
 CHI_UNIT_SHORT = {
-    "si-volume": "1",
+    "si-volume": "SI volume, dimensionless",
     "cgs-volume": "emu/(cm^3 Oe)",
     "si-mass": "m^3/kg",
     "cgs-mass": "cm^3/g",
     "si-molar": "m^3/mol",
     "cgs-molar": "cm^3/mol",
 }
+
+# ---------------------------------------------------------------------------
+# one number format for every page
+# ---------------------------------------------------------------------------
+
+SIG_DIGITS = 3  #: significant digits of an ordinary number shown to people
+CHI_SIG_DIGITS = 4  #: susceptibilities: handbooks quote them to about four digits
+CHI_PRINTF = f"%.{CHI_SIG_DIGITS - 1}e"  #: the same format for table columns (printf style)
+MISSING = "\u2014"  #: shown where there is no value (an em dash, never "None" or "nan")
+DIMENSIONLESS = "dimensionless"
+
+
+def _is_missing(value) -> bool:
+    if value is None:
+        return True
+    try:
+        return bool(pd.isna(value))
+    except (TypeError, ValueError):
+        return False
+
+
+def fmt_number(value, unit: str = "", *, sig: int = SIG_DIGITS, sci: bool | None = None,
+               missing: str = MISSING) -> str:
+    """One number as people read it: ``sig`` significant digits, then the unit.
+
+    Scientific notation (``-1.70e-04``) when ``sci`` is True, or, when ``sci`` is None, for
+    magnitudes below 1e-3 or from 1e5 on; fixed decimals otherwise (``0.640``, ``12.7``,
+    ``1400``). A unit of "1" or "dimensionless" prints nothing after the number. Missing
+    values print ``missing``; booleans print yes / no; infinities print "unbounded".
+    Downloads keep exact values: use this for display only.
+    """
+    if _is_missing(value):
+        return missing
+    if isinstance(value, (bool, np.bool_)):
+        return "yes" if value else "no"
+    if isinstance(value, str):
+        return value
+    v = float(value)
+    if not math.isfinite(v):
+        return "unbounded" if v > 0 else "minus unbounded"
+    if v == 0.0:
+        text = "0" if not sci else f"{0.0:.{sig - 1}e}"
+    else:
+        rounded = float(f"{v:.{sig - 1}e}")
+        use_sci = sci if sci is not None else (abs(rounded) < 1e-3 or abs(rounded) >= 1e5)
+        if use_sci:
+            text = f"{v:.{sig - 1}e}"
+        else:
+            decimals = max(0, sig - 1 - int(math.floor(math.log10(abs(rounded)))))
+            text = f"{rounded:.{decimals}f}"
+    u = (unit or "").strip()
+    return text if u in ("", "1", DIMENSIONLESS) else f"{text} {u}"
+
+
+def fmt_chi(value, unit: str = "") -> str:
+    """A susceptibility: always scientific, :data:`CHI_SIG_DIGITS` significant digits
+    (``-1.700e-04``); the same text as :data:`CHI_PRINTF` gives in table columns."""
+    return fmt_number(value, unit, sig=CHI_SIG_DIGITS, sci=True)
+
+
+def fmt_length_mm(value_m, sig: int = SIG_DIGITS) -> str:
+    """A length given in metres, shown in millimetres (``0.640 mm``)."""
+    return fmt_number(None if _is_missing(value_m) else float(value_m) * 1e3, "mm", sig=sig)
+
+
+def fmt_temperature_c(value_k) -> str:
+    """A temperature given in kelvin, shown in degrees Celsius to 0.1 degC."""
+    if _is_missing(value_k):
+        return MISSING
+    return f"{float(value_k) - 273.15:.1f} degC"
+
+
+def unit_label(label: str, unit: str) -> str:
+    """Column or axis label with its unit in brackets; "1" reads "dimensionless"."""
+    u = (unit or "").strip()
+    if u in ("", "1"):
+        u = DIMENSIONLESS
+    return f"{label} ({u})"
+
 
 MATERIAL_COLUMNS = [
     "id", "name", "kind", "chi_si", "chi_perp_si", "chi_par_si", "density_kg_m3",
@@ -157,10 +236,9 @@ def compare_materials(df: pd.DataFrame, ids: Sequence[str], rounded: bool = Fals
 
 
 def _human(v, sci: bool = False) -> str:
-    if v is None or (isinstance(v, float) and math.isnan(v)):
-        return ""
-    if isinstance(v, (int, float, np.floating)) and not isinstance(v, bool):
-        return f"{float(v):.3e}" if sci else f"{float(v):.4g}"
+    """:func:`fmt_chi` for susceptibilities, :func:`fmt_number` otherwise (no unit)."""
+    if isinstance(v, (int, float, np.floating)) and not isinstance(v, bool) or _is_missing(v):
+        return fmt_chi(v) if sci else fmt_number(v)
     return str(v)
 
 
@@ -379,6 +457,31 @@ def grade_temperature_curves(grades_df: pd.DataFrame, grades: Sequence[str],
     return pd.concat(parts, ignore_index=True)
 
 
+#: Distinct hues for grades on one chart (neighbouring grades such as N42 and N42SH get
+#: different hues, not two blues), each paired with a marker shape in :data:`GRADE_SHAPES`.
+GRADE_PALETTE = ("#1f77b4", "#d62728", "#2ca02c", "#ff7f0e", "#9467bd", "#8c564b", "#e377c2", "#17becf",
+                 "#7f7f7f", "#bcbd22")
+GRADE_SHAPES = ("circle", "square", "triangle-up", "diamond", "cross", "triangle-down", "triangle-right",
+                "triangle-left")
+RATING_LABELS = ("within rating", "above max working T")
+
+
+def rating_labels(beyond_max) -> list[str]:
+    """Words for the ``beyond_max`` flags of :func:`grade_temperature_curves`."""
+    return [RATING_LABELS[1] if bool(b) else RATING_LABELS[0] for b in beyond_max]
+
+
+def padded_domain(low, high, frac: float = 0.12) -> tuple[float, float]:
+    """An axis range that holds every value of ``low`` and ``high`` with a margin of
+    ``frac`` of the span on each side (so no point sits on or below the lowest gridline)."""
+    lo = float(np.nanmin(np.asarray(low, dtype=float)))
+    hi = float(np.nanmax(np.asarray(high, dtype=float)))
+    span = hi - lo
+    if not span > 0:
+        span = abs(hi) if hi != 0 else 1.0
+    return lo - frac * span, hi + frac * span
+
+
 def grade_max_temp_marks(curves: pd.DataFrame) -> pd.DataFrame:
     """One row per grade at its maximum working temperature (inside the plotted range):
     ``grade``, ``max_temp_c``, ``br_t`` and ``relative_lift`` there (interpolated)."""
@@ -437,6 +540,83 @@ def design_text_from_fields(f: dict) -> str:
     return tomli_w.dumps(doc)
 
 
+#: The Design page's form fields with their starting values (a demo design: a 2 x 2 NdFeB
+#: checkerboard under a pyrolytic graphite plate).
+DESIGN_FORM_DEFAULTS = dict(
+    shape="cuboid", size="12.7 mm, 12.7 mm, 12.7 mm", grade="N50", pattern="checkerboard", rows=2, cols=2,
+    spacing="0 mm", back_plate=False, cover="0 mm", material="pyrolytic-graphite", plate_shape="rectangle",
+    plate_size="12 mm, 12 mm, 1 mm", payload="0.1 g", payload_height="2 mm", min_gap="0.2 mm",
+    temp_min="20 degC", temp_max="20 degC")
+FORM_PATTERNS = ("single", "checkerboard", "stripes", "grid")
+
+
+def form_fields_from_design(design) -> dict | None:
+    """The form fields (keys of :data:`DESIGN_FORM_DEFAULTS`) that give back ``design``,
+    or None when the design holds something the form cannot show (a list of magnets, a
+    Br or chi override, an off-centre plate, several grades, a floating-magnet design).
+    Lengths are written so that they read back exactly."""
+    from .design import PlateDesign, _mm as _mm_exact, _temp
+
+    if not isinstance(design, PlateDesign):
+        return None
+    m, p, c = design.magnets, design.plate, design.conditions
+    if m.items or m.br_t is not None or m.pattern not in FORM_PATTERNS or len(m.grades) > 1:
+        return None
+    if p.chi_si is not None or p.chi_perp_si is not None or tuple(p.center_m) != (0.0, 0.0):
+        return None
+    lo = c.temp_min_k if c.temp_min_k is not None else c.temperature_k
+    hi = c.temp_max_k if c.temp_max_k is not None else c.temperature_k
+    if c.temperature_k is not None and (c.temp_min_k is not None or c.temp_max_k is not None):
+        return None
+    lo = lo if lo is not None else hi
+    hi = hi if hi is not None else lo
+    from .design import _q
+    from .units import parse_length, parse_mass, parse_temperature
+
+    def _mm(v: float) -> str:  # shortest text that reads back exactly
+        for digits in range(1, 17):
+            t = f"{v * 1e3:.{digits}g} mm"
+            if parse_length(t, "length") == v:
+                return t
+        return _mm_exact(v)
+
+    def _g(v: float) -> str:
+        for digits in range(1, 17):
+            t = f"{v * 1e3:.{digits}g} g"
+            if parse_mass(t, "mass") == v:
+                return t
+        return _q(v, "kg", "g", 1e-3)
+
+    def _t(v: float) -> str:
+        for digits in range(1, 17):
+            t = f"{v - 273.15:.{digits}g} degC"
+            if parse_temperature(t, "temperature") == v:
+                return t
+        return _temp(v)
+
+    return dict(
+        shape=m.shape, size=", ".join(_mm(v) for v in m.size), grade=m.grade, pattern=m.pattern,
+        rows=int(m.rows), cols=int(m.cols), spacing=_mm(m.spacing_m), back_plate=bool(m.back_plate),
+        cover=_mm(m.cover_m), material=p.material, plate_shape=p.shape,
+        plate_size=", ".join(_mm(v) for v in p.size), payload=_g(p.payload_kg),
+        payload_height=_mm(p.payload_height_m), min_gap=_mm(p.min_gap_m),
+        temp_min="" if lo is None else _t(lo), temp_max="" if hi is None else _t(hi))
+
+
+def canonical_design_text(design, text: str) -> str:
+    """One text per design content (the cache key of its results): a floating-plate design
+    written back by :func:`matdb.design.design_to_toml` without its name and description,
+    so the same design typed in the form or in the editor computes once; other designs:
+    their text."""
+    from dataclasses import replace
+
+    from .design import PlateDesign, design_to_toml
+
+    if isinstance(design, PlateDesign):
+        return design_to_toml(replace(design, name=None, description=None))
+    return text
+
+
 def lift_curve_df(result: dict) -> pd.DataFrame:
     """The lift curve F(g) of a plate result: ``gap_mm``, ``force_mn`` (magnetic force,
     upward positive) and ``weight_mn`` (plate plus payload)."""
@@ -448,7 +628,7 @@ def lift_curve_df(result: dict) -> pd.DataFrame:
 def field_map_df(arrangement, gap_m: float, extent_m: tuple[float, float] | None = None, n: int = 41) -> pd.DataFrame:
     """|B| and B^2 on an n x n grid at height ``gap_m`` over the arrangement's footprint
     (or a centred ``extent_m`` = (x, y) if larger): ``x_mm``, ``y_mm``, ``b_t``, ``b2_t2``,
-    ``bz_t``."""
+    ``bz_t``, and each cell's edges ``x0_mm``, ``x1_mm``, ``y0_mm``, ``y1_mm``."""
     xmin, xmax, ymin, ymax, _a, _b = (float(v) for v in arrangement.bounds())
     if extent_m is not None:
         xmin, xmax = min(xmin, -extent_m[0] / 2), max(xmax, extent_m[0] / 2)
@@ -459,8 +639,12 @@ def field_map_df(arrangement, gap_m: float, extent_m: tuple[float, float] | None
     pts = np.column_stack([gx.ravel(), gy.ravel(), np.full(gx.size, float(gap_m))])
     b = np.asarray(arrangement.B(pts), dtype=float).reshape(-1, 3)
     b2 = np.sum(b**2, axis=1)
+    hx = (xs[1] - xs[0]) / 2 if n > 1 else (xmax - xmin) / 2
+    hy = (ys[1] - ys[0]) / 2 if n > 1 else (ymax - ymin) / 2
     return pd.DataFrame({"x_mm": pts[:, 0] * 1e3, "y_mm": pts[:, 1] * 1e3, "b_t": np.sqrt(b2),
-                         "b2_t2": b2, "bz_t": b[:, 2]})
+                         "b2_t2": b2, "bz_t": b[:, 2],
+                         "x0_mm": (pts[:, 0] - hx) * 1e3, "x1_mm": (pts[:, 0] + hx) * 1e3,
+                         "y0_mm": (pts[:, 1] - hy) * 1e3, "y1_mm": (pts[:, 1] + hy) * 1e3})
 
 
 def polarity_df(arrangement) -> pd.DataFrame:
@@ -555,7 +739,9 @@ def stabilized_window_df(result: dict) -> pd.DataFrame:
     """The schedule of a floating-magnet result, long format: per payload (g) and
     station, the lifter distance and the plate-distance window (mm). Columns
     ``payload_g``, ``station``, ``lifter_distance_mm``, ``min_plate_distance_mm``,
-    ``max_plate_distance_mm``. One station is called "floater"."""
+    ``max_plate_distance_mm``, and where the result has them ``lifter_travel_mm``,
+    ``window_mm``, ``resolution_um``, ``drift_um_per_k`` and ``dforce_dd_n_m``. One
+    station is called "floater"."""
     stations = result.get("stations") or []
     names = [st.get("name") or f"station {i + 1}" for i, st in enumerate(stations)]
     st_min = [st.get("min_plate_distance_m") for st in stations]
@@ -576,19 +762,68 @@ def stabilized_window_df(result: dict) -> pd.DataFrame:
             if mn is None:
                 mn = result.get("min_plate_distance_m")
             mx = pick(w.get("max_plate_distance_m"), i)
+            if mx is None:  # no stable plate distance at this payload
+                mn = None
             ld = pick(lifts, i)
+
+            def val(key, scale, w=w, i=i):
+                v = pick(w.get(key), i)
+                return None if v is None else float(v) * scale
+
             rows.append({
                 "payload_g": float(w["payload_kg"]) * 1e3,
                 "station": names[i] if n > 1 and i < len(names) else ("floater" if n == 1 else f"station {i + 1}"),
                 "lifter_distance_mm": None if ld is None else float(ld) * 1e3,
                 "min_plate_distance_mm": None if mn is None else float(mn) * 1e3,
                 "max_plate_distance_mm": None if mx is None else float(mx) * 1e3,
+                "lifter_travel_mm": val("lifter_travel_m", 1e3),
+                "window_mm": val("window_m", 1e3),
+                "resolution_um": val("resolution_m", 1e6),
+                "drift_um_per_k": val("lifter_distance_drift_um_per_k", 1.0),
+                "dforce_dd_n_m": val("dforce_dd_n_m", 1.0),
             })
-    df = pd.DataFrame(rows, columns=["payload_g", "station", "lifter_distance_mm", "min_plate_distance_mm",
-                                     "max_plate_distance_mm"])
-    for c in ("lifter_distance_mm", "min_plate_distance_mm", "max_plate_distance_mm"):
+    cols = ["payload_g", "station", "lifter_distance_mm", "min_plate_distance_mm", "max_plate_distance_mm",
+            "lifter_travel_mm", "window_mm", "resolution_um", "drift_um_per_k", "dforce_dd_n_m"]
+    df = pd.DataFrame(rows, columns=cols)
+    for c in cols[2:]:
         df[c] = pd.to_numeric(df[c], errors="coerce").astype(float)
     return df
+
+
+def payload_steps(payload_range, steps: int) -> np.ndarray:
+    """``steps`` payloads evenly over ``(lo, hi)`` [kg] (one when they are equal)."""
+    lo, hi = payload_range
+    return np.array([lo]) if hi == lo else np.linspace(lo, hi, max(int(steps), 2))
+
+
+def schedule_csv(result: dict) -> str:
+    """The schedule as CSV, SI columns (what ``matdb levitate --format csv`` prints)."""
+    from .commands.physics import SCHEDULE_COLUMNS, schedule_records
+
+    return pd.DataFrame(schedule_records(result), columns=list(SCHEDULE_COLUMNS)).to_csv(
+        index=False, float_format="%.10g")
+
+
+def floating_designs_df(records: list) -> pd.DataFrame:
+    """Designs of the floating-magnet search for people: sizes in mm, window, travel and
+    step in mm/um, cost (illustrative), reasons as one sentence list."""
+    def sz(v):
+        return "x".join(f"{x * 1e3:.4g}" for x in v) + " mm"
+
+    rows = []
+    for r in records:
+        rows.append({
+            "rank": r.get("rank"), "feasible": bool(r.get("feasible")), "floaters": r.get("stations"),
+            "floater": f"{r['floater_shape']} {sz(r['floater_size_m'])} {r['floater_grade']}",
+            "lifter": f"{r['lifter_shape']} {sz(r['lifter_size_m'])} {r['lifter_grade']}",
+            "plates": f"{r['material']} {r['thickness_m'] * 1e3:.3g} mm",
+            "window_mm": None if r.get("window_min_m") is None else r["window_min_m"] * 1e3,
+            "travel_mm": None if r.get("lifter_travel_m") is None else r["lifter_travel_m"] * 1e3,
+            "step_um": None if r.get("resolution_m") is None else r["resolution_m"] * 1e6,
+            "cost_usd": r.get("cost_usd"),
+            "reasons": "; ".join(r.get("reasons") or []),
+        })
+    return pd.DataFrame(rows)
 
 
 def stations_df(result: dict) -> pd.DataFrame:
@@ -626,6 +861,24 @@ def advisor_table(df: pd.DataFrame) -> pd.DataFrame:
     return out
 
 
+ADVISOR_VERDICTS = ("feasible, Pareto front", "feasible", "rejected")
+
+
+def advisor_verdicts(df: pd.DataFrame) -> list[str]:
+    """Each candidate's verdict in words (the page also shows it by marker shape, never by
+    colour alone): one of :data:`ADVISOR_VERDICTS`."""
+    return [ADVISOR_VERDICTS[0] if f and p else ADVISOR_VERDICTS[1] if f else ADVISOR_VERDICTS[2]
+            for f, p in zip(df["feasible"].astype(bool), df["pareto"].astype(bool))]
+
+
+def ranking_signature(params: dict) -> str:
+    """A short stable name of one set of advisor inputs (widget keys that must start over
+    when the ranking changes)."""
+    import hashlib
+
+    return hashlib.sha256(repr(sorted(params.items())).encode()).hexdigest()[:12]
+
+
 def ranking_csv(df: pd.DataFrame) -> str:
     """The full ranking as CSV, exact values (lists joined with '; ')."""
     out = df.copy()
@@ -647,3 +900,14 @@ def candidate_toml(row: dict, request) -> str:
     from .design import design_to_toml
 
     return design_to_toml(candidate_design(dict(row), request))
+
+
+def stability_scan_df(rows: list[dict]) -> pd.DataFrame:
+    """:func:`matdb.levitate.stability_scan` records for people: ``side_mm``,
+    ``floats``, ``gap_mm`` (NaN when it does not float), ``laterally_stable``,
+    ``is_design``."""
+    df = pd.DataFrame(rows, columns=["side_m", "floats", "gap_m", "laterally_stable", "is_design"])
+    return pd.DataFrame({"side_mm": df["side_m"].astype(float) * 1e3, "floats": df["floats"].astype(bool),
+                         "gap_mm": pd.to_numeric(df["gap_m"], errors="coerce").astype(float) * 1e3,
+                         "laterally_stable": df["laterally_stable"].astype(bool),
+                         "is_design": df["is_design"].astype(bool)})

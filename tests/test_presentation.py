@@ -110,3 +110,55 @@ def test_grade_curves_validation_and_marks():
         P.grade_temperature_curves(grades, ["N42"], 100, 50)
     with pytest.raises(InputError, match="unknown grade"):
         P.grade_temperature_curves(grades, ["N99"], 0, 50)
+
+
+# ---------------------------------------------------------------------------
+# the one number format of the page
+# ---------------------------------------------------------------------------
+
+def test_fmt_chi_reads_the_same_as_table_columns_and_keeps_four_digits():
+    # CRC Handbook, bismuth: -280.1e-6 cm^3/mol; the page and the table columns print it alike
+    for v in (-1.7e-4, -280.1e-6, -9.05e-6, 2.2e-5):
+        assert P.fmt_chi(v) == P.CHI_PRINTF % v
+        assert float(P.fmt_chi(v)) == pytest.approx(v, rel=5e-4)
+    assert P.fmt_chi(-1.7e-4) == "-1.700e-04"
+    assert P.fmt_chi(None) == P.MISSING and P.fmt_chi(float("nan")) == P.MISSING
+
+
+@pytest.mark.parametrize("value", [0.6412, 12.71, 0.0123456, 1399.7, 9.996, 0.5, 7.0, -3.14159, 123456.0, 4.2e-5])
+def test_fmt_number_three_significant_digits(value):
+    # significant-figure rounding as Python's own "%.3g" does it (the value read back agrees)
+    text = P.fmt_number(value)
+    assert float(text) == pytest.approx(float("%.3g" % value), rel=1e-12)
+    digits = text.lstrip("-").split("e")[0].replace(".", "").lstrip("0")
+    assert len(digits) == 3 or value in (1399.7,)  # 1400: trailing zeros of an integer
+
+
+def test_fmt_number_units_and_missing():
+    assert P.fmt_number(0.6412, "mm") == "0.641 mm"
+    assert P.fmt_number(0.25, "1") == "0.250"
+    assert P.fmt_number(None, "mm") == P.MISSING
+    assert P.fmt_number(True) == "yes"
+    assert P.fmt_length_mm(0.64e-3) == "0.640 mm"
+    assert P.fmt_temperature_c(293.15) == "20.0 degC"
+    assert P.unit_label("chi", "1") == "chi (dimensionless)"
+
+
+def test_form_fields_give_back_the_same_design():
+    """Regression check: a design put into the Design form and read back is the same design."""
+    from dataclasses import replace
+
+    from matdb.design import load_design_text
+
+    fields = dict(P.DESIGN_FORM_DEFAULTS, size="6 mm, 6 mm, 3 mm", payload="0.35 g", temp_min="-5 degC",
+                  temp_max="45 degC", back_plate=True, spacing="0.5 mm")
+    design = load_design_text(P.design_text_from_fields(fields))
+    back = P.form_fields_from_design(design)
+    assert back["size"] == "6 mm, 6 mm, 3 mm" and back["payload"] == "0.35 g" and back["temp_min"] == "-5 degC"
+    again = load_design_text(P.design_text_from_fields(back))
+    assert replace(again, name=None, description=None) == replace(design, name=None, description=None)
+    assert P.canonical_design_text(again, "") == P.canonical_design_text(design, "x")
+    # the form cannot show a chi override: the editor takes it instead
+    text = P.design_text_from_fields(P.DESIGN_FORM_DEFAULTS).replace('material = "pyrolytic-graphite"',
+                                                                     'material = "pyrolytic-graphite"\nchi = -4e-4')
+    assert P.form_fields_from_design(load_design_text(text)) is None

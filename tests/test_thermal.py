@@ -24,7 +24,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from matdb.errors import InputError, PhysicsError
+from matdb.errors import InputError
 from matdb.physics.arrangement import build_arrangement
 from matdb.physics.thermal import (
     KNEE_FRACTION,

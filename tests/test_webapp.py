@@ -343,14 +343,38 @@ def test_advisor_choice_opens_on_the_design_page():
     at = _advisor_page()
     table = _table(at, "reasons_text")
     second = int(table["rank"].iloc[1])
-    at.selectbox(key="adv_choice").set_value(second).run()
+    _candidate_box(at).set_value(second).run()
     at.button(key="adv_open").click().run()
     assert not at.exception, [e.message for e in at.exception]
     assert at.title[0].value == "Design"
     row = table.iloc[1]
-    assert f'material = "{row["material"]}"' in at.session_state["design_text"]
-    assert f'grade = "{row["grade"]}"' in at.session_state["design_text"]
+    # "Open" fills the form (the candidate key of the box changed with each ranking: contract updated)
+    assert at.radio(key="design_source").value == "form"
+    assert at.selectbox(key="d_material").value == row["material"]
+    assert at.selectbox(key="d_grade").value == row["grade"]
     assert _metric(at, "Floats") == ("yes" if row["feasible"] else _metric(at, "Floats"))
+
+
+def _candidate_box(at):
+    return [s for s in at.selectbox if s.label == "Candidate"][0]
+
+
+def test_advisor_second_ranking_resets_the_candidate_box_and_says_by_how_much():
+    at = _advisor_page()
+    first = _table(at, "reasons_text")
+    _candidate_box(at).set_value(int(first["rank"].iloc[2])).run()
+    at.text_input(key="adv_mass").set_value("3 g")
+    at.button(key="adv_submit").click().run()
+    assert not at.exception, [e.message for e in at.exception]
+    table = _table(at, "reasons_text")
+    box = _candidate_box(at)
+    assert box.value == int(table["rank"].iloc[0])
+    assert box.options[box.index].startswith(f"#{int(table['rank'].iloc[0])}: {table['material'].iloc[0]}")
+    # a rejected candidate says by how much it missed (worst-case margin against the 1.00 it needs)
+    rejected = table[~table["feasible"].astype(bool)]
+    short = [t for t in rejected["reasons_text"] if "worst-case margin" in t]
+    assert short and all("needs 1.00" in t for t in short)
+
 
 
 # ---------------------------------------------------------------------------
@@ -430,9 +454,9 @@ def test_design_bad_payload_and_temperature_are_messages_next_to_the_fields():
     assert not at.exception
     assert any(e.value.startswith("payload mass:") for e in at.error)
     at.text_input(key="d_payload").set_value("0.1 g")
-    at.text_input(key="d_temp").set_value("-300 degC").run()
+    at.text_input(key="d_temp_min").set_value("-300 degC").run()
     assert not at.exception
-    assert any(e.value.startswith("temperature:") for e in at.error)
+    assert any(e.value.startswith("coldest temperature:") for e in at.error)
 
 
 def test_design_two_floaters_schedule_and_weight_shares():
@@ -449,3 +473,79 @@ def test_design_two_floaters_schedule_and_weight_shares():
     # common practice: each floater sits closer to its lifter as the payload grows
     for _, part in sched.groupby("station"):
         assert (np.diff(part.sort_values("payload_g")["lifter_distance_mm"].to_numpy()) < 0).all()
+
+
+# ---------------------------------------------------------------------------
+# Saved designs on the Design page
+# ---------------------------------------------------------------------------
+
+def _saved_names(url=None):
+    from matdb import saved_designs
+
+    return list(saved_designs.list_designs(url)["name"])
+
+
+def test_design_save_list_reopen_and_bad_input_writes_nothing(fresh_db):
+    at = _design_page()
+    # a bad name: a message, nothing written
+    at.text_input(key="d_save_name").set_value("   ")
+    at.button(key="d_save").click().run()
+    assert not at.exception
+    assert any(e.value.startswith("not saved: name:") for e in at.error)
+    assert _saved_names(fresh_db) == []
+    # a bad design: no save at all (the button is off and nothing is written)
+    at.text_input(key="d_size").set_value("-3 mm, 12.7 mm, 12.7 mm").run()
+    assert not at.exception
+    assert _saved_names(fresh_db) == []
+    at.text_input(key="d_size").set_value("6 mm, 6 mm, 6 mm").run()
+    at.text_input(key="d_save_name").set_value("demo small cubes")
+    at.text_area(key="d_save_note").set_value("demo: 6 mm cubes")
+    at.button(key="d_save").click().run()
+    assert not at.exception, [e.message for e in at.exception]
+    assert _saved_names(fresh_db) == ["demo small cubes"]
+    assert "demo small cubes" in list(_table(at, "note")["name"])
+    # the same name again is refused without the replace box; nothing changes
+    at.text_input(key="d_save_name").set_value("demo small cubes")
+    at.button(key="d_save").click().run()
+    assert any("exists" in e.value for e in at.error)
+    assert _saved_names(fresh_db) == ["demo small cubes"]
+    # change the form, then reopen the saved design: the form gets its values back
+    at.text_input(key="d_size").set_value("12.7 mm, 12.7 mm, 12.7 mm").run()
+    at.selectbox(key="d_saved_pick").set_value("demo small cubes")
+    at.button(key="d_saved_open").click().run()
+    assert not at.exception, [e.message for e in at.exception]
+    assert at.text_input(key="d_size").value == "6 mm, 6 mm, 6 mm"
+    assert at.radio(key="design_source").value == "form"
+
+
+def test_design_duplicate_delete_and_compare(fresh_db):
+    from matdb import saved_designs
+    from matdb.design import load_design_text
+    from matdb.levitate import levitate
+    from matdb.presentation import DESIGN_FORM_DEFAULTS, design_text_from_fields
+
+    small = design_text_from_fields(dict(DESIGN_FORM_DEFAULTS, size="6 mm, 6 mm, 6 mm"))
+    saved_designs.save_design("demo small", small, "demo", url=fresh_db)
+    saved_designs.save_design("demo large", design_text_from_fields(DESIGN_FORM_DEFAULTS), "demo", url=fresh_db)
+    at = _design_page()
+    at.selectbox(key="d_saved_pick").set_value("demo small")
+    at.button(key="d_saved_dup").click().run()
+    assert not at.exception
+    assert sorted(_saved_names(fresh_db)) == ["demo large", "demo small", "demo small (copy)"]
+    at.selectbox(key="d_saved_pick").set_value("demo small (copy)").run()
+    assert at.button(key="d_saved_delete").disabled  # deleting needs the confirmation box first
+    at.checkbox(key="d_saved_delete_confirm").check().run()
+    at.button(key="d_saved_delete").click().run()
+    assert not at.exception
+    assert sorted(_saved_names(fresh_db)) == ["demo large", "demo small"]
+    at.multiselect(key="d_compare").set_value(["demo small", "demo large"]).run()
+    assert not at.exception, [e.message for e in at.exception]
+    table = _table(at, "figure").set_index("figure")
+    # regression check: the shown gap is the levitation result of the saved text, 3 significant digits
+    res = levitate(load_design_text(small))
+    assert float(table.loc["equilibrium gap (mm)", "demo small"]) == pytest.approx(res["gap_m"] * 1e3, rel=5e-3)
+    chart = [c for c in _charts(at) if "saved designs" in json.dumps(json.loads(c.proto.spec))][0]
+    curves = _frame_with(chart, "design")
+    assert set(curves["design"]) == {"demo small", "demo large"}
+    text = json.dumps(json.loads(chart.proto.spec))
+    assert "gap above the magnets (mm)" in text and "lift (mN)" in text

@@ -81,12 +81,39 @@ def clear_catalog_caches() -> None:
 # designs (cached by the design text, so unchanged geometry is never recomputed)
 # ---------------------------------------------------------------------------
 
-@st.cache_data(show_spinner=False, max_entries=32)
-def levitate_text(text: str, temp_k: float | None, gap_m: float | None, url: str):
+@st.cache_data(show_spinner=False, max_entries=64)
+def levitate_text(text: str, temp_k: float | None, gap_m: float | None, url: str,
+                  payloads: tuple | None = None, resolution_m: float | None = None):
+    """Keyed by the design's content: pass :func:`matdb.presentation.canonical_design_text`,
+    so the same design from the form, the editor or a saved copy computes once."""
     from matdb.design import load_design_text
     from matdb.levitate import levitate
 
-    return levitate(load_design_text(text), temp_k=temp_k, gap_m=gap_m)
+    return levitate(load_design_text(text), temp_k=temp_k, gap_m=gap_m,
+                    payloads_kg=None if payloads is None else list(payloads), resolution_m=resolution_m)
+
+
+_LEVITATED: set = set()
+
+
+def levitate_text_cached(text: str, url: str) -> bool:
+    """True when :func:`levitate_text` of this content key has run in this process (so no
+    progress bar is needed)."""
+    return (text, url) in _LEVITATED
+
+
+def levitate_key(text: str, url: str) -> dict:
+    """:func:`levitate_text` at the design's own temperature, remembered as computed."""
+    out = levitate_text(text, None, None, url)
+    _LEVITATED.add((text, url))
+    return out
+
+
+def evaluate_design_text(text: str, url: str) -> dict:
+    """:func:`levitate_text` of any design text, through its content key."""
+    from matdb.design import load_design_text
+
+    return levitate_key(presentation.canonical_design_text(load_design_text(text), text), url)
 
 
 @st.cache_data(show_spinner=False, max_entries=64)
@@ -104,10 +131,65 @@ def checked(parse, value: str, where: str):
         return None
 
 
-@st.cache_data(show_spinner=False, max_entries=16)
-def advise(params: tuple, url: str):
-    """The ranked DataFrame for one set of form values (a sorted tuple of items)."""
+class _Memo:
+    """A small process-wide cache (least recently used first out) for calls that report
+    progress while they run: st.cache_data cannot replay a progress bar made outside the
+    cached function, so these are cached here instead."""
+
+    def __init__(self, fn, max_entries: int):
+        import threading
+        from collections import OrderedDict
+
+        self.fn, self.max_entries = fn, max_entries
+        self.store: "OrderedDict" = OrderedDict()
+        self.lock = threading.Lock()
+
+    def cached(self, *key) -> bool:
+        with self.lock:
+            return key in self.store
+
+    def __call__(self, *key):
+        with self.lock:
+            if key in self.store:
+                self.store.move_to_end(key)
+                return self.store[key]
+        value = self.fn(*key)
+        with self.lock:
+            self.store[key] = value
+            while len(self.store) > self.max_entries:
+                self.store.popitem(last=False)
+        return value
+
+    def clear(self) -> None:
+        with self.lock:
+            self.store.clear()
+
+
+def _advise(params: tuple, url: str):
     from matdb import advisor
 
-    p = dict(params)
-    return advisor.advise(url=url, **p)
+    return advisor.advise(url=url, **dict(params))
+
+
+#: The ranked DataFrame for one set of form values (a sorted tuple of items).
+advise = _Memo(_advise, 16)
+
+
+def run_with_progress(fn, *args, label: str = "Working..."):
+    """Call ``fn(*args)`` under a progress bar fed by the advisor's progress reports; the
+    bar disappears when done. A cached answer shows no bar."""
+    from matdb import advisor
+
+    if isinstance(fn, _Memo) and fn.cached(*args):
+        return fn(*args)
+    slot = st.empty()
+    bar = slot.progress(0.0, text=label)
+
+    def report(fraction: float, text: str) -> None:
+        bar.progress(fraction, text=f"{label} {text}")
+
+    try:
+        with advisor.reporting_progress(report):
+            return fn(*args)
+    finally:
+        slot.empty()

@@ -1,7 +1,8 @@
 """``matdb field`` and ``matdb levitate``: thin command-line layers over the physics.
 
     matdb field DESIGN --at "x,y,z mm" [--at ...] [--points FILE.csv] [--format json|csv|table]
-    matdb levitate DESIGN [--temp "60 degC"] [--gap "0.3 mm"] [--format json|table]
+    matdb levitate DESIGN [--temp "60 degC"] [--gap "0.3 mm"] [--payload-range "0 g..5 g"]
+                   [--steps N] [--resolution "10 um"] [--format json|csv|table]
 """
 
 from __future__ import annotations
@@ -179,13 +180,62 @@ def format_levitate(r: dict) -> str:
     return "\n".join(lines)
 
 
+SCHEDULE_COLUMNS = ("payload_kg", "station", "lifter_distance_m", "lifter_travel_m", "min_plate_distance_m",
+                    "max_plate_distance_m", "window_m", "resolution_m", "lifter_distance_drift_um_per_k",
+                    "dforce_dd_n_m")
+
+
+def schedule_records(result: dict) -> list[dict]:
+    """The payload schedule of a floating-magnet result, one record per payload and
+    station (``SCHEDULE_COLUMNS``, SI; stations numbered from 0): a table a motorised
+    stage can follow."""
+    if result.get("mode") != "stabilized":
+        raise InputError("--format csv: the schedule exists for floating-magnet designs only; "
+                         "use --format json or table for a floating plate")
+    out = []
+    for w in result.get("window") or []:
+        d = w.get("lifter_distance_m")
+        n = len(d) if isinstance(d, list) else 1
+        for i in range(n):
+            rec = {"payload_kg": w["payload_kg"], "station": i}
+            for k in SCHEDULE_COLUMNS[2:]:
+                v = w.get(k)
+                rec[k] = v[i] if isinstance(v, list) else v
+            out.append(rec)
+    return out
+
+
+def _payloads(args) -> np.ndarray | None:
+    from ..design_stabilized import parse_payload_range
+
+    if getattr(args, "payload_range", None) is None:
+        if getattr(args, "steps", None) is not None:
+            raise InputError("--steps: give it with --payload-range")
+        return None
+    lo, hi = parse_payload_range(args.payload_range, "--payload-range")
+    n = 11 if args.steps is None else args.steps
+    if not 1 <= n <= 1000:
+        raise InputError(f"--steps: expected a whole number from 1 to 1000, got {n}")
+    if hi == lo:
+        return np.array([lo])
+    return np.linspace(lo, hi, max(n, 2))
+
+
 def cmd_levitate(args) -> int:
     from ..levitate import levitate
 
     temp = parse_temperature(args.temp, "--temp") if args.temp else None
     gap = parse_length(args.gap, "--gap") if args.gap else None
+    payloads = _payloads(args)
+    res = parse_length(args.resolution, "--resolution", positive=True) if args.resolution else None
     design = _load(args.design)
-    result = levitate(design, temp_k=temp, gap_m=gap)
+    if (payloads is not None or res is not None) and getattr(design, "mode", None) != "stabilized":
+        opt = "--payload-range" if payloads is not None else "--resolution"
+        raise InputError(f"{opt}: only floating-magnet designs have a payload schedule")
+    result = levitate(design, temp_k=temp, gap_m=gap, payloads_kg=payloads, resolution_m=res)
+    if args.format == "csv":
+        emit(schedule_records(result), "csv", columns=list(SCHEDULE_COLUMNS))
+        return 0
     if args.format == "json":
         sys.stdout.write(to_json(result) + "\n")
     else:
@@ -215,5 +265,12 @@ def register(subparsers) -> None:
     q.add_argument("design", help="design TOML file")
     q.add_argument("--temp", help="operating temperature, e.g. '60 degC'")
     q.add_argument("--gap", help="required gap for the payload figure, e.g. '0.3 mm'")
-    add_format_argument(q, choices=("json", "table"), default="table")
+    q.add_argument("--payload-range", metavar="'FROM..TO'",
+                   help="floating magnet: the schedule over these payloads, e.g. '0 g..5 g' "
+                   "(for stations, the shared payload)")
+    q.add_argument("--steps", type=int, help="number of payloads in --payload-range (default 11)")
+    q.add_argument("--resolution", metavar="LENGTH",
+                   help="floating magnet: allowed shift of the floater for the lifter step "
+                   "(default a tenth of its clearance to the nearer plate), e.g. '20 um'")
+    add_format_argument(q, choices=("json", "csv", "table"), default="table")
     q.set_defaults(func=cmd_levitate)

@@ -89,14 +89,14 @@ from __future__ import annotations
 
 import bisect
 import math
-from dataclasses import dataclass, field as dc_field, replace
+from dataclasses import dataclass, replace
 from functools import lru_cache
 from typing import Callable, Sequence
 
 import numpy as np
 from scipy import optimize
 
-from ..errors import InputError, PhysicsError
+from ..errors import InputError
 from ..units import G_STANDARD, MU0
 
 FieldFn = Callable[[np.ndarray], np.ndarray]

@@ -8,6 +8,7 @@ from matdb.errors import MatdbError
 from matdb.levitate import LARGE_MAGNET_M, LARGE_MAGNET_MASS_KG
 from matdb.physics.thermal import SAFETY_TEXT
 from matdb.units import parse_length, parse_mass, parse_temperature
+from webapp import _downloads
 from webapp import _shared as sh
 
 st.title("Advisor")
@@ -71,9 +72,9 @@ except MatdbError as exc:
     st.error(f"payload form: {exc}")
     st.stop()
 
+key = tuple(sorted(params.items()))
 try:
-    with st.spinner("Ranking every plate material, grade and arrangement..."):
-        ranked = sh.advise(tuple(sorted(params.items())), url)
+    ranked = sh.run_with_progress(sh.advise, key, url, label="Ranking every plate material, grade and arrangement:")
 except MatdbError as exc:
     st.error(f"advisor: {exc}")
     st.stop()
@@ -97,31 +98,37 @@ st.subheader("Cost against worst-case margin")
 plot = table[["rank", "material", "grade", "arrangement", "thickness_mm", "margin", "cost_usd", "feasible",
               "pareto", "reasons_text"]].dropna(subset=["margin", "cost_usd"])
 pick = alt.selection_point(fields=["rank"], name="pick")
+plot = plot.assign(verdict=presentation.advisor_verdicts(plot))
 chart = alt.Chart(plot).mark_point(filled=True, size=90).encode(
-    x=alt.X("cost_usd:Q", title="indicative cost (USD, illustrative)", scale=alt.Scale(type="log")),
-    y=alt.Y("margin:Q", title="worst-case margin (lift / weight at the required gap)"),
+    x=alt.X("cost_usd:Q", title="indicative cost (USD, illustrative, log scale)", scale=alt.Scale(type="log")),
+    y=alt.Y("margin:Q", title="worst-case margin (lift / weight at the required gap, dimensionless)"),
     color=alt.Color("material:N", title="plate material"),
-    shape=alt.Shape("pareto:N", title="on the Pareto front", scale=alt.Scale(domain=[True, False],
-                                                                             range=["diamond", "circle"])),
-    opacity=alt.condition("datum.feasible", alt.value(0.95), alt.value(0.25)),
+    shape=alt.Shape("verdict:N", title="verdict", scale=alt.Scale(domain=list(presentation.ADVISOR_VERDICTS),
+                                                                  range=["diamond", "circle", "cross"])),
+    opacity=alt.condition("datum.feasible", alt.value(0.95), alt.value(0.35)),
     tooltip=[alt.Tooltip("rank:Q"), "material:N", "grade:N", "arrangement:N",
              alt.Tooltip("thickness_mm:Q", title="plate thickness (mm)", format=".2f"),
              alt.Tooltip("margin:Q", format=".2f"), alt.Tooltip("cost_usd:Q", title="cost (USD)", format=".2f"),
-             "feasible:N", alt.Tooltip("reasons_text:N", title="reasons")],
+             "verdict:N", alt.Tooltip("reasons_text:N", title="reasons")],
 ).add_params(pick)
 rule = alt.Chart(plot.head(1)).mark_rule(color="#b2182b", strokeDash=[4, 3]).encode(y=alt.datum(1.0))
-event = st.altair_chart(alt.layer(chart, rule).properties(height=360), width="stretch", on_select="rerun",
-                        key="adv_chart")
-st.caption("Diamonds: candidates no other candidate beats on margin, cost and derating at once. Faded: "
-           "rejected. Dashed line: margin 1 (just floats). Click a point to choose it.")
+sig = presentation.ranking_signature(params)
+event = st.altair_chart(alt.layer(chart, rule).properties(height=360, title="Indicative cost against worst-case margin"),
+                        width="stretch", on_select="rerun", key=f"adv_chart_{sig}")
+st.caption("Diamonds: feasible and on the Pareto front (no other candidate beats them on margin, cost and "
+           "derating at once); circles: other feasible candidates; crosses, faded: rejected. Dashed line: "
+           "margin 1 (just floats). Click a point to choose it.")
 
 # ---- ranked table -------------------------------------------------------------
 st.subheader("Ranking")
 st.dataframe(
-    table[presentation.ADVISOR_SHOWN], hide_index=True, key="adv_table",
+    table.assign(verdict=presentation.advisor_verdicts(table))[["verdict"] + presentation.ADVISOR_SHOWN],
+    hide_index=True, key="adv_table",
     column_config={
         "thickness_mm": st.column_config.NumberColumn("plate (mm)", format="%.2f"),
-        "margin": st.column_config.NumberColumn("margin, worst case", format="%.2f"),
+        "margin": st.column_config.NumberColumn("margin, worst case (lift / weight)", format="%.2f"),
+        "feasible": st.column_config.CheckboxColumn("feasible"),
+        "verdict": st.column_config.TextColumn("verdict"),
         "gap_mm": st.column_config.NumberColumn("gap (mm)", format="%.3f"),
         "gap_worst_mm": st.column_config.NumberColumn("gap, worst case (mm)", format="%.3f"),
         "derating_pct": st.column_config.NumberColumn("lift lost hot (%)", format="%.1f"),
@@ -135,20 +142,21 @@ st.download_button("Download the ranking (CSV, exact values)", presentation.rank
 # ---- choose a candidate ----------------------------------------------------------
 st.subheader("Open a candidate")
 ranks = [int(r) for r in table["rank"]]
+choice_key = f"adv_choice_{sig}"  # a new ranking starts a new box on its first row
 try:
     clicked = [int(p["rank"]) for p in event.selection.get("pick", []) if "rank" in p]
 except (AttributeError, TypeError, KeyError):
     clicked = []
-if clicked and clicked[0] in ranks and st.session_state.get("adv_last_click") != clicked[0]:
-    st.session_state["adv_last_click"] = clicked[0]
-    st.session_state["adv_choice"] = clicked[0]
+if clicked and clicked[0] in ranks and st.session_state.get("adv_last_click") != (sig, clicked[0]):
+    st.session_state["adv_last_click"] = (sig, clicked[0])
+    st.session_state[choice_key] = clicked[0]
 labels = {int(r["rank"]): presentation.candidate_label(r) for _, r in table.iterrows()}
-choice = st.selectbox("Candidate", ranks, key="adv_choice", format_func=lambda r: labels[r])
+choice = st.selectbox("Candidate", ranks, key=choice_key, format_func=lambda r: labels[r])
 row = ranked[ranked["rank"] == choice].iloc[0].to_dict()
 with sh.shown_errors("candidate design"):
     toml_text = presentation.candidate_toml(row, request)
     if row.get("reasons"):
-        st.info("Rejected because: " + "; ".join(row["reasons"]))
+        st.warning("Rejected: " + "; ".join(row["reasons"]) + ".")
     big = max(row["size_m"]) > LARGE_MAGNET_M or (row.get("magnet_mass_kg") or 0) > LARGE_MAGNET_MASS_KG
     if big:
         st.warning(SAFETY_TEXT.replace("\n", "  \n"))
@@ -156,7 +164,11 @@ with sh.shown_errors("candidate design"):
     d1.download_button("Download this design (TOML)", toml_text.encode(),
                        file_name=f"design-{row['material']}-{row['grade']}.toml", mime="application/toml",
                        key="adv_download_design")
+    _downloads.report_buttons(toml_text, url, "adv", name=f"design-{row['material']}-{row['grade']}")
     if d2.button("Open on the Design page", key="adv_open", type="primary"):
-        st.session_state["design_text"] = toml_text
-        st.session_state["design_source"] = "design file"
+        from matdb.design import load_design_text
+
+        fields = presentation.form_fields_from_design(load_design_text(toml_text))
+        st.session_state["d_open"] = {"fields": fields, "text": toml_text,
+                                      "message": f"Opened advisor candidate {labels[choice]}."}
         st.switch_page("views/design.py")

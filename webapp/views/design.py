@@ -6,30 +6,54 @@ import altair as alt
 import pandas as pd
 import streamlit as st
 
-from matdb import presentation
+from matdb import charts, presentation
 from matdb.errors import MatdbError
 from matdb.units import parse_length, parse_mass, parse_temperature
+from webapp import _downloads
 from webapp import _shared as sh
 
 st.title("Design")
 design_mod = sh.module_or_none("matdb.design")
 lev_mod = sh.module_or_none("matdb.levitate")
+design_mod_stab = sh.module_or_none("matdb.design_stabilized")
 if design_mod is None or lev_mod is None:
     sh.not_available("The Design page")
     st.stop()
 
 url = sh.db_url()
-EXAMPLE = presentation.design_text_from_fields(dict(
-    shape="cuboid", size="12.7 mm, 12.7 mm, 12.7 mm", grade="N50", pattern="checkerboard", rows=2, cols=2,
-    material="pyrolytic-graphite", plate_shape="rectangle", plate_size="12 mm, 12 mm, 1 mm", payload="0.1 g",
-    payload_height="2 mm", min_gap="0.2 mm", temperature="20 degC"))
+FIELDS = presentation.DESIGN_FORM_DEFAULTS
+KEYS = dict(shape="d_shape", size="d_size", grade="d_grade", pattern="d_pattern", rows="d_rows", cols="d_cols",
+            spacing="d_spacing", back_plate="d_back", cover="d_cover", material="d_material",
+            plate_shape="d_pshape", plate_size="d_psize", payload="d_payload", payload_height="d_pheight",
+            min_gap="d_mingap", temp_min="d_temp_min", temp_max="d_temp_max")
+EXAMPLE = presentation.design_text_from_fields(FIELDS)
 
+# A design opened from the advisor or from the saved designs arrives as "d_open" (form
+# fields, or only a design text the form cannot show); apply it before any widget exists.
+opened = st.session_state.pop("d_open", None)
+if opened is not None:
+    fields, text_in = opened.get("fields"), opened.get("text")
+    if fields:
+        for k, v in fields.items():
+            st.session_state[KEYS[k]] = v
+        st.session_state["design_source"] = "form"
+    else:
+        st.session_state["design_text"] = text_in
+        st.session_state["design_source"] = "design file"
+    if opened.get("message"):
+        st.session_state["d_flash"] = opened["message"]
+for k, key in KEYS.items():  # form values survive a visit to another page
+    if key not in st.session_state:
+        st.session_state[key] = st.session_state.get("d_kept", {}).get(key, FIELDS[k])
 if "design_text" not in st.session_state:
-    st.session_state["design_text"] = EXAMPLE
+    st.session_state["design_text"] = st.session_state.get("d_kept_text", EXAMPLE)
 if "design_source" not in st.session_state:
     st.session_state["design_source"] = "form"
+flash = st.session_state.pop("d_flash", None)
+if flash:
+    st.success(flash)
 
-left, right = st.columns([2, 3], gap="large")
+left, right = st.columns([5, 7], gap="large")
 text = None
 with left:
     source = st.radio("Edit the design with", ["form", "design file"], key="design_source", horizontal=True,
@@ -39,47 +63,54 @@ with left:
         mats = sh.materials_table("si-volume", url)
         grades = sh.magnets_df(url)
         dia = list(mats[mats["chi_si"] < 0]["id"])
-        c1, c2 = st.columns(2)
-        with c1:
-            st.markdown("**Magnets**")
-            shape = st.selectbox("Magnet shape", ["cuboid", "cylinder", "ring"], key="d_shape")
-            size_help = {"cuboid": "x, y, height", "cylinder": "diameter, height",
-                         "ring": "outer diameter, inner diameter, height"}[shape]
-            size = st.text_input(f"Magnet size ({size_help})", "12.7 mm, 12.7 mm, 12.7 mm", key="d_size")
-            for i, part in enumerate(presentation._split_lengths(size)):
-                sh.checked(lambda v: parse_length(v, "size", positive=True), part, f"magnet size, value {i + 1}")
-            glist = list(grades["grade"])
-            grade = st.selectbox("Grade", glist, index=glist.index("N50") if "N50" in glist else 0, key="d_grade")
-            pattern = st.selectbox("Arrangement", ["single", "checkerboard", "stripes", "grid"], index=1, key="d_pattern")
-            r1, r2 = st.columns(2)
-            rows = r1.number_input("Rows (along y)", 1, 40, 2, key="d_rows")
-            cols = r2.number_input("Columns (along x)", 1, 40, 2, key="d_cols")
-            spacing = st.text_input("Clear gap between magnets", "0 mm", key="d_spacing")
-            sh.checked(lambda v: parse_length(v, "spacing"), spacing, "gap between magnets")
-            back = st.checkbox("Steel back plate under the magnets", key="d_back")
-            cover = st.text_input("Cover sheet thickness", "0 mm", key="d_cover")
-            sh.checked(lambda v: parse_length(v, "cover"), cover, "cover sheet")
-        with c2:
-            st.markdown("**Plate and payload**")
-            material = st.selectbox("Plate material", dia, index=dia.index("pyrolytic-graphite")
-                                    if "pyrolytic-graphite" in dia else 0, key="d_material")
-            pshape = st.selectbox("Plate shape", ["rectangle", "disc"], key="d_pshape")
-            psize = st.text_input("Plate size (" + ("x, y, thickness" if pshape == "rectangle" else "diameter, thickness")
-                                  + ")", "12 mm, 12 mm, 1 mm" if pshape == "rectangle" else "12 mm, 1 mm", key="d_psize")
-            for i, part in enumerate(presentation._split_lengths(psize)):
-                sh.checked(lambda v: parse_length(v, "plate size", positive=True), part, f"plate size, value {i + 1}")
-            payload = st.text_input("Payload mass", "0.1 g", key="d_payload")
-            sh.checked(lambda v: parse_mass(v, "payload"), payload, "payload mass")
-            pheight = st.text_input("Payload centre of mass above the plate", "2 mm", key="d_pheight")
-            sh.checked(lambda v: parse_length(v, "payload height"), pheight, "payload height")
-            min_gap = st.text_input("Required gap", "0.2 mm", key="d_mingap")
-            sh.checked(lambda v: parse_length(v, "required gap"), min_gap, "required gap")
-            temp = st.text_input("Temperature", "20 degC", key="d_temp")
-            sh.checked(lambda v: parse_temperature(v, "temperature"), temp, "temperature")
-        text = presentation.design_text_from_fields(dict(
-            shape=shape, size=size, grade=grade, pattern=pattern, rows=rows, cols=cols, spacing=spacing,
-            back_plate=back, cover=cover, material=material, plate_shape=pshape, plate_size=psize,
-            payload=payload, payload_height=pheight, min_gap=min_gap, temperature=temp))
+        glist = list(grades["grade"])
+        if st.session_state["d_grade"] not in glist:
+            st.session_state["d_grade"] = "N50" if "N50" in glist else glist[0]
+        if st.session_state["d_material"] not in dia:
+            st.session_state["d_material"] = "pyrolytic-graphite" if "pyrolytic-graphite" in dia else dia[0]
+        st.markdown("**Magnets**")
+        shape = st.selectbox("Magnet shape", ["cuboid", "cylinder", "ring"], key="d_shape")
+        size_help = {"cuboid": "x, y, height", "cylinder": "diameter, height",
+                     "ring": "outer diameter, inner diameter, height"}[shape]
+        size = st.text_input(f"Magnet size ({size_help})", key="d_size")
+        for i, part in enumerate(presentation._split_lengths(size)):
+            sh.checked(lambda v: parse_length(v, "size", positive=True), part, f"magnet size, value {i + 1}")
+        grade = st.selectbox("Grade", glist, key="d_grade")
+        pattern = st.selectbox("Arrangement", list(presentation.FORM_PATTERNS), key="d_pattern")
+        r1, r2 = st.columns(2)
+        rows = r1.number_input("Rows (along y)", 1, 40, key="d_rows")
+        cols = r2.number_input("Columns (along x)", 1, 40, key="d_cols")
+        spacing = st.text_input("Clear gap between magnets", key="d_spacing")
+        sh.checked(lambda v: parse_length(v, "spacing"), spacing, "gap between magnets")
+        back = st.checkbox("Steel back plate under the magnets", key="d_back")
+        cover = st.text_input("Cover sheet thickness", key="d_cover")
+        sh.checked(lambda v: parse_length(v, "cover"), cover, "cover sheet")
+        st.markdown("**Plate and payload**")
+        material = st.selectbox("Plate material", dia, key="d_material")
+        pshape = st.selectbox("Plate shape", ["rectangle", "disc"], key="d_pshape")
+        psize = st.text_input("Plate size (" + ("x, y, thickness" if pshape == "rectangle" else "diameter, thickness")
+                              + ")", key="d_psize")
+        for i, part in enumerate(presentation._split_lengths(psize)):
+            sh.checked(lambda v: parse_length(v, "plate size", positive=True), part, f"plate size, value {i + 1}")
+        payload = st.text_input("Payload mass", key="d_payload")
+        sh.checked(lambda v: parse_mass(v, "payload"), payload, "payload mass")
+        pheight = st.text_input("Payload centre of mass above the plate", key="d_pheight")
+        sh.checked(lambda v: parse_length(v, "payload height"), pheight, "payload height")
+        min_gap = st.text_input("Required gap", key="d_mingap")
+        sh.checked(lambda v: parse_length(v, "required gap"), min_gap, "required gap")
+        st.markdown("**Operating temperatures**")
+        t1, t2 = st.columns(2)
+        temp_min = t1.text_input("Coldest", key="d_temp_min", help="e.g. 0 degC or 273 K")
+        temp_max = t2.text_input("Hottest", key="d_temp_max", help="e.g. 60 degC or 333 K")
+        tmin_k = sh.checked(lambda v: parse_temperature(v, "temp_min"), temp_min, "coldest temperature")
+        tmax_k = sh.checked(lambda v: parse_temperature(v, "temp_max"), temp_max, "hottest temperature")
+        if tmin_k is not None and tmax_k is not None and tmin_k > tmax_k:
+            st.error("hottest temperature: expected at least the coldest temperature")
+        form = dict(shape=shape, size=size, grade=grade, pattern=pattern, rows=rows, cols=cols, spacing=spacing,
+                    back_plate=back, cover=cover, material=material, plate_shape=pshape, plate_size=psize,
+                    payload=payload, payload_height=pheight, min_gap=min_gap, temp_min=temp_min, temp_max=temp_max)
+        st.session_state["d_kept"] = {KEYS[k]: v for k, v in form.items()}
+        text = presentation.design_text_from_fields(form)
     else:
         up = st.file_uploader("Load a design file", type=["toml"], key="design_upload")
         if up is not None:
@@ -90,6 +121,66 @@ with left:
                 except UnicodeDecodeError:
                     st.error("design file: not UTF-8 text")
         text = st.text_area("Design (TOML; every quantity with its unit)", key="design_text", height=320)
+        st.session_state["d_kept_text"] = text
+
+from matdb import saved_designs as saved  # noqa: E402
+
+
+def open_saved(name: str) -> None:
+    """Reopen a saved design: in the form when the form can show it, else in the editor."""
+    row = saved.get_design(name, url)
+    try:
+        fields = presentation.form_fields_from_design(design_mod.load_design_text(row["design_toml"]))
+    except MatdbError:
+        fields = None
+    st.session_state["d_open"] = {"fields": fields, "text": row["design_toml"],
+                                  "message": f"Opened the saved design {row['name']!r}."}
+    st.rerun()
+
+
+def saved_designs_panel(design_text: str | None) -> None:
+    """Save the design on screen with a name and a note; list, reopen, duplicate, delete."""
+    st.subheader("Saved designs")
+    with st.form("d_save_form", clear_on_submit=False, border=False):
+        name = st.text_input("Name", key="d_save_name", placeholder="e.g. demo desk toy, 2x2 N50")
+        note = st.text_area("Note (optional)", key="d_save_note", height=68)
+        overwrite = st.checkbox("Replace a saved design of the same name", key="d_save_overwrite")
+        do_save = st.form_submit_button("Save this design", key="d_save", disabled=design_text is None)
+    if do_save:
+        try:
+            row = saved.save_design(name, design_text, note, overwrite=overwrite, url=url)
+        except MatdbError as exc:
+            st.error(f"not saved: {exc}")
+        else:
+            st.session_state["d_flash"] = f"Saved the design as {row['name']!r}."
+            st.rerun()
+    listed = saved.list_designs(url)
+    if listed.empty:
+        st.caption("No saved designs yet.")
+        return
+    show = listed[["name", "note", "updated_at"]].copy()
+    show["updated_at"] = [f"{t:%Y-%m-%d %H:%M}" for t in pd.to_datetime(show["updated_at"])]
+    st.dataframe(show, hide_index=True, key="d_saved_table", column_config={
+        "name": "name", "note": st.column_config.TextColumn("note", width="medium"),
+        "updated_at": "last saved (UTC)"})
+    names = list(listed["name"])
+    pick = st.selectbox("Saved design", names, key="d_saved_pick")
+    b1, b2, b3 = st.columns(3)
+    if b1.button("Open", key="d_saved_open", type="primary"):
+        with sh.shown_errors("open"):
+            open_saved(pick)
+    if b2.button("Duplicate", key="d_saved_dup"):
+        with sh.shown_errors("duplicate"):
+            row = saved.duplicate_design(pick, url=url)
+            st.session_state["d_flash"] = f"Duplicated {pick!r} as {row['name']!r}."
+            st.rerun()
+    confirm = st.checkbox(f"Yes, delete {pick!r}", key="d_saved_delete_confirm")
+    if b3.button("Delete", key="d_saved_delete", disabled=not confirm):
+        with sh.shown_errors("delete"):
+            saved.delete_design(pick, url)
+            st.session_state["d_flash"] = f"Deleted the saved design {pick!r}."
+            st.rerun()
+
 
 with left:
     # ---- parse ------------------------------------------------------------------
@@ -97,48 +188,162 @@ with left:
         design = design_mod.load_design_text(text)
     except MatdbError as exc:
         st.error(f"design: {exc}")
+        design = None
+
+    if design is not None:
+        st.download_button("Download this design (TOML)", text.encode(), file_name="design.toml",
+                           mime="application/toml", key="design_download")
+        with st.expander("Design file text"):
+            st.code(text, language="toml")
+        st.markdown("**Report and drawing**")
+        _downloads.report_buttons(text, url, "design")
+    saved_designs_panel(text if design is not None else None)
+    if design is None:
         st.stop()
 
-    st.download_button("Save this design (TOML)", text.encode(), file_name="design.toml",
-                       mime="application/toml", key="design_download")
-    with st.expander("Design file text"):
-        st.code(text, language="toml")
+def compare_section() -> None:
+    """Key figures of two to four saved designs side by side, and their lift curves."""
+    listed = saved.list_designs(url)
+    if len(listed) < 2:
+        return
+    st.subheader("Compare saved designs")
+    names = list(listed["name"])
+    chosen = st.multiselect("Saved designs to compare (two to four)", names, key="d_compare", max_selections=4)
+    if len(chosen) < 2:
+        st.caption("Choose two to four saved designs.")
+        return
+    with sh.shown_errors("compare"):
+        bar = st.progress(0.0, text="Computing the saved designs...")
+        done = []
+
+        def evaluate(text: str) -> dict:
+            bar.progress(len(done) / len(chosen), text=f"Computing saved design {len(done) + 1} of {len(chosen)}...")
+            done.append(text)
+            return sh.evaluate_design_text(text, url)
+
+        ev = saved.evaluate_saved(chosen, url, evaluate=evaluate)
+        bar.empty()
+        table = saved.compare_table(ev)
+        shown = table.copy()
+        for name in chosen:
+            shown[name] = [presentation.fmt_number(v) for v in table[name]]
+        c1, c2 = st.columns([1, 1], gap="large")
+        c1.dataframe(shown, hide_index=True, key="d_compare_table",
+                     column_config={"figure": st.column_config.TextColumn("key figure (unit)", width="large")})
+        c1.download_button("Download the comparison (CSV, exact values)", table.to_csv(index=False).encode(),
+                           file_name="matdb-compare.csv", mime="text/csv", key="d_compare_csv")
+        curves = saved.compare_curves(ev)
+        if len(curves):
+            dash = alt.StrokeDash("design:N", title="design", sort=chosen)
+            colour = alt.Color("design:N", title="design", sort=chosen, scale=alt.Scale(scheme="tableau10"))
+            lines = alt.Chart(curves).mark_line(strokeWidth=2).encode(
+                x=alt.X("gap_mm:Q", title="gap above the magnets (mm)"), y=alt.Y("force_mn:Q", title="lift (mN)"),
+                color=colour, strokeDash=dash,
+                tooltip=["design:N", alt.Tooltip("gap_mm:Q", title="gap (mm)", format=".3f"),
+                         alt.Tooltip("force_mn:Q", title="lift (mN)", format=".3g")])
+            weights = alt.Chart(curves).mark_rule(opacity=0.6).encode(
+                y="weight_mn:Q", color=colour, strokeDash=dash,
+                tooltip=["design:N", alt.Tooltip("weight_mn:Q", title="weight (mN)", format=".3g")])
+            c2.altair_chart(alt.layer(lines, weights).properties(
+                height=320, title="Lift against gap of the saved designs (lines: lift; rules: weight)"),
+                width="stretch")
+
 
 # ---- results ----------------------------------------------------------------
+key_text = presentation.canonical_design_text(design, text)
+progress = right.empty()
 with right:
     try:
-        with st.spinner("Computing the lift curve, stiffnesses and checks..."):
-            result = sh.levitate_text(text, None, None, url)
+        if not sh.levitate_text_cached(key_text, url):
+            progress.progress(0.1, text="Computing the lift curve, stiffnesses and checks (step 1 of 2)...")
+        result = sh.levitate_key(key_text, url)
     except MatdbError as exc:
+        progress.empty()
         st.error(f"levitation: {exc}")
         st.stop()
 
     if result.get("mode") == "stabilized":
         st.subheader("Floating magnet: lifter distance and stability window against payload")
         st.metric("Floats", "yes" if result.get("floats") else "no")
+        r1, r2, r3 = st.columns([2, 1, 2])
+        prange = r1.text_input("Payload range (e.g. 0 g..5 g; empty: 0 to the largest payload)", "",
+                               key="d_payload_range")
+        steps = r2.number_input("Steps", 2, 200, 11, key="d_payload_steps")
+        shift = r3.text_input("Allowed floater shift for the lifter step (empty: a tenth of its clearance)", "",
+                              key="d_resolution")
+        payloads, res_m = None, None
+        if prange.strip():
+            rng = sh.checked(lambda v: design_mod_stab.parse_payload_range(v, "payload range"), prange, "payload range")
+            if rng is not None:
+                payloads = tuple(float(x) for x in presentation.payload_steps(rng, int(steps)))
+        if shift.strip():
+            res_m = sh.checked(lambda v: parse_length(v, "shift", positive=True), shift, "allowed floater shift")
+        if payloads is not None or res_m is not None:
+            try:
+                with st.spinner("Computing the schedule over the payload range..."):
+                    result = sh.levitate_text(text, None, None, url, payloads, res_m)
+            except MatdbError as exc:
+                st.error(f"payload range: {exc}")
+                st.stop()
+        if result.get("max_plate_distance_dipole_m") is not None:
+            ratio = result.get("plate_stiffness_dipole_ratio")
+            st.caption(
+                "Image-dipole idealisation, for comparison only: largest plate distance "
+                f"{result['max_plate_distance_dipole_m'] * 1e3:.3g} mm"
+                + ("" if result.get("max_plate_distance_m") is None
+                   else f" against {result['max_plate_distance_m'] * 1e3:.3g} mm from the finite-size model")
+                + ("" if ratio is None else f"; plate stiffness {ratio:.2g} x the finite-size value")
+                + ". The verdict and the window use the finite-size model.")
+        wm = result.get("window_min_m")
+        st.caption("Narrowest window of plate distances over the schedule: "
+                   + ("none (some payload has no stable plate distance)" if wm is None else f"{wm * 1e3:.3g} mm"))
         sched = presentation.stabilized_window_df(result)
-        colour = alt.Color("station:N", title="station")
-        base = alt.Chart(sched).encode(x=alt.X("payload_g:Q", title="payload (g)"), color=colour)
-        lifter = base.mark_line(point=True).encode(
-            y=alt.Y("lifter_distance_mm:Q", title="lifter distance, floater centre to lifter face (mm)",
-                    scale=alt.Scale(zero=False)),
-            tooltip=["station:N", alt.Tooltip("payload_g:Q", title="payload (g)", format=".3g"),
-                     alt.Tooltip("lifter_distance_mm:Q", title="lifter distance (mm)", format=".2f")])
-        window = base.mark_area(opacity=0.25).encode(
-            y=alt.Y("min_plate_distance_mm:Q", title="stable plate distance, floater centre to plate (mm)",
-                    scale=alt.Scale(zero=False)), y2="max_plate_distance_mm:Q",
-            tooltip=["station:N", alt.Tooltip("payload_g:Q", title="payload (g)", format=".3g"),
-                     alt.Tooltip("min_plate_distance_mm:Q", title="smallest plate distance (mm)", format=".2f"),
-                     alt.Tooltip("max_plate_distance_mm:Q", title="largest stable plate distance (mm)", format=".2f")])
-        st.altair_chart(alt.vconcat(lifter.properties(height=240, width=420), window.properties(height=240, width=420)),
-                        width="content")
+        st.altair_chart(charts.schedule_chart(sched), width="content")
         st.caption("Top: where to set the lifter for each payload. Bottom: the band of plate distances that "
                    "keeps the floater stable; it narrows as the payload grows.")
         st.dataframe(sched, hide_index=True, column_config={
             "payload_g": st.column_config.NumberColumn("payload (g)", format="%.3g"),
             "lifter_distance_mm": st.column_config.NumberColumn("lifter distance (mm)", format="%.2f"),
             "max_plate_distance_mm": st.column_config.NumberColumn("largest plate distance (mm)", format="%.2f"),
-            "min_plate_distance_mm": st.column_config.NumberColumn("smallest plate distance (mm)", format="%.2f")})
+            "min_plate_distance_mm": st.column_config.NumberColumn("smallest plate distance (mm)", format="%.2f"),
+            "lifter_travel_mm": st.column_config.NumberColumn("lifter travel from empty (mm)", format="%.3g"),
+            "window_mm": st.column_config.NumberColumn("window (mm)", format="%.3g"),
+            "resolution_um": st.column_config.NumberColumn("lifter step (um)", format="%.3g"),
+            "drift_um_per_k": st.column_config.NumberColumn("lifter drift (um/K)", format="%.3g"),
+            "dforce_dd_n_m": st.column_config.NumberColumn("dF/dd (N/m)", format="%.3g")})
+        st.download_button("Schedule as CSV (for a positioning stage)", presentation.schedule_csv(result).encode(),
+                           file_name="schedule.csv", mime="text/csv", key="d_schedule_csv")
+        with st.expander("Suggest designs that float a payload range", expanded=not result.get("floats")):
+            synth = sh.module_or_none("matdb.magnet_synthesis")
+            s1, s2, s3 = st.columns([2, 1, 2])
+            s_range = s1.text_input("Payload range to float", prange.strip() or "0 g..5 g", key="fm_s_range")
+            s_win = s2.text_input("Smallest window", "0.5 mm", key="fm_s_window")
+            s_mats = s3.multiselect("Plate materials", list(synth.DEFAULT_MATERIALS) if synth else [],
+                                    default=list(synth.DEFAULT_MATERIALS) if synth else [], key="fm_s_mats")
+            if synth is not None and st.button("Search designs", key="fm_s_go"):
+                rng = sh.checked(lambda v: design_mod_stab.parse_payload_range(v, "payload range"), s_range,
+                                 "payload range to float")
+                win = sh.checked(lambda v: parse_length(v, "window", positive=True), s_win, "smallest window")
+                if rng is not None and win is not None:
+                    bar = st.progress(0.0, text="searching lifter, floater, plates and stations")
+                    try:
+                        res = synth.search(synth.FMRequest(payload_range_kg=rng, min_window_m=win,
+                                                           materials=tuple(s_mats) or synth.DEFAULT_MATERIALS),
+                                           progress=lambda f, t="": bar.progress(min(max(f, 0.0), 1.0), text=t[:90]))
+                        st.session_state["fm_search"] = (synth.records(res), res.message, res.notes)
+                    except MatdbError as exc:
+                        st.error(f"search: {exc}")
+                    bar.empty()
+            found = st.session_state.get("fm_search")
+            if found:
+                recs, message, notes = found
+                if message:
+                    st.warning(message)
+                st.dataframe(presentation.floating_designs_df(recs), hide_index=True, key="fm_s_table")
+                for n in notes:
+                    st.caption(n)
+                st.caption("Suggestions are demo designs, each re-checked by the levitate analysis; "
+                           "large magnets need the strong-magnet cautions below.")
         stations = presentation.stations_df(result)
         if len(stations):
             st.dataframe(stations, hide_index=True, column_config={
@@ -150,29 +355,20 @@ with right:
             st.caption(f"Keep implants at least {result['safe_distance_m'] * 1e2:.1f} cm from the magnets (0.5 mT).")
         for w in result.get("warnings", []):
             st.warning(w)
+        progress.empty()
+        compare_section()
         st.stop()
 
-    c1, c2, c3, c4 = st.columns(4)
+    # two by two, so each value keeps its unit in full on a narrow screen
+    c1, c2 = st.columns(2)
     c1.metric("Floats", "yes" if result["floats"] else "no")
-    c2.metric("Equilibrium gap", "-" if result["gap_m"] is None else f"{result['gap_m'] * 1e3:.2f} mm")
+    c2.metric("Equilibrium gap", "none" if result["gap_m"] is None else presentation.fmt_length_mm(result["gap_m"]))
+    c3, c4 = st.columns(2)
     c3.metric("Laterally stable", "yes" if result["laterally_stable"] else "no")
-    c4.metric("0.5 mT distance", f"{result['safe_distance_m'] * 1e2:.1f} cm")
+    c4.metric("0.5 mT distance", presentation.fmt_number(result["safe_distance_m"] * 1e2, "cm"))
 
     st.subheader("Lift against gap")
-    curve = presentation.lift_curve_df(result)
-    lift = alt.Chart(curve).mark_line(color="#3d6fb6", strokeWidth=2).encode(
-        x=alt.X("gap_mm:Q", title="gap above the magnets (mm)"),
-        y=alt.Y("force_mn:Q", title="force (mN)"),
-        tooltip=[alt.Tooltip("gap_mm:Q", title="gap (mm)", format=".3f"),
-                 alt.Tooltip("force_mn:Q", title="lift (mN)", format=".3g")])
-    weight = alt.Chart(curve).mark_line(color="#b2182b", strokeDash=[5, 3]).encode(
-        x="gap_mm:Q", y="weight_mn:Q", tooltip=[alt.Tooltip("weight_mn:Q", title="weight, plate + payload (mN)", format=".3g")])
-    layers = [lift, weight]
-    if result["gap_m"] is not None:
-        eq = pd.DataFrame({"gap_mm": [result["gap_m"] * 1e3], "force_mn": [result["weight_n"] * 1e3]})
-        layers.append(alt.Chart(eq).mark_point(size=140, filled=True, color="#1b7837").encode(
-            x="gap_mm:Q", y="force_mn:Q", tooltip=[alt.Tooltip("gap_mm:Q", title="equilibrium gap (mm)", format=".3f")]))
-    st.altair_chart(alt.layer(*layers).properties(height=300), width="stretch")
+    st.altair_chart(charts.lift_chart(result), width="stretch")
     st.caption("Solid: magnetic lift on the plate; dashed: weight of plate and payload; dot: where they balance "
                "on the falling branch (the equilibrium gap).")
 
@@ -183,26 +379,12 @@ gap_mm = m1.slider("Height of the map above the magnets (mm)", 0.05, 5.0,
                    float(min(5.0, max(0.05, round(default_gap * 1e3, 2)))), 0.05, key="d_map_gap")
 quantity = m2.radio("Show", ["|B| (T)", "B^2 (T^2)"], key="d_map_q", horizontal=True)
 extent = (design.plate.size[0], design.plate.size[1] if design.plate.shape == "rectangle" else design.plate.size[0])
-with st.spinner("Computing the field map..."):
-    fmap = sh.field_map(repr(design.magnets), result["temperature_k"], gap_mm * 1e-3, extent, design)
+progress.progress(0.6, text="Computing the field map (step 2 of 2)...")
+fmap = sh.field_map(repr(design.magnets), result["temperature_k"], gap_mm * 1e-3, extent, design)
+progress.empty()
 field = "b_t" if quantity.startswith("|B|") else "b2_t2"
-heat = alt.Chart(fmap).mark_rect().encode(
-    x=alt.X("x_mm:O", title="x (mm)", axis=alt.Axis(labelExpr="format(datum.value, '.1f')", labelOverlap=True)),
-    y=alt.Y("y_mm:O", title="y (mm)", sort="descending", axis=alt.Axis(labelExpr="format(datum.value, '.1f')",
-                                                                        labelOverlap=True)),
-    color=alt.Color(f"{field}:Q", title=quantity, scale=alt.Scale(scheme="viridis")),
-    tooltip=[alt.Tooltip("x_mm:Q", format=".2f", title="x (mm)"), alt.Tooltip("y_mm:Q", format=".2f", title="y (mm)"),
-             alt.Tooltip("b_t:Q", format=".3f", title="|B| (T)"), alt.Tooltip("bz_t:Q", format=".3f", title="Bz (T)")],
-).properties(height=340, width=340, title=f"{quantity} at {gap_mm:.2f} mm")
 pol = presentation.polarity_df(design.arrangement())
-boxes = alt.Chart(pol).mark_rect(stroke="black", strokeWidth=1).encode(
-    x=alt.X("x0_mm:Q", title="x (mm)"), x2="x1_mm:Q", y=alt.Y("y0_mm:Q", title="y (mm)"), y2="y1_mm:Q",
-    color=alt.Color("points:N", title="magnetisation",
-                    scale=alt.Scale(domain=["north up", "north down", "sideways"], range=["#d6604d", "#4393c3", "#bbbbbb"])),
-    tooltip=["magnet:Q", "points:N", "grade:N", alt.Tooltip("x_mm:Q", format=".2f"), alt.Tooltip("y_mm:Q", format=".2f")])
-labels = alt.Chart(pol).mark_text(fontSize=14, fontWeight="bold").encode(x="x_mm:Q", y="y_mm:Q", text="label:N")
-st.altair_chart(alt.hconcat(heat, alt.layer(boxes, labels).properties(height=340, width=340,
-                                                                     title="top view: N = north pole up")),
+st.altair_chart(charts.field_and_polarity_chart(fmap, pol, gap_mm, quantity, charts.plate_outline_df(design)),
                 width="content")
 
 st.subheader("Numbers")
@@ -217,7 +399,7 @@ with n2:
         st.dataframe(bom[["item", "size", "grade_or_material", "count", "mass_g", "cost_usd"]], hide_index=True,
                      column_config={
                          "grade_or_material": "grade / material",
-                         "mass_g": st.column_config.NumberColumn("mass (g)", format="%.2f"),
+                         "mass_g": st.column_config.NumberColumn("mass (g)", format="%.3g"),
                          "cost_usd": st.column_config.NumberColumn("indicative cost (USD, illustrative)", format="%.2f")},
                      key="design_bom")
         total = bom["cost_usd"].sum(min_count=1)
@@ -234,3 +416,5 @@ from matdb.physics.thermal import SAFETY_TEXT  # noqa: E402
 
 with st.expander("Strong-magnet cautions", expanded=any("Strong magnets" in w for w in warns)):
     st.markdown(SAFETY_TEXT.replace("\n", "  \n"))
+
+compare_section()
