@@ -521,7 +521,9 @@ def _catalogue_start(req: A.AdviceRequest, objective: str, min_margin: float, ur
         inside = [s for s in cat.specs
                   if not any(e > 1e-9 for e in s.envelope_excess(req.envelope_m))]
         cat = A._Catalogue(cat.mats, cat.grades, inside or cat.specs, cat.thick, cat.thick_owner)
-    df, cat = A.rank(req, polish=1, catalogue=cat, url=url, tilt_rows=40)
+    cb = (lambda f, t: progress(0.12 * f, f"catalogue: {t}")) if progress else None
+    with A.reporting_progress(cb):
+        df, cat = A.rank(req, polish=1, catalogue=cat, url=url, tilt_rows=40)
     feas = df[df["feasible"]]
     if objective == "cost":
         feas = feas[feas["margin"] >= min_margin]

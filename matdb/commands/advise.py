@@ -93,6 +93,7 @@ def register(sub) -> None:
                    help="rows worked out exactly as 'matdb levitate' does (default 1: the top one, "
                    "a few seconds each when not cached); the rest are screening values")
     p.add_argument("--save", metavar="DESIGN.toml", help="write the top candidate as a design file")
+    p.add_argument("--quiet", action="store_true", help="no progress bar on stderr")
     p.add_argument("--objective", choices=["score", "noise"], default="score",
                    help="rank by the score (default) or by the lowest noise floor: thermal "
                    "acceleration noise of the vertical mode (screened, exact for the rows shown)")
@@ -150,8 +151,11 @@ def cmd_advise(args) -> int:
         from .dynamics import parse_pressure
 
         pressure = parse_pressure(args.pressure)
-    df, cat = A.advise_request(req, top=top, feasible_only=args.feasible_only, polish=exact,
-                               objective=args.objective, min_q=min_q, pressure_pa=pressure)
+    from ..progress import progress_bar
+
+    with progress_bar("advise", quiet=getattr(args, "quiet", False)) as prog, A.reporting_progress(prog):
+        df, cat = A.advise_request(req, top=top, feasible_only=args.feasible_only, polish=exact,
+                                   objective=args.objective, min_q=min_q, pressure_pa=pressure)
     if args.save:
         if df.empty:
             raise InputError("--save: no candidate to save")
