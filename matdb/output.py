@@ -12,6 +12,32 @@ import pandas as pd
 FORMATS = ("table", "json", "csv")
 
 
+class Marked:
+    """A number printed with a short text mark after it (table output only), e.g. ``1.3 v``."""
+
+    __slots__ = ("value", "mark")
+
+    def __init__(self, value: Any, mark: str):
+        self.value, self.mark = value, mark
+
+    def __repr__(self) -> str:  # pragma: no cover
+        return f"Marked({self.value!r}, {self.mark!r})"
+
+
+def with_marks(rows: Sequence[dict], marks: dict[str, dict[str, str]], key: str,
+               columns: Iterable[str]) -> list[dict]:
+    """Copies of ``rows`` whose ``columns`` carry the mark ``marks[row[key]][column]``."""
+    out = []
+    for r in rows:
+        m = marks.get(r.get(key), {})
+        d = dict(r)
+        for c in columns:
+            if c in d and d[c] is not None and c in m:
+                d[c] = Marked(d[c], m[c])
+        out.append(d)
+    return out
+
+
 def add_format_argument(parser, choices: Sequence[str] = FORMATS, default: str = "table") -> None:
     parser.add_argument("--format", choices=list(choices), default=default,
                         help=f"output format ({', '.join(choices)}; default {default})")
@@ -48,6 +74,8 @@ def to_json(data: Any) -> str:
 
 
 def _fmt_cell(v: Any) -> str:
+    if isinstance(v, Marked):
+        return f"{_fmt_cell(v.value)} {v.mark}"
     if v is None:
         return "-"
     if isinstance(v, bool):
@@ -78,7 +106,7 @@ def format_table(rows: Sequence[dict], columns: Sequence[str] | None = None,
     cells = [[c if len(c) <= max_width else c[: max_width - 3] + "..." for c in row] for row in cells]
     head = [headers.get(c, c) for c in columns]
     widths = [max(len(h), *(len(row[i]) for row in cells)) for i, h in enumerate(head)]
-    numeric = [all(isinstance(r.get(c), (int, float)) and not isinstance(r.get(c), bool)
+    numeric = [all(isinstance(r.get(c), (int, float, Marked)) and not isinstance(r.get(c), bool)
                    for r in rows if r.get(c) is not None) for c in columns]
     def line(vals):
         return "  ".join(v.rjust(w) if num else v.ljust(w) for v, w, num in zip(vals, widths, numeric)).rstrip()

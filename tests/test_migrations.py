@@ -231,3 +231,20 @@ def _seeded_reference(tmp_path) -> str:
     url = f"sqlite:///{tmp_path / 'reference.sqlite'}"
     db.get_engine(url)
     return url
+
+
+def test_revision_ids_fit_alembic_version_column_and_form_one_line():
+    """Alembic stores the revision id in ``alembic_version.version_num``, a VARCHAR(32):
+    PostgreSQL refuses a longer id (SQLite does not check lengths). One head, linear history
+    (regression check)."""
+    from alembic.config import Config
+    from alembic.script import ScriptDirectory
+
+    cfg = Config()
+    cfg.set_main_option("script_location", str(Path(migrate.__file__).resolve().parent / "migrations"))
+    script = ScriptDirectory.from_config(cfg)
+    revs = list(script.walk_revisions())
+    assert len(script.get_heads()) == 1
+    for rev in revs:
+        assert len(rev.revision) <= 32, rev.revision
+    assert [r.down_revision for r in revs if r.down_revision is None] == [None]
