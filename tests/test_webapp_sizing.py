@@ -57,7 +57,7 @@ def test_total_mass_and_envelope_on_the_page():
 
 
 def test_bad_envelope_is_a_message_next_to_the_form():
-    at = _advisor(timeout=120)
+    at = _advisor()
     at.text_input(key="adv_envelope").set_value("24 x 24 mm")
     at.button(key="adv_submit").click().run()
     assert not at.exception
