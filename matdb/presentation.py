@@ -874,8 +874,9 @@ def stations_df(result: dict) -> pd.DataFrame:
 # advisor page
 # ---------------------------------------------------------------------------
 
-ADVISOR_SHOWN = ["rank", "material", "grade", "arrangement", "thickness_mm", "feasible", "margin", "gap_mm",
-                 "gap_worst_mm", "derating_pct", "cost_usd", "score", "pareto", "reasons_text"]
+ADVISOR_SHOWN = ["rank", "material", "grade", "arrangement", "array_mm", "magnet_count", "plate_mm",
+                 "thickness_mm", "plate_g", "feasible", "margin", "gap_mm", "gap_worst_mm", "derating_pct",
+                 "cost_usd", "score", "pareto", "reasons_text"]
 
 
 def advisor_table(df: pd.DataFrame) -> pd.DataFrame:
@@ -883,6 +884,16 @@ def advisor_table(df: pd.DataFrame) -> pd.DataFrame:
     one sentence list (``reasons_text``); the other columns as they are."""
     out = df.copy()
     out["thickness_mm"] = out["thickness_m"] * 1e3
+    if "array_w_m" in out.columns:
+        out["array_mm"] = [" x ".join(f"{v * 1e3:.4g}" for v in t) for t in
+                           zip(out["array_w_m"], out["array_l_m"], out["array_h_m"])]
+    else:
+        out["array_mm"] = ""
+    if "magnet_count" not in out.columns:
+        out["magnet_count"] = [int(r) * int(c) for r, c in zip(out["rows"], out["cols"])]
+    out["plate_mm"] = [" x ".join(f"{v * 1e3:.4g}" for v in pm) if isinstance(pm, (list, tuple)) else ""
+                       for pm in out.get("plate_m", [None] * len(out))]
+    out["plate_g"] = pd.to_numeric(out.get("plate_mass_kg"), errors="coerce") * 1e3
     out["gap_mm"] = pd.to_numeric(out["gap_m"], errors="coerce") * 1e3
     out["gap_worst_mm"] = pd.to_numeric(out["gap_worst_m"], errors="coerce") * 1e3
     out["reasons_text"] = [
@@ -994,3 +1005,23 @@ def value_check_marks(rows: Sequence[dict], field: str = "value_published") -> l
         st = next((p["status"] for p in (r.get("provenance") or []) if p.get("field") == field), None)
         out.append(mark(st))
     return out
+
+
+def optimised_frame(rows: list[dict]) -> pd.DataFrame:
+    """Rows of :func:`matdb.synthesis.optimise` as a frame like the advisor's ranking
+    (column ``source``: catalogue start or sized)."""
+    clean = [{k: v for k, v in r.items() if k not in ("sizing", "levitate")} for r in rows]
+    df = pd.DataFrame(clean)
+    df["source"] = ["catalogue" if r.get("catalogue") else "sized" for r in rows]
+    return df
+
+
+def optimised_toml(result, index: int = 0) -> str:
+    """TOML text of one design of an optimiser result (the best by default)."""
+    from . import catalog
+    from .design import design_to_toml
+    from .synthesis import design_of
+
+    r = result.rows[index]
+    return design_to_toml(design_of(r["sizing"], result.request, catalog.get_material(r["material"]),
+                                    catalog.get_grade(r["grade"])))
