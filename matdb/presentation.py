@@ -30,6 +30,7 @@ import pandas as pd
 
 from . import catalog
 from .errors import InputError
+from .output import csv_text
 from .units import CONVENTIONS, G_STANDARD, MU0, chi_from_si_volume
 
 # ---------------------------------------------------------------------------
@@ -807,8 +808,7 @@ def schedule_csv(result: dict) -> str:
     """The schedule as CSV, SI columns (what ``matdb levitate --format csv`` prints)."""
     from .commands.physics import SCHEDULE_COLUMNS, schedule_records
 
-    return pd.DataFrame(schedule_records(result), columns=list(SCHEDULE_COLUMNS)).to_csv(
-        index=False, float_format="%.10g")
+    return csv_text(pd.DataFrame(schedule_records(result), columns=list(SCHEDULE_COLUMNS)), float_format="%.10g")
 
 
 def floating_designs_df(records: list) -> pd.DataFrame:
@@ -892,7 +892,7 @@ def ranking_csv(df: pd.DataFrame) -> str:
     for col in out.columns:
         if out[col].map(lambda v: isinstance(v, (list, tuple))).any():
             out[col] = out[col].map(lambda v: "; ".join(str(x) for x in v) if isinstance(v, (list, tuple)) else v)
-    return out.to_csv(index=False)
+    return csv_text(out)
 
 
 def candidate_label(row) -> str:

@@ -12,7 +12,7 @@ url = sh.db_url()
 try:
     grades = sh.magnets_df(url)
 except MatdbError as exc:
-    st.error(f"magnet grades: {exc}")
+    st.error(sh.plain(f"magnet grades: {exc}"))
     st.stop()
 
 all_grades = list(grades["grade"])
@@ -33,7 +33,7 @@ else:
     try:
         curves = sh.grade_curves(url, tuple(chosen), float(t_lo), float(t_hi))
     except MatdbError as exc:
-        st.error(f"temperature range: {exc}")
+        st.error(sh.plain(f"temperature range: {exc}"))
         curves = None
     if curves is not None:
         marks = presentation.grade_max_temp_marks(curves)
@@ -69,7 +69,7 @@ else:
             "diamagnet scales with B^2, so with Br^2. Diamonds and dotted rules: each grade's maximum working "
             "temperature; dashed line beyond it."
         )
-        st.download_button("Download curves (CSV, exact values)", curves.to_csv(index=False).encode(),
+        st.download_button("Download curves (CSV, exact values)", sh.csv_bytes(curves),
                            file_name="matdb-grade-curves.csv", mime="text/csv", key="curves_download")
 
 # ---- table ----------------------------------------------------------------
@@ -102,6 +102,6 @@ st.dataframe(
 )
 sh.status_legend()
 st.caption("Prices are illustrative, not quotes.")
-st.download_button("Download grades (CSV, exact values)", shown.to_csv(index=False).encode(),
+st.download_button("Download grades (CSV, exact values)", sh.csv_bytes(shown),
                    file_name="matdb-grades.csv", mime="text/csv", key="grades_download")
 sh.sources_expander(url, "grades_sources")

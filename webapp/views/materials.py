@@ -20,7 +20,7 @@ conv = st.selectbox(
 try:
     mats = sh.materials_table(conv, url)
 except MatdbError as exc:
-    st.error(f"materials: {exc}")
+    st.error(sh.plain(f"materials: {exc}"))
     st.stop()
 
 # ---- the levitation view -------------------------------------------------
@@ -101,9 +101,9 @@ if band is not None:
                 "peak_t2_m": st.column_config.NumberColumn("local peak (T^2/m)", format="%.0f"),
             }, key="reach_table")
 elif reach_msg:
-    st.info(reach_msg)
+    st.info(sh.plain(reach_msg))
 if len(para):
-    st.caption("Pulled towards magnets (paramagnetic, cannot float this way): " + ", ".join(para["name"]))
+    st.caption(sh.plain("Pulled towards magnets (paramagnetic, cannot float this way): " + ", ".join(para["name"])))
 
 # ---- table ---------------------------------------------------------------
 st.subheader("Properties")
@@ -150,7 +150,7 @@ st.dataframe(
 sh.status_legend()
 if conv in ("si-molar", "cgs-molar") and shown["chi_shown"].isna().any():
     st.caption("Empty molar values: the database holds no molar mass for that material (e.g. polymers).")
-st.download_button("Download this table (CSV, exact values)", shown.to_csv(index=False).encode(),
+st.download_button("Download this table (CSV, exact values)", sh.csv_bytes(shown),
                    file_name="matdb-materials.csv", mime="text/csv", key="mat_download")
 
 # ---- compare -------------------------------------------------------------
