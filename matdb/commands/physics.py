@@ -125,6 +125,50 @@ def _num(v, scale: float = 1.0, digits: int = 4, unit: str = "") -> str:
     return f"{s} {unit}".rstrip()
 
 
+def _point_mm(p) -> str:
+    if not p:
+        return "none found"
+    from ..levitate import _mm3
+
+    return f"({_mm3(p[0])}, {_mm3(p[1])}) mm"
+
+
+def _intervals_mm(iv) -> str:
+    if iv is None:
+        return "-"
+    from ..levitate import format_intervals
+
+    return format_intervals(iv)
+
+
+def _cold_hot_lines(r: dict) -> list[str]:
+    """The coldest and the hottest temperature side by side (nominal values)."""
+    cold, hot = r.get("cold"), r.get("hot")
+    if not cold or not hot:
+        return []
+
+    def head(s):
+        t = s["temperature_k"]
+        return f"{t - 273.15:.4g} C ({t:.5g} K)"
+
+    rows = [
+        ("", head(cold), head(hot)),
+        ("gap", _num(cold["gap_m"], 1e3, 4, "mm"), _num(hot["gap_m"], 1e3, 4, "mm")),
+        (f"margin at {_num(r.get('required_gap_m'), 1e3, 3, 'mm')}", _num(cold["margin"], 1, 3),
+         _num(hot["margin"], 1, 3)),
+        ("vertical stiffness k_z", _num(cold["k_z_n_m"], 1, 4, "N/m"), _num(hot["k_z_n_m"], 1, 4, "N/m")),
+        ("lateral stiffness k_x", _num(cold["k_x_n_m"], 1, 3, "N/m"), _num(hot["k_x_n_m"], 1, 3, "N/m")),
+        ("lateral stiffness k_y", _num(cold["k_y_n_m"], 1, 3, "N/m"), _num(hot["k_y_n_m"], 1, 3, "N/m")),
+    ]
+    w0 = max(len(a) for a, _, _ in rows)
+    w1 = max(len(b) for _, b, _ in rows)
+    out = ["", "coldest and hottest temperature (nominal Br and chi)"]
+    rows[0] = ("temperature", rows[0][1], rows[0][2])
+    w0 = max(w0, len("temperature"))
+    out += [f"{a.ljust(w0)}  {b.ljust(w1)}  {c}" for a, b, c in rows]
+    return out
+
+
 def format_levitate(r: dict) -> str:
     """The result of a plate levitate as text for a person (mm, g, Hz, N/m, mN)."""
     if r.get("mode") == "stabilized":
@@ -157,7 +201,8 @@ def format_levitate(r: dict) -> str:
         ("tilt stiffness pitch", _num(r.get("k_pitch_n_m_per_rad"), 1e3, 3, "mN m/rad")),
         ("tilt stiffness roll", _num(r.get("k_roll_n_m_per_rad"), 1e3, 3, "mN m/rad")),
         ("laterally stable", yes(r["laterally_stable"])),
-        ("largest stable square side", _num(r["stable_plate_side_max_m"], 1e3, 3, "mm")),
+        ("lateral equilibrium (x, y)", _point_mm(r.get("lateral_equilibrium_m"))),
+        ("stable square sides", _intervals_mm(r.get("stable_side_intervals_m"))),
         ("lift lost vs 20 C", _num(r["lift_derating_pct"], 1, 3, "%")
          + f"  (at {_num(r.get('derating_temperature_k'), 1, 4)} K = "
            f"{_num((r.get('derating_temperature_k') or 0) - 273.15, 1, 3)} C)"),
@@ -174,6 +219,7 @@ def format_levitate(r: dict) -> str:
     ]
     width = max(len(k) for k, _ in rows)
     lines = [f"{k.ljust(width)}  {v}" for k, v in rows]
+    lines += _cold_hot_lines(r)
     curve = r.get("lift_curve") or []
     if curve:
         lines.append("")
