@@ -30,6 +30,7 @@ import pandas as pd
 
 from . import catalog
 from .errors import InputError
+from .output import csv_text
 from .units import CONVENTIONS, G_STANDARD, MU0, chi_from_si_volume
 
 # ---------------------------------------------------------------------------
@@ -800,8 +801,7 @@ def schedule_csv(result: dict) -> str:
     """The schedule as CSV, SI columns (what ``matdb levitate --format csv`` prints)."""
     from .commands.physics import SCHEDULE_COLUMNS, schedule_records
 
-    return pd.DataFrame(schedule_records(result), columns=list(SCHEDULE_COLUMNS)).to_csv(
-        index=False, float_format="%.10g")
+    return csv_text(pd.DataFrame(schedule_records(result), columns=list(SCHEDULE_COLUMNS)), float_format="%.10g")
 
 
 def floating_designs_df(records: list) -> pd.DataFrame:
@@ -885,7 +885,7 @@ def ranking_csv(df: pd.DataFrame) -> str:
     for col in out.columns:
         if out[col].map(lambda v: isinstance(v, (list, tuple))).any():
             out[col] = out[col].map(lambda v: "; ".join(str(x) for x in v) if isinstance(v, (list, tuple)) else v)
-    return out.to_csv(index=False)
+    return csv_text(out)
 
 
 def candidate_label(row) -> str:
@@ -911,3 +911,40 @@ def stability_scan_df(rows: list[dict]) -> pd.DataFrame:
                          "gap_mm": pd.to_numeric(df["gap_m"], errors="coerce").astype(float) * 1e3,
                          "laterally_stable": df["laterally_stable"].astype(bool),
                          "is_design": df["is_design"].astype(bool)})
+
+
+# ---------------------------------------------------------------------------
+# provenance marks for page tables (issue 14)
+# ---------------------------------------------------------------------------
+def add_status_columns(df: pd.DataFrame, marks: dict[str, dict[str, str]], key: str,
+                       columns: dict[str, str]) -> tuple[pd.DataFrame, list[str]]:
+    """Insert after each value column a text column with its provenance mark.
+
+    ``marks[row[key]][field]`` is a status (verified, corrected, unverified, measured);
+    ``columns`` maps a table column to the field its mark comes from (e.g. ``chi_shown`` ->
+    ``chi_si``). Returns the new frame and the column order (each value followed by
+    ``<column>_check``). The mark is a letter (v, c, ?, m), never colour alone.
+    """
+    from .catalog import mark
+
+    out = df.copy()
+    order: list[str] = []
+    for c in df.columns:
+        order.append(c)
+        if c in columns:
+            f = columns[c]
+            out[f"{c}_check"] = [
+                (mark(marks.get(k, {}).get(f)) if v is not None and not (isinstance(v, float) and math.isnan(v))
+                 else "")
+                for k, v in zip(df[key], df[c])]
+            order.append(f"{c}_check")
+    return out, order
+
+
+def sources_table(url: str | None = None) -> pd.DataFrame:
+    """The bibliography with the number of stored values each supports, by status."""
+    from .catalog import sources_summary
+
+    rows = sources_summary(url=url)
+    return pd.DataFrame(rows, columns=["key", "kind", "year", "values", "verified", "corrected",
+                                       "unverified", "citation", "note"])
