@@ -2,7 +2,8 @@
 
     matdb optimise (--mass "0.2 g" | --total-mass "0.3 g") --footprint "20 x 20 mm"
         [--gap "0.5 mm"] [--temp-min "0 degC"] [--temp-max "50 degC"] [--budget "30 USD"]
-        [--magnet-envelope "24 x 24 x 15 mm"] [--objective margin|cost] [--min-margin 1.5]
+        [--magnet-envelope "24 x 24 x 15 mm"] [--objective margin|cost|noise] [--min-margin 1.5]
+        [--min-q 100] [--pressure "1e-3 Pa"]
         [--stock magnets.csv] [--top N] [--save best.toml] [--quiet] [--format table|json|csv]
     matdb optimise --floating-magnet ...   # the floating-magnet search (its own options)
 
@@ -53,9 +54,12 @@ def register(sub) -> None:
     p.add_argument("--total-mass", help="plate plus payload, e.g. '0.3 g' (the plate is sized to it)")
     p.add_argument("--footprint", help="plate outline the plate must fit in, e.g. '20 mm x 20 mm'")
     ADV.add_request_arguments(p, mass=False)
-    p.add_argument("--objective", choices=S.OBJECTIVES, default="margin",
+    p.add_argument("--objective", choices=[*S.OBJECTIVES, "noise"], default="margin",
                    help="margin: largest worst-case margin within the budget (default); cost: the "
-                   "cheapest design reaching --min-margin")
+                   "cheapest design reaching --min-margin; noise: the lowest noise floor (thermal "
+                   "acceleration noise of the vertical mode) among the margin designs")
+    p.add_argument("--min-q", help="drop designs whose vertical-mode Q is below this, e.g. 100")
+    p.add_argument("--pressure", help="gas pressure for the dynamics, e.g. '1e-3 Pa' (default 1 atm)")
     p.add_argument("--min-margin", type=float, default=None,
                    help="worst-case margin the cost objective must reach (default 1)")
     p.add_argument("--stock", metavar="MAGNETS.csv",
@@ -107,9 +111,25 @@ def cmd_optimise(args) -> int:
     stock = S.read_stock(args.stock) if args.stock else None
     from ..progress import progress_bar
 
+    dyn = args.objective == "noise" or args.min_q is not None
+    min_q = pressure = None
+    if dyn:
+        from ..units import parse_number
+        from .dynamics import parse_pressure
+
+        if args.min_q is not None:
+            min_q = parse_number(args.min_q, "--min-q")
+            if not (min_q > 0 and math.isfinite(min_q)):
+                raise InputError(f"--min-q: expected a positive quality factor, got {args.min_q!r}")
+        pressure = parse_pressure(args.pressure) if args.pressure else 101325.0
     with progress_bar("optimise", quiet=args.quiet) as prog:
-        result = S.optimise(req, objective=args.objective, min_margin=args.min_margin, stock=stock,
-                            top=args.top, progress=prog)
+        result = S.optimise(req, objective="margin" if args.objective == "noise" else args.objective,
+                            min_margin=args.min_margin, stock=stock, top=args.top, progress=prog)
+    if dyn:
+        from ..advisor_dynamics import rank_optimised
+
+        result = rank_optimised(result, objective="noise" if args.objective == "noise" else "margin",
+                                min_q=min_q, pressure_pa=pressure)
     path = None
     if args.save:
         path = S.save(result, args.save)
