@@ -61,7 +61,8 @@ from typing import Any, Sequence
 import numpy as np
 import pandas as pd
 
-from .errors import InputError, NotFoundError
+from . import limits as _limits
+from .errors import InputError
 from .units import G_STANDARD, MU0, parse_length, parse_mass, parse_quantity, parse_temperature
 
 CODE_VERSION = "advisor-1"
@@ -72,7 +73,7 @@ STANDARD_CUBES_M = (6.35e-3, 10e-3, 12.7e-3, 19.05e-3, 25.4e-3)
 STANDARD_CYLINDERS_M = ((10e-3, 5e-3), (12.7e-3, 6.35e-3), (20e-3, 10e-3))
 DEFAULT_THICKNESSES_M = (0.5e-3, 1e-3, 2e-3)
 DEFAULT_PATTERNS = ("checkerboard", "stripes")
-MAX_MAGNETS = 100  # default arrangements with more magnets are skipped (cost grows with count)
+MAX_MAGNETS = _limits.MAX_MAGNETS  # default arrangements with more magnets are skipped (cost grows with count)
 
 #: screening height grid [m]: 0.05 to 0.2 mm, 0.25 mm steps to 6 mm, then wider to 20 mm
 SCREEN_HEIGHTS_M = np.concatenate([[5e-5, 1e-4, 1.5e-4, 2e-4], np.arange(1, 25) * 2.5e-4,
@@ -659,13 +660,8 @@ def _select_grades(req: AdviceRequest, url=None):
         wanted = [catalog.get_grade(g, url).grade for g in req.grades]
         grades = [g for g in grades if g.grade in wanted]
     if req.families:
-        fams = {g.family.lower(): g.family for g in grades}
-        for f in req.families:
-            if f.lower() not in fams and not req.grades:
-                known = sorted({g.family for g in catalog.list_grades(url)})
-                raise NotFoundError(f"--family: unknown magnet family {f!r}; expected one of {', '.join(known)}")
-        want = {f.lower() for f in req.families}
-        grades = [g for g in grades if g.family.lower() in want]
+        want = {catalog.check_family(f, "--family") for f in req.families}
+        grades = [g for g in grades if g.family in want]
     if not grades:
         raise InputError("--grade/--family: no magnet grade matches the restrictions")
     return grades

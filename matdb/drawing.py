@@ -9,7 +9,7 @@ nominal balance and the schedule (lifter distance against payload).
 
 Layers (one per kind of thing, a contract for anyone post-processing the DXF):
 
-``PLATE``     the plate outline (and its slots and holes), nothing else
+``PLATE``     the plate outline with its slots and holes, nothing else
 ``MAGNETS``   one closed outline per magnet (a ring's bore is on ``MAGNET_BORES``)
 ``POLARITY``  the N/S marks
 ``BASE``      the base outline under the magnets
@@ -88,15 +88,26 @@ def _magnet_outline(msp, shape: str, size_mm, cx: float, cy: float, label: str) 
 
 
 def _plate_top_view(msp, design) -> None:
+    """The plate outline on PLATE: a circle or rectangle, or, with slots and holes, every
+    ring of the outline with them cut out (:func:`matdb.physics.dynamics.plate_outline`)."""
     p = design.plate
     cx, cy = _mm(p.center_m[0]), _mm(p.center_m[1])
-    if p.shape == "disc":
-        msp.add_circle((cx, cy), _mm(p.size[0]) / 2, dxfattribs={"layer": "PLATE"})
-    else:
-        hx, hy = _mm(p.size[0]) / 2, _mm(p.size[1]) / 2
-        _rect(msp, cx - hx, cy - hy, cx + hx, cy + hy, "PLATE")
-    for hole in getattr(p, "holes", ()) or ():  # slots and holes, once designs have them
-        msp.add_circle((_mm(hole[0]), _mm(hole[1])), _mm(hole[2]) / 2, dxfattribs={"layer": "PLATE"})
+    slots, holes = getattr(p, "slots", None), tuple(getattr(p, "holes", ()) or ())
+    if slots is None and not holes:
+        if p.shape == "disc":
+            msp.add_circle((cx, cy), _mm(p.size[0]) / 2, dxfattribs={"layer": "PLATE"})
+        else:
+            hx, hy = _mm(p.size[0]) / 2, _mm(p.size[1]) / 2
+            _rect(msp, cx - hx, cy - hy, cx + hx, cy + hy, "PLATE")
+        return
+    from .physics.dynamics import plate_outline
+
+    geom = plate_outline(p.shape, p.lx_m, p.ly_m, p.center_m[0], p.center_m[1], slots, holes)
+    polys = list(getattr(geom, "geoms", [geom]))
+    for poly in polys:
+        for ring in (poly.exterior, *poly.interiors):
+            pts = [(_mm(x), _mm(y)) for x, y in list(ring.coords)[:-1]]
+            msp.add_lwpolyline(pts, close=True, dxfattribs={"layer": "PLATE"})
 
 
 def plate_drawing(design, title: str = ""):

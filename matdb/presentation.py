@@ -30,6 +30,7 @@ import pandas as pd
 
 from . import catalog
 from .errors import InputError
+from .output import csv_text
 from .units import CONVENTIONS, G_STANDARD, MU0, chi_from_si_volume
 
 # ---------------------------------------------------------------------------
@@ -824,8 +825,29 @@ def schedule_csv(result: dict) -> str:
     """The schedule as CSV, SI columns (what ``matdb levitate --format csv`` prints)."""
     from .commands.physics import SCHEDULE_COLUMNS, schedule_records
 
-    return pd.DataFrame(schedule_records(result), columns=list(SCHEDULE_COLUMNS)).to_csv(
-        index=False, float_format="%.10g")
+    return csv_text(pd.DataFrame(schedule_records(result), columns=list(SCHEDULE_COLUMNS)), float_format="%.10g")
+
+
+def floating_designs_df(records: list) -> pd.DataFrame:
+    """Designs of the floating-magnet search for people: sizes in mm, window, travel and
+    step in mm/um, cost (illustrative), reasons as one sentence list."""
+    def sz(v):
+        return "x".join(f"{x * 1e3:.4g}" for x in v) + " mm"
+
+    rows = []
+    for r in records:
+        rows.append({
+            "rank": r.get("rank"), "feasible": bool(r.get("feasible")), "floaters": r.get("stations"),
+            "floater": f"{r['floater_shape']} {sz(r['floater_size_m'])} {r['floater_grade']}",
+            "lifter": f"{r['lifter_shape']} {sz(r['lifter_size_m'])} {r['lifter_grade']}",
+            "plates": f"{r['material']} {r['thickness_m'] * 1e3:.3g} mm",
+            "window_mm": None if r.get("window_min_m") is None else r["window_min_m"] * 1e3,
+            "travel_mm": None if r.get("lifter_travel_m") is None else r["lifter_travel_m"] * 1e3,
+            "step_um": None if r.get("resolution_m") is None else r["resolution_m"] * 1e6,
+            "cost_usd": r.get("cost_usd"),
+            "reasons": "; ".join(r.get("reasons") or []),
+        })
+    return pd.DataFrame(rows)
 
 
 def stations_df(result: dict) -> pd.DataFrame:
@@ -887,7 +909,7 @@ def ranking_csv(df: pd.DataFrame) -> str:
     for col in out.columns:
         if out[col].map(lambda v: isinstance(v, (list, tuple))).any():
             out[col] = out[col].map(lambda v: "; ".join(str(x) for x in v) if isinstance(v, (list, tuple)) else v)
-    return out.to_csv(index=False)
+    return csv_text(out)
 
 
 def candidate_label(row) -> str:
@@ -913,3 +935,40 @@ def stability_scan_df(rows: list[dict]) -> pd.DataFrame:
                          "gap_mm": pd.to_numeric(df["gap_m"], errors="coerce").astype(float) * 1e3,
                          "laterally_stable": df["laterally_stable"].astype(bool),
                          "is_design": df["is_design"].astype(bool)})
+
+
+# ---------------------------------------------------------------------------
+# provenance marks for page tables (issue 14)
+# ---------------------------------------------------------------------------
+def add_status_columns(df: pd.DataFrame, marks: dict[str, dict[str, str]], key: str,
+                       columns: dict[str, str]) -> tuple[pd.DataFrame, list[str]]:
+    """Insert after each value column a text column with its provenance mark.
+
+    ``marks[row[key]][field]`` is a status (verified, corrected, unverified, measured);
+    ``columns`` maps a table column to the field its mark comes from (e.g. ``chi_shown`` ->
+    ``chi_si``). Returns the new frame and the column order (each value followed by
+    ``<column>_check``). The mark is a letter (v, c, ?, m), never colour alone.
+    """
+    from .catalog import mark
+
+    out = df.copy()
+    order: list[str] = []
+    for c in df.columns:
+        order.append(c)
+        if c in columns:
+            f = columns[c]
+            out[f"{c}_check"] = [
+                (mark(marks.get(k, {}).get(f)) if v is not None and not (isinstance(v, float) and math.isnan(v))
+                 else "")
+                for k, v in zip(df[key], df[c])]
+            order.append(f"{c}_check")
+    return out, order
+
+
+def sources_table(url: str | None = None) -> pd.DataFrame:
+    """The bibliography with the number of stored values each supports, by status."""
+    from .catalog import sources_summary
+
+    rows = sources_summary(url=url)
+    return pd.DataFrame(rows, columns=["key", "kind", "year", "values", "verified", "corrected",
+                                       "unverified", "citation", "note"])

@@ -26,7 +26,7 @@ from pathlib import Path
 from typing import Any, Callable
 
 from . import __version__
-from .errors import InputError
+from .errors import InputError, PhysicsError
 
 PAPERS = ("A4", "Letter")
 CASES = ("coldest", "nominal", "hottest", "worst")
@@ -146,9 +146,9 @@ STABILIZED_LABELS = {
 
 # units of a key, from its suffix (the levitate JSON names every key after its SI unit)
 _SUFFIX_UNITS = (
-    ("_n_m_per_rad", "mN m/rad", 1e3), ("_um_per_k", "um/K", 1), ("_n_m", "N/m", 1), ("_hz", "Hz", 1),
+    ("_s_m", "S/m", 1), ("_n_m_per_rad", "mN m/rad", 1e3), ("_um_per_k", "um/K", 1), ("_n_m", "N/m", 1), ("_hz", "Hz", 1),
     ("_pct", "%", 1), ("_kg", "g", 1e3), ("_n", "mN", 1e3), ("_m", "mm", 1e3), ("_t", "T", 1),
-    ("_k", "degC", 1), ("_fraction", "", 1), ("_si", "", 1),
+    ("_k", "degC", 1), ("_fraction", "", 1), ("_si", "", 1), ("_s", "s", 1),
 )
 
 
@@ -182,11 +182,19 @@ def docstring_references(fn: Callable, _depth: int = 0) -> list[str]:
         text = " ".join(part.split())
         if not text:
             continue
-        see = re.match(r"See :func:`~?([\w.]+)`", text)
+        see = re.match(r"See :(func|mod):`~?([\w.]+)`", text)
         if see and _depth < 3:
-            target = see.group(1)
+            kind, target = see.groups()
             mod = inspect.getmodule(fn)
-            obj = getattr(mod, target.rpartition(".")[2], None) if mod else None
+            if kind == "mod":
+                import importlib
+
+                try:
+                    obj = importlib.import_module(target)
+                except ImportError:
+                    obj = None
+            else:
+                obj = getattr(mod, target.rpartition(".")[2], None) if mod else None
             if obj is not None:
                 refs.extend(docstring_references(obj, _depth + 1))
                 continue
@@ -279,10 +287,22 @@ def run_cases(design, levitate_fn=None) -> dict[str, dict]:
     from .levitate import levitate
 
     fn = levitate_fn or levitate
-    t_cold, _t_nom, t_hot = _temperatures(design)
+    return _three(design, fn)
+
+
+def _three(design, fn) -> dict[str, dict]:
+    """``fn(design)`` at the design's conditions and ``fn(design, temp_k=...)`` at its
+    coldest and hottest temperature (a case at the nominal temperature reuses it: the
+    result is the same)."""
+    t_cold, t_nom, t_hot = _temperatures(design)
     out = {"nominal": fn(design)}
-    out["coldest"] = fn(design, temp_k=t_cold)
-    out["hottest"] = out["coldest"] if t_hot == t_cold else fn(design, temp_k=t_hot)
+    out["coldest"] = out["nominal"] if t_cold == t_nom else fn(design, temp_k=t_cold)
+    if t_hot == t_nom:
+        out["hottest"] = out["nominal"]
+    elif t_hot == t_cold:
+        out["hottest"] = out["coldest"]
+    else:
+        out["hottest"] = fn(design, temp_k=t_hot)
     return out
 
 
@@ -406,17 +426,20 @@ def _provenance(design, url: str | None) -> list[dict]:
                   "note": in_use.get("note") or "", "status": in_use.get("status"),
                   "value_id": mp.value_id}
         if mp.anisotropic and mp.chi_perp_si is not None:
-            rows.append({**common, "property": "chi perpendicular (SI volume)", "value": fmt_number(mp.chi_perp_si),
+            rows.append({**common, "column": "chi_perp_si", "property": "chi perpendicular (SI volume)",
+                         "value": fmt_number(mp.chi_perp_si),
                          "uncertainty": "-" if mp.uncertainty_si is None else fmt_number(mp.uncertainty_si)})
-            rows.append({**common, "property": "chi parallel (SI volume)", "value": fmt_number(mp.chi_par_si),
+            rows.append({**common, "column": "chi_par_si", "property": "chi parallel (SI volume)",
+                         "value": fmt_number(mp.chi_par_si),
                          "uncertainty": "-" if mp.uncertainty_si is None else fmt_number(mp.uncertainty_si)})
         else:
-            rows.append({**common, "property": "chi (SI volume)", "value": fmt_number(mp.chi_si),
+            rows.append({**common, "column": "chi_si", "property": "chi (SI volume)", "value": fmt_number(mp.chi_si),
                          "uncertainty": "-" if mp.uncertainty_si is None else fmt_number(mp.uncertainty_si)})
         if mp.temp_coeff_per_k is not None:
-            rows.append({**common, "property": "temperature coefficient of |chi| (1/K)",
+            rows.append({**common, "column": "temp_coeff_per_k", "property": "temperature coefficient of |chi| (1/K)",
                          "value": fmt_number(mp.temp_coeff_per_k), "uncertainty": "-"})
-        rows.append({**common, "property": "density (kg/m^3)", "value": fmt_number(mp.density_kg_m3),
+        rows.append({**common, "column": "density_kg_m3", "property": "density (kg/m^3)",
+                     "value": fmt_number(mp.density_kg_m3),
                      "uncertainty": "-",
                      "kind": "handbook" if in_use.get("density_kg_m3") is None else common["kind"]})
     labels = {"br_t": ("Br (T)", 1), "br_min_t": ("Br, minimum (T)", 1), "hcj_ka_m": ("HcJ (kA/m)", 1),
@@ -432,27 +455,73 @@ def _provenance(design, url: str | None) -> list[dict]:
                 continue
             row_src = in_use if in_use.get(f) is not None else published
             br_min = (gp.br_min_t - gp.br_t) if f == "br_t" and gp.br_min_t is not None else None
-            rows.append({"item": gname, "property": label, "value": fmt_number(val),
+            rows.append({"item": gname, "column": f, "property": label, "value": fmt_number(val),
                          "kind": row_src.get("value_kind", gp.value_kind), "source": row_src.get("source", gp.source),
                          "date": row_src.get("date"), "note": row_src.get("note") or "",
                          "status": row_src.get("status"), "value_id": row_src.get("value_id"),
                          "uncertainty": ("-" if br_min is None else f"minimum {fmt_number(gp.br_min_t)} T")})
+    _status_marks(rows, set(mats), url)
     return rows
 
 
-def _dynamics(design) -> dict | None:
-    """The dynamics figures when :mod:`matdb.dynamics` is available (else None)."""
+def _status_marks(rows: list[dict], material_ids: set, url: str | None) -> None:
+    """The checked-against-source status of each number (verified, corrected, unverified,
+    measured) when the database keeps one (``catalog.status_marks``)."""
+    from . import catalog
+
+    fn = getattr(catalog, "status_marks", None)
+    if fn is None:
+        return
     try:
-        from . import dynamics  # type: ignore[attr-defined]
+        marks = fn(url)
+    except Exception:  # an older database without the provenance tables
+        return
+    for r in rows:
+        kind = "material" if r["item"] in material_ids else "magnet"
+        st = marks.get(kind, {}).get(r["item"], {}).get(r.get("column", ""))
+        if st:
+            r["status"] = st
+
+
+DYNAMICS_MODE_COLUMNS = (("frequency_hz", "frequency"), ("q", "Q"), ("q_eddy", "Q, eddy currents"),
+                         ("q_air", "Q, air"), ("ring_down_s", "ring-down time"),
+                         ("noise_micro_g_rthz", "thermal noise (micro-g/rtHz)"))
+
+
+def _dynamics(design) -> dict | None:
+    """Modes, damping, Q, ring-down and noise of a floating plate at the coldest, nominal
+    and hottest temperature, when :mod:`matdb.dynamics` is available (else None)."""
+    if getattr(design, "mode", "plate") != "plate":
+        return None
+    try:
+        from .dynamics import analyse_dynamics
     except ImportError:
         return None
-    fn = getattr(dynamics, "analyse_dynamics", None)
-    if fn is None:
-        return None
     try:
-        return fn(design)
-    except InputError as exc:
+        cases = _three(design, analyse_dynamics)
+    except (InputError, PhysicsError) as exc:
         return {"error": str(exc)}
+    tables = []
+    for case in ("coldest", "nominal", "hottest"):
+        r = cases[case]
+        head = ["mode", *(f"{lbl} ({u})" if (u := _suffix_unit(k)[0]) else lbl for k, lbl in DYNAMICS_MODE_COLUMNS),
+                "dominant damping"]
+        rows = []
+        for i, m in enumerate(r.get("modes") or []):
+            rows.append({"name": m.get("name", ""), "dominant": m.get("dominant_damping") or "",
+                         "cells": [cell(m.get(k), f"dynamics.modes.{i}.{k}", case, *_suffix_unit(k))
+                                   for k, _lbl in DYNAMICS_MODE_COLUMNS]})
+        scalars = [{"label": lbl, "cell": cell(r.get(k), f"dynamics.{k}", case, *_suffix_unit(k))}
+                   for k, lbl in (("pressure_pa", "gas pressure (Pa)"), ("mass_kg", "moving mass (g)"),
+                                  ("sigma_in_plane_s_m", "conductivity in plane (S/m)"),
+                                  ("sigma_across_s_m", "conductivity across (S/m)")) if k in r]
+        tables.append({"case": case, "head": head, "rows": rows, "scalars": scalars,
+                       "warnings": r.get("warnings") or []})
+    return {"tables": tables, "results": cases,
+            "refs": docstring_references(analyse_dynamics),
+            "method": "Rigid-body modes of K v = omega^2 M v; eddy-current damping from a P1 finite-element "
+                      "solution on the plate outline (slots and holes included), squeeze-film and shear air "
+                      "damping; Q = 1 / (2 zeta); Brownian acceleration noise sqrt(4 k_B T omega_0 / (m Q))."}
 
 
 def _charts_plate(design, result) -> list[dict]:
@@ -554,6 +623,7 @@ def build_report(text: str, *, source_name: str = "design.toml", url: str | None
         "safe_cell": cell(nom.get("safe_distance_m"), "safe_distance_m", "nominal", "cm", 1e2),
         "large": any("Strong magnets" in w for w in nom.get("warnings", [])),
         "provenance": _provenance(design, url),
+        "provenance_notes": [],
         "bom": _bom(design, url),
         "tables": [],
         "charts": [],
@@ -582,9 +652,24 @@ def build_report(text: str, *, source_name: str = "design.toml", url: str | None
             ctx["tables"].append({"title": "Stations (nominal temperature)",
                                   **_records_table(nom["stations"], "stations", scols)})
     _number_references(ctx)
+    _number_notes(ctx)
     if charts:
         ctx["charts"] = _charts_plate(design, nom) if mode == "plate" else _charts_stabilized(nom)
     return ctx
+
+
+def _number_notes(ctx: dict) -> None:
+    """Each value row's note once, numbered; the provenance rows point to it."""
+    notes: list[str] = []
+    for p in ctx["provenance"]:
+        n = p.get("note") or ""
+        if n:
+            if n not in notes:
+                notes.append(n)
+            p["note_number"] = notes.index(n) + 1
+        else:
+            p["note_number"] = None
+    ctx["provenance_notes"] = notes
 
 
 def _number_references(ctx: dict) -> None:
@@ -597,6 +682,12 @@ def _number_references(ctx: dict) -> None:
                 refs.append(r)
             nums.append(refs.index(r) + 1)
         f["ref_numbers"] = nums
+    dyn = ctx.get("dynamics")
+    if dyn and dyn.get("refs"):
+        for r in dyn["refs"]:
+            if r not in refs:
+                refs.append(r)
+        dyn["ref_numbers"] = [refs.index(r) + 1 for r in dyn["refs"]]
     ctx["references"] = refs
 
 

@@ -162,3 +162,23 @@ def test_cli_drawing_writes_dxf(tmp_path, run_cli):
     code, _o, _e = run_cli("drawing", str(REPO_EXAMPLES / "plate_checkerboard_2x2.toml"), "-o", str(out))
     assert code == 0
     assert len(_layer(ezdxf.readfile(out), "MAGNETS")) == 4
+
+
+def test_slotted_plate_outline(tmp_path):
+    """examples/plate_slotted_10mm.toml: a 10 mm square with six 0.2 mm x 8.5 mm slots cut
+    from alternate edges; the outline keeps the 10 mm extent and loses the slots' area."""
+    import numpy as np
+
+    doc = _read(tmp_path, "plate_slotted_10mm.toml")
+    plate = _layer(doc, "PLATE")
+    ext = bbox.extents(plate)
+    assert abs(ext.size.x - 10.0) < UM_IN_MM and abs(ext.size.y - 10.0) < UM_IN_MM
+
+    def area(e):  # shoelace formula
+        xy = np.array([(p[0], p[1]) for p in e.get_points("xy")])
+        x, y = xy[:, 0], xy[:, 1]
+        return 0.5 * abs(np.dot(x, np.roll(y, -1)) - np.dot(y, np.roll(x, -1)))
+
+    outer = max(plate, key=area)
+    holes = sum(area(e) for e in plate if e is not outer)
+    assert area(outer) - holes == pytest.approx(10 * 10 - 6 * 0.2 * 8.5, abs=1e-6)

@@ -428,3 +428,14 @@ def test_advisor_lowest_noise_floor_and_minimum_q():
     assert top["noise_m_s2_rthz"] < pg["noise_m_s2_rthz"]
     recs = A.records(df)
     assert recs[0]["dynamics_exact"] is True and recs[0]["q_vertical"] > 100
+
+
+def test_large_magnets_bring_the_strong_magnet_cautions():
+    """Large magnets (a 30 mm cube here) carry the pinching/shattering/implant cautions
+    (common practice, no source)."""
+    doc = tomllib.loads(DEMO.read_text())
+    doc["magnets"].update({"size": ["30 mm", "30 mm", "15 mm"]})
+    doc["plate"]["size"] = ["20 mm", "20 mm", "0.5 mm"]
+    r = analyse_dynamics(parse_design(doc), pressure_pa=1e-3)
+    text = " ".join(r["warnings"]).lower()
+    assert "pacemaker" in text or "implant" in text

@@ -8,6 +8,7 @@
 from __future__ import annotations
 
 import csv
+import io
 import math
 import re
 import sys
@@ -16,6 +17,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import InputError
+from ..limits import MAX_FILE_BYTES, MAX_POINTS, check_count, check_magnitude, read_text_limited
 from ..output import add_format_argument, emit, to_json
 from ..units import parse_length, parse_number, parse_quantity, parse_temperature
 
@@ -47,19 +49,18 @@ def parse_point(text: str, field: str = "--at") -> tuple[float, float, float]:
 
 def read_points_csv(path: str) -> np.ndarray:
     """Points from a CSV file with columns ``x_m,y_m,z_m`` (metres) -> (n, 3)."""
-    p = Path(path)
+    text = read_text_limited(Path(path), "--points", MAX_FILE_BYTES)
+    reader = csv.DictReader(io.StringIO(text, newline=""))
     try:
-        fh = p.open(newline="", encoding="utf-8")
-    except OSError as exc:
-        raise InputError(f"--points: cannot read {path!r}: {exc.strerror or exc}") from exc
-    with fh:
-        reader = csv.DictReader(fh)
         cols = [c.strip() for c in (reader.fieldnames or [])]
-        missing = [c for c in ("x_m", "y_m", "z_m") if c not in cols]
-        if missing:
-            raise InputError(f"{path}: line 1: missing column(s) {', '.join(missing)}; "
-                             "expected a header x_m,y_m,z_m")
-        rows = []
+    except csv.Error as exc:
+        raise InputError(f"{path}: line 1: unreadable CSV ({exc})") from None
+    missing = [c for c in ("x_m", "y_m", "z_m") if c not in cols]
+    if missing:
+        raise InputError(f"{path}: line 1: missing column(s) {', '.join(missing)}; "
+                         "expected a header x_m,y_m,z_m")
+    rows = []
+    try:
         for row in reader:
             line = reader.line_num
             row = {(k or "").strip(): v for k, v in row.items()}
@@ -69,7 +70,11 @@ def read_points_csv(path: str) -> np.ndarray:
                 if v is None or str(v).strip() == "":
                     raise InputError(f"{path}: line {line}, column {c}: missing value")
                 vals.append(parse_number(str(v).strip(), f"{path}: line {line}, column {c}"))
+                check_magnitude(vals[-1], "m", f"{path}: line {line}, column {c}", v)
             rows.append(vals)
+            check_count(len(rows), MAX_POINTS, "--points", "points")
+    except csv.Error as exc:
+        raise InputError(f"{path}: line {reader.line_num}: unreadable CSV ({exc})") from None
     if not rows:
         raise InputError(f"{path}: no points (expected rows under the header x_m,y_m,z_m)")
     return np.asarray(rows, dtype=float)
@@ -99,8 +104,11 @@ def cmd_field(args) -> int:
         pts.extend(map(tuple, read_points_csv(args.points)))
     if not pts:
         raise InputError("--at: give at least one point (--at '0,0,1 mm') or --points FILE.csv")
+    check_count(len(pts), MAX_POINTS, "--at/--points", "points")
     temp = parse_temperature(args.temp, "--temp") if args.temp else None
-    design = _load(args.design)
+    from ..design import load_design
+
+    design = load_design(args.design, need_plate=False)  # a field needs only the magnets
     emit(field_records(design, np.asarray(pts, dtype=float), temp), args.format,
          columns=list(FIELD_COLUMNS))
     return 0

@@ -524,6 +524,9 @@ def lifter_hessian(lifter: Body, floater: Body) -> dict:
 # ---------------------------------------------------------------------------
 # finite-size model of the plates
 # ---------------------------------------------------------------------------
+_TABLES: dict = {}  # FinitePlates tables by floater, chi, gap range and width (thickness-free)
+
+
 def _axis_edges(features, g: float, far: float) -> np.ndarray:
     """Panel edges on [0, far) graded towards the lateral features (rims, edges)."""
     L = max(features)
@@ -692,15 +695,40 @@ class FinitePlates:
         vals = (self._weighted(self.floater.B(pts)).reshape(4, w.size)) @ w
         return float((vals[0] - 8 * vals[1] + 8 * vals[2] - vals[3]) / (12 * d))
 
+    def plane_slope_parts(self, s) -> np.ndarray:
+        """``d/ds`` of the plane integrals of ``B_z^2`` and of ``B_x^2 + B_y^2`` at heights
+        ``s`` (unweighted by chi) [T^2 m], shape (n, 2); five-point differences on fixed
+        nodes, as :meth:`plane_integral_slope`."""
+        out = []
+        for si in np.atleast_1d(np.asarray(s, dtype=float)):
+            xy, w = self._plane_nodes(float(si))
+            d = 1e-3 * (si - self.h2)
+            zs = si + d * np.array([-2.0, -1.0, 1.0, 2.0])
+            pts = np.concatenate([np.column_stack([xy, np.full(w.size, z)]) for z in zs])
+            b = self.floater.B(pts)
+            parts = np.column_stack([b[:, 2] ** 2, b[:, 0] ** 2 + b[:, 1] ** 2]).reshape(4, w.size, 2)
+            vals = np.einsum("ikj,k->ij", parts, w)
+            out.append((vals[0] - 8 * vals[1] + 8 * vals[2] - vals[3]) / (12 * d))
+        return np.asarray(out)
+
     def _slope_dipole(self, s):
         m = self.floater.moment
         return -0.5 * (self.wz + self.wh) * 6 * math.pi * _C**2 * m**2 * np.asarray(s, dtype=float) ** -5
 
     def _build(self):
+        key = (self.floater.shape, tuple(self.floater.size), float(self.floater.j_t), self.wz, self.wh,
+               self.g_lo, self.g_hi, self.width)
+        hit = _TABLES.get(key)
+        if hit is not None:  # the same plates around the same floater: same table
+            self._spline, self._ratio_hi = hit
+            return
         g = np.geomspace(self.g_lo, self.g_hi, 40)
         ratio = np.array([self.plane_integral_slope(self.h2 + gi) for gi in g]) / self._slope_dipole(self.h2 + g)
         self._spline = CubicSpline(np.log(g), ratio)
         self._ratio_hi = float(ratio[-1])
+        if len(_TABLES) > 256:
+            _TABLES.clear()
+        _TABLES[key] = (self._spline, self._ratio_hi)
 
     def slope(self, s) -> np.ndarray:
         """``dP/ds`` [T^2 m] at heights ``s``, tabulated (exact below the table)."""
@@ -1552,6 +1580,14 @@ def levitate_stabilized(design, temp_k: Optional[float] = None, n_window: int = 
                 bodies.append(m.lifter_at(r["lifter_distance_m"]).at(
                     off + [0, 0, r["lifter_distance_m"] + m.lifter0.half_height]))
     result["window_min_m"] = window_min(result["window"])
+    if result["window_min_m"] is None:
+        lo_p = float(min(r["payload_kg"] for r in result["window"]))
+        hi_p = float(max(r["payload_kg"] for r in result["window"]))
+        warnings.append(
+            "some payload has no stable plate distance; 'matdb optimise --floating-magnet "
+            f"--payload-range \"{lo_p * 1e3:.3g} g..{hi_p * 1e3:.3g} g\"' searches floater and lifter sizes, "
+            "grades, plate materials and thicknesses and two or three floaters sharing the load"
+        )
     if payloads is not None:
         result["payload_range_kg"] = [float(payloads.min()), float(payloads.max())]
     result["resolution_shift_m"] = _f(resolution_m)

@@ -69,29 +69,29 @@ if bad:
 try:
     request = advisor.parse_request(**{k: v for k, v in params.items() if k != "top"})
 except MatdbError as exc:
-    st.error(f"payload form: {exc}")
+    st.error(sh.plain(f"payload form: {exc}"))
     st.stop()
 
 key = tuple(sorted(params.items()))
 try:
     ranked = sh.run_with_progress(sh.advise, key, url, label="Ranking every plate material, grade and arrangement:")
 except MatdbError as exc:
-    st.error(f"advisor: {exc}")
+    st.error(sh.plain(f"advisor: {exc}"))
     st.stop()
 
 if ranked.empty:
     st.warning("No candidates match these restrictions.")
     st.stop()
 table = presentation.advisor_table(ranked)
-st.caption(f"Ranked for {params['mass']} over {params['footprint']}, gap at least {params['min_gap']}, "
-           f"{params['temp_min']} to {params['temp_max']}"
-           + (f", budget {params['budget']}" if params["budget"] else "") + f"; best {int(top)} shown.")
+st.caption(sh.plain(f"Ranked for {params['mass']} over {params['footprint']}, gap at least {params['min_gap']}, "
+                    f"{params['temp_min']} to {params['temp_max']}"
+                    + (f", budget {params['budget']}" if params["budget"] else "") + f"; best {int(top)} shown."))
 n_ok = int(table["feasible"].sum())
 if n_ok == 0:
     st.warning("No candidate floats this payload in the worst case; the reasons are in the table.")
 else:
     best = table.iloc[0]
-    st.success(f"{n_ok} feasible candidate(s). Best: {presentation.candidate_label(best)}.")
+    st.success(sh.plain(f"{n_ok} feasible candidate(s). Best: {presentation.candidate_label(best)}."))
 
 # ---- Pareto chart -------------------------------------------------------------
 st.subheader("Cost against worst-case margin")
@@ -156,7 +156,7 @@ row = ranked[ranked["rank"] == choice].iloc[0].to_dict()
 with sh.shown_errors("candidate design"):
     toml_text = presentation.candidate_toml(row, request)
     if row.get("reasons"):
-        st.warning("Rejected: " + "; ".join(row["reasons"]) + ".")
+        st.warning(sh.plain("Rejected: " + "; ".join(row["reasons"]) + "."))
     big = max(row["size_m"]) > LARGE_MAGNET_M or (row.get("magnet_mass_kg") or 0) > LARGE_MAGNET_MASS_KG
     if big:
         st.warning(SAFETY_TEXT.replace("\n", "  \n"))
