@@ -605,7 +605,9 @@ class GeometryData:
             from .physics import thermal as TH
 
             knee = TH.KNEE_FRACTION["NdFeB"][0]
-            r = TH.demag_check(self.unit, 1.0, 0.0, "NdFeB", [T20_K])
+            # the idealised (rigid) magnets: their reverse field is a little larger than
+            # on the recoil line, so the check errs on the safe side (as levitate's)
+            r = TH.demag_check(self.spec.build(1.0), 1.0, 0.0, "NdFeB", [T20_K])
             self.hmax = float(r.worst_ratio * knee)
             self.dirty = True
         return self.hmax

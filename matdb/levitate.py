@@ -160,7 +160,9 @@ def levitate_plate(design: PlateDesign, temp_k: float | None = None,
     mat = plate_spec.material_props
     warnings: list[str] = []
 
-    arr20 = design.arrangement()
+    # irreversible-loss check on the idealised magnets (a slightly larger reverse field
+    # than on the recoil line: the check errs on the safe side)
+    arr20 = design.arrangement(rigid=True)
     arr = design.arrangement(t_op)
     geom0 = plate_geometry(design, arr)
     chi_perp, chi_par = _chi_at(design, t_op)
