@@ -323,6 +323,9 @@ class Arrangement:
         if all(c == 0 for c in chis):
             return self
         J = effective_polarizations(self.magnets, chis, self.bottom_z if self.back_plate else None)
+        # components at rounding level (symmetry makes them zero) are zero: the field code
+        # then skips the terms of those components, as for the rigid magnets
+        J = np.where(np.abs(J) < 1e-12 * np.abs(J).max(axis=1, keepdims=True), 0.0, J)
         mags = []
         for m, j in zip(self.magnets, J):
             n = float(np.linalg.norm(j))
