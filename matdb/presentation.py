@@ -206,10 +206,12 @@ def filter_materials(df: pd.DataFrame, text: str = "", diamagnets_only: bool = F
     return out.reset_index(drop=True)
 
 
-def compare_materials(df: pd.DataFrame, ids: Sequence[str], rounded: bool = False) -> pd.DataFrame:
+def compare_materials(df: pd.DataFrame, ids: Sequence[str], rounded: bool = False,
+                      marks: dict[str, dict[str, str]] | None = None) -> pd.DataFrame:
     """Side-by-side view: one column per chosen material, one row per property (units in
     the row names). ``rounded`` turns numbers into short strings for people (4
-    significant digits; susceptibilities in exponent form)."""
+    significant digits; susceptibilities in exponent form); with ``marks`` (from
+    :func:`matdb.catalog.status_marks`) each stored value is followed by its status mark."""
     unknown = [i for i in ids if i not in set(df["id"])]
     if unknown:
         raise InputError(f"compare: unknown material id(s) {', '.join(unknown)}")
@@ -229,9 +231,14 @@ def compare_materials(df: pd.DataFrame, ids: Sequence[str], rounded: bool = Fals
         sub = sub.assign(required_t2_m=[levitation_requirement(c, r) for c, r in zip(sub["chi_si"], sub["density_kg_m3"])])
     table = sub[list(fields)].T.astype(object)
     if rounded:
+        from .catalog import mark
+
         for key in table.index:
-            table.loc[key] = [_human(v, sci=key.startswith("chi") or key == "abs_chi_per_density")
-                              for v in table.loc[key]]
+            vals = [_human(v, sci=key.startswith("chi") or key == "abs_chi_per_density") for v in table.loc[key]]
+            if marks is not None and key in ("chi_si", "chi_perp_si", "chi_par_si", "density_kg_m3"):
+                vals = [f"{v} {mark(marks.get(i, {}).get(key))}" if v not in ("", "-") else v
+                        for v, i in zip(vals, table.columns)]
+            table.loc[key] = vals
     table.index = [fields[k] for k in table.index]
     return table
 
@@ -867,8 +874,9 @@ def stations_df(result: dict) -> pd.DataFrame:
 # advisor page
 # ---------------------------------------------------------------------------
 
-ADVISOR_SHOWN = ["rank", "material", "grade", "arrangement", "thickness_mm", "feasible", "margin", "gap_mm",
-                 "gap_worst_mm", "derating_pct", "cost_usd", "score", "pareto", "reasons_text"]
+ADVISOR_SHOWN = ["rank", "material", "grade", "arrangement", "array_mm", "magnet_count", "plate_mm",
+                 "thickness_mm", "plate_g", "feasible", "margin", "gap_mm", "gap_worst_mm", "derating_pct",
+                 "cost_usd", "score", "pareto", "reasons_text"]
 
 
 def advisor_table(df: pd.DataFrame) -> pd.DataFrame:
@@ -876,6 +884,16 @@ def advisor_table(df: pd.DataFrame) -> pd.DataFrame:
     one sentence list (``reasons_text``); the other columns as they are."""
     out = df.copy()
     out["thickness_mm"] = out["thickness_m"] * 1e3
+    if "array_w_m" in out.columns:
+        out["array_mm"] = [" x ".join(f"{v * 1e3:.4g}" for v in t) for t in
+                           zip(out["array_w_m"], out["array_l_m"], out["array_h_m"])]
+    else:
+        out["array_mm"] = ""
+    if "magnet_count" not in out.columns:
+        out["magnet_count"] = [int(r) * int(c) for r, c in zip(out["rows"], out["cols"])]
+    out["plate_mm"] = [" x ".join(f"{v * 1e3:.4g}" for v in pm) if isinstance(pm, (list, tuple)) else ""
+                       for pm in out.get("plate_m", [None] * len(out))]
+    out["plate_g"] = pd.to_numeric(out.get("plate_mass_kg"), errors="coerce") * 1e3
     out["gap_mm"] = pd.to_numeric(out["gap_m"], errors="coerce") * 1e3
     out["gap_worst_mm"] = pd.to_numeric(out["gap_worst_m"], errors="coerce") * 1e3
     out["reasons_text"] = [
@@ -972,3 +990,38 @@ def sources_table(url: str | None = None) -> pd.DataFrame:
     rows = sources_summary(url=url)
     return pd.DataFrame(rows, columns=["key", "kind", "year", "values", "verified", "corrected",
                                        "unverified", "citation", "note"])
+
+
+def value_check_marks(rows: Sequence[dict], field: str = "value_published") -> list[str]:
+    """Status mark of one number in each value row of :func:`matdb.labvalues.history`
+    (``m`` for a lab measurement)."""
+    from .catalog import mark
+
+    out = []
+    for r in rows:
+        if r.get("value_kind") == "measured":
+            out.append("m")
+            continue
+        st = next((p["status"] for p in (r.get("provenance") or []) if p.get("field") == field), None)
+        out.append(mark(st))
+    return out
+
+
+def optimised_frame(rows: list[dict]) -> pd.DataFrame:
+    """Rows of :func:`matdb.synthesis.optimise` as a frame like the advisor's ranking
+    (column ``source``: catalogue start or sized)."""
+    clean = [{k: v for k, v in r.items() if k not in ("sizing", "levitate")} for r in rows]
+    df = pd.DataFrame(clean)
+    df["source"] = ["catalogue" if r.get("catalogue") else "sized" for r in rows]
+    return df
+
+
+def optimised_toml(result, index: int = 0) -> str:
+    """TOML text of one design of an optimiser result (the best by default)."""
+    from . import catalog
+    from .design import design_to_toml
+    from .synthesis import design_of
+
+    r = result.rows[index]
+    return design_to_toml(design_of(r["sizing"], result.request, catalog.get_material(r["material"]),
+                                    catalog.get_grade(r["grade"])))

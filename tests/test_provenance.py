@@ -160,3 +160,16 @@ def test_page_tables_show_a_status_mark_beside_each_value():
     mats = next(d.value for d in at.dataframe if "chi_shown_check" in d.value.columns)
     row = mats.set_index("id").loc["antimony"]
     assert row["chi_shown_check"] == "v"
+
+
+def test_compare_and_lab_tables_carry_the_marks_too():
+    from matdb import catalog, presentation
+
+    mats = presentation.materials_table("si-volume")
+    table = presentation.compare_materials(mats, ["antimony", "pmma"], rounded=True, marks=catalog.status_marks()["material"])
+    chi = table.loc["chi, SI volume"]
+    assert chi["antimony"].endswith(" v") and chi["pmma"].endswith(" ?")
+    from matdb import labvalues
+
+    rows = labvalues.history("antimony")
+    assert presentation.value_check_marks(rows) == ["v"]

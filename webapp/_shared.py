@@ -131,7 +131,7 @@ def sources_expander(url: str, key: str) -> None:
         try:
             src = sources_table(url)
         except MatdbError as exc:
-            st.error(f"sources: {exc}")
+            st.error(plain(f"sources: {exc}"))
             return
         tot = src[["verified", "corrected", "unverified"]].sum()
         n = int(tot.sum())
@@ -299,3 +299,36 @@ def pressure_sweep(text: str, url: str):
     from matdb.dynamics import pressure_sweep_df
 
     return pressure_sweep_df(load_design_text(text), prep=dynamics_prep(text, url))
+
+
+def _optimise(key: tuple, url: str, progress=None):
+    from matdb import advisor, synthesis
+
+    params, objective, min_margin = key
+    kw = {k: v for k, v in dict(params).items() if k not in ("top", "weights")}
+    req = advisor.parse_request(**kw)
+    return synthesis.optimise(req, objective=objective, min_margin=min_margin, url=url, top=3,
+                              progress=progress)
+
+
+#: Optimiser results for one set of form values.
+optimise = _Memo(lambda key, url: _optimise(key, url, _OPT_PROGRESS.get("cb")), 4)
+_OPT_PROGRESS: dict = {}
+
+
+def run_optimise(key: tuple, url: str, label: str = "Sizing:"):
+    """:func:`matdb.synthesis.optimise` under a progress bar (no bar for a cached answer)."""
+    if optimise.cached(key, url):
+        return optimise(key, url)
+    slot = st.empty()
+    bar = slot.progress(0.0, text=label)
+
+    def report(fraction: float, text: str) -> None:
+        bar.progress(min(max(fraction, 0.0), 1.0), text=f"{label} {text}")
+
+    _OPT_PROGRESS["cb"] = report
+    try:
+        return optimise(key, url)
+    finally:
+        _OPT_PROGRESS.pop("cb", None)
+        slot.empty()

@@ -217,7 +217,7 @@ def _print_provenance(own: list[dict], values: list[dict], props: list[dict]) ->
                                max_width=200))
     if props:
         print("\nfurther properties:")
-        emit([{"property": f"{p['property']} ({p['axis']})", "value": f"{p['value_si']:.4g} {p['unit_si']}",
+        emit([{"property": f"{p['property']} ({p['axis']})", "value": f"{p['value_published']:g} {p['unit_published']}",
                "status": f"{catalog.mark(p['status'])} {p['status']}", "source_key": p["source_key"],
                "locator": p["locator"] or "-"} for p in props], "table",
              ["property", "value", "status", "source_key", "locator"])

@@ -5,6 +5,7 @@ import altair as alt
 import pandas as pd
 import streamlit as st
 
+from matdb import presentation
 from matdb.errors import MatdbError
 from webapp import _shared as sh
 
@@ -53,9 +54,12 @@ dots = base.mark_point(filled=True, size=120).encode(
              alt.Tooltip("uncertainty:Q", title="uncertainty", format=".2e"), "status:N", "source:N"])
 st.altair_chart(alt.layer(bars, dots).properties(height=240), width="stretch")
 st.caption("Bars: stated uncertainty. Nothing is ever deleted: retracted values stay, greyed.")
-cols = [c for c in ("value_id", "value_kind", "chi_si", "chi_par_si", "uncertainty", "temperature_c", "source",
-                    "measured_by", "date", "method", "preferred", "retracted", "retract_reason") if c in hist.columns]
+hist["chi_si_check"] = presentation.value_check_marks(hist.to_dict("records"))
+cols = [c for c in ("value_id", "value_kind", "chi_si", "chi_si_check", "chi_par_si", "uncertainty", "temperature_c",
+                    "source", "measured_by", "date", "method", "preferred", "retracted", "retract_reason")
+        if c in hist.columns]
 st.dataframe(hist[cols], hide_index=True, key="lab_history", column_config={
+    **sh.check_column_config(["chi_si"]),
     "value_id": "value id",
     "value_kind": "value kind",
     "chi_si": st.column_config.NumberColumn("chi (SI volume)", format="%.4e"),

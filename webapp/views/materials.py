@@ -160,7 +160,7 @@ picked = st.multiselect("Materials to compare side by side", list(mats["id"]), k
 if picked:
     with sh.shown_errors("compare"):
         st.dataframe(presentation.compare_materials(mats.merge(need[["id", "required_t2_m"]], on="id"), picked,
-                                                      rounded=True),
+                                                      rounded=True, marks=sh.status_marks(url)["material"]),
                      key="compare_table")
 
 sh.sources_expander(url, "materials_sources")
