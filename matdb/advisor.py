@@ -493,7 +493,7 @@ def _physics_fingerprint() -> str:
     if _FINGERPRINT is None:
         h = hashlib.sha256(CODE_VERSION.encode())
         here = Path(__file__).resolve().parent / "physics"
-        for name in ("fields.py", "arrangement.py", "plate.py", "thermal.py"):
+        for name in ("fields.py", "arrangement.py", "plate.py", "thermal.py", "recoil.py"):
             try:
                 h.update((here / name).read_bytes())
             except OSError:
@@ -523,19 +523,22 @@ class GeometryData:
     * ``curves``: memo of per-thickness quantities from the exact path (keyed by text).
     """
 
-    def __init__(self, spec: ArrangementSpec, plate_m: tuple[float, float]):
+    def __init__(self, spec: ArrangementSpec, plate_m: tuple[float, float],
+                 chi_rec: float = 0.0):
         from .physics import plate as P
 
         self.spec = spec
         self.plate_m = (float(plate_m[0]), float(plate_m[1]))
-        self.unit = spec.build(1.0)
+        self.chi_rec = float(chi_rec)
+        # unit remanence, each magnet on its recoil line (linear in Br: scaled later)
+        self.unit = spec.build(1.0).with_recoil([self.chi_rec] * spec.count)
         bx, by = P.edge_lines(self.unit.magnets)
         self.breaks = (bx, by)
         self.geom = P.PlateGeometry("rectangle", self.plate_m[0], self.plate_m[1], 1e-3, 0.0, 0.0, bx, by)
         key = {"v": CODE_VERSION, "arr": spec.key(), "plate": [repr(v) for v in self.plate_m],
                "exact_order": EXACT_ORDER, "screen": [SCREEN_ORDER, repr(SCREEN_RULE_FLOOR_M),
                                                       repr(LATERAL_STEP_M), TILT_ORDER],
-               "physics": _physics_fingerprint()}
+               "physics": _physics_fingerprint(), "chi_rec": repr(self.chi_rec)}
         self.key = hashlib.sha256(json.dumps(key, sort_keys=True).encode()).hexdigest()[:24]
         self.stores: dict[str, dict[int, tuple]] = {"exact": {}, "coarse": {}, "lateral": {}}
         self.hmax: float | None = None
@@ -700,7 +703,9 @@ class GeometryData:
             from .physics import thermal as TH
 
             knee = TH.KNEE_FRACTION["NdFeB"][0]
-            r = TH.demag_check(self.unit, 1.0, 0.0, "NdFeB", [T20_K])
+            # the idealised (rigid) magnets: their reverse field is a little larger than
+            # on the recoil line, so the check errs on the safe side (as levitate's)
+            r = TH.demag_check(self.spec.build(1.0), 1.0, 0.0, "NdFeB", [T20_K])
             self.hmax = float(r.worst_ratio * knee)
             self.dirty = True
         return self.hmax
@@ -709,12 +714,24 @@ class GeometryData:
 _GEOMETRIES: dict[tuple, GeometryData] = {}
 
 
-def geometry(spec: ArrangementSpec, plate_m: tuple[float, float]) -> GeometryData:
-    """The (memory-cached) :class:`GeometryData` of ``spec`` under a plate of ``plate_m``."""
-    k = (spec, float(plate_m[0]), float(plate_m[1]))
+SCREEN_CHI_REC = 0.05  # recoil susceptibility of the screening integrals (sintered NdFeB)
+
+
+def grade_chi_rec(grade) -> float:
+    """``mu_rec - 1`` of a grade (0 when the table has no mu_rec)."""
+    mu = getattr(grade, "mu_rec", None)
+    return 0.0 if mu is None else float(mu) - 1.0
+
+
+def geometry(spec: ArrangementSpec, plate_m: tuple[float, float],
+             chi_rec: float = SCREEN_CHI_REC) -> GeometryData:
+    """The (memory-cached) :class:`GeometryData` of ``spec`` under a plate of ``plate_m``,
+    magnets of recoil susceptibility ``chi_rec`` (screening: :data:`SCREEN_CHI_REC` for
+    every grade; the exact path: the grade's own)."""
+    k = (spec, float(plate_m[0]), float(plate_m[1]), float(chi_rec))
     g = _GEOMETRIES.get(k)
     if g is None:
-        g = GeometryData(spec, plate_m)
+        g = GeometryData(spec, plate_m, chi_rec)
         _GEOMETRIES[k] = g
     return g
 
@@ -1289,7 +1306,7 @@ def exact_evaluation(row: dict, req: AdviceRequest, cat: _Catalogue, *, side: bo
     mat = cat.mats[int(row["mat_index"])]
     grade = cat.grades[int(row["grade_index"])]
     spec = cat.specs[int(row["spec_index"])]
-    g = geometry(spec, req.plate_m)
+    g = geometry(spec, req.plate_m, grade_chi_rec(grade))
     t = float(row["thickness_m"])
     lx, ly = req.plate_m
     geom = P.PlateGeometry("rectangle", lx, ly, t, 0.0, 0.0, *g.breaks)
@@ -1589,9 +1606,8 @@ def _rank_locked(req: AdviceRequest, cat: _Catalogue, polish: int, tilt_rows: in
                 df.at[i, k] = v
         _refresh_flags(df, todo, req)
         df = _sort(df)
-    for s in cat.specs:
-        for p in req.plates:
-            geometry(s, p).save()
+    for g in list(_GEOMETRIES.values()):  # every plate and recoil susceptibility used
+        g.save()
     # the Pareto front over feasible candidates
     feas = df["feasible"].to_numpy(dtype=bool)
     par = np.zeros(len(df), dtype=bool)

@@ -29,7 +29,7 @@ from .units import parse_chi, parse_length, parse_mass, parse_number, parse_temp
 T20_K = 293.15
 
 MAGNET_KEYS = {"shape", "size", "grade", "br", "pattern", "rows", "cols", "spacing",
-               "back_plate", "cover", "item"}
+               "back_plate", "cover", "item", "rigid"}
 ITEM_KEYS = {"position", "direction", "size", "shape", "grade", "br"}
 PLATE_KEYS = {"material", "shape", "size", "chi", "chi_perp", "chi_par", "payload",
               "payload_height", "min_gap", "center", "sigma_in_plane", "sigma_across",
@@ -84,6 +84,7 @@ class MagnetSpec:
     cover_m: float
     items: tuple[MagnetItem, ...] = ()
     grades: dict = field(default_factory=dict, compare=False, repr=False)
+    rigid: bool = False  # True: polarisation exactly Br (no recoil permeability)
 
     @property
     def grade_props(self):
@@ -218,7 +219,19 @@ class PlateDesign:
             return float(b20)
         return float(br_at(b20, g.alpha_br_pct_per_k, temp_k))
 
-    def arrangement(self, temp_k: float | None = None, worst: bool = False):
+    def recoil_chis(self, arrangement) -> list[float]:
+        """Recoil susceptibility ``mu_rec - 1`` of each magnet (0 when the grade has no
+        ``mu_rec``, or for a rigid design)."""
+        if self.magnets.rigid:
+            return [0.0] * arrangement.count
+        out = []
+        for m in arrangement.magnets:
+            mu = self.magnets.grades[m.grade or self.magnets.grade].mu_rec
+            out.append(0.0 if mu is None else float(mu) - 1.0)
+        return out
+
+    def arrangement(self, temp_k: float | None = None, worst: bool = False,
+                    rigid: bool | None = None):
         """The magnet arrangement (top faces at z = 0).
 
         Parameters
@@ -228,6 +241,11 @@ class PlateDesign:
             grade's reversible coefficient.
         worst : bool
             Use the grade's minimum-spec Br (scaled by any ``br`` override).
+        rigid : bool, optional
+            True: polarisation exactly Br (the idealised model); False: each magnet on
+            its recoil line, ``mu_rec`` of its grade
+            (:meth:`matdb.physics.arrangement.Arrangement.with_recoil`). Default: the
+            design's ``[magnets] rigid`` (false unless set).
         """
         from .physics.arrangement import build_arrangement
 
@@ -246,13 +264,16 @@ class PlateDesign:
                 if it.size is not None:
                     d["size"] = it.size
                 items.append(d)
-        return build_arrangement(m.shape, m.size, m.pattern, m.rows, m.cols, m.spacing_m,
-                                 br=self._br(None, m.br_t, temp_k, worst),
-                                 back_plate=m.back_plate, items=items, grade=m.grade)
+        arr = build_arrangement(m.shape, m.size, m.pattern, m.rows, m.cols, m.spacing_m,
+                                br=self._br(None, m.br_t, temp_k, worst),
+                                back_plate=m.back_plate, items=items, grade=m.grade)
+        if rigid if rigid is not None else m.rigid:
+            return arr
+        return arr.with_recoil(self.recoil_chis(arr))
 
     def magnet_mass_kg(self) -> float:
         """Total magnet mass from the grades' densities [kg]."""
-        arr = self.arrangement()
+        arr = self.arrangement(rigid=True)
         total = 0.0
         for mag in arr.magnets:
             total += mag.volume * self.magnets.grades[mag.grade or self.magnets.grade].density_kg_m3
@@ -410,8 +431,9 @@ def _parse_magnets(t: Any) -> MagnetSpec:
             items.append(MagnetItem(pos, dvec, ishape, isize, igrade, ibr))
     elif "item" in t:
         raise InputError("magnets.item: only used with pattern = \"list\"")
+    rigid = _bool(t.get("rigid", False), "magnets.rigid")
     return MagnetSpec(shape, size, grade, br, pattern, rows, cols, spacing, back, cover,
-                      tuple(items), grades)
+                      tuple(items), grades, rigid)
 
 
 def _parse_plate(t: Any) -> PlateSpec:
@@ -635,6 +657,8 @@ def design_to_toml(design: PlateDesign) -> str:
         mags["br"] = f"{m.br_t!r} T"
     mags.update({"pattern": m.pattern, "rows": m.rows, "cols": m.cols,
                  "spacing": _mm(m.spacing_m), "back_plate": m.back_plate, "cover": _mm(m.cover_m)})
+    if m.rigid:
+        mags["rigid"] = True
     if m.items:
         items = []
         for it in m.items:

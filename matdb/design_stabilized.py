@@ -78,7 +78,7 @@ _SIZE_FORM = {
 }
 _TOP_KEYS = {"lifter", "floater", "plates", "station", "payload", "conditions", "name", "description",
              "payload_range"}
-_MAGNET_KEYS = {"shape", "size", "grade", "br"}
+_MAGNET_KEYS = {"shape", "size", "grade", "br", "rigid"}
 _FLOATER_KEYS = _MAGNET_KEYS | {"payload"}
 _PLATES_KEYS = {"material", "chi", "chi_perp", "chi_par", "thickness", "distance", "clearance", "width"}
 _STATION_KEYS = {"x", "y", "lifter", "floater", "plates", "name"}
@@ -121,6 +121,21 @@ class MagnetSpec:
     br_min_t: Optional[float]
     alpha_br_pct_per_k: float
     density_kg_m3: float
+    mu_rec: Optional[float] = None
+    rigid: bool = False
+
+    @property
+    def recoil_factor(self) -> float:
+        """Polarisation over remanence of this magnet on its own recoil line (its own
+        demagnetising field, :mod:`matdb.physics.recoil`); 1 for a rigid magnet or a
+        grade without ``mu_rec``. The lifter's field at the floater (tens of mT) changes
+        the floater's polarisation by ``chi_rec`` times that, below 0.1 %, and is left out."""
+        if self.rigid or self.mu_rec is None or self.mu_rec == 1.0:
+            return 1.0
+        from .physics.arrangement import build_arrangement
+
+        arr = build_arrangement(self.shape, self.size, "single", br=1.0)
+        return float(arr.with_recoil([self.mu_rec - 1.0]).magnets[0].br)
 
     @property
     def height(self) -> float:
@@ -310,6 +325,9 @@ def _parse_magnet(t: dict, key: str, allowed: set) -> tuple[MagnetSpec, float]:
     else:
         br = float(g.br_t)
     payload = parse_mass(t["payload"], f"{key}.payload") if "payload" in t else 0.0
+    rigid = t.get("rigid", False)
+    if not isinstance(rigid, bool):
+        raise InputError(f"{key}.rigid: expected true or false, got {rigid!r}")
     spec = MagnetSpec(
         shape=shape,
         size=tuple(size),
@@ -319,6 +337,8 @@ def _parse_magnet(t: dict, key: str, allowed: set) -> tuple[MagnetSpec, float]:
         br_min_t=None if g.br_min_t is None else float(g.br_min_t),
         alpha_br_pct_per_k=float(g.alpha_br_pct_per_k),
         density_kg_m3=float(g.density_kg_m3),
+        mu_rec=None if g.mu_rec is None else float(g.mu_rec),
+        rigid=rigid,
     )
     return spec, payload
 
@@ -555,6 +575,8 @@ def _magnet_table(m: MagnetSpec, payload_kg: Optional[float] = None) -> dict:
         t["br"] = f"{m.br_t:.12g} T"
     if payload_kg:
         t["payload"] = f"{payload_kg * 1e3:.12g} g"
+    if m.rigid:
+        t["rigid"] = True
     return t
 
 

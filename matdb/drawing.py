@@ -114,7 +114,7 @@ def plate_drawing(design, title: str = ""):
     """The DXF document of a floating-plate design (sheet 1, top view)."""
     doc = _new_doc()
     msp = doc.modelspace()
-    arr = design.arrangement()
+    arr = design.arrangement(rigid=True)  # geometry only
     xs0, xs1, ys0, ys1 = [], [], [], []
     for m in arr.magnets:
         x, y = _mm(m.position[0]), _mm(m.position[1])

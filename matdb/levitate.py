@@ -160,7 +160,9 @@ def levitate_plate(design: PlateDesign, temp_k: float | None = None,
     mat = plate_spec.material_props
     warnings: list[str] = []
 
-    arr20 = design.arrangement()
+    # irreversible-loss check on the idealised magnets (a slightly larger reverse field
+    # than on the recoil line: the check errs on the safe side)
+    arr20 = design.arrangement(rigid=True)
     arr = design.arrangement(t_op)
     geom0 = plate_geometry(design, arr)
     chi_perp, chi_par = _chi_at(design, t_op)
@@ -338,7 +340,8 @@ def levitate_plate(design: PlateDesign, temp_k: float | None = None,
     out["material"] = mat.id
     out["grade"] = grade.grade
     out["br_t"] = float(design._br20(None, mags.br_t))
-    out["br_at_temperature_t"] = abs(float(arr.magnets[0].br))
+    out["br_at_temperature_t"] = float(design._br(None, mags.br_t, t_op, False))
+    out["rigid"] = bool(mags.rigid)
     out["chi_perp_si"] = -chi_perp
     out["chi_par_si"] = -chi_par
     out["chi_value_kind"] = "override" if plate_spec.overridden else mat.value_kind

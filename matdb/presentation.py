@@ -685,7 +685,7 @@ def bill_of_materials(design, url: str | None = None) -> pd.DataFrame:
     """Magnets by shape, size and grade with counts, and the plate: ``item``, ``size``,
     ``grade_or_material``, ``count``, ``mass_g``, ``price_usd_per_kg``,
     ``cost_usd`` (illustrative unless the price row says otherwise), ``illustrative``."""
-    arr = design.arrangement()
+    arr = design.arrangement(rigid=True)  # geometry and grades only
     groups: dict[tuple, dict] = {}
     for m in arr.magnets:
         grade_name = m.grade or design.magnets.grade

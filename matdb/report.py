@@ -538,7 +538,7 @@ def _charts_plate(design, result) -> list[dict]:
     p = design.plate
     extent = (p.size[0], p.size[1] if p.shape == "rectangle" else p.size[0])
     fmap = presentation.field_map_df(design.arrangement(result.get("temperature_k")), gap, extent, n=REPORT_MAP_N)
-    pol = presentation.polarity_df(design.arrangement())
+    pol = presentation.polarity_df(design.arrangement(rigid=True))
     out.append({"title": "|B| over the footprint and the polarity layout",
                 "caption": f"Left: |B| at {gap * 1e3:.3g} mm above the magnets, plate outline dashed. "
                            "Right: top view, N = north pole up, S = north pole down.",

@@ -259,9 +259,14 @@ def test_back_plate_equals_a_magnet_of_twice_the_height(tmp_path):
         f = tmp_path / f"d{bp}.toml"
         f.write_text(text.format(h=h, bp=bp))
         d = load_design(f)
+        arr = d.arrangement(rigid=True)
+        forces.append(P.lift_force(arr.B, plate_geometry(d, arr), [3e-4, 1e-3], 4.5e-4, 8.5e-5))
+        # with recoil permeability (the default) the images polarise the magnets as the
+        # lower half of the taller magnet would: equal to the volume rule's accuracy
         arr = d.arrangement()
         forces.append(P.lift_force(arr.B, plate_geometry(d, arr), [3e-4, 1e-3], 4.5e-4, 8.5e-5))
-    np.testing.assert_allclose(forces[0], forces[1], rtol=1e-9)
+    np.testing.assert_allclose(forces[0], forces[2], rtol=1e-9)
+    np.testing.assert_allclose(forces[1], forces[3], rtol=2e-4)
 
 
 def test_demag_check_covers_coldest_and_hottest(tmp_path):

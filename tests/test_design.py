@@ -70,7 +70,7 @@ def test_arrangement_follows_the_conventions():
     # DEVELOPERS.md conventions: top faces at z = 0, (row 0, col 0) at -x, -y is +z,
     # checkerboard sign (-1)^(row+col); Br of the grade (seed_data/magnet_grades.csv)
     d = load_design_text(BASE)
-    arr = d.arrangement()
+    arr = d.arrangement(rigid=True)  # Br itself: the idealised model
     assert arr.count == 4
     assert arr.top_z == pytest.approx(0.0, abs=1e-15)
     first = min(arr.magnets, key=lambda m: (m.position[1], m.position[0]))
@@ -85,7 +85,7 @@ def test_br_override_and_temperature():
     d = parse_design(doc)
     assert d.magnets.br_t == pytest.approx(1.45)
     alpha = d.magnets.grade_props.alpha_br_pct_per_k
-    hot = d.arrangement(333.15)
+    hot = d.arrangement(333.15, rigid=True)
     assert hot.magnets[0].br == pytest.approx(1.45 * (1 + alpha / 100 * 40))
 
 
@@ -129,7 +129,7 @@ def test_list_pattern():
          "size": ["10 mm", "10 mm", "8 mm"]},
     ]
     d = parse_design(doc)
-    arr = d.arrangement()
+    arr = d.arrangement(rigid=True)
     assert arr.count == 2
     assert arr.top_z == pytest.approx(0.0, abs=1e-15)
     assert sorted(m.br for m in arr.magnets) == sorted(

@@ -22,6 +22,19 @@ REPO = Path(__file__).resolve().parent.parent
 EXAMPLE = REPO / "examples" / "floating_magnet.toml"
 TWO = REPO / "examples" / "floating_magnet_two_stations.toml"
 THREE = REPO / "examples" / "floating_magnet_three_stations.toml"
+
+
+def _rigid_doc(path):
+    """The example with ``rigid = true`` on every magnet: the idealised model these
+    tests compare with magpylib."""
+    doc = tomllib.loads(path.read_text())
+    tables = [doc.get("lifter"), doc.get("floater")]
+    for st in doc.get("station", []):
+        tables += [st.get("lifter"), st.get("floater")]
+    for t in tables:
+        if isinstance(t, dict):
+            t["rigid"] = True
+    return doc
 C = MU0 / (4 * math.pi)
 
 
@@ -290,7 +303,7 @@ def test_lifter_tilt_terms_tend_to_the_dipole_values():
 def demo():
     from matdb.design_stabilized import parse_stabilized
 
-    return parse_stabilized(tomllib.loads(EXAMPLE.read_text()), source=str(EXAMPLE))
+    return parse_stabilized(_rigid_doc(EXAMPLE), source=str(EXAMPLE))
 
 
 @pytest.fixture(scope="module")
@@ -405,7 +418,7 @@ def test_two_station_demo_shares_and_tilt(tmp_path):
     # the heavier share set closer to its lifter (common practice, no source)
     from matdb.design_stabilized import parse_stabilized
 
-    d = parse_stabilized(tomllib.loads(TWO.read_text()))
+    d = parse_stabilized(_rigid_doc(TWO))
     r = S.levitate_stabilized(d)
     left, right = r["stations"]
     assert right["share_fraction"] == pytest.approx(35 / 60)
@@ -433,7 +446,7 @@ def test_centred_identical_stations_share_equally():
     # symmetry of statics: identical stations under a centred payload share equally
     from matdb.design_stabilized import parse_stabilized
 
-    doc = tomllib.loads(TWO.read_text())
+    doc = _rigid_doc(TWO)
     doc["payload"]["centre_of_mass"] = ["0 mm", "0 mm"]
     r = S.levitate_stabilized(parse_stabilized(doc))
     a, b = r["stations"]
@@ -448,7 +461,7 @@ def test_three_station_disc_shares_and_tilt_mode():
     # the floaters only adds to it (pendulum)
     from matdb.design_stabilized import parse_stabilized
 
-    d = parse_stabilized(tomllib.loads(THREE.read_text()))
+    d = parse_stabilized(_rigid_doc(THREE))
     r = S.levitate_stabilized(d)
     assert [s["share_fraction"] for s in r["stations"]] == pytest.approx([1 / 3] * 3, rel=1e-5)
     assert all(s["stable"] for s in r["stations"])

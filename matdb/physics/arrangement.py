@@ -309,6 +309,29 @@ class Arrangement:
         mags = tuple(replace(m, br=m.br * f) for m in self.magnets)
         return Arrangement(mags, self.back_plate, self.pattern, self.rows, self.cols)
 
+    def with_recoil(self, chis: Sequence[float]) -> "Arrangement":
+        """The magnets on their recoil lines: each magnet's uniform polarisation from
+        :func:`matdb.physics.recoil.effective_polarizations` with recoil susceptibility
+        ``chis[i] = mu_rec - 1`` (its own and its neighbours' demagnetising fields, images
+        in the back plate included). ``br`` and ``direction`` of the returned magnets are
+        the magnitude and direction of that polarisation. All zeros: ``self``."""
+        from .recoil import effective_polarizations
+
+        chis = [_float(c, "mu_rec") for c in chis]
+        if len(chis) != self.count:
+            raise InputError(f"mu_rec: expected {self.count} values, got {len(chis)}")
+        if all(c == 0 for c in chis):
+            return self
+        J = effective_polarizations(self.magnets, chis, self.bottom_z if self.back_plate else None)
+        # components at rounding level (symmetry makes them zero) are zero: the field code
+        # then skips the terms of those components, as for the rigid magnets
+        J = np.where(np.abs(J) < 1e-12 * np.abs(J).max(axis=1, keepdims=True), 0.0, J)
+        mags = []
+        for m, j in zip(self.magnets, J):
+            n = float(np.linalg.norm(j))
+            mags.append(replace(m, direction=tuple(float(c) / n for c in j), br=n) if n > 0 else m)
+        return Arrangement(tuple(mags), self.back_plate, self.pattern, self.rows, self.cols)
+
     def with_unit_polarization(self) -> "Arrangement":
         """Every |br| = 1 T, magnetisation directions kept (sign of br kept)."""
         mags = tuple(replace(m, br=-1.0 if m.br < 0 else 1.0) for m in self.magnets)

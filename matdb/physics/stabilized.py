@@ -953,11 +953,17 @@ class StationModel:
         return {**hz, "kappa_plates": kp, "kappa_plates_dipole": kd}
 
 
+def _recoil(spec) -> float:
+    """:attr:`matdb.design_stabilized.MagnetSpec.recoil_factor` (1 for other specs)."""
+    return float(getattr(spec, "recoil_factor", 1.0))
+
+
 def _station_model(st, temp_k: float) -> StationModel:
     from .thermal import br_at, chi_at
 
-    bl = float(br_at(st.lifter.br_t, st.lifter.alpha_br_pct_per_k, temp_k))
-    bf = float(br_at(st.floater.br_t, st.floater.alpha_br_pct_per_k, temp_k))
+    # polarisation on the recoil line (mu_rec of the grade) unless the design says rigid
+    bl = float(br_at(st.lifter.br_t, st.lifter.alpha_br_pct_per_k, temp_k)) * _recoil(st.lifter)
+    bf = float(br_at(st.floater.br_t, st.floater.alpha_br_pct_per_k, temp_k)) * _recoil(st.floater)
     cp = float(chi_at(st.plates.chi_perp, st.plates.temp_coeff_per_k, temp_k))
     cq = float(chi_at(st.plates.chi_par, st.plates.temp_coeff_per_k, temp_k))
     lifter = Body(st.lifter.shape, tuple(st.lifter.size), bl)
