@@ -61,7 +61,8 @@ from typing import Any, Sequence
 import numpy as np
 import pandas as pd
 
-from .errors import InputError, NotFoundError
+from . import limits as _limits
+from .errors import InputError
 from .units import G_STANDARD, MU0, parse_length, parse_mass, parse_quantity, parse_temperature
 
 CODE_VERSION = "advisor-1"
@@ -72,7 +73,7 @@ STANDARD_CUBES_M = (6.35e-3, 10e-3, 12.7e-3, 19.05e-3, 25.4e-3)
 STANDARD_CYLINDERS_M = ((10e-3, 5e-3), (12.7e-3, 6.35e-3), (20e-3, 10e-3))
 DEFAULT_THICKNESSES_M = (0.5e-3, 1e-3, 2e-3)
 DEFAULT_PATTERNS = ("checkerboard", "stripes")
-MAX_MAGNETS = 100  # default arrangements with more magnets are skipped (cost grows with count)
+MAX_MAGNETS = _limits.MAX_MAGNETS  # default arrangements with more magnets are skipped (cost grows with count)
 MIN_PLATE_THICKNESS_M = 5e-5  # thinnest plate proposed when the thickness is matched to a total mass
 MAX_PLATE_THICKNESS_M = 5e-3  # thickest plate proposed when the thickness is matched to a total mass
 #: with a total mass and no fixed plate, plates of these fractions of the footprint are ranked
@@ -742,13 +743,8 @@ def _select_grades(req: AdviceRequest, url=None):
         wanted = [catalog.get_grade(g, url).grade for g in req.grades]
         grades = [g for g in grades if g.grade in wanted]
     if req.families:
-        fams = {g.family.lower(): g.family for g in grades}
-        for f in req.families:
-            if f.lower() not in fams and not req.grades:
-                known = sorted({g.family for g in catalog.list_grades(url)})
-                raise NotFoundError(f"--family: unknown magnet family {f!r}; expected one of {', '.join(known)}")
-        want = {f.lower() for f in req.families}
-        grades = [g for g in grades if g.family.lower() in want]
+        want = {catalog.check_family(f, "--family") for f in req.families}
+        grades = [g for g in grades if g.family in want]
     if not grades:
         raise InputError("--grade/--family: no magnet grade matches the restrictions")
     return grades
@@ -1134,6 +1130,7 @@ def _evaluate(req: AdviceRequest, cat: _Catalogue) -> pd.DataFrame:
         "cost_usd": cost, "price_illustrative": illus, "over_budget": over_budget,
         "score": score, "exact": np.zeros(n, dtype=bool),
         "stable_plate_side_max_m": np.full(n, np.nan), "tilt_stable": np.ones(n, dtype=bool),
+        "stable_sides_text": np.full(n, "", dtype=object),
         "tilt_checked": np.zeros(n, dtype=bool),
     })
     return df
@@ -1148,6 +1145,13 @@ def _c(t_k: float) -> str:
 
 def _mm(v: float) -> str:
     return f"{v * 1e3:.3g} mm"
+
+
+def _intervals_text(iv) -> str:
+    """Stable side intervals [m] in words ("none" when empty)."""
+    from .levitate import format_intervals
+
+    return "stable sides: " + format_intervals(iv)
 
 
 def envelope_reason(spec: ArrangementSpec, envelope_m) -> str:
@@ -1196,11 +1200,10 @@ def reasons_for(row: dict, req: AdviceRequest, cat: _Catalogue) -> tuple[list[st
             reasons.append(f"irreversible loss of magnetisation: the reverse field reaches {rtxt} "
                            f"the knee at {_c(row['demag_temp_k'])}{why}")
         if math.isfinite(row["gap_m"]) and not row["laterally_stable"]:
-            side = row.get("stable_plate_side_max_m")
-            w = max(req.plate_m)
-            if side is not None and math.isfinite(side) and side < w:
-                reasons.append(f"the plate ({_mm(w)} wide) is wider than the largest laterally "
-                               f"stable side over this arrangement, {_mm(side)}")
+            sides = row.get("stable_sides_text")
+            if isinstance(sides, str) and sides:
+                reasons.append(f"the plate side {_mm(max(req.plate_m))} is in no stable interval "
+                               f"of square sides over this arrangement ({sides})")
             kx, ky = row["k_x_n_m"], row["k_y_n_m"]
             if not (kx > 0 and ky > 0):
                 reasons.append(f"laterally unstable: it slides off the magnets (k_x = {kx:.3g} N/m, "
@@ -1330,12 +1333,14 @@ def exact_evaluation(row: dict, req: AdviceRequest, cat: _Catalogue, *, side: bo
         stable = st.laterally_stable
         tilt_ok = st.k_pitch > 0 and st.k_roll > 0
         if side and not stable and geom.is_square:
+            # where a square plate would be stable: the intervals of sides judged at their
+            # lateral equilibrium (the plate's own side is in none of them: not stable)
             ext = g.unit.bounds()
             size = max(ext[1] - ext[0], ext[3] - ext[2])
-            s_side = P.stable_side_max(g.unit.B, geom, a * br_op ** 2, b * br_op ** 2,
-                                       mat.density_kg_m3, size, payload,
-                                       req.payload_height_m, g_start)
-            out["stable_plate_side_max_m"] = np.nan if s_side is None else float(s_side)
+            iv = P.stable_side_intervals(g.unit.B, geom, a * br_op ** 2, b * br_op ** 2,
+                                         mat.density_kg_m3, size, payload,
+                                         req.payload_height_m, g_start, known={lx: False})
+            out["stable_sides_text"] = _intervals_text(iv)
     out.update({"k_z_n_m": kz, "f_z_hz": fz, "k_x_n_m": kx, "k_y_n_m": ky,
                 "k_tilt_n_m_per_rad": kt, "laterally_stable": bool(stable), "tilt_stable": tilt_ok})
     # worst case

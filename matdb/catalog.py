@@ -94,6 +94,22 @@ class GradeProps:
     source: str
 
 
+def check_family(name, field: str = "--family") -> str:
+    """The family name as matdb spells it (any case accepted); an unknown one is refused.
+
+    Every command and page that takes a magnet family goes through here, so each refuses
+    the same names with the same one line listing the families.
+    """
+    from .models import FAMILIES
+
+    text = str(name if name is not None else "").strip()
+    for f in FAMILIES:
+        if f.lower() == text.lower():
+            return f
+    raise NotFoundError(f"{field}: unknown magnet family {text!r}; expected one of {', '.join(FAMILIES)}"
+                        + _close(text, FAMILIES))
+
+
 def _close(name: str, choices: Iterable[str]) -> str:
     near = difflib.get_close_matches(name, list(choices), n=3, cutoff=0.5)
     return f"; did you mean {', '.join(near)}?" if near else ""

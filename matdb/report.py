@@ -94,10 +94,12 @@ PLATE_FIGURES = _figs([
      "Rigid-body stiffness matrix (reported, not part of the verdict).", f"{_PLATE}.stability"),
     ("laterally_stable", "laterally stable", "yes/no", 1, "k_x, k_y, pitch, roll > 0 and the coupled "
      "(x, pitch) and (y, roll) blocks positive definite.", f"{_PLATE}.stability"),
-    ("stable_plate_side_max_m", "largest stable square side", "mm", 1e3,
-     "Scan of square sides, then bisection at the first unstable one.", f"{_PLATE}.stable_side_max"),
+    ("stable_plate_side_max_m", "upper end of the stable side interval holding this plate", "mm", 1e3,
+     "Scan of square sides, each judged at its lateral equilibrium near the centre; bisection "
+     "at every change of verdict.", f"{_PLATE}.stable_side_intervals"),
     ("lateral_force_n", "sideways force at the given position", "mN", 1e3,
-     "Horizontal generalised force at the equilibrium.", f"{_PLATE}.generalized_forces_split"),
+     "Side-face integral of the energy density at the position the design gives.",
+     f"{_PLATE}.lateral_force"),
     ("lift_derating_pct", "lift lost against 20 C", "%", 1, "(Br(T)/Br(20 C))^2 and chi(T)/chi(20 C), "
      "linear temperature coefficients.", f"{_TH}.lift_factor"),
     ("derating_temperature_k", "temperature of the derating figure", "degC", 1, "Hottest temperature "

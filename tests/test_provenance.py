@@ -132,3 +132,44 @@ def test_properties_give_both_axes_of_graphite_with_sources(run_cli, fresh_db):
     assert par["status"] == "verified" and par["locator"]
     code, _, err = run_cli("properties", "unobtainium")
     assert code == 2 and "id:" in err
+
+
+def test_page_tables_show_a_status_mark_beside_each_value():
+    # Issue 14: the page shows each value's status beside it, as a letter, not colour alone.
+    pytest.importorskip("streamlit")
+    from pathlib import Path
+
+    from streamlit.testing.v1 import AppTest
+
+    app = str(Path(__file__).resolve().parent.parent / "webapp" / "app.py")
+    at = AppTest.from_file(app, default_timeout=120).run()
+    assert not at.exception
+    at.switch_page("views/magnets.py").run()
+    assert not at.exception
+    grades = next(d.value for d in at.dataframe if "br_t_check" in d.value.columns)
+    cols = list(grades.columns)
+    assert cols.index("br_t_check") == cols.index("br_t") + 1
+    row = grades.set_index("grade").loc["N42SH"]
+    assert row["br_t"] == pytest.approx(1.31) and row["br_t_check"] == "c" and row["hcj_ka_m_check"] == "v"
+    assert set(grades["br_t_check"]) <= {"v", "c", "?", "m"}
+    assert any("v = verified" in c.value for c in at.caption)
+    sources = next(d.value for d in at.dataframe if "citation" in d.value.columns)
+    assert {"verified", "corrected", "unverified"} <= set(sources.columns)
+    at.switch_page("views/materials.py").run()
+    assert not at.exception
+    mats = next(d.value for d in at.dataframe if "chi_shown_check" in d.value.columns)
+    row = mats.set_index("id").loc["antimony"]
+    assert row["chi_shown_check"] == "v"
+
+
+def test_compare_and_lab_tables_carry_the_marks_too():
+    from matdb import catalog, presentation
+
+    mats = presentation.materials_table("si-volume")
+    table = presentation.compare_materials(mats, ["antimony", "pmma"], rounded=True, marks=catalog.status_marks()["material"])
+    chi = table.loc["chi, SI volume"]
+    assert chi["antimony"].endswith(" v") and chi["pmma"].endswith(" ?")
+    from matdb import labvalues
+
+    rows = labvalues.history("antimony")
+    assert presentation.value_check_marks(rows) == ["v"]

@@ -196,6 +196,7 @@ def test_report_sections(plate_report):
     # illustrative prices are marked; cautions defer to local codes and licensed practice
     assert "Illustrative price" in html
     assert "0.5 mT" in html and "local codes" in html.lower() and "licensed" in html.lower()
+    assert re.search(r"</span> cm from the magnets", html)  # regression check: words kept apart
     # provenance: the graphite value's kind and source
     assert "pyrolytic-graphite" in html and "handbook" in html or "standard" in html
     # reproducibility: version and database fingerprint
@@ -325,6 +326,13 @@ def test_provenance_shows_a_lab_value_with_its_source_note_and_date(fresh_db):
     assert chi["value"] == "-0.000162" and chi["uncertainty"] == "3e-06"
     # the magnet grade rows name their published source
     assert any(r["property"] == "Br (T)" and r["source"] for r in rows)
+    # where the database keeps a checked-against-source status, every row carries it
+    from matdb import catalog
+
+    if hasattr(catalog, "status_marks"):
+        assert chi["status"] == "measured"
+        br = next(r for r in rows if r["property"] == "Br (T)")
+        assert br["status"] in ("verified", "corrected", "unverified")
     ctx = {"provenance": rows}
     _number_notes(ctx)
     assert all(r["note_number"] is None or 1 <= r["note_number"] <= len(ctx["provenance_notes"]) for r in rows)

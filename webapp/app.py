@@ -2,6 +2,8 @@
 
 import streamlit as st
 
+from webapp import _shared as sh
+
 st.set_page_config(page_title="matdb: diamagnetic levitation", layout="wide")
 
 PAGES = [
@@ -12,4 +14,4 @@ PAGES = [
     st.Page("views/lab_values.py", title="Lab values"),
 ]
 
-st.navigation(PAGES).run()
+sh.run_page(st.navigation(PAGES))  # one-line errors on the page, tracebacks to server stderr

@@ -18,7 +18,7 @@ import math
 
 from .. import advisor as A
 from ..errors import InputError
-from ..output import add_format_argument, emit, to_json
+from ..output import add_format_argument, check_output_path, emit, to_json
 
 TABLE_COLUMNS = ["rank", "material", "grade", "arrangement", "array_mm", "n", "plate_mm", "t_mm", "plate_g",
                  "feasible", "margin", "gap_mm", "gap_worst_mm", "derating_pct", "cost_usd", "score",
@@ -131,6 +131,7 @@ def table_rows(df) -> list[dict]:
 
 
 def cmd_advise(args) -> int:
+    save = check_output_path(args.save, "--save") if args.save is not None else None  # before computing
     if args.top is not None and args.top < 0:
         raise InputError(f"--top: expected a whole number of zero or more, got {args.top}")
     if args.exact is not None and args.exact < 0:
@@ -159,7 +160,7 @@ def cmd_advise(args) -> int:
     if args.save:
         if df.empty:
             raise InputError("--save: no candidate to save")
-        path = A.save_design(df.iloc[0].to_dict(), req, args.save, cat)
+        path = A.save_design(df.iloc[0].to_dict(), req, save, cat)
         if not bool(df.iloc[0]["feasible"]):
             import sys
 

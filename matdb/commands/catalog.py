@@ -2,8 +2,11 @@
 
 from __future__ import annotations
 
+import math
+
 from .. import catalog
 from ..errors import InputError, NotFoundError
+from ..limits import check_chi
 from ..output import add_format_argument, emit, format_table, with_marks
 from ..units import (
     CONVENTIONS,
@@ -95,10 +98,10 @@ def cmd_materials(args) -> int:
 
 
 def cmd_magnets(args) -> int:
+    fams = {catalog.check_family(f, "--family") for f in (args.family or [])}
     rows = [catalog.grade_record(g) for g in catalog.list_grades()]
-    if args.family:
-        fams = {f.lower() for f in args.family}
-        rows = [r for r in rows if r["family"].lower() in fams]
+    if fams:
+        rows = [r for r in rows if r["family"] in fams]
     marks = catalog.status_marks()["magnet"]
     if args.format == "table":
         emit(with_marks(rows, _status_table(marks), "grade", MAGNET_COLUMNS), "table", MAGNET_COLUMNS, MAGNET_HEADERS)
@@ -214,7 +217,7 @@ def _print_provenance(own: list[dict], values: list[dict], props: list[dict]) ->
                                max_width=200))
     if props:
         print("\nfurther properties:")
-        emit([{"property": f"{p['property']} ({p['axis']})", "value": f"{p['value_si']:.4g} {p['unit_si']}",
+        emit([{"property": f"{p['property']} ({p['axis']})", "value": f"{p['value_published']:g} {p['unit_published']}",
                "status": f"{catalog.mark(p['status'])} {p['status']}", "source_key": p["source_key"],
                "locator": p["locator"] or "-"} for p in props], "table",
              ["property", "value", "status", "source_key", "locator"])
@@ -252,7 +255,10 @@ def convert_chi(value_text: str, unit: str | None, to: str = "si-volume", densit
         if needs_molar_mass(conv) and mm is None:
             raise InputError(f"--molar-mass: needed for {conv} ({where}); give e.g. --molar-mass '208.98 g/mol' or --material ID")
     chi_si = chi_to_si_volume(value, src, rho, mm)
+    check_chi(chi_si, "VALUE", f"{value:g} {src}")
     result = chi_from_si_volume(chi_si, dst, rho, mm)
+    if not math.isfinite(result):
+        raise InputError(f"--to: {value:g} {src} has no finite value in {dst}")
     return {"chi_si": chi_si, "value": value, "from": src, "to": dst, "result": result,
             "density_kg_m3": rho, "molar_mass_kg_mol": mm, "material": material}
 

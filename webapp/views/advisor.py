@@ -85,14 +85,14 @@ if bad:
 try:
     request = advisor.parse_request(**{k: v for k, v in params.items() if k != "top"})
 except MatdbError as exc:
-    st.error(f"payload form: {exc}")
+    st.error(sh.plain(f"payload form: {exc}"))
     st.stop()
 
 key = tuple(sorted(params.items()))
 try:
     ranked = sh.run_with_progress(sh.advise, key, url, label="Ranking every plate material, grade and arrangement:")
 except MatdbError as exc:
-    st.error(f"advisor: {exc}")
+    st.error(sh.plain(f"advisor: {exc}"))
     st.stop()
 
 if ranked.empty:
@@ -100,15 +100,15 @@ if ranked.empty:
     st.stop()
 table = presentation.advisor_table(ranked)
 what = f"{mass.strip()} in total (plate and payload)" if total else f"a payload of {mass.strip()}"
-st.caption(f"Ranked for {what} over {params['footprint']}, gap at least {params['min_gap']}, "
+st.caption(sh.plain(f"Ranked for {what} over {params['footprint']}, gap at least {params['min_gap']}, "
            f"{params['temp_min']} to {params['temp_max']}"
-           + (f", budget {params['budget']}" if params["budget"] else "") + f"; best {int(top)} shown.")
+           + (f", budget {params['budget']}" if params["budget"] else "") + f"; best {int(top)} shown."))
 n_ok = int(table["feasible"].sum())
 if n_ok == 0:
     st.warning("No candidate floats this payload in the worst case; the reasons are in the table.")
 else:
     best = table.iloc[0]
-    st.success(f"{n_ok} feasible candidate(s). Best: {presentation.candidate_label(best)}.")
+    st.success(sh.plain(f"{n_ok} feasible candidate(s). Best: {presentation.candidate_label(best)}."))
 
 # ---- Pareto chart -------------------------------------------------------------
 st.subheader("Cost against worst-case margin")
@@ -177,7 +177,7 @@ row = ranked[ranked["rank"] == choice].iloc[0].to_dict()
 with sh.shown_errors("candidate design"):
     toml_text = presentation.candidate_toml(row, request)
     if row.get("reasons"):
-        st.warning("Rejected: " + "; ".join(row["reasons"]) + ".")
+        st.warning(sh.plain("Rejected: " + "; ".join(row["reasons"]) + "."))
     big = max(row["size_m"]) > LARGE_MAGNET_M or (row.get("magnet_mass_kg") or 0) > LARGE_MAGNET_MASS_KG
     if big:
         st.warning(SAFETY_TEXT.replace("\n", "  \n"))
