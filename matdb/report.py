@@ -31,6 +31,8 @@ from .errors import InputError, PhysicsError
 PAPERS = ("A4", "Letter")
 CASES = ("coldest", "nominal", "hottest", "worst")
 T0_K = 273.15
+REPORT_MAP_N = 31  # field-map grid of the report (n x n cells: the SVG and the PDF grow with n^2)
+REPORT_SCAN_N = 8  # square sides of the stability chart (as stable_side_max scans)
 
 
 # ---------------------------------------------------------------------------
@@ -535,14 +537,14 @@ def _charts_plate(design, result) -> list[dict]:
     gap = result["gap_m"] if result.get("gap_m") is not None else design.plate.min_gap_m
     p = design.plate
     extent = (p.size[0], p.size[1] if p.shape == "rectangle" else p.size[0])
-    fmap = presentation.field_map_df(design.arrangement(result.get("temperature_k")), gap, extent)
+    fmap = presentation.field_map_df(design.arrangement(result.get("temperature_k")), gap, extent, n=REPORT_MAP_N)
     pol = presentation.polarity_df(design.arrangement())
     out.append({"title": "|B| over the footprint and the polarity layout",
                 "caption": f"Left: |B| at {gap * 1e3:.3g} mm above the magnets, plate outline dashed. "
                            "Right: top view, N = north pole up, S = north pole down.",
                 "svg": charts.to_svg(charts.field_and_polarity_chart(
                     fmap, pol, gap * 1e3, outline=charts.plate_outline_df(design)))})
-    scan = presentation.stability_scan_df(stability_scan(design))
+    scan = presentation.stability_scan_df(stability_scan(design, n=REPORT_SCAN_N))
     out.append({"title": "Stability over plate size",
                 "caption": "Square plates of the design's material and thickness with the same payload: "
                            "equilibrium gap and lateral stability against the side.",

@@ -131,7 +131,7 @@ def sources_expander(url: str, key: str) -> None:
         try:
             src = sources_table(url)
         except MatdbError as exc:
-            st.error(f"sources: {exc}")
+            st.error(plain(f"sources: {exc}"))
             return
         tot = src[["verified", "corrected", "unverified"]].sum()
         n = int(tot.sum())
