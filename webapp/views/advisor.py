@@ -210,18 +210,18 @@ if run_opt or sh.optimise.cached(opt_key, url):
     try:
         result = sh.run_optimise(opt_key, url, label="Sizing:")
     except MatdbError as exc:
-        st.error(f"optimiser: {exc}")
+        st.error(sh.plain(f"optimiser: {exc}"))
         st.stop()
     if not result.rows:
-        st.warning("No sized design passed the exact check. " + " ".join(result.notes))
+        st.warning(sh.plain("No sized design passed the exact check. " + " ".join(result.notes)))
     else:
         if result.improvement is not None:
             word = "margin" if result.objective == "margin" else "cost"
-            st.success(f"Best: {presentation.candidate_label(result.rows[0])}; {word} "
-                       f"{'+' if result.objective == 'margin' else '-'}{abs(result.improvement):.1%} against the "
-                       "best catalogue candidate (re-checked the same way).")
+            st.success(sh.plain(f"Best: {presentation.candidate_label(result.rows[0])}; {word} "
+                                f"{'+' if result.objective == 'margin' else '-'}{abs(result.improvement):.1%} "
+                                "against the best catalogue candidate (re-checked the same way)."))
         for n in result.notes:
-            st.info(n)
+            st.info(sh.plain(n))
         opt_table = presentation.advisor_table(presentation.optimised_frame(result.rows))
         st.dataframe(opt_table[["rank", "source"] + [c for c in presentation.ADVISOR_SHOWN
                                                       if c not in ("rank", "score", "pareto")]],
