@@ -218,8 +218,8 @@ if run_opt or sh.optimise.cached(opt_key, url):
         if result.improvement is not None:
             word = "margin" if result.objective == "margin" else "cost"
             st.success(sh.plain(f"Best: {presentation.candidate_label(result.rows[0])}; {word} "
-                                f"{'+' if result.objective == 'margin' else '-'}{abs(result.improvement):.1%} against "
-                                "the best catalogue candidate (re-checked the same way)."))
+                                f"{'+' if result.objective == 'margin' else '-'}{abs(result.improvement):.1%} "
+                                "against the best catalogue candidate (re-checked the same way)."))
         for n in result.notes:
             st.info(sh.plain(n))
         opt_table = presentation.advisor_table(presentation.optimised_frame(result.rows))
