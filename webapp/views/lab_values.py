@@ -18,8 +18,12 @@ url = sh.db_url()
 FORM_KEYS = ("lab_chi", "lab_chi_perp", "lab_chi_par", "lab_temperature", "lab_uncertainty", "lab_density",
              "lab_source", "lab_by", "lab_date", "lab_method", "lab_take_over")
 # after a write: an empty form (no double entry) and choice boxes that follow the new state
-if st.session_state.pop("lab_reset", False):
-    for k in FORM_KEYS + ("lab_prefer_id", "lab_retract_id", "lab_retract_reason"):
+# (values are set, not only forgotten: the browser keeps a widget's old text unless told)
+resetting = st.session_state.pop("lab_reset", False)
+if resetting:
+    for k in FORM_KEYS + ("lab_retract_reason",):
+        st.session_state[k] = True if k == "lab_take_over" else ""
+    for k in ("lab_prefer_id", "lab_retract_id"):
         st.session_state.pop(k, None)
 mats = sh.materials_table("si-volume", url)
 ids = list(mats["id"])
@@ -152,8 +156,9 @@ live = [int(v) for v, r in zip(hist["value_id"], hist["retracted"]) if not r]
 p1, p2 = st.columns(2)
 with p1:
     in_use_id = int(in_use.iloc[0]["value_id"]) if len(in_use) else None
+    if (resetting or st.session_state.get("lab_prefer_id") not in live) and in_use_id in live:
+        st.session_state["lab_prefer_id"] = in_use_id
     vid = st.selectbox("Value to use", live, key="lab_prefer_id",
-                       index=live.index(in_use_id) if in_use_id in live else 0,
                        format_func=lambda v: f"{v}" + (" (in use now)" if v == in_use_id else ""))
     if st.button("Use this value", key="lab_prefer"):
         try:
@@ -168,6 +173,8 @@ with p1:
 with p2:
     measured = [int(v) for v, k, r in zip(hist["value_id"], hist["value_kind"], hist["retracted"])
                 if k == "measured" and not r]
+    if measured and (resetting or st.session_state.get("lab_retract_id") not in measured):
+        st.session_state["lab_retract_id"] = measured[-1]
     rid = st.selectbox("Measured value to retract", measured, key="lab_retract_id")
     reason = st.text_input("Reason (required)", key="lab_retract_reason")
     if st.button("Retract", key="lab_retract", disabled=not measured):
