@@ -5,7 +5,7 @@ BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed
 PORT ?= 8501
 
-.PHONY: run test lint bench seed install clean browser-deps
+.PHONY: run test lint bench seed install clean browser-deps report-page
 
 $(BIN)/python:
 	$(PY) -m venv $(VENV)
@@ -28,6 +28,9 @@ lint: install
 
 test: install lint
 	$(BIN)/python -m pytest -q -p no:cacheprovider -n 2 --dist loadfile
+
+report-page: install
+	$(BIN)/python scripts/report_page.py
 
 bench: install
 	$(BIN)/python scripts/bench.py

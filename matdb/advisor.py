@@ -1436,7 +1436,9 @@ def advise(mass, footprint, *, min_gap="0.2 mm", temp_min="20 degC", temp_max="2
            budget=None, materials=None, families=None, grades=None, max_magnet_size=None,
            thickness=None, plate_size=None, weights=None, payload_height="0 mm",
            arrangements: Sequence[ArrangementSpec] | None = None, top: int | None = None,
-           feasible_only: bool = False, polish: int | None = None, url=None) -> pd.DataFrame:
+           feasible_only: bool = False, polish: int | None = None, url=None,
+           objective: str = "score", min_q: float | None = None,
+           pressure_pa: float = 101325.0) -> pd.DataFrame:
     """Rank every plate material x magnet grade x arrangement x thickness for a payload.
 
     Parameters are what a person types (strings with units; numbers are SI): ``mass``
@@ -1446,6 +1448,9 @@ def advise(mass, footprint, *, min_gap="0.2 mm", temp_min="20 degC", temp_max="2
     footprint), ``weights`` ("margin=1,cost=1,derating=1"), ``payload_height`` (payload
     centre of mass above the plate). ``top`` limits the rows returned; the first ``polish``
     rows (default 1) are worked out exactly as ``matdb levitate`` does (column ``exact``).
+    ``objective="noise"`` ranks the feasible rows by the lowest noise floor and ``min_q``
+    rejects rows below a vertical-mode Q, both at ``pressure_pa``
+    (:mod:`matdb.advisor_dynamics`).
 
     Returns
     -------
@@ -1460,16 +1465,35 @@ def advise(mass, footprint, *, min_gap="0.2 mm", temp_min="20 degC", temp_max="2
                         budget=budget, materials=materials, families=families, grades=grades,
                         max_magnet_size=max_magnet_size, thickness=thickness, plate_size=plate_size,
                         weights=weights, payload_height=payload_height)
-    n_pol = polish if polish is not None else 1
-    df, cat = rank(req, arrangements, polish=n_pol, url=url, tilt_rows=max(top or 20, n_pol))
-    return finish(df, req, cat, top=top, feasible_only=feasible_only)
+    return advise_request(req, arrangements, top=top, feasible_only=feasible_only, polish=polish,
+                          url=url, objective=objective, min_q=min_q, pressure_pa=pressure_pa)[0]
 
 
 def advise_request(req: AdviceRequest, arrangements=None, *, top=None, feasible_only=False,
-                   polish=None, url=None):
-    """:func:`advise` for an already parsed :class:`AdviceRequest`; returns (frame, catalogue)."""
+                   polish=None, url=None, objective: str = "score", min_q: float | None = None,
+                   pressure_pa: float = 101325.0):
+    """:func:`advise` for an already parsed :class:`AdviceRequest`; returns (frame, catalogue).
+
+    ``objective="noise"`` (lowest noise floor) and ``min_q`` re-rank the feasible rows by
+    the dynamics of each candidate (:mod:`matdb.advisor_dynamics`: screening for a pool,
+    exact for the rows shown) at ``pressure_pa``.
+    """
     n_pol = polish if polish is not None else 1
     df, cat = rank(req, arrangements, polish=n_pol, url=url, tilt_rows=max(top or 20, n_pol))
+    if objective != "score" or min_q is not None:
+        from .advisor_dynamics import apply_dynamics_objective, reason_q_too_low
+
+        df = apply_dynamics_objective(df, req, cat, objective=objective, min_q=min_q,
+                                      pressure_pa=pressure_pa, shown=top or 10)
+        out = finish(df, req, cat, top=top, feasible_only=feasible_only)
+        if min_q is not None:
+            from .advisor_dynamics import GENERIC_REASON
+
+            out["reasons"] = [
+                ([x for x in r if x != GENERIC_REASON] + [reason_q_too_low(row, min_q)])
+                if row["q_too_low"] else list(r)
+                for r, row in zip(out["reasons"], out.to_dict(orient="records"))]
+        return out, cat
     return finish(df, req, cat, top=top, feasible_only=feasible_only), cat
 
 
@@ -1512,6 +1536,10 @@ def records(df: pd.DataFrame) -> list[dict]:
         for k in JSON_EXTRA:
             v = r.get(k)
             d[k] = list(v) if isinstance(v, list) else _jnum(v) if not isinstance(v, str) else v
+        if "noise_m_s2_rthz" in r:  # dynamics objective (matdb.advisor_dynamics)
+            for k in ("q_vertical", "noise_m_s2_rthz", "f_vertical_hz"):
+                d[k] = _jnum(r[k])
+            d["dynamics_exact"] = bool(r["dynamics_exact"])
         out.append(d)
     return out
 

@@ -312,3 +312,73 @@ def grade_values(grade: str, url: str | None = None) -> list[dict]:
             })
             rows.append(d)
         return rows
+
+
+# ---------------------------------------------------------------------------
+# electrical conductivities (eddy damping)
+# ---------------------------------------------------------------------------
+@dataclass(frozen=True)
+class ConductivityProps:
+    """Conductivity in use for a material [S/m]: in the plate plane and across it."""
+
+    material_id: str
+    sigma_in_plane_s_m: float
+    sigma_across_s_m: float
+    quality: str
+    source_key: str
+    source: str
+    note: str
+    value_id: int
+
+
+def _ensure_conductivities(url: str | None) -> None:
+    """A database made before conductivities existed gets them from the seed files
+    (the seed write is idempotent and never touches measured rows)."""
+    from .db import get_engine
+    from .models import ConductivityValue
+    from .seed import seed_database
+
+    with read_session(url) as s:
+        if s.exec(select(ConductivityValue.id).limit(1)).first() is not None:
+            return
+    seed_database(get_engine(url))
+
+
+def get_conductivity(material_id: str, url: str | None = None) -> Optional[ConductivityProps]:
+    """The conductivity in use for ``material_id``, or None when none is recorded.
+
+    Measured rows win over published ones (newest first), then handbook/standard before
+    estimate; retracted rows are never used.
+    """
+    from .models import ConductivityValue
+
+    _ensure_conductivities(url)
+    with read_session(url) as s:
+        rows = [r for r in s.exec(select(ConductivityValue).where(
+            ConductivityValue.material_id == material_id)).all() if not r.retracted]
+        if not rows:
+            return None
+        rows.sort(key=lambda r: (_QUALITY_RANK.get(r.quality, 2), -(r.id or 0)))
+        measured = [r for r in rows if r.quality == "measured"]
+        v = measured[0] if measured else rows[0]
+        src = _sources(s).get(v.source_key)
+        return ConductivityProps(material_id, float(v.sigma_in_plane_s_m),
+                                 float(v.sigma_across_s_m), v.quality, v.source_key,
+                                 v.source_note or (src.citation if src else v.source_key),
+                                 v.note, int(v.id))
+
+
+def conductivities_df(url: str | None = None) -> pd.DataFrame:
+    """Every material's conductivity in use (materials without one are left out)."""
+    rows = []
+    for m in list_materials(url):
+        c = get_conductivity(m.id, url)
+        if c is None:
+            continue
+        rows.append({"material": m.id, "name": m.name,
+                     "sigma_in_plane_s_m": c.sigma_in_plane_s_m,
+                     "sigma_across_s_m": c.sigma_across_s_m, "quality": c.quality,
+                     "source_key": c.source_key, "source": c.source, "note": c.note})
+    return pd.DataFrame(rows, columns=["material", "name", "sigma_in_plane_s_m",
+                                       "sigma_across_s_m", "quality", "source_key", "source",
+                                       "note"])

@@ -20,6 +20,9 @@ COMMAND_MODULES = [
     "matdb.commands.lab",
     "matdb.commands.physics",
     "matdb.commands.advise",
+    "matdb.commands.optimise",
+    "matdb.commands.dynamics",
+    "matdb.commands.report",
 ]
 
 

@@ -31,7 +31,10 @@ MAGNET_KEYS = {"shape", "size", "grade", "br", "pattern", "rows", "cols", "spaci
                "back_plate", "cover", "item"}
 ITEM_KEYS = {"position", "direction", "size", "shape", "grade", "br"}
 PLATE_KEYS = {"material", "shape", "size", "chi", "chi_perp", "chi_par", "payload",
-              "payload_height", "min_gap", "center"}
+              "payload_height", "min_gap", "center", "sigma_in_plane", "sigma_across",
+              "slots", "holes", "payload_size"}
+SLOT_KEYS = {"count", "width", "length", "direction", "start"}
+HOLE_KEYS = {"center", "diameter"}
 CONDITION_KEYS = {"temperature", "temp_min", "temp_max"}
 TOP_KEYS = {"name", "description", "magnets", "plate", "conditions"}
 STABILIZED_KEYS = {"lifter", "floater", "station"}
@@ -107,6 +110,11 @@ class PlateSpec:
     min_gap_m: float
     center_m: tuple[float, float] = (0.0, 0.0)
     material_props: Any = field(default=None, compare=False, repr=False)
+    sigma_in_plane_s_m: float | None = None  # override of the in-plane conductivity [S/m]
+    sigma_across_s_m: float | None = None  # override of the across-plane conductivity [S/m]
+    slots: Any = None  # matdb.physics.dynamics.Slots or None
+    holes: tuple = ()  # of matdb.physics.dynamics.Hole
+    payload_size_m: tuple[float, float, float] | None = None  # payload as a block [m]
 
     @property
     def thickness_m(self) -> float:
@@ -441,8 +449,90 @@ def _parse_plate(t: Any) -> PlateSpec:
     center = (0.0, 0.0)
     if "center" in t:
         center = _signed_lengths(t["center"], "plate.center", 2)
-    return PlateSpec(mat.id, shape, size, chi, chi_perp, chi_par, payload, ph, min_gap,
-                     center, mat)
+    sig_ab = _sigma(t["sigma_in_plane"], "plate.sigma_in_plane") if "sigma_in_plane" in t else None
+    sig_c = _sigma(t["sigma_across"], "plate.sigma_across") if "sigma_across" in t else None
+    slots = _parse_slots(t["slots"], shape, size) if "slots" in t else None
+    holes = _parse_holes(t["holes"], shape, size) if "holes" in t else ()
+    psize = None
+    if "payload_size" in t:
+        psize = _lengths(t["payload_size"], "plate.payload_size", 3, "[x, y, height]",
+                         "a block payload", positive=False)
+    spec = PlateSpec(mat.id, shape, size, chi, chi_perp, chi_par, payload, ph, min_gap,
+                     center, mat, sig_ab, sig_c, slots, holes, psize)
+    if slots is not None or holes:
+        _check_outline(spec)
+    return spec
+
+
+def _sigma(value: Any, key: str) -> float:
+    from .units import parse_quantity
+
+    if isinstance(value, bool):
+        raise InputError(f"{key}: expected a conductivity such as \"2e5 S/m\", got {value!r}")
+    v = parse_quantity(value, "S/m", key)
+    if not v >= 0:
+        raise InputError(f"{key}: expected a conductivity of zero or more, got {value!r}")
+    return v
+
+
+def _parse_slots(t: Any, shape: str, size: tuple[float, ...]):
+    from .physics.dynamics import Slots
+
+    t = _check_keys(t, SLOT_KEYS, "plate.slots")
+    for need in ("count", "width", "length"):
+        if need not in t:
+            raise InputError(f"plate.slots.{need}: missing; slots need count, width and length")
+    count = t["count"]
+    if isinstance(count, bool) or not isinstance(count, int) or count < 0:
+        raise InputError(f"plate.slots.count: expected a whole number of zero or more, got {count!r}")
+    width = parse_length(t["width"], "plate.slots.width")
+    length = parse_length(t["length"], "plate.slots.length")
+    if width <= 0:
+        raise InputError(f"plate.slots.width: expected a positive length, got {t['width']!r}")
+    if length <= 0:
+        raise InputError(f"plate.slots.length: expected a positive length, got {t['length']!r}")
+    direction = _choice(t.get("direction", "x"), ("x", "y"), "plate.slots.direction")
+    start = _choice(t.get("start", "centre"), ("centre", "edge", "alternate"), "plate.slots.start")
+    along = size[0] if (direction == "x" or shape == "disc") else size[1]
+    across = size[0] if shape == "disc" else (size[1] if direction == "x" else size[0])
+    if count and width * count >= across:
+        raise InputError(f"plate.slots.width: {count} slots of {width * 1e3:.3g} mm do not fit "
+                         f"across {across * 1e3:.3g} mm")
+    if length >= along:
+        raise InputError(f"plate.slots.length: expected less than the plate's {along * 1e3:.3g} mm "
+                         "(a slot through the whole plate cuts it apart)")
+    return Slots(count, width, length, direction, start)
+
+
+def _parse_holes(value: Any, shape: str, size: tuple[float, ...]) -> tuple:
+    from .physics.dynamics import Hole
+
+    if not isinstance(value, list):
+        raise InputError("plate.holes: expected a list of tables such as "
+                         "[{center = [\"0 mm\", \"0 mm\"], diameter = \"1 mm\"}]")
+    out = []
+    for i, h in enumerate(value):
+        key = f"plate.holes[{i}]"
+        h = _check_keys(h, HOLE_KEYS, key)
+        if "diameter" not in h:
+            raise InputError(f"{key}.diameter: missing")
+        d = parse_length(h["diameter"], f"{key}.diameter")
+        if d <= 0:
+            raise InputError(f"{key}.diameter: expected a positive length, got {h['diameter']!r}")
+        c = _signed_lengths(h.get("center", ["0 mm", "0 mm"]), f"{key}.center", 2)
+        out.append(Hole(c[0], c[1], d))
+    return tuple(out)
+
+
+def _check_outline(spec: "PlateSpec") -> None:
+    from .physics.dynamics import outline_pieces, plate_outline
+
+    geom = plate_outline(spec.shape, spec.lx_m, spec.ly_m, spec.center_m[0], spec.center_m[1],
+                         spec.slots, spec.holes)
+    n = len(outline_pieces(geom))
+    if n > 1:
+        raise InputError(f"plate.slots: slots and holes cut the plate into {n} pieces; "
+                         "expected one piece")
 
 
 def _parse_conditions(t: Any) -> Conditions:
@@ -564,6 +654,19 @@ def design_to_toml(design: PlateDesign) -> str:
     plate["min_gap"] = _mm(p.min_gap_m)
     if p.center_m != (0.0, 0.0):
         plate["center"] = [_mm(v) for v in p.center_m]
+    if p.sigma_in_plane_s_m is not None:
+        plate["sigma_in_plane"] = f"{p.sigma_in_plane_s_m!r} S/m"
+    if p.sigma_across_s_m is not None:
+        plate["sigma_across"] = f"{p.sigma_across_s_m!r} S/m"
+    if p.payload_size_m is not None:
+        plate["payload_size"] = [_mm(v) for v in p.payload_size_m]
+    if p.slots is not None:
+        plate["slots"] = {"count": p.slots.count, "width": _mm(p.slots.width),
+                          "length": _mm(p.slots.length), "direction": p.slots.direction,
+                          "start": p.slots.start}
+    if p.holes:
+        plate["holes"] = [{"center": [_mm(h.x), _mm(h.y)], "diameter": _mm(h.diameter)}
+                          for h in p.holes]
     doc: dict[str, Any] = {}
     if design.name is not None:
         doc["name"] = design.name

@@ -26,6 +26,8 @@ One floater::
     thickness = "1 mm"
     distance = "3 mm"               # optional: floater centre to each plate's facing surface
     clearance = "0.5 mm"            # optional: smallest gap floater face to plate (default 0.5 mm)
+    width = "30 mm"                 # optional: side of square plates centred on the floater
+                                    # (default: very wide); at least the floater's width
 
     [conditions]
     temperature = "20 degC"         # optional
@@ -78,7 +80,7 @@ _TOP_KEYS = {"lifter", "floater", "plates", "station", "payload", "conditions", 
              "payload_range"}
 _MAGNET_KEYS = {"shape", "size", "grade", "br"}
 _FLOATER_KEYS = _MAGNET_KEYS | {"payload"}
-_PLATES_KEYS = {"material", "chi", "chi_perp", "chi_par", "thickness", "distance", "clearance"}
+_PLATES_KEYS = {"material", "chi", "chi_perp", "chi_par", "thickness", "distance", "clearance", "width"}
 _STATION_KEYS = {"x", "y", "lifter", "floater", "plates", "name"}
 _PAYLOAD_KEYS = {"mass", "centre_of_mass"}
 _CONDITION_KEYS = {"temperature", "temp_min", "temp_max"}
@@ -141,6 +143,12 @@ class MagnetSpec:
         """Mass of the magnet [kg]."""
         return self.volume * self.density_kg_m3
 
+    @property
+    def width(self) -> float:
+        """Largest side-to-side size across the magnetisation [m] (a cuboid's longer
+        side, a cylinder's or ring's outer diameter)."""
+        return float(max(self.size[0], self.size[1]) if self.shape == "cuboid" else self.size[0])
+
 
 @dataclass(frozen=True)
 class PlatesSpec:
@@ -164,6 +172,9 @@ class PlatesSpec:
         Floater centre to each plate's facing surface [m]; None when not given.
     clearance : float
         Smallest gap between the floater's face and a plate [m].
+    width : float or None
+        Side of square plates centred on the floater's axis [m]; None for plates much
+        wider than the floater.
     """
 
     material: str
@@ -174,6 +185,7 @@ class PlatesSpec:
     thickness: float
     distance: Optional[float]
     clearance: float
+    width: Optional[float] = None
 
     @property
     def chi_dipole(self) -> float:
@@ -358,6 +370,15 @@ def _parse_plates(t: dict, key: str, floater: MagnetSpec) -> PlatesSpec:
                 f"{key}.distance: expected more than the floater's half-height "
                 f"({half * 1e3:.4g} mm), got {t['distance']!r}: the plates would cut into the floater"
             )
+    width = None
+    if "width" in t:
+        width = parse_length(t["width"], f"{key}.width", positive=True)
+        fw = floater.width
+        if width < fw * (1 - 1e-9):
+            raise InputError(
+                f"{key}.width: expected plates at least as wide as the floater ({fw * 1e3:.4g} mm), "
+                f"got {t['width']!r}: narrower plates cannot hold it on the axis"
+            )
     return PlatesSpec(
         material=m.id,
         chi_perp=float(perp),
@@ -367,6 +388,7 @@ def _parse_plates(t: dict, key: str, floater: MagnetSpec) -> PlatesSpec:
         thickness=thickness,
         distance=distance,
         clearance=clearance,
+        width=width,
     )
 
 
@@ -545,6 +567,8 @@ def _plates_table(p: PlatesSpec) -> dict:
     if p.distance is not None:
         t["distance"] = _mm(p.distance)
     t["clearance"] = _mm(p.clearance)
+    if p.width is not None:
+        t["width"] = _mm(p.width)
     return t
 
 

@@ -311,3 +311,56 @@ def levitate(design, temp_k: float | None = None, gap_m: float | None = None, pa
     if resolution_m is not None:
         extra["resolution_m"] = resolution_m
     return levitate_stabilized(design, temp_k=temp_k, **extra)
+
+
+def stability_scan(design: PlateDesign, temp_k: float | None = None, n: int = 10
+                   ) -> list[dict[str, Any]]:
+    """Square plates of the design's material and thickness, side swept over the
+    arrangement: does each float, where, and is it laterally stable.
+
+    Sides run from ``1.2 extent / n`` to ``1.2 extent`` (``extent`` the larger
+    horizontal size of the arrangement, as :func:`matdb.physics.plate.stable_side_max`
+    scans), plus the design's own side when its plate is square. Same payload and
+    temperature rules as :func:`levitate_plate`; the cheaper scan rule of
+    :func:`matdb.physics.plate.is_stable_floating` (4-point panels, spline root).
+
+    Returns
+    -------
+    list of dict
+        ``side_m``, ``floats``, ``gap_m`` (None when it does not float),
+        ``laterally_stable``, ``is_design`` [SI].
+
+    References
+    ----------
+    .. [1] M. D. Simon and A. K. Geim, J. Appl. Phys. 87, 6200 (2000).
+    """
+    if not isinstance(design, PlateDesign):
+        raise InputError("design: expected a floating-plate design")
+    if not (isinstance(n, int) and n >= 2):
+        raise InputError(f"n: expected an integer of 2 or more, got {n!r}")
+    t_op = float(temp_k) if temp_k is not None else design.conditions.nominal_k
+    arr = design.arrangement(t_op)
+    geom = plate_geometry(design, arr)
+    chi_perp, chi_par = _chi_at(design, t_op)
+    p = design.plate
+    extent = arr.bounds()
+    size = max(extent[1] - extent[0], extent[3] - extent[2])
+    sides = list(np.linspace(1.2 * size / n, 1.2 * size, n))
+    own = geom.lx if geom.is_square else None
+    if own is not None:
+        sides.append(own)
+    g_start = design.magnets.cover_m + P.MIN_GAP
+    rows = []
+    for side in sorted(set(float(s) for s in sides)):
+        g = geom.with_side(side)
+        mass = p.density_kg_m3 * g.volume
+        weight = (mass + p.payload_kg) * G_STANDARD
+        gap = P.equilibrium_gap(arr.B, g, chi_perp, chi_par, weight, g_start, 4, xtol=None)
+        stable = False
+        if gap is not None:
+            stable = P.stability(arr.B, g, gap, chi_perp, chi_par, mass, p.payload_kg,
+                                 p.payload_height_m, 4, full=False).laterally_stable
+        rows.append({"side_m": side, "floats": gap is not None, "gap_m": _f(gap),
+                     "laterally_stable": bool(stable),
+                     "is_design": own is not None and abs(side - own) < 1e-12})
+    return rows

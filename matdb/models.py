@@ -123,6 +123,53 @@ class MagnetValue(SQLModel, table=True):
     retract_reason: Optional[str] = None
 
 
+class ConductivityValue(SQLModel, table=True):
+    """Electrical conductivity of a material: in the plate's plane and across it.
+
+    Isotropic materials give the same value twice. Effectively insulating materials (a
+    graphite-powder composite in an insulating binder, polymers, glass) carry 0.
+    """
+
+    id: Optional[int] = Field(default=None, primary_key=True)
+    material_id: str = Field(foreign_key="material.id", index=True)
+    sigma_in_plane_s_m: float
+    sigma_across_s_m: float
+    temperature_k: Optional[float] = None
+    quality: str = "handbook"
+    source_key: str = Field(foreign_key="source.key")
+    source_note: str = ""
+    note: str = ""
+    entered_at: _dt.datetime = Field(default_factory=_now)
+    retracted: bool = False
+
+
+class QualityFactorValue(SQLModel, table=True):
+    """A measured quality factor or ring-down time of a floating plate (lab value).
+
+    Appended, never overwritten; ``source_note`` says where it comes from. ``q`` and
+    ``ring_down_s`` (1/e of amplitude) are related by ``Q = pi f tau`` and either may be
+    derived from the other when the frequency is known.
+    """
+
+    id: Optional[int] = Field(default=None, primary_key=True)
+    material_id: str = Field(foreign_key="material.id", index=True)
+    design: str = ""  # design file name or short description of the set-up
+    mode: str = ""  # e.g. "vertical"
+    frequency_hz: Optional[float] = None
+    q: Optional[float] = None
+    ring_down_s: Optional[float] = None
+    pressure_pa: Optional[float] = None
+    temperature_k: Optional[float] = None
+    source_key: str = Field(default="lab", foreign_key="source.key")
+    source_note: str = ""
+    measured_by: Optional[str] = None
+    measured_on: Optional[_dt.date] = None
+    method: Optional[str] = None
+    note: str = ""
+    entered_at: _dt.datetime = Field(default_factory=_now)
+    retracted: bool = False
+
+
 class SavedDesign(SQLModel, table=True):
     """A design a person named and saved, with a note (the design-file text as typed)."""
 

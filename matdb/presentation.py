@@ -804,6 +804,28 @@ def schedule_csv(result: dict) -> str:
         index=False, float_format="%.10g")
 
 
+def floating_designs_df(records: list) -> pd.DataFrame:
+    """Designs of the floating-magnet search for people: sizes in mm, window, travel and
+    step in mm/um, cost (illustrative), reasons as one sentence list."""
+    def sz(v):
+        return "x".join(f"{x * 1e3:.4g}" for x in v) + " mm"
+
+    rows = []
+    for r in records:
+        rows.append({
+            "rank": r.get("rank"), "feasible": bool(r.get("feasible")), "floaters": r.get("stations"),
+            "floater": f"{r['floater_shape']} {sz(r['floater_size_m'])} {r['floater_grade']}",
+            "lifter": f"{r['lifter_shape']} {sz(r['lifter_size_m'])} {r['lifter_grade']}",
+            "plates": f"{r['material']} {r['thickness_m'] * 1e3:.3g} mm",
+            "window_mm": None if r.get("window_min_m") is None else r["window_min_m"] * 1e3,
+            "travel_mm": None if r.get("lifter_travel_m") is None else r["lifter_travel_m"] * 1e3,
+            "step_um": None if r.get("resolution_m") is None else r["resolution_m"] * 1e6,
+            "cost_usd": r.get("cost_usd"),
+            "reasons": "; ".join(r.get("reasons") or []),
+        })
+    return pd.DataFrame(rows)
+
+
 def stations_df(result: dict) -> pd.DataFrame:
     """Per station of a multi-floater result: name, position (mm), share of the weight,
     lifter distance (mm), stable."""
@@ -878,3 +900,14 @@ def candidate_toml(row: dict, request) -> str:
     from .design import design_to_toml
 
     return design_to_toml(candidate_design(dict(row), request))
+
+
+def stability_scan_df(rows: list[dict]) -> pd.DataFrame:
+    """:func:`matdb.levitate.stability_scan` records for people: ``side_mm``,
+    ``floats``, ``gap_mm`` (NaN when it does not float), ``laterally_stable``,
+    ``is_design``."""
+    df = pd.DataFrame(rows, columns=["side_m", "floats", "gap_m", "laterally_stable", "is_design"])
+    return pd.DataFrame({"side_mm": df["side_m"].astype(float) * 1e3, "floats": df["floats"].astype(bool),
+                         "gap_mm": pd.to_numeric(df["gap_m"], errors="coerce").astype(float) * 1e3,
+                         "laterally_stable": df["laterally_stable"].astype(bool),
+                         "is_design": df["is_design"].astype(bool)})

@@ -25,6 +25,7 @@ from .models import (
     FAMILIES,
     MATERIAL_KINDS,
     QUALITY_CLASSES,
+    ConductivityValue,
     MagnetGrade,
     MagnetValue,
     Material,
@@ -41,7 +42,9 @@ FILES = {
     "materials": "materials.csv",
     "susceptibilities": "susceptibilities.csv",
     "grades": "magnet_grades.csv",
+    "conductivities": "conductivities.csv",
 }
+OPTIONAL_FILES = ("conductivities",)  # a seed folder without it loads, with no conductivities
 
 COLUMNS = {
     "sources": ["key", "citation", "kind", "year", "note"],
@@ -57,6 +60,10 @@ COLUMNS = {
         "grade", "family", "br_t", "br_min_t", "hcb_ka_m", "hcj_ka_m", "bhmax_kj_m3",
         "alpha_br_pct_per_k", "beta_hcj_pct_per_k", "max_temp_c", "mu_rec", "density_kg_m3",
         "price_usd_per_kg", "quality", "source_key", "note",
+    ],
+    "conductivities": [
+        "material_id", "sigma_in_plane_s_m", "sigma_across_s_m", "temperature_c", "quality",
+        "source_key", "note",
     ],
 }
 
@@ -129,6 +136,8 @@ class _Row:
 def _read_csv(folder: Path, kind: str) -> list[_Row]:
     fname = FILES[kind]
     path = folder / fname
+    if not path.exists() and kind in OPTIONAL_FILES:
+        return []
     if not path.exists():
         raise DataError(f"{fname}: file missing in {folder}")
     try:
@@ -164,6 +173,7 @@ class SeedSet:
     chi_values: list[SusceptibilityValue] = field(default_factory=list)
     grades: list[MagnetGrade] = field(default_factory=list)
     magnet_values: list[MagnetValue] = field(default_factory=list)
+    conductivities: list[ConductivityValue] = field(default_factory=list)
 
 
 def parse_seed(folder: Path | None = None) -> SeedSet:
@@ -305,6 +315,31 @@ def parse_seed(folder: Path | None = None) -> SeedSet:
             MagnetValue(grade=grade, quality=r.choice("quality", [q for q in QUALITY_CLASSES if q != "measured"]),
                         source_key=skey, note=r.text("note", False), **vals)
         )
+
+    seen_sigma: set[tuple[str, str]] = set()
+    for r in _read_csv(folder, "conductivities"):
+        mid = r.text("material_id")
+        if mid not in mats:
+            raise r.err("material_id", f"unknown material {mid!r} (not in materials.csv)")
+        skey = r.text("source_key")
+        if skey not in keys:
+            raise r.err("source_key", f"unknown source key {skey!r}")
+        if (mid, skey) in seen_sigma:
+            raise r.err("source_key", f"two conductivity rows for {mid} from source {skey}")
+        seen_sigma.add((mid, skey))
+        s_ab = r.num("sigma_in_plane_s_m", required=True)
+        s_c = r.num("sigma_across_s_m", required=True)
+        for col, v in (("sigma_in_plane_s_m", s_ab), ("sigma_across_s_m", s_c)):
+            if not (0 <= v <= 1e9):
+                raise r.err(col, f"expected a conductivity from 0 to 1e9 S/m, got {v}")
+        if not mats[mid].anisotropic and s_ab != s_c:
+            raise r.err("sigma_across_s_m", f"{mid} is isotropic: give the same value twice")
+        tc = r.num("temperature_c")
+        out.conductivities.append(ConductivityValue(
+            material_id=mid, sigma_in_plane_s_m=s_ab, sigma_across_s_m=s_c,
+            temperature_k=celsius_to_kelvin(tc) if tc is not None else None,
+            quality=r.choice("quality", [q for q in QUALITY_CLASSES if q != "measured"]),
+            source_key=skey, note=r.text("note", False)))
     return out
 
 
@@ -357,10 +392,14 @@ def seed_database(engine: Engine, folder: Path | None = None) -> dict[str, int]:
                 _upsert_value(s, SusceptibilityValue, v, SusceptibilityValue.material_id == v.material_id)
             for v in data.magnet_values:
                 _upsert_value(s, MagnetValue, v, MagnetValue.grade == v.grade)
+            for v in data.conductivities:
+                _upsert_value(s, ConductivityValue, v,
+                              ConductivityValue.material_id == v.material_id)
             s.commit()
         except BaseException:
             s.rollback()
             raise
     counts.update(sources=len(data.sources), materials=len(data.materials),
-                  susceptibilities=len(data.chi_values), grades=len(data.grades))
+                  susceptibilities=len(data.chi_values), grades=len(data.grades),
+                  conductivities=len(data.conductivities))
     return counts

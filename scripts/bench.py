@@ -12,7 +12,7 @@ import sys
 from pathlib import Path
 
 HERE = Path(__file__).resolve().parent
-MODULES = ["bench_fields", "bench_plate", "bench_advisor", "bench_browser"]
+MODULES = ["bench_fields", "bench_plate", "bench_advisor", "bench_floating", "bench_browser"]
 
 
 def main() -> int:

@@ -40,3 +40,23 @@ def test_design_page_payload_range_schedule():
     at.text_input(key="d_payload_range").set_value("2 g..1 g").run()
     assert not at.exception
     assert any("payload range" in e.value for e in at.error)
+
+
+def test_design_page_suggests_designs_with_progress(monkeypatch, tmp_path):
+    # the search from the page (a reduced size list keeps the test short); every shown
+    # design carries feasible and its reasons
+    from matdb import magnet_synthesis as M
+
+    monkeypatch.setenv("MATDB_CACHE_DIR", str(tmp_path / "cache"))
+    monkeypatch.setattr(M, "FLOATERS", (("cylinder", (6.35, 3.175)), ("ring", (12.7, 6.35, 6.35))))
+    monkeypatch.setattr(M, "LIFTERS", (("cylinder", (25.4, 25.4)), ("cylinder", (50.8, 25.4))))
+    at = AppTest.from_file(APP, default_timeout=300).run()
+    at.switch_page("views/design.py").run()
+    at.radio(key="design_source").set_value("design file").run()
+    at.text_area(key="design_text").set_value((REPO / "examples" / "floating_magnet.toml").read_text()).run()
+    at.text_input(key="fm_s_range").set_value("0 g..1 g").run()
+    at.button(key="fm_s_go").click().run()
+    assert not at.exception, [e.message for e in at.exception]
+    designs = _table(at, "travel_mm")
+    assert len(designs) >= 1 and "feasible" in designs.columns
+    assert designs["feasible"].iloc[0]

@@ -109,9 +109,9 @@ def test_row_count_fingerprint(sources, materials, sus, grades):
     # Fingerprint of the curated tables: an accidental deletion or duplication shows here.
     # Update deliberately when rows are added. (NdFeB: 8 plain + 7 M + 6 H + 5 SH + 6 UH
     # + 5 EH + 3 AH grades of the usual industry grade system, common practice, no source.)
-    assert len(sources) == 15
-    assert len(materials) == 21
-    assert len(sus) == 22  # one iso row per material, two (perp, par) for pyrolytic graphite
+    assert len(sources) == 19
+    assert len(materials) == 22
+    assert len(sus) == 23  # one iso row per material, two (perp, par) for pyrolytic graphite
     assert len(grades) == 48
     assert grades.family.value_counts().to_dict() == {
         "NdFeB": 40,
@@ -477,3 +477,23 @@ def test_ndfeb_remanence_classes(grades):
     # Higher N-number, higher remanence.
     by_cls = nd.groupby("cls").br_t.first().sort_index()
     assert by_cls.is_monotonic_increasing and by_cls.is_unique
+
+
+def test_conductivities_cited_and_physical(sources):
+    """conductivities.csv: every row cites a known source, every material is in
+    materials.csv, pyrolytic graphite conducts far better in its basal plane than across
+    it (Krishnan and Ganguli, Nature 144, 667 (1939): large anisotropy of the electrical
+    conductivity of graphite), metals conduct above 1e5 S/m (CRC resistivity table, from
+    memory), and the composite is an insulator (Chen et al. 2022). Fingerprint: 22 rows."""
+    cond = pd.read_csv(SEED / "conductivities.csv")
+    mats = pd.read_csv(SEED / "materials.csv")
+    assert len(cond) == 22
+    assert set(cond.source_key) <= set(sources.key)
+    assert set(cond.material_id) <= set(mats.id)
+    assert not cond.material_id.duplicated().any()
+    by = cond.set_index("material_id")
+    assert by.loc["pyrolytic-graphite", "sigma_in_plane_s_m"] > 100 * by.loc["pyrolytic-graphite", "sigma_across_s_m"]
+    for metal in ("copper", "silver", "gold", "aluminium", "bismuth", "lead"):
+        assert by.loc[metal, "sigma_in_plane_s_m"] > 1e5
+    assert by.loc["graphite-composite", "sigma_in_plane_s_m"] == 0
+    assert cond.note.str.len().min() > 10

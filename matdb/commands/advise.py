@@ -6,6 +6,7 @@
         [--thickness "1 mm" ...] [--plate-size "20 mm x 20 mm"] [--payload-height "2 mm"]
         [--weights margin=1,cost=1,derating=1] [--top N] [--feasible-only] [--exact N]
         [--save DESIGN.toml] [--format table|json|csv]
+        [--objective score|noise] [--min-q Q] [--pressure "1e-3 Pa"]
 
 A thin layer over :func:`matdb.advisor.advise_request`.
 """
@@ -25,7 +26,8 @@ TABLE_HEADERS = {"t_mm": "plate t mm", "gap_mm": "gap mm", "gap_worst_mm": "wors
 CSV_COLUMNS = ["rank", "material", "grade", "arrangement", "pattern", "shape", "size_m", "rows",
                "cols", "thickness_m", "feasible", "lift_per_area_n_m2", "gap_m", "gap_worst_m",
                "margin", "margin_nominal", "laterally_stable", "derating_pct", "cost_usd", "score",
-               "pareto", "reasons", "exact"]
+               "pareto", "reasons", "exact", "q_vertical", "noise_m_s2_rthz", "f_vertical_hz",
+               "dynamics_exact"]
 
 
 def register(sub) -> None:
@@ -61,6 +63,11 @@ def register(sub) -> None:
                    help="rows worked out exactly as 'matdb levitate' does (default 1: the top one, "
                    "a few seconds each when not cached); the rest are screening values")
     p.add_argument("--save", metavar="DESIGN.toml", help="write the top candidate as a design file")
+    p.add_argument("--objective", choices=["score", "noise"], default="score",
+                   help="rank by the score (default) or by the lowest noise floor: thermal "
+                   "acceleration noise of the vertical mode (screened, exact for the rows shown)")
+    p.add_argument("--min-q", help="reject candidates whose vertical-mode Q is below this, e.g. 100")
+    p.add_argument("--pressure", help="gas pressure for the dynamics, e.g. '1e-3 Pa' (default 1 atm)")
     add_format_argument(p)
     p.set_defaults(func=cmd_advise)
 
@@ -98,7 +105,20 @@ def cmd_advise(args) -> int:
     top = args.top if args.top is not None else (10 if args.format == "table" else 50)
     top = None if top == 0 else top
     exact = args.exact if args.exact is not None else 1
-    df, cat = A.advise_request(req, top=top, feasible_only=args.feasible_only, polish=exact)
+    min_q = None
+    if args.min_q is not None:
+        from ..units import parse_number
+
+        min_q = parse_number(args.min_q, "--min-q")
+        if not (min_q > 0 and math.isfinite(min_q)):
+            raise InputError(f"--min-q: expected a positive quality factor, got {args.min_q!r}")
+    pressure = 101325.0
+    if args.pressure:
+        from .dynamics import parse_pressure
+
+        pressure = parse_pressure(args.pressure)
+    df, cat = A.advise_request(req, top=top, feasible_only=args.feasible_only, polish=exact,
+                               objective=args.objective, min_q=min_q, pressure_pa=pressure)
     if args.save:
         if df.empty:
             raise InputError("--save: no candidate to save")
@@ -120,7 +140,18 @@ def cmd_advise(args) -> int:
         print(f"{n_feas} feasible of {len(df)} shown; payload {req.mass_kg * 1e3:.4g} g on a "
               f"{req.plate_m[0] * 1e3:.4g} x {req.plate_m[1] * 1e3:.4g} mm plate, gap >= "
               f"{req.min_gap_m * 1e3:.3g} mm, {req.temp_min_k - 273.15:.0f} to {req.temp_max_k - 273.15:.0f} C.")
-        emit(table_rows(df), "table", TABLE_COLUMNS, TABLE_HEADERS)
+        dyn = "noise_m_s2_rthz" in df.columns
+        rows_t = table_rows(df)
+        cols_t = list(TABLE_COLUMNS)
+        if dyn:
+            for rt, r in zip(rows_t, df.to_dict(orient="records")):
+                q, n = r.get("q_vertical"), r.get("noise_m_s2_rthz")
+                rt["q"] = q if isinstance(q, float) and math.isfinite(q) else None
+                rt["noise_ug"] = n / 9.80665e-6 if isinstance(n, float) and math.isfinite(n) else None
+                rt["dyn"] = "exact" if r.get("dynamics_exact") else ("screen" if rt["q"] or rt["noise_ug"] is not None else "-")
+            cols_t[cols_t.index("why"):cols_t.index("why")] = ["q", "noise_ug", "dyn"]
+        emit(rows_t, "table", cols_t, {**TABLE_HEADERS, "q": "Q vert", "noise_ug": "noise ug/rtHz",
+                                       "dyn": "Q from"})
         screened = int((~df["exact"].astype(bool)).sum())
         print("* prices are illustrative, not quotes. margin = worst-case lift / weight at the "
               "required gap." + (f" {screened} row(s) are screening values (see --exact)." if screened else ""))

@@ -51,6 +51,10 @@ def register(sub) -> None:
     add_format_argument(pm, choices=("table", "json"))
     pm.set_defaults(func=cmd_record_material)
 
+    from .dynamics import register_record_q
+
+    register_record_q(rsub)
+
     pg = rsub.add_parser(
         "magnet", help="a measured magnet (Br, Hcj, alpha)",
         description="Append measured properties of a magnet grade. --surface-field with --shape and --size "

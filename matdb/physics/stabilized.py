@@ -524,6 +524,9 @@ def lifter_hessian(lifter: Body, floater: Body) -> dict:
 # ---------------------------------------------------------------------------
 # finite-size model of the plates
 # ---------------------------------------------------------------------------
+_TABLES: dict = {}  # FinitePlates tables by floater, chi, gap range and width (thickness-free)
+
+
 def _axis_edges(features, g: float, far: float) -> np.ndarray:
     """Panel edges on [0, far) graded towards the lateral features (rims, edges)."""
     L = max(features)
@@ -543,7 +546,7 @@ def _axis_edges(features, g: float, far: float) -> np.ndarray:
 
 
 class FinitePlates:
-    """Two infinite diamagnetic slabs around a floater: the finite-size model.
+    """Two diamagnetic slabs around a floater: the finite-size model.
 
     Parameters
     ----------
@@ -556,6 +559,9 @@ class FinitePlates:
     g_min : float, optional
         Smallest gap between the floater's face and a plate that will be asked for [m]
         (the tabulated range starts there).
+    width : float, optional
+        Side of square plates centred on the floater's axis [m]; None for plates that
+        extend laterally without limit.
 
     Notes
     -----
@@ -578,6 +584,13 @@ class FinitePlates:
     ``R B(R^T x)``. Far away ``P -> (|chi_perp|+|chi_par|)/2 * 3 pi C^2 m^2 / (2 s^4)``,
     the dipole model.
 
+    Square plates of side ``w`` integrate ``P`` over the square only: for an
+    axisymmetric floater the integrand depends on the radius alone and the square
+    holds the arc ``theta(r) = 2 pi`` for ``r <= w/2`` and
+    ``8 (pi/4 - arccos(w / 2r))`` up to the corner ``w/sqrt(2)``; a cuboid floater
+    has its tensor grid cut at ``+-w/2``. Narrow plates stiffen less; the effect fades
+    as ``w`` grows.
+
     References
     ----------
     .. [1] L. D. Landau and E. M. Lifshitz, Electrodynamics of Continuous Media, 2nd ed.
@@ -586,7 +599,7 @@ class FinitePlates:
     """
 
     def __init__(self, floater: Body, chi_perp: float, chi_par: float, thickness: float,
-                 g_min: Optional[float] = None):
+                 g_min: Optional[float] = None, width: Optional[float] = None):
         if not (chi_perp < 0 and chi_par < 0):
             raise InputError("chi: expected negative (diamagnetic) susceptibilities for the plates")
         if not thickness > 0:
@@ -600,6 +613,9 @@ class FinitePlates:
         self.g_lo = max(min(self.g_lo, 0.05 * size), 1e-4 * size)
         self.g_hi = 300.0 * size
         self._spline = None
+        if width is not None and not (math.isfinite(width) and width > 0):
+            raise InputError(f"width: expected a positive plate width, got {width!r}")
+        self.width = None if width is None else float(width)
 
     @property
     def chi_dipole(self) -> float:
@@ -615,21 +631,43 @@ class FinitePlates:
         return [0.5 * s[0]], None
 
     def _plane_nodes(self, s: float, full: bool = False):
-        """Points (k, 2) in a plane at height s and weights [m^2]."""
+        """Points (k, 2) in a plane at height s and weights [m^2] (over the plates' square
+        when they have a width)."""
         g = max(s - self.h2, 1e-6 * self.floater.height)
         far = 1e3 * (s + self.floater.lateral)
         fx, fy = self._features()
+        hw = None if self.width is None else 0.5 * self.width
         if fy is None:
-            r, wr = _composite(_axis_edges(fx, g, far), 8 if not full else 6)
+            if hw is None:
+                r, wr = _composite(_axis_edges(fx, g, far), 8 if not full else 6)
+                arc = np.full(r.size, 2 * math.pi)
+            else:
+                corner = math.sqrt(2.0) * hw
+                e = _axis_edges(list(fx) + [hw], g, corner)
+                e = np.unique(np.concatenate([e[e < corner], [hw, corner]]))
+                r, wr = _composite(e, 8 if not full else 6)
+                with np.errstate(invalid="ignore"):
+                    arc = np.where(r <= hw, 2 * math.pi,
+                                   8 * (math.pi / 4 - np.arccos(np.minimum(1.0, hw / np.maximum(r, 1e-300)))))
             if not full:
-                return np.column_stack([r, np.zeros_like(r)]), 2 * math.pi * r * wr
+                return np.column_stack([r, np.zeros_like(r)]), arc * r * wr
             n_phi = 32
             phi = (np.arange(n_phi) + 0.5) * (2 * math.pi / n_phi)
             R, P = np.meshgrid(r, phi, indexing="ij")
             W = np.outer(wr * r, np.full(n_phi, 2 * math.pi / n_phi))
-            return np.column_stack([(R * np.cos(P)).ravel(), (R * np.sin(P)).ravel()]), W.ravel()
-        x, wx = _composite(_axis_edges(fx, g, far), 5)
-        y, wy = _composite(_axis_edges(fy, g, far), 5)
+            X, Y = R * np.cos(P), R * np.sin(P)
+            if hw is not None:  # the square only: drop the nodes outside, rescale each ring to its arc
+                inside = (np.abs(X) <= hw) & (np.abs(Y) <= hw)
+                frac = inside.sum(axis=1) / n_phi
+                scale = np.where(frac > 0, arc / (2 * math.pi) / np.maximum(frac, 1e-300), 0.0)
+                W = W * inside * scale[:, None]
+            return np.column_stack([X.ravel(), Y.ravel()]), W.ravel()
+        ex, ey = _axis_edges(fx, g, far), _axis_edges(fy, g, far)
+        if hw is not None:
+            ex = np.unique(np.concatenate([ex[ex < hw], [hw]]))
+            ey = np.unique(np.concatenate([ey[ey < hw], [hw]]))
+        x, wx = _composite(ex, 5)
+        y, wy = _composite(ey, 5)
         X, Y = np.meshgrid(x, y, indexing="ij")
         xy = np.column_stack([X.ravel(), Y.ravel()])
         w = np.outer(wx, wy).ravel()
@@ -657,15 +695,40 @@ class FinitePlates:
         vals = (self._weighted(self.floater.B(pts)).reshape(4, w.size)) @ w
         return float((vals[0] - 8 * vals[1] + 8 * vals[2] - vals[3]) / (12 * d))
 
+    def plane_slope_parts(self, s) -> np.ndarray:
+        """``d/ds`` of the plane integrals of ``B_z^2`` and of ``B_x^2 + B_y^2`` at heights
+        ``s`` (unweighted by chi) [T^2 m], shape (n, 2); five-point differences on fixed
+        nodes, as :meth:`plane_integral_slope`."""
+        out = []
+        for si in np.atleast_1d(np.asarray(s, dtype=float)):
+            xy, w = self._plane_nodes(float(si))
+            d = 1e-3 * (si - self.h2)
+            zs = si + d * np.array([-2.0, -1.0, 1.0, 2.0])
+            pts = np.concatenate([np.column_stack([xy, np.full(w.size, z)]) for z in zs])
+            b = self.floater.B(pts)
+            parts = np.column_stack([b[:, 2] ** 2, b[:, 0] ** 2 + b[:, 1] ** 2]).reshape(4, w.size, 2)
+            vals = np.einsum("ikj,k->ij", parts, w)
+            out.append((vals[0] - 8 * vals[1] + 8 * vals[2] - vals[3]) / (12 * d))
+        return np.asarray(out)
+
     def _slope_dipole(self, s):
         m = self.floater.moment
         return -0.5 * (self.wz + self.wh) * 6 * math.pi * _C**2 * m**2 * np.asarray(s, dtype=float) ** -5
 
     def _build(self):
+        key = (self.floater.shape, tuple(self.floater.size), float(self.floater.j_t), self.wz, self.wh,
+               self.g_lo, self.g_hi, self.width)
+        hit = _TABLES.get(key)
+        if hit is not None:  # the same plates around the same floater: same table
+            self._spline, self._ratio_hi = hit
+            return
         g = np.geomspace(self.g_lo, self.g_hi, 40)
         ratio = np.array([self.plane_integral_slope(self.h2 + gi) for gi in g]) / self._slope_dipole(self.h2 + g)
         self._spline = CubicSpline(np.log(g), ratio)
         self._ratio_hi = float(ratio[-1])
+        if len(_TABLES) > 256:
+            _TABLES.clear()
+        _TABLES[key] = (self._spline, self._ratio_hi)
 
     def slope(self, s) -> np.ndarray:
         """``dP/ds`` [T^2 m] at heights ``s``, tabulated (exact below the table)."""
@@ -737,10 +800,12 @@ class StationModel:
         Plates' susceptibilities [1].
     thickness, clearance : float
         Plate thickness; smallest gap floater face to plate [m].
+    width : float, optional
+        Side of square plates [m]; None for very wide plates.
     """
 
     def __init__(self, lifter: Body, floater: Body, floater_mass_kg: float, chi_perp: float,
-                 chi_par: float, thickness: float, clearance: float):
+                 chi_par: float, thickness: float, clearance: float, width: Optional[float] = None):
         self.lifter0 = lifter
         self.floater = floater.at((0.0, 0.0, 0.0))
         self.mass = float(floater_mass_kg)
@@ -748,7 +813,7 @@ class StationModel:
         self.clearance = float(clearance)
         self.a_min = self.floater.half_height + self.clearance
         g_min = max(self.clearance, 1e-3 * self.floater.height)
-        self.plates = FinitePlates(self.floater, chi_perp, chi_par, thickness, g_min=0.5 * g_min)
+        self.plates = FinitePlates(self.floater, chi_perp, chi_par, thickness, g_min=0.5 * g_min, width=width)
         self.chi_dip = self.plates.chi_dipole
         self._scan = None
         self.others: tuple = ()
@@ -897,7 +962,8 @@ def _station_model(st, temp_k: float) -> StationModel:
     cq = float(chi_at(st.plates.chi_par, st.plates.temp_coeff_per_k, temp_k))
     lifter = Body(st.lifter.shape, tuple(st.lifter.size), bl)
     floater = Body(st.floater.shape, tuple(st.floater.size), bf)
-    return StationModel(lifter, floater, st.floater.mass_kg, cp, cq, st.plates.thickness, st.plates.clearance)
+    return StationModel(lifter, floater, st.floater.mass_kg, cp, cq, st.plates.thickness, st.plates.clearance,
+                        getattr(st.plates, "width", None))
 
 
 # ---------------------------------------------------------------------------
@@ -987,6 +1053,11 @@ def _f(x) -> Optional[float]:
     return x if math.isfinite(x) else None
 
 
+DIPOLE_NOTE = ("image-dipole values (the floater as a point magnet) are an idealisation shown for "
+               "comparison only; near the plates they overstate the stiffness and the window, so the "
+               "verdict uses the finite-size model")
+
+
 def _station_report(st, model: StationModel, weight_n: float, where: str) -> dict:
     """Everything about one station carrying ``weight_n`` (floater included)."""
     warnings: list[str] = []
@@ -1031,6 +1102,17 @@ def _station_report(st, model: StationModel, weight_n: float, where: str) -> dic
     )
     kp = model.k_plates(a_check)
     kp_dip = model.k_plates_dipole(a_check)
+    width = model.plates.width
+    kp_wide = None
+    if width is not None:
+        wide = FinitePlates(model.floater, -model.plates.wz, -model.plates.wh, model.t)
+        kp_wide = wide.stiffness_direct(a_check)
+        if kp_wide > 0 and kp < 0.99 * kp_wide:
+            warnings.append(
+                f"{label}the plates are {width * 1e3:.3g} mm wide: their stiffness at "
+                f"{a_check * 1e3:.3g} mm is {100 * kp / kp_wide:.3g}% of that of very wide plates "
+                "(included in the window)"
+            )
     tl = model.tilt(D, a_check)
     kappa = 0.5 * (tl["kappa_x"] + tl["kappa_y"]) + tl["kappa_plates"]
     coupling = 0.5 * (abs(tl["c_x_ty"]) + abs(tl["c_y_tx"]))
@@ -1051,6 +1133,12 @@ def _station_report(st, model: StationModel, weight_n: float, where: str) -> dic
             f"{where}plates.distance {a_design * 1e3:.4g} mm is outside the stable window "
             f"{model.a_min * 1e3:.4g} to {min(a_max, clear_limit) * 1e3:.4g} mm"
         )
+    if a_max is not None and a_max_dip is not None and a_max_dip > a_max * 1.02 and a_max_dip > model.a_min:
+        warnings.append(
+            f"{label}the image-dipole idealisation (a point magnet) puts the window's edge at "
+            f"{a_max_dip * 1e3:.3g} mm, the finite-size model at {a_max * 1e3:.3g} mm: plates set "
+            "between the two would not hold the floater; the verdict uses the finite-size model"
+        )
     if a_max is not None and a_max > clear_limit:
         warnings.append(
             f"{label}the lifter, not stability, limits the plate distance: the upper plate must "
@@ -1070,6 +1158,12 @@ def _station_report(st, model: StationModel, weight_n: float, where: str) -> dic
         max_plate_distance_dipole_m=_f(a_max_dip),
         lifter_clear_limit_m=clear_limit,
         plate_distance_checked_m=a_check,
+        plate_stiffness_dipole_ratio=_f(kp_dip / kp) if kp > 0 else None,
+        plate_model_note=DIPOLE_NOTE,
+        plate_width_m=_f(width),
+        k_plates_wide_n_m=_f(kp_wide),
+        k_plates_checked_n_m=float(kp),
+        k_plates_dipole_checked_n_m=float(kp_dip),
         plate_distance_in_window=in_window,
         k_tilt_lifter_n_m_per_rad=0.5 * (tl["kappa_x"] + tl["kappa_y"]),
         k_tilt_plates_n_m_per_rad=tl["kappa_plates"],
@@ -1504,15 +1598,25 @@ def format_table(r: dict) -> str:
             return "none"
         return f"{num(lo, 1e3, 'mm')} to {num(hi, 1e3, 'mm')}"
 
+    ratio = r.get("plate_stiffness_dipole_ratio")
+    dip_stiff = num(r.get("k_plates_dipole_n_m"), 1, "N/m")
+    if r.get("k_plates_dipole_n_m") is not None and ratio is not None:
+        dip_stiff += f"  ({ratio:.2g} x the finite-size value)"
+    dip_edge = num(r.get("max_plate_distance_dipole_m"), 1e3, "mm")
+    if r.get("max_plate_distance_dipole_m") is not None and r.get("max_plate_distance_m") is not None \
+            and r["max_plate_distance_dipole_m"] > r["max_plate_distance_m"]:
+        dip_edge += "  (unsafe: beyond the finite-size edge)"
     rows = [
         ("floats (stable)", yes(r.get("floats"))),
         ("payload", num(r.get("payload_kg"), 1e3, "g")),
         ("lifter distance (floater centre to lifter face)", num(r.get("lifter_distance_m"), 1e3, "mm")),
         ("lifter stiffness k_z / k_r", f"{num(r.get('k_lifter_z_n_m'), 1, 'N/m')} / {num(r.get('k_lifter_r_n_m'), 1, 'N/m')}"),
         ("plate distance (design)", num(r.get("plate_distance_m"), 1e3, "mm")),
-        ("plates' stiffness finite-size / dipole", f"{num(r.get('k_plates_n_m'), 1, 'N/m')} / {num(r.get('k_plates_dipole_n_m'), 1, 'N/m')}"),
+        ("plates' stiffness, finite-size (verdict)", num(r.get("k_plates_n_m"), 1, "N/m")),
+        ("  image-dipole idealisation, comparison only", dip_stiff),
         ("stable plate distance, finite-size", span(r.get("min_plate_distance_m"), r.get("max_plate_distance_m"))),
-        ("largest plate distance, dipole model", num(r.get("max_plate_distance_dipole_m"), 1e3, "mm")),
+        ("  largest, image-dipole idealisation (comparison)", dip_edge),
+        ("plate width", "very wide" if r.get("plate_width_m") is None else num(r.get("plate_width_m"), 1e3, "mm")),
         ("plate distance in window", yes(r.get("plate_distance_in_window"))),
         ("tilt stiffness lifter / plates", f"{num(r.get('k_tilt_lifter_n_m_per_rad'), 1e3, 'mN m/rad')} / {num(r.get('k_tilt_plates_n_m_per_rad'), 1e3, 'mN m/rad')}"),
         ("lateral stiffness, tilt relaxed", num(r.get("k_r_effective_n_m"), 1, "N/m")),
@@ -1535,6 +1639,7 @@ def format_table(r: dict) -> str:
             )
     if r.get("window"):
         lines += schedule_lines(r)
+    lines += ["", "note: " + DIPOLE_NOTE + "."]
     if r.get("warnings"):
         lines += ["", "warnings:"] + [f"- {w}" for w in r["warnings"]]
     return "\n".join(lines)

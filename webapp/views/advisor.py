@@ -8,6 +8,7 @@ from matdb.errors import MatdbError
 from matdb.levitate import LARGE_MAGNET_M, LARGE_MAGNET_MASS_KG
 from matdb.physics.thermal import SAFETY_TEXT
 from matdb.units import parse_length, parse_mass, parse_temperature
+from webapp import _downloads
 from webapp import _shared as sh
 
 st.title("Advisor")
@@ -163,6 +164,7 @@ with sh.shown_errors("candidate design"):
     d1.download_button("Download this design (TOML)", toml_text.encode(),
                        file_name=f"design-{row['material']}-{row['grade']}.toml", mime="application/toml",
                        key="adv_download_design")
+    _downloads.report_buttons(toml_text, url, "adv", name=f"design-{row['material']}-{row['grade']}")
     if d2.button("Open on the Design page", key="adv_open", type="primary"):
         from matdb.design import load_design_text
 

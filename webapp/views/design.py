@@ -6,9 +6,10 @@ import altair as alt
 import pandas as pd
 import streamlit as st
 
-from matdb import presentation
+from matdb import charts, presentation
 from matdb.errors import MatdbError
 from matdb.units import parse_length, parse_mass, parse_temperature
+from webapp import _downloads
 from webapp import _shared as sh
 
 st.title("Design")
@@ -194,6 +195,8 @@ with left:
                            mime="application/toml", key="design_download")
         with st.expander("Design file text"):
             st.code(text, language="toml")
+        st.markdown("**Report and drawing**")
+        _downloads.report_buttons(text, url, "design")
     saved_designs_panel(text if design is not None else None)
     if design is None:
         st.stop()
@@ -282,25 +285,20 @@ with right:
             except MatdbError as exc:
                 st.error(f"payload range: {exc}")
                 st.stop()
+        if result.get("max_plate_distance_dipole_m") is not None:
+            ratio = result.get("plate_stiffness_dipole_ratio")
+            st.caption(
+                "Image-dipole idealisation, for comparison only: largest plate distance "
+                f"{result['max_plate_distance_dipole_m'] * 1e3:.3g} mm"
+                + ("" if result.get("max_plate_distance_m") is None
+                   else f" against {result['max_plate_distance_m'] * 1e3:.3g} mm from the finite-size model")
+                + ("" if ratio is None else f"; plate stiffness {ratio:.2g} x the finite-size value")
+                + ". The verdict and the window use the finite-size model.")
         wm = result.get("window_min_m")
         st.caption("Narrowest window of plate distances over the schedule: "
                    + ("none (some payload has no stable plate distance)" if wm is None else f"{wm * 1e3:.3g} mm"))
         sched = presentation.stabilized_window_df(result)
-        colour = alt.Color("station:N", title="station")
-        base = alt.Chart(sched).encode(x=alt.X("payload_g:Q", title="payload (g)"), color=colour)
-        lifter = base.mark_line(point=True).encode(
-            y=alt.Y("lifter_distance_mm:Q", title="lifter distance, floater centre to lifter face (mm)",
-                    scale=alt.Scale(zero=False)),
-            tooltip=["station:N", alt.Tooltip("payload_g:Q", title="payload (g)", format=".3g"),
-                     alt.Tooltip("lifter_distance_mm:Q", title="lifter distance (mm)", format=".2f")])
-        window = base.mark_area(opacity=0.25).encode(
-            y=alt.Y("min_plate_distance_mm:Q", title="stable plate distance, floater centre to plate (mm)",
-                    scale=alt.Scale(zero=False)), y2="max_plate_distance_mm:Q",
-            tooltip=["station:N", alt.Tooltip("payload_g:Q", title="payload (g)", format=".3g"),
-                     alt.Tooltip("min_plate_distance_mm:Q", title="smallest plate distance (mm)", format=".2f"),
-                     alt.Tooltip("max_plate_distance_mm:Q", title="largest stable plate distance (mm)", format=".2f")])
-        st.altair_chart(alt.vconcat(lifter.properties(height=240, width=420), window.properties(height=240, width=420)),
-                        width="content")
+        st.altair_chart(charts.schedule_chart(sched), width="content")
         st.caption("Top: where to set the lifter for each payload. Bottom: the band of plate distances that "
                    "keeps the floater stable; it narrows as the payload grows.")
         st.dataframe(sched, hide_index=True, column_config={
@@ -315,6 +313,37 @@ with right:
             "dforce_dd_n_m": st.column_config.NumberColumn("dF/dd (N/m)", format="%.3g")})
         st.download_button("Schedule as CSV (for a positioning stage)", presentation.schedule_csv(result).encode(),
                            file_name="schedule.csv", mime="text/csv", key="d_schedule_csv")
+        with st.expander("Suggest designs that float a payload range", expanded=not result.get("floats")):
+            synth = sh.module_or_none("matdb.magnet_synthesis")
+            s1, s2, s3 = st.columns([2, 1, 2])
+            s_range = s1.text_input("Payload range to float", prange.strip() or "0 g..5 g", key="fm_s_range")
+            s_win = s2.text_input("Smallest window", "0.5 mm", key="fm_s_window")
+            s_mats = s3.multiselect("Plate materials", list(synth.DEFAULT_MATERIALS) if synth else [],
+                                    default=list(synth.DEFAULT_MATERIALS) if synth else [], key="fm_s_mats")
+            if synth is not None and st.button("Search designs", key="fm_s_go"):
+                rng = sh.checked(lambda v: design_mod_stab.parse_payload_range(v, "payload range"), s_range,
+                                 "payload range to float")
+                win = sh.checked(lambda v: parse_length(v, "window", positive=True), s_win, "smallest window")
+                if rng is not None and win is not None:
+                    bar = st.progress(0.0, text="searching lifter, floater, plates and stations")
+                    try:
+                        res = synth.search(synth.FMRequest(payload_range_kg=rng, min_window_m=win,
+                                                           materials=tuple(s_mats) or synth.DEFAULT_MATERIALS),
+                                           progress=lambda f, t="": bar.progress(min(max(f, 0.0), 1.0), text=t[:90]))
+                        st.session_state["fm_search"] = (synth.records(res), res.message, res.notes)
+                    except MatdbError as exc:
+                        st.error(f"search: {exc}")
+                    bar.empty()
+            found = st.session_state.get("fm_search")
+            if found:
+                recs, message, notes = found
+                if message:
+                    st.warning(message)
+                st.dataframe(presentation.floating_designs_df(recs), hide_index=True, key="fm_s_table")
+                for n in notes:
+                    st.caption(n)
+                st.caption("Suggestions are demo designs, each re-checked by the levitate analysis; "
+                           "large magnets need the strong-magnet cautions below.")
         stations = presentation.stations_df(result)
         if len(stations):
             st.dataframe(stations, hide_index=True, column_config={
@@ -339,20 +368,7 @@ with right:
     c4.metric("0.5 mT distance", presentation.fmt_number(result["safe_distance_m"] * 1e2, "cm"))
 
     st.subheader("Lift against gap")
-    curve = presentation.lift_curve_df(result)
-    lift = alt.Chart(curve).mark_line(color="#3d6fb6", strokeWidth=2).encode(
-        x=alt.X("gap_mm:Q", title="gap above the magnets (mm)"),
-        y=alt.Y("force_mn:Q", title="force (mN)"),
-        tooltip=[alt.Tooltip("gap_mm:Q", title="gap (mm)", format=".3f"),
-                 alt.Tooltip("force_mn:Q", title="lift (mN)", format=".3g")])
-    weight = alt.Chart(curve).mark_line(color="#b2182b", strokeDash=[5, 3]).encode(
-        x="gap_mm:Q", y="weight_mn:Q", tooltip=[alt.Tooltip("weight_mn:Q", title="weight, plate + payload (mN)", format=".3g")])
-    layers = [lift, weight]
-    if result["gap_m"] is not None:
-        eq = pd.DataFrame({"gap_mm": [result["gap_m"] * 1e3], "force_mn": [result["weight_n"] * 1e3]})
-        layers.append(alt.Chart(eq).mark_point(size=140, filled=True, color="#1b7837").encode(
-            x="gap_mm:Q", y="force_mn:Q", tooltip=[alt.Tooltip("gap_mm:Q", title="equilibrium gap (mm)", format=".3f")]))
-    st.altair_chart(alt.layer(*layers).properties(height=300, title="Lift and weight against gap"), width="stretch")
+    st.altair_chart(charts.lift_chart(result), width="stretch")
     st.caption("Solid: magnetic lift on the plate; dashed: weight of plate and payload; dot: where they balance "
                "on the falling branch (the equilibrium gap).")
 
@@ -367,24 +383,8 @@ progress.progress(0.6, text="Computing the field map (step 2 of 2)...")
 fmap = sh.field_map(repr(design.magnets), result["temperature_k"], gap_mm * 1e-3, extent, design)
 progress.empty()
 field = "b_t" if quantity.startswith("|B|") else "b2_t2"
-heat = alt.Chart(fmap).mark_rect().encode(
-    x=alt.X("x0_mm:Q", title="x (mm)", scale=alt.Scale(nice=False, zero=False), axis=alt.Axis(tickCount=6)),
-    x2="x1_mm:Q",
-    y=alt.Y("y0_mm:Q", title="y (mm)", scale=alt.Scale(nice=False, zero=False), axis=alt.Axis(tickCount=6)),
-    y2="y1_mm:Q",
-    color=alt.Color(f"{field}:Q", title=quantity, scale=alt.Scale(scheme="viridis")),
-    tooltip=[alt.Tooltip("x_mm:Q", format=".2f", title="x (mm)"), alt.Tooltip("y_mm:Q", format=".2f", title="y (mm)"),
-             alt.Tooltip("b_t:Q", format=".3f", title="|B| (T)"), alt.Tooltip("bz_t:Q", format=".3f", title="Bz (T)")],
-).properties(height=340, width=340, title=f"{quantity} at {presentation.fmt_number(gap_mm, 'mm')} above the magnets")
 pol = presentation.polarity_df(design.arrangement())
-boxes = alt.Chart(pol).mark_rect(stroke="black", strokeWidth=1).encode(
-    x=alt.X("x0_mm:Q", title="x (mm)"), x2="x1_mm:Q", y=alt.Y("y0_mm:Q", title="y (mm)"), y2="y1_mm:Q",
-    color=alt.Color("points:N", title="magnetisation",
-                    scale=alt.Scale(domain=["north up", "north down", "sideways"], range=["#d6604d", "#4393c3", "#bbbbbb"])),
-    tooltip=["magnet:Q", "points:N", "grade:N", alt.Tooltip("x_mm:Q", format=".2f"), alt.Tooltip("y_mm:Q", format=".2f")])
-labels = alt.Chart(pol).mark_text(fontSize=14, fontWeight="bold").encode(x="x_mm:Q", y="y_mm:Q", text="label:N")
-st.altair_chart(alt.hconcat(heat, alt.layer(boxes, labels).properties(height=340, width=340,
-                                                                     title="top view: N = north pole up")),
+st.altair_chart(charts.field_and_polarity_chart(fmap, pol, gap_mm, quantity, charts.plate_outline_df(design)),
                 width="content")
 
 st.subheader("Numbers")

@@ -1,7 +1,7 @@
 """saved designs: named design-file texts with a note (matdb.saved_designs)
 
-Revision ID: 0002_saved_designs
-Revises: 0001_baseline
+Revision ID: 0003_saved_designs
+Revises: 0002_conductivities_and_measured_q
 Create Date: 2026-12-03 07:23:13
 """
 
@@ -10,8 +10,8 @@ from __future__ import annotations
 import sqlalchemy as sa
 from alembic import op
 
-revision = '0002_saved_designs'
-down_revision = '0001_baseline'
+revision = '0003_saved_designs'
+down_revision = '0002_conductivities_and_measured_q'
 branch_labels = None
 depends_on = None
 
