@@ -298,7 +298,8 @@ with right:
         st.caption("Narrowest window of plate distances over the schedule: "
                    + ("none (some payload has no stable plate distance)" if wm is None else f"{wm * 1e3:.3g} mm"))
         sched = presentation.stabilized_window_df(result)
-        st.altair_chart(charts.schedule_chart(sched), width="content")
+        st.altair_chart(charts.schedule_chart(sched).properties(
+            title="Lifter setting and stable plate distances against payload"), width="content")
         st.caption("Top: where to set the lifter for each payload. Bottom: the band of plate distances that "
                    "keeps the floater stable; it narrows as the payload grows.")
         st.dataframe(sched, hide_index=True, column_config={
@@ -368,7 +369,7 @@ with right:
     c4.metric("0.5 mT distance", presentation.fmt_number(result["safe_distance_m"] * 1e2, "cm"))
 
     st.subheader("Lift against gap")
-    st.altair_chart(charts.lift_chart(result), width="stretch")
+    st.altair_chart(charts.lift_chart(result).properties(title="Lift and weight against gap"), width="stretch")
     st.caption("Solid: magnetic lift on the plate; dashed: weight of plate and payload; dot: where they balance "
                "on the falling branch (the equilibrium gap).")
 
