@@ -586,7 +586,7 @@ def test_magnets_grades_differ_by_hue_and_shape_and_the_legend_speaks_words():
     assert "within rating" in text and "above max working T" in text
     assert '"false"' not in text.lower().replace('"false": ', "")
     colours = shapes = None
-    for layer in spec["hconcat"][0]["layer"]:
+    for layer in spec["layer"]:
         enc = layer.get("encoding", {})
         if "shape" in enc:
             shapes = enc["shape"]["scale"]["range"]

@@ -385,8 +385,11 @@ fmap = sh.field_map(repr(design.magnets), result["temperature_k"], gap_mm * 1e-3
 progress.empty()
 field = "b_t" if quantity.startswith("|B|") else "b2_t2"
 pol = presentation.polarity_df(design.arrangement())
-st.altair_chart(charts.field_and_polarity_chart(fmap, pol, gap_mm, quantity, charts.plate_outline_df(design)),
-                width="content")
+# one under the other, legends below: square maps that fit a 1000 px screen without being cut
+legend = dict(orient="bottom", titleLimit=300)
+st.altair_chart(charts.field_map_chart(fmap, gap_mm, quantity, charts.plate_outline_df(design))
+                .configure_legend(**legend), width="content")
+st.altair_chart(charts.polarity_chart(pol).configure_legend(**legend), width="content")
 
 st.subheader("Numbers")
 n1, n2 = st.columns([3, 2])

@@ -70,11 +70,14 @@ else:
                          alt.Tooltip(f"{field}:Q", format=fmt)])
             return alt.layer(lines, markers, rules, dots).properties(height=320, width=380, title=heading)
 
-        chart = alt.hconcat(panel("br_t", "Br (T)", ".2f", "Remanence against temperature"),
-                            panel("relative_lift", "relative lift (Br/Br at 20 degC)^2, %", ".0%",
-                                  "Lift over a diamagnet, relative to 20 degC")
-                            ).configure_legend(orient="bottom", columns=4, labelLimit=200, titleLimit=200)
-        st.altair_chart(chart, width="content")
+        # two charts in two columns that follow the screen width (a fixed-width pair ran past a 1000 px page)
+        legend = dict(orient="bottom", columns=2, labelLimit=160, titleLimit=200)
+        p1, p2 = st.columns(2)
+        p1.altair_chart(panel("br_t", "Br (T)", ".2f", "Remanence against temperature")
+                        .properties(width="container").configure_legend(**legend), width="stretch")
+        p2.altair_chart(panel("relative_lift", "relative lift (Br/Br at 20 degC)^2, %", ".0%",
+                              "Lift over a diamagnet, relative to 20 degC")
+                        .properties(width="container").configure_legend(**legend), width="stretch")
         st.caption(
             "Br(T) = Br20 (1 + alpha/100 (T - 20 degC)) from each grade's reversible coefficient; lift over a "
             "diamagnet scales with B^2, so with Br^2. Each grade has its own colour and marker shape. Open "
