@@ -54,14 +54,15 @@ import re
 import contextvars
 import threading
 from contextlib import contextmanager
-from dataclasses import asdict, dataclass, field
+from dataclasses import asdict, dataclass, field, replace
 from pathlib import Path
 from typing import Any, Sequence
 
 import numpy as np
 import pandas as pd
 
-from .errors import InputError, NotFoundError
+from . import limits as _limits
+from .errors import InputError
 from .units import G_STANDARD, MU0, parse_length, parse_mass, parse_quantity, parse_temperature
 
 CODE_VERSION = "advisor-1"
@@ -72,7 +73,12 @@ STANDARD_CUBES_M = (6.35e-3, 10e-3, 12.7e-3, 19.05e-3, 25.4e-3)
 STANDARD_CYLINDERS_M = ((10e-3, 5e-3), (12.7e-3, 6.35e-3), (20e-3, 10e-3))
 DEFAULT_THICKNESSES_M = (0.5e-3, 1e-3, 2e-3)
 DEFAULT_PATTERNS = ("checkerboard", "stripes")
-MAX_MAGNETS = 100  # default arrangements with more magnets are skipped (cost grows with count)
+MAX_MAGNETS = _limits.MAX_MAGNETS  # default arrangements with more magnets are skipped (cost grows with count)
+MIN_PLATE_THICKNESS_M = 5e-5  # thinnest plate proposed when the thickness is matched to a total mass
+MAX_PLATE_THICKNESS_M = 5e-3  # thickest plate proposed when the thickness is matched to a total mass
+#: with a total mass and no fixed plate, plates of these fractions of the footprint are ranked
+#: (a plate as wide as a checkerboard is often laterally unstable over it)
+PLATE_FRACTIONS = (1.0, 0.8, 0.65)
 
 #: screening height grid [m]: 0.05 to 0.2 mm, 0.25 mm steps to 6 mm, then wider to 20 mm
 SCREEN_HEIGHTS_M = np.concatenate([[5e-5, 1e-4, 1.5e-4, 2e-4], np.arange(1, 25) * 2.5e-4,
@@ -86,7 +92,8 @@ TILT_ORDER = 3  # tilt tables: diagonal within about 1e-3 of order 8, couplings 
 COLUMNS = ["rank", "material", "grade", "family", "arrangement", "pattern", "shape",
            "size_m", "rows", "cols", "thickness_m", "feasible", "lift_per_area_n_m2",
            "gap_m", "gap_worst_m", "margin", "margin_nominal", "laterally_stable",
-           "derating_pct", "cost_usd", "score", "pareto", "reasons", "notes", "exact"]
+           "derating_pct", "cost_usd", "score", "pareto", "reasons", "notes", "exact",
+           "plate_mass_kg", "payload_kg", "array_w_m", "array_l_m", "array_h_m", "magnet_count"]
 
 
 # ---------------------------------------------------------------------------
@@ -119,36 +126,77 @@ class AdviceRequest:
     thicknesses_m: tuple[float, ...] = DEFAULT_THICKNESSES_M
     weights: Weights = field(default_factory=Weights)
     payload_height_m: float = 0.0
+    #: plate plus payload [kg]; when set, ``mass_kg`` is 0 and each candidate's payload is
+    #: this minus its plate's mass (the plate thickness is matched to it per material)
+    total_mass_kg: float | None = None
+    #: bounding box of the magnet array (width x, length y, height z) [m]
+    envelope_m: tuple[float, float, float] | None = None
+    #: the thicknesses were typed (not the default list)
+    thickness_given: bool = False
+    #: plate outlines to rank (default: ``plate_m`` alone) [m]
+    plate_options: tuple = ()
+
+    @property
+    def plates(self) -> tuple:
+        return self.plate_options or (self.plate_m,)
+
+    @property
+    def total_mode(self) -> bool:
+        return self.total_mass_kg is not None
+
+    def payload_for(self, plate_mass_kg):
+        """Payload on a plate of this mass [kg] (negative: the plate alone is too heavy)."""
+        if self.total_mass_kg is None:
+            return self.mass_kg + 0.0 * np.asarray(plate_mass_kg)
+        return self.total_mass_kg - np.asarray(plate_mass_kg)
 
 
-_PAIR_RE = re.compile(r"^\s*(.+?)\s*[x×X*]\s*(.+?)\s*$")
+_SEP_RE = re.compile(r"\s*(?:[x×X*]|\bby\b)\s*")
+_NUM_RE = r"[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?"
 
 
-def parse_footprint(text, field_name: str = "--footprint") -> tuple[float, float]:
-    """``"17 mm x 17 mm"``, ``"17 x 17 mm"`` or ``"17 mm"`` (a square) -> (x, y) [m]."""
-    if isinstance(text, (tuple, list)) and len(text) == 2:
+def parse_dimensions(text, n: int, field_name: str, example: str) -> tuple[float, ...]:
+    """``n`` lengths typed as ``"20 mm x 20 mm"``, ``"20x20 mm"`` or ``"20 by 20 mm"``
+    (a bare number takes the unit of the last length) -> [m], all positive."""
+    if isinstance(text, (tuple, list)):
+        if len(text) != n:
+            raise InputError(f"{field_name}: expected {n} lengths such as {example!r}, got {text!r}")
         vals = [_length_si(v, field_name) for v in text]
     else:
         s = str(text).strip()
-        m = _PAIR_RE.match(s)
-        if m:
-            a, b = m.group(1), m.group(2)
-            if re.fullmatch(r"[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?", a):  # "17 x 17 mm"
-                unit = re.sub(r"^[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?\s*", "", b)
-                if not unit:
-                    raise InputError(f"{field_name}: missing unit in {text!r}; expected e.g. '17 mm x 17 mm'")
-                a = f"{a} {unit}"
-            parts = [a, b]
-        else:
-            parts = [s, s]
+        parts = [q for q in _SEP_RE.split(s)]
+        if len(parts) != n or not all(parts):
+            raise InputError(f"{field_name}: expected {n} lengths such as {example!r}, got {text!r}")
+        unit = re.sub(r"^" + _NUM_RE + r"\s*", "", parts[-1])
+        fixed = []
+        for q in parts:
+            if re.fullmatch(_NUM_RE, q):
+                if not unit or unit == parts[-1]:
+                    raise InputError(f"{field_name}: missing unit in {text!r}; expected e.g. {example!r}")
+                q = f"{q} {unit}"
+            fixed.append(q)
         try:
-            vals = [parse_length(p, field_name, positive=True) for p in parts]
+            vals = [parse_length(q, field_name, positive=True) for q in fixed]
         except InputError as exc:
-            raise InputError(f"{field_name}: expected two lengths such as '17 mm x 17 mm', got {text!r} "
+            raise InputError(f"{field_name}: expected {n} lengths such as {example!r}, got {text!r} "
                              f"({str(exc).split(': ', 1)[-1]})") from None
     if not all(v > 0 for v in vals):
         raise InputError(f"{field_name}: expected positive lengths, got {text!r}")
-    return float(vals[0]), float(vals[1])
+    return tuple(float(v) for v in vals)
+
+
+def parse_footprint(text, field_name: str = "--footprint") -> tuple[float, float]:
+    """``"17 mm x 17 mm"``, ``"17x17 mm"``, ``"17 by 17 mm"`` or ``"17 mm"`` (a square)
+    -> (x, y) [m]."""
+    if not isinstance(text, (tuple, list)) and len(_SEP_RE.split(str(text).strip())) == 1:
+        v = parse_dimensions(text, 1, field_name, "17 mm x 17 mm")[0]
+        return v, v
+    return parse_dimensions(text, 2, field_name, "17 mm x 17 mm")  # type: ignore[return-value]
+
+
+def parse_envelope(text, field_name: str = "--magnet-envelope") -> tuple[float, float, float]:
+    """``"24 x 24 x 15 mm"`` (width x length x height of the magnet array) -> [m]."""
+    return parse_dimensions(text, 3, field_name, "24 mm x 24 mm x 15 mm")  # type: ignore[return-value]
 
 
 def parse_weights(text) -> Weights:
@@ -213,24 +261,51 @@ def _names(values, field_name: str) -> tuple[str, ...] | None:
     return tuple(out)
 
 
-def parse_request(mass, footprint, *, min_gap="0.2 mm", temp_min="20 degC", temp_max="20 degC",
-                  budget=None, materials=None, families=None, grades=None, max_magnet_size=None,
-                  thickness=None, plate_size=None, weights=None, payload_height="0 mm") -> AdviceRequest:
-    """Parse what a person typed (strings with units; numbers are taken as SI)."""
+def _mass_si(v, field_name: str) -> float:
+    if isinstance(v, (int, float)) and not isinstance(v, bool):
+        if not (math.isfinite(v) and v >= 0):
+            raise InputError(f"{field_name}: expected a mass of zero or more, got {v!r}")
+        return float(v)
+    return parse_mass(v, field_name)
+
+
+def parse_request(mass=None, footprint=None, *, min_gap="0.2 mm", temp_min="20 degC",
+                  temp_max="20 degC", budget=None, materials=None, families=None, grades=None,
+                  max_magnet_size=None, thickness=None, plate_size=None, weights=None,
+                  payload_height="0 mm", total_mass=None, envelope=None) -> AdviceRequest:
+    """Parse what a person typed (strings with units; numbers are taken as SI).
+
+    Give ``mass`` (the payload on top of the plate) or ``total_mass`` (plate plus payload:
+    each candidate's plate thickness is then matched to it). ``footprint`` is required;
+    ``plate_size`` fixes the plate outline (default: the footprint); ``envelope``
+    ("W x L x H") bounds the magnet array.
+    """
     def _s(v):
         return v.strip() if isinstance(v, str) else v
 
-    mass, footprint, min_gap, temp_min, temp_max, budget, max_magnet_size, plate_size, payload_height = (
+    (mass, footprint, min_gap, temp_min, temp_max, budget, max_magnet_size, plate_size, payload_height,
+     total_mass, envelope) = (
         _s(v) for v in (mass, footprint, min_gap, temp_min, temp_max, budget, max_magnet_size,
-                        plate_size, payload_height))
-    if isinstance(mass, (int, float)) and not isinstance(mass, bool):
-        if not (math.isfinite(mass) and mass >= 0):
-            raise InputError(f"--mass: expected a mass of zero or more, got {mass!r}")
-        m = float(mass)
+                        plate_size, payload_height, total_mass, envelope))
+    if mass in ("", None) and total_mass in ("", None):
+        raise InputError("--mass/--total-mass: expected one of them, e.g. --mass '0.2 g' (payload) "
+                         "or --total-mass '0.3 g' (plate plus payload)")
+    if mass not in ("", None) and total_mass not in ("", None):
+        raise InputError("--total-mass: expected either --mass (payload) or --total-mass (plate plus "
+                         "payload), not both")
+    total = None
+    if total_mass not in ("", None):
+        total = _mass_si(total_mass, "--total-mass")
+        if total <= 0:
+            raise InputError(f"--total-mass: expected a positive mass, got {total_mass!r}")
+        m = 0.0
     else:
-        m = parse_mass(mass, "--mass")
+        m = _mass_si(mass, "--mass")
+    if footprint in ("", None):
+        raise InputError("--footprint: expected the plate outline, e.g. '20 mm x 20 mm'")
     fp = parse_footprint(footprint, "--footprint")
-    plate = parse_footprint(plate_size, "--plate-size") if plate_size is not None else fp
+    plate = parse_footprint(plate_size, "--plate-size") if plate_size not in ("", None) else fp
+    env = parse_envelope(envelope, "--magnet-envelope") if envelope not in ("", None) else None
     gap = _length_si(min_gap, "--min-gap")
     t_lo = _temp_si(temp_min, "--temp-min")
     t_hi = _temp_si(temp_max, "--temp-max")
@@ -250,7 +325,7 @@ def parse_request(mass, footprint, *, min_gap="0.2 mm", temp_min="20 degC", temp
         if mms <= 0:
             raise InputError(f"--max-magnet-size: expected a positive length, got {max_magnet_size!r}")
     th = DEFAULT_THICKNESSES_M
-    if thickness is not None:
+    if thickness is not None and thickness != () and thickness != []:
         items = [thickness] if isinstance(thickness, (str, int, float)) else list(thickness)
         vals = []
         for it in items:
@@ -264,11 +339,15 @@ def parse_request(mass, footprint, *, min_gap="0.2 mm", temp_min="20 degC", temp
             raise InputError("--thickness: expected at least one thickness such as '1 mm'")
         th = tuple(sorted(set(vals)))
     ph = _length_si(payload_height, "--payload-height")
+    plates = ()
+    if total is not None and plate_size in ("", None):
+        plates = tuple((fp[0] * f, fp[1] * f) for f in PLATE_FRACTIONS)
     return AdviceRequest(mass_kg=m, footprint_m=fp, plate_m=plate, min_gap_m=gap, temp_min_k=t_lo,
                          temp_max_k=t_hi, budget_usd=b, materials=_names(materials, "--material"),
                          families=_names(families, "--family"), grades=_names(grades, "--grade"),
                          max_magnet_size_m=mms, thicknesses_m=th, weights=parse_weights(weights),
-                         payload_height_m=ph)
+                         payload_height_m=ph, total_mass_kg=total, envelope_m=env,
+                         thickness_given=th is not DEFAULT_THICKNESSES_M, plate_options=plates)
 
 
 # ---------------------------------------------------------------------------
@@ -308,6 +387,19 @@ class ArrangementSpec:
     @property
     def max_dimension(self) -> float:
         return float(max(self.size))
+
+    @property
+    def height(self) -> float:
+        """Height of the array (the magnets' height) [m]."""
+        return float(self.size[-1])
+
+    def envelope_excess(self, envelope_m) -> tuple[float, float, float]:
+        """How far the array's width, length and height exceed ``envelope_m`` [m] (0 inside)."""
+        if envelope_m is None:
+            return (0.0, 0.0, 0.0)
+        w, ln = self.extent
+        return (max(0.0, w - envelope_m[0]), max(0.0, ln - envelope_m[1]),
+                max(0.0, self.height - envelope_m[2]))
 
     @property
     def magnet_volume_m3(self) -> float:
@@ -351,10 +443,12 @@ def _counts(length: float, pitch: float) -> list[int]:
 
 
 def default_arrangements(plate_m: tuple[float, float], max_magnet_size_m: float | None = None,
-                         patterns: Sequence[str] = DEFAULT_PATTERNS) -> list[ArrangementSpec]:
+                         patterns: Sequence[str] = DEFAULT_PATTERNS,
+                         envelope_m: tuple[float, float, float] | None = None) -> list[ArrangementSpec]:
     """Checkerboards and stripes of the standard cubes and cylinders, rows x cols scaled to
     the plate: about as many magnets as cover it, and one more per axis (so some
-    arrangements are larger than the plate)."""
+    arrangements are larger than the plate); with an envelope, also the most magnets that
+    fit inside it."""
     sizes: list[tuple[str, tuple[float, ...]]] = [("cuboid", (a, a, a)) for a in STANDARD_CUBES_M]
     sizes += [("cylinder", (d, h)) for d, h in STANDARD_CYLINDERS_M]
     out: list[ArrangementSpec] = []
@@ -362,7 +456,12 @@ def default_arrangements(plate_m: tuple[float, float], max_magnet_size_m: float 
         if max_magnet_size_m is not None and max(size) > max_magnet_size_m * (1 + 1e-9):
             continue
         p = size[0]
-        for nc, nr in zip(_counts(plate_m[0], p), _counts(plate_m[1], p)):
+        pairs = list(zip(_counts(plate_m[0], p), _counts(plate_m[1], p)))
+        if envelope_m is not None:
+            fit = (int(envelope_m[0] // p + 1e-9), int(envelope_m[1] // p + 1e-9))
+            if min(fit) >= 2 and fit not in pairs:
+                pairs.append(fit)
+        for nc, nr in pairs:
             if nr * nc > MAX_MAGNETS:
                 continue
             for pat in patterns:
@@ -644,13 +743,8 @@ def _select_grades(req: AdviceRequest, url=None):
         wanted = [catalog.get_grade(g, url).grade for g in req.grades]
         grades = [g for g in grades if g.grade in wanted]
     if req.families:
-        fams = {g.family.lower(): g.family for g in grades}
-        for f in req.families:
-            if f.lower() not in fams and not req.grades:
-                known = sorted({g.family for g in catalog.list_grades(url)})
-                raise NotFoundError(f"--family: unknown magnet family {f!r}; expected one of {', '.join(known)}")
-        want = {f.lower() for f in req.families}
-        grades = [g for g in grades if g.family.lower() in want]
+        want = {catalog.check_family(f, "--family") for f in req.families}
+        grades = [g for g in grades if g.family in want]
     if not grades:
         raise InputError("--grade/--family: no magnet grade matches the restrictions")
     return grades
@@ -766,6 +860,8 @@ class _Catalogue:
     grades: list
     specs: list
     thick: tuple
+    #: per thickness: the material indices it is matched to (None: every material)
+    thick_owner: tuple = ()
 
 
 _PROGRESS: contextvars.ContextVar = contextvars.ContextVar("matdb_advisor_progress", default=None)
@@ -901,14 +997,27 @@ def _evaluate(req: AdviceRequest, cat: _Catalogue) -> pd.DataFrame:
 
     hmax = np.array([g.demag_hmax() for g in geos])
 
-    # candidates: material x grade x spec x thickness
+    # candidates: material x grade x spec x thickness (a thickness matched to one material's
+    # total mass is paired with that material only)
     im, ig, is_, it = (a.ravel() for a in np.meshgrid(np.arange(nm), np.arange(ng), np.arange(ns),
                                                          np.arange(nt), indexing="ij"))
+    if cat.thick_owner:
+        keep = np.ones(im.size, dtype=bool)
+        for ti, owners in enumerate(cat.thick_owner):
+            if owners is not None:
+                keep &= ~((it == ti) & ~np.isin(im, list(owners)))
+        im, ig, is_, it = im[keep], ig[keep], is_[keep], it[keep]
     n = im.size
     t_c = th[it]
     plate_mass = rho_p[im] * area * t_c
-    m_tot = plate_mass + req.mass_kg
+    payload = req.payload_for(plate_mass)
+    too_heavy = payload < -1e-9 * (req.total_mass_kg or 0.0)
+    payload = np.maximum(payload, 0.0)
+    m_tot = plate_mass + payload
     weight = m_tot * G_STANDARD
+    # the array against the envelope
+    excess = np.array([s.envelope_excess(req.envelope_m) for s in specs]).reshape(ns, 3)
+    outside = (excess > 1e-9).any(axis=1)[is_]
 
     # lift at the required gap (screening rule; exact for the rows worked out)
     fz_r, fx_r = Zr[is_, it], Xr[is_, it]
@@ -995,8 +1104,10 @@ def _evaluate(req: AdviceRequest, cat: _Catalogue) -> pd.DataFrame:
     illus = np.array([g.price_illustrative for g in grades])[ig] | np.array([m.price_illustrative for m in mats])[im]
     over_budget = np.zeros(n, dtype=bool) if req.budget_usd is None else ~(cost <= req.budget_usd)
 
-    feasible = diamag[im] & (margin >= 1.0) & lat_stable & ~demag_risk & ~too_hot & ~over_budget
+    feasible = (diamag[im] & (margin >= 1.0) & lat_stable & ~demag_risk & ~too_hot & ~over_budget
+                & ~outside & ~too_heavy)
     score = score_values(margin, cost, derating, req.weights)
+    ext = np.array([s.extent for s in specs]).reshape(ns, 2)
 
     df = pd.DataFrame({
         "material": np.array([m.id for m in mats], dtype=object)[im],
@@ -1004,6 +1115,10 @@ def _evaluate(req: AdviceRequest, cat: _Catalogue) -> pd.DataFrame:
         "family": np.array([g.family for g in grades], dtype=object)[ig],
         "spec_index": is_, "mat_index": im, "grade_index": ig,
         "thickness_m": t_c, "plate_mass_kg": plate_mass, "magnet_mass_kg": magnet_mass,
+        "payload_kg": payload, "too_heavy": too_heavy, "outside_envelope": outside,
+        "array_w_m": ext[is_, 0], "array_l_m": ext[is_, 1],
+        "array_h_m": np.array([s.height for s in specs])[is_],
+        "magnet_count": np.array([s.count for s in specs])[is_],
         "weight_n": weight, "feasible": feasible,
         "lift_per_area_n_m2": lift_w / area, "lift_nominal_n": lift_nom, "lift_worst_n": lift_w,
         "gap_m": gap_nom, "gap_worst_m": gap_w, "margin": margin, "margin_nominal": margin_nom,
@@ -1015,6 +1130,7 @@ def _evaluate(req: AdviceRequest, cat: _Catalogue) -> pd.DataFrame:
         "cost_usd": cost, "price_illustrative": illus, "over_budget": over_budget,
         "score": score, "exact": np.zeros(n, dtype=bool),
         "stable_plate_side_max_m": np.full(n, np.nan), "tilt_stable": np.ones(n, dtype=bool),
+        "stable_sides_text": np.full(n, "", dtype=object),
         "tilt_checked": np.zeros(n, dtype=bool),
     })
     return df
@@ -1029,6 +1145,23 @@ def _c(t_k: float) -> str:
 
 def _mm(v: float) -> str:
     return f"{v * 1e3:.3g} mm"
+
+
+def _intervals_text(iv) -> str:
+    """Stable side intervals [m] in words ("none" when empty)."""
+    from .levitate import format_intervals
+
+    return "stable sides: " + format_intervals(iv)
+
+
+def envelope_reason(spec: ArrangementSpec, envelope_m) -> str:
+    """'array W x L x H mm is outside the magnet envelope ... (by how much)'."""
+    w, ln = spec.extent
+    ex = spec.envelope_excess(envelope_m)
+    by = [f"{e * 1e3:.3g} mm too {word}" for e, word in zip(ex, ("wide", "long", "tall")) if e > 1e-9]
+    return (f"the array ({w * 1e3:.4g} x {ln * 1e3:.4g} x {spec.height * 1e3:.4g} mm) is outside the "
+            f"magnet envelope {envelope_m[0] * 1e3:.4g} x {envelope_m[1] * 1e3:.4g} x "
+            f"{envelope_m[2] * 1e3:.4g} mm: " + ", ".join(by))
 
 
 def reasons_for(row: dict, req: AdviceRequest, cat: _Catalogue) -> tuple[list[str], list[str]]:
@@ -1067,11 +1200,10 @@ def reasons_for(row: dict, req: AdviceRequest, cat: _Catalogue) -> tuple[list[st
             reasons.append(f"irreversible loss of magnetisation: the reverse field reaches {rtxt} "
                            f"the knee at {_c(row['demag_temp_k'])}{why}")
         if math.isfinite(row["gap_m"]) and not row["laterally_stable"]:
-            side = row.get("stable_plate_side_max_m")
-            w = max(req.plate_m)
-            if side is not None and math.isfinite(side) and side < w:
-                reasons.append(f"the plate ({_mm(w)} wide) is wider than the largest laterally "
-                               f"stable side over this arrangement, {_mm(side)}")
+            sides = row.get("stable_sides_text")
+            if isinstance(sides, str) and sides:
+                reasons.append(f"the plate side {_mm(max(req.plate_m))} is in no stable interval "
+                               f"of square sides over this arrangement ({sides})")
             kx, ky = row["k_x_n_m"], row["k_y_n_m"]
             if not (kx > 0 and ky > 0):
                 reasons.append(f"laterally unstable: it slides off the magnets (k_x = {kx:.3g} N/m, "
@@ -1081,6 +1213,12 @@ def reasons_for(row: dict, req: AdviceRequest, cat: _Catalogue) -> tuple[list[st
                                "not positive)")
             else:
                 reasons.append("sliding and tilting together have no restoring force")
+        if row.get("too_heavy"):
+            pm = float(row["plate_mass_kg"])
+            reasons.append(f"the plate alone weighs {pm * 1e3:.3g} g, {(pm - req.total_mass_kg) * 1e3:.2g} g "
+                           f"more than the total mass of {req.total_mass_kg * 1e3:.3g} g")
+        if row.get("outside_envelope"):
+            reasons.append(envelope_reason(spec, req.envelope_m))
         if row["over_budget"]:
             c = row["cost_usd"]
             if math.isfinite(c):
@@ -1164,8 +1302,9 @@ def exact_evaluation(row: dict, req: AdviceRequest, cat: _Catalogue, *, side: bo
     br_op = grade.br_t * (1.0 + grade.alpha_br_pct_per_k / 100.0 * (t_op - T20_K))
     s_op = br_op ** 2 / (2.0 * MU0)
     plate_mass = mat.density_kg_m3 * geom.volume
-    weight = (plate_mass + req.mass_kg) * G_STANDARD
-    m_tot = plate_mass + req.mass_kg
+    payload = max(float(req.payload_for(plate_mass)), 0.0)
+    weight = (plate_mass + payload) * G_STANDARD
+    m_tot = plate_mass + payload
     out: dict[str, Any] = {"exact": True, "tilt_checked": True}
     if not (mat.chi_vertical < 0 and mat.chi_horizontal < 0):
         return out
@@ -1189,17 +1328,19 @@ def exact_evaluation(row: dict, req: AdviceRequest, cat: _Catalogue, *, side: bo
         kz = -(fp - fm) / (2 * h)
         fz = math.sqrt(kz / m_tot) / (2 * math.pi) if kz > 0 else 0.0
         st = P.stability(g.unit.B, geom, gap, a * br_op ** 2, b * br_op ** 2, plate_mass,
-                         req.mass_kg, req.payload_height_m, EXACT_ORDER)
+                         payload, req.payload_height_m, EXACT_ORDER)
         kx, ky, kt = st.k_x, st.k_y, min(st.k_pitch, st.k_roll)
         stable = st.laterally_stable
         tilt_ok = st.k_pitch > 0 and st.k_roll > 0
         if side and not stable and geom.is_square:
+            # where a square plate would be stable: the intervals of sides judged at their
+            # lateral equilibrium (the plate's own side is in none of them: not stable)
             ext = g.unit.bounds()
             size = max(ext[1] - ext[0], ext[3] - ext[2])
-            s_side = P.stable_side_max(g.unit.B, geom, a * br_op ** 2, b * br_op ** 2,
-                                       mat.density_kg_m3, size, req.mass_kg,
-                                       req.payload_height_m, g_start)
-            out["stable_plate_side_max_m"] = np.nan if s_side is None else float(s_side)
+            iv = P.stable_side_intervals(g.unit.B, geom, a * br_op ** 2, b * br_op ** 2,
+                                         mat.density_kg_m3, size, payload,
+                                         req.payload_height_m, g_start, known={lx: False})
+            out["stable_sides_text"] = _intervals_text(iv)
     out.update({"k_z_n_m": kz, "f_z_hz": fz, "k_x_n_m": kx, "k_y_n_m": ky,
                 "k_tilt_n_m_per_rad": kt, "laterally_stable": bool(stable), "tilt_stable": tilt_ok})
     # worst case
@@ -1231,10 +1372,54 @@ def build_catalogue(req: AdviceRequest, arrangements: Sequence[ArrangementSpec] 
     mats = _select_materials(req, url)
     grades = _select_grades(req, url)
     specs = list(arrangements) if arrangements is not None else \
-        default_arrangements(req.plate_m, req.max_magnet_size_m)
+        default_arrangements(req.plate_m, req.max_magnet_size_m, envelope_m=req.envelope_m)
     if req.max_magnet_size_m is not None and arrangements is not None:
         specs = [s for s in specs if s.max_dimension <= req.max_magnet_size_m * (1 + 1e-9)]
-    return _Catalogue(mats, grades, specs, tuple(req.thicknesses_m))
+    thick, owner = matched_thicknesses(req, mats)
+    return _Catalogue(mats, grades, specs, thick, owner)
+
+
+def matched_thickness(total_kg: float, density_kg_m3: float, plate_m) -> float | None:
+    """Plate thickness whose mass over ``plate_m`` is ``total_kg`` (rounded down to 1 um), or
+    None outside :data:`MIN_PLATE_THICKNESS_M` .. :data:`MAX_PLATE_THICKNESS_M` [m]."""
+    if not (density_kg_m3 > 0):
+        return None
+    t = math.floor(total_kg / (density_kg_m3 * plate_m[0] * plate_m[1]) * 1e6 + 1e-6) / 1e6
+    if t < MIN_PLATE_THICKNESS_M or t > MAX_PLATE_THICKNESS_M:
+        return None
+    return t
+
+
+def matched_thicknesses(req: AdviceRequest, mats) -> tuple[tuple, tuple]:
+    """The thicknesses to rank and, per thickness, the materials it belongs to.
+
+    Without a total mass: the request's thicknesses for every material. With one: the
+    typed thicknesses (or the default list) for every material, plus, unless thicknesses
+    were typed, each diamagnet's thickness matched to the total mass (plate alone = total).
+    """
+    base = [float(t) for t in req.thicknesses_m]
+    if req.total_mode and not req.thickness_given:
+        base = [t for t in base if any(m.chi_vertical < 0 and m.chi_horizontal < 0
+                                       and m.density_kg_m3 * req.plate_m[0] * req.plate_m[1] * t
+                                       <= req.total_mass_kg for m in mats)]
+    owner: dict[float, set | None] = {t: None for t in base}
+    if req.total_mode and not req.thickness_given:
+        for i, m in enumerate(mats):
+            if not (m.chi_vertical < 0 and m.chi_horizontal < 0):
+                continue
+            t = matched_thickness(req.total_mass_kg, m.density_kg_m3, req.plate_m)
+            if t is None:
+                continue
+            if t in owner and owner[t] is None:
+                continue
+            owner.setdefault(t, set()).add(i)
+    ts = tuple(sorted(owner))
+    if not ts:  # nothing matches: rank the default list (rejected with the reason)
+        return tuple(req.thicknesses_m), ()
+    owners = tuple(None if owner[t] is None else frozenset(owner[t]) for t in ts)
+    if all(o is None for o in owners):
+        owners = ()
+    return ts, owners
 
 
 def _failures(df: pd.DataFrame) -> np.ndarray:
@@ -1242,7 +1427,8 @@ def _failures(df: pd.DataFrame) -> np.ndarray:
     return (np.asarray(~df["diamagnetic"], dtype=int) + np.asarray(~(df["margin"] >= 1.0), dtype=int)
             + np.asarray(~df["laterally_stable"].astype(bool), dtype=int)
             + np.asarray(df["demag_risk"], dtype=int) + np.asarray(df["too_hot"], dtype=int)
-            + np.asarray(df["over_budget"], dtype=int))
+            + np.asarray(df["over_budget"], dtype=int)
+            + np.asarray(df["outside_envelope"], dtype=int) + np.asarray(df["too_heavy"], dtype=int))
 
 
 def _sort(df: pd.DataFrame) -> pd.DataFrame:
@@ -1257,7 +1443,8 @@ def _sort(df: pd.DataFrame) -> pd.DataFrame:
 def _refresh_flags(df: pd.DataFrame, idx, req: AdviceRequest) -> None:
     sub = df.loc[idx]
     feas = (sub["diamagnetic"] & (sub["margin"] >= 1.0) & sub["laterally_stable"].astype(bool)
-            & ~sub["demag_risk"] & ~sub["too_hot"] & ~sub["over_budget"])
+            & ~sub["demag_risk"] & ~sub["too_hot"] & ~sub["over_budget"]
+            & ~sub["outside_envelope"] & ~sub["too_heavy"])
     df.loc[idx, "feasible"] = feas.astype(bool)
     df.loc[idx, "score"] = score_values(sub["margin"], sub["cost_usd"], sub["derating_pct"], req.weights)
 
@@ -1281,10 +1468,12 @@ def _screen_tilt(df: pd.DataFrame, idx, req: AdviceRequest, cat: _Catalogue) -> 
             and bool(df.at[i, "diamagnetic"])]
     groups: dict[tuple, list] = {}
     for i in rows:
-        groups.setdefault((int(df.at[i, "spec_index"]), float(df.at[i, "thickness_m"])), []).append(i)
+        pk = (float(df.at[i, "plate_x_m"]), float(df.at[i, "plate_y_m"])) if "plate_x_m" in df.columns \
+            else tuple(req.plate_m)
+        groups.setdefault((int(df.at[i, "spec_index"]), float(df.at[i, "thickness_m"]), pk), []).append(i)
     lg = np.log(TILT_GAPS_M)
-    for (si, t), members in groups.items():
-        g = geometry(cat.specs[si], req.plate_m)
+    for (si, t, pk), members in groups.items():
+        g = geometry(cat.specs[si], pk)
         where = {}
         for i in members:
             x = float(np.clip(math.log(float(df.at[i, "gap_m"])), lg[0], lg[-1]))
@@ -1305,10 +1494,11 @@ def _screen_tilt(df: pd.DataFrame, idx, req: AdviceRequest, cat: _Catalogue) -> 
             br = grade.br_t * (1.0 + grade.alpha_br_pct_per_k / 100.0 * (req.temp_max_k - T20_K))
             k = br ** 2 * (a * kk[0] + b * kk[1])  # about O; order x, y, roll, pitch
             pm = float(df.at[i, "plate_mass_kg"])
-            m_tot = pm + req.mass_kg
+            pl = float(df.at[i, "payload_kg"])
+            m_tot = pm + pl
             zo = gap + t / 2
             zl = gap + t + req.payload_height_m
-            zc = (pm * zo + req.mass_kg * zl) / m_tot if m_tot > 0 else zo
+            zc = (pm * zo + pl * zl) / m_tot if m_tot > 0 else zo
             h = zc - zo
             w = float(df.at[i, "weight_n"])
             kx, ky = k[0, 0], k[1, 1]
@@ -1340,9 +1530,33 @@ def rank(req: AdviceRequest, arrangements: Sequence[ArrangementSpec] | None = No
 _LOCK = threading.RLock()
 
 
+def row_request(row, req: AdviceRequest) -> AdviceRequest:
+    """The request with the plate outline of ``row`` (rows may rank several plates)."""
+    px, py = row.get("plate_x_m"), row.get("plate_y_m")
+    if px is None or (float(px), float(py)) == tuple(req.plate_m):
+        return req
+    return replace(req, plate_m=(float(px), float(py)), plate_options=())
+
+
+def _evaluate_plates(req: AdviceRequest, cat: _Catalogue) -> pd.DataFrame:
+    """:func:`_evaluate` for each plate outline of the request (thicknesses matched per plate)."""
+    frames = []
+    for p in req.plates:
+        rq = replace(req, plate_m=(float(p[0]), float(p[1])), plate_options=())
+        cp = cat
+        if len(req.plates) > 1:
+            th, own = matched_thicknesses(rq, cat.mats)
+            cp = _Catalogue(cat.mats, cat.grades, cat.specs, th, own)
+        f = _evaluate(rq, cp)
+        f["plate_x_m"] = float(p[0])
+        f["plate_y_m"] = float(p[1])
+        frames.append(f)
+    return frames[0] if len(frames) == 1 else pd.concat(frames, ignore_index=True)
+
+
 def _rank_locked(req: AdviceRequest, cat: _Catalogue, polish: int, tilt_rows: int):
     _report(0.02, "screening every candidate")
-    df = _evaluate(req, cat)
+    df = _evaluate_plates(req, cat)
     df = _sort(df)
     _report(0.65, "checking tilt of the best candidates")
     for _ in range(6):  # until the first `tilt_rows` feasible rows have had their tilt checked
@@ -1362,11 +1576,12 @@ def _rank_locked(req: AdviceRequest, cat: _Catalogue, polish: int, tilt_rows: in
             break
         for i in todo:
             row = df.loc[i].to_dict()
-            key = _polish_key(row, req, cat)
-            g = geometry(cat.specs[int(row["spec_index"])], req.plate_m)
+            key = _polish_key(row, row_request(row, req), cat)
+            rq = row_request(row, req)
+            g = geometry(cat.specs[int(row["spec_index"])], rq.plate_m)
             upd = g.memo.get(key)
             if upd is None:
-                upd = exact_evaluation(row, req, cat)
+                upd = exact_evaluation(row, rq, cat)
                 upd = {k: (float(v) if isinstance(v, (float, np.floating)) else v) for k, v in upd.items()}
                 g.memo[key] = upd
                 g.dirty = True
@@ -1375,7 +1590,8 @@ def _rank_locked(req: AdviceRequest, cat: _Catalogue, polish: int, tilt_rows: in
         _refresh_flags(df, todo, req)
         df = _sort(df)
     for s in cat.specs:
-        geometry(s, req.plate_m).save()
+        for p in req.plates:
+            geometry(s, p).save()
     # the Pareto front over feasible candidates
     feas = df["feasible"].to_numpy(dtype=bool)
     par = np.zeros(len(df), dtype=bool)
@@ -1393,7 +1609,8 @@ def _polish_key(row: dict, req: AdviceRequest, cat: _Catalogue) -> str:
     d = {"m": [mat.id, repr(mat.chi_vertical), repr(mat.chi_horizontal), repr(mat.uncertainty_si),
                repr(mat.temp_coeff_per_k), repr(mat.density_kg_m3)],
          "g": [grade.grade, repr(grade.br_t), repr(grade.br_min_t), repr(grade.alpha_br_pct_per_k)],
-         "t": repr(float(row["thickness_m"])), "mass": repr(req.mass_kg), "gap": repr(req.min_gap_m),
+         "t": repr(float(row["thickness_m"])), "mass": repr(req.mass_kg),
+         "total": repr(req.total_mass_kg), "gap": repr(req.min_gap_m),
          "T": repr(req.temp_max_k), "ph": repr(req.payload_height_m)}
     return hashlib.sha256(json.dumps(d, sort_keys=True).encode()).hexdigest()[:20]
 
@@ -1408,7 +1625,7 @@ def finish(df: pd.DataFrame, req: AdviceRequest, cat: _Catalogue, top: int | Non
     df = df.copy()
     reasons, notes, descr, pat, shp, size, rows, cols = [], [], [], [], [], [], [], []
     for row in df.to_dict(orient="records"):
-        r, n_ = reasons_for(row, req, cat)
+        r, n_ = reasons_for(row, row_request(row, req), cat)
         reasons.append(r)
         notes.append(n_)
         spec = cat.specs[int(row["spec_index"])]
@@ -1420,21 +1637,26 @@ def finish(df: pd.DataFrame, req: AdviceRequest, cat: _Catalogue, top: int | Non
         cols.append(spec.cols)
     df["reasons"] = reasons
     df["notes"] = notes
-    df["lift_per_area_nominal_n_m2"] = df["lift_nominal_n"] / (req.plate_m[0] * req.plate_m[1])
+    if "plate_x_m" not in df.columns:
+        df["plate_x_m"] = float(req.plate_m[0])
+        df["plate_y_m"] = float(req.plate_m[1])
+    df["lift_per_area_nominal_n_m2"] = df["lift_nominal_n"] / (df["plate_x_m"] * df["plate_y_m"])
     df["arrangement"] = descr
     df["pattern"] = pat
     df["shape"] = shp
     df["size_m"] = size
     df["rows"] = rows
     df["cols"] = cols
+    df["plate_m"] = [[float(a), float(b)] for a, b in zip(df["plate_x_m"], df["plate_y_m"])]
     front = [c for c in COLUMNS if c in df.columns]
     rest = [c for c in df.columns if c not in front]
     return df[front + rest].reset_index(drop=True)
 
 
-def advise(mass, footprint, *, min_gap="0.2 mm", temp_min="20 degC", temp_max="20 degC",
+def advise(mass=None, footprint=None, *, min_gap="0.2 mm", temp_min="20 degC", temp_max="20 degC",
            budget=None, materials=None, families=None, grades=None, max_magnet_size=None,
            thickness=None, plate_size=None, weights=None, payload_height="0 mm",
+           total_mass=None, envelope=None,
            arrangements: Sequence[ArrangementSpec] | None = None, top: int | None = None,
            feasible_only: bool = False, polish: int | None = None, url=None,
            objective: str = "score", min_q: float | None = None,
@@ -1446,7 +1668,9 @@ def advise(mass, footprint, *, min_gap="0.2 mm", temp_min="20 degC", temp_max="2
     ``budget`` ("20 USD"), restrictions ``materials``, ``families``, ``grades``,
     ``max_magnet_size``, ``thickness`` (one or more), ``plate_size`` (default the
     footprint), ``weights`` ("margin=1,cost=1,derating=1"), ``payload_height`` (payload
-    centre of mass above the plate). ``top`` limits the rows returned; the first ``polish``
+    centre of mass above the plate), ``total_mass`` (plate plus payload, instead of
+    ``mass``: each plate's thickness is matched to it), ``envelope`` ("24 x 24 x 15 mm":
+    arrays outside it are rejected with by how much). ``top`` limits the rows returned; the first ``polish``
     rows (default 1) are worked out exactly as ``matdb levitate`` does (column ``exact``).
     ``objective="noise"`` ranks the feasible rows by the lowest noise floor and ``min_q``
     rejects rows below a vertical-mode Q, both at ``pressure_pa``
@@ -1459,12 +1683,14 @@ def advise(mass, footprint, *, min_gap="0.2 mm", temp_min="20 degC", temp_max="2
         ``reasons``. Contract columns: rank, material, grade, arrangement (description),
         pattern, shape, size_m, rows, cols, feasible, lift_per_area_n_m2, gap_m,
         gap_worst_m, margin, laterally_stable, derating_pct, cost_usd, score, pareto,
-        reasons; more follow (SI units in the names).
+        reasons, plate_mass_kg, payload_kg, array_w_m, array_l_m, array_h_m,
+        magnet_count; more follow (SI units in the names).
     """
     req = parse_request(mass, footprint, min_gap=min_gap, temp_min=temp_min, temp_max=temp_max,
                         budget=budget, materials=materials, families=families, grades=grades,
                         max_magnet_size=max_magnet_size, thickness=thickness, plate_size=plate_size,
-                        weights=weights, payload_height=payload_height)
+                        weights=weights, payload_height=payload_height, total_mass=total_mass,
+                        envelope=envelope)
     return advise_request(req, arrangements, top=top, feasible_only=feasible_only, polish=polish,
                           url=url, objective=objective, min_q=min_q, pressure_pa=pressure_pa)[0]
 
@@ -1514,7 +1740,8 @@ def _jnum(v):
 JSON_EXTRA = ["family", "thickness_m", "margin_nominal", "lift_per_area_nominal_n_m2",
               "max_payload_worst_kg", "k_z_n_m", "f_z_hz", "k_x_n_m", "k_y_n_m",
               "k_tilt_n_m_per_rad", "demag_risk", "demag_ratio", "plate_mass_kg", "magnet_mass_kg",
-              "price_illustrative", "stable_plate_side_max_m", "exact", "tilt_checked", "notes"]
+              "price_illustrative", "stable_plate_side_max_m", "exact", "tilt_checked", "notes",
+              "payload_kg", "plate_m", "array_w_m", "array_l_m", "array_h_m", "magnet_count"]
 
 
 def records(df: pd.DataFrame) -> list[dict]:
@@ -1558,9 +1785,14 @@ def candidate_design(row: dict, req: AdviceRequest, cat: _Catalogue | None = Non
                                int(row["cols"]))
     mags = MagnetSpec(spec.shape, tuple(spec.size), grade.grade, None, spec.pattern, spec.rows,
                       spec.cols, spec.spacing, spec.back_plate, 0.0, (), {grade.grade: grade})
+    req = row_request(row, req)
     lx, ly = req.plate_m
-    plate = PlateSpec(mat.id, "rectangle", (lx, ly, float(row["thickness_m"])), None, None, None,
-                      req.mass_kg, req.payload_height_m, req.min_gap_m, (0.0, 0.0), mat)
+    t = float(row["thickness_m"])
+    payload = row.get("payload_kg")
+    if payload is None or not math.isfinite(float(payload)):
+        payload = max(float(req.payload_for(mat.density_kg_m3 * lx * ly * t)), 0.0)
+    plate = PlateSpec(mat.id, "rectangle", (lx, ly, t), None, None, None,
+                      float(payload), req.payload_height_m, req.min_gap_m, (0.0, 0.0), mat)
     cond = Conditions(None, req.temp_min_k, req.temp_max_k)
     desc = f"matdb advise: {mat.id} plate over a {spec.description}, grade {grade.grade}"
     return PlateDesign(mags, plate, cond, name=name or f"{mat.id}-{grade.grade}", description=desc)

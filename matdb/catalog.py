@@ -18,7 +18,16 @@ from sqlmodel import Session, select
 
 from .db import read_session
 from .errors import NotFoundError
-from .models import MagnetGrade, MagnetValue, Material, Source, SusceptibilityValue
+from .models import (
+    PROVENANCE_STATUSES,
+    MagnetGrade,
+    MagnetValue,
+    Material,
+    PropertyValue,
+    Source,
+    SusceptibilityValue,
+    ValueProvenance,
+)
 
 _QUALITY_RANK = {"standard": 0, "handbook": 1, "estimate": 2, "measured": 3}
 _MAGNET_FIELDS = (
@@ -83,6 +92,22 @@ class GradeProps:
     value_id: int
     source_key: str
     source: str
+
+
+def check_family(name, field: str = "--family") -> str:
+    """The family name as matdb spells it (any case accepted); an unknown one is refused.
+
+    Every command and page that takes a magnet family goes through here, so each refuses
+    the same names with the same one line listing the families.
+    """
+    from .models import FAMILIES
+
+    text = str(name if name is not None else "").strip()
+    for f in FAMILIES:
+        if f.lower() == text.lower():
+            return f
+    raise NotFoundError(f"{field}: unknown magnet family {text!r}; expected one of {', '.join(FAMILIES)}"
+                        + _close(text, FAMILIES))
 
 
 def _close(name: str, choices: Iterable[str]) -> str:
@@ -268,6 +293,7 @@ def material_values(material_id: str, url: str | None = None) -> list[dict]:
                              .order_by(SusceptibilityValue.id)).all())
         pref = choose_preferred(values, m.preferred_value_id)
         sources = _sources(s)
+        prov = _prov_by_row(s, "chi")
         rows = []
         for v in values:
             src = sources.get(v.source_key)
@@ -286,6 +312,9 @@ def material_values(material_id: str, url: str | None = None) -> list[dict]:
                 "entered_at": v.entered_at.isoformat(timespec="seconds") if v.entered_at else None,
                 "preferred": pref is not None and v.id == pref.id,
                 "retracted": v.retracted, "retract_reason": v.retract_reason,
+                "provenance": _row_provenance(
+                    v, prov, sources, ("value_published", "value_par_published", "temperature_k",
+                                       "uncertainty_si", "temp_coeff_per_k", "density_kg_m3")),
             })
         return rows
 
@@ -297,6 +326,7 @@ def grade_values(grade: str, url: str | None = None) -> list[dict]:
         grade_row = s.get(MagnetGrade, g.grade)
         pref = choose_preferred(values, grade_row.preferred_value_id)
         sources = _sources(s)
+        prov = _prov_by_row(s, "magnet")
         rows = []
         for v in values:
             src = sources.get(v.source_key)
@@ -309,12 +339,179 @@ def grade_values(grade: str, url: str | None = None) -> list[dict]:
                 "method": v.method, "note": v.note,
                 "preferred": pref is not None and v.id == pref.id,
                 "retracted": v.retracted, "retract_reason": v.retract_reason,
+                "provenance": _row_provenance(v, prov, sources, _MAGNET_FIELDS),
             })
             rows.append(d)
         return rows
 
 
 # ---------------------------------------------------------------------------
+# provenance: which published table each stored number was checked against
+# ---------------------------------------------------------------------------
+#: Text marks printed beside a value (tables and the page): never colour alone.
+STATUS_MARKS = {"verified": "v", "corrected": "c", "unverified": "?", "measured": "m"}
+STATUS_LEGEND = ("v = verified against the cited table, c = corrected from it, "
+                 "? = unverified (no reachable source; see matdb show ID), m = lab measurement")
+
+#: What each grade column means (grade tables mix nominal and minimum values).
+GRADE_COLUMN_MEANING = {
+    "br_t": "Br nominal: mid-point of the grade's published Br range (typical magnets)",
+    "br_min_t": "Br minimum: lower end of the published range (what a purchase guarantees)",
+    "hcb_ka_m": "Hcb minimum as published",
+    "hcj_ka_m": "Hcj minimum as published (the coercivity class of the suffix)",
+    "bhmax_kj_m3": "BHmax nominal: mid-point of the published range",
+    "alpha_br_pct_per_k": "reversible temperature coefficient of Br, typical, %/K",
+    "beta_hcj_pct_per_k": "temperature coefficient of Hcj, typical, %/K",
+    "max_temp_c": "maximum working temperature as published (assumes a working point near "
+                  "Pc 1-2; a thin magnet in an open circuit may lose flux below it)",
+    "mu_rec": "recoil (relative) permeability, typical",
+    "density_kg_m3": "density, typical",
+}
+
+_CHI_FIELD_OF_COLUMN = {"chi_si": "value_published", "chi_perp_si": "value_published",
+                        "chi_par_si": "value_par_published", "temp_coeff_per_k": "temp_coeff_per_k",
+                        "uncertainty_si": "uncertainty_published", "uncertainty": "uncertainty_published"}
+
+
+def _prov_dict(p: ValueProvenance, sources: dict) -> dict:
+    src = sources.get(p.source_key) if p.source_key else None
+    return {"field": p.field, "status": p.status, "locator": p.locator, "source_key": p.source_key,
+            "source": src.citation if src else None, "sources_tried": p.sources_tried, "note": p.note}
+
+
+def _prov_by_row(s: Session, value_kind: str) -> dict:
+    """value_row_id (or owner id for materials and properties) -> [ValueProvenance]."""
+    out: dict = {}
+    for p in s.exec(select(ValueProvenance).where(ValueProvenance.value_kind == value_kind)).all():
+        key = p.value_row_id if value_kind in ("chi", "magnet") else p.owner_id
+        out.setdefault(key, []).append(p)
+    return out
+
+
+def _measured_provenance(v, fields: Iterable[str]) -> list[dict]:
+    """A lab row is primary data: nothing published to compare it with."""
+    where = v.source_note or v.method or "lab record"
+    return [{"field": f, "status": "unverified", "locator": where, "source_key": v.source_key,
+             "source": v.source_note or None, "sources_tried": "",
+             "note": "lab measurement (primary data, not compared with a published table)"}
+            for f in fields if getattr(v, f, None) is not None]
+
+
+def _row_provenance(v, prov: dict, sources: dict, fields: Iterable[str]) -> list[dict]:
+    if v.quality == "measured":
+        return _measured_provenance(v, fields)
+    return [_prov_dict(p, sources) for p in prov.get(v.id, [])]
+
+
+def material_provenance(material_id: str, url: str | None = None) -> list[dict]:
+    """Provenance of the material row's own numbers (density, molar mass)."""
+    with read_session(url) as s:
+        prov = _prov_by_row(s, "material")
+        return [_prov_dict(p, _sources(s)) for p in prov.get(material_id, [])]
+
+
+def status_marks(url: str | None = None) -> dict[str, dict[str, dict[str, str]]]:
+    """Status of each number in use: ``{"material": {id: {column: status}}, "magnet": {...}}``.
+
+    Columns are those of :func:`material_record` / :func:`grade_record`; a number taken from
+    a lab row is ``measured``.
+    """
+    out: dict[str, dict[str, dict[str, str]]] = {"material": {}, "magnet": {}}
+    with read_session(url) as s:
+        chi_prov, mag_prov, mat_prov = _prov_by_row(s, "chi"), _prov_by_row(s, "magnet"), _prov_by_row(s, "material")
+        chi_values = _values_by(s, SusceptibilityValue, "material_id")
+        mag_values = _values_by(s, MagnetValue, "grade")
+        for m in s.exec(select(Material)).all():
+            v = choose_preferred(chi_values.get(m.id, []), m.preferred_value_id)
+            if v is None:
+                continue
+            by_field = {p.field: p.status for p in chi_prov.get(v.id, [])}
+            marks = {}
+            for col, f in _CHI_FIELD_OF_COLUMN.items():
+                marks[col] = "measured" if v.quality == "measured" else by_field.get(f, "unverified")
+            dens = {p.field: p.status for p in mat_prov.get(m.id, [])}
+            marks["density_kg_m3"] = ("measured" if v.quality == "measured" and v.density_kg_m3
+                                      else dens.get("density_kg_m3", "unverified"))
+            out["material"][m.id] = marks
+        for g in s.exec(select(MagnetGrade)).all():
+            vals = mag_values.get(g.grade, [])
+            v = choose_preferred(vals, g.preferred_value_id)
+            if v is None:
+                continue
+            published = choose_preferred([x for x in vals if x.quality != "measured"], None)
+            pub = {p.field: p.status for p in mag_prov.get(published.id, [])} if published else {}
+            own = {p.field: p.status for p in mag_prov.get(v.id, [])}
+            marks = {}
+            for f in _MAGNET_FIELDS:
+                if v.quality == "measured" and getattr(v, f) is not None:
+                    marks[f] = "measured"
+                elif v.quality == "measured":
+                    marks[f] = pub.get(f, "unverified")
+                else:
+                    marks[f] = own.get(f, "unverified")
+            out["magnet"][g.grade] = marks
+    return out
+
+
+def mark(status: str | None) -> str:
+    return STATUS_MARKS.get(status or "unverified", "?")
+
+
+def list_properties(subject_id: str | None = None, url: str | None = None) -> list[dict]:
+    """Further published properties (resistivity, thermal expansion, ...) with provenance."""
+    with read_session(url) as s:
+        sources = _sources(s)
+        prov = _prov_by_row(s, "property")
+        q = select(PropertyValue).order_by(PropertyValue.subject_kind, PropertyValue.subject_id, PropertyValue.key)
+        rows = []
+        for p in s.exec(q).all():
+            if subject_id is not None and p.subject_id.lower() != subject_id.lower():
+                continue
+            pv = [_prov_dict(x, sources) for x in prov.get(p.key, [])]
+            rows.append({
+                "key": p.key, "subject_kind": p.subject_kind, "subject_id": p.subject_id,
+                "property": p.property, "axis": p.axis, "value_si": p.value_si, "unit_si": p.unit_si,
+                "value_published": p.value_published, "unit_published": p.unit_published,
+                "temperature_c": None if p.temperature_k is None else round(p.temperature_k - 273.15, 6),
+                "quality": p.quality, "source_key": p.source_key,
+                "source": sources[p.source_key].citation if p.source_key in sources else p.source_key,
+                "note": p.note, "status": pv[0]["status"] if pv else "unverified",
+                "locator": pv[0]["locator"] if pv else "", "provenance": pv,
+            })
+        return rows
+
+
+def sources_summary(status: str | None = None, url: str | None = None) -> list[dict]:
+    """The bibliography with how many stored values each supports, by status.
+
+    ``status`` (verified, corrected, unverified) keeps only sources with values of that status.
+    """
+    if status is not None and status not in PROVENANCE_STATUSES:
+        from .errors import InputError
+
+        raise InputError(f"--status: expected one of {', '.join(PROVENANCE_STATUSES)}, got {status!r}")
+    with read_session(url) as s:
+        counts: dict[str, dict[str, int]] = {}
+        for p in s.exec(select(ValueProvenance)).all():
+            c = counts.setdefault(p.source_key or "", {k: 0 for k in PROVENANCE_STATUSES})
+            c[p.status] += 1
+        rows = []
+        for src in s.exec(select(Source).order_by(Source.key)).all():
+            c = counts.get(src.key, {k: 0 for k in PROVENANCE_STATUSES})
+            if status is not None and c[status] == 0:
+                continue
+            rows.append({"key": src.key, "kind": src.kind, "year": src.year, "values": sum(c.values()),
+                         **c, "citation": src.citation, "note": src.note})
+        return rows
+
+
+def provenance_totals(url: str | None = None) -> dict[str, int]:
+    """How many stored published numbers have each status."""
+    with read_session(url) as s:
+        out = {k: 0 for k in PROVENANCE_STATUSES}
+        for p in s.exec(select(ValueProvenance)).all():
+            out[p.status] += 1
+        return out
 # electrical conductivities (eddy damping)
 # ---------------------------------------------------------------------------
 @dataclass(frozen=True)

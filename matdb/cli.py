@@ -11,6 +11,8 @@ import argparse
 import importlib
 import sys
 
+from sqlalchemy.exc import SQLAlchemyError
+
 from .errors import MatdbError
 from .units import protect_negative_numbers
 
@@ -56,6 +58,11 @@ def main(argv: list[str] | None = None) -> int:
     except MatdbError as exc:
         msg = str(exc).replace("\n", " ")
         print(f"matdb: error: {msg}", file=sys.stderr)
+        return 2
+    except SQLAlchemyError as exc:  # the database itself failed (locked, gone, refused): one line too
+        orig = getattr(exc, "orig", None) or exc
+        first = (str(orig).strip().splitlines() or [type(orig).__name__])[0]
+        print(f"matdb: error: database: {first}", file=sys.stderr)
         return 2
     except BrokenPipeError:  # pragma: no cover
         return 0

@@ -22,6 +22,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from . import limits
 from .errors import InputError, NotFoundError
 from .units import parse_chi, parse_length, parse_mass, parse_number, parse_temperature
 
@@ -367,6 +368,7 @@ def _parse_magnets(t: Any) -> MagnetSpec:
     pattern = _choice(t.get("pattern", "single"), PATTERNS, "magnets.pattern")
     rows = _int(t.get("rows", 1), "magnets.rows")
     cols = _int(t.get("cols", 1), "magnets.cols")
+    limits.check_arrangement(rows, cols, "magnets")
     if pattern == "single" and rows * cols != 1:
         raise InputError("magnets.rows: pattern 'single' is one magnet; use 'grid', "
                          "'checkerboard' or 'stripes' for rows and cols")
@@ -379,6 +381,7 @@ def _parse_magnets(t: Any) -> MagnetSpec:
         if not isinstance(raw, list) or not raw:
             raise InputError("magnets.item: pattern 'list' needs [[magnets.item]] tables "
                              "with position and direction")
+        limits.check_count(len(raw), limits.MAX_MAGNETS, "magnets.item", "magnets")
         for i, it in enumerate(raw):
             key = f"magnets.item[{i}]"
             it = _check_keys(it, ITEM_KEYS, key)
@@ -544,8 +547,11 @@ def _parse_conditions(t: Any) -> Conditions:
     return Conditions(temps.get("temperature"), lo, hi)
 
 
-def parse_design(doc: dict, source: str | None = None):
+def parse_design(doc: dict, source: str | None = None, *, need_plate: bool = True):
     """A design from a parsed TOML document (dict).
+
+    With ``need_plate=False`` (a field map needs only magnets) a floating-plate design may
+    leave out ``[plate]``; its ``plate`` is then None.
 
     Returns
     -------
@@ -559,7 +565,7 @@ def parse_design(doc: dict, source: str | None = None):
 
         return parse_stabilized(doc, source=source)
     _check_keys(doc, TOP_KEYS, "")
-    for need in ("magnets", "plate"):
+    for need in ("magnets", "plate") if need_plate else ("magnets",):
         if need not in doc:
             raise InputError(f"{need}: missing table [{need}]")
     name = doc.get("name")
@@ -567,30 +573,31 @@ def parse_design(doc: dict, source: str | None = None):
     for k, v in (("name", name), ("description", desc)):
         if v is not None and not isinstance(v, str):
             raise InputError(f"{k}: expected a string, got {v!r}")
-    return PlateDesign(_parse_magnets(doc["magnets"]), _parse_plate(doc["plate"]),
+    plate = _parse_plate(doc["plate"]) if need_plate or "plate" in doc else None
+    return PlateDesign(_parse_magnets(doc["magnets"]), plate,
                        _parse_conditions(doc.get("conditions", {})), name, desc, source)
 
 
-def load_design_text(text: str, source: str | None = None):
+def load_design_text(text: str, source: str | None = None, *, need_plate: bool = True):
     """A design from TOML text (the web page's editor)."""
+    where = source or "design"
+    if len(text.encode("utf-8", "surrogatepass")) > limits.MAX_FILE_BYTES:
+        raise InputError(f"{where}: the design is larger than the limit of {limits.MAX_FILE_BYTES:,} bytes")
+    limits.check_nesting(text, where)
     try:
         doc = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        where = source or "design"
         raise InputError(f"{where}: not valid TOML: {exc}") from exc
-    return parse_design(doc, source)
+    except RecursionError:  # pragma: no cover - check_nesting refuses such text first
+        raise InputError(f"{where}: nesting deeper than the limit of {limits.MAX_NESTING} levels") from None
+    return parse_design(doc, source, need_plate=need_plate)
 
 
-def load_design(path) -> Any:
+def load_design(path, *, need_plate: bool = True) -> Any:
     """A design from a TOML file: :class:`PlateDesign` for floating-plate designs."""
     p = Path(path)
-    try:
-        text = p.read_text(encoding="utf-8")
-    except FileNotFoundError as exc:
-        raise InputError(f"design: no such file {str(p)!r}") from exc
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"design: cannot read {str(p)!r}: {exc}") from exc
-    return load_design_text(text, source=str(p))
+    text = limits.read_text_limited(p, "design", limits.MAX_FILE_BYTES)
+    return load_design_text(text, source=str(p), need_plate=need_plate)
 
 
 # ---------------------------------------------------------------------------

@@ -477,6 +477,9 @@ def parse_stabilized(doc: dict, source: Optional[str] = None) -> StabilizedDesig
     raw = doc["station"]
     if not isinstance(raw, list) or not raw:
         raise InputError("station: expected one or more [[station]] tables")
+    from .limits import MAX_MAGNETS, check_count
+
+    check_count(len(raw), MAX_MAGNETS // 2, "station", "stations (two magnets each)")
     stations = []
     for i, s in enumerate(raw):
         key = f"station[{i}]"

@@ -174,6 +174,12 @@ def prepare_dynamics(design: PlateDesign, temp_k: float | None = None,
         if md.unstable:
             warnings.append(f"Unstable mode: {md.name[len('unstable: '):]} (negative stiffness); "
                             "it has no frequency or Q.")
+    from .levitate import LARGE_MAGNET_M, LARGE_MAGNET_MASS_KG, _lines
+    from .physics.thermal import SAFETY_TEXT
+
+    if (design.magnets.largest_dimension_m() > LARGE_MAGNET_M
+            or design.magnet_mass_kg() > LARGE_MAGNET_MASS_KG):
+        warnings.extend(_lines(SAFETY_TEXT))
     return DynamicsPrep(design, t_op, gap, air_gap, pivot, st.k, m, float(sum(parts_m)),
                         plate_mass, modes, c_eddy, s_ab, s_c, s_src, fem, area, polar, sq, h,
                         size, t, warnings, bool(st.laterally_stable))
@@ -428,3 +434,51 @@ def list_q_values(material_id: str | None = None, url: str | None = None) -> lis
             stmt = stmt.where(QualityFactorValue.material_id == material_id)
         rows = [r for r in s.exec(stmt.order_by(QualityFactorValue.id)).all() if not r.retracted]
         return [{c: getattr(r, c) for c in Q_VALUE_COLUMNS} for r in rows]
+
+
+# ---------------------------------------------------------------------------
+# tables for the page and the report (no physics: reshaping of results)
+# ---------------------------------------------------------------------------
+def outline_df(design: PlateDesign):
+    """The plate outline with slots and holes as polygon rings for a drawing.
+
+    Columns ``piece``, ``ring`` (0 the outer edge, then slot/hole edges), ``order``,
+    ``x_mm``, ``y_mm``; each ring is closed (its first point repeated).
+    """
+    import pandas as pd
+
+    p = design.plate
+    geom = D.plate_outline(p.shape, p.lx_m, p.ly_m, p.center_m[0], p.center_m[1], p.slots,
+                           p.holes)
+    rows = []
+    for k, poly in enumerate(D.outline_pieces(geom)):
+        for j, ring in enumerate([poly.exterior, *poly.interiors]):
+            for n, (x, y) in enumerate(ring.coords):
+                rows.append({"piece": k, "ring": j, "order": n, "x_mm": x * 1e3, "y_mm": y * 1e3})
+    return pd.DataFrame(rows, columns=["piece", "ring", "order", "x_mm", "y_mm"])
+
+
+DEFAULT_PRESSURES_PA = tuple(float(p) for p in np.logspace(-4, 5, 19)) + (101325.0,)
+
+
+def pressure_sweep_df(design: PlateDesign, pressures: Sequence[float] = DEFAULT_PRESSURES_PA,
+                      prep: DynamicsPrep | None = None):
+    """Q of each stable mode against pressure (one finite-element solve for all)."""
+    import pandas as pd
+
+    rows = q_versus_pressure(design, sorted(set(pressures)), prep)
+    return pd.DataFrame(rows, columns=["pressure_pa", "mode", "q", "q_eddy", "q_air"])
+
+
+def modes_df(result: dict):
+    """Per-mode table in the units people use (Hz, s, micro-g/sqrt(Hz))."""
+    import pandas as pd
+
+    rows = []
+    for m in result["modes"]:
+        rows.append({"mode": m["name"], "frequency_hz": m["frequency_hz"], "q": m["q"],
+                     "q_eddy": m["q_eddy"], "q_air": m["q_air"], "ring_down_s": m["ring_down_s"],
+                     "limited_by": m["dominant_damping"],
+                     "noise_ug_rthz": m.get("noise_micro_g_rthz")})
+    return pd.DataFrame(rows, columns=["mode", "frequency_hz", "q", "q_eddy", "q_air",
+                                       "ring_down_s", "limited_by", "noise_ug_rthz"])

@@ -29,8 +29,9 @@ from sqlmodel import Session, select
 from . import catalog
 from .db import read_session, session_scope
 from .errors import InputError, NotFoundError
+from .output import escape_cell, unescape_cell  # noqa: F401  (also used by callers as labvalues.*)
+from .limits import MAX_FILE_BYTES, MAX_IMPORT_BYTES, MAX_IMPORT_ROWS, check_count, check_nesting, read_text_limited
 from .models import (
-    FAMILIES,
     MATERIAL_KINDS,
     QUALITY_CLASSES,
     MagnetGrade,
@@ -243,10 +244,13 @@ def _find_grade(s: Session, grade: str) -> Optional[MagnetGrade]:
     return None
 
 
-def _pause_hook(written: int) -> None:
-    """Crash-test hook: with MATDB_TEST_IMPORT_PAUSE_AFTER=N, stop for a minute after N rows."""
+def _pause_hook(written: int, session: Optional[Session] = None) -> None:
+    """Crash-test hook: with MATDB_TEST_IMPORT_PAUSE_AFTER=N, stop for a minute after N rows
+    (flushed to the database inside the open transaction)."""
     env = os.environ.get(PAUSE_ENV, "").strip()
     if env and env.isdigit() and written == int(env):
+        if session is not None:
+            session.flush()
         print(f"matdb: import paused after {written} rows", file=sys.stderr, flush=True)
         time.sleep(120)
 
@@ -537,11 +541,7 @@ def record_magnet_value(
 
 
 def _check_family(family: Any, label: str) -> str:
-    fam = _text(family)
-    for f in FAMILIES:
-        if f.lower() == fam.lower():
-            return f
-    raise InputError(f"{label}: expected one of {', '.join(FAMILIES)}, got {fam!r}")
+    return catalog.check_family(_text(family), label)
 
 
 # ---------------------------------------------------------------------------
@@ -610,12 +610,7 @@ def _chi_from_float_gap(material_id: str, gap: Any, design: Any, url: Optional[s
 
     gap_m = parse_length(_text(gap), "--from-float-gap", positive=True)
     path = Path(_text(design))
-    if not path.is_file():
-        raise InputError(f"--design: no such file {str(path)!r}")
-    try:
-        content = path.read_text(encoding="utf-8")
-    except UnicodeDecodeError:
-        raise InputError(f"--design: {str(path)!r} is not UTF-8 text") from None
+    content = read_text_limited(path, "--design", MAX_FILE_BYTES)
     m = catalog.get_material(material_id, url)
     chi_v, assumed = invert_float_gap(gap_m, path, m)
     aniso = m.anisotropic and m.chi_par_si is not None
@@ -816,21 +811,6 @@ INPUT_COLUMNS = {"material_id", "grade", "chi", "chi_perp", "chi_par", "temperat
                  "density", "molar_mass", "br", "hcj", "alpha", "max_temp"}
 _MAGNET_NUM = ("br_t", "br_min_t", "hcb_ka_m", "hcj_ka_m", "bhmax_kj_m3", "alpha_br_pct_per_k",
                "beta_hcj_pct_per_k", "max_temp_c", "mu_rec", "density_kg_m3")
-_FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
-
-
-def escape_cell(text: str) -> str:
-    """Neutralise spreadsheet formulas: a text cell beginning with = + - @ (or a quote) gets a ``'``."""
-    if text and (text[0] in _FORMULA_START or text[0] == "'"):
-        return "'" + text
-    return text
-
-
-def unescape_cell(text: str) -> str:
-    """Undo :func:`escape_cell` (a ``'`` before = + - @ or a quote is removed)."""
-    if len(text) >= 2 and text[0] == "'" and (text[1] in _FORMULA_START or text[1] == "'"):
-        return text[1:]
-    return text
 
 
 def _iso(d) -> Optional[str]:
@@ -926,14 +906,7 @@ class _Bad(Exception):
 def _read_rows(path: Path) -> tuple[list[tuple[str, dict[str, str]]], str]:
     """(locator, cells) rows from a CSV (or an export JSON) file; cells are unescaped strings."""
     label = path.name
-    if not path.is_file():
-        raise InputError(f"FILE: no such file {str(path)!r}")
-    raw = path.read_bytes()
-    try:
-        text = raw.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        raise InputError(f"{label}: not UTF-8 text ({exc.reason} at byte {exc.start}); "
-                         "save it as 'CSV UTF-8'") from None
+    text = read_text_limited(path, "FILE", MAX_IMPORT_BYTES)
     if not text.strip():
         raise InputError(f"{label}: the file is empty")
     if text.lstrip().startswith("{"):
@@ -967,6 +940,10 @@ def _read_rows(path: Path) -> tuple[list[tuple[str, dict[str, str]]], str]:
         if missing:
             raise InputError(f"{label}:1: missing columns {', '.join(missing)} (a measured-value file needs "
                              "material_id, chi and source; optional: " + ", ".join(sorted(INPUT_COLUMNS - {'material_id', 'chi'})) + ")")
+    # a file in the export layout (a 'record' column) was written by matdb, which escaped its
+    # formula-like cells (output.escape_cell); a measured-value file is read as typed, so a
+    # cell typed "'=already quoted" keeps its apostrophe
+    unescape = unescape_cell if "record" in has else (lambda c: c)
     rows = []
     try:
         for cells in reader:
@@ -978,13 +955,16 @@ def _read_rows(path: Path) -> tuple[list[tuple[str, dict[str, str]]], str]:
             if len(cells) != len(header):
                 rows.append((f"line {line}", {"__error__": f"expected {len(header)} cells, found {len(cells)}"}))
                 continue
-            rows.append((f"line {line}", {h: unescape_cell(c) for h, c in zip(header, cells)}))
+            rows.append((f"line {line}", {h: unescape(c) for h, c in zip(header, cells)}))
+            if len(rows) > MAX_IMPORT_ROWS:
+                check_count(len(rows), MAX_IMPORT_ROWS, label, "rows")
     except csv.Error as exc:
         raise InputError(f"{label}:{reader.line_num}: unreadable CSV ({exc})") from None
     return rows, "csv"
 
 
 def _json_rows(text: str, label: str) -> list[tuple[str, dict[str, str]]]:
+    check_nesting(text, label)
     try:
         data = json.loads(text)
     except json.JSONDecodeError as exc:
@@ -1001,6 +981,7 @@ def _json_rows(text: str, label: str) -> list[tuple[str, dict[str, str]]]:
                 rows.append((f"{group}[{i}]", {"__error__": "expected an object"}))
                 continue
             rows.append((f"{group}[{i}]", {k: _cell_out("value_id", v) for k, v in item.items()}))
+    check_count(len(rows), MAX_IMPORT_ROWS, label, "rows")
     return rows
 
 
@@ -1019,20 +1000,6 @@ def _close_enough(a: Optional[float], b: Optional[float]) -> bool:
     if a is None or b is None:
         return a is None and b is None
     return math.isclose(a, b, rel_tol=1e-9, abs_tol=1e-15)
-
-
-def _same_chi(a: SusceptibilityValue, b: SusceptibilityValue) -> bool:
-    return (a.material_id == b.material_id and a.quality == b.quality and _close_enough(a.chi_si, b.chi_si)
-            and _close_enough(a.chi_par_si, b.chi_par_si) and _close_enough(a.temperature_k, b.temperature_k)
-            and a.measured_on == b.measured_on and a.source_key == b.source_key
-            and (a.source_note or "") == (b.source_note or ""))
-
-
-def _same_magnet(a: MagnetValue, b: MagnetValue) -> bool:
-    return (a.grade == b.grade and a.quality == b.quality
-            and all(_close_enough(getattr(a, k), getattr(b, k)) for k in _MAGNET_NUM)
-            and a.measured_on == b.measured_on and a.source_key == b.source_key
-            and (a.source_note or "") == (b.source_note or ""))
 
 
 def _parse_entered(text: str, label: str) -> Optional[_dt.datetime]:
@@ -1156,25 +1123,78 @@ def _row_magnet(c: dict[str, str], grade: str, source_keys: set[str]) -> MagnetV
     return v
 
 
-def _plan_value(plan, kind: str, owner: str, v, pref: bool, existing: dict, same_fn, pinned: set) -> None:
+def _r(x: Optional[float]) -> Optional[float]:
+    """A float rounded to 12 significant digits: the matching key of a stored number."""
+    return None if x is None else float(f"{x:.12g}")
+
+
+def _chi_key(v: SusceptibilityValue) -> tuple:
+    """What makes two susceptibility rows the same measurement (numbers to 12 digits, date, source)."""
+    return ("chi", v.material_id, v.quality, _r(v.chi_si), _r(v.chi_par_si), _r(v.temperature_k), v.measured_on,
+            v.source_key, v.source_note or "")
+
+
+def _magnet_key(v: MagnetValue) -> tuple:
+    return ("magnet", v.grade, v.quality, *(_r(getattr(v, k)) for k in _MAGNET_NUM), v.measured_on,
+            v.source_key, v.source_note or "")
+
+
+def _utc(d: Optional[_dt.datetime]) -> Optional[_dt.datetime]:
+    if d is None:
+        return None
+    return d.astimezone(_dt.timezone.utc).replace(tzinfo=None) if d.tzinfo is not None else d
+
+
+class _Existing:
+    """The value rows the database held before the import, indexed for matching.
+
+    Each stored row matches at most one imported row (a value recorded twice is two rows
+    and comes back as two), so an export imported into an empty database recreates every
+    row and re-importing it adds nothing. Lookups are dictionary hits: the import is linear
+    in the number of rows.
+    """
+
+    def __init__(self, rows, key_fn, owner_attr: str):
+        self.key_fn = key_fn
+        self.by_key: dict[tuple, list] = {}
+        self.published: dict[tuple, Any] = {}
+        for v in rows:
+            self.by_key.setdefault(key_fn(v), []).append(v)
+            if v.quality != "measured":
+                self.published.setdefault((getattr(v, owner_attr), v.source_key), v)
+        self.used: set[int] = set()
+
+    def take(self, v, owner: str, entered_given: bool):
+        """The stored row that is the same as imported row ``v`` (None: it is new)."""
+        cands = [o for o in self.by_key.get(self.key_fn(v), ()) if id(o) not in self.used]
+        same = None
+        if cands:
+            if entered_given:  # an export row: the copy entered at the same moment first
+                t = _utc(v.entered_at)
+                same = next((o for o in cands if _utc(o.entered_at) == t), None)
+            same = same or cands[0]
+        elif v.quality != "measured":
+            # a published value: the database's own published row for that source wins
+            same = self.published.get((owner, v.source_key))
+        if same is not None:
+            self.used.add(id(same))
+        return same
+
+
+def _plan_value(plan, kind: str, owner: str, v, pref: bool, existing: _Existing, pinned: set,
+                entered_given: bool = False) -> None:
     """Plan one imported value row: skip it when the database already holds the same row
-    (a published row for the same source counts as the same), carrying over a retraction
-    or a preference; otherwise plan the insert. ``pinned`` owners already got a preference."""
-    rows = existing.get(owner, [])
-    same = next((o for o in rows if same_fn(o, v)), None)
-    if same is None and v.quality != "measured":
-        # a published value: the database's own published row for that source wins
-        same = next((o for o in rows if o.quality != "measured" and o.source_key == v.source_key), None)
+    (carrying over a retraction with its reason, or a preference); otherwise plan the
+    insert with its own status. ``pinned`` owners already got a preference."""
+    same = existing.take(v, owner, entered_given)
     if same is not None:
         plan.skipped += 1
-        if same.id is not None:
-            if v.retracted and not same.retracted and same.quality == "measured":
-                plan.retractions.append((same, v.retract_reason))
-            if pref and owner not in pinned:
-                plan.preferences.append((kind, same))
-                pinned.add(owner)
+        if v.retracted and not same.retracted and same.quality == "measured":
+            plan.retractions.append((same, v.retract_reason))
+        if pref and owner not in pinned:
+            plan.preferences.append((kind, same))
+            pinned.add(owner)
         return
-    existing.setdefault(owner, []).append(v)
     plan.values.append((kind, v, pref and owner not in pinned))
     if pref:
         pinned.add(owner)
@@ -1199,6 +1219,9 @@ def _plan_import(s: Session, rows: list[tuple[str, dict[str, str]]], label: str)
         kinds[rec].append((loc, c))
 
     source_keys = set(s.exec(select(Source.key)).all()) | {LAB_SOURCE_KEY}
+    # strong references: the session's identity map holds rows weakly, so without these every
+    # s.get(Material, id) of a row would be a new query (one per imported row)
+    held = (s.exec(select(Material)).all(), s.exec(select(MagnetGrade)).all())
     for loc, c in kinds["source"]:
         try:
             key = _text(c.get("id"))
@@ -1271,12 +1294,8 @@ def _plan_import(s: Session, rows: list[tuple[str, dict[str, str]]], label: str)
         except InputError as exc:
             bad(loc, exc)
 
-    existing_chi: dict[str, list] = {}
-    for v in s.exec(select(SusceptibilityValue)).all():
-        existing_chi.setdefault(v.material_id, []).append(v)
-    existing_mag: dict[str, list] = {}
-    for v in s.exec(select(MagnetValue)).all():
-        existing_mag.setdefault(v.grade, []).append(v)
+    existing_chi = _Existing(s.exec(select(SusceptibilityValue)).all(), _chi_key, "material_id")
+    existing_mag = _Existing(s.exec(select(MagnetValue)).all(), _magnet_key, "grade")
     pinned_materials: set[str] = set()
     for loc, c in kinds["chi"]:
         try:
@@ -1295,7 +1314,8 @@ def _plan_import(s: Session, rows: list[tuple[str, dict[str, str]]], label: str)
                                                origin="user", price_illustrative=True))
             v = _row_chi(s, c, mat, source_keys)
             pref = _bool(c.get("preference_set"), "preference_set")
-            _plan_value(plan, "material", mid, v, pref, existing_chi, _same_chi, pinned_materials)
+            _plan_value(plan, "material", mid, v, pref, existing_chi, pinned_materials,
+                        entered_given=bool(_text(c.get("entered_at"))))
         except InputError as exc:
             bad(loc, exc)
 
@@ -1309,10 +1329,12 @@ def _plan_import(s: Session, rows: list[tuple[str, dict[str, str]]], label: str)
                 raise InputError(f"id: unknown magnet grade {gid!r} (add a grade row for it)")
             v = _row_magnet(c, name, source_keys)
             pref = _bool(c.get("preference_set"), "preference_set")
-            _plan_value(plan, "magnet", name, v, pref, existing_mag, _same_magnet, pinned_grades)
+            _plan_value(plan, "magnet", name, v, pref, existing_mag, pinned_grades,
+                        entered_given=bool(_text(c.get("entered_at"))))
         except InputError as exc:
             bad(loc, exc)
 
+    del held
     if errors:
         n = len(errors)
         raise InputError(f"{label}: {n} bad row{'s' if n > 1 else ''}, nothing imported: " + "; ".join(errors))
@@ -1351,11 +1373,13 @@ def import_file(path: Any, *, dry_run: bool = False, url: Optional[str] = None) 
         s.flush()
         pins: list[tuple[str, Any]] = []
         for i, (kind, v, pref) in enumerate(plan.values, start=1):
-            s.add(v)
-            s.flush()
-            _pause_hook(i)
+            s.add(v)  # inserted in batches (executemany), not one flush per row
+            if i % 2000 == 0:
+                s.flush()
+            _pause_hook(i, s)
             if pref:
                 pins.append((kind, v))
+        s.flush()
         for v, why in plan.retractions:
             v.retracted = True
             v.retract_reason = why

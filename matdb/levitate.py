@@ -25,12 +25,16 @@ CONTRACT_KEYS = (
     "mode", "floats", "gap_m", "weight_n", "lift_curve", "max_payload_kg", "k_z_n_m",
     "f_z_hz", "k_x_n_m", "k_y_n_m", "k_tilt_n_m_per_rad", "laterally_stable",
     "stable_plate_side_max_m", "lift_derating_pct", "gap_drift_um_per_k", "demag_risk",
-    "gap_worst_m", "max_payload_worst_kg", "safe_distance_m", "warnings",
+    "gap_worst_m", "max_payload_worst_kg", "safe_distance_m", "warnings", "cold", "hot",
+    "stable_side_intervals_m", "lateral_equilibrium_m",
 )
+#: keys of the ``cold`` and ``hot`` objects (a contract too)
+STATE_KEYS = ("temperature_k", "gap_m", "margin", "k_z_n_m", "k_x_n_m", "k_y_n_m")
 
 LARGE_MAGNET_M = 0.025  # a single magnet larger than this gets the cautions [m]
 LARGE_MAGNET_MASS_KG = 0.100  # so does a total magnet mass above this [kg]
 N_GAPS = 60  # points of the lift curve
+SHIFT_TOL_M = 1e-6  # a plate centre closer than this to its equilibrium is not moved [m]
 NEAR_NEUTRAL = 0.05  # a stiffness below this fraction of the other direction's
 
 
@@ -86,6 +90,40 @@ def _f(x) -> float | None:
     return None if x is None else float(x)
 
 
+def _mm3(v: float) -> str:
+    """A coordinate [m] in mm to 3 significant digits, rounding-noise zeros as 0."""
+    return f"{(v * 1e3 if abs(v) > 1e-9 else 0.0):.3g}"
+
+
+def format_intervals(intervals) -> str:
+    """``[[a, b], ...]`` [m] as ``"a-b mm, ..."`` ("none" when empty)."""
+    if not intervals:
+        return "none"
+    return ", ".join(f"{lo * 1e3:.3g}-{hi * 1e3:.3g} mm" for lo, hi in intervals)
+
+
+def _state(t_k: float, res: P.PlateResult, lift_req: float) -> dict[str, Any]:
+    """The ``cold`` / ``hot`` object: gap, margin and stiffnesses at one temperature."""
+    st = res.stability
+    return {"temperature_k": float(t_k), "gap_m": _f(res.gap),
+            "margin": float(lift_req / res.weight) if res.weight > 0 else None,
+            "k_z_n_m": _f(res.k_z), "k_x_n_m": _f(st.k_x) if st else None,
+            "k_y_n_m": _f(st.k_y) if st else None,
+            "laterally_stable": bool(st.laterally_stable) if st else False}
+
+
+def _state_at(design: PlateDesign, t_k: float, geom: P.PlateGeometry, g_start: float,
+              g_req: float) -> dict[str, Any]:
+    """:func:`_state` of a fresh analysis at ``t_k`` (nominal Br and chi there)."""
+    arr = design.arrangement(t_k)
+    cp, cq = _chi_at(design, t_k)
+    spec = design.plate
+    res = P.analyse_plate(arr.B, geom, cp, cq, spec.density_kg_m3, spec.payload_kg,
+                          spec.payload_height_m, g_start, g_req, n_gaps=30)
+    lift = float(P.lift_force(arr.B, geom, [g_req], cp, cq)[0])
+    return _state(t_k, res, lift)
+
+
 def levitate_plate(design: PlateDesign, temp_k: float | None = None,
                    gap_m: float | None = None) -> dict[str, Any]:
     """Floating-plate analysis of a design.
@@ -124,11 +162,16 @@ def levitate_plate(design: PlateDesign, temp_k: float | None = None,
 
     arr20 = design.arrangement()
     arr = design.arrangement(t_op)
-    geom = plate_geometry(design, arr)
+    geom0 = plate_geometry(design, arr)
     chi_perp, chi_par = _chi_at(design, t_op)
     density = plate_spec.density_kg_m3
     cover = mags.cover_m
     g_start = cover + P.MIN_GAP
+    # where the plate comes to rest sideways, near the centre the design gives
+    eq = P.lateral_equilibrium(arr.B, geom0, chi_perp, chi_par, density, plate_spec.payload_kg,
+                               g_start, order=P.DEFAULT_ORDER)
+    moved = eq.found and eq.shift_m > SHIFT_TOL_M
+    geom = geom0.shifted(eq.cx - geom0.cx, eq.cy - geom0.cy) if moved else geom0
     g_req_asked = plate_spec.min_gap_m if gap_m is None else float(gap_m)
     if gap_m is not None and not (math.isfinite(gap_m) and gap_m >= 0):
         raise InputError(f"gap: expected a gap of zero or more, got {gap_m!r}")
@@ -160,15 +203,20 @@ def levitate_plate(design: PlateDesign, temp_k: float | None = None,
     out["k_pitch_n_m_per_rad"] = _f(st.k_pitch) if st else None
     out["k_roll_n_m_per_rad"] = _f(st.k_roll) if st else None
     out["k_yaw_n_m_per_rad"] = _f(st.k_yaw) if st else None
-    out["laterally_stable"] = bool(st.laterally_stable) if st else False
+    stable_here = bool(st.laterally_stable) if st else False
+    out["laterally_stable"] = bool(stable_here and eq.found)
+    out["lateral_equilibrium_m"] = [float(eq.cx), float(eq.cy)] if eq.found else None
 
     extent = arr.bounds()
     size = max(extent[1] - extent[0], extent[3] - extent[2])
-    side = None
-    if geom.is_square:
-        side = P.stable_side_max(arr.B, geom, chi_perp, chi_par, density, size,
-                                 plate_spec.payload_kg, plate_spec.payload_height_m, g_start)
-    out["stable_plate_side_max_m"] = _f(side)
+    intervals: list[list[float]] = []
+    if geom0.is_square and res.floats:
+        intervals = P.stable_side_intervals(
+            arr.B, geom0, chi_perp, chi_par, density, size, plate_spec.payload_kg,
+            plate_spec.payload_height_m, g_start, known={float(geom0.lx): out["laterally_stable"]})
+    out["stable_side_intervals_m"] = intervals
+    holding = P.interval_holding(intervals, geom0.lx) if geom0.is_square else None
+    out["stable_plate_side_max_m"] = None if holding is None else float(holding[1])
 
     # thermal
     alpha = grade.alpha_br_pct_per_k
@@ -224,7 +272,10 @@ def levitate_plate(design: PlateDesign, temp_k: float | None = None,
         if res.gap < g_req:
             warnings.append(f"It floats at {res.gap * 1e3:.3g} mm, below the required gap of "
                             f"{g_req * 1e3:.3g} mm.")
-        if st is not None and not st.laterally_stable:
+        if not eq.found:
+            warnings.append(f"No lateral equilibrium within {0.25 * max(geom0.lx, geom0.ly) * 1e3:.3g} mm "
+                            "of the plate's centre: it slides away sideways.")
+        if st is not None and eq.found and not st.laterally_stable:
             why = []
             if st.k_x <= 0 or st.k_y <= 0:
                 why.append("it slides sideways off the magnets (lateral stiffness not positive)")
@@ -248,17 +299,19 @@ def levitate_plate(design: PlateDesign, temp_k: float | None = None,
         if st is not None and st.k_yaw is not None and st.k_yaw < 0 and geom.shape == "rectangle":
             warnings.append("The plate tends to turn about the vertical axis to another "
                             "orientation; stiffnesses are for the orientation given.")
-        q0 = P.combine(P.generalized_forces_split(
-            arr.B, geom, res.gap, (geom.cx, geom.cy, res.gap), np.zeros((1, 6)))[0],
-            chi_perp, chi_par)
-        fl = float(math.hypot(q0[0], q0[1]))
-        out["lateral_force_n"] = fl
-        if fl > 1e-3 * weight:
-            warnings.append(f"At this position the plate is pushed sideways by {fl * 1e3:.3g} mN; "
-                            "it is not centred over a lateral equilibrium.")
-    if geom.is_square and side is None:
-        warnings.append("No square plate side scanned is both floating and stable over this "
-                        "arrangement.")
+        fl = eq.force_at_start_n
+        out["lateral_force_n"] = _f(fl)
+        if moved:
+            warnings.append(f"Placed at ({_mm3(geom0.cx)}, {_mm3(geom0.cy)}) mm the plate is "
+                            f"pushed sideways by {fl * 1e3:.3g} mN; it comes to rest at "
+                            f"({_mm3(eq.cx)}, {_mm3(eq.cy)}) mm, where it is analysed.")
+    if geom0.is_square and res.floats:
+        if not intervals:
+            warnings.append("No square plate side scanned floats stably at its lateral "
+                            "equilibrium over this arrangement.")
+        elif holding is None:
+            warnings.append(f"The plate side {geom0.lx * 1e3:.3g} mm is in no stable interval; "
+                            f"stable sides: {format_intervals(intervals)}.")
     big = mags.largest_dimension_m() > LARGE_MAGNET_M
     mag_mass = design.magnet_mass_kg()
     if big or mag_mass > LARGE_MAGNET_MASS_KG:
@@ -266,11 +319,17 @@ def levitate_plate(design: PlateDesign, temp_k: float | None = None,
     warnings.append(f"Keep pacemakers and other implants at least {out['safe_distance_m'] * 1e2:.2g} cm "
                     "from the magnets (0.5 mT).")
 
+    # coldest and hottest temperature side by side (nominal Br and chi there)
+    lift_req = float(P.lift_force(arr.B, geom, [g_req], chi_perp, chi_par)[0])
+    here = _state(t_op, res, lift_req)
+    out["cold"] = here if t_cold == t_op else _state_at(design, t_cold, geom, g_start, g_req)
+    out["hot"] = here if t_hot == t_op else _state_at(design, t_hot, geom, g_start, g_req)
+
     out["warnings"] = warnings
     # extras
     out["clearance_m"] = _f(None if res.gap is None else res.gap - cover)
     out["required_gap_m"] = float(g_req)
-    out["lift_at_required_gap_n"] = float(P.lift_force(arr.B, geom, [g_req], chi_perp, chi_par)[0])
+    out["lift_at_required_gap_n"] = lift_req
     out["margin"] = out["lift_at_required_gap_n"] / weight if weight > 0 else None
     out["temperature_k"] = t_op
     out["temp_coldest_k"] = t_cold
@@ -350,6 +409,7 @@ def stability_scan(design: PlateDesign, temp_k: float | None = None, n: int = 10
     if own is not None:
         sides.append(own)
     g_start = design.magnets.cover_m + P.MIN_GAP
+    shift = 0.25 * max(geom.lx, geom.ly)  # as stable_side_intervals: near the design's centre
     rows = []
     for side in sorted(set(float(s) for s in sides)):
         g = geom.with_side(side)
@@ -358,8 +418,13 @@ def stability_scan(design: PlateDesign, temp_k: float | None = None, n: int = 10
         gap = P.equilibrium_gap(arr.B, g, chi_perp, chi_par, weight, g_start, 4, xtol=None)
         stable = False
         if gap is not None:
-            stable = P.stability(arr.B, g, gap, chi_perp, chi_par, mass, p.payload_kg,
-                                 p.payload_height_m, 4, full=False).laterally_stable
+            # judged at the lateral equilibrium near the centre, as the stable intervals are
+            es = P.stability_at_equilibrium(arr.B, g, chi_perp, chi_par, p.density_kg_m3,
+                                            p.payload_kg, p.payload_height_m, g_start, 4,
+                                            max_shift=shift)
+            stable = es.stable
+            if es.equilibrium.found:
+                gap = es.equilibrium.gap
         rows.append({"side_m": side, "floats": gap is not None, "gap_m": _f(gap),
                      "laterally_stable": bool(stable),
                      "is_design": own is not None and abs(side - own) < 1e-12})

@@ -111,6 +111,9 @@ class FMRequest:
         Smallest gap floater face to plate [m].
     top : int
         Designs to confirm with the exact levitate path and show.
+    rejected : int or None
+        Closest rejected designs to show with their reasons; None: 3 when nothing works,
+        none otherwise.
     """
 
     payload_range_kg: tuple
@@ -123,6 +126,7 @@ class FMRequest:
     temperature_k: float = 293.15
     clearance_m: float = 0.5e-3
     top: int = 3
+    rejected: Optional[int] = None
 
     def __post_init__(self):
         lo, hi = self.payload_range_kg
@@ -138,6 +142,8 @@ class FMRequest:
             raise InputError(f"envelope: expected positive width and height, got {self.envelope_m!r}")
         if self.top < 1:
             raise InputError(f"top: expected one or more, got {self.top!r}")
+        if self.rejected is not None and self.rejected < 0:
+            raise InputError(f"rejected: expected zero or more, got {self.rejected!r}")
 
 
 @dataclass
@@ -600,7 +606,10 @@ def search(req: FMRequest, progress: Optional[Callable[[float, str], None]] = No
         designs.append(design)
     confirmed = [r for r in shown if r["feasible"]]
     # when nothing is confirmed: the closest rejected designs, with their reasons
-    rej = [int(i) for i in np.argsort(worst, kind="stable") if not ok[i]][:3] if not confirmed else []
+    n_rej = (0 if confirmed else 3) if req.rejected is None else req.rejected
+    if not confirmed:
+        n_rej = max(n_rej, 1)
+    rej = [int(i) for i in np.argsort(worst, kind="stable") if not ok[i]][:n_rej]
     for i in rej:
         r = row(i)
         r.update(feasible=False, exact_checked=False, window_min_m=r["screen_window_min_m"], resolution_m=None)

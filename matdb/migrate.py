@@ -4,7 +4,9 @@
 
 * an empty database is created at the newest revision (``head``) and seeded;
 * a database at an older revision is upgraded to ``head``; a SQLite file is first copied
-  beside itself (``<file>.before-<head>-<UTC time>.bak``);
+  beside itself (``<file>.before-<head>-<UTC time>.bak``); the seed data is then loaded again
+  (idempotent: published rows updated in place, lab rows and preferences untouched), so
+  tables a migration added get their published rows;
 * a database made before matdb used Alembic (its tables, no ``alembic_version``) is
   checked against the baseline, stamped ``0001_baseline`` and upgraded the same way;
 * a database at a revision this program does not know (made by a newer matdb) is refused;
@@ -254,7 +256,11 @@ def ensure_schema(engine: Engine, *, seed: bool = True) -> Optional[str]:
         with engine.connect() as conn:
             _check_tables(conn, _expected_columns(), f"schema {head}")
             seeded = _is_seeded(conn)
-        if seed and not seeded:
+        upgraded = seeded and rev != head  # an existing database just brought to a newer schema
+        if seed and (not seeded or upgraded):
+            # first use: load seed_data/; after an upgrade: load it again so new tables get their
+            # published rows (idempotent: published rows updated in place, lab rows and
+            # preferences never touched)
             from .seed import seed_database
 
             seed_database(engine)

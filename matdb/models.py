@@ -123,6 +123,58 @@ class MagnetValue(SQLModel, table=True):
     retract_reason: Optional[str] = None
 
 
+PROVENANCE_STATUSES = ("verified", "corrected", "unverified")
+VALUE_KINDS = ("chi", "magnet", "material", "property", "conductivity")
+
+
+class ValueProvenance(SQLModel, table=True):
+    """Where one stored number was checked, and with what outcome.
+
+    One row per published number (a grade's Br, Hcj, ... each carry their own row, as they
+    may come from different tables). ``value_kind`` says which table holds the number:
+    ``chi`` (a susceptibility value row), ``magnet`` (a magnet value row), ``material``
+    (density and molar mass of a material) or ``property`` (a :class:`PropertyValue`);
+    ``owner_id`` is the material id, grade or property key, ``value_row_id`` the id of the
+    value row when there is one. ``status`` is ``verified`` (equal to the source within its
+    printed rounding), ``corrected`` (the stored number was replaced by the source's) or
+    ``unverified`` (no reachable source; ``sources_tried`` says which were tried).
+    Rows are rebuilt from ``seed_data/provenance.csv`` on every seeding.
+    """
+
+    id: Optional[int] = Field(default=None, primary_key=True)
+    value_kind: str = Field(index=True)
+    owner_id: str = Field(index=True)
+    value_row_id: Optional[int] = Field(default=None, index=True)
+    field: str
+    status: str
+    source_key: Optional[str] = Field(default=None, foreign_key="source.key")
+    locator: str = ""
+    sources_tried: str = ""
+    note: str = ""
+
+
+class PropertyValue(SQLModel, table=True):
+    """A further published property of a material or a magnet family, in SI.
+
+    Electrical resistivity (eddy currents), thermal expansion (gap model), the temperature
+    coefficient of susceptibility, recoil permeability and working limits per magnet family,
+    ... ``key`` is ``<subject_id>:<property>[:<axis>]`` and stable across seedings.
+    """
+
+    id: Optional[int] = Field(default=None, primary_key=True)
+    key: str = Field(index=True, unique=True)
+    subject_kind: str  # material | family
+    subject_id: str = Field(index=True)
+    property: str
+    axis: str = "iso"
+    value_si: float
+    unit_si: str
+    value_published: float
+    unit_published: str
+    temperature_k: Optional[float] = None
+    quality: str = "handbook"
+    source_key: str = Field(foreign_key="source.key")
+    note: str = ""
 class ConductivityValue(SQLModel, table=True):
     """Electrical conductivity of a material: in the plate's plane and across it.
 

@@ -30,6 +30,7 @@ import pandas as pd
 
 from . import catalog
 from .errors import InputError
+from .output import csv_text
 from .units import CONVENTIONS, G_STANDARD, MU0, chi_from_si_volume
 
 # ---------------------------------------------------------------------------
@@ -205,10 +206,12 @@ def filter_materials(df: pd.DataFrame, text: str = "", diamagnets_only: bool = F
     return out.reset_index(drop=True)
 
 
-def compare_materials(df: pd.DataFrame, ids: Sequence[str], rounded: bool = False) -> pd.DataFrame:
+def compare_materials(df: pd.DataFrame, ids: Sequence[str], rounded: bool = False,
+                      marks: dict[str, dict[str, str]] | None = None) -> pd.DataFrame:
     """Side-by-side view: one column per chosen material, one row per property (units in
     the row names). ``rounded`` turns numbers into short strings for people (4
-    significant digits; susceptibilities in exponent form)."""
+    significant digits; susceptibilities in exponent form); with ``marks`` (from
+    :func:`matdb.catalog.status_marks`) each stored value is followed by its status mark."""
     unknown = [i for i in ids if i not in set(df["id"])]
     if unknown:
         raise InputError(f"compare: unknown material id(s) {', '.join(unknown)}")
@@ -228,9 +231,14 @@ def compare_materials(df: pd.DataFrame, ids: Sequence[str], rounded: bool = Fals
         sub = sub.assign(required_t2_m=[levitation_requirement(c, r) for c, r in zip(sub["chi_si"], sub["density_kg_m3"])])
     table = sub[list(fields)].T.astype(object)
     if rounded:
+        from .catalog import mark
+
         for key in table.index:
-            table.loc[key] = [_human(v, sci=key.startswith("chi") or key == "abs_chi_per_density")
-                              for v in table.loc[key]]
+            vals = [_human(v, sci=key.startswith("chi") or key == "abs_chi_per_density") for v in table.loc[key]]
+            if marks is not None and key in ("chi_si", "chi_perp_si", "chi_par_si", "density_kg_m3"):
+                vals = [f"{v} {mark(marks.get(i, {}).get(key))}" if v not in ("", "-") else v
+                        for v, i in zip(vals, table.columns)]
+            table.loc[key] = vals
     table.index = [fields[k] for k in table.index]
     return table
 
@@ -706,6 +714,24 @@ def bill_of_materials(design, url: str | None = None) -> pd.DataFrame:
     return df
 
 
+def _intervals_text(iv) -> str:
+    """Stable side intervals [m] as text in mm ("-" when not computed)."""
+    if iv is None:
+        return "-"
+    from .levitate import format_intervals
+
+    return format_intervals(iv)
+
+
+def _temp_pair(result: dict, key: str, scale: float = 1.0) -> str:
+    """``cold / hot`` values of one key of the ``cold`` and ``hot`` objects."""
+    c, h = result.get("cold") or {}, result.get("hot") or {}
+    vals = [c.get(key), h.get(key)]
+    if key == "temperature_k":
+        return " / ".join("-" if v is None else f"{v - 273.15:.4g}" for v in vals)
+    return " / ".join("-" if v is None else _human(v * scale) for v in vals)
+
+
 def plate_summary(result: dict) -> pd.DataFrame:
     """The key numbers of a plate result as (quantity, value, unit) rows for people."""
     def mm(v):
@@ -724,7 +750,13 @@ def plate_summary(result: dict) -> pd.DataFrame:
         ("lateral stiffness k_y", result.get("k_y_n_m"), "N/m"),
         ("tilt stiffness", result.get("k_tilt_n_m_per_rad"), "N m/rad"),
         ("laterally stable", "yes" if result.get("laterally_stable") else "no", ""),
-        ("largest stable square plate side", mm(result.get("stable_plate_side_max_m")), "mm"),
+        ("stable square plate sides", _intervals_text(result.get("stable_side_intervals_m")), ""),
+        ("coldest / hottest temperature", _temp_pair(result, "temperature_k"), "C"),
+        ("gap cold / hot", _temp_pair(result, "gap_m", 1e3), "mm"),
+        ("margin cold / hot", _temp_pair(result, "margin"), ""),
+        ("k_z cold / hot", _temp_pair(result, "k_z_n_m"), "N/m"),
+        ("k_x cold / hot", _temp_pair(result, "k_x_n_m"), "N/m"),
+        ("k_y cold / hot", _temp_pair(result, "k_y_n_m"), "N/m"),
         ("lift lost when hot", result.get("lift_derating_pct"), "%"),
         ("gap drift", result.get("gap_drift_um_per_k"), "um/K"),
         ("demagnetisation risk", "yes" if result.get("demag_risk") else "no", ""),
@@ -800,8 +832,7 @@ def schedule_csv(result: dict) -> str:
     """The schedule as CSV, SI columns (what ``matdb levitate --format csv`` prints)."""
     from .commands.physics import SCHEDULE_COLUMNS, schedule_records
 
-    return pd.DataFrame(schedule_records(result), columns=list(SCHEDULE_COLUMNS)).to_csv(
-        index=False, float_format="%.10g")
+    return csv_text(pd.DataFrame(schedule_records(result), columns=list(SCHEDULE_COLUMNS)), float_format="%.10g")
 
 
 def floating_designs_df(records: list) -> pd.DataFrame:
@@ -843,8 +874,9 @@ def stations_df(result: dict) -> pd.DataFrame:
 # advisor page
 # ---------------------------------------------------------------------------
 
-ADVISOR_SHOWN = ["rank", "material", "grade", "arrangement", "thickness_mm", "feasible", "margin", "gap_mm",
-                 "gap_worst_mm", "derating_pct", "cost_usd", "score", "pareto", "reasons_text"]
+ADVISOR_SHOWN = ["rank", "material", "grade", "arrangement", "array_mm", "magnet_count", "plate_mm",
+                 "thickness_mm", "plate_g", "feasible", "margin", "gap_mm", "gap_worst_mm", "derating_pct",
+                 "cost_usd", "score", "pareto", "reasons_text"]
 
 
 def advisor_table(df: pd.DataFrame) -> pd.DataFrame:
@@ -852,6 +884,16 @@ def advisor_table(df: pd.DataFrame) -> pd.DataFrame:
     one sentence list (``reasons_text``); the other columns as they are."""
     out = df.copy()
     out["thickness_mm"] = out["thickness_m"] * 1e3
+    if "array_w_m" in out.columns:
+        out["array_mm"] = [" x ".join(f"{v * 1e3:.4g}" for v in t) for t in
+                           zip(out["array_w_m"], out["array_l_m"], out["array_h_m"])]
+    else:
+        out["array_mm"] = ""
+    if "magnet_count" not in out.columns:
+        out["magnet_count"] = [int(r) * int(c) for r, c in zip(out["rows"], out["cols"])]
+    out["plate_mm"] = [" x ".join(f"{v * 1e3:.4g}" for v in pm) if isinstance(pm, (list, tuple)) else ""
+                       for pm in out.get("plate_m", [None] * len(out))]
+    out["plate_g"] = pd.to_numeric(out.get("plate_mass_kg"), errors="coerce") * 1e3
     out["gap_mm"] = pd.to_numeric(out["gap_m"], errors="coerce") * 1e3
     out["gap_worst_mm"] = pd.to_numeric(out["gap_worst_m"], errors="coerce") * 1e3
     out["reasons_text"] = [
@@ -885,7 +927,7 @@ def ranking_csv(df: pd.DataFrame) -> str:
     for col in out.columns:
         if out[col].map(lambda v: isinstance(v, (list, tuple))).any():
             out[col] = out[col].map(lambda v: "; ".join(str(x) for x in v) if isinstance(v, (list, tuple)) else v)
-    return out.to_csv(index=False)
+    return csv_text(out)
 
 
 def candidate_label(row) -> str:
@@ -918,3 +960,75 @@ def stability_scan_df(rows: list[dict]) -> pd.DataFrame:
                          "gap_mm": pd.to_numeric(df["gap_m"], errors="coerce").astype(float) * 1e3,
                          "laterally_stable": df["laterally_stable"].astype(bool),
                          "is_design": df["is_design"].astype(bool)})
+
+
+# ---------------------------------------------------------------------------
+# provenance marks for page tables (issue 14)
+# ---------------------------------------------------------------------------
+def add_status_columns(df: pd.DataFrame, marks: dict[str, dict[str, str]], key: str,
+                       columns: dict[str, str]) -> tuple[pd.DataFrame, list[str]]:
+    """Insert after each value column a text column with its provenance mark.
+
+    ``marks[row[key]][field]`` is a status (verified, corrected, unverified, measured);
+    ``columns`` maps a table column to the field its mark comes from (e.g. ``chi_shown`` ->
+    ``chi_si``). Returns the new frame and the column order (each value followed by
+    ``<column>_check``). The mark is a letter (v, c, ?, m), never colour alone.
+    """
+    from .catalog import mark
+
+    out = df.copy()
+    order: list[str] = []
+    for c in df.columns:
+        order.append(c)
+        if c in columns:
+            f = columns[c]
+            out[f"{c}_check"] = [
+                (mark(marks.get(k, {}).get(f)) if v is not None and not (isinstance(v, float) and math.isnan(v))
+                 else "")
+                for k, v in zip(df[key], df[c])]
+            order.append(f"{c}_check")
+    return out, order
+
+
+def sources_table(url: str | None = None) -> pd.DataFrame:
+    """The bibliography with the number of stored values each supports, by status."""
+    from .catalog import sources_summary
+
+    rows = sources_summary(url=url)
+    return pd.DataFrame(rows, columns=["key", "kind", "year", "values", "verified", "corrected",
+                                       "unverified", "citation", "note"])
+
+
+def value_check_marks(rows: Sequence[dict], field: str = "value_published") -> list[str]:
+    """Status mark of one number in each value row of :func:`matdb.labvalues.history`
+    (``m`` for a lab measurement)."""
+    from .catalog import mark
+
+    out = []
+    for r in rows:
+        if r.get("value_kind") == "measured":
+            out.append("m")
+            continue
+        st = next((p["status"] for p in (r.get("provenance") or []) if p.get("field") == field), None)
+        out.append(mark(st))
+    return out
+
+
+def optimised_frame(rows: list[dict]) -> pd.DataFrame:
+    """Rows of :func:`matdb.synthesis.optimise` as a frame like the advisor's ranking
+    (column ``source``: catalogue start or sized)."""
+    clean = [{k: v for k, v in r.items() if k not in ("sizing", "levitate")} for r in rows]
+    df = pd.DataFrame(clean)
+    df["source"] = ["catalogue" if r.get("catalogue") else "sized" for r in rows]
+    return df
+
+
+def optimised_toml(result, index: int = 0) -> str:
+    """TOML text of one design of an optimiser result (the best by default)."""
+    from . import catalog
+    from .design import design_to_toml
+    from .synthesis import design_of
+
+    r = result.rows[index]
+    return design_to_toml(design_of(r["sizing"], result.request, catalog.get_material(r["material"]),
+                                    catalog.get_grade(r["grade"])))

@@ -94,10 +94,12 @@ PLATE_FIGURES = _figs([
      "Rigid-body stiffness matrix (reported, not part of the verdict).", f"{_PLATE}.stability"),
     ("laterally_stable", "laterally stable", "yes/no", 1, "k_x, k_y, pitch, roll > 0 and the coupled "
      "(x, pitch) and (y, roll) blocks positive definite.", f"{_PLATE}.stability"),
-    ("stable_plate_side_max_m", "largest stable square side", "mm", 1e3,
-     "Scan of square sides, then bisection at the first unstable one.", f"{_PLATE}.stable_side_max"),
+    ("stable_plate_side_max_m", "upper end of the stable side interval holding this plate", "mm", 1e3,
+     "Scan of square sides, each judged at its lateral equilibrium near the centre; bisection "
+     "at every change of verdict.", f"{_PLATE}.stable_side_intervals"),
     ("lateral_force_n", "sideways force at the given position", "mN", 1e3,
-     "Horizontal generalised force at the equilibrium.", f"{_PLATE}.generalized_forces_split"),
+     "Side-face integral of the energy density at the position the design gives.",
+     f"{_PLATE}.lateral_force"),
     ("lift_derating_pct", "lift lost against 20 C", "%", 1, "(Br(T)/Br(20 C))^2 and chi(T)/chi(20 C), "
      "linear temperature coefficients.", f"{_TH}.lift_factor"),
     ("derating_temperature_k", "temperature of the derating figure", "degC", 1, "Hottest temperature "
@@ -424,17 +426,20 @@ def _provenance(design, url: str | None) -> list[dict]:
                   "note": in_use.get("note") or "", "status": in_use.get("status"),
                   "value_id": mp.value_id}
         if mp.anisotropic and mp.chi_perp_si is not None:
-            rows.append({**common, "property": "chi perpendicular (SI volume)", "value": fmt_number(mp.chi_perp_si),
+            rows.append({**common, "column": "chi_perp_si", "property": "chi perpendicular (SI volume)",
+                         "value": fmt_number(mp.chi_perp_si),
                          "uncertainty": "-" if mp.uncertainty_si is None else fmt_number(mp.uncertainty_si)})
-            rows.append({**common, "property": "chi parallel (SI volume)", "value": fmt_number(mp.chi_par_si),
+            rows.append({**common, "column": "chi_par_si", "property": "chi parallel (SI volume)",
+                         "value": fmt_number(mp.chi_par_si),
                          "uncertainty": "-" if mp.uncertainty_si is None else fmt_number(mp.uncertainty_si)})
         else:
-            rows.append({**common, "property": "chi (SI volume)", "value": fmt_number(mp.chi_si),
+            rows.append({**common, "column": "chi_si", "property": "chi (SI volume)", "value": fmt_number(mp.chi_si),
                          "uncertainty": "-" if mp.uncertainty_si is None else fmt_number(mp.uncertainty_si)})
         if mp.temp_coeff_per_k is not None:
-            rows.append({**common, "property": "temperature coefficient of |chi| (1/K)",
+            rows.append({**common, "column": "temp_coeff_per_k", "property": "temperature coefficient of |chi| (1/K)",
                          "value": fmt_number(mp.temp_coeff_per_k), "uncertainty": "-"})
-        rows.append({**common, "property": "density (kg/m^3)", "value": fmt_number(mp.density_kg_m3),
+        rows.append({**common, "column": "density_kg_m3", "property": "density (kg/m^3)",
+                     "value": fmt_number(mp.density_kg_m3),
                      "uncertainty": "-",
                      "kind": "handbook" if in_use.get("density_kg_m3") is None else common["kind"]})
     labels = {"br_t": ("Br (T)", 1), "br_min_t": ("Br, minimum (T)", 1), "hcj_ka_m": ("HcJ (kA/m)", 1),
@@ -450,12 +455,32 @@ def _provenance(design, url: str | None) -> list[dict]:
                 continue
             row_src = in_use if in_use.get(f) is not None else published
             br_min = (gp.br_min_t - gp.br_t) if f == "br_t" and gp.br_min_t is not None else None
-            rows.append({"item": gname, "property": label, "value": fmt_number(val),
+            rows.append({"item": gname, "column": f, "property": label, "value": fmt_number(val),
                          "kind": row_src.get("value_kind", gp.value_kind), "source": row_src.get("source", gp.source),
                          "date": row_src.get("date"), "note": row_src.get("note") or "",
                          "status": row_src.get("status"), "value_id": row_src.get("value_id"),
                          "uncertainty": ("-" if br_min is None else f"minimum {fmt_number(gp.br_min_t)} T")})
+    _status_marks(rows, set(mats), url)
     return rows
+
+
+def _status_marks(rows: list[dict], material_ids: set, url: str | None) -> None:
+    """The checked-against-source status of each number (verified, corrected, unverified,
+    measured) when the database keeps one (``catalog.status_marks``)."""
+    from . import catalog
+
+    fn = getattr(catalog, "status_marks", None)
+    if fn is None:
+        return
+    try:
+        marks = fn(url)
+    except Exception:  # an older database without the provenance tables
+        return
+    for r in rows:
+        kind = "material" if r["item"] in material_ids else "magnet"
+        st = marks.get(kind, {}).get(r["item"], {}).get(r.get("column", ""))
+        if st:
+            r["status"] = st
 
 
 DYNAMICS_MODE_COLUMNS = (("frequency_hz", "frequency"), ("q", "Q"), ("q_eddy", "Q, eddy currents"),
@@ -598,6 +623,7 @@ def build_report(text: str, *, source_name: str = "design.toml", url: str | None
         "safe_cell": cell(nom.get("safe_distance_m"), "safe_distance_m", "nominal", "cm", 1e2),
         "large": any("Strong magnets" in w for w in nom.get("warnings", [])),
         "provenance": _provenance(design, url),
+        "provenance_notes": [],
         "bom": _bom(design, url),
         "tables": [],
         "charts": [],
@@ -626,9 +652,24 @@ def build_report(text: str, *, source_name: str = "design.toml", url: str | None
             ctx["tables"].append({"title": "Stations (nominal temperature)",
                                   **_records_table(nom["stations"], "stations", scols)})
     _number_references(ctx)
+    _number_notes(ctx)
     if charts:
         ctx["charts"] = _charts_plate(design, nom) if mode == "plate" else _charts_stabilized(nom)
     return ctx
+
+
+def _number_notes(ctx: dict) -> None:
+    """Each value row's note once, numbered; the provenance rows point to it."""
+    notes: list[str] = []
+    for p in ctx["provenance"]:
+        n = p.get("note") or ""
+        if n:
+            if n not in notes:
+                notes.append(n)
+            p["note_number"] = notes.index(n) + 1
+        else:
+            p["note_number"] = None
+    ctx["provenance_notes"] = notes
 
 
 def _number_references(ctx: dict) -> None:

@@ -27,12 +27,15 @@ from .models import (
     QUALITY_CLASSES,
     ConductivityValue,
     MagnetGrade,
+    PROVENANCE_STATUSES,
     MagnetValue,
     Material,
+    PropertyValue,
     Source,
     SusceptibilityValue,
+    ValueProvenance,
 )
-from .units import CONVENTIONS, celsius_to_kelvin, chi_to_si_volume
+from .units import CONVENTIONS, celsius_to_kelvin, chi_to_si_volume, ureg
 
 SLUG_RE = re.compile(r"^[a-z0-9]+(-[a-z0-9]+)*$")
 SOURCE_KINDS = ("handbook", "standard", "paper", "datasheet", "common-practice", "lab")
@@ -42,9 +45,11 @@ FILES = {
     "materials": "materials.csv",
     "susceptibilities": "susceptibilities.csv",
     "grades": "magnet_grades.csv",
+    "provenance": "provenance.csv",
+    "properties": "properties.csv",
     "conductivities": "conductivities.csv",
 }
-OPTIONAL_FILES = ("conductivities",)  # a seed folder without it loads, with no conductivities
+OPTIONAL_FILES = ("conductivities", "provenance", "properties")  # a seed folder without them loads
 
 COLUMNS = {
     "sources": ["key", "citation", "kind", "year", "note"],
@@ -61,11 +66,43 @@ COLUMNS = {
         "alpha_br_pct_per_k", "beta_hcj_pct_per_k", "max_temp_c", "mu_rec", "density_kg_m3",
         "price_usd_per_kg", "quality", "source_key", "note",
     ],
+    "provenance": ["value_id", "field", "status", "source_key", "locator", "sources_tried", "note"],
+    "properties": [
+        "subject_kind", "subject_id", "property", "axis", "value_published", "unit_published",
+        "temperature_c", "status", "quality", "source_key", "locator", "sources_tried", "note",
+    ],
     "conductivities": [
         "material_id", "sigma_in_plane_s_m", "sigma_across_s_m", "temperature_c", "quality",
         "source_key", "note",
     ],
 }
+
+#: Checked numbers per kind of value row (``value_id`` prefix in provenance.csv).
+PROVENANCE_FIELDS = {
+    "chi": ("value_published", "value_par_published", "temperature_c", "uncertainty_published",
+            "temp_coeff_per_k"),
+    "grade": ("br_t", "br_min_t", "hcb_ka_m", "hcj_ka_m", "bhmax_kj_m3", "alpha_br_pct_per_k",
+              "beta_hcj_pct_per_k", "max_temp_c", "mu_rec", "density_kg_m3"),
+    "material": ("density_kg_m3", "molar_mass_g_mol"),
+    "sigma": ("sigma_in_plane_s_m", "sigma_across_s_m"),
+}
+#: ``value_kind`` stored in the database for each ``value_id`` prefix.
+VALUE_KIND_OF_PREFIX = {"chi": "chi", "grade": "magnet", "material": "material", "prop": "property",
+                        "sigma": "conductivity"}
+
+#: Further properties (properties.csv): SI unit each is stored in. Axes: ``iso``; for
+#: materials ``perp`` = along the c axis (normal to the basal plane / plate), ``par`` = in
+#: the plane; for magnet families ``par`` = along the magnetisation, ``perp`` = across it.
+PROPERTY_UNITS = {
+    "resistivity": "ohm * m",
+    "thermal_expansion": "1 / K",
+    "chi_temp_coeff": "1 / K",
+    "alpha_br": "1 / K",
+    "beta_hcj": "1 / K",
+    "max_working_temp": "K",
+    "recoil_permeability": "dimensionless",
+}
+SUBJECT_KINDS = ("material", "family", "grade")
 
 
 def seed_dir() -> Path:
@@ -173,6 +210,10 @@ class SeedSet:
     chi_values: list[SusceptibilityValue] = field(default_factory=list)
     grades: list[MagnetGrade] = field(default_factory=list)
     magnet_values: list[MagnetValue] = field(default_factory=list)
+    properties: list[PropertyValue] = field(default_factory=list)
+    #: one dict per checked number: value_kind, owner_id, field, status, source_key, locator,
+    #: sources_tried, note (the value row id is filled in when written)
+    provenance: list[dict] = field(default_factory=list)
     conductivities: list[ConductivityValue] = field(default_factory=list)
 
 
@@ -340,7 +381,145 @@ def parse_seed(folder: Path | None = None) -> SeedSet:
             temperature_k=celsius_to_kelvin(tc) if tc is not None else None,
             quality=r.choice("quality", [q for q in QUALITY_CLASSES if q != "measured"]),
             source_key=skey, note=r.text("note", False)))
+    _parse_properties(folder, out, keys, set(mats), seen_grades)
+    _parse_provenance(folder, out, keys)
     return out
+
+
+def _status_fields(r: _Row, keys: set[str], source_field: str = "source_key") -> dict:
+    """status, source_key, locator, sources_tried of a checked number (one CSV row)."""
+    status = r.choice("status", PROVENANCE_STATUSES)
+    skey = r.text(source_field, False) or None
+    if skey is not None and skey not in keys:
+        raise r.err(source_field, f"unknown source key {skey!r}")
+    locator = r.text("locator", False)
+    tried = r.text("sources_tried", False)
+    if status in ("verified", "corrected"):
+        if not locator:
+            raise r.err("locator", f"a {status} value needs a locator (table, page or DOI and table)")
+        if skey is None:
+            raise r.err(source_field, f"a {status} value needs the key of the source it was checked against")
+    elif not tried:
+        raise r.err("sources_tried", "an unverified value says which sources were tried")
+    return {"status": status, "source_key": skey, "locator": locator, "sources_tried": tried,
+            "note": r.text("note", False)}
+
+
+def property_key(subject_id: str, prop: str, axis: str) -> str:
+    return f"{subject_id}:{prop}" + ("" if axis == "iso" else f":{axis}")
+
+
+def _parse_properties(folder: Path, out: SeedSet, keys: set[str], material_ids: set[str],
+                      grade_ids: set[str]) -> None:
+    seen: set[str] = set()
+    for r in _read_csv(folder, "properties"):
+        kind = r.choice("subject_kind", SUBJECT_KINDS)
+        sid = r.text("subject_id")
+        if kind == "material" and sid not in material_ids:
+            raise r.err("subject_id", f"unknown material {sid!r} (not in materials.csv)")
+        if kind == "family" and sid not in FAMILIES:
+            raise r.err("subject_id", f"expected one of {', '.join(FAMILIES)}, got {sid!r}")
+        if kind == "grade" and sid not in grade_ids:
+            raise r.err("subject_id", f"unknown grade {sid!r} (not in magnet_grades.csv)")
+        prop = r.choice("property", tuple(PROPERTY_UNITS))
+        axis = r.choice("axis", AXES)
+        val = r.num("value_published", required=True)
+        unit = r.text("unit_published")
+        try:
+            if PROPERTY_UNITS[prop] == "K" and unit in ("degC", "C", "°C"):
+                si = celsius_to_kelvin(val)
+            else:
+                si = float(ureg.Quantity(val, unit).to(PROPERTY_UNITS[prop]).magnitude)
+        except Exception as exc:  # pint raises several kinds
+            raise r.err("unit_published", f"cannot convert {unit!r} to {PROPERTY_UNITS[prop]} ({exc})") from None
+        skey = r.text("source_key")
+        if skey not in keys:
+            raise r.err("source_key", f"unknown source key {skey!r}")
+        key = property_key(sid, prop, axis)
+        if key in seen:
+            raise r.err("property", f"duplicate property row {key!r}")
+        seen.add(key)
+        tc = r.num("temperature_c")
+        st = _status_fields(r, keys)
+        st["source_key"] = st["source_key"] or skey
+        out.properties.append(PropertyValue(
+            key=key, subject_kind=kind, subject_id=sid, property=prop, axis=axis, value_si=si,
+            unit_si=PROPERTY_UNITS[prop], value_published=val, unit_published=unit,
+            temperature_k=celsius_to_kelvin(tc) if tc is not None else None,
+            quality=r.choice("quality", [q for q in QUALITY_CLASSES if q != "measured"]),
+            source_key=skey, note=r.text("note", False)))
+        out.provenance.append({"value_kind": "property", "owner_id": key, "field": "value", **st})
+
+
+def _stored_numbers(out: SeedSet) -> dict[tuple[str, str], set[str]]:
+    """(prefix, owner) -> the fields that hold a number in the seed rows."""
+    have: dict[tuple[str, str], set[str]] = {}
+    for v in out.chi_values:
+        f = {"value_published"}
+        if v.value_par_published is not None:
+            f.add("value_par_published")
+        for name, val in (("temperature_c", v.temperature_k), ("uncertainty_published", v.uncertainty_si),
+                          ("temp_coeff_per_k", v.temp_coeff_per_k)):
+            if val is not None:
+                f.add(name)
+        have[("chi", v.material_id)] = f
+    for v in out.magnet_values:
+        have[("grade", v.grade)] = {n for n in PROVENANCE_FIELDS["grade"] if getattr(v, n) is not None}
+    for m in out.materials:
+        have[("material", m.id)] = {"density_kg_m3"} | ({"molar_mass_g_mol"} if m.molar_mass_kg_mol else set())
+    for v in out.conductivities:
+        have[("sigma", v.material_id)] = set(PROVENANCE_FIELDS["sigma"])
+    return have
+
+
+def _parse_provenance(folder: Path, out: SeedSet, keys: set[str]) -> None:
+    have = _stored_numbers(out)
+    row_source: dict[tuple[str, str, str], str | None] = {}
+    for v in out.chi_values:
+        for f in PROVENANCE_FIELDS["chi"]:
+            row_source[("chi", v.material_id, f)] = v.source_key
+    for v in out.magnet_values:
+        for f in PROVENANCE_FIELDS["grade"]:
+            row_source[("grade", v.grade, f)] = v.source_key
+    for m in out.materials:
+        row_source[("material", m.id, "density_kg_m3")] = m.density_source_key
+        row_source[("material", m.id, "molar_mass_g_mol")] = m.density_source_key
+    for v in out.conductivities:
+        for f in PROVENANCE_FIELDS["sigma"]:
+            row_source[("sigma", v.material_id, f)] = v.source_key
+    seen: set[tuple[str, str]] = set()
+    for r in _read_csv(folder, "provenance"):
+        vid = r.text("value_id")
+        prefix, _, owner = vid.partition(":")
+        if prefix not in PROVENANCE_FIELDS or not owner:
+            raise r.err("value_id", "expected chi:<material>, grade:<grade>, material:<material> or sigma:<material>, "
+                        f"got {vid!r}")
+        if (prefix, owner) not in have:
+            raise r.err("value_id", f"no seed row {vid!r}")
+        fld = r.choice("field", PROVENANCE_FIELDS[prefix])
+        if fld not in have[(prefix, owner)]:
+            raise r.err("field", f"{vid} stores no number in {fld}")
+        if (vid, fld) in seen:
+            raise r.err("field", f"second provenance row for {vid} {fld}")
+        seen.add((vid, fld))
+        st = _status_fields(r, keys)
+        # an unverified number is still cited by its row: count it under that source
+        st["source_key"] = st["source_key"] or row_source.get((prefix, owner, fld))
+        out.provenance.append({"value_kind": VALUE_KIND_OF_PREFIX[prefix], "owner_id": owner, "field": fld, **st})
+
+
+def coverage(data: SeedSet) -> dict[str, int]:
+    """Counts of stored seed numbers by provenance status (numbers with no row: unchecked)."""
+    have = _stored_numbers(data)
+    recorded = {(p["value_kind"], p["owner_id"], p["field"]): p["status"] for p in data.provenance}
+    counts = {s: 0 for s in PROVENANCE_STATUSES} | {"unchecked": 0}
+    for (prefix, owner), fields in have.items():
+        for f in fields:
+            counts[recorded.get((VALUE_KIND_OF_PREFIX[prefix], owner, f), "unchecked")] += 1
+    for p in data.provenance:
+        if p["value_kind"] == "property":
+            counts[p["status"]] += 1
+    return counts
 
 
 # ---------------------------------------------------------------------------
@@ -359,7 +538,7 @@ def _upsert(session: Session, obj, pk_name: str) -> None:
     session.add(existing)
 
 
-def _upsert_value(session: Session, model, value, owner_clause) -> None:
+def _upsert_value(session: Session, model, value, owner_clause):
     """Update the published row with the same owner and source in place (ids stay stable);
     measured rows are never matched, so they are never touched."""
     old = session.exec(
@@ -367,17 +546,19 @@ def _upsert_value(session: Session, model, value, owner_clause) -> None:
     ).first()
     if old is None:
         session.add(value)
-        return
+        return value
     for name in model.model_fields:
         if name not in ("id", "entered_at"):
             setattr(old, name, getattr(value, name))
     session.add(old)
+    return old
 
 
 def seed_database(engine: Engine, folder: Path | None = None) -> dict[str, int]:
     """Validate the seed files, then write them in one transaction. Idempotent."""
     data = parse_seed(folder)
-    counts = {"sources": 0, "materials": 0, "susceptibilities": 0, "grades": 0}
+    counts = {"sources": 0, "materials": 0, "susceptibilities": 0, "grades": 0, "properties": 0,
+              "checked values": 0}
     with Session(engine) as s:
         try:
             for src in data.sources:
@@ -388,18 +569,46 @@ def seed_database(engine: Engine, folder: Path | None = None) -> dict[str, int]:
             for g in data.grades:
                 _upsert(s, g, "grade")
             s.flush()
+            rows: dict[tuple[str, str], object] = {}
             for v in data.chi_values:
-                _upsert_value(s, SusceptibilityValue, v, SusceptibilityValue.material_id == v.material_id)
+                rows[("chi", v.material_id)] = _upsert_value(
+                    s, SusceptibilityValue, v, SusceptibilityValue.material_id == v.material_id)
             for v in data.magnet_values:
-                _upsert_value(s, MagnetValue, v, MagnetValue.grade == v.grade)
+                rows[("magnet", v.grade)] = _upsert_value(s, MagnetValue, v, MagnetValue.grade == v.grade)
+            keep = {p.key for p in data.properties}
+            for old in s.exec(select(PropertyValue)).all():
+                if old.key not in keep:
+                    s.delete(old)
+            s.flush()
+            for p in data.properties:
+                old = s.exec(select(PropertyValue).where(PropertyValue.key == p.key)).first()
+                if old is None:
+                    s.add(p)
+                    rows[("property", p.key)] = p
+                else:
+                    for name in PropertyValue.model_fields:
+                        if name != "id":
+                            setattr(old, name, getattr(p, name))
+                    s.add(old)
+                    rows[("property", p.key)] = old
+            s.flush()
             for v in data.conductivities:
-                _upsert_value(s, ConductivityValue, v,
-                              ConductivityValue.material_id == v.material_id)
+                rows[("conductivity", v.material_id)] = _upsert_value(
+                    s, ConductivityValue, v, ConductivityValue.material_id == v.material_id)
+            s.flush()
+            # provenance is rebuilt from the seed files every time (it describes seed rows only)
+            for old in s.exec(select(ValueProvenance)).all():
+                s.delete(old)
+            s.flush()
+            for p in data.provenance:
+                row = rows.get((p["value_kind"], p["owner_id"]))
+                s.add(ValueProvenance(value_row_id=getattr(row, "id", None), **p))
             s.commit()
         except BaseException:
             s.rollback()
             raise
     counts.update(sources=len(data.sources), materials=len(data.materials),
                   susceptibilities=len(data.chi_values), grades=len(data.grades),
-                  conductivities=len(data.conductivities))
+                  conductivities=len(data.conductivities), properties=len(data.properties),
+                  **{"checked values": len(data.provenance)})
     return counts

@@ -40,6 +40,7 @@ from typing import Iterable
 import pint
 
 from .errors import InputError
+from .limits import check_chi, check_magnitude, check_temperature
 
 ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
 ureg.define("MGOe = 1e5 / (4 * pi) * J / m**3")
@@ -190,6 +191,7 @@ def parse_quantity(
         value = _convert(q, unit, field, text)
     if not math.isfinite(value):
         raise InputError(f"{field}: expected a finite value, got {text!r}")
+    check_magnitude(value, unit, field, text)
     if positive and value <= 0:
         raise InputError(f"{field}: expected a positive value, got {text!r}")
     if min_value is not None and value < min_value:
@@ -229,6 +231,7 @@ def parse_temperature(text, field: str) -> float:
         raise InputError(f"{field}: expected a temperature such as '20 degC', got {text!r}") from exc
     if k <= 0:
         raise InputError(f"{field}: temperature below absolute zero: {text!r}")
+    check_temperature(k, field, text)
     return k
 
 
@@ -365,12 +368,16 @@ def parse_chi(
     """
     if isinstance(text, (int, float)) and not isinstance(text, bool):
         v = parse_number(text, field)
+        check_chi(v, field, text)
         return v, v, "si-volume"
     value, unit = _split_number_unit(str(text), field)
     if not unit:
+        check_chi(value, field, text)
         return value, value, "si-volume"
     conv = parse_convention(unit, field)
-    return chi_to_si_volume(value, conv, density_kg_m3, molar_mass_kg_mol), value, conv
+    chi = chi_to_si_volume(value, conv, density_kg_m3, molar_mass_kg_mol)
+    check_chi(chi, field, text)
+    return chi, value, conv
 
 
 # ---------------------------------------------------------------------------

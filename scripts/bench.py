@@ -12,7 +12,8 @@ import sys
 from pathlib import Path
 
 HERE = Path(__file__).resolve().parent
-MODULES = ["bench_fields", "bench_plate", "bench_advisor", "bench_floating", "bench_browser"]
+MODULES = ["bench_fields", "bench_plate", "bench_advisor", "bench_floating", "bench_import", "bench_dynamics",
+           "bench_optimise", "bench_browser"]
 
 
 def main() -> int:

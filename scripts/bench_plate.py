@@ -6,6 +6,8 @@ Times, best of 3, for the demo design tests/data/plate_checkerboard.toml (a 10 m
 - ``core_s``: lift curve (60 gaps), equilibrium gap, k_z, the 6 x 6 stiffness matrix
   about the centre of mass (:func:`matdb.physics.plate.analyse_plate`);
 - ``side_search_s``: the largest stable square side (scan + bisection to 0.1 mm);
+- ``intervals_s``: the stable side intervals, each side judged at its lateral
+  equilibrium (scan + bisection of every change of verdict to 0.1 mm);
 - ``levitate_s``: the whole ``levitate_plate`` (the above plus thermal, worst case,
   irreversible-loss check and safety distance).
 
@@ -53,12 +55,18 @@ def run() -> dict:
     n[0] = 0
     side, s_max = _best(lambda: P.stable_side_max(counted, geom, *chi, rho, 2 * 0.0127))
     n_side = n[0] // REPEATS
+    n[0] = 0
+    iv_s, iv = _best(lambda: P.stable_side_intervals(counted, geom, *chi, rho, 2 * 0.0127))
+    n_iv = n[0] // REPEATS
     full, _ = _best(lambda: levitate_plate(design))
     return {
         "core_s": core,
         "core_field_points": n_core,
         "side_search_s": side,
         "side_search_field_points": n_side,
+        "intervals_s": iv_s,
+        "intervals_field_points": n_iv,
+        "stable_side_intervals_mm": [[round(a * 1e3, 3), round(b * 1e3, 3)] for a, b in iv],
         "levitate_s": full,
         "gap_mm": res.gap * 1e3,
         "stable_side_max_mm": s_max * 1e3,

@@ -263,6 +263,26 @@ KEY_CASES = [
 ]
 
 
+def _root_scatter_m(design, key: str, gap: float) -> float:
+    """Scatter of the quadrature lift about a straight line near ``gap``, over its slope [m]."""
+    import matdb.levitate as L
+    from matdb.physics import plate as P
+
+    worst = key == "gap_worst_m"
+    t_op = design.conditions.nominal_k
+    t = max(design.conditions.extremes()[1], t_op) if worst else t_op  # as matdb.levitate
+    geom = L.plate_geometry(design, design.arrangement(None))
+    arr = design.arrangement(t, worst=worst)
+    chi = L._chi_at(design, t)
+    if worst:
+        chi = L._chi_worst(design, *chi)
+    f = P._force_fn(arr.B, geom, chi[0], chi[1], P.DEFAULT_ORDER)
+    xs = gap + np.linspace(-5e-7, 5e-7, 21)
+    fs = np.array([f(x) for x in xs])
+    slope, icpt = np.polyfit(xs, fs, 1)
+    return float(np.max(np.abs(fs - (slope * xs + icpt))) / abs(slope))
+
+
 @pytest.mark.parametrize("specs, kw, picks", KEY_CASES)
 def test_exact_rows_equal_levitate_on_the_saved_design(tmp_path, specs, kw, picks):
     from matdb.design import load_design
@@ -284,7 +304,17 @@ def test_exact_rows_equal_levitate_on_the_saved_design(tmp_path, specs, kw, pick
         # so two correct solvers can differ by that much; the advisor follows the same
         # bracketing and usually agrees to 1e-12 relative. Bound: 1e-9 relative + 4 xtol.
         for k in ("gap_m", "gap_worst_m"):
-            assert abs(row[k] - direct[k]) <= 1e-9 * direct[k] + 4e-9, k
+            tol = 1e-9 * direct[k] + 4e-9
+            if abs(row[k] - direct[k]) > tol:
+                # Below about 0.1 mm the lift of a magnet array is only as smooth as its
+                # quadrature (each height on its own graded rule): F(g) scatters by ~1e-4
+                # relative between nearby gaps, so brentq on two bit-wise different but
+                # equally correct evaluations may stop at different crossings. Then the
+                # gaps must agree within that scatter divided by the slope, measured here.
+                noise = _root_scatter_m(load_design(path), k, direct[k])
+                assert abs(row[k] - direct[k]) <= tol + 2 * noise, (k, row[k], direct[k], noise)
+            else:
+                assert abs(row[k] - direct[k]) <= tol, k
         # Quantities at the required gap do not involve a root: 1e-9 relative.
         assert row["margin_nominal"] == pytest.approx(direct["margin"], rel=1e-9)
         assert row["max_payload_worst_kg"] == pytest.approx(direct["max_payload_worst_kg"], rel=1e-9)

@@ -330,3 +330,22 @@ def test_lab_values_record_clears_the_form_and_the_box_follows(server, browser):
         page.close()
         if new_id is not None:
             labvalues.retract(new_id, "browser test entry, removed", "copper")
+
+
+def test_design_dynamics_section_in_browser(server, browser):
+    """Design page, Dynamics section: tick the box, the modes table and the chart of Q
+    against pressure appear without an exception (screenshot saved)."""
+    page = _open(browser, f"{server}/design")
+    try:
+        page.get_by_role("heading", name="Design", exact=True).first.wait_for(timeout=60_000)
+        page.get_by_role("heading", name="Dynamics: modes, damping, Q and noise floor").first.wait_for(timeout=120_000)
+        _wait_idle(page)
+        page.get_by_text("Compute modes, damping and noise (a few seconds)").click()
+        page.get_by_text("Ring-down: time for the amplitude to fall to 1/e", exact=False).first.wait_for(timeout=180_000)
+        _wait_idle(page)
+        _no_exception(page, "Design, dynamics")
+        ARTIFACTS.mkdir(exist_ok=True)
+        page.screenshot(path=str(ARTIFACTS / "page-design-dynamics.png"), full_page=True)
+        assert page.outside == [], f"fetched outside resources: {page.outside[:5]}"
+    finally:
+        page.close()

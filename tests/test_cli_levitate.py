@@ -285,3 +285,64 @@ def test_levitate_floating_magnet_design_through_the_cli(run_cli):
     code, out, err = run_cli("levitate", str(path), "--format", "json")
     assert code == 0, err
     assert json.loads(out)["mode"] != "plate"
+
+
+# ---------------------------------------------------------------------------
+# coldest and hottest side by side; stable side intervals
+# ---------------------------------------------------------------------------
+def test_cold_and_hot_objects(tmp_path, run_cli):
+    # lift ~ Br(T)^2 |chi(T)| (Berry & Geim 1997) with the linear reversible coefficients
+    # (IEC 60404-8-1; seed_data, cited): at the coldest temperature the plate lifts more
+    # and floats higher; each object equals a run at that temperature (regression check)
+    from matdb.levitate import STATE_KEYS
+    from matdb.physics import thermal as TH
+
+    f = tmp_path / "range.toml"
+    f.write_text(Path(DEMO).read_text().split("[conditions]")[0]
+                 + '[conditions]\ntemp_min = "0 degC"\ntemp_max = "50 degC"\n')
+    d = load_design(f)
+    r = levitate(d)
+    for key in ("cold", "hot"):
+        assert set(STATE_KEYS) <= set(r[key])
+    cold, hot = r["cold"], r["hot"]
+    assert cold["temperature_k"] == pytest.approx(273.15) and hot["temperature_k"] == pytest.approx(323.15)
+    assert cold["gap_m"] > hot["gap_m"] > 0
+    g = d.magnets.grade_props
+    coeff = d.plate.material_props.temp_coeff_per_k
+    ratio = float(TH.lift_factor(g.alpha_br_pct_per_k, 273.15, coeff)
+                  / TH.lift_factor(g.alpha_br_pct_per_k, 323.15, coeff))
+    assert cold["margin"] / hot["margin"] == pytest.approx(ratio, rel=1e-9)
+    at_cold = levitate(d, temp_k=273.15)
+    assert cold["gap_m"] == pytest.approx(at_cold["gap_m"], rel=1e-6)
+    assert cold["k_z_n_m"] == pytest.approx(at_cold["k_z_n_m"], rel=1e-6)
+    assert cold["k_x_n_m"] == pytest.approx(at_cold["k_x_n_m"], rel=1e-6)
+    assert hot["gap_m"] == pytest.approx(r["gap_m"], rel=1e-12)  # the nominal is the hottest
+    code, out, err = run_cli("levitate", str(f))
+    assert code == 0, err
+    assert "coldest and hottest" in out and "0 C (273.1" in out and "50 C (323.1" in out
+
+
+def test_side_intervals_hold_the_design_side(demo_result):
+    # the plate's own side is in the interval whose upper end is reported, and the
+    # verdict agrees with laterally_stable (the text never contradicts itself)
+    r = demo_result
+    side = load_design(DEMO).plate.lx_m
+    iv = r["stable_side_intervals_m"]
+    assert isinstance(iv, list) and all(len(p) == 2 and p[0] <= p[1] for p in iv)
+    holding = P.interval_holding(iv, side)
+    assert r["laterally_stable"] == (holding is not None)
+    assert r["stable_plate_side_max_m"] == (None if holding is None else holding[1])
+    assert r["lateral_equilibrium_m"] == pytest.approx([0.0, 0.0], abs=1e-9)
+
+
+def test_off_centre_plate_is_analysed_where_it_rests(tmp_path):
+    # a plate placed off the middle of a 2 x 2 checkerboard is pushed back to the middle
+    # (symmetry of the checkerboard, common practice, no source)
+    f = tmp_path / "off.toml"
+    f.write_text(Path(DEMO).read_text().replace("[plate]", '[plate]\ncenter = ["1.5 mm", "0.7 mm"]'))
+    r = levitate(load_design(f))
+    assert r["lateral_equilibrium_m"] == pytest.approx([0.0, 0.0], abs=1e-6)
+    assert r["lateral_force_n"] > 1e-3 * r["weight_n"]
+    assert any("comes to rest at (0, 0) mm" in w for w in r["warnings"])
+    holding = P.interval_holding(r["stable_side_intervals_m"], 0.010)
+    assert r["laterally_stable"] == (holding is not None)

@@ -60,3 +60,11 @@ def test_design_page_suggests_designs_with_progress(monkeypatch, tmp_path):
     designs = _table(at, "travel_mm")
     assert len(designs) >= 1 and "feasible" in designs.columns
     assert designs["feasible"].iloc[0]
+    # the best design is offered as a design file that parses back (the saved-file contract)
+    import tomllib
+
+    from matdb.design_stabilized import parse_stabilized
+
+    best_text = at.session_state["fm_search"][3]
+    d = parse_stabilized(tomllib.loads(best_text))
+    assert d.payload_range == pytest.approx((0.0, 1e-3))

@@ -16,6 +16,8 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as hst
 from scipy.optimize import brentq
 
 from matdb.design_stabilized import parse_payload_range, parse_stabilized, to_toml
@@ -287,3 +289,30 @@ def test_plates_narrower_than_the_floater_are_refused_and_narrow_ones_warned():
     # a narrower plate closes the window sooner
     assert r["window"][0]["max_plate_distance_m"] < wide["window"][0]["max_plate_distance_m"]
     assert any("mm wide" in w for w in r["warnings"])
+
+
+@settings(max_examples=8, deadline=None)
+@given(hst.floats(0.0, 1.4e-3), hst.floats(0.05e-3, 0.5e-3))
+def test_property_more_payload_closer_lifter_narrower_window(p, dp):
+    # common practice, no source: for any two payloads, the heavier one sits with the
+    # lifter closer (more travel) and a window no wider
+    demo = parse_stabilized(tomllib.loads(EXAMPLE.read_text()))
+    st = demo.stations[0]
+    model = _model_cached()
+    w0 = st.floater.mass_kg * G
+    d0 = model.balance(w0)
+    a = S.schedule_row(model, w0 + p * G, d0, 0.0)
+    b = S.schedule_row(model, w0 + (p + dp) * G, d0, 0.0)
+    assert b["lifter_distance_m"] < a["lifter_distance_m"]
+    assert b["lifter_travel_m"] > a["lifter_travel_m"] >= -1e-12
+    assert b["window_m"] <= a["window_m"]
+
+
+_MODEL = {}
+
+
+def _model_cached():
+    if "m" not in _MODEL:
+        demo = parse_stabilized(tomllib.loads(EXAMPLE.read_text()))
+        _MODEL["m"] = S._station_model(demo.stations[0], demo.temperature_k)
+    return _MODEL["m"]

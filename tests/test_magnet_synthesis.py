@@ -141,6 +141,20 @@ def test_nothing_works_names_the_closest_requirement():
     assert res.rejected_by["height"] == res.n_candidates
 
 
+def test_rejected_designs_keep_their_reasons():
+    # asked for, the closest rejected designs come with every reason, each with by how much
+    req = M.FMRequest(payload_range_kg=(0.0, 1e-3), top=1, stations=(1,), rejected=2, budget_usd=5.0)
+    res = M.search(req, **SMALL)
+    rejected = [r for r in res.rows if not r["feasible"]]
+    assert rejected and all(r["reasons"] for r in rejected)
+    assert res.rejected_by["budget"] > 0
+    for r in res.rows:
+        if r["feasible"]:
+            assert r["cost_usd"] <= 5.0
+        elif r["cost_usd"] is not None and r["cost_usd"] > 5.0:
+            assert any("over the budget" in w for w in r["reasons"])
+
+
 def test_add_arguments_adds_only_missing_options():
     from matdb.commands import optimise_fm
 

@@ -196,6 +196,7 @@ def test_report_sections(plate_report):
     # illustrative prices are marked; cautions defer to local codes and licensed practice
     assert "Illustrative price" in html
     assert "0.5 mT" in html and "local codes" in html.lower() and "licensed" in html.lower()
+    assert re.search(r"</span> cm from the magnets", html)  # regression check: words kept apart
     # provenance: the graphite value's kind and source
     assert "pyrolytic-graphite" in html and "handbook" in html or "standard" in html
     # reproducibility: version and database fingerprint
@@ -257,17 +258,16 @@ def magnet_report(tmp_path_factory):
     """examples/floating_magnet.toml: report and levitate JSON."""
     d = tmp_path_factory.mktemp("report-fm")
     design = EXAMPLES / "floating_magnet.toml"
-    out = d / "fm.pdf"
     html_out = d / "fm.html"
     _cli("report", str(design), "-o", str(html_out))
     nominal = json.loads(_cli("levitate", str(design), "--format", "json"))
     return html_out.read_text(encoding="utf-8"), {"nominal": nominal, "coldest": nominal,
-                                                   "hottest": nominal, "worst": nominal}, out
+                                                   "hottest": nominal, "worst": nominal}
 
 
 @pytest.mark.slow
 def test_floating_magnet_report_numbers_and_schedule(magnet_report):
-    html, results, _pdf = magnet_report
+    html, results = magnet_report
     # a single temperature (20 degC): coldest = nominal = hottest
     assert _check_every_number(html, results) > 30
     keys = {c["data-key"] for c in _parse(html).cells}
@@ -307,3 +307,32 @@ def test_pdf_paper_size_and_pages_not_blank(plate_report, tmp_path, paper, size_
     for p in pages:
         px = np.asarray(Image.open(p).convert("L"))
         assert np.count_nonzero(px < 200) > 0.002 * px.size, p.name
+
+
+def test_provenance_shows_a_lab_value_with_its_source_note_and_date(fresh_db):
+    """A measured value recorded with `matdb record` is the one in use (DEVELOPERS.md):
+    the report names it as measured, with the lab's source note, date and uncertainty."""
+    from matdb import labvalues
+    from matdb.design import load_design_text
+    from matdb.report import _number_notes, _provenance
+
+    labvalues.record_material_value("bismuth", chi=-1.62e-4, uncertainty=0.03e-4,
+                                    source="bench SQUID run 7, sample B2", date="2026-11-02", url=fresh_db)
+    text = (Path(__file__).resolve().parent / "data" / "plate_bismuth.toml").read_text(encoding="utf-8")
+    rows = _provenance(load_design_text(text), fresh_db)
+    chi = next(r for r in rows if r["item"] == "bismuth" and r["property"].startswith("chi"))
+    assert chi["kind"] == "measured"
+    assert "bench SQUID run 7" in chi["source"] and chi["date"] == "2026-11-02"
+    assert chi["value"] == "-0.000162" and chi["uncertainty"] == "3e-06"
+    # the magnet grade rows name their published source
+    assert any(r["property"] == "Br (T)" and r["source"] for r in rows)
+    # where the database keeps a checked-against-source status, every row carries it
+    from matdb import catalog
+
+    if hasattr(catalog, "status_marks"):
+        assert chi["status"] == "measured"
+        br = next(r for r in rows if r["property"] == "Br (T)")
+        assert br["status"] in ("verified", "corrected", "unverified")
+    ctx = {"provenance": rows}
+    _number_notes(ctx)
+    assert all(r["note_number"] is None or 1 <= r["note_number"] <= len(ctx["provenance_notes"]) for r in rows)

@@ -29,3 +29,12 @@ def test_design_page_offers_report_and_drawing_downloads():
     # the field map carries the plate outline layer
     specs = [json.dumps(json.loads(c.proto.spec)) for c in at.get("vega_lite_chart")]
     assert any("plate outline" in s for s in specs)
+
+
+@pytest.mark.slow
+def test_advisor_page_offers_the_report_of_the_chosen_candidate():
+    at = AppTest.from_file(APP, default_timeout=600).run()
+    at.switch_page("views/advisor.py").run()
+    assert not at.exception, [e.message for e in at.exception]
+    assert any(b.key == "adv_prepare" for b in at.button)
+    assert any(s.key == "adv_paper" for s in at.selectbox)

@@ -55,7 +55,7 @@ def report_buttons(text: str, url: str, key: str, name: str = "design") -> None:
             dxf = drawing_file(text, "dxf", name)
             svg = drawing_file(text, "svg", name)
     except MatdbError as exc:
-        st.error(f"report: {exc}")
+        st.error(sh.plain(f"report: {exc}"))
         return
     b1, b2 = st.columns(2)
     b3, b4 = st.columns(2)

@@ -6,6 +6,7 @@ from __future__ import annotations
 
 import importlib
 import os
+import re
 from contextlib import contextmanager
 
 import streamlit as st
@@ -13,6 +14,43 @@ import streamlit as st
 from matdb import catalog, presentation
 from matdb.db import default_url
 from matdb.errors import MatdbError
+from matdb.output import csv_text
+
+# every ASCII punctuation character may be backslash-escaped in CommonMark (spec 0.31, section 2.4)
+_MARKDOWN_PUNCT = re.compile(r"([!-/:-@\[-`{-~])")
+
+
+_AUTOLINK = re.compile(r"(?<=:)(?=//)|(?<=www)(?=\.)|(?<=@)", re.IGNORECASE)
+
+
+def plain(text) -> str:
+    """Text shown exactly as typed in a Streamlit element that renders Markdown
+    (``st.info``, ``st.error``, ``st.caption``...): every ASCII punctuation character is
+    backslash-escaped, so no link, image, emphasis, HTML or directive is made from user text
+    (notes, sources, names, error messages quoting input). The page's Markdown also turns
+    bare ``http://``, ``www.`` and e-mail addresses into links after escapes are read, so an
+    invisible zero-width space goes after ``:`` in ``://``, after ``www`` and after ``@``.
+    Line breaks are kept."""
+    def one(line: str) -> str:
+        return _MARKDOWN_PUNCT.sub(r"\\\1", _AUTOLINK.sub("\u200b", line))
+
+    return "  \n".join(one(line) for line in str(text).split("\n"))
+
+
+def csv_bytes(df) -> bytes:
+    """A table as CSV for ``st.download_button``: the same escaping as every CSV matdb writes."""
+    return csv_text(df).encode("utf-8")
+
+
+def run_page(page) -> None:
+    """Run one page; a matdb error that no page caught shows as one line. Any other error is
+    left to Streamlit, which with ``client.showErrorDetails = "none"`` (.streamlit/config.toml
+    and ``matdb serve``) shows a one-line notice in the browser and logs the traceback to the
+    server's standard error."""
+    try:
+        page.run()
+    except MatdbError as exc:
+        st.error(plain(str(exc).replace("\n", " ")))
 
 
 def db_url() -> str:
@@ -29,7 +67,7 @@ def module_or_none(name: str):
 
 
 def not_available(what: str) -> None:
-    st.info(f"{what} is not available yet in this version of matdb.")
+    st.info(plain(f"{what} is not available yet in this version of matdb."))
 
 
 @contextmanager
@@ -39,7 +77,7 @@ def shown_errors(where: str | None = None):
     try:
         yield
     except MatdbError as exc:
-        st.error(f"{where}: {exc}" if where else str(exc))
+        st.error(plain(f"{where}: {exc}" if where else str(exc)))
 
 
 # ---------------------------------------------------------------------------
@@ -66,8 +104,47 @@ def grade_curves(url: str, grades: tuple[str, ...], t_min_c: float, t_max_c: flo
     return presentation.grade_temperature_curves(magnets_df(url), list(grades), t_min_c, t_max_c)
 
 
+@st.cache_data(show_spinner=False, max_entries=8)
+def status_marks(url: str):
+    return catalog.status_marks(url)
+
+
+@st.cache_data(show_spinner=False, max_entries=8)
+def sources_table(url: str):
+    return presentation.sources_table(url)
+
+
+def check_column_config(columns) -> dict:
+    """Narrow text columns for the provenance marks beside values."""
+    return {f"{c}_check": st.column_config.TextColumn(
+        "check", width="small", help=catalog.STATUS_LEGEND) for c in columns}
+
+
+def status_legend() -> None:
+    st.caption("check: " + catalog.STATUS_LEGEND + ". Each number's source and locator: 'Sources and checks' "
+               "below, or `matdb show ID`.")
+
+
+def sources_expander(url: str, key: str) -> None:
+    """The bibliography with how many values each source supports, by status."""
+    with st.expander("Sources and checks"):
+        try:
+            src = sources_table(url)
+        except MatdbError as exc:
+            st.error(plain(f"sources: {exc}"))
+            return
+        tot = src[["verified", "corrected", "unverified"]].sum()
+        n = int(tot.sum())
+        if n:
+            st.write(f"{n} stored published values: {int(tot['verified'])} verified against a table (v), "
+                     f"{int(tot['corrected'])} corrected from one (c), {int(tot['unverified'])} unverified (?).")
+        st.dataframe(src[["key", "kind", "year", "values", "verified", "corrected", "unverified", "citation"]],
+                     hide_index=True, key=key)
+
+
 def clear_catalog_caches() -> None:
     """After a write to the database (a lab value), forget cached tables."""
+    status_marks.clear()
     materials_table.clear()
     magnets_df.clear()
     grade_curves.clear()
@@ -75,6 +152,8 @@ def clear_catalog_caches() -> None:
     field_map.clear()
     arrangement_reach.clear()
     advise.clear()
+    dynamics_prep.clear()
+    pressure_sweep.clear()
 
 
 # ---------------------------------------------------------------------------
@@ -127,7 +206,7 @@ def checked(parse, value: str, where: str):
     try:
         return parse(value)
     except MatdbError as exc:
-        st.error(f"{where}: {exc}")
+        st.error(plain(f"{where}: {exc}"))
         return None
 
 
@@ -192,4 +271,64 @@ def run_with_progress(fn, *args, label: str = "Working..."):
         with advisor.reporting_progress(report):
             return fn(*args)
     finally:
+        slot.empty()
+
+
+# ---------------------------------------------------------------------------
+# dynamics (modes, damping, Q) of a plate design, cached by the design text
+# ---------------------------------------------------------------------------
+
+@st.cache_resource(show_spinner=False, max_entries=16)
+def dynamics_prep(text: str, url: str):
+    """Not pickled (it holds the factorised finite-element matrices): a shared resource."""
+    from matdb.design import load_design_text
+    from matdb.dynamics import prepare_dynamics
+
+    return prepare_dynamics(load_design_text(text))
+
+
+def dynamics_text(text: str, pressure_pa: float, url: str) -> dict:
+    from matdb.dynamics import evaluate_dynamics
+
+    return evaluate_dynamics(dynamics_prep(text, url), pressure_pa)
+
+
+@st.cache_data(show_spinner=False, max_entries=16)
+def pressure_sweep(text: str, url: str):
+    from matdb.design import load_design_text
+    from matdb.dynamics import pressure_sweep_df
+
+    return pressure_sweep_df(load_design_text(text), prep=dynamics_prep(text, url))
+
+
+def _optimise(key: tuple, url: str, progress=None):
+    from matdb import advisor, synthesis
+
+    params, objective, min_margin = key
+    kw = {k: v for k, v in dict(params).items() if k not in ("top", "weights")}
+    req = advisor.parse_request(**kw)
+    return synthesis.optimise(req, objective=objective, min_margin=min_margin, url=url, top=3,
+                              progress=progress)
+
+
+#: Optimiser results for one set of form values.
+optimise = _Memo(lambda key, url: _optimise(key, url, _OPT_PROGRESS.get("cb")), 4)
+_OPT_PROGRESS: dict = {}
+
+
+def run_optimise(key: tuple, url: str, label: str = "Sizing:"):
+    """:func:`matdb.synthesis.optimise` under a progress bar (no bar for a cached answer)."""
+    if optimise.cached(key, url):
+        return optimise(key, url)
+    slot = st.empty()
+    bar = slot.progress(0.0, text=label)
+
+    def report(fraction: float, text: str) -> None:
+        bar.progress(min(max(fraction, 0.0), 1.0), text=f"{label} {text}")
+
+    _OPT_PROGRESS["cb"] = report
+    try:
+        return optimise(key, url)
+    finally:
+        _OPT_PROGRESS.pop("cb", None)
         slot.empty()

@@ -2,6 +2,8 @@
 
 import streamlit as st
 
+from webapp import _shared as sh
+
 st.set_page_config(page_title="matdb: diamagnetic levitation", layout="wide")
 # a headline number never ends in "...": it wraps before it would be cut, on any screen width
 st.html("<style>[data-testid='stMetricValue'], [data-testid='stMetricValue'] * {white-space: normal !important; "
@@ -16,4 +18,4 @@ PAGES = [
     st.Page("views/lab_values.py", title="Lab values"),
 ]
 
-st.navigation(PAGES).run()
+sh.run_page(st.navigation(PAGES))  # one-line errors on the page, tracebacks to server stderr

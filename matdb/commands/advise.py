@@ -1,6 +1,7 @@
 """``matdb advise``: rank plate material x magnet grade x arrangement for a payload.
 
-    matdb advise --mass "0.2 g" --footprint "17 mm x 17 mm" [--min-gap "0.3 mm"]
+    matdb advise (--mass "0.2 g" | --total-mass "0.3 g") --footprint "17 mm x 17 mm"
+        [--min-gap|--gap "0.3 mm"] [--magnet-envelope "24 x 24 x 15 mm"]
         [--temp-min "0 degC"] [--temp-max "60 degC"] [--budget "20 USD"]
         [--material ID ...] [--family NdFeB ...] [--grade N42 ...] [--max-magnet-size "13 mm"]
         [--thickness "1 mm" ...] [--plate-size "20 mm x 20 mm"] [--payload-height "2 mm"]
@@ -17,17 +18,60 @@ import math
 
 from .. import advisor as A
 from ..errors import InputError
-from ..output import add_format_argument, emit, to_json
+from ..output import add_format_argument, check_output_path, emit, to_json
 
-TABLE_COLUMNS = ["rank", "material", "grade", "arrangement", "t_mm", "feasible", "margin",
-                 "gap_mm", "gap_worst_mm", "derating_pct", "cost_usd", "score", "pareto", "why"]
-TABLE_HEADERS = {"t_mm": "plate t mm", "gap_mm": "gap mm", "gap_worst_mm": "worst gap mm",
+TABLE_COLUMNS = ["rank", "material", "grade", "arrangement", "array_mm", "n", "plate_mm", "t_mm", "plate_g",
+                 "feasible", "margin", "gap_mm", "gap_worst_mm", "derating_pct", "cost_usd", "score",
+                 "pareto", "why"]
+TABLE_HEADERS = {"t_mm": "plate t mm", "plate_g": "plate g", "plate_mm": "plate mm", "array_mm": "array WxLxH mm",
+                 "n": "magnets", "gap_mm": "gap mm", "gap_worst_mm": "worst gap mm",
                  "derating_pct": "derating %", "cost_usd": "cost USD*", "why": "reasons / notes"}
 CSV_COLUMNS = ["rank", "material", "grade", "arrangement", "pattern", "shape", "size_m", "rows",
                "cols", "thickness_m", "feasible", "lift_per_area_n_m2", "gap_m", "gap_worst_m",
                "margin", "margin_nominal", "laterally_stable", "derating_pct", "cost_usd", "score",
                "pareto", "reasons", "exact", "q_vertical", "noise_m_s2_rthz", "f_vertical_hz",
-               "dynamics_exact"]
+               "dynamics_exact", "plate_mass_kg", "payload_kg", "array_w_m", "array_l_m",
+               "array_h_m", "magnet_count", "plate_m"]
+
+
+def add_request_arguments(p, *, mass: bool = True) -> None:
+    """The request options ``advise`` and ``optimise`` share (what to float, where, how);
+    ``mass=False`` leaves out --mass, --total-mass and --footprint (the caller adds them)."""
+    if mass:
+        m = p.add_mutually_exclusive_group(required=True)
+        m.add_argument("--mass", help="payload mass on top of the plate, e.g. '0.2 g'")
+        m.add_argument("--total-mass", help="plate plus payload, e.g. '0.3 g' (the plate thickness "
+                       "and side are then matched to it)")
+        p.add_argument("--footprint", required=True,
+                       help="plate outline, e.g. '20 mm x 20 mm', '20x20 mm' or '20 by 20 mm'")
+    p.add_argument("--min-gap", "--gap", dest="min_gap", default="0.2 mm",
+                   help="required gap (clearance) above the magnets (default 0.2 mm)")
+    p.add_argument("--temp-min", default="20 degC", help="coldest operating temperature (default 20 degC)")
+    p.add_argument("--temp-max", default="20 degC", help="hottest operating temperature (default 20 degC)")
+    p.add_argument("--budget", help="most the magnets plus plate may cost, e.g. '20 USD'")
+    p.add_argument("--material", action="extend", nargs="+", help="only these plate material ids (several, or repeat the option)")
+    p.add_argument("--family", action="extend", nargs="+", help="only these magnet families, e.g. NdFeB SmCo")
+    p.add_argument("--grade", action="extend", nargs="+", help="only these magnet grades, e.g. N42 N42SH")
+    p.add_argument("--max-magnet-size", help="largest magnet dimension allowed, e.g. '13 mm'")
+    p.add_argument("--magnet-envelope", help="box the magnet array must fit in, width x length x "
+                   "height, e.g. '24 x 24 x 15 mm'")
+    p.add_argument("--thickness", action="extend", nargs="+",
+                   help="plate thickness to consider (repeatable; default 0.5, 1 and 2 mm, and with "
+                   "--total-mass also each material's thickness matched to it)")
+    p.add_argument("--plate-size", help="fix the plate outline instead of the footprint, e.g. '20 mm x 20 mm'")
+    p.add_argument("--payload-height", default="0 mm",
+                   help="payload centre of mass above the plate (default 0 mm)")
+
+
+def request_from_args(args, **extra) -> A.AdviceRequest:
+    """:class:`matdb.advisor.AdviceRequest` from the options of :func:`add_request_arguments`."""
+    return A.parse_request(args.mass, args.footprint, min_gap=args.min_gap, temp_min=args.temp_min,
+                           temp_max=args.temp_max, budget=getattr(args, "budget", None),
+                           materials=args.material, families=getattr(args, "family", None),
+                           grades=args.grade, max_magnet_size=args.max_magnet_size,
+                           thickness=args.thickness, plate_size=args.plate_size,
+                           payload_height=args.payload_height, total_mass=args.total_mass,
+                           envelope=args.magnet_envelope, **extra)
 
 
 def register(sub) -> None:
@@ -39,21 +83,7 @@ def register(sub) -> None:
         "derating, demagnetisation risk, cost; every rejection with its reason. "
         "Example: matdb advise --mass '0.2 g' --footprint '17 mm x 17 mm' --temp-max '60 degC'",
     )
-    p.add_argument("--mass", required=True, help="payload mass, e.g. '0.2 g'")
-    p.add_argument("--footprint", required=True, help="payload outline, e.g. '17 mm x 17 mm'")
-    p.add_argument("--min-gap", default="0.2 mm", help="required gap above the magnets (default 0.2 mm)")
-    p.add_argument("--temp-min", default="20 degC", help="coldest operating temperature (default 20 degC)")
-    p.add_argument("--temp-max", default="20 degC", help="hottest operating temperature (default 20 degC)")
-    p.add_argument("--budget", help="most the magnets plus plate may cost, e.g. '20 USD'")
-    p.add_argument("--material", action="extend", nargs="+", help="only these plate material ids (several, or repeat the option)")
-    p.add_argument("--family", action="extend", nargs="+", help="only these magnet families, e.g. NdFeB SmCo")
-    p.add_argument("--grade", action="extend", nargs="+", help="only these magnet grades, e.g. N42 N42SH")
-    p.add_argument("--max-magnet-size", help="largest magnet dimension allowed, e.g. '13 mm'")
-    p.add_argument("--thickness", action="extend", nargs="+",
-                   help="plate thickness to consider (repeatable; default 0.5, 1 and 2 mm)")
-    p.add_argument("--plate-size", help="fix the plate outline instead of the footprint, e.g. '20 mm x 20 mm'")
-    p.add_argument("--payload-height", default="0 mm",
-                   help="payload centre of mass above the plate (default 0 mm)")
+    add_request_arguments(p)
     p.add_argument("--weights", help="score weights, e.g. 'margin=1,cost=1,derating=1'")
     p.add_argument("--top", type=int, default=None,
                    help="rows to show (default 10 for the table, 50 for json and csv; 0 = every "
@@ -63,6 +93,7 @@ def register(sub) -> None:
                    help="rows worked out exactly as 'matdb levitate' does (default 1: the top one, "
                    "a few seconds each when not cached); the rest are screening values")
     p.add_argument("--save", metavar="DESIGN.toml", help="write the top candidate as a design file")
+    p.add_argument("--quiet", action="store_true", help="no progress bar on stderr")
     p.add_argument("--objective", choices=["score", "noise"], default="score",
                    help="rank by the score (default) or by the lowest noise floor: thermal "
                    "acceleration noise of the vertical mode (screened, exact for the rows shown)")
@@ -76,12 +107,20 @@ def _mm(v) -> float | None:
     return None if v is None or not math.isfinite(v) else v * 1e3
 
 
+def array_text(r) -> str:
+    """'20x20x10' (array width x length x height in mm)."""
+    return "x".join(f"{r[k] * 1e3:.4g}" for k in ("array_w_m", "array_l_m", "array_h_m"))
+
+
 def table_rows(df) -> list[dict]:
     rows = []
     for r in df.to_dict(orient="records"):
         why = list(r["reasons"]) or list(r["notes"])
         rows.append({"rank": int(r["rank"]), "material": r["material"], "grade": r["grade"],
-                     "arrangement": r["arrangement"], "t_mm": r["thickness_m"] * 1e3,
+                     "arrangement": r["arrangement"], "array_mm": array_text(r),
+                     "n": int(r["magnet_count"]), "plate_g": r["plate_mass_kg"] * 1e3,
+                     "plate_mm": "x".join(f"{v * 1e3:.4g}" for v in r["plate_m"]),
+                     "t_mm": r["thickness_m"] * 1e3,
                      "feasible": bool(r["feasible"]), "margin": r["margin"],
                      "gap_mm": _mm(r["gap_m"]), "gap_worst_mm": _mm(r["gap_worst_m"]),
                      "derating_pct": r["derating_pct"],
@@ -92,16 +131,12 @@ def table_rows(df) -> list[dict]:
 
 
 def cmd_advise(args) -> int:
+    save = check_output_path(args.save, "--save") if args.save is not None else None  # before computing
     if args.top is not None and args.top < 0:
         raise InputError(f"--top: expected a whole number of zero or more, got {args.top}")
     if args.exact is not None and args.exact < 0:
         raise InputError(f"--exact: expected zero or more, got {args.exact}")
-    req = A.parse_request(args.mass, args.footprint, min_gap=args.min_gap, temp_min=args.temp_min,
-                          temp_max=args.temp_max, budget=args.budget, materials=args.material,
-                          families=args.family, grades=args.grade,
-                          max_magnet_size=args.max_magnet_size, thickness=args.thickness,
-                          plate_size=args.plate_size, weights=args.weights,
-                          payload_height=args.payload_height)
+    req = request_from_args(args, weights=args.weights)
     top = args.top if args.top is not None else (10 if args.format == "table" else 50)
     top = None if top == 0 else top
     exact = args.exact if args.exact is not None else 1
@@ -117,12 +152,15 @@ def cmd_advise(args) -> int:
         from .dynamics import parse_pressure
 
         pressure = parse_pressure(args.pressure)
-    df, cat = A.advise_request(req, top=top, feasible_only=args.feasible_only, polish=exact,
-                               objective=args.objective, min_q=min_q, pressure_pa=pressure)
+    from ..progress import progress_bar
+
+    with progress_bar("advise", quiet=getattr(args, "quiet", False)) as prog, A.reporting_progress(prog):
+        df, cat = A.advise_request(req, top=top, feasible_only=args.feasible_only, polish=exact,
+                                   objective=args.objective, min_q=min_q, pressure_pa=pressure)
     if args.save:
         if df.empty:
             raise InputError("--save: no candidate to save")
-        path = A.save_design(df.iloc[0].to_dict(), req, args.save, cat)
+        path = A.save_design(df.iloc[0].to_dict(), req, save, cat)
         if not bool(df.iloc[0]["feasible"]):
             import sys
 
@@ -137,9 +175,15 @@ def cmd_advise(args) -> int:
         emit(recs, "csv", columns=CSV_COLUMNS)
     else:
         n_feas = int(df["feasible"].sum())
-        print(f"{n_feas} feasible of {len(df)} shown; payload {req.mass_kg * 1e3:.4g} g on a "
-              f"{req.plate_m[0] * 1e3:.4g} x {req.plate_m[1] * 1e3:.4g} mm plate, gap >= "
-              f"{req.min_gap_m * 1e3:.3g} mm, {req.temp_min_k - 273.15:.0f} to {req.temp_max_k - 273.15:.0f} C.")
+        what = (f"total {req.total_mass_kg * 1e3:.4g} g (plate and payload)" if req.total_mode
+                else f"payload {req.mass_kg * 1e3:.4g} g")
+        env = ("" if req.envelope_m is None else
+               ", magnets within " + " x ".join(f"{v * 1e3:.4g}" for v in req.envelope_m) + " mm")
+        up = "plates up to" if len(req.plates) > 1 else "a"
+        pl = "" if len(req.plates) > 1 else " plate"
+        print(f"{n_feas} feasible of {len(df)} shown; {what} on {up} "
+              f"{req.plate_m[0] * 1e3:.4g} x {req.plate_m[1] * 1e3:.4g} mm{pl}, gap >= "
+              f"{req.min_gap_m * 1e3:.3g} mm, {req.temp_min_k - 273.15:.0f} to {req.temp_max_k - 273.15:.0f} C{env}.")
         dyn = "noise_m_s2_rthz" in df.columns
         rows_t = table_rows(df)
         cols_t = list(TABLE_COLUMNS)

@@ -2,9 +2,12 @@
 
 from __future__ import annotations
 
+import math
+
 from .. import catalog
 from ..errors import InputError, NotFoundError
-from ..output import add_format_argument, emit
+from ..limits import check_chi
+from ..output import add_format_argument, emit, format_table, with_marks
 from ..units import (
     CONVENTIONS,
     chi_from_si_volume,
@@ -42,6 +45,17 @@ def register(sub) -> None:
     add_format_argument(p)
     p.set_defaults(func=cmd_magnets)
 
+    p = sub.add_parser("sources", help="the bibliography: how many stored values each source supports, by status")
+    p.add_argument("--status", choices=("verified", "corrected", "unverified"),
+                   help="only sources that support values of this status")
+    add_format_argument(p, choices=("table", "json"))
+    p.set_defaults(func=cmd_sources)
+
+    p = sub.add_parser("properties", help="further published properties: resistivity, thermal expansion, ...")
+    p.add_argument("id", nargs="?", help="only this material id or magnet family (e.g. pyrolytic-graphite, NdFeB)")
+    add_format_argument(p)
+    p.set_defaults(func=cmd_properties)
+
     p = sub.add_parser("show", help="one material or grade with every value and its provenance")
     p.add_argument("id", help="material id (e.g. bismuth) or magnet grade (e.g. N42SH)")
     add_format_argument(p, choices=("table", "json"))
@@ -64,23 +78,87 @@ def register(sub) -> None:
     p.set_defaults(func=cmd_convert)
 
 
+def _status_table(marks: dict[str, dict[str, str]]) -> dict[str, dict[str, str]]:
+    return {k: {c: catalog.mark(st) for c, st in m.items()} for k, m in marks.items()}
+
+
 def cmd_materials(args) -> int:
     rows = [catalog.material_record(m) for m in catalog.list_materials()]
+    marks = catalog.status_marks()["material"]
     if args.format == "table":
         print("SI volume susceptibilities; chi_perp/chi_par for anisotropic plates (c axis vertical).")
-    emit(rows, args.format, MATERIAL_COLUMNS if args.format == "table" else None, MATERIAL_HEADERS)
+        emit(with_marks(rows, _status_table(marks), "id", ["chi_si", "chi_perp_si", "chi_par_si", "density_kg_m3"]),
+             "table", MATERIAL_COLUMNS, MATERIAL_HEADERS)
+        print("status marks: " + catalog.STATUS_LEGEND)
+        return 0
+    if args.format == "json":
+        rows = [dict(r, provenance_status=marks.get(r["id"], {})) for r in rows]
+    emit(rows, args.format, None, MATERIAL_HEADERS)
     return 0
 
 
 def cmd_magnets(args) -> int:
+    fams = {catalog.check_family(f, "--family") for f in (args.family or [])}
     rows = [catalog.grade_record(g) for g in catalog.list_grades()]
-    if args.family:
-        fams = {f.lower() for f in args.family}
-        rows = [r for r in rows if r["family"].lower() in fams]
-    emit(rows, args.format, MAGNET_COLUMNS if args.format == "table" else None, MAGNET_HEADERS)
+    if fams:
+        rows = [r for r in rows if r["family"] in fams]
+    marks = catalog.status_marks()["magnet"]
     if args.format == "table":
-        print("* prices are illustrative, not quotes.")
+        emit(with_marks(rows, _status_table(marks), "grade", MAGNET_COLUMNS), "table", MAGNET_COLUMNS, MAGNET_HEADERS)
+        print("* prices are illustrative, not quotes. Br = mid-point of the published range, Br min = its lower end "
+              "(the guaranteed value); Hcb, Hcj = published minima.")
+        print("status marks: " + catalog.STATUS_LEGEND)
+        return 0
+    if args.format == "json":
+        rows = [dict(r, provenance_status=marks.get(r["grade"], {})) for r in rows]
+    emit(rows, args.format, None, MAGNET_HEADERS)
     return 0
+
+
+def cmd_sources(args) -> int:
+    rows = catalog.sources_summary(args.status)
+    if args.format == "json":
+        emit({"totals": catalog.provenance_totals(), "sources": rows}, "json")
+        return 0
+    totals = catalog.provenance_totals()
+    n = sum(totals.values())
+    emit(rows, "table", ["key", "kind", "year", "values", "verified", "corrected", "unverified", "citation"],
+         {"values": "values"})
+    if not n:
+        print("\nno checks recorded in this database (made before they existed): run 'matdb seed' to refresh "
+              "the published values and their provenance (lab values are kept).")
+    if n:
+        done = totals["verified"] + totals["corrected"]
+        print(f"\n{n} stored published values: {totals['verified']} verified, {totals['corrected']} corrected, "
+              f"{totals['unverified']} unverified ({100.0 * done / n:.0f} % checked against a source with a locator).")
+    print("matdb show ID lists each value's status and locator; seed_data/CHECKS.md lists every correction.")
+    return 0
+
+
+PROPERTY_COLUMNS = ["subject_id", "property", "axis", "value_si", "unit_si", "value_published", "unit_published",
+                    "temperature_c", "status", "source_key", "locator"]
+
+
+def cmd_properties(args) -> int:
+    rows = catalog.list_properties(args.id)
+    if args.id and not rows:
+        raise NotFoundError(f"id: no further properties stored for {args.id!r} (see matdb properties)")
+    if args.format == "table":
+        shown = [dict(r, status=f"{catalog.mark(r['status'])} {r['status']}") for r in rows]
+        emit(shown, "table", PROPERTY_COLUMNS)
+        print("axes: materials perp = along the c axis (normal to the plate), par = in the plane; "
+              "magnet families par = along the magnetisation. Electrical conductivity = 1 / resistivity.")
+        print("status marks: " + catalog.STATUS_LEGEND)
+        return 0
+    emit(rows, args.format, PROPERTY_COLUMNS if args.format == "csv" else None)
+    return 0
+
+
+def _prov_lines(prov: list[dict]) -> list[dict]:
+    return [{"field": p["field"], "status": f"{catalog.mark(p['status'])} {p['status']}",
+             "source_key": p.get("source_key"),
+             "locator": p["locator"] or (("tried: " + p["sources_tried"]) if p.get("sources_tried") else "-")}
+            for p in prov]
 
 
 def cmd_show(args) -> int:
@@ -92,14 +170,17 @@ def cmd_show(args) -> int:
     if m is not None:
         rec = catalog.material_record(m)
         values = catalog.material_values(m.id)
+        own = catalog.material_provenance(m.id)
+        props = catalog.list_properties(m.id)
         if args.format == "json":
-            emit({"type": "material", **rec, "values": values}, "json")
+            emit({"type": "material", **rec, "provenance": own, "values": values, "properties": props}, "json")
         else:
             emit(rec, "table")
             print("\nvalues (newest last; * = in use):")
             emit([dict(v, value_id=f"{v['value_id']}{'*' if v['preferred'] else ''}") for v in values], "table",
                  ["value_id", "value_kind", "chi_si", "chi_par_si", "value_published", "convention",
                   "temperature_c", "uncertainty", "source", "measured_by", "date", "retracted"])
+            _print_provenance(own, values, props)
         return 0
     try:
         g = catalog.get_grade(key)
@@ -109,15 +190,38 @@ def cmd_show(args) -> int:
                             f"{catalog._close(key, names) or ' (see matdb materials, matdb magnets)'}") from None
     rec = catalog.grade_record(g)
     values = catalog.grade_values(g.grade)
+    props = catalog.list_properties(g.family) + catalog.list_properties(g.grade)
     if args.format == "json":
-        emit({"type": "magnet", **rec, "values": values}, "json")
+        emit({"type": "magnet", **rec, "values": values, "column_meaning": catalog.GRADE_COLUMN_MEANING,
+              "family_properties": props}, "json")
     else:
         emit(rec, "table")
         print("\nvalues (* = in use):")
         emit([dict(v, value_id=f"{v['value_id']}{'*' if v['preferred'] else ''}") for v in values], "table",
              ["value_id", "value_kind", "br_t", "br_min_t", "hcj_ka_m", "alpha_br_pct_per_k", "source",
               "measured_by", "date", "retracted"])
+        _print_provenance([], values, props)
+        print("\nBr = mid-point of the published range, Br min = its lower end; Hcb, Hcj = published minima.")
     return 0
+
+
+def _print_provenance(own: list[dict], values: list[dict], props: list[dict]) -> None:
+    """Each stored number with its status and where it was checked."""
+    if own:
+        print("\nmaterial numbers:")
+        print(format_table(_prov_lines(own), ["field", "status", "source_key", "locator"], max_width=200))
+    for v in values:
+        if v.get("provenance"):
+            print(f"\nvalue {v['value_id']}: status and locator of each number")
+            print(format_table(_prov_lines(v["provenance"]), ["field", "status", "source_key", "locator"],
+                               max_width=200))
+    if props:
+        print("\nfurther properties:")
+        emit([{"property": f"{p['property']} ({p['axis']})", "value": f"{p['value_published']:g} {p['unit_published']}",
+               "status": f"{catalog.mark(p['status'])} {p['status']}", "source_key": p["source_key"],
+               "locator": p["locator"] or "-"} for p in props], "table",
+             ["property", "value", "status", "source_key", "locator"])
+    print("status marks: " + catalog.STATUS_LEGEND)
 
 
 def convert_chi(value_text: str, unit: str | None, to: str = "si-volume", density: str | None = None,
@@ -151,7 +255,10 @@ def convert_chi(value_text: str, unit: str | None, to: str = "si-volume", densit
         if needs_molar_mass(conv) and mm is None:
             raise InputError(f"--molar-mass: needed for {conv} ({where}); give e.g. --molar-mass '208.98 g/mol' or --material ID")
     chi_si = chi_to_si_volume(value, src, rho, mm)
+    check_chi(chi_si, "VALUE", f"{value:g} {src}")
     result = chi_from_si_volume(chi_si, dst, rho, mm)
+    if not math.isfinite(result):
+        raise InputError(f"--to: {value:g} {src} has no finite value in {dst}")
     return {"chi_si": chi_si, "value": value, "from": src, "to": dst, "result": result,
             "density_kg_m3": rho, "molar_mass_kg_mol": mm, "material": material}
 

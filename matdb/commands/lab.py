@@ -3,11 +3,9 @@
 from __future__ import annotations
 
 import sys
-from pathlib import Path
 
 from .. import labvalues
-from ..errors import InputError
-from ..output import add_format_argument, emit
+from ..output import add_format_argument, check_output_path, emit
 
 HISTORY_MATERIAL_COLUMNS = ["value_id", "value_kind", "chi_si", "chi_par_si", "uncertainty", "temperature_c",
                             "source", "measured_by", "date", "method", "retracted"]
@@ -195,11 +193,9 @@ def cmd_import(args) -> int:
 
 
 def cmd_export(args) -> int:
+    out = check_output_path(args.out, "--out") if args.out is not None else None
     text = labvalues.export(args.format)
-    if args.out:
-        out = Path(args.out.strip())
-        if out.parent and not out.parent.exists():
-            raise InputError(f"--out: folder {str(out.parent)!r} does not exist")
+    if out is not None:
         out.write_text(text, encoding="utf-8", newline="")
         print(f"wrote {out}", file=sys.stderr)
     else:

@@ -4,7 +4,7 @@ payload range (a thin layer over :mod:`matdb.magnet_synthesis`).
     matdb optimise --floating-magnet --payload-range "0 g..5 g" [--plates bismuth pyrolytic-graphite]
         [--min-window "0.5 mm"] [--envelope "80 mm x 200 mm"] [--stations 1 2 3]
         [--temp "20 degC"] [--clearance "0.5 mm"] [--budget "50 USD"] [--family NdFeB]
-        [--top N] [--save DESIGN.toml] [--quiet] [--format table|json|csv]
+        [--top N] [--rejected N] [--save DESIGN.toml] [--quiet] [--format table|json|csv]
 
 :func:`add_arguments` adds only the options the parser does not have yet (the plate
 optimiser defines --format, --save, --quiet, --budget, --family and others);
@@ -52,6 +52,9 @@ def add_arguments(parser) -> None:
     _add(parser, "--budget", help="most the magnets and plates may cost, e.g. '50 USD'")
     _add(parser, "--family", action="extend", nargs="+", help="only these magnet families, e.g. NdFeB")
     _add(parser, "--top", type=int, default=3, help="designs to confirm and show (default 3)")
+    _add(parser, "--rejected", type=int, metavar="N",
+         help="floating magnet: also show the N closest rejected designs with their reasons "
+         "(default 3 when nothing works)")
     _add(parser, "--save", metavar="DESIGN.toml", help="write the best design as a design file")
     _add(parser, "--quiet", action="store_true", help="no progress bar")
     _add(parser, "--format", choices=["table", "json", "csv"], default="table", help="output format")
@@ -99,9 +102,12 @@ def request_from_args(args):
         raise InputError(f"--top: expected a whole number of one or more, got {top}")
     fam = tuple(args.family) if getattr(args, "family", None) else None
     mats = tuple(getattr(args, "plates", None) or DEFAULT_MATERIALS)
+    rejected = getattr(args, "rejected", None)
+    if rejected is not None and rejected < 0:
+        raise InputError(f"--rejected: expected a whole number of zero or more, got {rejected}")
     return FMRequest(payload_range_kg=prange, materials=mats, min_window_m=win, envelope_m=env,
                      stations=stations, budget_usd=budget, families=fam, temperature_k=temp,
-                     clearance_m=clearance, top=top)
+                     clearance_m=clearance, top=top, rejected=rejected)
 
 
 @contextmanager

@@ -8,6 +8,7 @@
 from __future__ import annotations
 
 import csv
+import io
 import math
 import re
 import sys
@@ -16,6 +17,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import InputError
+from ..limits import MAX_FILE_BYTES, MAX_POINTS, check_count, check_magnitude, read_text_limited
 from ..output import add_format_argument, emit, to_json
 from ..units import parse_length, parse_number, parse_quantity, parse_temperature
 
@@ -47,19 +49,18 @@ def parse_point(text: str, field: str = "--at") -> tuple[float, float, float]:
 
 def read_points_csv(path: str) -> np.ndarray:
     """Points from a CSV file with columns ``x_m,y_m,z_m`` (metres) -> (n, 3)."""
-    p = Path(path)
+    text = read_text_limited(Path(path), "--points", MAX_FILE_BYTES)
+    reader = csv.DictReader(io.StringIO(text, newline=""))
     try:
-        fh = p.open(newline="", encoding="utf-8")
-    except OSError as exc:
-        raise InputError(f"--points: cannot read {path!r}: {exc.strerror or exc}") from exc
-    with fh:
-        reader = csv.DictReader(fh)
         cols = [c.strip() for c in (reader.fieldnames or [])]
-        missing = [c for c in ("x_m", "y_m", "z_m") if c not in cols]
-        if missing:
-            raise InputError(f"{path}: line 1: missing column(s) {', '.join(missing)}; "
-                             "expected a header x_m,y_m,z_m")
-        rows = []
+    except csv.Error as exc:
+        raise InputError(f"{path}: line 1: unreadable CSV ({exc})") from None
+    missing = [c for c in ("x_m", "y_m", "z_m") if c not in cols]
+    if missing:
+        raise InputError(f"{path}: line 1: missing column(s) {', '.join(missing)}; "
+                         "expected a header x_m,y_m,z_m")
+    rows = []
+    try:
         for row in reader:
             line = reader.line_num
             row = {(k or "").strip(): v for k, v in row.items()}
@@ -69,7 +70,11 @@ def read_points_csv(path: str) -> np.ndarray:
                 if v is None or str(v).strip() == "":
                     raise InputError(f"{path}: line {line}, column {c}: missing value")
                 vals.append(parse_number(str(v).strip(), f"{path}: line {line}, column {c}"))
+                check_magnitude(vals[-1], "m", f"{path}: line {line}, column {c}", v)
             rows.append(vals)
+            check_count(len(rows), MAX_POINTS, "--points", "points")
+    except csv.Error as exc:
+        raise InputError(f"{path}: line {reader.line_num}: unreadable CSV ({exc})") from None
     if not rows:
         raise InputError(f"{path}: no points (expected rows under the header x_m,y_m,z_m)")
     return np.asarray(rows, dtype=float)
@@ -99,8 +104,11 @@ def cmd_field(args) -> int:
         pts.extend(map(tuple, read_points_csv(args.points)))
     if not pts:
         raise InputError("--at: give at least one point (--at '0,0,1 mm') or --points FILE.csv")
+    check_count(len(pts), MAX_POINTS, "--at/--points", "points")
     temp = parse_temperature(args.temp, "--temp") if args.temp else None
-    design = _load(args.design)
+    from ..design import load_design
+
+    design = load_design(args.design, need_plate=False)  # a field needs only the magnets
     emit(field_records(design, np.asarray(pts, dtype=float), temp), args.format,
          columns=list(FIELD_COLUMNS))
     return 0
@@ -115,6 +123,50 @@ def _num(v, scale: float = 1.0, digits: int = 4, unit: str = "") -> str:
     x = v * scale
     s = f"{x:.{digits}g}"
     return f"{s} {unit}".rstrip()
+
+
+def _point_mm(p) -> str:
+    if not p:
+        return "none found"
+    from ..levitate import _mm3
+
+    return f"({_mm3(p[0])}, {_mm3(p[1])}) mm"
+
+
+def _intervals_mm(iv) -> str:
+    if iv is None:
+        return "-"
+    from ..levitate import format_intervals
+
+    return format_intervals(iv)
+
+
+def _cold_hot_lines(r: dict) -> list[str]:
+    """The coldest and the hottest temperature side by side (nominal values)."""
+    cold, hot = r.get("cold"), r.get("hot")
+    if not cold or not hot:
+        return []
+
+    def head(s):
+        t = s["temperature_k"]
+        return f"{t - 273.15:.4g} C ({t:.5g} K)"
+
+    rows = [
+        ("", head(cold), head(hot)),
+        ("gap", _num(cold["gap_m"], 1e3, 4, "mm"), _num(hot["gap_m"], 1e3, 4, "mm")),
+        (f"margin at {_num(r.get('required_gap_m'), 1e3, 3, 'mm')}", _num(cold["margin"], 1, 3),
+         _num(hot["margin"], 1, 3)),
+        ("vertical stiffness k_z", _num(cold["k_z_n_m"], 1, 4, "N/m"), _num(hot["k_z_n_m"], 1, 4, "N/m")),
+        ("lateral stiffness k_x", _num(cold["k_x_n_m"], 1, 3, "N/m"), _num(hot["k_x_n_m"], 1, 3, "N/m")),
+        ("lateral stiffness k_y", _num(cold["k_y_n_m"], 1, 3, "N/m"), _num(hot["k_y_n_m"], 1, 3, "N/m")),
+    ]
+    w0 = max(len(a) for a, _, _ in rows)
+    w1 = max(len(b) for _, b, _ in rows)
+    out = ["", "coldest and hottest temperature (nominal Br and chi)"]
+    rows[0] = ("temperature", rows[0][1], rows[0][2])
+    w0 = max(w0, len("temperature"))
+    out += [f"{a.ljust(w0)}  {b.ljust(w1)}  {c}" for a, b, c in rows]
+    return out
 
 
 def format_levitate(r: dict) -> str:
@@ -149,7 +201,8 @@ def format_levitate(r: dict) -> str:
         ("tilt stiffness pitch", _num(r.get("k_pitch_n_m_per_rad"), 1e3, 3, "mN m/rad")),
         ("tilt stiffness roll", _num(r.get("k_roll_n_m_per_rad"), 1e3, 3, "mN m/rad")),
         ("laterally stable", yes(r["laterally_stable"])),
-        ("largest stable square side", _num(r["stable_plate_side_max_m"], 1e3, 3, "mm")),
+        ("lateral equilibrium (x, y)", _point_mm(r.get("lateral_equilibrium_m"))),
+        ("stable square sides", _intervals_mm(r.get("stable_side_intervals_m"))),
         ("lift lost vs 20 C", _num(r["lift_derating_pct"], 1, 3, "%")
          + f"  (at {_num(r.get('derating_temperature_k'), 1, 4)} K = "
            f"{_num((r.get('derating_temperature_k') or 0) - 273.15, 1, 3)} C)"),
@@ -166,6 +219,7 @@ def format_levitate(r: dict) -> str:
     ]
     width = max(len(k) for k, _ in rows)
     lines = [f"{k.ljust(width)}  {v}" for k, v in rows]
+    lines += _cold_hot_lines(r)
     curve = r.get("lift_curve") or []
     if curve:
         lines.append("")

@@ -22,6 +22,7 @@ def serve_command(port: int, app: Path = APP) -> list[str]:
         "--server.port", str(port),
         "--server.address", "127.0.0.1",
         "--browser.gatherUsageStats", "false",
+        "--client.showErrorDetails", "none",  # one-line errors in the browser, tracebacks to stderr
     ]
 
 

@@ -1574,6 +1574,14 @@ def levitate_stabilized(design, temp_k: Optional[float] = None, n_window: int = 
                 bodies.append(m.lifter_at(r["lifter_distance_m"]).at(
                     off + [0, 0, r["lifter_distance_m"] + m.lifter0.half_height]))
     result["window_min_m"] = window_min(result["window"])
+    if result["window_min_m"] is None:
+        lo_p = float(min(r["payload_kg"] for r in result["window"]))
+        hi_p = float(max(r["payload_kg"] for r in result["window"]))
+        warnings.append(
+            "some payload has no stable plate distance; 'matdb optimise --floating-magnet "
+            f"--payload-range \"{lo_p * 1e3:.3g} g..{hi_p * 1e3:.3g} g\"' searches floater and lifter sizes, "
+            "grades, plate materials and thicknesses and two or three floaters sharing the load"
+        )
     if payloads is not None:
         result["payload_range_kg"] = [float(payloads.min()), float(payloads.max())]
     result["resolution_shift_m"] = _f(resolution_m)

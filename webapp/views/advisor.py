@@ -23,13 +23,21 @@ grades = sh.magnets_df(url)
 DEFAULTS = {"mass": "0.2 g", "footprint": "17 mm x 17 mm", "min_gap": "0.2 mm", "temp_min": "20 degC",
             "temp_max": "20 degC", "budget": "", "materials": (), "families": (), "top": 30,
             "weights": "margin=1,cost=1,derating=1"}
+MASS_KINDS = ("payload on top of the plate", "total: plate and payload")
 
 st.subheader("Payload")
 with st.form("adv_form"):
     c1, c2, c3 = st.columns(3)
-    mass = c1.text_input("Payload mass", DEFAULTS["mass"], key="adv_mass")
-    footprint = c2.text_input("Footprint (x by y)", DEFAULTS["footprint"], key="adv_footprint")
+    mass = c1.text_input("Mass", DEFAULTS["mass"], key="adv_mass")
+    footprint = c2.text_input("Footprint (x by y, e.g. 20 x 20 mm)", DEFAULTS["footprint"], key="adv_footprint")
     min_gap = c3.text_input("Smallest gap needed", DEFAULTS["min_gap"], key="adv_min_gap")
+    m1, m2, m3 = st.columns(3)
+    mass_kind = m1.radio("The mass is", MASS_KINDS, key="adv_mass_kind", horizontal=False,
+                         help="With the total, each plate's side and thickness are matched to it.")
+    plate_size = m2.text_input("Plate size (optional, e.g. 15 x 15 mm)", "", key="adv_plate_size",
+                               help="Fix the plate outline; empty: the footprint (or sized to the total).")
+    envelope = m3.text_input("Magnet envelope (optional, W x L x H)", "", key="adv_envelope",
+                             help="The box the magnet array must fit in, e.g. 24 x 24 x 15 mm.")
     c4, c5, c6 = st.columns(3)
     temp_min = c4.text_input("Coldest temperature", DEFAULTS["temp_min"], key="adv_temp_min")
     temp_max = c5.text_input("Hottest temperature", DEFAULTS["temp_max"], key="adv_temp_max")
@@ -53,15 +61,23 @@ for label, value, parse in (("payload mass", mass, lambda v: parse_mass(v, "mass
                             ("hottest temperature", temp_max, lambda v: parse_temperature(v, "temp_max"))):
     if sh.checked(parse, value, label) is None:
         bad.append(label)
-with sh.shown_errors("footprint"):
-    try:
-        advisor.parse_footprint(footprint, "footprint")
-    except MatdbError:
-        bad.append("footprint")
-        raise
+for where, value, parse in (("footprint", footprint, lambda v: advisor.parse_footprint(v, "footprint")),
+                           ("plate size", plate_size, lambda v: advisor.parse_footprint(v, "plate size")),
+                           ("magnet envelope", envelope, lambda v: advisor.parse_envelope(v, "magnet envelope"))):
+    if where != "footprint" and not value.strip():
+        continue
+    with sh.shown_errors(where):
+        try:
+            parse(value)
+        except MatdbError:
+            bad.append(where)
+            raise
 
-params = dict(mass=mass.strip(), footprint=footprint.strip(), min_gap=min_gap.strip(), temp_min=temp_min.strip(),
+total = mass_kind == MASS_KINDS[1]
+params = dict(mass=None if total else mass.strip(), total_mass=mass.strip() if total else None,
+              footprint=footprint.strip(), min_gap=min_gap.strip(), temp_min=temp_min.strip(),
               temp_max=temp_max.strip(), budget=budget.strip() or None,
+              plate_size=plate_size.strip() or None, envelope=envelope.strip() or None,
               materials=tuple(materials) or None, families=tuple(families) or None,
               weights=weights.strip() or None, top=int(top))
 if bad:
@@ -69,29 +85,30 @@ if bad:
 try:
     request = advisor.parse_request(**{k: v for k, v in params.items() if k != "top"})
 except MatdbError as exc:
-    st.error(f"payload form: {exc}")
+    st.error(sh.plain(f"payload form: {exc}"))
     st.stop()
 
 key = tuple(sorted(params.items()))
 try:
     ranked = sh.run_with_progress(sh.advise, key, url, label="Ranking every plate material, grade and arrangement:")
 except MatdbError as exc:
-    st.error(f"advisor: {exc}")
+    st.error(sh.plain(f"advisor: {exc}"))
     st.stop()
 
 if ranked.empty:
     st.warning("No candidates match these restrictions.")
     st.stop()
 table = presentation.advisor_table(ranked)
-st.caption(f"Ranked for {params['mass']} over {params['footprint']}, gap at least {params['min_gap']}, "
+what = f"{mass.strip()} in total (plate and payload)" if total else f"a payload of {mass.strip()}"
+st.caption(sh.plain(f"Ranked for {what} over {params['footprint']}, gap at least {params['min_gap']}, "
            f"{params['temp_min']} to {params['temp_max']}"
-           + (f", budget {params['budget']}" if params["budget"] else "") + f"; best {int(top)} shown.")
+           + (f", budget {params['budget']}" if params["budget"] else "") + f"; best {int(top)} shown."))
 n_ok = int(table["feasible"].sum())
 if n_ok == 0:
     st.warning("No candidate floats this payload in the worst case; the reasons are in the table.")
 else:
     best = table.iloc[0]
-    st.success(f"{n_ok} feasible candidate(s). Best: {presentation.candidate_label(best)}.")
+    st.success(sh.plain(f"{n_ok} feasible candidate(s). Best: {presentation.candidate_label(best)}."))
 
 # ---- Pareto chart -------------------------------------------------------------
 st.subheader("Cost against worst-case margin")
@@ -125,7 +142,11 @@ st.dataframe(
     table.assign(verdict=presentation.advisor_verdicts(table))[["verdict"] + presentation.ADVISOR_SHOWN],
     hide_index=True, key="adv_table",
     column_config={
-        "thickness_mm": st.column_config.NumberColumn("plate (mm)", format="%.2f"),
+        "thickness_mm": st.column_config.NumberColumn("plate thickness (mm)", format="%.3f"),
+        "plate_mm": st.column_config.TextColumn("plate (mm)"),
+        "plate_g": st.column_config.NumberColumn("plate mass (g)", format="%.4g"),
+        "array_mm": st.column_config.TextColumn("array W x L x H (mm)"),
+        "magnet_count": st.column_config.NumberColumn("magnets", format="%d"),
         "margin": st.column_config.NumberColumn("margin, worst case (lift / weight)", format="%.2f"),
         "feasible": st.column_config.CheckboxColumn("feasible"),
         "verdict": st.column_config.TextColumn("verdict"),
@@ -158,7 +179,7 @@ st.caption(f"{row['material']} plate {presentation.fmt_number(row['thickness_m']
 with sh.shown_errors("candidate design"):
     toml_text = presentation.candidate_toml(row, request)
     if row.get("reasons"):
-        st.warning("Rejected: " + "; ".join(row["reasons"]) + ".")
+        st.warning(sh.plain("Rejected: " + "; ".join(row["reasons"]) + "."))
     big = max(row["size_m"]) > LARGE_MAGNET_M or (row.get("magnet_mass_kg") or 0) > LARGE_MAGNET_MASS_KG
     if big:
         st.warning(SAFETY_TEXT.replace("\n", "  \n"))
@@ -174,3 +195,42 @@ with sh.shown_errors("candidate design"):
         st.session_state["d_open"] = {"fields": fields, "text": toml_text,
                                       "message": f"Opened advisor candidate {labels[choice]}."}
         st.switch_page("views/design.py")
+
+# ---- sizing optimiser ---------------------------------------------------------------
+st.subheader("Size beyond the catalogue")
+st.caption("Starts from the best feasible candidate above and varies the magnet size, rows and columns, "
+           "spacing, plate side and thickness within the footprint, envelope and budget; every design shown "
+           "is re-checked exactly as the Design page computes it. This takes a while (see the progress bar).")
+o1, o2, o3 = st.columns(3)
+objective = o1.selectbox("Objective", ("margin", "cost"), key="opt_objective",
+                         format_func=lambda o: {"margin": "largest worst-case margin within the budget",
+                                                "cost": "cheapest design reaching a margin"}[o])
+min_margin = o2.number_input("Margin to reach (cost objective)", 0.5, 10.0, 1.2, 0.1, key="opt_min_margin")
+run_opt = o3.button("Optimise sizes", key="opt_run", type="primary")
+opt_key = (tuple(sorted(params.items())), objective, float(min_margin) if objective == "cost" else None)
+if run_opt or sh.optimise.cached(opt_key, url):
+    try:
+        result = sh.run_optimise(opt_key, url, label="Sizing:")
+    except MatdbError as exc:
+        st.error(f"optimiser: {exc}")
+        st.stop()
+    if not result.rows:
+        st.warning("No sized design passed the exact check. " + " ".join(result.notes))
+    else:
+        if result.improvement is not None:
+            word = "margin" if result.objective == "margin" else "cost"
+            st.success(f"Best: {presentation.candidate_label(result.rows[0])}; {word} "
+                       f"{'+' if result.objective == 'margin' else '-'}{abs(result.improvement):.1%} against the "
+                       "best catalogue candidate (re-checked the same way).")
+        for n in result.notes:
+            st.info(n)
+        opt_table = presentation.advisor_table(presentation.optimised_frame(result.rows))
+        st.dataframe(opt_table[["rank", "source"] + [c for c in presentation.ADVISOR_SHOWN
+                                                      if c not in ("rank", "score", "pareto")]],
+                     hide_index=True, key="opt_table")
+        best_row = result.rows[0]
+        if max(best_row["size_m"]) > LARGE_MAGNET_M or (best_row.get("magnet_mass_kg") or 0) > LARGE_MAGNET_MASS_KG:
+            st.warning(SAFETY_TEXT.replace("\n", "  \n"))
+        st.download_button("Download the best sized design (TOML)", presentation.optimised_toml(result).encode(),
+                           file_name=f"design-sized-{best_row['material']}-{best_row['grade']}.toml",
+                           mime="application/toml", key="opt_download")

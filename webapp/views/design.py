@@ -8,7 +8,7 @@ import streamlit as st
 
 from matdb import charts, presentation
 from matdb.errors import MatdbError
-from matdb.units import parse_length, parse_mass, parse_temperature
+from matdb.units import parse_length, parse_mass, parse_quantity, parse_temperature
 from webapp import _downloads
 from webapp import _shared as sh
 
@@ -51,7 +51,7 @@ if "design_source" not in st.session_state:
     st.session_state["design_source"] = "form"
 flash = st.session_state.pop("d_flash", None)
 if flash:
-    st.success(flash)
+    st.success(sh.plain(flash))
 
 left, right = st.columns([5, 7], gap="large")
 text = None
@@ -150,7 +150,7 @@ def saved_designs_panel(design_text: str | None) -> None:
         try:
             row = saved.save_design(name, design_text, note, overwrite=overwrite, url=url)
         except MatdbError as exc:
-            st.error(f"not saved: {exc}")
+            st.error(sh.plain(f"not saved: {exc}"))
         else:
             st.session_state["d_flash"] = f"Saved the design as {row['name']!r}."
             st.rerun()
@@ -187,7 +187,7 @@ with left:
     try:
         design = design_mod.load_design_text(text)
     except MatdbError as exc:
-        st.error(f"design: {exc}")
+        st.error(sh.plain(f"design: {exc}"))
         design = None
 
     if design is not None:
@@ -230,7 +230,7 @@ def compare_section() -> None:
         c1, c2 = st.columns([1, 1], gap="large")
         c1.dataframe(shown, hide_index=True, key="d_compare_table",
                      column_config={"figure": st.column_config.TextColumn("key figure (unit)", width="large")})
-        c1.download_button("Download the comparison (CSV, exact values)", table.to_csv(index=False).encode(),
+        c1.download_button("Download the comparison (CSV, exact values)", sh.csv_bytes(table),
                            file_name="matdb-compare.csv", mime="text/csv", key="d_compare_csv")
         curves = saved.compare_curves(ev)
         if len(curves):
@@ -259,7 +259,7 @@ with right:
         result = sh.levitate_key(key_text, url)
     except MatdbError as exc:
         progress.empty()
-        st.error(f"levitation: {exc}")
+        st.error(sh.plain(f"levitation: {exc}"))
         st.stop()
 
     if result.get("mode") == "stabilized":
@@ -283,7 +283,7 @@ with right:
                 with st.spinner("Computing the schedule over the payload range..."):
                     result = sh.levitate_text(text, None, None, url, payloads, res_m)
             except MatdbError as exc:
-                st.error(f"payload range: {exc}")
+                st.error(sh.plain(f"payload range: {exc}"))
                 st.stop()
         if result.get("max_plate_distance_dipole_m") is not None:
             ratio = result.get("plate_stiffness_dipole_ratio")
@@ -331,18 +331,25 @@ with right:
                         res = synth.search(synth.FMRequest(payload_range_kg=rng, min_window_m=win,
                                                            materials=tuple(s_mats) or synth.DEFAULT_MATERIALS),
                                            progress=lambda f, t="": bar.progress(min(max(f, 0.0), 1.0), text=t[:90]))
-                        st.session_state["fm_search"] = (synth.records(res), res.message, res.notes)
+                        best = next((d for r, d in zip(res.rows, res.designs) if r["feasible"] and d is not None),
+                                    None)
+                        best_text = None if best is None else design_mod_stab.to_toml(best)
+                        st.session_state["fm_search"] = (synth.records(res), res.message, res.notes, best_text)
                     except MatdbError as exc:
-                        st.error(f"search: {exc}")
+                        st.error(sh.plain(f"search: {exc}"))
                     bar.empty()
             found = st.session_state.get("fm_search")
             if found:
-                recs, message, notes = found
+                recs, message, notes, best_text = found
                 if message:
-                    st.warning(message)
+                    st.warning(sh.plain(message))
                 st.dataframe(presentation.floating_designs_df(recs), hide_index=True, key="fm_s_table")
+                if best_text:
+                    st.download_button("Download the best design (TOML; load it above to check it)", best_text.encode(),
+                                       file_name="suggested-floating-magnet.toml", mime="application/toml",
+                                       key="fm_s_download")
                 for n in notes:
-                    st.caption(n)
+                    st.caption(sh.plain(n))
                 st.caption("Suggestions are demo designs, each re-checked by the levitate analysis; "
                            "large magnets need the strong-magnet cautions below.")
         stations = presentation.stations_df(result)
@@ -355,7 +362,7 @@ with right:
         if result.get("safe_distance_m") is not None:
             st.caption(f"Keep implants at least {result['safe_distance_m'] * 1e2:.1f} cm from the magnets (0.5 mT).")
         for w in result.get("warnings", []):
-            st.warning(w)
+            st.warning(sh.plain(w))
         progress.empty()
         compare_section()
         st.stop()
@@ -413,12 +420,70 @@ with n2:
 st.subheader("Warnings and cautions")
 warns = result.get("warnings", [])
 for w in warns:
-    st.warning(w)
+    st.warning(sh.plain(w))
 if not warns:
     st.success("No warnings.")
 from matdb.physics.thermal import SAFETY_TEXT  # noqa: E402
 
 with st.expander("Strong-magnet cautions", expanded=any("Strong magnets" in w for w in warns)):
     st.markdown(SAFETY_TEXT.replace("\n", "  \n"))
+
+# ---- dynamics ---------------------------------------------------------------
+dyn_mod = sh.module_or_none("matdb.dynamics")
+if dyn_mod is not None and result.get("mode") == "plate":
+    st.subheader("Dynamics: modes, damping, Q and noise floor")
+    g1, g2 = st.columns([2, 3], gap="large")
+    with g1:
+        with sh.shown_errors("plate drawing"):
+            ring = dyn_mod.outline_df(design)
+            ring["path"] = ring["piece"].astype(str) + "-" + ring["ring"].astype(str)
+            span = max(ring["x_mm"].max() - ring["x_mm"].min(), ring["y_mm"].max() - ring["y_mm"].min())
+            cx = 0.5 * (ring["x_mm"].max() + ring["x_mm"].min())
+            cy = 0.5 * (ring["y_mm"].max() + ring["y_mm"].min())
+            drawing = alt.Chart(ring).mark_line(color="#333333", strokeWidth=1.5).encode(
+                x=alt.X("x_mm:Q", title="x (mm)", scale=alt.Scale(domain=[cx - 0.6 * span, cx + 0.6 * span])),
+                y=alt.Y("y_mm:Q", title="y (mm)", scale=alt.Scale(domain=[cy - 0.6 * span, cy + 0.6 * span])),
+                detail="path:N", order="order:Q")
+            st.altair_chart(drawing.properties(width=300, height=300, title="plate outline, slots and holes"),
+                            width="content")
+            st.caption("Slots and holes cut the eddy-current loops (higher Q in vacuum); set them in "
+                       "[plate] as slots = {count, width, length, direction, start} and holes.")
+    with g2:
+        p_text = st.text_input("Gas pressure (e.g. 1 atm, 1e-3 Pa, 5 mbar)", "1e-3 Pa", key="d_dyn_pressure")
+        pressure = sh.checked(lambda v: parse_quantity(v, "Pa", "pressure", positive=True), p_text, "pressure")
+        run = st.checkbox("Compute modes, damping and noise (a few seconds)", key="d_dyn_run")
+    if run and pressure is not None:
+        try:
+            with st.spinner("Meshing the plate, solving the eddy currents and the air film..."):
+                dres = sh.dynamics_text(text, pressure, url)
+                sweep = sh.pressure_sweep(text, url)
+        except MatdbError as exc:
+            st.error(f"dynamics: {exc}")
+        else:
+            st.dataframe(dyn_mod.modes_df(dres), hide_index=True, key="design_modes", column_config={
+                "frequency_hz": st.column_config.NumberColumn("frequency (Hz)", format="%.3g"),
+                "q": st.column_config.NumberColumn("Q", format="%.3g"),
+                "q_eddy": st.column_config.NumberColumn("Q eddy", format="%.3g"),
+                "q_air": st.column_config.NumberColumn("Q air", format="%.3g"),
+                "ring_down_s": st.column_config.NumberColumn("ring-down (s)", format="%.3g"),
+                "limited_by": "limited by",
+                "noise_ug_rthz": st.column_config.NumberColumn("noise (micro-g/sqrt(Hz))", format="%.3g")})
+            st.caption(f"At {pressure:.3g} Pa; conductivity {dres['sigma_in_plane_s_m']:.3g} S/m in the plane, "
+                       f"{dres['sigma_across_s_m']:.3g} S/m across ({dres['sigma_source']}). Ring-down: time for "
+                       "the amplitude to fall to 1/e. Noise: thermal (Brownian) acceleration noise of the vertical "
+                       "and sliding modes. An empty Q means that mechanism does not damp the mode.")
+            chart = alt.Chart(sweep.dropna(subset=["q"])).mark_line(point=True).encode(
+                x=alt.X("pressure_pa:Q", title="pressure (Pa)", scale=alt.Scale(type="log")),
+                y=alt.Y("q:Q", title="Q", scale=alt.Scale(type="log")),
+                color=alt.Color("mode:N", title="mode", legend=alt.Legend(orient="bottom", columns=2)),
+                tooltip=["mode:N", alt.Tooltip("pressure_pa:Q", title="pressure (Pa)", format=".3g"),
+                         alt.Tooltip("q:Q", title="Q", format=".3g"),
+                         alt.Tooltip("q_eddy:Q", title="Q eddy", format=".3g"),
+                         alt.Tooltip("q_air:Q", title="Q air", format=".3g")])
+            st.altair_chart(chart.properties(height=320, title="Q against pressure, each mode"), width="stretch")
+            st.caption("At high pressure the air film under the plate limits Q; in vacuum the eddy currents do "
+                       "(a flat line), unless the plate does not conduct.")
+            for w in dres.get("warnings", []):
+                st.warning(w)
 
 compare_section()

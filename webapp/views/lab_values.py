@@ -5,6 +5,7 @@ import altair as alt
 import pandas as pd
 import streamlit as st
 
+from matdb import presentation
 from matdb import presentation as P
 from matdb.errors import MatdbError
 from webapp import _shared as sh
@@ -33,19 +34,19 @@ mid = st.selectbox("Material", ids, index=ids.index("bismuth") if "bismuth" in i
 
 flash = st.session_state.pop("lab_flash", None)
 if flash:
-    st.success(flash)
+    st.success(sh.plain(flash))
 
 # ---- history ------------------------------------------------------------------
 try:
     hist = pd.DataFrame(lab.history(mid, url))
 except MatdbError as exc:
-    st.error(f"history: {exc}")
+    st.error(sh.plain(f"history: {exc}"))
     st.stop()
 in_use = hist[hist["preferred"]]
 if len(in_use):
     r = in_use.iloc[0]
-    st.info(f"In use by the advisor and the design page: value {int(r['value_id'])} ({r['value_kind']}), "
-            f"chi = {P.fmt_chi(r['chi_si'])} (SI volume), from {r['source']}.")
+    st.info(sh.plain(f"In use by the advisor and the design page: value {int(r['value_id'])} ({r['value_kind']}), "
+                     f"chi = {P.fmt_chi(r['chi_si'])} (SI volume), from {r['source']}."))
 st.subheader("Every value of this material")
 pts = hist[["value_id", "value_kind", "chi_si", "uncertainty", "preferred", "retracted", "source"]].copy()
 pts["label"] = [f"{int(v)} ({k})" for v, k in zip(pts["value_id"], pts["value_kind"])]
@@ -75,9 +76,12 @@ st.altair_chart(alt.layer(bars, caps_lo, caps_hi, dots).properties(
     height=260, title="Susceptibility values of this material with their stated uncertainty"), width="stretch")
 st.caption("Bars with end caps: stated uncertainty (none drawn where the source states none). Diamond: the value in "
            "use; circles: kept; crosses: retracted. Nothing is ever deleted: retracted values stay.")
-cols = [c for c in ("value_id", "value_kind", "chi_si", "chi_par_si", "uncertainty", "temperature_c", "source",
-                    "measured_by", "date", "method", "preferred", "retracted", "retract_reason") if c in hist.columns]
+hist["chi_si_check"] = presentation.value_check_marks(hist.to_dict("records"))
+cols = [c for c in ("value_id", "value_kind", "chi_si", "chi_si_check", "chi_par_si", "uncertainty", "temperature_c",
+                    "source", "measured_by", "date", "method", "preferred", "retracted", "retract_reason")
+        if c in hist.columns]
 st.dataframe(hist[cols], hide_index=True, key="lab_history", column_config={
+    **sh.check_column_config(["chi_si"]),
     "value_id": "value id",
     "value_kind": "value kind",
     "chi_si": st.column_config.NumberColumn("chi (SI volume, dimensionless)", format=P.CHI_PRINTF),
@@ -130,7 +134,7 @@ if submitted:
             temperature=temperature or None, uncertainty=uncertainty or None, source=source,
             measured_by=measured_by or None, date=date or None, method=method or None, url=url)
     except MatdbError as exc:
-        st.error(f"not recorded: {exc}")
+        st.error(sh.plain(f"not recorded: {exc}"))
     else:
         kept_old = None
         try:
@@ -164,7 +168,7 @@ with p1:
         try:
             lab.prefer(mid, vid, url)
         except MatdbError as exc:
-            st.error(f"not changed: {exc}")
+            st.error(sh.plain(f"not changed: {exc}"))
         else:
             sh.clear_catalog_caches()
             st.session_state["lab_flash"] = f"Value {vid} is now in use for {mid}."
@@ -181,9 +185,45 @@ with p2:
         try:
             lab.retract(rid, reason, mid, url)
         except MatdbError as exc:
-            st.error(f"not retracted: {exc}")
+            st.error(sh.plain(f"not retracted: {exc}"))
         else:
             sh.clear_catalog_caches()
             st.session_state["lab_flash"] = f"Value {rid} retracted; it stays in the history."
             st.session_state["lab_reset"] = True
+            st.rerun()
+
+# ---- measured Q / ring-down -----------------------------------------------------
+dyn_lab = sh.module_or_none("matdb.dynamics")
+if dyn_lab is not None:
+    st.subheader("Measured quality factor or ring-down of a floating plate")
+    qrows = dyn_lab.list_q_values(mid, url)
+    if qrows:
+        st.dataframe(qrows, hide_index=True, key="lab_q_table", column_config={
+            "frequency_hz": st.column_config.NumberColumn("frequency (Hz)", format="%.4g"),
+            "q": st.column_config.NumberColumn("Q", format="%.4g"),
+            "ring_down_s": st.column_config.NumberColumn("ring-down (s)", format="%.4g"),
+            "pressure_pa": st.column_config.NumberColumn("pressure (Pa)", format="%.3g"),
+            "temperature_k": st.column_config.NumberColumn("temperature (K)", format="%.5g")})
+    else:
+        st.caption(f"No measured Q recorded for {mid} yet.")
+    with st.form("lab_q_form", clear_on_submit=False):
+        q1, q2, q3 = st.columns(3)
+        q_val = q1.text_input("Q (a number)", key="lab_q")
+        q_tau = q2.text_input("or ring-down time, 1/e of amplitude", key="lab_q_tau", placeholder="25 s")
+        q_f = q3.text_input("Mode frequency", key="lab_q_f", placeholder="16 Hz")
+        q4, q5, q6 = st.columns(3)
+        q_p = q4.text_input("Pressure", key="lab_q_p", placeholder="1e-3 Pa")
+        q_mode = q5.text_input("Mode", key="lab_q_mode", placeholder="vertical")
+        q_design = q6.text_input("Design or set-up", key="lab_q_design")
+        q_source = st.text_input("Source note (required: where the number comes from)", key="lab_q_source")
+        q_submit = st.form_submit_button("Record Q", key="lab_q_submit")
+    if q_submit:
+        try:
+            qrow = dyn_lab.record_q_value(mid, q=q_val or None, ring_down=q_tau or None, frequency=q_f or None,
+                                          pressure=q_p or None, mode=q_mode, design=q_design,
+                                          source=q_source, url=url)
+        except MatdbError as exc:
+            st.error(f"not recorded: {exc}")
+        else:
+            st.session_state["lab_flash"] = f"Recorded Q value {qrow['id']} for {mid}."
             st.rerun()

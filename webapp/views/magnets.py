@@ -12,7 +12,7 @@ url = sh.db_url()
 try:
     grades = sh.magnets_df(url)
 except MatdbError as exc:
-    st.error(f"magnet grades: {exc}")
+    st.error(sh.plain(f"magnet grades: {exc}"))
     st.stop()
 
 all_grades = list(grades["grade"])
@@ -33,7 +33,7 @@ else:
     try:
         curves = sh.grade_curves(url, tuple(chosen), float(t_lo), float(t_hi))
     except MatdbError as exc:
-        st.error(f"temperature range: {exc}")
+        st.error(sh.plain(f"temperature range: {exc}"))
         curves = None
     if curves is not None:
         marks = presentation.grade_max_temp_marks(curves)
@@ -83,7 +83,7 @@ else:
             "diamagnet scales with B^2, so with Br^2. Each grade has its own colour and marker shape. Open "
             "diamonds and dotted rules: each grade's maximum working temperature; dashed line beyond it."
         )
-        st.download_button("Download curves (CSV, exact values)", curves.to_csv(index=False).encode(),
+        st.download_button("Download curves (CSV, exact values)", sh.csv_bytes(curves),
                            file_name="matdb-grade-curves.csv", mime="text/csv", key="curves_download")
 
 # ---- table ----------------------------------------------------------------
@@ -91,14 +91,19 @@ st.subheader("Grades")
 families = sorted(grades["family"].unique())
 fam = st.multiselect("Families", families, key="mag_family")
 shown = grades[grades["family"].isin(fam)] if fam else grades
+value_cols = ["br_t", "br_min_t", "hcb_ka_m", "hcj_ka_m", "bhmax_kj_m3", "alpha_br_pct_per_k", "beta_hcj_pct_per_k",
+              "max_temp_c", "density_kg_m3"]
+table = shown[["grade", "family", *value_cols, "price_usd_per_kg", "source"]]
+table, order = presentation.add_status_columns(table, sh.status_marks(url)["magnet"], "grade",
+                                               {c: c for c in value_cols})
 st.dataframe(
-    shown[["grade", "family", "br_t", "br_min_t", "hcb_ka_m", "hcj_ka_m", "bhmax_kj_m3", "alpha_br_pct_per_k",
-           "beta_hcj_pct_per_k", "max_temp_c", "density_kg_m3", "price_usd_per_kg", "source"]],
+    table[order],
     hide_index=True, key="grades_table",
     column_config={
-        "br_t": st.column_config.NumberColumn("Br (T)", format="%.3f"),
-        "br_min_t": st.column_config.NumberColumn("Br min (T)", format="%.3f"),
-        "hcb_ka_m": st.column_config.NumberColumn("Hcb (kA/m)", format="%.0f"),
+        "br_t": st.column_config.NumberColumn("Br (T)", format="%.3f", help="mid-point of the published range"),
+        "br_min_t": st.column_config.NumberColumn("Br min (T)", format="%.3f",
+                                                  help="lower end of the published range (guaranteed)"),
+        "hcb_ka_m": st.column_config.NumberColumn("Hcb min (kA/m)", format="%.0f"),
         "hcj_ka_m": st.column_config.NumberColumn("Hcj min (kA/m)", format="%.0f"),
         "bhmax_kj_m3": st.column_config.NumberColumn("BHmax (kJ/m^3)", format="%.0f"),
         "alpha_br_pct_per_k": st.column_config.NumberColumn("alpha Br (%/K)", format="%.3f"),
@@ -106,8 +111,11 @@ st.dataframe(
         "max_temp_c": st.column_config.NumberColumn("max working T (degC)", format="%.0f"),
         "density_kg_m3": st.column_config.NumberColumn("density (kg/m^3)", format="%.0f"),
         "price_usd_per_kg": st.column_config.NumberColumn("price (USD/kg, illustrative)", format="%.0f"),
+        **sh.check_column_config(value_cols),
     },
 )
+sh.status_legend()
 st.caption("Prices are illustrative, not quotes.")
-st.download_button("Download grades (CSV, exact values)", shown.to_csv(index=False).encode(),
+st.download_button("Download grades (CSV, exact values)", sh.csv_bytes(shown),
                    file_name="matdb-grades.csv", mime="text/csv", key="grades_download")
+sh.sources_expander(url, "grades_sources")

@@ -20,7 +20,7 @@ conv = st.selectbox(
 try:
     mats = sh.materials_table(conv, url)
 except MatdbError as exc:
-    st.error(f"materials: {exc}")
+    st.error(sh.plain(f"materials: {exc}"))
     st.stop()
 
 # ---- the levitation view -------------------------------------------------
@@ -105,9 +105,9 @@ if band is not None:
                 "peak_t2_m": st.column_config.NumberColumn("local peak (T^2/m)", format="%.0f"),
             }, key="reach_table")
 elif reach_msg:
-    st.info(reach_msg)
+    st.info(sh.plain(reach_msg))
 if len(para):
-    st.caption("Pulled towards magnets (paramagnetic, cannot float this way): " + ", ".join(para["name"]))
+    st.caption(sh.plain("Pulled towards magnets (paramagnetic, cannot float this way): " + ", ".join(para["name"])))
 
 # ---- table ---------------------------------------------------------------
 st.subheader("Properties")
@@ -129,18 +129,23 @@ col, asc = sort_options[sort_by]
 shown = shown.sort_values(col, ascending=asc, na_position="last").reset_index(drop=True)
 unit = presentation.CHI_UNIT_SHORT[conv]
 chi_fmt = presentation.CHI_PRINTF
-view = shown[["id", "name", "chi_shown", "chi_perp_shown", "chi_par_shown", "density_kg_m3",
-              "abs_chi_per_density", "required_t2_m", "value_kind", "source"]]
+checked = {"chi_shown": "chi_si", "chi_perp_shown": "chi_perp_si", "chi_par_shown": "chi_par_si",
+           "density_kg_m3": "density_kg_m3"}
+table, order = presentation.add_status_columns(
+    shown[["id", "name", "chi_shown", "chi_perp_shown", "chi_par_shown", "density_kg_m3",
+           "abs_chi_per_density", "required_t2_m", "value_kind", "source"]],
+    sh.status_marks(url)["material"], "id", checked)
 # numbers stay numbers (sorting works); the text shown is the page's one format, and an
 # empty cell reads as a dash (isotropic materials have no perpendicular/parallel value)
 fmt = {c: presentation.fmt_chi for c in ("chi_shown", "chi_perp_shown", "chi_par_shown", "abs_chi_per_density")}
 fmt.update({"density_kg_m3": lambda v: presentation.fmt_number(v, sig=4 if abs(v) >= 1000 else 3),
             "required_t2_m": presentation.fmt_number})
-styled = view.style.format(fmt, na_rep=presentation.MISSING)
+styled = table[order].style.format(fmt, na_rep=presentation.MISSING)
 st.dataframe(
     styled,
     hide_index=True, key="materials_table",
     column_config={
+        **sh.check_column_config(checked),
         "chi_shown": st.column_config.NumberColumn(f"chi ({unit})", format=chi_fmt),
         "chi_perp_shown": st.column_config.NumberColumn(f"chi perp. ({unit})", format=chi_fmt,
                                                         help="field along the c axis (anisotropic plates; "
@@ -153,9 +158,10 @@ st.dataframe(
         "value_kind": "value kind",
     },
 )
+sh.status_legend()
 if conv in ("si-molar", "cgs-molar") and shown["chi_shown"].isna().any():
     st.caption("Empty molar values: the database holds no molar mass for that material (e.g. polymers).")
-st.download_button("Download this table (CSV, exact values)", shown.to_csv(index=False).encode(),
+st.download_button("Download this table (CSV, exact values)", sh.csv_bytes(shown),
                    file_name="matdb-materials.csv", mime="text/csv", key="mat_download")
 
 # ---- compare -------------------------------------------------------------
@@ -165,5 +171,7 @@ picked = st.multiselect("Materials to compare side by side", list(mats["id"]), k
 if picked:
     with sh.shown_errors("compare"):
         st.dataframe(presentation.compare_materials(mats.merge(need[["id", "required_t2_m"]], on="id"), picked,
-                                                      rounded=True),
+                                                      rounded=True, marks=sh.status_marks(url)["material"]),
                      key="compare_table")
+
+sh.sources_expander(url, "materials_sources")

@@ -1,7 +1,7 @@
 """saved designs: named design-file texts with a note (matdb.saved_designs)
 
 Revision ID: 0003_saved_designs
-Revises: 0002_conductivities_and_measured_q
+Revises: 0002_conductivity_q
 Create Date: 2026-12-03 07:23:13
 """
 
@@ -11,7 +11,7 @@ import sqlalchemy as sa
 from alembic import op
 
 revision = '0003_saved_designs'
-down_revision = '0002_conductivities_and_measured_q'
+down_revision = '0002_conductivity_q'
 branch_labels = None
 depends_on = None
 

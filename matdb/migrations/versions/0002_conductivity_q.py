@@ -1,7 +1,7 @@
 """conductivities and measured Q: tables conductivityvalue (cited electrical conductivities,
 in the plate plane and across it) and qualityfactorvalue (lab-measured Q and ring-down times)
 
-Revision ID: 0002_conductivities_and_measured_q
+Revision ID: 0002_conductivity_q
 Revises: 0001_baseline
 Create Date: 2026-12-03 07:20:12.999138
 """
@@ -13,7 +13,7 @@ import sqlmodel  # noqa: F401  (autogenerate writes sqlmodel.sql.sqltypes.AutoSt
 from alembic import op
 
 
-revision = '0002_conductivities_and_measured_q'
+revision = '0002_conductivity_q'
 down_revision = '0001_baseline'
 branch_labels = None
 depends_on = None
