@@ -931,9 +931,16 @@ def ranking_csv(df: pd.DataFrame) -> str:
 
 
 def candidate_label(row) -> str:
+    """A short name of one ranked candidate (it fits a choice box on a 1000 px screen; the
+    full arrangement is in ``row["arrangement"]``)."""
     ok = "feasible" if row["feasible"] else "rejected"
-    return (f"#{int(row['rank'])}: {row['material']} {row['thickness_m'] * 1e3:.3g} mm over "
-            f"{row['arrangement']}, {row['grade']} ({ok})")
+    pattern = row.get("pattern") if hasattr(row, "get") else None
+    if pattern and "rows" in row and "cols" in row:
+        short = {"checkerboard": "checker"}.get(pattern, pattern)
+        arr = "1 magnet" if pattern == "single" else f"{int(row['rows'])}x{int(row['cols'])} {short}"
+    else:
+        arr = str(row["arrangement"])
+    return f"#{int(row['rank'])}: {row['material']} {row['thickness_m'] * 1e3:.3g} mm, {row['grade']}, {arr} ({ok})"
 
 
 def candidate_toml(row: dict, request) -> str:

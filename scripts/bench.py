@@ -13,7 +13,7 @@ from pathlib import Path
 
 HERE = Path(__file__).resolve().parent
 MODULES = ["bench_fields", "bench_plate", "bench_recoil", "bench_advisor", "bench_floating", "bench_import",
-           "bench_dynamics", "bench_optimise", "bench_report"]
+           "bench_dynamics", "bench_optimise", "bench_report", "bench_browser"]
 
 
 def main() -> int:

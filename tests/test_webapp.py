@@ -11,7 +11,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from matdb import catalog
+from matdb import catalog, presentation
 from matdb.units import G_STANDARD, MU0
 
 pytest.importorskip("streamlit")
@@ -556,3 +556,81 @@ def test_design_duplicate_delete_and_compare(fresh_db):
     assert set(curves["design"]) == {"demo small", "demo large"}
     text = json.dumps(json.loads(chart.proto.spec))
     assert "gap above the magnets (mm)" in text and "lift (mN)" in text
+
+
+# ---------------------------------------------------------------------------
+# one number format, words beside colours, boxes that follow the state
+# ---------------------------------------------------------------------------
+
+def test_materials_table_shows_dashes_not_none_and_units_in_words():
+    at = _app()
+    assert not at.exception
+    el = [d for d in at.dataframe if "chi_perp_shown" in d.value.columns][0]
+    cols = json.dumps(el.proto.columns)
+    assert "(1)" not in cols and "dimensionless" in cols
+    df = el.value
+    # numbers stay numbers (the table sorts by value); bismuth is isotropic: no perpendicular value
+    assert df.set_index("id").loc["bismuth", "chi_perp_shown"] != df.set_index("id").loc["bismuth", "chi_perp_shown"]
+    # the text shown: the page's scientific format, a dash where there is no value, never "None"
+    shown = convert_arrow_bytes_to_pandas_df(el.proto.arrow_data.styler.display_values)
+    shown.columns = df.columns
+    shown = shown.set_index(df["id"])
+    assert shown.loc["bismuth", "chi_perp_shown"] == presentation.MISSING
+    # CRC Handbook: bismuth about -1.66e-4 (SI volume); four digits in exponent form, as every page prints it
+    assert shown.loc["bismuth", "chi_shown"] == presentation.fmt_chi(df.set_index("id").loc["bismuth", "chi_shown"])
+    assert "e-04" in shown.loc["bismuth", "chi_shown"]
+    assert not shown.isin(["None", "nan", "NaN"]).any().any()
+    spec = json.dumps(json.loads(_charts(at)[0].proto.spec))
+    assert '"shape"' in spec  # verdicts carry a marker shape as well as a colour
+
+
+def test_magnets_grades_differ_by_hue_and_shape_and_the_legend_speaks_words():
+    at = _magnets_page()
+    at.multiselect(key="mag_grades").set_value(["N42", "N42SH", "N52"]).run()
+    assert not at.exception
+    spec = json.loads(_charts(at)[0].proto.spec)
+    text = json.dumps(spec)
+    assert "within rating" in text and "above max working T" in text
+    assert '"false"' not in text.lower().replace('"false": ', "")
+    colours = shapes = None
+    for layer in spec["layer"]:
+        enc = layer.get("encoding", {})
+        if "shape" in enc:
+            shapes = enc["shape"]["scale"]["range"]
+            colours = enc["color"]["scale"]["range"]
+    assert len(set(colours)) == 3 and len(set(shapes)) == 3
+
+
+def test_lab_values_record_clears_the_form_and_asks_before_taking_over(fresh_db):
+    at = _app()
+    at.switch_page("views/lab_values.py").run()
+    at.selectbox(key="lab_material").set_value("bismuth").run()
+    old = catalog.get_material("bismuth", fresh_db)
+    # first: record but keep the value in use (the box that asks is unticked)
+    at.text_input(key="lab_chi").set_value("-1.6e-4")
+    at.text_input(key="lab_source").set_value("demo bar A, Gouy balance")
+    at.checkbox(key="lab_take_over").uncheck()
+    at.button(key="lab_submit").click().run()
+    assert not at.exception, [e.message for e in at.exception]
+    assert catalog.get_material("bismuth", fresh_db).value_id == old.value_id
+    msg = at.success[0].value
+    assert "-1.600e-04" in msg and "temperature not stated" in msg and f"value {old.value_id} stays in use" in msg
+    # the form is empty again, the take-over box ticked again
+    assert at.text_input(key="lab_chi").value == "" and at.text_input(key="lab_source").value == ""
+    assert at.checkbox(key="lab_take_over").value is True
+    # second: record and take over; the "value to use" box follows
+    at.text_input(key="lab_chi").set_value("-1.65e-4")
+    at.text_input(key="lab_source").set_value("demo bar B, Gouy balance")
+    at.button(key="lab_submit").click().run()
+    assert not at.exception
+    hist = _table(at, "value_kind")
+    new = hist[hist["value_kind"] == "measured"].iloc[-1]
+    assert new["chi_si"] == pytest.approx(-1.65e-4) and bool(new["preferred"])
+    assert catalog.get_material("bismuth", fresh_db).value_id == int(new["value_id"])
+    assert at.selectbox(key="lab_prefer_id").value == int(new["value_id"])
+    assert any("-1.650e-04" in i.value for i in at.info)  # the info box uses the same format
+    chart = _charts(at)[0]
+    pts = _frame_with(chart, "status")
+    assert set(pts["status"]) >= {"in use", "kept"}
+    spec = json.dumps(json.loads(chart.proto.spec))
+    assert '"shape"' in spec and "dimensionless" in spec

@@ -39,9 +39,9 @@ def report_buttons(text: str, url: str, key: str, name: str = "design") -> None:
     ``text`` (a design file). ``key`` keeps the widgets of several pages apart."""
     digest = hashlib.sha256(text.encode("utf-8")).hexdigest()[:12]
     ready_key = f"{key}_report_ready"
-    c1, c2 = st.columns([2, 1])
-    paper = c2.selectbox("Paper", ["A4", "Letter"], key=f"{key}_paper")
-    if c1.button("Prepare the design report and drawing", key=f"{key}_prepare"):
+    # one above the other: side by side they were cut off in a narrow column
+    paper = st.selectbox("Paper size of the report", ["A4", "Letter"], key=f"{key}_paper")
+    if st.button("Prepare the design report and drawing", key=f"{key}_prepare"):
         st.session_state[ready_key] = digest
     if st.session_state.get(ready_key) != digest:
         st.caption("The report (HTML or PDF: inputs, every figure at the coldest, nominal and hottest "
@@ -57,7 +57,8 @@ def report_buttons(text: str, url: str, key: str, name: str = "design") -> None:
     except MatdbError as exc:
         st.error(sh.plain(f"report: {exc}"))
         return
-    b1, b2, b3, b4 = st.columns(4)
+    b1, b2 = st.columns(2)
+    b3, b4 = st.columns(2)
     b1.download_button("Report (HTML)", html, file_name=f"{name}-report.html", mime=MIME["html"],
                        key=f"{key}_dl_html")
     b2.download_button(f"Report (PDF, {paper})", pdf, file_name=f"{name}-report.pdf", mime=MIME["pdf"],

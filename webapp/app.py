@@ -5,6 +5,10 @@ import streamlit as st
 from webapp import _shared as sh
 
 st.set_page_config(page_title="matdb: diamagnetic levitation", layout="wide")
+# a headline number never ends in "...": it wraps before it would be cut, on any screen width
+st.html("<style>[data-testid='stMetricValue'], [data-testid='stMetricValue'] * {white-space: normal !important; "
+        "overflow-wrap: anywhere; text-overflow: clip !important;} [data-testid='stMetricValue'] "
+        "{font-size: 1.9rem;}</style>")
 
 PAGES = [
     st.Page("views/materials.py", title="Materials", default=True),

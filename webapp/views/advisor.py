@@ -174,6 +174,8 @@ if clicked and clicked[0] in ranks and st.session_state.get("adv_last_click") !=
 labels = {int(r["rank"]): presentation.candidate_label(r) for _, r in table.iterrows()}
 choice = st.selectbox("Candidate", ranks, key=choice_key, format_func=lambda r: labels[r])
 row = ranked[ranked["rank"] == choice].iloc[0].to_dict()
+st.caption(f"{row['material']} plate {presentation.fmt_number(row['thickness_m'] * 1e3, 'mm')} thick over "
+           f"{row['arrangement']}, grade {row['grade']}; worst-case margin {presentation.fmt_number(row['margin'])}.")
 with sh.shown_errors("candidate design"):
     toml_text = presentation.candidate_toml(row, request)
     if row.get("reasons"):

@@ -298,7 +298,8 @@ with right:
         st.caption("Narrowest window of plate distances over the schedule: "
                    + ("none (some payload has no stable plate distance)" if wm is None else f"{wm * 1e3:.3g} mm"))
         sched = presentation.stabilized_window_df(result)
-        st.altair_chart(charts.schedule_chart(sched), width="content")
+        st.altair_chart(charts.schedule_chart(sched).properties(
+            title="Lifter setting and stable plate distances against payload"), width="content")
         st.caption("Top: where to set the lifter for each payload. Bottom: the band of plate distances that "
                    "keeps the floater stable; it narrows as the payload grows.")
         st.dataframe(sched, hide_index=True, column_config={
@@ -375,7 +376,7 @@ with right:
     c4.metric("0.5 mT distance", presentation.fmt_number(result["safe_distance_m"] * 1e2, "cm"))
 
     st.subheader("Lift against gap")
-    st.altair_chart(charts.lift_chart(result), width="stretch")
+    st.altair_chart(charts.lift_chart(result).properties(title="Lift and weight against gap"), width="stretch")
     st.caption("Solid: magnetic lift on the plate; dashed: weight of plate and payload; dot: where they balance "
                "on the falling branch (the equilibrium gap).")
 
@@ -391,8 +392,11 @@ fmap = sh.field_map(repr(design.magnets), result["temperature_k"], gap_mm * 1e-3
 progress.empty()
 field = "b_t" if quantity.startswith("|B|") else "b2_t2"
 pol = presentation.polarity_df(design.arrangement())
-st.altair_chart(charts.field_and_polarity_chart(fmap, pol, gap_mm, quantity, charts.plate_outline_df(design)),
-                width="content")
+# one under the other, legends below: square maps that fit a 1000 px screen without being cut
+legend = dict(orient="bottom", titleLimit=300)
+st.altair_chart(charts.field_map_chart(fmap, gap_mm, quantity, charts.plate_outline_df(design))
+                .configure_legend(**legend), width="content")
+st.altair_chart(charts.polarity_chart(pol).configure_legend(**legend), width="content")
 
 st.subheader("Numbers")
 n1, n2 = st.columns([3, 2])

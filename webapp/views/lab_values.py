@@ -6,6 +6,7 @@ import pandas as pd
 import streamlit as st
 
 from matdb import presentation
+from matdb import presentation as P
 from matdb.errors import MatdbError
 from webapp import _shared as sh
 
@@ -15,6 +16,16 @@ if lab is None:
     sh.not_available("The Lab values page")
     st.stop()
 url = sh.db_url()
+FORM_KEYS = ("lab_chi", "lab_chi_perp", "lab_chi_par", "lab_temperature", "lab_uncertainty", "lab_density",
+             "lab_source", "lab_by", "lab_date", "lab_method", "lab_take_over")
+# after a write: an empty form (no double entry) and choice boxes that follow the new state
+# (values are set, not only forgotten: the browser keeps a widget's old text unless told)
+resetting = st.session_state.pop("lab_reset", False)
+if resetting:
+    for k in FORM_KEYS + ("lab_retract_reason",):
+        st.session_state[k] = True if k == "lab_take_over" else ""
+    for k in ("lab_prefer_id", "lab_retract_id"):
+        st.session_state.pop(k, None)
 mats = sh.materials_table("si-volume", url)
 ids = list(mats["id"])
 names = dict(zip(mats["id"], mats["name"]))
@@ -35,25 +46,36 @@ in_use = hist[hist["preferred"]]
 if len(in_use):
     r = in_use.iloc[0]
     st.info(sh.plain(f"In use by the advisor and the design page: value {int(r['value_id'])} ({r['value_kind']}), "
-                     f"chi = {r['chi_si']:.4e} (SI volume), from {r['source']}."))
+                     f"chi = {P.fmt_chi(r['chi_si'])} (SI volume), from {r['source']}."))
 st.subheader("Every value of this material")
 pts = hist[["value_id", "value_kind", "chi_si", "uncertainty", "preferred", "retracted", "source"]].copy()
 pts["label"] = [f"{int(v)} ({k})" for v, k in zip(pts["value_id"], pts["value_kind"])]
-pts["uncertainty"] = pd.to_numeric(pts["uncertainty"], errors="coerce").fillna(0.0)
-pts["lo"] = pts["chi_si"] - pts["uncertainty"]
-pts["hi"] = pts["chi_si"] + pts["uncertainty"]
+pts["uncertainty"] = pd.to_numeric(pts["uncertainty"], errors="coerce")
+pts["lo"] = pts["chi_si"] - pts["uncertainty"].fillna(0.0)
+pts["hi"] = pts["chi_si"] + pts["uncertainty"].fillna(0.0)
 pts["status"] = ["in use" if p else "retracted" if r else "kept" for p, r in zip(pts["preferred"], pts["retracted"])]
-base = alt.Chart(pts).encode(x=alt.X("label:N", title="value (id and kind), oldest first", sort=list(pts["label"])))
-bars = base.mark_rule(strokeWidth=2).encode(y=alt.Y("lo:Q", title="chi (SI volume)", axis=alt.Axis(format=".2e")),
-                                             y2="hi:Q", color=alt.Color("status:N", legend=None))
-dots = base.mark_point(filled=True, size=120).encode(
-    y="chi_si:Q", color=alt.Color("status:N", title="", scale=alt.Scale(domain=["in use", "kept", "retracted"],
-                                                                    range=["#1b7837", "#3d6fb6", "#bbbbbb"])),
+pts["uncertainty_text"] = [P.fmt_chi(u) if u == u else "not stated" for u in pts["uncertainty"]]
+y_lo, y_hi = P.padded_domain(pts["lo"], pts["hi"])
+y_scale = alt.Scale(domain=[y_lo, y_hi], zero=False, nice=False)
+STATUS = ["in use", "kept", "retracted"]
+base = alt.Chart(pts).encode(x=alt.X("label:N", title="value (id and kind), oldest first", sort=list(pts["label"]),
+                                     axis=alt.Axis(labelAngle=0)))
+with_unc = base.transform_filter("datum.hi > datum.lo")
+bars = with_unc.mark_rule(strokeWidth=2.5, color="#444444").encode(
+    y=alt.Y("lo:Q", title="chi (SI volume, dimensionless)", scale=y_scale, axis=alt.Axis(format=".2e")), y2="hi:Q")
+caps_lo = with_unc.mark_tick(thickness=2.5, size=18, color="#444444").encode(y=alt.Y("lo:Q", scale=y_scale))
+caps_hi = with_unc.mark_tick(thickness=2.5, size=18, color="#444444").encode(y=alt.Y("hi:Q", scale=y_scale))
+dots = base.mark_point(filled=True, size=140, opacity=1).encode(
+    y=alt.Y("chi_si:Q", scale=y_scale),
+    color=alt.Color("status:N", title="status", scale=alt.Scale(domain=STATUS, range=["#1b7837", "#3d6fb6", "#999999"])),
+    shape=alt.Shape("status:N", title="status", scale=alt.Scale(domain=STATUS, range=["diamond", "circle", "cross"])),
     tooltip=[alt.Tooltip("value_id:Q", title="value id"), alt.Tooltip("value_kind:N", title="kind"),
-             alt.Tooltip("chi_si:Q", title="chi (SI volume)", format=".4e"),
-             alt.Tooltip("uncertainty:Q", title="uncertainty", format=".2e"), "status:N", "source:N"])
-st.altair_chart(alt.layer(bars, dots).properties(height=240), width="stretch")
-st.caption("Bars: stated uncertainty. Nothing is ever deleted: retracted values stay, greyed.")
+             alt.Tooltip("chi_si:Q", title="chi (SI volume)", format=".3e"),
+             alt.Tooltip("uncertainty_text:N", title="uncertainty (SI volume)"), "status:N", "source:N"])
+st.altair_chart(alt.layer(bars, caps_lo, caps_hi, dots).properties(
+    height=260, title="Susceptibility values of this material with their stated uncertainty"), width="stretch")
+st.caption("Bars with end caps: stated uncertainty (none drawn where the source states none). Diamond: the value in "
+           "use; circles: kept; crosses: retracted. Nothing is ever deleted: retracted values stay.")
 hist["chi_si_check"] = presentation.value_check_marks(hist.to_dict("records"))
 cols = [c for c in ("value_id", "value_kind", "chi_si", "chi_si_check", "chi_par_si", "uncertainty", "temperature_c",
                     "source", "measured_by", "date", "method", "preferred", "retracted", "retract_reason")
@@ -62,9 +84,9 @@ st.dataframe(hist[cols], hide_index=True, key="lab_history", column_config={
     **sh.check_column_config(["chi_si"]),
     "value_id": "value id",
     "value_kind": "value kind",
-    "chi_si": st.column_config.NumberColumn("chi (SI volume)", format="%.4e"),
-    "chi_par_si": st.column_config.NumberColumn("chi parallel (SI volume)", format="%.4e"),
-    "uncertainty": st.column_config.NumberColumn("uncertainty (SI volume)", format="%.2e"),
+    "chi_si": st.column_config.NumberColumn("chi (SI volume, dimensionless)", format=P.CHI_PRINTF),
+    "chi_par_si": st.column_config.NumberColumn("chi parallel (SI volume)", format=P.CHI_PRINTF),
+    "uncertainty": st.column_config.NumberColumn("uncertainty (SI volume)", format=P.CHI_PRINTF),
     "temperature_c": st.column_config.NumberColumn("temperature (degC)", format="%.1f"),
     "preferred": "in use"})
 
@@ -83,14 +105,27 @@ with st.form("lab_form", clear_on_submit=False):
                             key="lab_chi")
         chi_perp = chi_par = ""
     b1, b2, b3 = st.columns(3)
-    temperature = b1.text_input("Temperature (optional)", key="lab_temperature", placeholder="20 degC")
+    temperature = b1.text_input("Temperature (optional; empty: not stated)", key="lab_temperature",
+                                help="Type the sample temperature with its unit, e.g. 20 degC or 293 K. Left empty, "
+                                     "the value is stored with no temperature.")
     uncertainty = b2.text_input("Uncertainty (optional; absolute or with %)", key="lab_uncertainty")
-    density = b3.text_input("Density of your sample (optional)", key="lab_density", placeholder="9.78 g/cm^3")
+    density = b3.text_input("Density of your sample (optional)", key="lab_density",
+                            help="With its unit, e.g. 9.78 g/cm^3. Left empty, the catalogue density is used.")
     source = st.text_input("Source note (required: where the number comes from)", key="lab_source")
     c1, c2, c3 = st.columns(3)
     measured_by = c1.text_input("Measured by", key="lab_by")
     date = c2.text_input("Date (YYYY-MM-DD)", key="lab_date")
     method = c3.text_input("Method", key="lab_method")
+    if len(in_use):
+        cur = in_use.iloc[0]
+        take_over_label = (f"Use the new value from now on (it replaces value {int(cur['value_id'])}, "
+                           f"chi = {P.fmt_chi(cur['chi_si'])}, in use now)")
+    else:
+        take_over_label = "Use the new value from now on"
+    if "lab_take_over" not in st.session_state:
+        st.session_state["lab_take_over"] = True
+    take_over = st.checkbox(take_over_label, key="lab_take_over",
+                            help="Untick to keep the value in use; the new value is recorded beside it either way.")
     submitted = st.form_submit_button("Record", key="lab_submit", type="primary")
 if submitted:
     try:
@@ -101,9 +136,22 @@ if submitted:
     except MatdbError as exc:
         st.error(sh.plain(f"not recorded: {exc}"))
     else:
+        kept_old = None
+        try:
+            if not take_over and len(in_use):
+                kept_old = int(in_use.iloc[0]["value_id"])
+                lab.prefer(mid, kept_old, url)
+            elif take_over and not row.get("preferred"):
+                lab.prefer(mid, row["value_id"], url)  # a value chosen earlier would otherwise stay in use
+        except MatdbError as exc:
+            st.error(f"recorded, but the choice of the value in use failed: {exc}")
         sh.clear_catalog_caches()
-        st.session_state["lab_flash"] = (f"Recorded value {row['value_id']} for {mid}: chi = {row['chi_si']:.4g} "
-                                         "(SI volume).")
+        t = "temperature not stated" if not (temperature or "").strip() else f"at {temperature.strip()}"
+        now = (f"value {kept_old} stays in use" if kept_old is not None
+               else f"it is now in use for {mid}")
+        st.session_state["lab_flash"] = (f"Recorded value {row['value_id']} for {mid}: chi = {P.fmt_chi(row['chi_si'])} "
+                                         f"(SI volume), {t}; {now}.")
+        st.session_state["lab_reset"] = True
         st.rerun()
 
 # ---- prefer / retract ---------------------------------------------------------------
@@ -111,7 +159,11 @@ st.subheader("Choose the value in use, or retract a wrong one")
 live = [int(v) for v, r in zip(hist["value_id"], hist["retracted"]) if not r]
 p1, p2 = st.columns(2)
 with p1:
-    vid = st.selectbox("Value to use", live, key="lab_prefer_id")
+    in_use_id = int(in_use.iloc[0]["value_id"]) if len(in_use) else None
+    if (resetting or st.session_state.get("lab_prefer_id") not in live) and in_use_id in live:
+        st.session_state["lab_prefer_id"] = in_use_id
+    vid = st.selectbox("Value to use", live, key="lab_prefer_id",
+                       format_func=lambda v: f"{v}" + (" (in use now)" if v == in_use_id else ""))
     if st.button("Use this value", key="lab_prefer"):
         try:
             lab.prefer(mid, vid, url)
@@ -120,10 +172,13 @@ with p1:
         else:
             sh.clear_catalog_caches()
             st.session_state["lab_flash"] = f"Value {vid} is now in use for {mid}."
+            st.session_state["lab_reset"] = True
             st.rerun()
 with p2:
     measured = [int(v) for v, k, r in zip(hist["value_id"], hist["value_kind"], hist["retracted"])
                 if k == "measured" and not r]
+    if measured and (resetting or st.session_state.get("lab_retract_id") not in measured):
+        st.session_state["lab_retract_id"] = measured[-1]
     rid = st.selectbox("Measured value to retract", measured, key="lab_retract_id")
     reason = st.text_input("Reason (required)", key="lab_retract_reason")
     if st.button("Retract", key="lab_retract", disabled=not measured):
@@ -134,6 +189,7 @@ with p2:
         else:
             sh.clear_catalog_caches()
             st.session_state["lab_flash"] = f"Value {rid} retracted; it stays in the history."
+            st.session_state["lab_reset"] = True
             st.rerun()
 
 # ---- measured Q / ring-down -----------------------------------------------------

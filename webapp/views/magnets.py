@@ -37,37 +37,51 @@ else:
         curves = None
     if curves is not None:
         marks = presentation.grade_max_temp_marks(curves)
-        color = alt.Color("grade:N", title="grade", sort=chosen)
+        # colour and marker shape both tell the grades apart (never colour alone)
+        palette = presentation.GRADE_PALETTE
+        color = alt.Color("grade:N", title="grade", sort=chosen,
+                          scale=alt.Scale(domain=chosen, range=[palette[i % len(palette)] for i in range(len(chosen))]))
+        shape = alt.Shape("grade:N", title="grade", sort=chosen,
+                          scale=alt.Scale(domain=chosen, range=[presentation.GRADE_SHAPES[i % len(presentation.GRADE_SHAPES)]
+                                                                for i in range(len(chosen))]))
         tips = [alt.Tooltip("grade:N"), alt.Tooltip("temp_c:Q", title="T (degC)", format=".0f"),
                 alt.Tooltip("br_t:Q", title="Br (T)", format=".3f"),
                 alt.Tooltip("relative_lift:Q", title="lift vs 20 degC", format=".1%"),
                 alt.Tooltip("max_temp_c:Q", title="max working T (degC)", format=".0f")]
-        dash = alt.StrokeDash("beyond_max:N", title="above max working T",
-                              scale=alt.Scale(domain=[False, True], range=[[1, 0], [4, 3]]))
+        curves = curves.assign(rating=presentation.rating_labels(curves["beyond_max"]))
+        dash = alt.StrokeDash("rating:N", title="working temperature",
+                              scale=alt.Scale(domain=list(presentation.RATING_LABELS), range=[[1, 0], [4, 3]]))
 
-        def panel(field: str, title: str, fmt: str):
+        def panel(field: str, title: str, fmt: str, heading: str):
             base = alt.Chart(curves).encode(
                 x=alt.X("temp_c:Q", title="temperature (degC)"),
                 y=alt.Y(f"{field}:Q", title=title, axis=alt.Axis(format=fmt)),
                 color=color)
-            lines = base.mark_line(strokeWidth=2).encode(strokeDash=dash, detail="beyond_max:N", tooltip=tips)
+            lines = base.mark_line(strokeWidth=2).encode(strokeDash=dash, detail="rating:N", tooltip=tips)
+            step = max(1, len(curves) // max(1, len(chosen)) // 8)
+            markers = base.transform_window(i="row_number()", groupby=["grade"]).transform_filter(
+                f"(datum.i - 1) % {step} == 0").mark_point(size=60, filled=True).encode(shape=shape, tooltip=tips)
             rules = alt.Chart(marks).mark_rule(strokeDash=[2, 2]).encode(
                 x="max_temp_c:Q", color=color,
                 tooltip=[alt.Tooltip("grade:N"), alt.Tooltip("max_temp_c:Q", title="max working T (degC)")])
-            dots = alt.Chart(marks).mark_point(shape="diamond", size=110, filled=True).encode(
+            dots = alt.Chart(marks).mark_point(shape="diamond", size=110, filled=False, strokeWidth=2).encode(
                 x="max_temp_c:Q", y=f"{field}:Q", color=color,
                 tooltip=[alt.Tooltip("grade:N"), alt.Tooltip("max_temp_c:Q", title="max working T (degC)"),
                          alt.Tooltip(f"{field}:Q", format=fmt)])
-            return alt.layer(lines, rules, dots).properties(height=320, width=380)
+            return alt.layer(lines, markers, rules, dots).properties(height=320, width=380, title=heading)
 
-        chart = alt.hconcat(panel("br_t", "Br (T)", ".2f"),
-                            panel("relative_lift", "relative lift (Br/Br at 20 degC)^2", ".0%")
-                            ).configure_legend(orient="bottom", columns=4, labelLimit=200, titleLimit=200)
-        st.altair_chart(chart, width="content")
+        # two charts in two columns that follow the screen width (a fixed-width pair ran past a 1000 px page)
+        legend = dict(orient="bottom", columns=2, labelLimit=160, titleLimit=200)
+        p1, p2 = st.columns(2)
+        p1.altair_chart(panel("br_t", "Br (T)", ".2f", "Remanence against temperature")
+                        .properties(width="container").configure_legend(**legend), width="stretch")
+        p2.altair_chart(panel("relative_lift", "relative lift (Br/Br at 20 degC)^2, %", ".0%",
+                              "Lift over a diamagnet, relative to 20 degC")
+                        .properties(width="container").configure_legend(**legend), width="stretch")
         st.caption(
             "Br(T) = Br20 (1 + alpha/100 (T - 20 degC)) from each grade's reversible coefficient; lift over a "
-            "diamagnet scales with B^2, so with Br^2. Diamonds and dotted rules: each grade's maximum working "
-            "temperature; dashed line beyond it."
+            "diamagnet scales with B^2, so with Br^2. Each grade has its own colour and marker shape. Open "
+            "diamonds and dotted rules: each grade's maximum working temperature; dashed line beyond it."
         )
         st.download_button("Download curves (CSV, exact values)", sh.csv_bytes(curves),
                            file_name="matdb-grade-curves.csv", mime="text/csv", key="curves_download")

@@ -52,17 +52,20 @@ if band is not None:
 else:
     VERDICTS, COLOURS = [""], ["#3d6fb6"]
 
-points = alt.Chart(diam).mark_circle(opacity=0.9).encode(
+SHAPES = ["circle", "triangle-up", "cross"] if band is not None else ["circle"]
+points = alt.Chart(diam).mark_point(filled=True, opacity=0.9).encode(
     x=alt.X("required_t2_m:Q", scale=alt.Scale(type="log"),
             title="-B dB/dz needed to float (T^2/m, log scale)"),
     y=alt.Y("name:N", sort=order, title=None, axis=alt.Axis(labelLimit=260)),
     color=alt.Color("verdict:N", title="over NdFeB magnets", legend=alt.Legend(labelLimit=200),
                     scale=alt.Scale(domain=VERDICTS, range=COLOURS)),
+    shape=alt.Shape("verdict:N", title="over NdFeB magnets", scale=alt.Scale(domain=VERDICTS, range=SHAPES)),
     size=alt.condition("datum.chosen", alt.value(220), alt.value(90)),
     tooltip=[
         alt.Tooltip("name:N", title="material"),
         alt.Tooltip("required_t2_m:Q", title="needs (T^2/m)", format=".3~g"),
         alt.Tooltip("chi_si:Q", title="chi (SI volume)", format=".3e"),
+        alt.Tooltip("verdict:N", title="verdict"),
         alt.Tooltip("density_kg_m3:Q", title="density (kg/m^3)", format=",.0f"),
         alt.Tooltip("value_kind:N", title="value kind"),
         alt.Tooltip("source:N", title="source"),
@@ -82,7 +85,8 @@ if band is not None and reach_df is not None:
         tooltip=[alt.Tooltip("description:N", title="arrangement"),
                  alt.Tooltip("plate_avg_t2_m:Q", title="1 mm plate average (T^2/m)", format=".3~g"),
                  alt.Tooltip("peak_t2_m:Q", title="local peak (T^2/m)", format=".3~g")]))
-chart = alt.layer(*layers, points).properties(height=max(260, 22 * len(diam)))
+chart = alt.layer(*layers, points).properties(height=max(260, 22 * len(diam)),
+                                             title="Field-gradient product each diamagnet needs to float")
 st.altair_chart(chart, width="stretch")
 if band is not None:
     st.caption(
@@ -124,23 +128,30 @@ shown = shown.merge(need[["id", "required_t2_m"]], on="id", how="left")
 col, asc = sort_options[sort_by]
 shown = shown.sort_values(col, ascending=asc, na_position="last").reset_index(drop=True)
 unit = presentation.CHI_UNIT_SHORT[conv]
-chi_fmt = "%.3e"
+chi_fmt = presentation.CHI_PRINTF
 checked = {"chi_shown": "chi_si", "chi_perp_shown": "chi_perp_si", "chi_par_shown": "chi_par_si",
            "density_kg_m3": "density_kg_m3"}
 table, order = presentation.add_status_columns(
     shown[["id", "name", "chi_shown", "chi_perp_shown", "chi_par_shown", "density_kg_m3",
            "abs_chi_per_density", "required_t2_m", "value_kind", "source"]],
     sh.status_marks(url)["material"], "id", checked)
+# numbers stay numbers (sorting works); the text shown is the page's one format, and an
+# empty cell reads as a dash (isotropic materials have no perpendicular/parallel value)
+fmt = {c: presentation.fmt_chi for c in ("chi_shown", "chi_perp_shown", "chi_par_shown", "abs_chi_per_density")}
+fmt.update({"density_kg_m3": lambda v: presentation.fmt_number(v, sig=4 if abs(v) >= 1000 else 3),
+            "required_t2_m": presentation.fmt_number})
+styled = table[order].style.format(fmt, na_rep=presentation.MISSING)
 st.dataframe(
-    table[order],
+    styled,
     hide_index=True, key="materials_table",
     column_config={
         **sh.check_column_config(checked),
         "chi_shown": st.column_config.NumberColumn(f"chi ({unit})", format=chi_fmt),
         "chi_perp_shown": st.column_config.NumberColumn(f"chi perp. ({unit})", format=chi_fmt,
-                                                        help="field along the c axis (anisotropic plates)"),
+                                                        help="field along the c axis (anisotropic plates; "
+                                                             "a dash: isotropic)"),
         "chi_par_shown": st.column_config.NumberColumn(f"chi par. ({unit})", format=chi_fmt,
-                                                       help="field in the basal plane"),
+                                                       help="field in the basal plane (a dash: isotropic)"),
         "density_kg_m3": st.column_config.NumberColumn("density (kg/m^3)", format="%.0f"),
         "abs_chi_per_density": st.column_config.NumberColumn("|chi|/density (m^3/kg)", format=chi_fmt),
         "required_t2_m": st.column_config.NumberColumn("needs -B dB/dz (T^2/m)", format="%.3g"),
