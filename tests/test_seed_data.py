@@ -121,12 +121,12 @@ def test_row_count_fingerprint(sources, materials, sus, grades, provenance, prop
     # + 5 EH + 3 AH grades of the usual industry grade system, common practice, no source.)
     # Column sums catch an accidental edit of a checked number (regression check; update
     # together with seed_data/CHECKS.md when a number is corrected).
-    assert len(sources) == 48
+    assert len(sources) == 51
     assert grades.br_t.sum() == pytest.approx(56.55, abs=1e-6)
     assert grades.hcj_ka_m.sum() == pytest.approx(68835.0, abs=1e-6)
     assert grades.bhmax_kj_m3.sum() == pytest.approx(12964.2, abs=1e-6)
     assert len(provenance) == 613
-    assert provenance.status.value_counts().to_dict() == {"verified": 404, "unverified": 143, "corrected": 66}
+    assert provenance.status.value_counts().to_dict() == {"verified": 417, "unverified": 125, "corrected": 71}
     assert len(properties) == 36
     assert len(materials) == 22
     assert len(sus) == 23  # one iso row per material, two (perp, par) for pyrolytic graphite
