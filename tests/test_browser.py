@@ -155,13 +155,13 @@ def test_advisor_form_fills_and_ranks_in_browser(server, browser):
     try:
         page.get_by_role("heading", name="Advisor", exact=True).first.wait_for(timeout=60_000)
         page.locator('[data-testid="stDataFrame"] >> visible=true').first.wait_for(timeout=120_000)
-        mass = page.get_by_role("textbox", name="Payload mass")
+        mass = page.get_by_role("textbox", name="Mass", exact=True)
         mass.fill("0.5 g")
         page.get_by_label("Footprint (x by y)").fill("20 mm x 20 mm")
         page.get_by_role("button", name="Rank candidates").click()
         _wait_idle(page)
         page.locator('[data-testid="stDataFrame"] >> visible=true').first.wait_for(timeout=120_000)
-        page.get_by_text("Ranked for 0.5 g over 20 mm x 20 mm").first.wait_for(timeout=120_000)
+        page.get_by_text("Ranked for a payload of 0.5 g over 20 mm x 20 mm").first.wait_for(timeout=120_000)
         _wait_idle(page)
         _no_exception(page, "Advisor, 0.5 g over 20 mm x 20 mm")
         ARTIFACTS.mkdir(exist_ok=True)
@@ -264,9 +264,9 @@ def test_design_metrics_carry_their_units(server, browser, width):
 
 
 def _rank(page, mass: str) -> None:
-    page.get_by_role("textbox", name="Payload mass").fill(mass)
+    page.get_by_role("textbox", name="Mass", exact=True).fill(mass)
     page.get_by_role("button", name="Rank candidates").click()
-    page.get_by_text(f"Ranked for {mass} over").first.wait_for(timeout=300_000)
+    page.get_by_text(f"Ranked for a payload of {mass} over").first.wait_for(timeout=300_000)
     _wait_idle(page)
 
 
@@ -312,7 +312,7 @@ def test_lab_values_record_clears_the_form_and_the_box_follows(server, browser):
         assert temp.get_attribute("placeholder") in (None, ""), "a placeholder would look like a stored default"
         chi = page.get_by_label("chi (a number is SI volume", exact=False)
         chi.fill(repr(before.chi_si))  # the handbook value again: the physics of other tests stays put
-        page.get_by_label("Source note (required", exact=False).fill("regression check: browser test entry")
+        page.get_by_label("Source note (required", exact=False).first.fill("regression check: browser test entry")
         page.get_by_role("button", name="Record").click()
         page.get_by_text("Recorded value").first.wait_for(timeout=120_000)
         _wait_idle(page)
@@ -324,7 +324,7 @@ def test_lab_values_record_clears_the_form_and_the_box_follows(server, browser):
         assert "temperature not stated" in msg
         # the form is cleared (no accidental double entry) and the box shows the value now in use
         assert page.get_by_label("chi (a number is SI volume", exact=False).input_value() == ""
-        assert page.get_by_label("Source note (required", exact=False).input_value() == ""
+        assert page.get_by_label("Source note (required", exact=False).first.input_value() == ""
         assert page.get_by_role("combobox", name="Value to use").input_value() == f"{new_id} (in use now)"
     finally:
         page.close()

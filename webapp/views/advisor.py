@@ -201,10 +201,10 @@ st.subheader("Size beyond the catalogue")
 st.caption("Starts from the best feasible candidate above and varies the magnet size, rows and columns, "
            "spacing, plate side and thickness within the footprint, envelope and budget; every design shown "
            "is re-checked exactly as the Design page computes it. This takes a while (see the progress bar).")
-o1, o2, o3 = st.columns(3)
-objective = o1.selectbox("Objective", ("margin", "cost"), key="opt_objective",
+objective = st.selectbox("Objective", ("margin", "cost"), key="opt_objective",
                          format_func=lambda o: {"margin": "largest worst-case margin within the budget",
                                                 "cost": "cheapest design reaching a margin"}[o])
+o2, o3 = st.columns(2)
 min_margin = o2.number_input("Margin to reach (cost objective)", 0.5, 10.0, 1.2, 0.1, key="opt_min_margin")
 run_opt = o3.button("Optimise sizes", key="opt_run", type="primary")
 opt_key = (tuple(sorted(params.items())), objective, float(min_margin) if objective == "cost" else None)

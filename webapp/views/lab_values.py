@@ -144,7 +144,7 @@ if submitted:
             elif take_over and not row.get("preferred"):
                 lab.prefer(mid, row["value_id"], url)  # a value chosen earlier would otherwise stay in use
         except MatdbError as exc:
-            st.error(f"recorded, but the choice of the value in use failed: {exc}")
+            st.error(sh.plain(f"recorded, but the choice of the value in use failed: {exc}"))
         sh.clear_catalog_caches()
         t = "temperature not stated" if not (temperature or "").strip() else f"at {temperature.strip()}"
         now = (f"value {kept_old} stays in use" if kept_old is not None
