@@ -157,7 +157,7 @@ def test_advisor_form_fills_and_ranks_in_browser(server, browser):
         page.locator('[data-testid="stDataFrame"] >> visible=true').first.wait_for(timeout=120_000)
         mass = page.get_by_role("textbox", name="Mass", exact=True)
         mass.fill("0.5 g")
-        page.get_by_label("Footprint (x by y)").fill("20 mm x 20 mm")
+        page.get_by_label("Footprint (x by y", exact=False).fill("20 mm x 20 mm")
         page.get_by_role("button", name="Rank candidates").click()
         _wait_idle(page)
         page.locator('[data-testid="stDataFrame"] >> visible=true').first.wait_for(timeout=120_000)
@@ -313,7 +313,7 @@ def test_lab_values_record_clears_the_form_and_the_box_follows(server, browser):
         chi = page.get_by_label("chi (a number is SI volume", exact=False)
         chi.fill(repr(before.chi_si))  # the handbook value again: the physics of other tests stays put
         page.get_by_label("Source note (required", exact=False).first.fill("regression check: browser test entry")
-        page.get_by_role("button", name="Record").click()
+        page.get_by_role("button", name="Record", exact=True).click()
         page.get_by_text("Recorded value").first.wait_for(timeout=120_000)
         _wait_idle(page)
         msg = page.get_by_text("Recorded value").first.inner_text()
