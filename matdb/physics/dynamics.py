@@ -61,7 +61,7 @@ References
 .. [3] T. Gustafsson and G. D. McBain, "scikit-fem: A Python package for finite element
    assembly", J. Open Source Softw. 5(52), 2369 (2020).
 .. [4] J. R. Shewchuk, "Triangle: Engineering a 2D quality mesh generator and Delaunay
-   triangulator", Lecture Notes in Computer Science 1148, 203-222 (1996).
+   triangulator", Lect. Notes Comput. Sci. 1148, 203-222 (1996).
 .. [5] J. J. Blech, "On isothermal squeeze films", J. Lubrication Technol. 105, 615-620
    (1983).
 .. [6] M. Bao and H. Yang, "Squeeze film air damping in MEMS", Sens. Actuators A 136, 3-27
