@@ -22,7 +22,7 @@ from __future__ import annotations
 import re
 from pathlib import Path
 
-from .errors import InputError
+from matdb.errors import InputError
 
 MAX_FILE_BYTES = 1_000_000          # design files, --points files
 MAX_IMPORT_BYTES = 50_000_000       # lab-value CSV / JSON imports

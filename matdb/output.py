@@ -11,7 +11,7 @@ from typing import Any, Iterable, Sequence
 
 import pandas as pd
 
-from .errors import InputError
+from matdb.errors import InputError
 
 FORMATS = ("table", "json", "csv")
 

@@ -39,8 +39,8 @@ from typing import Iterable
 
 import pint
 
-from .errors import InputError
-from .limits import check_chi, check_magnitude, check_temperature
+from matdb.errors import InputError
+from matdb.limits import check_chi, check_magnitude, check_temperature
 
 ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
 ureg.define("MGOe = 1e5 / (4 * pi) * J / m**3")

@@ -67,7 +67,7 @@ def run() -> dict:
         from playwright.sync_api import sync_playwright
     except ImportError:
         return {"skipped": "python playwright is not installed (pip install playwright)"}
-    from matdb.commands.serve import serve_command
+    from matdb.cli.serve import serve_command
 
     tmp = tempfile.mkdtemp(prefix="matdb-bench-browser-")
     env = os.environ.copy()

@@ -3,7 +3,7 @@
 Design: examples/plate_dynamics_10mm.toml (demo: a 10 mm x 0.5 mm pyrolytic graphite square
 over a 2 x 2 checkerboard of 12.7 mm N42 cubes), at 1e-3 Pa.
 
-- ``dynamics_s``: one whole :func:`matdb.dynamics.analyse_dynamics` run, best of 3
+- ``dynamics_s``: one whole :func:`matdb.analysis.dynamics.analyse_dynamics` run, best of 3
   (equilibrium, 6 x 6 stiffness, mesh, eddy-current solve, air, modes). Goal < 5 s on the
   2-core machine.
 - ``phase_*_s``: where the time goes (one run).
@@ -32,8 +32,8 @@ def _qs(result):
 
 
 def run() -> dict:
-    from matdb.design import load_design
-    from matdb.dynamics import (analyse_dynamics, evaluate_dynamics, prepare_dynamics,
+    from matdb.design.plate import load_design
+    from matdb.analysis.dynamics import (analyse_dynamics, evaluate_dynamics, prepare_dynamics,
                                 screening_estimate)
 
     design = load_design(DEMO)

@@ -1,7 +1,7 @@
 """Speed of the floating-magnet search (a benchmark, not a test).
 
 One suggestion run, ``matdb optimise --floating-magnet --payload-range "0 g..5 g"
---top 1`` as a library call (:func:`matdb.magnet_synthesis.search`):
+--top 1`` as a library call (:func:`matdb.analysis.magnet_synthesis.search`):
 
 - ``cold_s``: with an empty table cache (pull and plate tables computed);
 - ``warm_s``: again with the tables on disk (what a second run costs);
@@ -21,7 +21,7 @@ import time
 
 
 def run() -> dict:
-    from matdb import magnet_synthesis as M
+    from matdb.analysis import magnet_synthesis as M
 
     out: dict = {}
     with tempfile.TemporaryDirectory() as d:

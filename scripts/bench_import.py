@@ -41,7 +41,8 @@ def _write_rows(path: Path, n: int) -> None:
 
 
 def run() -> dict:
-    from matdb import db, labvalues
+    from matdb.data import db
+    from matdb.data import labvalues
 
     tmp = Path(tempfile.mkdtemp(prefix="matdb-bench-import-"))
     src = tmp / "rows.csv"

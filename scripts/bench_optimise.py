@@ -31,8 +31,9 @@ def run() -> dict:
     old = os.environ.get("MATDB_CACHE_DIR")
     os.environ["MATDB_CACHE_DIR"] = tmp
     try:
-        from matdb import advisor as A
-        from matdb import levitate, synthesis as S  # noqa: F401  (imports are not part of "cold")
+        from matdb.advisor import engine as A
+        from matdb.analysis import levitate  # noqa: F401  (imports are not part of "cold")
+        from matdb.analysis import synthesis as S
 
         req = A.parse_request(total_mass="0.3 g", footprint="20 mm x 20 mm", min_gap="0.5 mm",
                               temp_min="0 degC", temp_max="50 degC", budget="30 USD",

@@ -34,8 +34,8 @@ def _best(fn, repeats=REPEATS):
 
 
 def run() -> dict:
-    from matdb.design import load_design
-    from matdb.levitate import levitate_plate, plate_geometry
+    from matdb.design.plate import load_design
+    from matdb.analysis.levitate import levitate_plate, plate_geometry
     from matdb.physics import plate as P
 
     design = load_design(DEMO)

@@ -39,8 +39,8 @@ def _best(fn, repeats=REPEATS):
 
 
 def run() -> dict:
-    from matdb.design import load_design
-    from matdb.levitate import levitate_plate
+    from matdb.design.plate import load_design
+    from matdb.analysis.levitate import levitate_plate
     from matdb.physics import recoil as R
     from matdb.physics.arrangement import build_arrangement
 

@@ -19,9 +19,9 @@ def _t(fn):
 
 
 def run() -> dict:
-    from matdb import report
-    from matdb.design import load_design_text
-    from matdb.drawing import drawing_bytes
+    from matdb.reporting import report
+    from matdb.design.plate import load_design_text
+    from matdb.reporting.drawing import drawing_bytes
 
     text = DESIGN.read_text(encoding="utf-8")
     design = load_design_text(text)

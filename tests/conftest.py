@@ -20,7 +20,7 @@ REPO = Path(__file__).resolve().parent.parent
 @pytest.fixture
 def fresh_db(tmp_path, monkeypatch):
     """A new, seeded SQLite database for one test (its URL is returned)."""
-    from matdb import db
+    from matdb.data import db
 
     url = f"sqlite:///{tmp_path / 'fresh.sqlite'}"
     monkeypatch.setenv("MATDB_URL", url)

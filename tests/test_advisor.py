@@ -1,4 +1,4 @@
-"""matdb.advisor: inputs, candidates, ordering facts, rejections, Pareto front, cache, and the
+"""matdb.advisor.engine: inputs, candidates, ordering facts, rejections, Pareto front, cache, and the
 separable scaling against an independent `levitate` run on the saved design."""
 
 from __future__ import annotations
@@ -10,7 +10,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from matdb import advisor as A
+from matdb.advisor import engine as A
 from matdb.errors import InputError, NotFoundError
 
 # Small geometries keep the suite fast: a 2 x 2 checkerboard of 10 mm cubes (the classic
@@ -127,7 +127,7 @@ def test_pyrolytic_graphite_outranks_bismuth():
     # Handbook values: |chi|/rho of pyrolytic graphite along its c axis (-4.5e-4, 2.2 g/cm^3;
     # Simon and Geim, J. Appl. Phys. 87, 6200 (2000)) is about ten times that of bismuth
     # (-1.66e-4, 9.78 g/cm^3; CRC Handbook), so a graphite plate lifts far more per weight.
-    from matdb import catalog
+    from matdb.data import catalog
 
     df = A.advise("0 g", PLATE, materials=["pyrolytic-graphite", "bismuth"], grades=["N42"],
                   thickness="1 mm", arrangements=[CUBE10_2X2], polish=0)
@@ -194,7 +194,7 @@ def test_paramagnet_rejected_with_reason():
 
 
 def test_budget_and_cost():
-    from matdb import catalog
+    from matdb.data import catalog
 
     df = A.advise("0.02 g", PLATE, materials=["pyrolytic-graphite"], grades=["N42"],
                   thickness="1 mm", arrangements=[CUBE10_2X2], budget="0.5 USD", polish=0)
@@ -209,7 +209,7 @@ def test_budget_and_cost():
 def test_ferrite_demag_cold_matches_the_direct_check():
     # Hard ferrite loses coercivity when cold (positive beta; MMPA 0100-00): the advisor's
     # scaled check must equal thermal.demag_check run on the real arrangement.
-    from matdb import catalog
+    from matdb.data import catalog
     from matdb.physics import thermal as TH
 
     df = A.advise("0 g", PLATE, temp_min="-40 degC", temp_max="20 degC", materials=["bismuth"],
@@ -265,12 +265,12 @@ KEY_CASES = [
 
 def _root_scatter_m(design, key: str, gap: float) -> float:
     """Scatter of the quadrature lift about a straight line near ``gap``, over its slope [m]."""
-    import matdb.levitate as L
+    import matdb.analysis.levitate as L
     from matdb.physics import plate as P
 
     worst = key == "gap_worst_m"
     t_op = design.conditions.nominal_k
-    t = max(design.conditions.extremes()[1], t_op) if worst else t_op  # as matdb.levitate
+    t = max(design.conditions.extremes()[1], t_op) if worst else t_op  # as matdb.analysis.levitate
     geom = L.plate_geometry(design, design.arrangement(None))
     arr = design.arrangement(t, worst=worst)
     chi = L._chi_at(design, t)
@@ -285,8 +285,8 @@ def _root_scatter_m(design, key: str, gap: float) -> float:
 
 @pytest.mark.parametrize("specs, kw, picks", KEY_CASES)
 def test_exact_rows_equal_levitate_on_the_saved_design(tmp_path, specs, kw, picks):
-    from matdb.design import load_design
-    from matdb.levitate import levitate_plate
+    from matdb.design.plate import load_design
+    from matdb.analysis.levitate import levitate_plate
     from matdb.physics import plate as P
 
     assert A.EXACT_ORDER == P.DEFAULT_ORDER
@@ -371,7 +371,7 @@ def test_screened_tilt_follows_the_exact_matrix_and_a_high_payload_falls():
 def test_lift_scales_with_chi_and_br_squared():
     # F = |chi| / (2 mu0) * integral of grad(B^2) (Berry and Geim, Eur. J. Phys. 18, 307
     # (1997)): for one geometry the lift of an isotropic plate scales with |chi| and with Br^2.
-    from matdb import catalog
+    from matdb.data import catalog
 
     df = A.advise("0 g", PLATE, materials=["bismuth", "antimony"], grades=["N35", "N52"],
                   thickness="1 mm", arrangements=[CUBE10_2X2], polish=0)

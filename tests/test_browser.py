@@ -39,8 +39,8 @@ def _free_port() -> int:
 
 @pytest.fixture(scope="module")
 def server():
-    from matdb.commands.serve import serve_command
-    from matdb.db import get_engine
+    from matdb.cli.serve import serve_command
+    from matdb.data.db import get_engine
 
     get_engine()  # create and seed the test database before the page opens it
     port = _free_port()
@@ -298,7 +298,8 @@ def test_advisor_second_ranking_box_follows_and_open_fills_the_form(server, brow
 
 
 def test_lab_values_record_clears_the_form_and_the_box_follows(server, browser):
-    from matdb import catalog, labvalues
+    from matdb.data import catalog
+    from matdb.data import labvalues
 
     before = catalog.get_material("copper")
     page = _open_at(browser, f"{server}/lab_values", 1400)

@@ -1,4 +1,4 @@
-"""``matdb field`` and ``matdb levitate`` (matdb.commands.physics, matdb.levitate).
+"""``matdb field`` and ``matdb levitate`` (matdb.cli.physics, matdb.analysis.levitate).
 
 References: magpylib (independent field library) for ``field``; the issue-3 JSON key
 contract; the linear reversible temperature coefficient of Br (IEC 60404-8-1) and the
@@ -18,8 +18,8 @@ import magpylib as magpy
 import numpy as np
 import pytest
 
-from matdb.design import load_design
-from matdb.levitate import CONTRACT_KEYS, levitate, levitate_plate, plate_geometry
+from matdb.design.plate import load_design
+from matdb.analysis.levitate import CONTRACT_KEYS, levitate, levitate_plate, plate_geometry
 from matdb.physics import plate as P
 
 DATA = Path(__file__).parent / "data"
@@ -299,7 +299,7 @@ def test_cold_and_hot_objects(tmp_path, run_cli):
     # lift ~ Br(T)^2 |chi(T)| (Berry & Geim 1997) with the linear reversible coefficients
     # (IEC 60404-8-1; seed_data, cited): at the coldest temperature the plate lifts more
     # and floats higher; each object equals a run at that temperature (regression check)
-    from matdb.levitate import STATE_KEYS
+    from matdb.analysis.levitate import STATE_KEYS
     from matdb.physics import thermal as TH
 
     f = tmp_path / "range.toml"

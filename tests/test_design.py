@@ -1,4 +1,4 @@
-"""Design files (matdb.design): parsing into SI, errors naming the key, round trip.
+"""Design files (matdb.design.plate): parsing into SI, errors naming the key, round trip.
 
 Values compared against: unit definitions (1 in = 25.4 mm exactly, NIST SP 811;
 0 degC = 273.15 K, SI Brochure 9th ed.), the database rows (seed_data, cited there),
@@ -14,7 +14,7 @@ from pathlib import Path
 
 import pytest
 
-from matdb.design import (PlateDesign, design_to_toml, load_design, load_design_text,
+from matdb.design.plate import (PlateDesign, design_to_toml, load_design, load_design_text,
                           parse_design, write_design)
 from matdb.errors import InputError
 
@@ -201,19 +201,19 @@ def test_bad_toml_and_missing_file(tmp_path):
 
 
 def test_floating_magnet_tables_dispatch(monkeypatch):
-    # designs with [lifter]/[floater]/[[station]] go to matdb.design_stabilized
+    # designs with [lifter]/[floater]/[[station]] go to matdb.design.floating
     import sys
     import types
 
     seen = {}
-    fake = types.ModuleType("matdb.design_stabilized")
+    fake = types.ModuleType("matdb.design.floating")
 
     def parse_stabilized(doc, source=None):
         seen["doc"], seen["source"] = doc, source
         return "stabilized"
 
     fake.parse_stabilized = parse_stabilized
-    monkeypatch.setitem(sys.modules, "matdb.design_stabilized", fake)
+    monkeypatch.setitem(sys.modules, "matdb.design.floating", fake)
     assert load_design_text('[lifter]\nx = 1\n', source="s.toml") == "stabilized"
     assert seen["source"] == "s.toml" and "lifter" in seen["doc"]
 

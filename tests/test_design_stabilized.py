@@ -1,4 +1,4 @@
-"""Floating-magnet design files (matdb.design_stabilized): parsing, refusals, round trip.
+"""Floating-magnet design files (matdb.design.floating): parsing, refusals, round trip.
 
 Unit conversions are checked against their definitions (1 in = 25.4 mm exactly, by the
 1959 international yard and pound agreement; 1 g = 1e-3 kg; 0 degC = 273.15 K, SI
@@ -14,7 +14,7 @@ from pathlib import Path
 
 import pytest
 
-from matdb.design_stabilized import (
+from matdb.design.floating import (
     DEFAULT_CLEARANCE_M,
     StabilizedDesign,
     parse_stabilized,
@@ -50,7 +50,7 @@ def test_parse_gives_si_floats():
 
 def test_catalogue_values_are_used():
     # the grade's Br and the graphite's chi_perp/chi_par as the catalogue serves them
-    from matdb.catalog import get_grade, get_material
+    from matdb.data.catalog import get_grade, get_material
 
     d = parse_stabilized(base())
     st = d.stations[0]
@@ -161,10 +161,10 @@ def test_round_trip_with_overrides_and_range():
 
 
 def test_load_design_dispatches_here(tmp_path):
-    # matdb.design.load_design hands lifter/floater/station designs to this module
+    # matdb.design.plate.load_design hands lifter/floater/station designs to this module
     import tomli_w
 
-    from matdb.design import load_design
+    from matdb.design.plate import load_design
 
     p = tmp_path / "d.toml"
     p.write_text(tomli_w.dumps(base()))

@@ -15,7 +15,7 @@ import ezdxf
 import pytest
 from ezdxf import bbox
 
-from matdb.drawing import drawing_bytes
+from matdb.reporting.drawing import drawing_bytes
 
 REPO_EXAMPLES = __import__("pathlib").Path(__file__).resolve().parent.parent / "examples"
 UM_IN_MM = 1e-3  # one micrometre in drawing units (mm)

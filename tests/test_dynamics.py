@@ -1,4 +1,4 @@
-"""Dynamics of a floating plate (matdb.physics.dynamics, matdb.dynamics, ``matdb dynamics``).
+"""Dynamics of a floating plate (matdb.physics.dynamics, matdb.analysis.dynamics, ``matdb dynamics``).
 
 Outside references, named beside each check:
 - magpylib (independent field library) for the axisymmetric eddy-current check;
@@ -26,8 +26,8 @@ import magpylib as magpy
 import numpy as np
 import pytest
 
-from matdb.design import design_to_toml, load_design, load_design_text, parse_design
-from matdb.dynamics import (
+from matdb.design.plate import design_to_toml, load_design, load_design_text, parse_design
+from matdb.analysis.dynamics import (
     CONTRACT_KEYS,
     MODE_KEYS,
     analyse_dynamics,
@@ -215,7 +215,7 @@ def test_vertical_mode_of_symmetric_design_is_sqrt_k_over_m(demo_vacuum):
     """Uncoupled vertical mode: f = sqrt(k_z / m) / (2 pi) with k_z = -dF/dg from the lift
     curve (a route independent of the 6 x 6 pose differences); plate mass rho a^2 t."""
     d = load_design(DEMO)
-    from matdb.levitate import _chi_at, plate_geometry
+    from matdb.analysis.levitate import _chi_at, plate_geometry
 
     arr = d.arrangement(d.conditions.nominal_k)
     geom = plate_geometry(d, arr)
@@ -371,7 +371,7 @@ def test_bad_design_keys_name_the_field(change, message):
 
 
 def test_conductivity_lookup_and_override():
-    from matdb.catalog import get_conductivity
+    from matdb.data.catalog import get_conductivity
 
     c = get_conductivity("pyrolytic-graphite")
     # the handbook row wins over the estimate: 1 / 9.8e-6 ohm m in the basal plane
@@ -415,9 +415,9 @@ def test_database_without_conductivity_rows_gets_them_from_the_seed(fresh_db):
     lookup fills it from seed_data (idempotent seed write) -- regression check."""
     from sqlmodel import Session, delete
 
-    from matdb import db
-    from matdb.catalog import get_conductivity
-    from matdb.models import ConductivityValue
+    from matdb.data import db
+    from matdb.data.catalog import get_conductivity
+    from matdb.data.models import ConductivityValue
 
     with Session(db.get_engine(fresh_db)) as s:
         s.exec(delete(ConductivityValue))
@@ -431,7 +431,7 @@ def test_advisor_lowest_noise_floor_and_minimum_q():
     damping (Chen et al. 2022), so it ranks above pyrolytic graphite; a minimum Q of 100
     rejects the eddy-limited graphite plate with the reason in words. Rows shown are
     solved exactly."""
-    from matdb import advisor as A
+    from matdb.advisor import engine as A
 
     arrs = [A.ArrangementSpec("cuboid", (0.0127,) * 3, "checkerboard", 2, 2)]
     df = A.advise("0 g", "10 mm x 10 mm", thickness="0.5 mm",
@@ -481,8 +481,8 @@ def test_optimiser_rows_ranked_by_noise_and_minimum_q(monkeypatch):
     (Romagnoli et al. 2023) and so the lower noise."""
     from types import SimpleNamespace
 
-    import matdb.synthesis as S
-    from matdb.advisor_dynamics import rank_optimised
+    import matdb.analysis.synthesis as S
+    from matdb.advisor.dynamics import rank_optimised
 
     designs = {"plain": load_design(DEMO), "slotted": load_design(SLOTTED)}
     monkeypatch.setattr(S, "design_of", lambda z, req, mat, grade: designs[z])

@@ -1,5 +1,5 @@
 """Design page, Dynamics section (Streamlit AppTest): plate drawing, modes table and the
-chart of Q against pressure come from matdb.dynamics (no physics in webapp/)."""
+chart of Q against pressure come from matdb.analysis.dynamics (no physics in webapp/)."""
 
 from __future__ import annotations
 

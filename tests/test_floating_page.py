@@ -45,7 +45,7 @@ def test_design_page_payload_range_schedule():
 def test_design_page_suggests_designs_with_progress(monkeypatch, tmp_path):
     # the search from the page (a reduced size list keeps the test short); every shown
     # design carries feasible and its reasons
-    from matdb import magnet_synthesis as M
+    from matdb.analysis import magnet_synthesis as M
 
     monkeypatch.setenv("MATDB_CACHE_DIR", str(tmp_path / "cache"))
     monkeypatch.setattr(M, "FLOATERS", (("cylinder", (6.35, 3.175)), ("ring", (12.7, 6.35, 6.35))))
@@ -63,7 +63,7 @@ def test_design_page_suggests_designs_with_progress(monkeypatch, tmp_path):
     # the best design is offered as a design file that parses back (the saved-file contract)
     import tomllib
 
-    from matdb.design_stabilized import parse_stabilized
+    from matdb.design.floating import parse_stabilized
 
     best_text = at.session_state["fm_search"][3]
     d = parse_stabilized(tomllib.loads(best_text))

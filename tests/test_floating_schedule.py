@@ -20,7 +20,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as hst
 from scipy.optimize import brentq
 
-from matdb.design_stabilized import parse_payload_range, parse_stabilized, to_toml
+from matdb.design.floating import parse_payload_range, parse_stabilized, to_toml
 from matdb.errors import InputError
 from matdb.physics import stabilized as S
 from matdb.units import MU0

@@ -11,7 +11,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from matdb import catalog, db, labvalues
+from matdb.data import catalog
+from matdb.data import db
+from matdb.data import labvalues
 
 DATA = Path(__file__).resolve().parent / "data"
 
@@ -183,7 +185,7 @@ def test_retraction_travels_with_an_import(fresh_db, run_cli, tmp_path):
     dump.write_text(labvalues.export("csv"), encoding="utf-8")
     # an export that says retracted, imported where it is not retracted, retracts it there
     with db.session_scope() as s:
-        from matdb.models import SusceptibilityValue
+        from matdb.data.models import SusceptibilityValue
 
         v = s.get(SusceptibilityValue, vid)
         v.retracted, v.retract_reason = False, None

@@ -1,4 +1,4 @@
-"""Recording, preferring, retracting lab-measured values (matdb.labvalues, matdb record/prefer/
+"""Recording, preferring, retracting lab-measured values (matdb.data.labvalues, matdb record/prefer/
 history/retract)."""
 
 from __future__ import annotations
@@ -9,7 +9,8 @@ from pathlib import Path
 
 import pytest
 
-from matdb import catalog, labvalues
+from matdb.data import catalog
+from matdb.data import labvalues
 from matdb.errors import InputError, NotFoundError
 
 
@@ -169,7 +170,7 @@ def test_materials_json_shows_the_measured_value_in_use(fresh_db, run_cli):
 
 
 def test_newest_measurement_by_date_then_entry_is_used(fresh_db, run_cli):
-    # rule stated in issue 7 and matdb.catalog.choose_preferred
+    # rule stated in issue 7 and matdb.data.catalog.choose_preferred
     new = _rec(run_cli, "material", "bismuth", "--chi", "-1.60e-4", "--date", "2026-10-01", "--source", "a")
     old = _rec(run_cli, "material", "bismuth", "--chi", "-1.50e-4", "--date", "2025-10-01", "--source", "b")
     assert catalog.get_material("bismuth").value_id == new["value_id"]
@@ -335,8 +336,8 @@ DESIGN = Path(__file__).resolve().parent / "data" / "plate_checkerboard.toml"
 
 
 def test_float_gap_inverts_the_plate_physics(fresh_db, run_cli):
-    from matdb.design import load_design
-    from matdb.levitate import levitate
+    from matdb.design.plate import load_design
+    from matdb.analysis.levitate import levitate
 
     hb = catalog.get_material("pyrolytic-graphite")  # handbook chi (Simon and Geim 2000, seed data)
     gap = levitate(load_design(DESIGN))["gap_m"]

@@ -1,4 +1,4 @@
-"""Floating-magnet synthesis (matdb.magnet_synthesis, matdb optimise --floating-magnet):
+"""Floating-magnet synthesis (matdb.analysis.magnet_synthesis, matdb optimise --floating-magnet):
 tables against outside references, the search against the exact levitate path."""
 
 from __future__ import annotations
@@ -11,8 +11,8 @@ import tomllib
 import numpy as np
 import pytest
 
-from matdb import magnet_synthesis as M
-from matdb.design_stabilized import parse_stabilized, to_toml
+from matdb.analysis import magnet_synthesis as M
+from matdb.design.floating import parse_stabilized, to_toml
 from matdb.physics import stabilized as S
 from matdb.units import MU0
 
@@ -156,7 +156,7 @@ def test_rejected_designs_keep_their_reasons():
 
 
 def test_add_arguments_adds_only_missing_options():
-    from matdb.commands import optimise_fm
+    from matdb.cli import optimise_fm
 
     p = argparse.ArgumentParser()
     p.add_argument("--format", choices=["table", "json", "csv"], default="table")

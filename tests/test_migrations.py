@@ -15,7 +15,10 @@ from pathlib import Path
 
 import pytest
 
-from matdb import catalog, db, labvalues, migrate
+from matdb.data import catalog
+from matdb.data import db
+from matdb.data import labvalues
+from matdb.data import migrate
 from matdb.errors import DataError
 
 DATA = Path(__file__).resolve().parent / "data"

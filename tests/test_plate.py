@@ -140,7 +140,7 @@ def test_thin_plate_lift_per_volume_is_chi_over_2mu0_grad_b2(checker):
 def test_water_levitation_threshold_from_constants():
     # Berry & Geim (1997): water levitates where -B dB/dz >= mu0 rho g / |chi|, about
     # 1400 T^2/m; chi and rho of water from the database (Schenck 1996 / CRC)
-    from matdb.catalog import get_material
+    from matdb.data.catalog import get_material
 
     w = get_material("water")
     need = MU0 * w.density_kg_m3 * G_STANDARD / abs(w.chi_si)

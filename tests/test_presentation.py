@@ -1,4 +1,4 @@
-"""matdb.presentation: the tables and curves the page shows, checked against outside
+"""matdb.reporting.presentation: the tables and curves the page shows, checked against outside
 formulas and handbook values (source beside each check)."""
 
 from __future__ import annotations
@@ -8,7 +8,8 @@ import math
 import numpy as np
 import pytest
 
-from matdb import catalog, presentation as P
+from matdb.data import catalog
+from matdb.reporting import presentation as P
 from matdb.errors import InputError
 from matdb.physics.arrangement import build_arrangement
 
@@ -148,7 +149,7 @@ def test_form_fields_give_back_the_same_design():
     """Regression check: a design put into the Design form and read back is the same design."""
     from dataclasses import replace
 
-    from matdb.design import load_design_text
+    from matdb.design.plate import load_design_text
 
     fields = dict(P.DESIGN_FORM_DEFAULTS, size="6 mm, 6 mm, 3 mm", payload="0.35 g", temp_min="-5 degC",
                   temp_max="45 degC", back_plate=True, spacing="0.5 mm")

@@ -10,7 +10,7 @@ import shutil
 import pytest
 
 from matdb.errors import DataError
-from matdb.seed import coverage, parse_seed, seed_dir
+from matdb.data.seed import coverage, parse_seed, seed_dir
 
 
 def test_every_stored_number_has_a_provenance_row():
@@ -33,8 +33,8 @@ def test_most_of_the_original_tables_is_checked_against_a_source():
 def test_no_verified_value_without_a_locator_in_the_database(fresh_db):
     from sqlmodel import select
 
-    from matdb.db import read_session
-    from matdb.models import ValueProvenance
+    from matdb.data.db import read_session
+    from matdb.data.models import ValueProvenance
 
     with read_session(fresh_db) as s:
         rows = s.exec(select(ValueProvenance)).all()
@@ -163,13 +163,14 @@ def test_page_tables_show_a_status_mark_beside_each_value():
 
 
 def test_compare_and_lab_tables_carry_the_marks_too():
-    from matdb import catalog, presentation
+    from matdb.data import catalog
+    from matdb.reporting import presentation
 
     mats = presentation.materials_table("si-volume")
     table = presentation.compare_materials(mats, ["antimony", "pmma"], rounded=True, marks=catalog.status_marks()["material"])
     chi = table.loc["chi, SI volume"]
     assert chi["antimony"].endswith(" v") and chi["pmma"].endswith(" ?")
-    from matdb import labvalues
+    from matdb.data import labvalues
 
     rows = labvalues.history("antimony")
     assert presentation.value_check_marks(rows) == ["v"]

@@ -201,7 +201,7 @@ def test_report_sections(plate_report):
     assert "pyrolytic-graphite" in html and "handbook" in html or "standard" in html
     # reproducibility: version and database fingerprint
     from matdb import __version__
-    from matdb.report import database_fingerprint
+    from matdb.reporting.report import database_fingerprint
 
     assert f"<td>{__version__}</td>" in html
     assert database_fingerprint() in html
@@ -223,7 +223,7 @@ def test_report_is_self_contained(plate_report):
 def test_docstring_references_are_the_codes():
     # the method line cites what the function's own numpydoc References section says
     from matdb.physics import plate
-    from matdb.report import docstring_references, references_of
+    from matdb.reporting.report import docstring_references, references_of
 
     refs = docstring_references(plate.analyse_plate)
     assert refs and all("Simon" in r or "Berry" in r or r for r in refs)
@@ -232,7 +232,7 @@ def test_docstring_references_are_the_codes():
 
 
 def test_database_fingerprint_is_stable_and_content_based(fresh_db):
-    from matdb.report import database_fingerprint
+    from matdb.reporting.report import database_fingerprint
 
     a = database_fingerprint(fresh_db)
     assert a == database_fingerprint(fresh_db) and re.fullmatch(r"[0-9a-f]{16}", a)
@@ -289,7 +289,7 @@ def test_pdf_paper_size_and_pages_not_blank(plate_report, tmp_path, paper, size_
     """Paper sizes: ISO 216 (A4 210 x 297 mm) and ANSI Letter (8.5 x 11 in), in points."""
     from PIL import Image
 
-    from matdb.report import html_to_pdf
+    from matdb.reporting.report import html_to_pdf
 
     html, _ = plate_report
     html = html.replace("size: A4;", f"size: {paper};")
@@ -312,9 +312,9 @@ def test_pdf_paper_size_and_pages_not_blank(plate_report, tmp_path, paper, size_
 def test_provenance_shows_a_lab_value_with_its_source_note_and_date(fresh_db):
     """A measured value recorded with `matdb record` is the one in use (DEVELOPERS.md):
     the report names it as measured, with the lab's source note, date and uncertainty."""
-    from matdb import labvalues
-    from matdb.design import load_design_text
-    from matdb.report import _number_notes, _provenance
+    from matdb.data import labvalues
+    from matdb.design.plate import load_design_text
+    from matdb.reporting.report import _number_notes, _provenance
 
     labvalues.record_material_value("bismuth", chi=-1.62e-4, uncertainty=0.03e-4,
                                     source="bench SQUID run 7, sample B2", date="2026-11-02", url=fresh_db)
@@ -327,7 +327,7 @@ def test_provenance_shows_a_lab_value_with_its_source_note_and_date(fresh_db):
     # the magnet grade rows name their published source
     assert any(r["property"] == "Br (T)" and r["source"] for r in rows)
     # where the database keeps a checked-against-source status, every row carries it
-    from matdb import catalog
+    from matdb.data import catalog
 
     if hasattr(catalog, "status_marks"):
         assert chi["status"] == "measured"

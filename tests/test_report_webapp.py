@@ -25,7 +25,7 @@ def test_design_page_offers_report_and_drawing_downloads():
     labels = [d.label for d in at.get("download_button")]
     for want in ("Report (HTML)", "Report (PDF, A4)", "Drawing (DXF)", "Drawing (SVG)"):
         assert want in labels, labels
-    # the map on the page and the report share one chart specification (matdb.charts):
+    # the map on the page and the report share one chart specification (matdb.reporting.charts):
     # the field map carries the plate outline layer
     specs = [json.dumps(json.loads(c.proto.spec)) for c in at.get("vega_lite_chart")]
     assert any("plate outline" in s for s in specs)

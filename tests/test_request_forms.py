@@ -8,7 +8,7 @@ import json
 
 import pytest
 
-from matdb import advisor as A
+from matdb.advisor import engine as A
 from matdb.errors import InputError
 
 
@@ -41,7 +41,7 @@ def test_mass_and_total_mass_exclusive():
 
 def test_matched_thickness_gives_the_total_mass():
     """Plate mass = density x area x thickness (geometry); the matched plate weighs the total."""
-    from matdb import catalog
+    from matdb.data import catalog
 
     pg = catalog.get_material("pyrolytic-graphite")
     t = A.matched_thickness(0.3e-3, pg.density_kg_m3, (0.02, 0.02))

@@ -17,7 +17,8 @@ from pathlib import Path
 
 import pytest
 
-from matdb import labvalues, limits, output
+from matdb import limits, output
+from matdb.data import labvalues
 
 REPO = Path(__file__).resolve().parent.parent
 DATA = Path(__file__).resolve().parent / "data"
@@ -75,7 +76,7 @@ def test_csv_escaping_is_one_function_for_cli_and_page(evil_db, run_cli):
         bad = [c for c in _cells(out) if c[:1] in FORMULA_START and not _looks_like_number(c)]
         assert bad == [], (argv, bad)
     # the page's downloads use the same function (webapp._shared.csv_bytes -> output.csv_text)
-    from matdb import presentation
+    from matdb.reporting import presentation
     from webapp import _shared as sh
 
     df = presentation.materials_table("si-volume", evil_db)
@@ -128,7 +129,7 @@ def test_lab_page_shows_a_note_as_text(fresh_db):
 def test_page_shows_no_error_details():
     import tomllib
 
-    from matdb.commands.serve import serve_command
+    from matdb.cli.serve import serve_command
 
     cfg = tomllib.loads((REPO / ".streamlit" / "config.toml").read_text(encoding="utf-8"))
     assert cfg["client"]["showErrorDetails"] == "none"
@@ -211,7 +212,7 @@ def test_readme_states_the_limits():
 # ---------------------------------------------------------------------------- commands
 
 def test_output_path_checked_before_computing(fresh_db, run_cli, monkeypatch, tmp_path):
-    from matdb import advisor
+    from matdb.advisor import engine as advisor
 
     def boom(*a, **k):
         raise AssertionError("computed before checking --save")
@@ -248,7 +249,7 @@ def test_field_needs_only_magnets(fresh_db, run_cli, tmp_path):
      "--alpha", "-0.12", "--max-temp", "80 degC", "--density", "7.5 g/cm^3", "--source", "demo"),
 ])
 def test_unknown_family_refused_everywhere(fresh_db, run_cli, argv):
-    from matdb.models import FAMILIES
+    from matdb.data.models import FAMILIES
 
     err = _one_line_error(*run_cli(*argv))
     assert "Kryptonite" in err and all(f in err for f in FAMILIES), err
@@ -264,7 +265,7 @@ def _measured(export_json: str) -> list[dict]:
 
 @pytest.mark.parametrize("fmt", ["csv", "json"])
 def test_export_import_round_trip_is_exact(fresh_db, run_cli, tmp_path, monkeypatch, fmt):
-    from matdb import db
+    from matdb.data import db
 
     src = fresh_db
     for _ in range(2):  # the same value recorded twice
@@ -305,7 +306,7 @@ def test_typed_apostrophe_is_kept_on_import(fresh_db, tmp_path):
 def test_database_error_is_one_line(fresh_db, run_cli, monkeypatch):
     from sqlalchemy.exc import OperationalError
 
-    from matdb import catalog
+    from matdb.data import catalog
 
     def locked(*a, **k):
         raise OperationalError("SELECT 1", {}, Exception("database is locked"))
@@ -332,8 +333,8 @@ def test_note_is_text_in_a_real_browser(tmp_path):
     if chromium is None:
         pytest.skip("Debian chromium is not installed (apt-get install chromium; CI does)")
     sync_api = pytest.importorskip("playwright.sync_api")
-    from matdb import db
-    from matdb.commands.serve import serve_command
+    from matdb.data import db
+    from matdb.cli.serve import serve_command
 
     url = f"sqlite:///{tmp_path / 'browser.sqlite'}"
     db.get_engine(url)

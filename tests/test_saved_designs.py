@@ -5,10 +5,10 @@ from __future__ import annotations
 
 import pytest
 
-from matdb import saved_designs as sd
-from matdb.design import load_design_text
+from matdb.data import saved_designs as sd
+from matdb.design.plate import load_design_text
 from matdb.errors import InputError, NotFoundError
-from matdb.presentation import design_text_from_fields
+from matdb.reporting.presentation import design_text_from_fields
 
 
 def _text(size="12.7 mm, 12.7 mm, 12.7 mm", payload="0.1 g", temp_min="20 degC", temp_max="40 degC"):
@@ -78,7 +78,7 @@ def test_duplicate_onto_an_existing_name_writes_nothing(fresh_db):
 
 
 def test_compare_two_to_four_key_figures_and_curves(fresh_db):
-    from matdb.levitate import levitate
+    from matdb.analysis.levitate import levitate
 
     sd.save_design("demo small", _text(size="6 mm, 6 mm, 6 mm"), url=fresh_db)
     sd.save_design("demo large", _text(), url=fresh_db)

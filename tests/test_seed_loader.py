@@ -8,10 +8,10 @@ import shutil
 import pytest
 from sqlmodel import Session, func, select
 
-from matdb import db
+from matdb.data import db
 from matdb.errors import DataError
-from matdb.models import MagnetValue, Material, Source, SusceptibilityValue
-from matdb.seed import parse_seed, seed_database, seed_dir
+from matdb.data.models import MagnetValue, Material, Source, SusceptibilityValue
+from matdb.data.seed import parse_seed, seed_database, seed_dir
 
 
 def _counts(engine):
@@ -114,6 +114,6 @@ def test_not_utf8_and_missing_columns(tmp_path, seed_copy):
 
 
 def test_first_use_creates_and_seeds(fresh_db):
-    from matdb.catalog import get_material
+    from matdb.data.catalog import get_material
 
     assert get_material("bismuth").chi_si < 0

@@ -17,7 +17,9 @@ from pathlib import Path
 
 import pytest
 
-from matdb import catalog, db, labvalues
+from matdb.data import catalog
+from matdb.data import db
+from matdb.data import labvalues
 
 DATA = Path(__file__).resolve().parent / "data"
 REPO = Path(__file__).resolve().parent.parent

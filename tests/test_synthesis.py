@@ -1,4 +1,4 @@
-"""`matdb optimise` and matdb.synthesis: the request posed as people pose it yields sized
+"""`matdb optimise` and matdb.analysis.synthesis: the request posed as people pose it yields sized
 designs that `matdb levitate` confirms, the optimiser never does worse than the catalogue,
 stock lists, progress bars and the floating-magnet dispatch."""
 
@@ -11,8 +11,8 @@ import types
 
 import pytest
 
-from matdb import advisor as A
-from matdb import synthesis as S
+from matdb.advisor import engine as A
+from matdb.analysis import synthesis as S
 from matdb.errors import InputError
 
 # The request: float 0.3 g (plate and all) at 0.5 mm or more over 0-50 C in a 20 mm x 20 mm
@@ -121,7 +121,7 @@ def test_objective_checked(run_cli):
 def test_floating_magnet_dispatch(run_cli, monkeypatch):
     """--floating-magnet hands the parsed options to the floating-magnet search module."""
     seen = {}
-    fake = types.ModuleType("matdb.commands.optimise_fm")
+    fake = types.ModuleType("matdb.cli.optimise_fm")
 
     def add_arguments(parser):
         if "--lifter-grade" not in parser._option_string_actions:
@@ -133,8 +133,8 @@ def test_floating_magnet_dispatch(run_cli, monkeypatch):
 
     fake.add_arguments = add_arguments
     fake.run = run
-    monkeypatch.setitem(sys.modules, "matdb.commands.optimise_fm", fake)
-    import matdb.commands as pkg
+    monkeypatch.setitem(sys.modules, "matdb.cli.optimise_fm", fake)
+    import matdb.cli as pkg
 
     monkeypatch.setattr(pkg, "optimise_fm", fake, raising=False)
     code, out, err = run_cli("optimise", "--floating-magnet", "--lifter-grade", "N42", "--budget", "9 USD")

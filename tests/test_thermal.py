@@ -151,7 +151,7 @@ def test_worst_case_abs_chi():
 # knee fractions
 # ---------------------------------------------------------------------------
 def test_knee_fractions_cover_the_catalogue_families_and_carry_citations():
-    # families of matdb.catalog.GradeProps; squareness Hk/Hcj lies between 0 and 1 by
+    # families of matdb.data.catalog.GradeProps; squareness Hk/Hcj lies between 0 and 1 by
     # definition of Hk (MMPA 0100-00); sintered NdFeB is squarer than bonded NdFeB and
     # AlNiCo (Coey 2010 ch. 13)
     assert set(KNEE_FRACTION) == {"NdFeB", "SmCo", "ferrite", "AlNiCo", "bonded-NdFeB"}

@@ -11,7 +11,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from matdb import catalog, presentation
+from matdb.data import catalog
+from matdb.reporting import presentation
 from matdb.units import G_STANDARD, MU0
 
 pytest.importorskip("streamlit")
@@ -406,7 +407,7 @@ def test_lab_values_record_needs_a_source_and_then_is_in_use(fresh_db):
 
 
 def test_design_large_magnets_show_the_strong_magnet_cautions():
-    """Issue 6: cautions visible where large magnets are proposed (matdb.levitate marks a
+    """Issue 6: cautions visible where large magnets are proposed (matdb.analysis.levitate marks a
     magnet over 25 mm as large)."""
     at = _design_page()
     at.text_input(key="d_size").set_value("30 mm, 30 mm, 15 mm").run()
@@ -422,7 +423,7 @@ def test_design_large_magnets_show_the_strong_magnet_cautions():
 # ---------------------------------------------------------------------------
 
 def test_serve_command_is_local_and_without_telemetry(run_cli):
-    from matdb.commands.serve import APP as SERVED, serve_command
+    from matdb.cli.serve import APP as SERVED, serve_command
     from matdb.errors import InputError
 
     cmd = serve_command(8765)
@@ -487,7 +488,7 @@ def test_design_two_floaters_schedule_and_weight_shares():
 # ---------------------------------------------------------------------------
 
 def _saved_names(url=None):
-    from matdb import saved_designs
+    from matdb.data import saved_designs
 
     return list(saved_designs.list_designs(url)["name"])
 
@@ -526,10 +527,10 @@ def test_design_save_list_reopen_and_bad_input_writes_nothing(fresh_db):
 
 
 def test_design_duplicate_delete_and_compare(fresh_db):
-    from matdb import saved_designs
-    from matdb.design import load_design_text
-    from matdb.levitate import levitate
-    from matdb.presentation import DESIGN_FORM_DEFAULTS, design_text_from_fields
+    from matdb.data import saved_designs
+    from matdb.design.plate import load_design_text
+    from matdb.analysis.levitate import levitate
+    from matdb.reporting.presentation import DESIGN_FORM_DEFAULTS, design_text_from_fields
 
     small = design_text_from_fields(dict(DESIGN_FORM_DEFAULTS, size="6 mm, 6 mm, 6 mm"))
     saved_designs.save_design("demo small", small, "demo", url=fresh_db)

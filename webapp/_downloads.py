@@ -2,7 +2,7 @@
 
 The report takes a while (three temperatures, charts), so it is made when asked for and
 cached by the design text; the page's own cached levitate result is reused for the
-nominal case. No physics here: :mod:`matdb.report` and :mod:`matdb.drawing` do the work.
+nominal case. No physics here: :mod:`matdb.reporting.report` and :mod:`matdb.reporting.drawing` do the work.
 """
 
 from __future__ import annotations
@@ -19,7 +19,7 @@ MIME = {"html": "text/html", "pdf": "application/pdf", "dxf": "image/vnd.dxf", "
 
 @st.cache_data(show_spinner=False, max_entries=8)
 def report_file(text: str, fmt: str, paper: str, url: str, name: str) -> bytes:
-    from matdb.report import report_bytes
+    from matdb.reporting.report import report_bytes
 
     def lev(design, temp_k=None):
         return sh.levitate_text(text, temp_k, None, url)
@@ -29,7 +29,7 @@ def report_file(text: str, fmt: str, paper: str, url: str, name: str) -> bytes:
 
 @st.cache_data(show_spinner=False, max_entries=16)
 def drawing_file(text: str, fmt: str, name: str) -> bytes:
-    from matdb.drawing import drawing_bytes
+    from matdb.reporting.drawing import drawing_bytes
 
     return drawing_bytes(text, fmt, source_name=f"{name}.toml")
 

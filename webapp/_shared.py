@@ -11,8 +11,9 @@ from contextlib import contextmanager
 
 import streamlit as st
 
-from matdb import catalog, presentation
-from matdb.db import default_url
+from matdb.data import catalog
+from matdb.reporting import presentation
+from matdb.data.db import default_url
 from matdb.errors import MatdbError
 from matdb.output import csv_text
 
@@ -163,10 +164,10 @@ def clear_catalog_caches() -> None:
 @st.cache_data(show_spinner=False, max_entries=64)
 def levitate_text(text: str, temp_k: float | None, gap_m: float | None, url: str,
                   payloads: tuple | None = None, resolution_m: float | None = None):
-    """Keyed by the design's content: pass :func:`matdb.presentation.canonical_design_text`,
+    """Keyed by the design's content: pass :func:`matdb.reporting.presentation.canonical_design_text`,
     so the same design from the form, the editor or a saved copy computes once."""
-    from matdb.design import load_design_text
-    from matdb.levitate import levitate
+    from matdb.design.plate import load_design_text
+    from matdb.analysis.levitate import levitate
 
     return levitate(load_design_text(text), temp_k=temp_k, gap_m=gap_m,
                     payloads_kg=None if payloads is None else list(payloads), resolution_m=resolution_m)
@@ -190,7 +191,7 @@ def levitate_key(text: str, url: str) -> dict:
 
 def evaluate_design_text(text: str, url: str) -> dict:
     """:func:`levitate_text` of any design text, through its content key."""
-    from matdb.design import load_design_text
+    from matdb.design.plate import load_design_text
 
     return levitate_key(presentation.canonical_design_text(load_design_text(text), text), url)
 
@@ -245,7 +246,7 @@ class _Memo:
 
 
 def _advise(params: tuple, url: str):
-    from matdb import advisor
+    from matdb.advisor import engine as advisor
 
     return advisor.advise(url=url, **dict(params))
 
@@ -257,7 +258,7 @@ advise = _Memo(_advise, 16)
 def run_with_progress(fn, *args, label: str = "Working..."):
     """Call ``fn(*args)`` under a progress bar fed by the advisor's progress reports; the
     bar disappears when done. A cached answer shows no bar."""
-    from matdb import advisor
+    from matdb.advisor import engine as advisor
 
     if isinstance(fn, _Memo) and fn.cached(*args):
         return fn(*args)
@@ -281,28 +282,29 @@ def run_with_progress(fn, *args, label: str = "Working..."):
 @st.cache_resource(show_spinner=False, max_entries=16)
 def dynamics_prep(text: str, url: str):
     """Not pickled (it holds the factorised finite-element matrices): a shared resource."""
-    from matdb.design import load_design_text
-    from matdb.dynamics import prepare_dynamics
+    from matdb.design.plate import load_design_text
+    from matdb.analysis.dynamics import prepare_dynamics
 
     return prepare_dynamics(load_design_text(text))
 
 
 def dynamics_text(text: str, pressure_pa: float, url: str) -> dict:
-    from matdb.dynamics import evaluate_dynamics
+    from matdb.analysis.dynamics import evaluate_dynamics
 
     return evaluate_dynamics(dynamics_prep(text, url), pressure_pa)
 
 
 @st.cache_data(show_spinner=False, max_entries=16)
 def pressure_sweep(text: str, url: str):
-    from matdb.design import load_design_text
-    from matdb.dynamics import pressure_sweep_df
+    from matdb.design.plate import load_design_text
+    from matdb.analysis.dynamics import pressure_sweep_df
 
     return pressure_sweep_df(load_design_text(text), prep=dynamics_prep(text, url))
 
 
 def _optimise(key: tuple, url: str, progress=None):
-    from matdb import advisor, synthesis
+    from matdb.advisor import engine as advisor
+    from matdb.analysis import synthesis
 
     params, objective, min_margin = key
     kw = {k: v for k, v in dict(params).items() if k not in ("top", "weights")}
@@ -317,7 +319,7 @@ _OPT_PROGRESS: dict = {}
 
 
 def run_optimise(key: tuple, url: str, label: str = "Sizing:"):
-    """:func:`matdb.synthesis.optimise` under a progress bar (no bar for a cached answer)."""
+    """:func:`matdb.analysis.synthesis.optimise` under a progress bar (no bar for a cached answer)."""
     if optimise.cached(key, url):
         return optimise(key, url)
     slot = st.empty()

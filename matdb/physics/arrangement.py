@@ -27,9 +27,9 @@ from typing import Any, Sequence
 
 import numpy as np
 
-from ..errors import InputError
-from ..units import MU0
-from .fields import MagnetSet, _as_points
+from matdb.errors import InputError
+from matdb.units import MU0
+from matdb.physics.fields import MagnetSet, _as_points
 
 __all__ = ["Magnet", "Arrangement", "build_arrangement", "SHAPES", "PATTERNS"]
 
@@ -315,7 +315,7 @@ class Arrangement:
         ``chis[i] = mu_rec - 1`` (its own and its neighbours' demagnetising fields, images
         in the back plate included). ``br`` and ``direction`` of the returned magnets are
         the magnitude and direction of that polarisation. All zeros: ``self``."""
-        from .recoil import effective_polarizations
+        from matdb.physics.recoil import effective_polarizations
 
         chis = [_float(c, "mu_rec") for c in chis]
         if len(chis) != self.count:

@@ -90,8 +90,8 @@ import numpy as np
 from scipy import constants, linalg
 from scipy.sparse.linalg import splu
 
-from ..errors import InputError, PhysicsError
-from ..units import MU0
+from matdb.errors import InputError, PhysicsError
+from matdb.units import MU0
 
 FieldFn = Callable[[np.ndarray], np.ndarray]
 

@@ -54,8 +54,8 @@ import math
 
 import numpy as np
 
-from ..errors import InputError
-from ..units import MU0
+from matdb.errors import InputError
+from matdb.units import MU0
 
 __all__ = [
     "CuboidSet",

@@ -96,8 +96,8 @@ from typing import Callable, Sequence
 import numpy as np
 from scipy import optimize
 
-from ..errors import InputError
-from ..units import G_STANDARD, MU0
+from matdb.errors import InputError
+from matdb.units import G_STANDARD, MU0
 
 FieldFn = Callable[[np.ndarray], np.ndarray]
 

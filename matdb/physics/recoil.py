@@ -48,7 +48,7 @@ from typing import Sequence
 
 import numpy as np
 
-from .fields import MagnetSet
+from matdb.physics.fields import MagnetSet
 
 __all__ = ["interaction_matrix", "response_matrix", "effective_polarizations", "clear_cache"]
 

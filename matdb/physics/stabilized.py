@@ -56,9 +56,9 @@ import numpy as np
 from scipy.interpolate import CubicSpline
 from scipy.optimize import brentq
 
-from ..errors import InputError, PhysicsError
-from ..units import G_STANDARD, MU0
-from .fields import MagnetSet
+from matdb.errors import InputError, PhysicsError
+from matdb.units import G_STANDARD, MU0
+from matdb.physics.fields import MagnetSet
 
 __all__ = [
     "Body",
@@ -954,12 +954,12 @@ class StationModel:
 
 
 def _recoil(spec) -> float:
-    """:attr:`matdb.design_stabilized.MagnetSpec.recoil_factor` (1 for other specs)."""
+    """:attr:`matdb.design.floating.MagnetSpec.recoil_factor` (1 for other specs)."""
     return float(getattr(spec, "recoil_factor", 1.0))
 
 
 def _station_model(st, temp_k: float) -> StationModel:
-    from .thermal import br_at, chi_at
+    from matdb.physics.thermal import br_at, chi_at
 
     # polarisation on the recoil line (mu_rec of the grade) unless the design says rigid
     bl = float(br_at(st.lifter.br_t, st.lifter.alpha_br_pct_per_k, temp_k)) * _recoil(st.lifter)
@@ -1348,7 +1348,7 @@ def levitate_stabilized(design, temp_k: Optional[float] = None, n_window: int = 
     Parameters
     ----------
     design : StabilizedDesign
-        From :func:`matdb.design_stabilized.parse_stabilized`.
+        From :func:`matdb.design.floating.parse_stabilized`.
     temp_k : float, optional
         Temperature [K]; default the design's.
     n_window : int
@@ -1397,7 +1397,7 @@ def levitate_stabilized(design, temp_k: Optional[float] = None, n_window: int = 
     .. [1] M. D. Simon, L. O. Heflinger and A. K. Geim, Am. J. Phys. 69, 702 (2001).
     .. [2] M. D. Simon and A. K. Geim, J. Appl. Phys. 87, 6200 (2000).
     """
-    from .thermal import SAFETY_TEXT, safe_distance
+    from matdb.physics.thermal import SAFETY_TEXT, safe_distance
 
     t = float(design.temperature_k if temp_k is None else temp_k)
     if not (math.isfinite(t) and t > 0):

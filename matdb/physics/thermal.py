@@ -28,7 +28,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 from scipy.optimize import brentq
 
-from ..errors import InputError, PhysicsError
+from matdb.errors import InputError, PhysicsError
 
 T_REF_K = 293.15  # 20 C, the reference temperature of catalogue magnet data [K]
 

@@ -3,16 +3,16 @@
 import altair as alt
 import streamlit as st
 
-from matdb import presentation
+from matdb.reporting import presentation
 from matdb.errors import MatdbError
-from matdb.levitate import LARGE_MAGNET_M, LARGE_MAGNET_MASS_KG
+from matdb.analysis.levitate import LARGE_MAGNET_M, LARGE_MAGNET_MASS_KG
 from matdb.physics.thermal import SAFETY_TEXT
 from matdb.units import parse_length, parse_mass, parse_temperature
 from webapp import _downloads
 from webapp import _shared as sh
 
 st.title("Advisor")
-advisor = sh.module_or_none("matdb.advisor")
+advisor = sh.module_or_none("matdb.advisor.engine")
 if advisor is None:
     sh.not_available("The Advisor page")
     st.stop()
@@ -189,7 +189,7 @@ with sh.shown_errors("candidate design"):
                        key="adv_download_design")
     _downloads.report_buttons(toml_text, url, "adv", name=f"design-{row['material']}-{row['grade']}")
     if d2.button("Open on the Design page", key="adv_open", type="primary"):
-        from matdb.design import load_design_text
+        from matdb.design.plate import load_design_text
 
         fields = presentation.form_fields_from_design(load_design_text(toml_text))
         st.session_state["d_open"] = {"fields": fields, "text": toml_text,

@@ -6,16 +6,17 @@ import altair as alt
 import pandas as pd
 import streamlit as st
 
-from matdb import charts, presentation
+from matdb.reporting import charts
+from matdb.reporting import presentation
 from matdb.errors import MatdbError
 from matdb.units import parse_length, parse_mass, parse_quantity, parse_temperature
 from webapp import _downloads
 from webapp import _shared as sh
 
 st.title("Design")
-design_mod = sh.module_or_none("matdb.design")
-lev_mod = sh.module_or_none("matdb.levitate")
-design_mod_stab = sh.module_or_none("matdb.design_stabilized")
+design_mod = sh.module_or_none("matdb.design.plate")
+lev_mod = sh.module_or_none("matdb.analysis.levitate")
+design_mod_stab = sh.module_or_none("matdb.design.floating")
 if design_mod is None or lev_mod is None:
     sh.not_available("The Design page")
     st.stop()
@@ -123,7 +124,7 @@ with left:
         text = st.text_area("Design (TOML; every quantity with its unit)", key="design_text", height=320)
         st.session_state["d_kept_text"] = text
 
-from matdb import saved_designs as saved  # noqa: E402
+from matdb.data import saved_designs as saved  # noqa: E402
 
 
 def open_saved(name: str) -> None:
@@ -315,7 +316,7 @@ with right:
         st.download_button("Schedule as CSV (for a positioning stage)", presentation.schedule_csv(result).encode(),
                            file_name="schedule.csv", mime="text/csv", key="d_schedule_csv")
         with st.expander("Suggest designs that float a payload range", expanded=not result.get("floats")):
-            synth = sh.module_or_none("matdb.magnet_synthesis")
+            synth = sh.module_or_none("matdb.analysis.magnet_synthesis")
             s1, s2, s3 = st.columns([2, 1, 2])
             s_range = s1.text_input("Payload range to float", prange.strip() or "0 g..5 g", key="fm_s_range")
             s_win = s2.text_input("Smallest window", "0.5 mm", key="fm_s_window")
@@ -429,7 +430,7 @@ with st.expander("Strong-magnet cautions", expanded=any("Strong magnets" in w fo
     st.markdown(SAFETY_TEXT.replace("\n", "  \n"))
 
 # ---- dynamics ---------------------------------------------------------------
-dyn_mod = sh.module_or_none("matdb.dynamics")
+dyn_mod = sh.module_or_none("matdb.analysis.dynamics")
 if dyn_mod is not None and result.get("mode") == "plate":
     st.subheader("Dynamics: modes, damping, Q and noise floor")
     g1, g2 = st.columns([2, 3], gap="large")

@@ -5,13 +5,13 @@ import altair as alt
 import pandas as pd
 import streamlit as st
 
-from matdb import presentation
-from matdb import presentation as P
+from matdb.reporting import presentation
+from matdb.reporting import presentation as P
 from matdb.errors import MatdbError
 from webapp import _shared as sh
 
 st.title("Lab values")
-lab = sh.module_or_none("matdb.labvalues")
+lab = sh.module_or_none("matdb.data.labvalues")
 if lab is None:
     sh.not_available("The Lab values page")
     st.stop()
@@ -193,7 +193,7 @@ with p2:
             st.rerun()
 
 # ---- measured Q / ring-down -----------------------------------------------------
-dyn_lab = sh.module_or_none("matdb.dynamics")
+dyn_lab = sh.module_or_none("matdb.analysis.dynamics")
 if dyn_lab is not None:
     st.subheader("Measured quality factor or ring-down of a floating plate")
     qrows = dyn_lab.list_q_values(mid, url)

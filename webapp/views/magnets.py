@@ -3,7 +3,7 @@
 import altair as alt
 import streamlit as st
 
-from matdb import presentation
+from matdb.reporting import presentation
 from matdb.errors import MatdbError
 from webapp import _shared as sh
 

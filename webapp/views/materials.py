@@ -4,7 +4,7 @@ import altair as alt
 import pandas as pd
 import streamlit as st
 
-from matdb import presentation
+from matdb.reporting import presentation
 from matdb.errors import MatdbError
 from matdb.units import CONVENTIONS
 from webapp import _shared as sh

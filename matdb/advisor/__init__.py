@@ -1,0 +1,1 @@
+"""matdb.advisor: see DEVELOPERS.md for the package map."""

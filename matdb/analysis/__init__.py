@@ -1,0 +1,1 @@
+"""matdb.analysis: see DEVELOPERS.md for the package map."""

@@ -1,0 +1,1 @@
+"""matdb.data: see DEVELOPERS.md for the package map."""

@@ -1,0 +1,1 @@
+"""Alembic migrations of the matdb schema (applied by :mod:`matdb.data.migrate`)."""

@@ -1,0 +1,1 @@
+"""matdb.design: see DEVELOPERS.md for the package map."""

@@ -1,1 +1,0 @@
-"""Alembic migrations of the matdb schema (applied by :mod:`matdb.migrate`)."""

@@ -1,1 +1,0 @@
-"""One file per schema revision; ``python -m matdb.migrate revision -m "..."`` adds one."""

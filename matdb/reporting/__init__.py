@@ -1,0 +1,1 @@
+"""matdb.reporting: see DEVELOPERS.md for the package map."""
