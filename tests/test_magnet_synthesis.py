@@ -13,7 +13,7 @@ import pytest
 
 from matdb.analysis import magnet_synthesis as M
 from matdb.design.floating import parse_stabilized, to_toml
-from matdb.physics import stabilized as S
+from matdb.physics import floating as S
 from matdb.units import MU0
 
 G = 9.80665  # standard gravity (scipy.constants.g)

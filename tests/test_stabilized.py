@@ -15,7 +15,10 @@ from hypothesis import strategies as hst
 from scipy import integrate
 
 from matdb.errors import InputError
-from matdb.physics import stabilized as S
+from matdb.analysis.floating import levitate_stabilized
+from matdb.physics import floating as S
+from matdb.physics.floating._gauss import composite
+from matdb.physics.floating.plates import panel_edges
 from matdb.units import MU0
 
 REPO = Path(__file__).resolve().parent.parent
@@ -196,8 +199,8 @@ def test_plate_stiffness_quadrature_converges_as_the_plates_close_in():
         xy, w = fp._plane_nodes(s)
         coarse = fp.plane_integral_slope(s)
         # halve every panel: recompute with twice the Gauss order on the same edges
-        r_edges = S._axis_edges(fp._features()[0], gap, 1e3 * (s + FLOATER.lateral))
-        r, wr = S._composite(r_edges, 16)
+        r_edges = panel_edges(fp._features()[0], gap, 1e3 * (s + FLOATER.lateral))
+        r, wr = composite(r_edges, 16)
         d = 1e-3 * gap
         vals = []
         for z in s + d * np.array([-2.0, -1.0, 1.0, 2.0]):
@@ -308,7 +311,7 @@ def demo():
 
 @pytest.fixture(scope="module")
 def demo_result(demo):
-    return S.levitate_stabilized(demo)
+    return levitate_stabilized(demo)
 
 
 def test_result_keys_are_plain_json(demo_result):
@@ -329,7 +332,7 @@ def test_balance_is_unstable_alone_and_weight_is_held(demo, demo_result):
     st = demo.stations[0]
     r = demo_result
     assert r["k_lifter_z_n_m"] < 0 < r["k_lifter_r_n_m"]
-    model = S._station_model(st, demo.temperature_k)
+    model = S.station_model(st, demo.temperature_k)
     w = (st.floater.mass_kg + st.payload_kg) * 9.80665
     assert model.force(r["lifter_distance_m"]) == pytest.approx(w, rel=1e-9)
     assert model.force(r["lifter_distance_m"] * 0.99) > w  # closer pulls harder: falling branch
@@ -364,11 +367,11 @@ def test_plates_too_far_or_too_weak_give_no_stable_point(demo):
 
     st = demo.stations[0]
     far = replace(st, plates=replace(st.plates, distance=10e-3))
-    r = S.levitate_stabilized(replace(demo, stations=(far,)))
+    r = levitate_stabilized(replace(demo, stations=(far,)))
     assert r["floats"] is False and r["plate_distance_in_window"] is False
     assert r["k_z_total_n_m"] < 0
     none = replace(st, plates=replace(st.plates, chi_perp=-1e-9, chi_par=-1e-9, distance=None))
-    r = S.levitate_stabilized(replace(demo, stations=(none,)))
+    r = levitate_stabilized(replace(demo, stations=(none,)))
     assert r["floats"] is False and r["max_plate_distance_m"] is None
 
 
@@ -378,10 +381,10 @@ def test_lifter_that_cannot_clear_the_upper_plate_is_refused(demo):
 
     st = demo.stations[0]
     weak = replace(st, lifter=st.floater)  # a lifter as small as the floater sits close
-    d = S._station_model(weak, demo.temperature_k).balance((st.floater.mass_kg + st.payload_kg) * 9.80665)
+    d = S.station_model(weak, demo.temperature_k).balance((st.floater.mass_kg + st.payload_kg) * 9.80665)
     bad = replace(weak, plates=replace(st.plates, distance=d - 0.5 * st.plates.thickness))
     with pytest.raises(InputError, match="cannot clear the upper plate"):
-        S.levitate_stabilized(replace(demo, stations=(bad,)))
+        levitate_stabilized(replace(demo, stations=(bad,)))
 
 
 def test_warnings_carry_the_strong_magnet_cautions(demo_result):
@@ -419,7 +422,7 @@ def test_two_station_demo_shares_and_tilt(tmp_path):
     from matdb.design.floating import parse_stabilized
 
     d = parse_stabilized(_rigid_doc(TWO))
-    r = S.levitate_stabilized(d)
+    r = levitate_stabilized(d)
     left, right = r["stations"]
     assert right["share_fraction"] == pytest.approx(35 / 60)
     assert left["share_fraction"] == pytest.approx(25 / 60)
@@ -448,7 +451,7 @@ def test_centred_identical_stations_share_equally():
 
     doc = _rigid_doc(TWO)
     doc["payload"]["centre_of_mass"] = ["0 mm", "0 mm"]
-    r = S.levitate_stabilized(parse_stabilized(doc))
+    r = levitate_stabilized(parse_stabilized(doc))
     a, b = r["stations"]
     assert a["share_n"] == pytest.approx(b["share_n"], rel=1e-12)
     assert a["lifter_distance_m"] == pytest.approx(b["lifter_distance_m"], rel=1e-9)
@@ -462,7 +465,7 @@ def test_three_station_disc_shares_and_tilt_mode():
     from matdb.design.floating import parse_stabilized
 
     d = parse_stabilized(_rigid_doc(THREE))
-    r = S.levitate_stabilized(d)
+    r = levitate_stabilized(d)
     assert [s["share_fraction"] for s in r["stations"]] == pytest.approx([1 / 3] * 3, rel=1e-5)
     assert all(s["stable"] for s in r["stations"])
     assert r["tilt_stable"] is True and min(r["body_stiffness_eigenvalues"]) > 0
@@ -475,13 +478,13 @@ def test_rigid_body_tilt_needs_positive_station_stiffness():
     st = {"k_x": 1.0, "k_y": 1.0, "k_z": 2.0, "kappa_x": 1e-4, "kappa_y": 1e-4, "kappa_z": 0.0,
           "c_x_ty": 0.0, "c_y_tx": 0.0}
     pos = [(-0.03, 0.0), (0.03, 0.0)]
-    K = S._body_stiffness([st, st], pos, (0.0, 0.0, 0.0), 0.01)
+    K = S.body_stiffness([st, st], pos, (0.0, 0.0, 0.0), 0.01)
     assert K[4, 4] == pytest.approx(2 * 2.0 * 0.03**2 + 2e-4)
     bad = dict(st, k_z=-0.5)
-    K2 = S._body_stiffness([st, bad], pos, (0.0, 0.0, 0.0), 0.01)
+    K2 = S.body_stiffness([st, bad], pos, (0.0, 0.0, 0.0), 0.01)
     assert K2[4, 4] < K[4, 4]
     # a centre of mass above the floaters lowers the tilt stiffness by W z (pendulum, inverted)
-    K3 = S._body_stiffness([st, st], pos, (0.0, 0.0, 0.01), 0.01)
+    K3 = S.body_stiffness([st, st], pos, (0.0, 0.0, 0.01), 0.01)
     assert K3[3, 3] == pytest.approx(K[3, 3] - 0.01 * 0.01)
 
 
