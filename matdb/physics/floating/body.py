@@ -114,11 +114,15 @@ class BodySet:
 
     def __init__(self, bodies):
         self.bodies = list(bodies)
+        self._set = MagnetSet([b.shape for b in self.bodies], [tuple(float(v) for v in b.size) for b in self.bodies],
+                              [[0.0, 0.0, float(b.j_t)] for b in self.bodies], [b.centre for b in self.bodies])
 
     def B(self, points) -> np.ndarray:
-        p = np.asarray(points, dtype=float).reshape(-1, 3)
-        return sum(b.B(p) for b in self.bodies)
+        """Flux density of all the bodies at ``points`` (n, 3) [m] -> (n, 3) [T]
+        (superposition, one evaluation)."""
+        return self._set.B(np.asarray(points, dtype=float).reshape(-1, 3))
 
     def bounds(self) -> tuple:
+        """``(xmin, xmax, ymin, ymax, zmin, zmax)`` of all the bodies [m]."""
         bb = np.array([b.bounds() for b in self.bodies])
         return (bb[:, 0].min(), bb[:, 1].max(), bb[:, 2].min(), bb[:, 3].max(), bb[:, 4].min(), bb[:, 5].max())

@@ -28,6 +28,7 @@ from matdb.units import MU0
 __all__ = ["FinitePlates", "panel_edges"]
 
 _C = MU0 / (4.0 * math.pi)  # mu0 / 4 pi [T m / A]
+_N_PHI = 32  # angular nodes of the full plane rule of a round floater
 _TABLES: dict = {}  # FinitePlates tables by floater, chi, gap range and width (thickness-free)
 
 
@@ -155,7 +156,7 @@ class FinitePlates:
                                    8 * (math.pi / 4 - np.arccos(np.minimum(1.0, hw / np.maximum(r, 1e-300)))))
             if not full:
                 return np.column_stack([r, np.zeros_like(r)]), arc * r * wr
-            n_phi = 32
+            n_phi = _N_PHI
             phi = (np.arange(n_phi) + 0.5) * (2 * math.pi / n_phi)
             R, P = np.meshgrid(r, phi, indexing="ij")
             W = np.outer(wr * r, np.full(n_phi, 2 * math.pi / n_phi))
@@ -202,37 +203,48 @@ class FinitePlates:
     def plane_slope_parts(self, s) -> np.ndarray:
         """``d/ds`` of the plane integrals of ``B_z^2`` and of ``B_x^2 + B_y^2`` at heights
         ``s`` (unweighted by chi) [T^2 m], shape (n, 2); five-point differences on fixed
-        nodes, as :meth:`plane_integral_slope`."""
-        out = []
-        for si in np.atleast_1d(np.asarray(s, dtype=float)):
-            xy, w = self._plane_nodes(float(si))
-            d = 1e-3 * (si - self.h2)
-            zs = si + d * np.array([-2.0, -1.0, 1.0, 2.0])
-            pts = np.concatenate([np.column_stack([xy, np.full(w.size, z)]) for z in zs])
-            b = self.floater.B(pts)
-            parts = np.column_stack([b[:, 2] ** 2, b[:, 0] ** 2 + b[:, 1] ** 2]).reshape(4, w.size, 2)
-            vals = np.einsum("ikj,k->ij", parts, w)
-            out.append((vals[0] - 8 * vals[1] + 8 * vals[2] - vals[3]) / (12 * d))
-        return np.asarray(out)
+        nodes, as :meth:`plane_integral_slope`, all heights in one field evaluation."""
+        s = np.atleast_1d(np.asarray(s, dtype=float))
+        rules = [self._plane_nodes(float(si)) for si in s]
+        d = 1e-3 * (s - self.h2)
+        step = np.array([-2.0, -1.0, 1.0, 2.0])
+        pts = np.concatenate([
+            np.column_stack([np.tile(xy, (4, 1)), np.repeat(si + di * step, w.size)])
+            for si, di, (xy, w) in zip(s, d, rules)])
+        b = self.floater.B(pts)
+        sq = np.column_stack([b[:, 2] ** 2, b[:, 0] ** 2 + b[:, 1] ** 2])
+        out = np.empty((s.size, 2))
+        k = 0
+        for i, (xy, w) in enumerate(rules):
+            vals = np.einsum("ikj,k->ij", sq[k: k + 4 * w.size].reshape(4, w.size, 2), w)
+            out[i] = (vals[0] - 8 * vals[1] + 8 * vals[2] - vals[3]) / (12 * d[i])
+            k += 4 * w.size
+        return out
+
+    def _dipole_scale(self, s):
+        """``6 pi C^2 m^2 s^-5`` [T^2 m]: minus the point dipole's slope of either part."""
+        return 6 * math.pi * _C**2 * self.floater.moment**2 * np.asarray(s, dtype=float) ** -5
 
     def _slope_dipole(self, s):
-        m = self.floater.moment
-        return -0.5 * (self.wz + self.wh) * 6 * math.pi * _C**2 * m**2 * np.asarray(s, dtype=float) ** -5
+        return -0.5 * (self.wz + self.wh) * self._dipole_scale(s)
 
     def _build(self):
-        key = (self.floater.shape, tuple(self.floater.size), float(self.floater.j_t), self.wz, self.wh,
-               self.g_lo, self.g_hi, self.width)
+        """Tabulate the two parts' slopes over the gap range, as ratios to the point
+        dipole's (independent of the polarisation and of chi, so one table serves every
+        temperature and plate material)."""
+        key = (self.floater.shape, tuple(self.floater.size), self.g_lo, self.g_hi, self.width)
         hit = _TABLES.get(key)
-        if hit is not None:  # the same plates around the same floater: same table
-            self._spline, self._ratio_hi = hit
-            return
-        g = np.geomspace(self.g_lo, self.g_hi, 40)
-        ratio = np.array([self.plane_integral_slope(self.h2 + gi) for gi in g]) / self._slope_dipole(self.h2 + g)
-        self._spline = CubicSpline(np.log(g), ratio)
-        self._ratio_hi = float(ratio[-1])
-        if len(_TABLES) > 256:
-            _TABLES.clear()
-        _TABLES[key] = (self._spline, self._ratio_hi)
+        if hit is None:
+            g = np.geomspace(self.g_lo, self.g_hi, 40)
+            parts = self.plane_slope_parts(self.h2 + g) / self._dipole_scale(self.h2 + g)[:, None]
+            hit = (CubicSpline(np.log(g), parts, axis=0), parts[-1])
+            if len(_TABLES) > 256:
+                _TABLES.clear()
+            _TABLES[key] = hit
+        mix = np.array([self.wz, self.wh]) / (-0.5 * (self.wz + self.wh))  # parts -> ratio to the dipole slope
+        spline, last = hit
+        self._spline = lambda x: spline(x) @ mix
+        self._ratio_hi = float(last @ mix)
 
     def slope(self, s) -> np.ndarray:
         """``dP/ds`` [T^2 m] at heights ``s``, tabulated (exact below the table)."""
@@ -265,9 +277,12 @@ class FinitePlates:
 
     def energy(self, distance: float, rotvec=(0.0, 0.0, 0.0)) -> float:
         """Energy of both plates with the floater rotated by ``rotvec`` [J]."""
-        a = float(distance)
+        xy, w = self._plane_nodes(float(distance), full=True)
+        return self._energy_on(float(distance), xy, w, rotvec)
+
+    def _energy_on(self, a: float, xy: np.ndarray, w: np.ndarray, rotvec=(0.0, 0.0, 0.0)) -> float:
+        """:meth:`energy` on the plane nodes ``xy`` with weights ``w`` [m^2]."""
         g = a - self.h2
-        xy, w = self._plane_nodes(a, full=True)
         edges = [a] + [a + g * 2.0**k for k in range(-2, 60) if g * 2.0**k < self.t] + [a + self.t]
         z, wz = composite(np.unique(edges), 3)
         pts = np.column_stack([np.repeat(xy, z.size, axis=0), np.tile(z, xy.shape[0])])
@@ -282,7 +297,25 @@ class FinitePlates:
 
         Second difference of :meth:`energy` in the tilt about a horizontal axis
         (``U(+th) = U(-th)`` by mirror symmetry).
+
+        Notes
+        -----
+        The integrand (squares of the field's components) is even in ``y`` for the
+        floater tilted about ``y`` and at rest (both floater and plates are symmetric
+        under ``y -> -y``, and the plane rules hold no node on ``y = 0``), so half the
+        nodes with twice the weight give the same sums; at rest a round floater's
+        integrand depends on the radius alone (one node per ring) and a cuboid's is even
+        in ``x`` too (a quarter).
         """
-        u0 = self.energy(distance)
-        u1 = self.energy(distance, (0.0, step, 0.0))
+        a = float(distance)
+        xy, w = self._plane_nodes(a, full=True)
+        half = xy[:, 1] > 0
+        u1 = self._energy_on(a, xy[half], 2.0 * w[half], (0.0, step, 0.0))
+        if self.floater.shape == "cuboid":
+            quarter = half & (xy[:, 0] > 0)
+            u0 = self._energy_on(a, xy[quarter], 4.0 * w[quarter])
+        else:
+            rings = xy.reshape(-1, _N_PHI, 2)[:, 0, :]
+            u0 = self._energy_on(a, np.column_stack([np.hypot(rings[:, 0], rings[:, 1]), np.zeros(len(rings))]),
+                                 w.reshape(-1, _N_PHI).sum(axis=1))
         return 2.0 * (u1 - u0) / step**2

@@ -26,7 +26,14 @@ from scipy.optimize import brentq
 from matdb.errors import InputError, PhysicsError
 from matdb.physics.floating.body import Body, BodySet
 from matdb.physics.floating.dipole import dipole_plates_stiffness, dipole_plates_tilt_stiffness
-from matdb.physics.floating.lifter import lifter_force, lifter_hessian, lifter_stiffness, pull_table
+from matdb.physics.floating.lifter import (
+    axial_pull,
+    lifter_force,
+    lifter_forces,
+    lifter_hessian,
+    lifter_stiffness,
+    pull_table,
+)
 from matdb.physics.floating.plates import FinitePlates
 from matdb.physics.thermal import br_at, chi_at
 
@@ -89,7 +96,8 @@ class StationModel:
         self.others: tuple = ()
         self._table = pull_table(lifter, self.floater)
         self._scale = float(lifter.j_t) * float(self.floater.j_t)  # the pull is bilinear in J_l, J_f
-        self._f_others, self._k_others = 0.0, 0.0
+        self._f_others, self._k_others = 0.0, (0.0, 0.0)
+        self._h = 1e-4 * max(self.floater.height, self.floater.lateral)  # lifter_stiffness's default step
 
     # -- lifter
     def lifter_at(self, distance: float) -> Body:
@@ -103,9 +111,9 @@ class StationModel:
         if self.others:
             src = BodySet(self.others)
             self._f_others = float(lifter_force(src, self.floater)[2])
-            self._k_others = float(lifter_stiffness(src, self.floater)[0])
+            self._k_others = lifter_stiffness(src, self.floater, self._h)
         else:
-            self._f_others, self._k_others = 0.0, 0.0
+            self._f_others, self._k_others = 0.0, (0.0, 0.0)
 
     def source(self, distance: float):
         """What pulls on the floater: its lifter at ``distance`` plus any other lifters."""
@@ -113,12 +121,25 @@ class StationModel:
         return BodySet((own,) + self.others) if self.others else own
 
     def force(self, distance: float) -> float:
-        """Upward pull of the lifter at lifter distance ``distance`` [N]."""
-        return float(lifter_force(self.source(distance), self.floater)[2])
+        """Upward pull at lifter distance ``distance`` [N]: the quadrature of
+        :func:`~matdb.physics.floating.lifter.lifter_force`, the own lifter's part on the
+        axis (:func:`~matdb.physics.floating.lifter.axial_pull`) plus the other lifters'
+        (fixed, computed once)."""
+        return float(axial_pull(self.lifter0, self.floater, distance)[0]) + self._f_others
+
+    def k_z(self, distance: float) -> float:
+        """The lifter's vertical stiffness ``k_z = -dF_z/dz`` at ``distance`` [N/m]: the
+        central difference of :func:`~matdb.physics.floating.lifter.lifter_stiffness`
+        (raising the floater by ``h`` is lowering the lifter by ``h``)."""
+        h = self._h
+        f = axial_pull(self.lifter0, self.floater, [distance - h, distance + h])
+        return float(-(f[0] - f[1]) / (2 * h)) + self._k_others[0]
 
     def stiffness(self, distance: float) -> tuple[float, float]:
-        """``(k_z, k_r)`` of the lifter at ``distance`` [N/m]."""
-        return lifter_stiffness(self.source(distance), self.floater)
+        """``(k_z, k_r)`` of the lifter (and any other lifters) at ``distance`` [N/m]."""
+        h = self._h
+        fx = lifter_forces(self.lifter_at(distance), self.floater, [[h, 0.0, 0.0], [-h, 0.0, 0.0]])[:, 0]
+        return self.k_z(distance), float(-(fx[0] - fx[1]) / (2 * h)) + self._k_others[1]
 
     def pull(self, distance):
         """The pull at lifter distances ``distance`` from the table (:class:`PullTable`;
@@ -128,7 +149,7 @@ class StationModel:
     def pull_slope(self, distance):
         """``dF/dD`` at lifter distances ``distance`` from the table [N/m]; the lifter's
         ``k_z`` (moving the lifter down is moving the floater up)."""
-        return self._scale * self._table.slope(distance) + self._k_others
+        return self._scale * self._table.slope(distance) + self._k_others[0]
 
     def _grid(self):
         """Every other node of the pull table: lifter distances and pulls [m, N]."""
@@ -213,7 +234,7 @@ class StationModel:
         lo = max(d_peak, d_clear)
 
         def margin(x):
-            return self.stiffness(x)[0] + kp
+            return self.k_z(x) + kp
 
         def margin_table(x):
             return self.pull_slope(x) + kp if x <= self._table.d[-1] else margin(x)
@@ -341,7 +362,7 @@ def schedule_row(model: StationModel, weight_n: float, d_empty: Optional[float],
                  "lifter_distance_drift_um_per_k": None, "k_lifter_z_n_m": None, "k_z_total_n_m": None}
     if D is None:
         return row
-    kz, _ = model.stiffness(D)
+    kz = model.k_z(D)
     a_max = model.max_plate_distance(kz)
     hi = None if a_max is None else min(a_max, D - model.t)
     if hi is not None and hi >= model.a_min:
