@@ -55,7 +55,7 @@ import math
 import numpy as np
 
 from matdb.errors import InputError
-from matdb.units import MU0
+from matdb.constants import MU0
 
 __all__ = [
     "CuboidSet",
