@@ -97,7 +97,7 @@ import numpy as np
 from scipy import optimize
 
 from matdb.errors import InputError
-from matdb.units import G_STANDARD, MU0
+from matdb.constants import G_STANDARD, MU0
 
 FieldFn = Callable[[np.ndarray], np.ndarray]
 
