@@ -35,7 +35,7 @@ from matdb.data.models import (
     SusceptibilityValue,
     ValueProvenance,
 )
-from matdb.units import CONVENTIONS, celsius_to_kelvin, chi_to_si_volume, ureg
+from matdb.units import CONVENTIONS, celsius_to_kelvin, chi_to_si_volume, quantity
 
 SLUG_RE = re.compile(r"^[a-z0-9]+(-[a-z0-9]+)*$")
 SOURCE_KINDS = ("handbook", "standard", "paper", "datasheet", "common-practice", "lab")
@@ -429,7 +429,7 @@ def _parse_properties(folder: Path, out: SeedSet, keys: set[str], material_ids: 
             if PROPERTY_UNITS[prop] == "K" and unit in ("degC", "C", "°C"):
                 si = celsius_to_kelvin(val)
             else:
-                si = float(ureg.Quantity(val, unit).to(PROPERTY_UNITS[prop]).magnitude)
+                si = float(quantity(val, unit).to(PROPERTY_UNITS[prop]).magnitude)
         except Exception as exc:  # pint raises several kinds
             raise r.err("unit_published", f"cannot convert {unit!r} to {PROPERTY_UNITS[prop]} ({exc})") from None
         skey = r.text("source_key")
