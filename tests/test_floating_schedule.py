@@ -23,9 +23,9 @@ from scipy.optimize import brentq
 from matdb.design.floating import parse_payload_range, parse_stabilized, to_toml
 from matdb.errors import InputError
 from matdb.analysis.floating import levitate_stabilized
+from matdb.constants import MU0
 from matdb.physics import floating as S
 from matdb.reporting.floating_text import format_table
-from matdb.units import MU0
 
 REPO = Path(__file__).resolve().parent.parent
 EXAMPLE = REPO / "examples" / "floating_magnet.toml"

@@ -16,10 +16,10 @@ from scipy import integrate
 
 from matdb.errors import InputError
 from matdb.analysis.floating import levitate_stabilized
+from matdb.constants import MU0
 from matdb.physics import floating as S
-from matdb.physics.floating._gauss import composite
+from matdb.physics.quadrature import gauss_panels
 from matdb.physics.floating.plates import panel_edges
-from matdb.units import MU0
 
 REPO = Path(__file__).resolve().parent.parent
 EXAMPLE = REPO / "examples" / "floating_magnet.toml"
@@ -200,7 +200,7 @@ def test_plate_stiffness_quadrature_converges_as_the_plates_close_in():
         coarse = fp.plane_integral_slope(s)
         # halve every panel: recompute with twice the Gauss order on the same edges
         r_edges = panel_edges(fp._features()[0], gap, 1e3 * (s + FLOATER.lateral))
-        r, wr = composite(r_edges, 16)
+        r, wr = gauss_panels(r_edges, 16)
         d = 1e-3 * gap
         vals = []
         for z in s + d * np.array([-2.0, -1.0, 1.0, 2.0]):

@@ -34,7 +34,7 @@ from matdb.physics.floating.station import (
 )
 from matdb.physics.floating.stations import body_stiffness, coupled_heights, weight_shares
 from matdb.physics.thermal import SAFETY_TEXT, safe_distance
-from matdb.units import G_STANDARD
+from matdb.constants import G_STANDARD
 
 __all__ = ["DIPOLE_NOTE", "levitate_stabilized", "station_report", "schedule", "window_min"]
 

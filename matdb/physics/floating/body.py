@@ -20,7 +20,7 @@ import numpy as np
 
 from matdb.errors import InputError
 from matdb.physics.fields import MagnetSet
-from matdb.units import MU0
+from matdb.constants import MU0
 
 __all__ = ["Body", "BodySet"]
 

@@ -16,7 +16,7 @@ import math
 
 import numpy as np
 
-from matdb.units import MU0
+from matdb.constants import MU0
 
 __all__ = ["effective_chi", "dipole_plate_force", "dipole_plates_stiffness", "dipole_plates_tilt_stiffness"]
 

@@ -25,9 +25,9 @@ import numpy as np
 from scipy.interpolate import CubicSpline
 from scipy.spatial.transform import Rotation
 
-from matdb.physics.floating._gauss import gl_on
+from matdb.physics.quadrature import gauss_on
 from matdb.physics.floating.body import Body
-from matdb.units import MU0
+from matdb.constants import MU0
 
 __all__ = ["lifter_force", "lifter_forces", "lifter_stiffness", "lifter_energy", "lifter_energies",
            "lifter_hessian", "axial_pull", "PullTable", "pull_table"]
@@ -37,12 +37,12 @@ __all__ = ["lifter_force", "lifter_forces", "lifter_stiffness", "lifter_energy",
 def _face_rule(shape: str, size: tuple, n: int, n_phi: int) -> tuple[np.ndarray, np.ndarray]:
     s = size
     if shape == "cuboid":
-        x, wx = gl_on(-0.5 * s[0], 0.5 * s[0], n)
-        y, wy = gl_on(-0.5 * s[1], 0.5 * s[1], n)
+        x, wx = gauss_on(-0.5 * s[0], 0.5 * s[0], n)
+        y, wy = gauss_on(-0.5 * s[1], 0.5 * s[1], n)
         X, Y = np.meshgrid(x, y, indexing="ij")
         return np.column_stack([X.ravel(), Y.ravel()]), np.outer(wx, wy).ravel()
     r0 = 0.0 if shape == "cylinder" else 0.5 * s[1]
-    r, wr = gl_on(r0, 0.5 * s[0], n)
+    r, wr = gauss_on(r0, 0.5 * s[0], n)
     phi = (np.arange(n_phi) + 0.5) * (2 * math.pi / n_phi)
     R, P = np.meshgrid(r, phi, indexing="ij")
     W = np.outer(wr * r, np.full(n_phi, 2 * math.pi / n_phi))
@@ -58,7 +58,7 @@ def _face_nodes(body: Body, n: int = 12, n_phi: int = 24) -> tuple[np.ndarray, n
 @lru_cache(maxsize=256)
 def _volume_rule(shape: str, size: tuple, n: int = 10, n_phi: int = 24, n_z: int = 8):
     xy, w = _face_rule(shape, size, n, n_phi)
-    z, wz = gl_on(-0.5 * size[-1], 0.5 * size[-1], n_z)
+    z, wz = gauss_on(-0.5 * size[-1], 0.5 * size[-1], n_z)
     pts = np.column_stack([np.repeat(xy, z.size, axis=0), np.tile(z, xy.shape[0])])
     return pts, np.repeat(w, z.size) * np.tile(wz, xy.shape[0])
 

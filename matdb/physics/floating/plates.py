@@ -21,9 +21,9 @@ from scipy.interpolate import CubicSpline
 from scipy.spatial.transform import Rotation
 
 from matdb.errors import InputError
-from matdb.physics.floating._gauss import composite
+from matdb.physics.quadrature import gauss_panels
 from matdb.physics.floating.body import Body
-from matdb.units import MU0
+from matdb.constants import MU0
 
 __all__ = ["FinitePlates", "panel_edges"]
 
@@ -144,13 +144,13 @@ class FinitePlates:
         hw = None if self.width is None else 0.5 * self.width
         if fy is None:
             if hw is None:
-                r, wr = composite(panel_edges(fx, g, far), 8 if not full else 6)
+                r, wr = gauss_panels(panel_edges(fx, g, far), 8 if not full else 6)
                 arc = np.full(r.size, 2 * math.pi)
             else:
                 corner = math.sqrt(2.0) * hw
                 e = panel_edges(list(fx) + [hw], g, corner)
                 e = np.unique(np.concatenate([e[e < corner], [hw, corner]]))
-                r, wr = composite(e, 8 if not full else 6)
+                r, wr = gauss_panels(e, 8 if not full else 6)
                 with np.errstate(invalid="ignore"):
                     arc = np.where(r <= hw, 2 * math.pi,
                                    8 * (math.pi / 4 - np.arccos(np.minimum(1.0, hw / np.maximum(r, 1e-300)))))
@@ -171,8 +171,8 @@ class FinitePlates:
         if hw is not None:
             ex = np.unique(np.concatenate([ex[ex < hw], [hw]]))
             ey = np.unique(np.concatenate([ey[ey < hw], [hw]]))
-        x, wx = composite(ex, 5)
-        y, wy = composite(ey, 5)
+        x, wx = gauss_panels(ex, 5)
+        y, wy = gauss_panels(ey, 5)
         X, Y = np.meshgrid(x, y, indexing="ij")
         xy = np.column_stack([X.ravel(), Y.ravel()])
         w = np.outer(wx, wy).ravel()
@@ -284,7 +284,7 @@ class FinitePlates:
         """:meth:`energy` on the plane nodes ``xy`` with weights ``w`` [m^2]."""
         g = a - self.h2
         edges = [a] + [a + g * 2.0**k for k in range(-2, 60) if g * 2.0**k < self.t] + [a + self.t]
-        z, wz = composite(np.unique(edges), 3)
+        z, wz = gauss_panels(np.unique(edges), 3)
         pts = np.column_stack([np.repeat(xy, z.size, axis=0), np.tile(z, xy.shape[0])])
         ww = np.repeat(w, z.size) * np.tile(wz, xy.shape[0])
         R = Rotation.from_rotvec(np.asarray(rotvec, dtype=float)).as_matrix()

@@ -23,6 +23,7 @@ from typing import Optional
 import numpy as np
 from scipy.optimize import brentq
 
+from matdb.constants import T_REF_K
 from matdb.errors import InputError, PhysicsError
 from matdb.physics.floating.body import Body, BodySet
 from matdb.physics.floating.dipole import dipole_plates_stiffness, dipole_plates_tilt_stiffness
@@ -312,7 +313,7 @@ def lift_temperature_slope(st, temp_k: float) -> float:
     ``dT = T - 20 C`` (linear law of IEC 60404-8-1). The plates do not enter: at the
     symmetric plate position their vertical forces cancel.
     """
-    dt = float(temp_k) - 293.15
+    dt = float(temp_k) - T_REF_K
     out = 0.0
     for a in (st.lifter.alpha_br_pct_per_k, st.floater.alpha_br_pct_per_k):
         out += a / (100.0 + a * dt)
