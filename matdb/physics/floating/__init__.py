@@ -51,6 +51,8 @@ References
    Pergamon (1984), sec. 32 (energy of a weakly magnetic body, ``-chi B^2/(2 mu0)``).
 """
 
+from matdb.physics.floating import lifter as _lifter
+from matdb.physics.floating import plates as _plates
 from matdb.physics.floating.body import Body, BodySet
 from matdb.physics.floating.dipole import (
     dipole_plate_force,
@@ -100,4 +102,11 @@ __all__ = [
     "weight_shares",
     "body_stiffness",
     "coupled_heights",
+    "clear_tables",
 ]
+
+
+def clear_tables() -> None:
+    """Forget the pull tables and the plates' tables (for timing a cold start)."""
+    _lifter._pull_table.cache_clear()
+    _plates._TABLES.clear()

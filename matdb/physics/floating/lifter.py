@@ -287,9 +287,11 @@ class PullTable:
     The pull is bilinear in the two polarisations (superposition, Jackson (1999)
     sec. 5.9), so ``F(D) = J_l J_f F_1(D)`` at any temperature. ``F_1`` is a cubic
     spline in ``log u``; :attr:`error` is its largest deviation from
-    :func:`axial_pull` halfway between nodes, relative to the peak pull. Callers that
-    need the quadrature's own value polish a root found on the table with a few direct
-    evaluations.
+    :func:`axial_pull` halfway between nodes, relative to the peak pull. With 179
+    nodes it stays below ``1e-6`` of the peak pull (about ``2e-7`` for cylinders, cuboids
+    and rings; checked in the tests against :func:`lifter_force`), and the slope below
+    ``1e-4`` of its largest value. Callers that need the quadrature's own value polish a
+    root found on the table with a few direct evaluations.
     """
 
     def __init__(self, lifter: Body, floater: Body, n: int = 179):
