@@ -6,12 +6,7 @@ design search read.
 The physics is in :mod:`matdb.physics.floating` (bodies, lifter, plates, one station,
 several stations); this module puts it together and words the warnings.
 
-References
-----------
-.. [1] M. D. Simon, L. O. Heflinger and A. K. Geim, "Diamagnetically stabilized magnet
-   levitation", Am. J. Phys. 69, 702-713 (2001).
-.. [2] M. D. Simon and A. K. Geim, "Diamagnetic levitation: Flying frogs and floating
-   magnets", J. Appl. Phys. 87, 6200-6204 (2000).
+The models and their references are listed in :mod:`matdb.physics.floating`.
 """
 
 from __future__ import annotations

@@ -80,10 +80,7 @@ def dipole_plate_force(moment, chi, distance, thickness=math.inf):
     .. [1] M. D. Simon, L. O. Heflinger and A. K. Geim, Am. J. Phys. 69, 702 (2001);
        J. D. Jackson, Classical Electrodynamics, 3rd ed. (1999), sec. 4.4.
     """
-    a = np.asarray(distance, dtype=float)
-    far = 0.0 if math.isinf(thickness) else (a + thickness) ** -4
-    out = 3 * MU0 * abs(chi) * moment**2 / (64 * math.pi) * (a**-4 - far)
-    return float(out) if np.ndim(out) == 0 else out
+    return 3 * MU0 * abs(chi) * moment**2 / (64 * math.pi) * _slab(distance, thickness, 4)
 
 
 def dipole_plates_stiffness(moment, chi, distance, thickness=math.inf):
@@ -91,14 +88,9 @@ def dipole_plates_stiffness(moment, chi, distance, thickness=math.inf):
 
     Parameters
     ----------
-    moment : float
-        Dipole moment [A m^2].
-    chi : float
-        SI volume susceptibility (use :func:`effective_chi` for graphite) [1].
-    distance : float or ndarray
-        Dipole to each plate's facing surface [m].
-    thickness : float
-        Plate thickness [m]; ``inf`` for half-spaces.
+    moment, chi, distance, thickness
+        As in :func:`dipole_plate_force`, for each of the two plates (use
+        :func:`effective_chi` for graphite) [A m^2, 1, m, m].
 
     Returns
     -------
@@ -118,10 +110,7 @@ def dipole_plates_stiffness(moment, chi, distance, thickness=math.inf):
     ----------
     .. [1] M. D. Simon, L. O. Heflinger and A. K. Geim, Am. J. Phys. 69, 702 (2001).
     """
-    a = np.asarray(distance, dtype=float)
-    far = 0.0 if math.isinf(thickness) else (a + thickness) ** -5
-    out = 3 * MU0 * abs(chi) * moment**2 / (8 * math.pi) * (a**-5 - far)
-    return float(out) if np.ndim(out) == 0 else out
+    return 3 * MU0 * abs(chi) * moment**2 / (8 * math.pi) * _slab(distance, thickness, 5)
 
 
 def dipole_plates_tilt_stiffness(moment, chi, distance, thickness=math.inf):
@@ -152,7 +141,12 @@ def dipole_plates_tilt_stiffness(moment, chi, distance, thickness=math.inf):
     .. [1] J. D. Jackson, Classical Electrodynamics, 3rd ed. (1999), sec. 4.4 (images
        at a plane boundary) and eq. (5.56).
     """
+    return -MU0 * abs(chi) * moment**2 / (32 * math.pi) * _slab(distance, thickness, 3)
+
+
+def _slab(distance, thickness, power: int):
+    """``a^-p - (a + t)^-p``: to first order in chi a slab of thickness ``t`` is a
+    half-space at ``a`` minus one at ``a + t`` (a float for a scalar ``distance``)."""
     a = np.asarray(distance, dtype=float)
-    far = 0.0 if math.isinf(thickness) else (a + thickness) ** -3
-    out = -MU0 * abs(chi) * moment**2 / (32 * math.pi) * (a**-3 - far)
+    out = a**-power - (0.0 if math.isinf(thickness) else (a + thickness) ** -power)
     return float(out) if np.ndim(out) == 0 else out
