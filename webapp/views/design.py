@@ -14,9 +14,9 @@ from webapp import _downloads
 from webapp import _shared as sh
 
 st.title("Design")
-design_mod = sh.module_or_none("matdb.design.plate")
+design_mod = sh.module_or_none("matdb.design")
 lev_mod = sh.module_or_none("matdb.analysis.levitate")
-design_mod_stab = sh.module_or_none("matdb.design.floating")
+design_mod_stab = sh.module_or_none("matdb.design")
 if design_mod is None or lev_mod is None:
     sh.not_available("The Design page")
     st.stop()
@@ -334,7 +334,7 @@ with right:
                                            progress=lambda f, t="": bar.progress(min(max(f, 0.0), 1.0), text=t[:90]))
                         best = next((d for r, d in zip(res.rows, res.designs) if r["feasible"] and d is not None),
                                     None)
-                        best_text = None if best is None else design_mod_stab.to_toml(best)
+                        best_text = None if best is None else design_mod_stab.design_to_toml(best)
                         st.session_state["fm_search"] = (synth.records(res), res.message, res.notes, best_text)
                     except MatdbError as exc:
                         st.error(sh.plain(f"search: {exc}"))
