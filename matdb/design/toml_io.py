@@ -170,26 +170,26 @@ def _shape_size(t: dict, key: str, shapes: tuple[str, ...], default: str | None)
     return shape, _size(raw, shape, f"{key}.size")
 
 
-def _grade(name: Any, key: str):
-    """The catalogue's GradeProps of ``name``."""
+def _catalogue(lookup, name: Any, key: str, expected: str):
+    """``lookup(name)`` from the catalogue; an unknown name is an error naming ``key``."""
     if not isinstance(name, str) or not name.strip():
-        raise InputError(f"{key}: expected a grade name such as \"N42\", got {name!r}")
+        raise InputError(f"{key}: expected {expected}, got {name!r}")
     try:
-        return get_grade(name.strip())
+        return lookup(name.strip())
     except NotFoundError as exc:
         msg = str(exc)
-        raise InputError(f"{key}: {msg.split(': ', 1)[1] if msg.startswith('grade: ') else msg}") from exc
+        raise InputError(f"{key}: {msg.split(': ', 1)[1] if msg.split(': ', 1)[0] in ('grade', 'material') else msg}"
+                         ) from exc
+
+
+def _grade(name: Any, key: str):
+    """The catalogue's GradeProps of ``name``."""
+    return _catalogue(get_grade, name, key, "a grade name such as \"N42\"")
 
 
 def _material(name: Any, key: str):
     """The catalogue's MaterialProps of ``name``."""
-    if not isinstance(name, str) or not name.strip():
-        raise InputError(f"{key}: expected a material id such as \"pyrolytic-graphite\", got {name!r}")
-    try:
-        return get_material(name.strip())
-    except NotFoundError as exc:
-        msg = str(exc)
-        raise InputError(f"{key}: {msg.split(': ', 1)[1] if msg.startswith('material: ') else msg}") from exc
+    return _catalogue(get_material, name, key, "a material id such as \"pyrolytic-graphite\"")
 
 
 def _br(value: Any, key: str) -> float:
