@@ -1,4 +1,4 @@
-"""Floating-magnet design files (matdb.design.floating): parsing, refusals, round trip.
+"""Floating-magnet design files (matdb.design.toml_io, matdb.design.model): parsing, refusals, round trip.
 
 Unit conversions are checked against their definitions (1 in = 25.4 mm exactly, by the
 1959 international yard and pound agreement; 1 g = 1e-3 kg; 0 degC = 273.15 K, SI
