@@ -72,8 +72,18 @@ def test_fmt_number_three_significant_digits(value):
     # significant-figure rounding as Python's own "%.3g" does it (the value read back agrees)
     text = P.fmt_number(value)
     assert float(text) == pytest.approx(float("%.3g" % value), rel=1e-12)
-    digits = text.lstrip("-").split("e")[0].replace(".", "").lstrip("0")
-    assert len(digits) == 3 or value in (1399.7,)  # 1400: trailing zeros of an integer
+
+
+@pytest.mark.parametrize("value", [0.6412, 12.71, 0.0123456, 9.996, 0.5, 7.0, -3.14159, 123456.0, 4.2e-5])
+def test_fmt_number_shows_three_digits(value):
+    # three significant digits on screen, trailing zeros kept ("0.500", "7.00")
+    digits = P.fmt_number(value).lstrip("-").split("e")[0].replace(".", "").lstrip("0")
+    assert len(digits) == 3
+
+
+def test_fmt_number_whole_numbers_print_without_a_decimal_point():
+    # 1399.7 to three significant digits is 1400 ("%.3g" gives 1.4e+03): printed as a whole number
+    assert P.fmt_number(1399.7) == "1400"
 
 
 def test_fmt_number_units_and_missing():

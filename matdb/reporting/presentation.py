@@ -368,7 +368,7 @@ def grade_max_temp_marks(curves: pd.DataFrame) -> pd.DataFrame:
 # design page
 # ---------------------------------------------------------------------------
 
-def _split_lengths(text: str) -> list[str]:
+def split_lengths(text: str) -> list[str]:
     """"12.7 mm, 12.7 mm, 5 mm" or "12.7 mm x 12.7 mm x 5 mm" -> list of length strings."""
     parts = [p.strip() for p in re.split(r",|\s+x\s+", str(text)) if p.strip()]
     return parts
@@ -383,11 +383,11 @@ def design_text_from_fields(f: dict) -> str:
     ``min_gap``, ``temperature`` (or ``temp_min`` and ``temp_max``). The text is parsed
     by :func:`matdb.design.toml_io.load_design_text`, which names any bad key.
     """
-    mags = {"shape": f["shape"], "size": _split_lengths(f["size"]), "grade": f["grade"],
+    mags = {"shape": f["shape"], "size": split_lengths(f["size"]), "grade": f["grade"],
             "pattern": f["pattern"], "rows": int(f.get("rows", 1)), "cols": int(f.get("cols", 1)),
             "spacing": f.get("spacing") or "0 mm", "back_plate": bool(f.get("back_plate", False)),
             "cover": f.get("cover") or "0 mm"}
-    plate = {"material": f["material"], "shape": f["plate_shape"], "size": _split_lengths(f["plate_size"]),
+    plate = {"material": f["material"], "shape": f["plate_shape"], "size": split_lengths(f["plate_size"]),
              "payload": f.get("payload") or "0 g"}
     for k in ("payload_height", "min_gap"):
         if f.get(k):

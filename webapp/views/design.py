@@ -74,7 +74,7 @@ with left:
         size_help = {"cuboid": "x, y, height", "cylinder": "diameter, height",
                      "ring": "outer diameter, inner diameter, height"}[shape]
         size = st.text_input(f"Magnet size ({size_help})", key="d_size")
-        for i, part in enumerate(presentation._split_lengths(size)):
+        for i, part in enumerate(presentation.split_lengths(size)):
             sh.checked(lambda v: parse_length(v, "size", positive=True), part, f"magnet size, value {i + 1}")
         grade = st.selectbox("Grade", glist, key="d_grade")
         pattern = st.selectbox("Arrangement", list(presentation.FORM_PATTERNS), key="d_pattern")
@@ -91,7 +91,7 @@ with left:
         pshape = st.selectbox("Plate shape", ["rectangle", "disc"], key="d_pshape")
         psize = st.text_input("Plate size (" + ("x, y, thickness" if pshape == "rectangle" else "diameter, thickness")
                               + ")", key="d_psize")
-        for i, part in enumerate(presentation._split_lengths(psize)):
+        for i, part in enumerate(presentation.split_lengths(psize)):
             sh.checked(lambda v: parse_length(v, "plate size", positive=True), part, f"plate size, value {i + 1}")
         payload = st.text_input("Payload mass", key="d_payload")
         sh.checked(lambda v: parse_mass(v, "payload"), payload, "payload mass")
