@@ -21,7 +21,8 @@ import math
 from dataclasses import dataclass, field
 from typing import Any, Optional
 
-from matdb.physics.arrangement import build_arrangement
+from matdb.physics.arrangement import PATTERNS, SHAPES, build_arrangement
+from matdb.physics.arrangement import SIZE_FORMS as MAGNET_SIZE_FORMS
 from matdb.physics.thermal import br_at, worst_case_br
 
 __all__ = [
@@ -37,15 +38,13 @@ T20_K = 293.15
 #: published figure: room for the floater to move and for plates that are not flat) [m].
 DEFAULT_CLEARANCE_M = 0.5e-3
 
-MAGNET_SHAPES = ("cuboid", "cylinder", "ring")
+MAGNET_SHAPES = SHAPES
 PLATE_SHAPES = ("rectangle", "disc")
-PATTERNS = ("single", "checkerboard", "stripes", "grid", "list")
 
-#: Per shape: how many lengths its ``size`` holds and in which order (design-file form).
+#: Per shape: how many lengths its ``size`` holds and in which order (design-file form):
+#: the magnet shapes of :data:`matdb.physics.arrangement.SIZE_FORMS` and the plate shapes.
 SIZE_FORMS = {
-    "cuboid": (3, "[x, y, height]"),
-    "cylinder": (2, "[diameter, height]"),
-    "ring": (3, "[outer diameter, inner diameter, height]"),
+    **MAGNET_SIZE_FORMS,
     "rectangle": (3, "[x, y, thickness]"),
     "disc": (2, "[diameter, thickness]"),
 }
