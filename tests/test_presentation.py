@@ -46,6 +46,8 @@ def test_grade_curves_validation_and_marks():
     # IEC 60404-8-1: Br(T) = Br20 (1 + alpha/100 (T - 20 C)); at 20 C exactly Br20
     at20 = np.interp(20.0, curves["temp_c"], curves["br_t"])
     assert at20 == pytest.approx(g.br_t, rel=1e-12)
+    # lift over a diamagnet scales with B^2 (Berry and Geim 1997), hence with (Br/Br20)^2
+    assert curves["relative_lift"].to_numpy() == pytest.approx((curves["br_t"] / g.br_t).to_numpy() ** 2, rel=1e-12)
     marks = P.grade_max_temp_marks(curves)
     assert list(marks["max_temp_c"]) == [g.max_temp_c]
     with pytest.raises(InputError, match="min < max"):

@@ -27,7 +27,7 @@ from matdb.design import PlateDesign, body_volume, design_to_toml, document_to_t
 from matdb.errors import InputError
 from matdb.output import csv_text
 from matdb.physics.levitation import levitation_requirement
-from matdb.physics.thermal import br_at
+from matdb.physics.thermal import br_at, lift_factor
 from matdb.units import CONVENTIONS, chi_from_si_volume
 
 # ---------------------------------------------------------------------------
@@ -292,7 +292,7 @@ def grade_temperature_curves(grades_df: pd.DataFrame, grades: Sequence[str],
 
     Long format, one row per grade and temperature: ``grade``, ``temp_c``, ``br_t``
     (from :func:`matdb.physics.thermal.br_at`), ``relative_lift`` (lift over a
-    diamagnet scales with B^2, hence with Br^2), ``max_temp_c`` and ``beyond_max``
+    diamagnet scales with B^2, hence with Br^2: :func:`matdb.physics.thermal.lift_factor`), ``max_temp_c`` and ``beyond_max``
     (True above the grade's maximum working temperature, where the linear model no
     longer describes a usable magnet).
     """
@@ -317,7 +317,8 @@ def grade_temperature_curves(grades_df: pd.DataFrame, grades: Sequence[str],
         tmax = float(row["max_temp_c"])
         parts.append(pd.DataFrame({
             "grade": g, "family": row["family"], "temp_c": t_c, "br_t": br,
-            "relative_lift": (br / br20) ** 2, "max_temp_c": tmax, "beyond_max": t_c > tmax,
+            "relative_lift": np.asarray(lift_factor(float(row["alpha_br_pct_per_k"]), t_k), dtype=float),
+            "max_temp_c": tmax, "beyond_max": t_c > tmax,
         }))
     if not parts:
         return pd.DataFrame(columns=["grade", "family", "temp_c", "br_t", "relative_lift", "max_temp_c", "beyond_max"])
