@@ -39,6 +39,7 @@ from typing import Iterable
 
 import pint
 
+from matdb.constants import DENSITY_RANGE_KG_M3
 from matdb.errors import InputError
 from matdb.limits import check_chi, check_magnitude, check_temperature
 
@@ -46,9 +47,6 @@ ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
 ureg.define("MGOe = 1e5 / (4 * pi) * J / m**3")
 ureg.define("USD = [currency]")
 Q_ = ureg.Quantity
-
-MU0 = 4e-7 * math.pi * 1.00000000055  # vacuum permeability, CODATA 2018 [T m / A]
-G_STANDARD = 9.80665  # standard gravity [m/s^2] (CGPM 1901)
 
 CONVENTIONS = ("si-volume", "cgs-volume", "si-mass", "cgs-mass", "si-molar", "cgs-molar")
 
@@ -235,19 +233,12 @@ def parse_temperature(text, field: str) -> float:
     return k
 
 
-def kelvin_to_celsius(t_k: float) -> float:
-    return t_k - 273.15
-
-
-def celsius_to_kelvin(t_c: float) -> float:
-    return t_c + 273.15
-
-
 def parse_density(text, field: str = "density") -> float:
-    """Density in kg/m^3, refusing values outside 1 to 25000 kg/m^3."""
+    """Density in kg/m^3, refusing values outside :data:`matdb.constants.DENSITY_RANGE_KG_M3`."""
     v = parse_quantity(text, "kg/m^3", field)
-    if not (1.0 <= v <= 25000.0):
-        raise InputError(f"{field}: density {text!r} is outside 1 to 25000 kg/m^3")
+    lo, hi = DENSITY_RANGE_KG_M3
+    if not (lo <= v <= hi):
+        raise InputError(f"{field}: density {text!r} is outside {lo:g} to {hi:g} kg/m^3")
     return v
 
 

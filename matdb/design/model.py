@@ -21,18 +21,16 @@ import math
 from dataclasses import dataclass, field
 from typing import Any, Optional
 
+from matdb.constants import T_REF_K
 from matdb.physics.arrangement import PATTERNS, SHAPES, build_arrangement
 from matdb.physics.arrangement import SIZE_FORMS as MAGNET_SIZE_FORMS
 from matdb.physics.thermal import br_at, worst_case_br
 
 __all__ = [
-    "T20_K", "DEFAULT_CLEARANCE_M", "MAGNET_SHAPES", "PLATE_SHAPES", "PATTERNS", "SIZE_FORMS",
+    "DEFAULT_CLEARANCE_M", "MAGNET_SHAPES", "PLATE_SHAPES", "PATTERNS", "SIZE_FORMS",
     "body_volume", "MagnetItem", "MagnetSpec", "PlateSpec", "Conditions", "PlateDesign",
     "SingleMagnet", "PlatesSpec", "Station", "PayloadSpec", "StabilizedDesign",
 ]
-
-#: Reference temperature of catalogue values (20 degC) [K].
-T20_K = 293.15
 
 #: matdb's default smallest gap between a floater's face and a plate (a choice, not a
 #: published figure: room for the floater to move and for plates that are not flat) [m].
@@ -190,12 +188,12 @@ class Conditions:
             return self.temp_max_k
         if self.temp_min_k is not None:
             return self.temp_min_k
-        return T20_K
+        return T_REF_K
 
     def extremes(self, extra_k: float | None = None) -> tuple[float, float]:
         """Coldest and hottest temperature named anywhere (plus ``extra_k``) [K]."""
         ts = [t for t in (self.temperature_k, self.temp_min_k, self.temp_max_k, extra_k)
-              if t is not None] or [T20_K]
+              if t is not None] or [T_REF_K]
         return min(ts), max(ts)
 
 
@@ -434,7 +432,7 @@ class StabilizedDesign:
     stations: tuple
     payload: Optional[PayloadSpec] = None
     multi: bool = False
-    temperature_k: float = T20_K
+    temperature_k: float = T_REF_K
     temp_min_k: Optional[float] = None
     temp_max_k: Optional[float] = None
     name: str = ""

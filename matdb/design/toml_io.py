@@ -45,9 +45,10 @@ from typing import Any
 import tomli_w
 
 from matdb import limits
+from matdb.constants import T_REF_K, kelvin_to_celsius
 from matdb.data.catalog import get_grade, get_material
 from matdb.design.model import (DEFAULT_CLEARANCE_M, MAGNET_SHAPES, PATTERNS, PLATE_SHAPES, SIZE_FORMS,
-                                T20_K, Conditions, MagnetItem, MagnetSpec, PayloadSpec, PlateDesign,
+                                Conditions, MagnetItem, MagnetSpec, PayloadSpec, PlateDesign,
                                 PlatesSpec, PlateSpec, SingleMagnet, StabilizedDesign, Station)
 from matdb.errors import InputError, NotFoundError
 from matdb.physics.dynamics import Hole, Slots, outline_pieces, plate_outline
@@ -474,7 +475,7 @@ def parse_stabilized(doc: dict, source: str | None = None) -> StabilizedDesign:
     tmin, tmax = cond.temp_min_k, cond.temp_max_k
     temp = cond.temperature_k
     if temp is None:
-        temp = T20_K if tmin is None else 0.5 * (tmin + tmax)
+        temp = T_REF_K if tmin is None else 0.5 * (tmin + tmax)
     prange = parse_payload_range(doc["payload_range"], "payload_range") if "payload_range" in doc else None
     defaults = {part: _check_keys(doc[part], allowed, part)
                 for part, allowed in (("lifter", LIFTER_KEYS), ("floater", FLOATER_KEYS), ("plates", PLATES_KEYS))
@@ -623,7 +624,7 @@ def exact_quantity(value: float, unit: str, human: str, scale: float) -> str:
 
 def exact_temperature(t_k: float) -> str:
     """The shortest degC text that reads back as exactly ``t_k``, else kelvin."""
-    for num in _numbers(t_k - 273.15):
+    for num in _numbers(kelvin_to_celsius(t_k)):
         txt = f"{num} degC"
         if _reads_back(parse_temperature, txt, t_k):
             return txt

@@ -22,7 +22,7 @@ from __future__ import annotations
 import numpy as np
 
 from matdb.errors import InputError
-from matdb.units import G_STANDARD, MU0
+from matdb.constants import G_STANDARD, MU0
 
 __all__ = ["REACH_GAP_M", "REACH_PLATE_M", "FD_STEP_M", "levitation_requirement", "gradient_product",
            "footprint_grid", "reach_of"]

@@ -19,6 +19,7 @@ import numpy as np
 import pandas as pd
 
 from matdb.advisor.engine import candidate_design
+from matdb.constants import celsius_to_kelvin, kelvin_to_celsius
 from matdb.analysis.levitate import format_intervals
 from matdb.analysis.synthesis import design_of
 from matdb.cli.physics import SCHEDULE_COLUMNS, schedule_records
@@ -119,7 +120,7 @@ def fmt_temperature_c(value_k) -> str:
     """A temperature given in kelvin, shown in degrees Celsius to 0.1 degC."""
     if _is_missing(value_k):
         return MISSING
-    return f"{float(value_k) - 273.15:.1f} degC"
+    return f"{kelvin_to_celsius(float(value_k)):.1f} degC"
 
 
 def unit_label(label: str, unit: str) -> str:
@@ -298,7 +299,7 @@ def grade_temperature_curves(grades_df: pd.DataFrame, grades: Sequence[str],
     """
     if not (math.isfinite(t_min_c) and math.isfinite(t_max_c)) or t_min_c >= t_max_c:
         raise InputError(f"temperature range: expected min < max, got {t_min_c!r} to {t_max_c!r} degC")
-    if t_min_c <= -273.15:
+    if celsius_to_kelvin(t_min_c) <= 0:
         raise InputError(f"temperature range: {t_min_c!r} degC is below absolute zero")
     if n < 2:
         raise InputError(f"n: expected at least 2 temperatures, got {n!r}")
@@ -307,7 +308,7 @@ def grade_temperature_curves(grades_df: pd.DataFrame, grades: Sequence[str],
     if unknown:
         raise InputError(f"grades: unknown grade(s) {', '.join(unknown)}")
     t_c = np.linspace(float(t_min_c), float(t_max_c), int(n))
-    t_k = t_c + 273.15
+    t_k = celsius_to_kelvin(t_c)
     parts = []
     by = grades_df.set_index("grade")
     for g in grades:
@@ -551,7 +552,7 @@ def _temp_pair(result: dict, key: str, scale: float = 1.0) -> str:
     c, h = result.get("cold") or {}, result.get("hot") or {}
     vals = [c.get(key), h.get(key)]
     if key == "temperature_k":
-        return " / ".join("-" if v is None else f"{v - 273.15:.4g}" for v in vals)
+        return " / ".join("-" if v is None else f"{kelvin_to_celsius(v):.4g}" for v in vals)
     return " / ".join("-" if v is None else _human(v * scale) for v in vals)
 
 
