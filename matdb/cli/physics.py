@@ -16,6 +16,7 @@ from pathlib import Path
 
 import numpy as np
 
+from matdb.cli import summary
 from matdb.errors import InputError
 from matdb.limits import MAX_FILE_BYTES, MAX_POINTS, check_count, check_magnitude, read_text_limited
 from matdb.output import add_format_argument, emit, to_json
@@ -299,7 +300,7 @@ def cmd_levitate(args) -> int:
 
 
 def register(subparsers) -> None:
-    p = subparsers.add_parser("field", help="B of a design's magnets at points",
+    p = subparsers.add_parser("field", help=summary("field"),
                               description="Flux density of a design's magnet arrangement "
                               "(Br at 20 C unless --temp) at points: --at 'x,y,z mm' "
                               "(repeatable) and/or --points FILE.csv with columns x_m,y_m,z_m.")
@@ -311,7 +312,7 @@ def register(subparsers) -> None:
     add_format_argument(p, choices=("json", "csv", "table"), default="table")
     p.set_defaults(func=cmd_field)
 
-    q = subparsers.add_parser("levitate", help="does the plate float, where, and is it stable",
+    q = subparsers.add_parser("levitate", help=summary("levitate"),
                               description="Floating-plate analysis of a design: lift curve, "
                               "equilibrium gap, payload, stiffnesses, stability, thermal "
                               "derating, worst case and safety distance. Floating-magnet "

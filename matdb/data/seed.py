@@ -36,7 +36,7 @@ from matdb.data.models import (
     ValueProvenance,
 )
 from matdb.constants import ALPHA_MAX_PCT_PER_K, BR_RANGE_T, HCJ_MAX_KA_M, CHI_MAX_ABS, DENSITY_RANGE_KG_M3, celsius_to_kelvin
-from matdb.units import CONVENTIONS, chi_to_si_volume, ureg
+from matdb.units import CONVENTIONS, chi_to_si_volume, quantity
 
 SLUG_RE = re.compile(r"^[a-z0-9]+(-[a-z0-9]+)*$")
 SOURCE_KINDS = ("handbook", "standard", "paper", "datasheet", "common-practice", "lab")
@@ -435,7 +435,7 @@ def _parse_properties(folder: Path, out: SeedSet, keys: set[str], material_ids: 
             if PROPERTY_UNITS[prop] == "K" and unit in ("degC", "C", "°C"):
                 si = celsius_to_kelvin(val)
             else:
-                si = float(ureg.Quantity(val, unit).to(PROPERTY_UNITS[prop]).magnitude)
+                si = float(quantity(val, unit).to(PROPERTY_UNITS[prop]).magnitude)
         except Exception as exc:  # pint raises several kinds
             raise r.err("unit_published", f"cannot convert {unit!r} to {PROPERTY_UNITS[prop]} ({exc})") from None
         skey = r.text("source_key")
