@@ -192,6 +192,8 @@ def test_errors_name_the_key(edit, key):
     msg = str(exc.value)
     assert key in msg
     assert "\n" not in msg
+    # the key is the error's field (each front end shows it in its own words)
+    assert exc.value.field == key.split(":")[0]
 
 
 def test_bad_toml_and_missing_file(tmp_path):

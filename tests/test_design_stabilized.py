@@ -107,6 +107,7 @@ def test_refusals_name_the_key(edit, key):
     with pytest.raises(InputError) as exc:
         parse_stabilized(doc)
     assert key in str(exc.value)
+    assert key in exc.value.field  # the design-file key, never a command-line flag
 
 
 def test_stations_inherit_top_level_tables():

@@ -72,5 +72,5 @@ def reach_band(reach_df: pd.DataFrame) -> tuple[float, float]:
     arrangements. Below ``low`` a plate floats over the best common arrangement; between
     the two only a small piece near the strongest spot can."""
     if reach_df is None or reach_df.empty:
-        raise InputError("reach: no arrangements evaluated")
+        raise InputError("no arrangements evaluated", field="reach")
     return float(reach_df["plate_avg_t2_m"].max()), float(reach_df["peak_t2_m"].max())

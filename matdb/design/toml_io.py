@@ -85,7 +85,7 @@ _BARE = r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?"
 # ---------------------------------------------------------------------------
 def _table(value: Any, key: str) -> dict:
     if not isinstance(value, dict):
-        raise InputError(f"{key}: expected a table, got {value!r}")
+        raise InputError(f"expected a table, got {value!r}", field=key)
     return value
 
 
@@ -93,49 +93,49 @@ def _check_keys(table: Any, allowed: set[str], where: str) -> dict:
     table = _table(table, where or "design")
     for k in sorted(table):
         if k not in allowed:
-            raise InputError(f"{where + '.' if where else ''}{k}: unknown key; "
-                             f"expected one of {', '.join(sorted(allowed))}")
+            raise InputError(f"unknown key; expected one of {', '.join(sorted(allowed))}",
+                             field=f"{where}.{k}" if where else k)
     return table
 
 
 def _require(table: dict, name: str, key: str, expected: str = "this key is required"):
     if name not in table:
-        raise InputError(f"{key}.{name}: missing; {expected}")
+        raise InputError(f"missing; {expected}", field=f"{key}.{name}")
     return table[name]
 
 
 def _string(value: Any, key: str) -> str:
     if not isinstance(value, str) or not value.strip():
-        raise InputError(f"{key}: expected a non-empty string, got {value!r}")
+        raise InputError(f"expected a non-empty string, got {value!r}", field=key)
     return value.strip()
 
 
 def _choice(value: Any, choices: tuple[str, ...], key: str) -> str:
     if not isinstance(value, str) or value.strip().lower() not in choices:
-        raise InputError(f"{key}: expected one of {', '.join(choices)}, got {value!r}")
+        raise InputError(f"expected one of {', '.join(choices)}, got {value!r}", field=key)
     return value.strip().lower()
 
 
 def _int(value: Any, key: str) -> int:
     if isinstance(value, bool) or not isinstance(value, int) or value < 1:
-        raise InputError(f"{key}: expected a positive whole number, got {value!r}")
+        raise InputError(f"expected a positive whole number, got {value!r}", field=key)
     return int(value)
 
 
 def _bool(value: Any, key: str) -> bool:
     if not isinstance(value, bool):
-        raise InputError(f"{key}: expected true or false, got {value!r}")
+        raise InputError(f"expected true or false, got {value!r}", field=key)
     return value
 
 
 def _lengths(value: Any, key: str, n: int, form: str, what: str, positive: bool = True) -> tuple[float, ...]:
     if not isinstance(value, list) or len(value) != n:
-        raise InputError(f"{key}: expected {n} lengths {form} for {what}, got {value!r}")
+        raise InputError(f"expected {n} lengths {form} for {what}, got {value!r}", field=key)
     out = []
     for i, v in enumerate(value):
         x = parse_length(v, f"{key}[{i}]")
         if positive and x <= 0:
-            raise InputError(f"{key}[{i}]: expected a positive length, got {v!r}")
+            raise InputError(f"expected a positive length, got {v!r}", field=f"{key}[{i}]")
         out.append(x)
     return tuple(out)
 
@@ -143,7 +143,7 @@ def _lengths(value: Any, key: str, n: int, form: str, what: str, positive: bool 
 def _signed_lengths(value: Any, key: str, counts: tuple[int, ...]) -> tuple[float, ...]:
     if not isinstance(value, list) or len(value) not in counts:
         form = " or ".join(str(c) for c in counts)
-        raise InputError(f"{key}: expected {form} lengths, e.g. [\"0 mm\", \"12.7 mm\"], got {value!r}")
+        raise InputError(f"expected {form} lengths, e.g. [\"0 mm\", \"12.7 mm\"], got {value!r}", field=key)
     return tuple(parse_quantity(v, "m", f"{key}[{i}]") for i, v in enumerate(value))
 
 
@@ -152,19 +152,19 @@ def _size(value: Any, shape: str, key: str) -> tuple[float, ...]:
     (a ring's inner diameter may be zero, and must be below its outer diameter)."""
     n, form = SIZE_FORMS[shape]
     if not isinstance(value, list) or len(value) != n:
-        raise InputError(f"{key}: expected {n} lengths {form} for a {shape}, got {value!r}")
+        raise InputError(f"expected {n} lengths {form} for a {shape}, got {value!r}", field=key)
     size = _lengths(value, key, n, form, f"a {shape}", positive=False)
     for i, x in enumerate(size):
         if x <= 0 and not (shape == "ring" and i == 1):
-            raise InputError(f"{key}[{i}]: expected a positive length, got {value[i]!r}")
+            raise InputError(f"expected a positive length, got {value[i]!r}", field=f"{key}[{i}]")
     if shape == "ring" and not size[1] < size[0]:
-        raise InputError(f"{key}: the inner diameter must be smaller than the outer diameter")
+        raise InputError("the inner diameter must be smaller than the outer diameter", field=key)
     return size
 
 
 def _shape_size(t: dict, key: str, shapes: tuple[str, ...], default: str | None) -> tuple[str, tuple]:
     if "shape" not in t and default is None:
-        raise InputError(f"{key}.shape: missing; expected one of {', '.join(shapes)}")
+        raise InputError(f"missing; expected one of {', '.join(shapes)}", field=f"{key}.shape")
     shape = _choice(t.get("shape", default), shapes, f"{key}.shape")
     n, form = SIZE_FORMS[shape]
     raw = _require(t, "size", key, f"expected {n} lengths {form} for a {shape}")
@@ -174,13 +174,14 @@ def _shape_size(t: dict, key: str, shapes: tuple[str, ...], default: str | None)
 def _catalogue(lookup, name: Any, key: str, expected: str):
     """``lookup(name)`` from the catalogue; an unknown name is an error naming ``key``."""
     if not isinstance(name, str) or not name.strip():
-        raise InputError(f"{key}: expected {expected}, got {name!r}")
+        raise InputError(f"expected {expected}, got {name!r}", field=key)
     try:
         return lookup(name.strip())
     except NotFoundError as exc:
-        msg = str(exc)
-        raise InputError(f"{key}: {msg.split(': ', 1)[1] if msg.split(': ', 1)[0] in ('grade', 'material') else msg}"
-                         ) from exc
+        # the catalogue names its own field (grade, material): the design names the key instead
+        text = exc.message if exc.field else str(exc)
+        head, _, rest = text.partition(": ")
+        raise InputError(rest if head in ("grade", "material") else text, field=key) from exc
 
 
 def _grade(name: Any, key: str):
@@ -196,16 +197,16 @@ def _material(name: Any, key: str):
 def _br(value: Any, key: str) -> float:
     br = parse_flux_density(value, key)
     if not br > 0:
-        raise InputError(f"{key}: expected a positive remanence, got {value!r}")
+        raise InputError(f"expected a positive remanence, got {value!r}", field=key)
     return br
 
 
 def _chi(value: Any, key: str, density: float | None) -> float:
     if isinstance(value, bool):
-        raise InputError(f"{key}: expected a susceptibility such as \"-4.5e-4\", got {value!r}")
+        raise InputError(f"expected a susceptibility such as \"-4.5e-4\", got {value!r}", field=key)
     chi, _, _ = parse_chi(value, key, density_kg_m3=density)
     if not chi < 0:
-        raise InputError(f"{key}: expected a negative (diamagnetic) susceptibility, got {value!r}")
+        raise InputError(f"expected a negative (diamagnetic) susceptibility, got {value!r}", field=key)
     return float(chi)
 
 
@@ -214,18 +215,18 @@ def _chi_overrides(t: dict, key: str, mat) -> tuple[float | None, float | None, 
     material that is not diamagnetic when nothing overrides it."""
     chi = chi_perp = chi_par = None
     if "chi" in t and ("chi_perp" in t or "chi_par" in t):
-        raise InputError(f"{key}.chi: give either chi or chi_perp and chi_par, not both")
+        raise InputError("give either chi or chi_perp and chi_par, not both", field=f"{key}.chi")
     if "chi" in t:
         chi = _chi(t["chi"], f"{key}.chi", mat.density_kg_m3)
     if ("chi_perp" in t) != ("chi_par" in t):
         missing = "chi_par" if "chi_perp" in t else "chi_perp"
-        raise InputError(f"{key}.{missing}: missing; chi_perp and chi_par go together")
+        raise InputError("missing; chi_perp and chi_par go together", field=f"{key}.{missing}")
     if "chi_perp" in t:
         chi_perp = _chi(t["chi_perp"], f"{key}.chi_perp", mat.density_kg_m3)
         chi_par = _chi(t["chi_par"], f"{key}.chi_par", mat.density_kg_m3)
     if chi is None and chi_perp is None and not (mat.chi_vertical < 0 and mat.chi_horizontal < 0):
-        raise InputError(f"{key}.material: {mat.id} is not diamagnetic (chi = {mat.chi_si:.3g}); "
-                         "it is pulled towards the magnets and cannot float")
+        raise InputError(f"{mat.id} is not diamagnetic (chi = {mat.chi_si:.3g}); "
+                         "it is pulled towards the magnets and cannot float", field=f"{key}.material")
     return chi, chi_perp, chi_par
 
 
@@ -236,9 +237,9 @@ def _conditions(t: Any, paired: bool) -> Conditions:
     lo, hi = temps.get("temp_min"), temps.get("temp_max")
     if paired and (lo is None) != (hi is None):
         missing = "temp_max" if hi is None else "temp_min"
-        raise InputError(f"conditions.{missing}: missing; temp_min and temp_max go together")
+        raise InputError("missing; temp_min and temp_max go together", field=f"conditions.{missing}")
     if lo is not None and hi is not None and lo > hi:
-        raise InputError("conditions.temp_min: expected temp_min <= temp_max")
+        raise InputError("expected temp_min <= temp_max", field="conditions.temp_min")
     return Conditions(temps.get("temperature"), lo, hi)
 
 
@@ -247,7 +248,7 @@ def _text_keys(doc: dict) -> tuple[str | None, str | None]:
     for k in ("name", "description"):
         v = doc.get(k)
         if v is not None and not isinstance(v, str):
-            raise InputError(f"{k}: expected a string, got {v!r}")
+            raise InputError(f"expected a string, got {v!r}", field=k)
         out.append(v)
     return out[0], out[1]
 
@@ -262,14 +263,14 @@ def _parse_item(it: Any, key: str, shape: str, grades: dict) -> MagnetItem:
     pos = _signed_lengths(it["position"], f"{key}.position", (3,))
     d = it["direction"]
     if not isinstance(d, list) or len(d) != 3:
-        raise InputError(f"{key}.direction: expected 3 numbers (a unit vector), got {d!r}")
+        raise InputError(f"expected 3 numbers (a unit vector), got {d!r}", field=f"{key}.direction")
     dvec = tuple(parse_number(v, f"{key}.direction[{j}]") for j, v in enumerate(d))
     if all(v == 0 for v in dvec):
-        raise InputError(f"{key}.direction: expected a non-zero vector")
+        raise InputError("expected a non-zero vector", field=f"{key}.direction")
     ishape = _choice(it["shape"], MAGNET_SHAPES, f"{key}.shape") if "shape" in it else None
     isize = _size(it["size"], ishape or shape, f"{key}.size") if "size" in it else None
     if ishape is not None and ishape != shape and isize is None:
-        raise InputError(f"{key}.size: needed when the item's shape differs from magnets.shape")
+        raise InputError("needed when the item's shape differs from magnets.shape", field=f"{key}.size")
     igrade = None
     if "grade" in it:
         g = _grade(it["grade"], f"{key}.grade")
@@ -290,8 +291,8 @@ def _parse_magnets(t: Any) -> MagnetSpec:
     cols = _int(t.get("cols", 1), "magnets.cols")
     limits.check_arrangement(rows, cols, "magnets")
     if pattern == "single" and rows * cols != 1:
-        raise InputError("magnets.rows: pattern 'single' is one magnet; use 'grid', "
-                         "'checkerboard' or 'stripes' for rows and cols")
+        raise InputError("pattern 'single' is one magnet; use 'grid', "
+                         "'checkerboard' or 'stripes' for rows and cols", field="magnets.rows")
     spacing = parse_length(t.get("spacing", "0 mm"), "magnets.spacing")
     back = _bool(t.get("back_plate", False), "magnets.back_plate")
     cover = parse_length(t.get("cover", "0 mm"), "magnets.cover")
@@ -299,12 +300,12 @@ def _parse_magnets(t: Any) -> MagnetSpec:
     if pattern == "list":
         raw = t.get("item")
         if not isinstance(raw, list) or not raw:
-            raise InputError("magnets.item: pattern 'list' needs [[magnets.item]] tables "
-                             "with position and direction")
+            raise InputError("pattern 'list' needs [[magnets.item]] tables "
+                             "with position and direction", field="magnets.item")
         limits.check_count(len(raw), limits.MAX_MAGNETS, "magnets.item", "magnets")
         items = [_parse_item(it, f"magnets.item[{i}]", shape, grades) for i, it in enumerate(raw)]
     elif "item" in t:
-        raise InputError("magnets.item: only used with pattern = \"list\"")
+        raise InputError("only used with pattern = \"list\"", field="magnets.item")
     rigid = _bool(t.get("rigid", False), "magnets.rigid")
     return MagnetSpec(shape, size, g.grade, br, pattern, rows, cols, spacing, back, cover,
                       tuple(items), grades, rigid)
@@ -312,10 +313,10 @@ def _parse_magnets(t: Any) -> MagnetSpec:
 
 def _sigma(value: Any, key: str) -> float:
     if isinstance(value, bool):
-        raise InputError(f"{key}: expected a conductivity such as \"2e5 S/m\", got {value!r}")
+        raise InputError(f"expected a conductivity such as \"2e5 S/m\", got {value!r}", field=key)
     v = parse_quantity(value, "S/m", key)
     if not v >= 0:
-        raise InputError(f"{key}: expected a conductivity of zero or more, got {value!r}")
+        raise InputError(f"expected a conductivity of zero or more, got {value!r}", field=key)
     return v
 
 
@@ -325,7 +326,7 @@ def _parse_slots(t: Any, shape: str, size: tuple[float, ...]) -> Slots:
         _require(t, need, "plate.slots", "slots need count, width and length")
     count = t["count"]
     if isinstance(count, bool) or not isinstance(count, int) or count < 0:
-        raise InputError(f"plate.slots.count: expected a whole number of zero or more, got {count!r}")
+        raise InputError(f"expected a whole number of zero or more, got {count!r}", field="plate.slots.count")
     width = parse_length(t["width"], "plate.slots.width", positive=True)
     length = parse_length(t["length"], "plate.slots.length", positive=True)
     direction = _choice(t.get("direction", "x"), ("x", "y"), "plate.slots.direction")
@@ -333,18 +334,18 @@ def _parse_slots(t: Any, shape: str, size: tuple[float, ...]) -> Slots:
     along = size[0] if (direction == "x" or shape == "disc") else size[1]
     across = size[0] if shape == "disc" else (size[1] if direction == "x" else size[0])
     if count and width * count >= across:
-        raise InputError(f"plate.slots.width: {count} slots of {width * 1e3:.3g} mm do not fit "
-                         f"across {across * 1e3:.3g} mm")
+        raise InputError(f"{count} slots of {width * 1e3:.3g} mm do not fit "
+                         f"across {across * 1e3:.3g} mm", field="plate.slots.width")
     if length >= along:
-        raise InputError(f"plate.slots.length: expected less than the plate's {along * 1e3:.3g} mm "
-                         "(a slot through the whole plate cuts it apart)")
+        raise InputError(f"expected less than the plate's {along * 1e3:.3g} mm "
+                         "(a slot through the whole plate cuts it apart)", field="plate.slots.length")
     return Slots(count, width, length, direction, start)
 
 
 def _parse_holes(value: Any) -> tuple[Hole, ...]:
     if not isinstance(value, list):
-        raise InputError("plate.holes: expected a list of tables such as "
-                         "[{center = [\"0 mm\", \"0 mm\"], diameter = \"1 mm\"}]")
+        raise InputError("expected a list of tables such as "
+                         "[{center = [\"0 mm\", \"0 mm\"], diameter = \"1 mm\"}]", field="plate.holes")
     out = []
     for i, h in enumerate(value):
         key = f"plate.holes[{i}]"
@@ -379,8 +380,8 @@ def _parse_plate(t: Any) -> PlateSpec:
         n = len(outline_pieces(plate_outline(spec.shape, spec.lx_m, spec.ly_m, center[0], center[1],
                                              slots, holes)))
         if n > 1:
-            raise InputError(f"plate.slots: slots and holes cut the plate into {n} pieces; "
-                             "expected one piece")
+            raise InputError(f"slots and holes cut the plate into {n} pieces; "
+                             "expected one piece", field="plate.slots")
     return spec
 
 
@@ -422,15 +423,16 @@ def _parse_plates(t: dict, key: str, floater: SingleMagnet) -> PlatesSpec:
         distance = parse_length(t["distance"], f"{key}.distance", positive=True)
         half = floater.height / 2
         if not distance > half:
-            raise InputError(f"{key}.distance: expected more than the floater's half-height "
-                             f"({half * 1e3:.4g} mm), got {t['distance']!r}: the plates would cut into the floater")
+            raise InputError("expected more than the floater's half-height "
+                             f"({half * 1e3:.4g} mm), got {t['distance']!r}: the plates would cut into the floater",
+                             field=f"{key}.distance")
     width = None
     if "width" in t:
         width = parse_length(t["width"], f"{key}.width", positive=True)
         fw = floater.width
         if width < fw * (1 - 1e-9):
-            raise InputError(f"{key}.width: expected plates at least as wide as the floater ({fw * 1e3:.4g} mm), "
-                             f"got {t['width']!r}: narrower plates cannot hold it on the axis")
+            raise InputError(f"expected plates at least as wide as the floater ({fw * 1e3:.4g} mm), "
+                             f"got {t['width']!r}: narrower plates cannot hold it on the axis", field=f"{key}.width")
     return PlatesSpec(material=m.id, chi_perp=float(perp), chi_par=float(par), chi_override=override,
                       temp_coeff_per_k=None if m.temp_coeff_per_k is None else float(m.temp_coeff_per_k),
                       thickness=thickness, distance=distance, clearance=clearance, width=width)
@@ -444,7 +446,7 @@ def _parse_station(t: dict, key: str, defaults: dict, x: float, y: float, name: 
         elif part in defaults:
             tables[part] = (defaults[part], part)
         else:
-            raise InputError(f"{key}.{part}: missing; a [{part}] table is required")
+            raise InputError(f"missing; a [{part}] table is required", field=f"{key}.{part}")
     lifter, _ = _parse_single(*tables["lifter"], LIFTER_KEYS)
     floater, payload = _parse_single(*tables["floater"], FLOATER_KEYS)
     plates = _parse_plates(*tables["plates"], floater)
@@ -484,13 +486,13 @@ def parse_stabilized(doc: dict, source: str | None = None) -> StabilizedDesign:
                   source=source, payload_range=prange)
     if "station" not in doc:
         if "payload" in doc:
-            raise InputError("payload: a shared [payload] table needs [[station]] tables; "
-                             "for one floater give floater.payload")
+            raise InputError("a shared [payload] table needs [[station]] tables; "
+                             "for one floater give floater.payload", field="payload")
         return StabilizedDesign(stations=(_parse_station({}, "design", defaults, 0.0, 0.0),), **common)
 
     raw = doc["station"]
     if not isinstance(raw, list) or not raw:
-        raise InputError("station: expected one or more [[station]] tables")
+        raise InputError("expected one or more [[station]] tables", field="station")
     limits.check_count(len(raw), limits.MAX_MAGNETS // 2, "station", "stations (two magnets each)")
     stations = []
     for i, s in enumerate(raw):
@@ -503,7 +505,7 @@ def parse_stabilized(doc: dict, source: str | None = None) -> StabilizedDesign:
     for i in range(len(stations)):
         for j in range(i):
             if abs(stations[i].x - stations[j].x) < 1e-9 and abs(stations[i].y - stations[j].y) < 1e-9:
-                raise InputError(f"station[{i}].x: same position as station[{j}]")
+                raise InputError(f"same position as station[{j}]", field=f"station[{i}].x")
     p = _check_keys(_require(doc, "payload", "design"), PAYLOAD_KEYS, "payload")
     mass = parse_mass(_require(p, "mass", "payload"), "payload.mass")
     com = list(_signed_lengths(p.get("centre_of_mass", ["0 mm", "0 mm"]), "payload.centre_of_mass", (2, 3)))
@@ -523,17 +525,17 @@ def parse_payload_range(text: Any, field: str = "payload_range") -> tuple[float,
         negative or the first is larger than the second.
     """
     if not isinstance(text, str) or text.count("..") != 1:
-        raise InputError(f"{field}: expected a range of masses such as '0 g..5 g', got {text!r}")
+        raise InputError(f"expected a range of masses such as '0 g..5 g', got {text!r}", field=field)
     a, b = (x.strip() for x in text.split(".."))
     if not a or not b:
-        raise InputError(f"{field}: expected a range of masses such as '0 g..5 g', got {text!r}")
+        raise InputError(f"expected a range of masses such as '0 g..5 g', got {text!r}", field=field)
     if re.fullmatch(_BARE, a) and not re.fullmatch(_BARE, b):
         unit = re.sub(rf"^{_BARE}\s*", "", b)
         a = f"{a} {unit}"
     lo = parse_mass(a, f"{field} (from)")
     hi = parse_mass(b, f"{field} (to)")
     if not lo <= hi:
-        raise InputError(f"{field}: expected the first mass at most the second, got {text!r}")
+        raise InputError(f"expected the first mass at most the second, got {text!r}", field=field)
     return lo, hi
 
 
@@ -552,13 +554,13 @@ def parse_design(doc: dict, source: str | None = None, *, need_plate: bool = Tru
     ``station`` table.
     """
     if not isinstance(doc, dict):
-        raise InputError("design: expected a TOML document")
+        raise InputError("expected a TOML document", field="design")
     if any(k in doc for k in STABILIZED_KEYS):
         return parse_stabilized(doc, source=source)
     _check_keys(doc, TOP_KEYS, "")
     for need in ("magnets", "plate") if need_plate else ("magnets",):
         if need not in doc:
-            raise InputError(f"{need}: missing table [{need}]")
+            raise InputError(f"missing table [{need}]", field=need)
     name, desc = _text_keys(doc)
     plate = _parse_plate(doc["plate"]) if need_plate or "plate" in doc else None
     return PlateDesign(_parse_magnets(doc["magnets"]), plate,
@@ -569,14 +571,14 @@ def load_design_text(text: str, source: str | None = None, *, need_plate: bool =
     """A design from TOML text (the web page's editor)."""
     where = source or "design"
     if len(text.encode("utf-8", "surrogatepass")) > limits.MAX_FILE_BYTES:
-        raise InputError(f"{where}: the design is larger than the limit of {limits.MAX_FILE_BYTES:,} bytes")
+        raise InputError(f"the design is larger than the limit of {limits.MAX_FILE_BYTES:,} bytes", field=where)
     limits.check_nesting(text, where)
     try:
         doc = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"{where}: not valid TOML: {exc}") from exc
+        raise InputError(f"not valid TOML: {exc}", field=where) from exc
     except RecursionError:  # pragma: no cover - check_nesting refuses such text first
-        raise InputError(f"{where}: nesting deeper than the limit of {limits.MAX_NESTING} levels") from None
+        raise InputError(f"nesting deeper than the limit of {limits.MAX_NESTING} levels", field=where) from None
     return parse_design(doc, source, need_plate=need_plate)
 
 

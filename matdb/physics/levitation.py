@@ -63,9 +63,9 @@ def levitation_requirement(chi_si, density_kg_m3, g: float = G_STANDARD):
     chi = np.asarray(chi_si, dtype=float)
     rho = np.asarray(density_kg_m3, dtype=float)
     if not np.all(np.isfinite(rho) & (rho > 0)):
-        raise InputError(f"density: expected a positive density in kg/m^3, got {density_kg_m3!r}")
+        raise InputError(f"expected a positive density in kg/m^3, got {density_kg_m3!r}", field="density")
     if not np.all(np.isfinite(chi)):
-        raise InputError(f"chi: expected a finite susceptibility, got {chi_si!r}")
+        raise InputError(f"expected a finite susceptibility, got {chi_si!r}", field="chi")
     with np.errstate(divide="ignore"):
         out = np.where(chi < 0, MU0 * rho * g / np.abs(chi), np.inf)
     return float(out) if out.ndim == 0 else out

@@ -140,7 +140,7 @@ MATERIAL_COLUMNS = [
 
 def _check_convention(convention: str) -> str:
     if convention not in CONVENTIONS:
-        raise InputError(f"unit: expected one of {', '.join(CONVENTIONS)}, got {convention!r}")
+        raise InputError(f"expected one of {', '.join(CONVENTIONS)}, got {convention!r}", field="unit")
     return convention
 
 
@@ -212,7 +212,7 @@ def compare_materials(df: pd.DataFrame, ids: Sequence[str], rounded: bool = Fals
     :func:`matdb.data.catalog.status_marks`) each stored value is followed by its status mark."""
     unknown = [i for i in ids if i not in set(df["id"])]
     if unknown:
-        raise InputError(f"compare: unknown material id(s) {', '.join(unknown)}")
+        raise InputError(f"unknown material id(s) {', '.join(unknown)}", field="compare")
     fields = {
         "name": "name",
         "chi_si": "chi, SI volume",
@@ -298,15 +298,15 @@ def grade_temperature_curves(grades_df: pd.DataFrame, grades: Sequence[str],
     longer describes a usable magnet).
     """
     if not (math.isfinite(t_min_c) and math.isfinite(t_max_c)) or t_min_c >= t_max_c:
-        raise InputError(f"temperature range: expected min < max, got {t_min_c!r} to {t_max_c!r} degC")
+        raise InputError(f"expected min < max, got {t_min_c!r} to {t_max_c!r} degC", field="temperature range")
     if celsius_to_kelvin(t_min_c) <= 0:
-        raise InputError(f"temperature range: {t_min_c!r} degC is below absolute zero")
+        raise InputError(f"{t_min_c!r} degC is below absolute zero", field="temperature range")
     if n < 2:
-        raise InputError(f"n: expected at least 2 temperatures, got {n!r}")
+        raise InputError(f"expected at least 2 temperatures, got {n!r}", field="n")
     known = set(grades_df["grade"])
     unknown = [g for g in grades if g not in known]
     if unknown:
-        raise InputError(f"grades: unknown grade(s) {', '.join(unknown)}")
+        raise InputError(f"unknown grade(s) {', '.join(unknown)}", field="grades")
     t_c = np.linspace(float(t_min_c), float(t_max_c), int(n))
     t_k = celsius_to_kelvin(t_c)
     parts = []
