@@ -27,7 +27,7 @@ from pathlib import Path
 
 from matdb.analysis import magnet_synthesis as M
 from matdb.analysis.floating import levitate_stabilized
-from matdb.design.floating import parse_stabilized
+from matdb.design import parse_stabilized
 from matdb.physics.floating import Body, clear_tables, pull_table
 
 ROOT = Path(__file__).resolve().parent.parent

@@ -11,6 +11,7 @@ import pytest
 
 from matdb.errors import InputError
 from matdb.analysis.floating import levitate_stabilized
+from matdb.design import parse_stabilized
 from matdb.physics import floating as S
 
 
@@ -38,8 +39,6 @@ def _rigid_doc(path):
 # ---------------------------------------------------------------------------
 @pytest.fixture(scope="module")
 def demo():
-    from matdb.design.floating import parse_stabilized
-
     return parse_stabilized(_rigid_doc(EXAMPLE), source=str(EXAMPLE))
 
 
@@ -134,8 +133,6 @@ def test_warnings_carry_the_strong_magnet_cautions(demo_result):
 def test_two_station_demo_shares_and_tilt(tmp_path):
     # lever rule on the demo (centre of mass 5 mm towards the right of a 60 mm span) and
     # the heavier share set closer to its lifter (common practice, no source)
-    from matdb.design.floating import parse_stabilized
-
     d = parse_stabilized(_rigid_doc(TWO))
     r = levitate_stabilized(d)
     left, right = r["stations"]
@@ -162,8 +159,6 @@ def test_two_station_demo_shares_and_tilt(tmp_path):
 
 def test_centred_identical_stations_share_equally():
     # symmetry of statics: identical stations under a centred payload share equally
-    from matdb.design.floating import parse_stabilized
-
     doc = _rigid_doc(TWO)
     doc["payload"]["centre_of_mass"] = ["0 mm", "0 mm"]
     r = levitate_stabilized(parse_stabilized(doc))
@@ -177,8 +172,6 @@ def test_three_station_disc_shares_and_tilt_mode():
     # payload carry a third each; a rigid body on three stable vertical supports not in a
     # line has positive tilt stiffness (K = sum k_i r_i r_i^T); its centre of mass below
     # the floaters only adds to it (pendulum)
-    from matdb.design.floating import parse_stabilized
-
     d = parse_stabilized(_rigid_doc(THREE))
     r = levitate_stabilized(d)
     assert [s["share_fraction"] for s in r["stations"]] == pytest.approx([1 / 3] * 3, rel=1e-5)

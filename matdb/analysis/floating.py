@@ -190,7 +190,7 @@ def levitate_stabilized(design, temp_k: Optional[float] = None, n_window: int = 
     Parameters
     ----------
     design : StabilizedDesign
-        From :func:`matdb.design.floating.parse_stabilized`.
+        From :func:`matdb.design.toml_io.parse_stabilized`.
     temp_k : float, optional
         Temperature [K]; default the design's.
     n_window : int

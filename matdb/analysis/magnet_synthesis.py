@@ -45,7 +45,7 @@ from matdb.errors import InputError
 from matdb.analysis.floating import levitate_stabilized
 from matdb.constants import G_STANDARD, MU0, T_REF_K, kelvin_to_celsius
 from matdb.data.catalog import get_material, list_grades
-from matdb.design.floating import parse_stabilized
+from matdb.design import parse_stabilized
 from matdb.physics.floating import Body, FinitePlates, axial_pull, lifter_force
 
 __all__ = [
@@ -611,7 +611,7 @@ def _reasons(i, C, short, req: FMRequest, pays) -> list[str]:
 
 def design_of(r: dict, req: FMRequest):
     """The design file document of a search row, parsed into a
-    :class:`~matdb.design.floating.StabilizedDesign` (demo: a suggestion, not a tested
+    :class:`~matdb.design.model.StabilizedDesign` (demo: a suggestion, not a tested
     build)."""
     def mm(v):
         return f"{v * 1e3:.6g} mm"

@@ -269,7 +269,7 @@ class StationModel:
 
 
 def _recoil(spec) -> float:
-    """:attr:`matdb.design.floating.MagnetSpec.recoil_factor` (1 for other specs)."""
+    """:attr:`matdb.design.model.SingleMagnet.recoil_factor` (1 for other specs)."""
     return float(getattr(spec, "recoil_factor", 1.0))
 
 
