@@ -37,7 +37,7 @@ def test_pull_table_vs_magpylib(lifter, floater):
     magpy = pytest.importorskip("magpylib")
     lb, fb = S.Body(lifter[0], lifter[1], 1.3), S.Body(floater[0], floater[1], 1.2)
     d = np.array([5e-3, 15e-3, 40e-3])
-    ours = M.pull_table(lb, fb, d)
+    ours = S.axial_pull(lb, fb, d)
 
     def magnet(shape, size, j, z):
         if shape == "cuboid":

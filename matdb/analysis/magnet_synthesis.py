@@ -6,9 +6,10 @@ materials and thicknesses, and 1, 2 or 3 floaters sharing a rigid payload. It is
 because everything that does not depend on a grade or a material is tabulated once:
 
 * the lifter's pull on the floater against the lifter distance, for unit polarisations
-  (the pull is bilinear in the two remanences), on a log grid, interpolated by a cubic
-  spline in log-log; its error is checked against the direct quadrature of
-  :func:`matdb.physics.floating.lifter.lifter_force` at points between the grid nodes;
+  (the pull is bilinear in the two remanences): the
+  :class:`~matdb.physics.floating.lifter.PullTable` of the pair, resampled finely on its
+  falling branch; its error is checked against the direct quadrature
+  (:func:`~matdb.physics.floating.lifter.axial_pull`) halfway between the table's nodes;
 * the plates' plane integrals of ``B_z^2`` and ``B_h^2`` of the floater (the
   finite-size model of :class:`matdb.physics.floating.plates.FinitePlates`), per shape
   *proportion*: the field of a magnet scaled by ``L`` at points scaled by ``L`` is the
@@ -46,7 +47,7 @@ from matdb.analysis.floating import levitate_stabilized
 from matdb.constants import G_STANDARD, MU0, T_REF_K, kelvin_to_celsius
 from matdb.data.catalog import get_material, list_grades
 from matdb.design import parse_stabilized
-from matdb.physics.floating import Body, FinitePlates, axial_pull, lifter_force
+from matdb.physics.floating import Body, FinitePlates, axial_pull, pull_table
 
 __all__ = [
     "FLOATERS",
@@ -55,7 +56,6 @@ __all__ = [
     "DEFAULT_MATERIALS",
     "FMRequest",
     "FMResult",
-    "pull_table",
     "plate_slope_table",
     "search",
     "records",
@@ -172,12 +172,6 @@ class FMResult:
 # ---------------------------------------------------------------------------
 # tables
 # ---------------------------------------------------------------------------
-def pull_table(lifter: Body, floater: Body, distances) -> np.ndarray:
-    """Upward pull of ``lifter`` on ``floater`` at lifter distances ``distances`` [N]
-    (:func:`matdb.physics.floating.lifter.axial_pull`: one field evaluation)."""
-    return axial_pull(lifter, floater, distances)
-
-
 @dataclass
 class _Pull:
     """Falling branch of the unit pull: fine grid of distances, pull and slope."""
@@ -208,7 +202,7 @@ class _Pull:
         return np.where(far, self.dfdd[-1] * (self.d[-1] / np.where(far, d, 1.0)) ** 5, s)
 
 
-_TABLE_VERSION = 2  # bump when the tables' physics or grids change (drops the disk cache)
+_TABLE_VERSION = 3  # bump when the tables' physics or grids change (drops the disk cache)
 _MEMORY = None
 
 
@@ -233,26 +227,19 @@ def _pull(lshape: str, lsize: tuple, fshape: str, fsize: tuple) -> _Pull:
 def _pull_arrays(lshape: str, lsize: tuple, fshape: str, fsize: tuple, version: int) -> tuple:
     lifter = Body(lshape, lsize, 1.0)
     floater = Body(fshape, fsize, 1.0)
-    size = max(lifter.height, 2 * lifter.lateral)
-    u = np.geomspace(1e-3 * floater.height, 40 * size, 56)
-    d = floater.half_height + u
-    f = pull_table(lifter, floater, d)
-    i0 = int(np.argmax(f))
-    if i0 >= d.size - 3:
+    table = pull_table(lifter, floater)
+    i0 = int(np.argmax(table.f))
+    if i0 >= table.d.size - 3:
         raise InputError("lifter: no falling branch in the table")  # pragma: no cover
-    x, y = np.log(d[i0:]), np.log(f[i0:])
-    spl = CubicSpline(x, y)
-    # checked error: the spline against the direct quadrature between grid nodes
-    mids = 0.5 * (x[1:] + x[:-1])
-    pick = mids[mids.size // 4:: max(1, mids.size // 2)]
-    direct = np.array([lifter_force(lifter.at((0, 0, math.exp(m) + lifter.half_height)), floater)[2]
-                       for m in pick])
-    err = float(np.max(np.abs(np.exp(spl(pick)) / direct - 1)))
-    xf = np.linspace(x[0], x[-1], 3000)
-    ff = np.exp(spl(xf))
-    df = ff / np.exp(xf) * spl(xf, 1)
-    keep = df < 0
-    return np.exp(xf[keep]), ff[keep], df[keep], float(f[i0]), float(d[i0]), err
+    x = np.log(table.d[i0:])
+    # checked error: the table against the direct quadrature halfway between its nodes
+    # on the falling branch, relative to the pull there
+    mids = np.exp(0.5 * (x[1:] + x[:-1]))
+    err = float(np.max(np.abs(table.pull(mids) / axial_pull(lifter, floater, mids) - 1)))
+    df_ = np.exp(np.linspace(x[0], x[-1], 3000))
+    ff, df = table.pull(df_), table.slope(df_)
+    keep = (df < 0) & (ff > 0)
+    return df_[keep], ff[keep], df[keep], float(table.f[i0]), float(table.d[i0]), err
 
 
 def _norm_key(shape: str, size_m: tuple) -> tuple[tuple, float]:

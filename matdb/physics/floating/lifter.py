@@ -302,18 +302,26 @@ class PullTable:
         mid = np.sqrt(u[1:] * u[:-1])
         f = axial_pull(lif, flo, self.half_height + np.concatenate([u, mid]))
         self.d, self.f = self.half_height + u, f[:n]
-        self._spline = CubicSpline(np.log(u), self.f)
+        # splined: the pull times (1 + u/size)^4, which tends to a constant far away (dipoles)
+        self._spline = CubicSpline(np.log(u), self.f * self._far(u))
         self._dspline = self._spline.derivative()
-        self.error = float(np.max(np.abs(self._spline(np.log(mid)) - f[n:])) / np.max(np.abs(self.f)))
+        err = np.abs(self.pull(self.half_height + mid) - f[n:])
+        self.error = float(np.max(err) / np.max(np.abs(self.f)))
+        self.error_local = float(np.max(err / np.abs(f[n:])))
+
+    def _far(self, u):
+        return (1.0 + u / self.size) ** 4
 
     def pull(self, distance):
         """``F_1`` at lifter distances inside the table [N/T^2]."""
-        return self._spline(np.log(np.asarray(distance, dtype=float) - self.half_height))
+        u = np.asarray(distance, dtype=float) - self.half_height
+        return self._spline(np.log(u)) / self._far(u)
 
     def slope(self, distance):
         """``dF_1/dD`` at lifter distances inside the table [N/(m T^2)]."""
         u = np.asarray(distance, dtype=float) - self.half_height
-        return self._dspline(np.log(u)) / u
+        x = np.log(u)
+        return (self._dspline(x) / u - 4.0 * self._spline(x) / (self.size + u)) / self._far(u)
 
 
 @lru_cache(maxsize=128)
