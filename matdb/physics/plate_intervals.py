@@ -25,7 +25,7 @@ from matdb.physics.plate_geometry import (DEFAULT_ORDER, MIN_GAP, FieldFn, Plate
                                           eval_field, side_rule)
 from matdb.physics.plate_lift import equilibrium_gap
 from matdb.physics.plate_stiffness import Stability, stability
-from matdb.units import G_STANDARD, MU0
+from matdb.constants import G_STANDARD, MU0
 
 def is_stable_floating(field: FieldFn, plate: PlateGeometry, chi_perp_abs: float,
                        chi_par_abs: float, density: float, payload_kg: float = 0.0,

@@ -28,7 +28,7 @@ from matdb.errors import InputError
 from matdb.physics.plate_geometry import (DEFAULT_ORDER, MIN_GAP, FieldFn, PlateGeometry,
                                           eval_field, footprint_rule)
 from matdb.physics.plate_stiffness import Stability, stability
-from matdb.units import G_STANDARD, MU0
+from matdb.constants import G_STANDARD, MU0
 
 # ---------------------------------------------------------------------------
 # vertical force

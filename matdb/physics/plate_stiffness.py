@@ -25,7 +25,7 @@ from scipy.spatial.transform import Rotation
 
 from matdb.physics.plate_geometry import (DEFAULT_ORDER, FieldFn, PlateGeometry, eval_field,
                                           surface_rule, volume_rule)
-from matdb.units import MU0
+from matdb.constants import MU0
 
 # ---------------------------------------------------------------------------
 # forces and torques at any small pose
