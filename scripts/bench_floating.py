@@ -56,7 +56,7 @@ def _search() -> dict:
         try:
             req = M.FMRequest(payload_range_kg=(0.0, 5e-3), top=1)
             for label in ("cold", "warm"):
-                M._pull.cache_clear()
+                M.unit_pull.cache_clear()
                 M.plate_slope_table.cache_clear()
                 c0, t0 = time.process_time(), time.perf_counter()
                 res = M.search(req)

@@ -73,16 +73,16 @@ def test_plate_stiffness_quadrature_converges_as_the_plates_close_in():
     fp = S.FinitePlates(FLOATER, -1.6e-4, -1.6e-4, 1e-3)
     for gap in (1e-3, 1e-4, 1e-5):
         s = FLOATER.half_height + gap
-        xy, w = fp._plane_nodes(s)
+        xy, w = fp.plane_nodes(s)
         coarse = fp.plane_integral_slope(s)
         # halve every panel: recompute with twice the Gauss order on the same edges
-        r_edges = panel_edges(fp._features()[0], gap, 1e3 * (s + FLOATER.lateral))
+        r_edges = panel_edges(fp.features()[0], gap, 1e3 * (s + FLOATER.lateral))
         r, wr = gauss_panels(r_edges, 16)
         d = 1e-3 * gap
         vals = []
         for z in s + d * np.array([-2.0, -1.0, 1.0, 2.0]):
             b = FLOATER.B(np.column_stack([r, np.zeros_like(r), np.full(r.size, z)]))
-            vals.append((2 * math.pi * r * wr) @ fp._weighted(b))
+            vals.append((2 * math.pi * r * wr) @ fp.weighted(b))
         fine = (vals[0] - 8 * vals[1] + 8 * vals[2] - vals[3]) / (12 * d)
         assert coarse == pytest.approx(fine, rel=1e-6)
         assert np.isfinite(coarse) and coarse < 0

@@ -57,7 +57,7 @@ def test_pull_table_vs_magpylib(lifter, floater):
 def test_pull_interpolation_error_is_checked_and_small():
     # the tabulated pull (spline in log-log) against the direct quadrature between nodes,
     # and the balance it gives against the direct pull (statics)
-    p = M._pull("cylinder", (25.4e-3, 25.4e-3), "cylinder", (6.35e-3, 3.175e-3))
+    p = M.unit_pull("cylinder", (25.4e-3, 25.4e-3), "cylinder", (6.35e-3, 3.175e-3))
     assert p.error < 2e-3
     lifter, floater = S.Body("cylinder", (25.4e-3, 25.4e-3), 1.0), S.Body("cylinder", (6.35e-3, 3.175e-3), 1.0)
     target = 0.3 * p.f_peak
@@ -80,7 +80,7 @@ def test_scaled_plate_table_matches_the_direct_finite_size_model(shape, size):
     body = S.Body(shape, size, 1.0)
     fp = S.FinitePlates(body, cz, ch, t)
     for a in (body.half_height + 0.5e-3, body.half_height + 3e-3):
-        assert M._plate_k_unit(shape, size, cz, ch, t, a) == pytest.approx(fp.stiffness_direct(a), rel=3e-3)
+        assert M.plate_stiffness_unit(shape, size, cz, ch, t, a) == pytest.approx(fp.stiffness_direct(a), rel=3e-3)
 
 
 def test_plate_table_far_limit_is_the_image_dipole_result():
@@ -88,7 +88,7 @@ def test_plate_table_far_limit_is_the_image_dipole_result():
     # [a^-5 - (a+t)^-5] for a point dipole between two slabs (isotropic chi)
     body = S.Body("cylinder", (2e-3, 1e-3), 1.0)
     chi, t, a = -1.7e-4, 2e-3, 30e-3
-    k = M._plate_k_unit("cylinder", body.size, chi, chi, t, a)
+    k = M.plate_stiffness_unit("cylinder", body.size, chi, chi, t, a)
     shg = 3 * MU0 * abs(chi) * body.moment**2 / (8 * math.pi) * (a**-5 - (a + t) ** -5)
     assert k == pytest.approx(shg, rel=1e-2)
 

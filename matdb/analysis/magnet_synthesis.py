@@ -57,6 +57,8 @@ __all__ = [
     "FMRequest",
     "FMResult",
     "plate_slope_table",
+    "plate_stiffness_unit",
+    "unit_pull",
     "search",
     "records",
     "design_of",
@@ -219,7 +221,9 @@ def _memory():
 
 
 @lru_cache(maxsize=512)
-def _pull(lshape: str, lsize: tuple, fshape: str, fsize: tuple) -> _Pull:
+def unit_pull(lshape: str, lsize: tuple, fshape: str, fsize: tuple) -> _Pull:
+    """The falling branch of the unit pull of a lifter and floater (shapes, sizes [m]),
+    from memory, the disk cache or built (:class:`~matdb.physics.floating.lifter.PullTable`)."""
     d, f, dfdd, f_peak, d_peak, err = _memory().cache(_pull_arrays)(lshape, lsize, fshape, fsize, _TABLE_VERSION)
     return _Pull(d, f, dfdd, f_peak, d_peak, err)
 
@@ -278,7 +282,7 @@ def plate_slope_table(shape: str, proportions: tuple):
     return slopes, body.half_height
 
 
-def _plate_k_unit(shape: str, size_m: tuple, chi_perp: float, chi_par: float, t: float, a):
+def plate_stiffness_unit(shape: str, size_m: tuple, chi_perp: float, chi_par: float, t: float, a):
     """Finite-size stiffness of two plates per J_f^2 [N/m/T^2] at plate distances ``a``."""
     prop, L = _norm_key(shape, size_m)
     slopes, h2_0 = plate_slope_table(shape, prop)
@@ -406,7 +410,7 @@ def search(req: FMRequest, progress: Optional[Callable[[float, str], None]] = No
         fw, lw = _width(fs, fsize), _width(ls, lsize)
         if fw > lw:
             continue  # a floater wider than its lifter: outside this search
-        pull = _pull(ls, lsize, fs, fsize)
+        pull = unit_pull(ls, lsize, fs, fsize)
         err = max(err, pull.error)
         vf, vl = _body_volume(fs, fsize), _body_volume(ls, lsize)
         mf = vf * dens[gf]  # (G,)
@@ -424,7 +428,7 @@ def search(req: FMRequest, progress: Optional[Callable[[float, str], None]] = No
                     a = a_min + u
                     key = (fs, fsize, mid, t)
                     if key not in k1_cache:
-                        k1_cache[key] = np.maximum(_plate_k_unit(fs, fsize, cz, ch, t, a), 1e-300)  # (A,)
+                        k1_cache[key] = np.maximum(plate_stiffness_unit(fs, fsize, cz, ch, t, a), 1e-300)  # (A,)
                     k1 = k1_cache[key]
                     need = -kz / (br_t[gf] ** 2)[:, None]  # (G, P)
                     below = k1[None, None, :] < need[..., None]

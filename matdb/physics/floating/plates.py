@@ -127,7 +127,9 @@ class FinitePlates:
         """Dipole-model chi, ``-(|chi_perp| + |chi_par|)/2`` [1]."""
         return -0.5 * (self.wz + self.wh)
 
-    def _features(self):
+    def features(self):
+        """Lateral features of the floater the plane rules grade towards [m]: ``(x, y)``
+        half-sides of a cuboid, or ``(radii, None)`` of a round floater's rims."""
         s = self.floater.size
         if self.floater.shape == "cuboid":
             return [0.5 * s[0]], [0.5 * s[1]]
@@ -135,12 +137,14 @@ class FinitePlates:
             return [0.5 * s[1], 0.5 * s[0]], None
         return [0.5 * s[0]], None
 
-    def _plane_nodes(self, s: float, full: bool = False):
-        """Points (k, 2) in a plane at height s and weights [m^2] (over the plates' square
-        when they have a width)."""
+    def plane_nodes(self, s: float, full: bool = False):
+        """Points (k, 2) in a plane at height ``s`` [m] and weights [m^2] (over the plates'
+        square when they have a width): radial nodes times the full circle for a round
+        floater (``full``: on every angle too), a quarter of the tensor grid times four for
+        a cuboid (``full``: all four quarters)."""
         g = max(s - self.h2, 1e-6 * self.floater.height)
         far = 1e3 * (s + self.floater.lateral)
-        fx, fy = self._features()
+        fx, fy = self.features()
         hw = None if self.width is None else 0.5 * self.width
         if fy is None:
             if hw is None:
@@ -181,23 +185,25 @@ class FinitePlates:
         sx = np.array([[1, 1], [-1, 1], [1, -1], [-1, -1]], dtype=float)
         return np.concatenate([xy * q for q in sx]), np.tile(w, 4)
 
-    def _weighted(self, B: np.ndarray) -> np.ndarray:
+    def weighted(self, B: np.ndarray) -> np.ndarray:
+        """The energy density's field part ``|chi_perp| B_z^2 + |chi_par| B_h^2`` of
+        fields ``B`` (n, 3) [T] -> (n,) [T^2]."""
         return self.wz * B[:, 2] ** 2 + self.wh * (B[:, 0] ** 2 + B[:, 1] ** 2)
 
     def plane_integral(self, s: float) -> float:
         """``P(s)`` [T^2 m^2]: the weighted B^2 over the plane at height ``s`` (> half-height)."""
-        xy, w = self._plane_nodes(s)
+        xy, w = self.plane_nodes(s)
         pts = np.column_stack([xy, np.full(w.size, s)])
-        return float(w @ self._weighted(self.floater.B(pts)))
+        return float(w @ self.weighted(self.floater.B(pts)))
 
     def plane_integral_slope(self, s: float) -> float:
         """``dP/ds`` [T^2 m] by a five-point difference on fixed nodes."""
-        xy, w = self._plane_nodes(s)
+        xy, w = self.plane_nodes(s)
         g = s - self.h2
         d = 1e-3 * g
         zs = s + d * np.array([-2.0, -1.0, 1.0, 2.0])
         pts = np.concatenate([np.column_stack([xy, np.full(w.size, z)]) for z in zs])
-        vals = (self._weighted(self.floater.B(pts)).reshape(4, w.size)) @ w
+        vals = (self.weighted(self.floater.B(pts)).reshape(4, w.size)) @ w
         return float((vals[0] - 8 * vals[1] + 8 * vals[2] - vals[3]) / (12 * d))
 
     def plane_slope_parts(self, s) -> np.ndarray:
@@ -205,7 +211,7 @@ class FinitePlates:
         ``s`` (unweighted by chi) [T^2 m], shape (n, 2); five-point differences on fixed
         nodes, as :meth:`plane_integral_slope`, all heights in one field evaluation."""
         s = np.atleast_1d(np.asarray(s, dtype=float))
-        rules = [self._plane_nodes(float(si)) for si in s]
+        rules = [self.plane_nodes(float(si)) for si in s]
         d = 1e-3 * (s - self.h2)
         step = np.array([-2.0, -1.0, 1.0, 2.0])
         pts = np.concatenate([
@@ -277,7 +283,7 @@ class FinitePlates:
 
     def energy(self, distance: float, rotvec=(0.0, 0.0, 0.0)) -> float:
         """Energy of both plates with the floater rotated by ``rotvec`` [J]."""
-        xy, w = self._plane_nodes(float(distance), full=True)
+        xy, w = self.plane_nodes(float(distance), full=True)
         return self._energy_on(float(distance), xy, w, rotvec)
 
     def _energy_on(self, a: float, xy: np.ndarray, w: np.ndarray, rotvec=(0.0, 0.0, 0.0)) -> float:
@@ -289,7 +295,7 @@ class FinitePlates:
         ww = np.repeat(w, z.size) * np.tile(wz, xy.shape[0])
         R = Rotation.from_rotvec(np.asarray(rotvec, dtype=float)).as_matrix()
         b = self.floater.B(pts @ R) @ R.T  # R B(R^T x), row-vector form
-        upper = float(ww @ self._weighted(b)) / (2 * MU0)
+        upper = float(ww @ self.weighted(b)) / (2 * MU0)
         return 2.0 * upper  # the lower plate is the upper one's inversion image
 
     def tilt_stiffness(self, distance: float, step: float = 3e-3) -> float:
@@ -308,7 +314,7 @@ class FinitePlates:
         in ``x`` too (a quarter).
         """
         a = float(distance)
-        xy, w = self._plane_nodes(a, full=True)
+        xy, w = self.plane_nodes(a, full=True)
         half = xy[:, 1] > 0
         u1 = self._energy_on(a, xy[half], 2.0 * w[half], (0.0, step, 0.0))
         if self.floater.shape == "cuboid":
