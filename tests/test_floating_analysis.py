@@ -5,14 +5,16 @@ from __future__ import annotations
 
 import json
 import tomllib
+from dataclasses import replace
 from pathlib import Path
 
 import pytest
 
-from matdb.errors import InputError
 from matdb.analysis.floating import levitate_stabilized
 from matdb.design import parse_stabilized
+from matdb.errors import InputError
 from matdb.physics import floating as S
+from matdb.physics.thermal import SAFETY_TEXT
 
 
 REPO = Path(__file__).resolve().parent.parent
@@ -96,8 +98,6 @@ def test_heavier_payload_sits_closer_and_window_narrows(demo_result):
 def test_plates_too_far_or_too_weak_give_no_stable_point(demo):
     # common practice, no source: without (effective) plates, or with plates too far apart,
     # the floater snaps up or falls
-    from dataclasses import replace
-
     st = demo.stations[0]
     far = replace(st, plates=replace(st.plates, distance=10e-3))
     r = levitate_stabilized(replace(demo, stations=(far,)))
@@ -110,8 +110,6 @@ def test_plates_too_far_or_too_weak_give_no_stable_point(demo):
 
 def test_lifter_that_cannot_clear_the_upper_plate_is_refused(demo):
     # geometry: the upper plate (distance + thickness) must fit below the lifter's face
-    from dataclasses import replace
-
     st = demo.stations[0]
     weak = replace(st, lifter=st.floater)  # a lifter as small as the floater sits close
     d = S.station_model(weak, demo.temperature_k).balance((st.floater.mass_kg + st.payload_kg) * 9.80665)
@@ -121,8 +119,6 @@ def test_lifter_that_cannot_clear_the_upper_plate_is_refused(demo):
 
 
 def test_warnings_carry_the_strong_magnet_cautions(demo_result):
-    from matdb.physics.thermal import SAFETY_TEXT
-
     assert SAFETY_TEXT in demo_result["warnings"]
     assert demo_result["safe_distance_m"] > 0.05  # 0.5 mT farther than 5 cm from a 25 mm NdFeB magnet (Jackson 5.56 estimate)
 

@@ -7,6 +7,7 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as hst
+from scipy.spatial.transform import Rotation
 
 from matdb.physics import floating as S
 
@@ -49,8 +50,6 @@ def test_lifter_torque_vs_magpylib_on_a_tilted_floater():
     # torque on a floater tilted by 0.01 rad: magpylib.getFT against -kappa*theta - c*x from
     # the energy Hessian (small-angle expansion)
     magpy = pytest.importorskip("magpylib")
-    from scipy.spatial.transform import Rotation
-
     lifter = S.Body("cylinder", (20e-3, 10e-3), 1.3)
     D = 12e-3
     lif = lifter.at((0, 0, D + lifter.half_height))

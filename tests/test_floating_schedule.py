@@ -18,6 +18,7 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as hst
+from scipy import integrate
 from scipy.optimize import brentq
 
 from matdb.design import parse_payload_range, parse_stabilized, design_to_toml
@@ -231,8 +232,6 @@ def test_dipole_values_are_labelled_comparisons(demo):
 def _dipole_square_integral(m, s, w, chi_perp, chi_par):
     """Weighted B^2 of Jackson's vertical point dipole (eq. 5.56) over a w x w square at
     height s, by scipy's dblquad (quarter square times 4)."""
-    from scipy import integrate
-
     C = MU0 / (4 * math.pi)
 
     def f(y, x):

@@ -6,12 +6,14 @@ from __future__ import annotations
 import argparse
 import json
 import math
+import os
 import tomllib
 
 import numpy as np
 import pytest
 
 from matdb.analysis import magnet_synthesis as M
+from matdb.cli import optimise_fm
 from matdb.design import parse_stabilized, design_to_toml
 from matdb.constants import MU0
 from matdb.physics import floating as S
@@ -95,8 +97,6 @@ def test_plate_table_far_limit_is_the_image_dipole_result():
 
 @pytest.fixture(scope="module")
 def small_result(tmp_path_factory):
-    import os
-
     os.environ.setdefault("MATDB_CACHE_DIR", str(tmp_path_factory.getbasetemp() / "synthesis-cache"))
     req = M.FMRequest(payload_range_kg=(0.0, 1e-3), top=1, stations=(1, 2))
     seen = []
@@ -156,8 +156,6 @@ def test_rejected_designs_keep_their_reasons():
 
 
 def test_add_arguments_adds_only_missing_options():
-    from matdb.cli import optimise_fm
-
     p = argparse.ArgumentParser()
     p.add_argument("--format", choices=["table", "json", "csv"], default="table")
     p.add_argument("--budget")
