@@ -376,7 +376,10 @@ def levitate_stabilized(design, temp_k: Optional[float] = None, n_window: int = 
                 margins.append(-math.inf)
             else:
                 margins.append(min(r["max_plate_distance_m"], r["lifter_clear_limit_m"]) - r["min_plate_distance_m"])
-        crit = int(np.argmin(margins))
+        # the most constrained station; among stations equal to rounding (symmetric designs), the first
+        m_min = min(margins)
+        tie = m_min + 1e-9 * abs(m_min) if math.isfinite(m_min) else m_min
+        crit = next(i for i, m in enumerate(margins) if m <= tie)
         top = max_payload if max_payload else p.mass_kg
         pay = np.linspace(0.0, top, n_window) if payloads is None else payloads
         win_st = [schedule(m, fixed[i] + frac[i] * pay * g, pay, float(fixed[i]),
