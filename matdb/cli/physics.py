@@ -174,16 +174,11 @@ def _cold_hot_lines(r: dict) -> list[str]:
 def format_levitate(r: dict) -> str:
     """The result of a plate levitate as text for a person (mm, g, Hz, N/m, mN)."""
     if r.get("mode") == "stabilized":
-        from matdb.physics.stabilized import format_table
+        # lazy: the floating-magnet text (and the analysis it imports) only for that mode
+        from matdb.reporting.floating_text import format_table
 
         return format_table(r)
     if r.get("mode") != "plate":
-        try:  # the floating-magnet mode brings its own table
-            from matdb.physics.stabilized import format_table
-
-            return format_table(r)
-        except ImportError:  # pragma: no cover
-            pass
         lines = [f"{k}: {v}" for k, v in r.items() if not isinstance(v, (list, dict))]
         lines += [f"warning: {w}" for w in r.get("warnings", [])]
         return "\n".join(lines)
