@@ -22,7 +22,6 @@ from typing import Callable
 
 import numpy as np
 from scipy import optimize
-from scipy.interpolate import CubicSpline
 
 from matdb.errors import InputError
 from matdb.physics.plate_geometry import (DEFAULT_ORDER, MIN_GAP, FieldFn, PlateGeometry,
@@ -417,30 +416,47 @@ def equilibrium_gap(field: FieldFn, plate: PlateGeometry, chi_perp_abs: float,
                     chi_par_abs: float, weight: float, g_start: float = MIN_GAP,
                     order: int = DEFAULT_ORDER, n_gaps: int = 12, xtol: float | None = 1e-8
                     ) -> float | None:
-    """Equilibrium gap from a short geometric lift curve [m] (None: it does not float).
+    """Equilibrium gap on a short geometric lift curve [m] (None: it does not float).
 
-    With ``xtol`` the bracketing pair is refined by brentq on the quadrature itself;
-    with ``xtol=None`` the root is taken on a cubic spline through ``log F`` (cheaper;
-    good to about 1e-4 relative for the smooth, nearly exponential lift, enough for the
-    stiffness scans).
+    The curve ``geomspace(g_start, top, n_gaps)`` is evaluated from the top down, a few
+    gaps at a time, until the lift first reaches the weight: that pair brackets the
+    highest stable root (the lift falls through ``W`` there), and the gaps below it,
+    whose quadrature is the finest, are never needed. The bracket is then refined by
+    brentq on the quadrature itself, to ``xtol`` [m], or with ``xtol=None`` (scans) to
+    1e-5 relative.
 
     References
     ----------
     .. [1] M. D. Simon and A. K. Geim, J. Appl. Phys. 87, 6200 (2000).
+    .. [2] R. P. Brent, Algorithms for Minimization without Derivatives, Prentice-Hall
+       (1973).
     """
-    top = lift_curve_range(field, plate, chi_perp_abs, chi_par_abs, weight, g_start, 3e-3, order)
+    memo = PlaneMemo(field, plate)
+    top = lift_curve_range(field, plate, chi_perp_abs, chi_par_abs, weight, g_start, 3e-3, order,
+                           memo=memo)
     gaps = np.geomspace(g_start, top, n_gaps)
-    forces = lift_force(field, plate, gaps, chi_perp_abs, chi_par_abs, order)
-    if forces[-1] >= weight:
+    forces = np.full(n_gaps, np.nan)
+    hi = n_gaps
+    while hi > 0:
+        lo = max(hi - EQ_BATCH, 0)
+        forces[lo:hi] = lift_force(field, plate, gaps[lo:hi], chi_perp_abs, chi_par_abs, order,
+                                   memo)
+        if forces[-1] >= weight:
+            return None
+        if np.any(forces[lo:hi] >= weight):
+            break
+        hi = lo
+    k = np.nonzero(forces >= weight)[0]
+    if k.size == 0:
         return None
-    if xtol is not None:
-        f = _force_fn(field, plate, chi_perp_abs, chi_par_abs, order)
-        return highest_stable_root(gaps, forces, weight, f, xtol=xtol)
-    if np.all(forces > 0) and weight > 0:
-        spl = CubicSpline(gaps, np.log(forces))
-        target = math.log(weight)
-    else:
-        spl = CubicSpline(gaps, forces)
-        target = weight
-    return highest_stable_root(gaps, forces, weight, lambda g: float(spl(g)) - target + weight,
-                               xtol=1e-10)
+    i = int(k[-1])
+    f = _force_fn(field, plate, chi_perp_abs, chi_par_abs, order, memo)
+    a, b = float(gaps[i]), float(gaps[i + 1])
+    if forces[i] == weight:
+        return a
+    if xtol is None:
+        return float(optimize.brentq(lambda g: f(g) - weight, a, b, xtol=1e-15, rtol=1e-5))
+    return float(optimize.brentq(lambda g: f(g) - weight, a, b, xtol=xtol, rtol=1e-12))
+
+
+EQ_BATCH = 3  # gaps of the lift curve evaluated per step, from the top down
