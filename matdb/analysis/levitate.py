@@ -397,6 +397,7 @@ def levitate(design, temp_k: float | None = None, gap_m: float | None = None, pa
         if payloads_kg is not None or resolution_m is not None:
             raise InputError("payload range: only floating-magnet designs have a payload schedule")
         return levitate_plate(design, temp_k=temp_k, gap_m=gap_m)
+    # lazy: plate-only callers (and the CLI's plate path) skip the floating-magnet physics
     from matdb.physics.stabilized import levitate_stabilized
 
     extra = {}
