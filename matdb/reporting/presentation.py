@@ -22,13 +22,13 @@ from matdb.advisor.engine import candidate_design
 from matdb.constants import celsius_to_kelvin, kelvin_to_celsius
 from matdb.analysis.levitate import format_intervals
 from matdb.analysis.synthesis import design_of
-from matdb.cli.physics import SCHEDULE_COLUMNS, schedule_records
 from matdb.data import catalog
 from matdb.design import PlateDesign, body_volume, design_to_toml, document_to_toml, exact_quantity, exact_temperature
 from matdb.errors import InputError
 from matdb.output import csv_text
 from matdb.physics.levitation import levitation_requirement
 from matdb.physics.thermal import br_at, lift_factor
+from matdb.reporting.schedule import SCHEDULE_COLUMNS, schedule_records
 from matdb.units import CONVENTIONS, chi_from_si_volume
 
 # ---------------------------------------------------------------------------
@@ -644,12 +644,6 @@ def stabilized_window_df(result: dict) -> pd.DataFrame:
     for c in cols[2:]:
         df[c] = pd.to_numeric(df[c], errors="coerce").astype(float)
     return df
-
-
-def payload_steps(payload_range, steps: int) -> np.ndarray:
-    """``steps`` payloads evenly over ``(lo, hi)`` [kg] (one when they are equal)."""
-    lo, hi = payload_range
-    return np.array([lo]) if hi == lo else np.linspace(lo, hi, max(int(steps), 2))
 
 
 def schedule_csv(result: dict) -> str:
