@@ -220,7 +220,3 @@ def records(df: pd.DataFrame) -> list[dict]:
     for r in df.to_dict(orient="records"):
         out.append({k: (None if (isinstance(v, float) and math.isnan(v)) else v) for k, v in r.items()})
     return out
-
-
-def iter_lines(text: str) -> Iterable[str]:
-    return text.splitlines()

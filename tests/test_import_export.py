@@ -13,7 +13,9 @@ from hypothesis import strategies as st
 
 from matdb.data import catalog
 from matdb.data import db
-from matdb.data import labvalues
+from matdb.data import exchange
+from matdb.data import lab_store
+from matdb import output
 
 DATA = Path(__file__).resolve().parent / "data"
 
@@ -142,10 +144,10 @@ def test_csv_export_escapes_formulas_but_not_numbers(fresh_db, run_cli):
     assert own["source"] == "''quoted note"  # a leading quote is doubled so import restores it
     for r in rows:
         for col, cell in r.items():
-            if cell and col not in labvalues.NUMERIC_COLUMNS:
+            if cell and col not in exchange.NUMERIC_COLUMNS:
                 assert cell[0] not in "=+-@", (col, cell)
     # JSON keeps notes as typed
-    hist = {r["value_id"]: r for r in labvalues.history("bismuth")}
+    hist = {r["value_id"]: r for r in lab_store.history("bismuth")}
     assert any(r["source"] == '=HYPERLINK("http://example.invalid","x")' for r in hist.values())
 
 
@@ -179,10 +181,10 @@ def test_round_trip_restores_measured_rows_into_a_fresh_database(fresh_db, run_c
 
 def test_retraction_travels_with_an_import(fresh_db, run_cli, tmp_path):
     _import(run_cli, DATA / "lab_good.csv")
-    vid = next(r["value_id"] for r in labvalues.history("graphite") if r["value_kind"] == "measured")
+    vid = next(r["value_id"] for r in lab_store.history("graphite") if r["value_kind"] == "measured")
     dump = tmp_path / "d.csv"
-    labvalues.retract(vid, "machined surface contaminated", "graphite")
-    dump.write_text(labvalues.export("csv"), encoding="utf-8")
+    lab_store.retract(vid, "machined surface contaminated", "graphite")
+    dump.write_text(exchange.export("csv"), encoding="utf-8")
     # an export that says retracted, imported where it is not retracted, retracts it there
     with db.session_scope() as s:
         from matdb.data.models import SusceptibilityValue
@@ -191,15 +193,15 @@ def test_retraction_travels_with_an_import(fresh_db, run_cli, tmp_path):
         v.retracted, v.retract_reason = False, None
     s = _import(run_cli, dump)
     assert s["retracted"] == 1 and s["added"] == 0
-    assert next(r for r in labvalues.history("graphite") if r["value_id"] == vid)["retracted"] is True
+    assert next(r for r in lab_store.history("graphite") if r["value_id"] == vid)["retracted"] is True
 
 
 @settings(max_examples=300, deadline=None)
 @given(st.text(max_size=30))
 def test_escape_round_trip_and_neutralises_formulas(text):
     # OWASP "CSV Injection": a cell must not begin with = + - @ tab or CR when a spreadsheet opens it
-    esc = labvalues.escape_cell(text)
-    assert labvalues.unescape_cell(esc) == text
+    esc = output.escape_cell(text)
+    assert output.unescape_cell(esc) == text
     assert not esc or esc[0] not in "=+-@\t\r"
 
 

@@ -10,7 +10,8 @@ from pathlib import Path
 import pytest
 
 from matdb.data import catalog
-from matdb.data import labvalues
+from matdb.analysis import inversions
+from matdb.data import lab_store
 from matdb.errors import InputError, NotFoundError
 
 
@@ -247,14 +248,14 @@ def test_prefer_and_retract_errors_write_nothing(fresh_db, run_cli):
 
 
 def test_library_record_and_retract(fresh_db):
-    r = labvalues.record_material_value("bismuth", chi=-1.6e-4, source="lib call", date="2026-11-02")
+    r = lab_store.record_material_value("bismuth", chi=-1.6e-4, source="lib call", date="2026-11-02")
     assert r["value_kind"] == "measured" and r["preferred"]
-    out = labvalues.retract(r["value_id"], "x", "bismuth")
+    out = lab_store.retract(r["value_id"], "x", "bismuth")
     assert out["retracted"] and out["retract_reason"] == "x"
     with pytest.raises(InputError, match="already retracted"):
-        labvalues.retract(r["value_id"], "x", "bismuth")
+        lab_store.retract(r["value_id"], "x", "bismuth")
     with pytest.raises(NotFoundError):
-        labvalues.history("no-such-thing")
+        lab_store.history("no-such-thing")
 
 
 def test_allow_paramagnetic_and_new_material(fresh_db, run_cli):
@@ -316,7 +317,7 @@ def test_surface_field_inverts_to_br_cuboid(fresh_db, run_cli):
 
 
 def test_surface_field_inverts_to_br_cylinder(fresh_db):
-    br, note = labvalues.surface_field_to_br("4800 G", "cylinder", "12 mm,6 mm", None)
+    br, note = inversions.surface_field_to_br("4800 G", "cylinder", "12 mm,6 mm", None)
     assert br == pytest.approx(0.48 / _cylinder_axis_bz(1.0, 6e-3, 6e-3, 0.0), rel=1e-6)
     assert "0 mm above" in note and "cylinder" in note
 
@@ -324,8 +325,8 @@ def test_surface_field_inverts_to_br_cylinder(fresh_db):
 def test_unit_field_is_linear_in_br():
     # B is linear in Br (superposition of magnetic charge; Furlani 2001, ch. 4): doubling the
     # measured field doubles the inferred Br
-    a, _ = labvalues.surface_field_to_br("0.25 T", "cuboid", "20 mm, 20 mm, 10 mm", "1 mm")
-    b, _ = labvalues.surface_field_to_br("0.5 T", "cuboid", "20 mm, 20 mm, 10 mm", "1 mm")
+    a, _ = inversions.surface_field_to_br("0.25 T", "cuboid", "20 mm, 20 mm, 10 mm", "1 mm")
+    b, _ = inversions.surface_field_to_br("0.5 T", "cuboid", "20 mm, 20 mm, 10 mm", "1 mm")
     assert b == pytest.approx(2 * a, rel=1e-12)
 
 
@@ -350,8 +351,8 @@ def test_float_gap_inverts_the_plate_physics(fresh_db, run_cli):
     assert "float gap" in r["note"] and "plate_checkerboard.toml" in r["note"] and 'grade = "N42"' in r["note"]
     assert r["temperature_c"] == pytest.approx(20.0)
     # lift is linear in |chi| (Berry and Geim 1997): a higher float means a larger |chi|
-    higher = labvalues.record_material_value("pyrolytic-graphite", from_float_gap=f"{gap * 1.2} m",
-                                             design=str(DESIGN), source="higher")
+    higher = inversions.record_chi_from_float_gap("pyrolytic-graphite", f"{gap * 1.2} m", str(DESIGN),
+                                                  source="higher")
     assert abs(higher["chi_si"]) > abs(r["chi_si"])
 
 

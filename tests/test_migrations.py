@@ -17,7 +17,7 @@ import pytest
 
 from matdb.data import catalog
 from matdb.data import db
-from matdb.data import labvalues
+from matdb.data import lab_store
 from matdb.data import migrate
 from matdb.errors import DataError
 
@@ -119,7 +119,7 @@ def test_upgrade_of_pre_alembic_database_keeps_every_row(pre_alembic):
     assert len(backups) == 1 and _rows(backups[0], tables) == before  # the copy is the file as it was
     # the lab values still behave: the chosen value is in use, the retraction and its reason kept
     assert catalog.get_material("bismuth", url).value_id == 22
-    hist = {r["value_id"]: r for r in labvalues.history("bismuth", url)}
+    hist = {r["value_id"]: r for r in lab_store.history("bismuth", url)}
     assert hist[23]["retracted"] and hist[23]["retract_reason"] == "demo: holder magnetic"
     # opening again is a no-op: no second backup
     _open(url)
@@ -262,10 +262,10 @@ def test_eight_processes_opening_an_empty_database_at_once(empty_backend, tmp_pa
                 p.kill()
                 p.communicate()
     assert all(rc == 0 for _, _, rc in results), [err for _, err, rc in results if rc]
-    measured = [r for r in labvalues.history("bismuth", empty_backend) if r["value_kind"] == "measured"]
+    measured = [r for r in lab_store.history("bismuth", empty_backend) if r["value_kind"] == "measured"]
     assert sorted(r["source"] for r in measured) == sorted(f"opener {i}" for i in range(n))
-    handbook = [r for r in labvalues.history("bismuth", empty_backend) if r["value_kind"] != "measured"]
-    assert len(handbook) == len([r for r in labvalues.history("bismuth", _seeded_reference(tmp_path))
+    handbook = [r for r in lab_store.history("bismuth", empty_backend) if r["value_kind"] != "measured"]
+    assert len(handbook) == len([r for r in lab_store.history("bismuth", _seeded_reference(tmp_path))
                                  if r["value_kind"] != "measured"])  # seeded once, not twice
 
 

@@ -19,7 +19,7 @@ import pytest
 
 from matdb.data import catalog
 from matdb.data import db
-from matdb.data import labvalues
+from matdb.data import lab_store
 
 DATA = Path(__file__).resolve().parent / "data"
 REPO = Path(__file__).resolve().parent.parent
@@ -64,7 +64,6 @@ def _export(run_cli) -> str:
 def _env(url: str) -> dict:
     env = dict(os.environ)
     env["MATDB_URL"] = url
-    env.pop("MATDB_TEST_IMPORT_PAUSE_AFTER", None)
     return env
 
 
@@ -83,7 +82,7 @@ def test_record_prefer_retract(backend, run_cli):
     assert catalog.get_material("bismuth").value_id == first
     assert run_cli("retract", str(first), "--id", "bismuth", "--reason", "holder magnetic")[0] == 0
     assert catalog.get_material("bismuth").value_id == second
-    rows = {r["value_id"]: r for r in labvalues.history("bismuth")}
+    rows = {r["value_id"]: r for r in lab_store.history("bismuth")}
     assert rows[first]["retracted"] and not rows[first]["preferred"] and rows[second]["preferred"]
     code, out, _ = run_cli("materials", "--format", "json")
     bi = next(m for m in json.loads(out) if m["id"] == "bismuth")
@@ -143,8 +142,20 @@ def test_concurrent_writers_all_succeed(backend, tmp_path):
                 p.kill()
                 p.communicate()
     assert all(rc == 0 for _, _, rc in results), [err for _, err, rc in results if rc]
-    measured = [r for r in labvalues.history("bismuth", backend) if r["value_kind"] == "measured"]
+    measured = [r for r in lab_store.history("bismuth", backend) if r["value_kind"] == "measured"]
     assert sorted(r["source"] for r in measured) == sorted(f"writer {i}" for i in range(n))
+
+
+_PAUSED_IMPORT = """
+import sys, time
+from matdb.data import exchange
+
+def pause(fraction, text):  # called with the rows written, inside the open transaction
+    print('matdb: import paused after ' + text, file=sys.stderr, flush=True)
+    time.sleep(120)
+
+exchange.import_file(sys.argv[1], progress=pause)
+"""
 
 
 def test_killed_import_leaves_the_database_as_it_was(backend, run_cli, tmp_path):
@@ -153,13 +164,11 @@ def test_killed_import_leaves_the_database_as_it_was(backend, run_cli, tmp_path)
     lines += [f"bismuth,-1.{i:04d}e-4,{15 + i % 10} degC,batch row {i},2026-09-{1 + i % 28:02d}" for i in range(400)]
     big.write_text("\n".join(lines) + "\n", encoding="utf-8")
     before = _export(run_cli)
-    env = _env(backend)
-    env["MATDB_TEST_IMPORT_PAUSE_AFTER"] = "150"  # labvalues pauses inside the transaction
-    p = subprocess.Popen([sys.executable, "-m", "matdb", "import", str(big)], env=env, cwd=REPO,
+    p = subprocess.Popen([sys.executable, "-c", _PAUSED_IMPORT, str(big)], env=_env(backend), cwd=REPO,
                          stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
     try:
         line = p.stderr.readline()
-        assert "paused after 150 rows" in line, line + p.stderr.read()
+        assert "paused after 400 of 400 rows written" in line, line + p.stderr.read()
         os.kill(p.pid, signal.SIGKILL)
         p.wait(timeout=30)
     finally:

@@ -50,7 +50,6 @@ _SIZE_FORM = {
     "rectangle": (3, "[x, y, thickness]"),
     "disc": (2, "[diameter, thickness]"),
 }
-DEFAULT_MIN_GAP_M = 2e-4
 
 
 # ---------------------------------------------------------------------------
