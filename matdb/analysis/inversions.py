@@ -24,7 +24,7 @@ from matdb.analysis.levitate import plate_geometry
 from matdb.constants import CHI_MAX_ABS, G_STANDARD, kelvin_to_celsius
 from matdb.data import catalog, lab_store
 from matdb.data.lab_input import check_br, given, require_source, text_of
-from matdb.design.plate import PlateDesign, load_design
+from matdb.design import PlateDesign, load_design
 from matdb.errors import InputError
 from matdb.limits import MAX_FILE_BYTES, read_text_limited
 from matdb.physics import plate as P

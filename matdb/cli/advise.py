@@ -16,6 +16,7 @@ from __future__ import annotations
 
 import math
 
+from matdb.cli import summary
 from matdb.advisor import engine as A
 from matdb.errors import InputError
 from matdb.output import add_format_argument, check_output_path, emit, to_json
@@ -79,7 +80,7 @@ def request_from_args(args, **extra) -> A.AdviceRequest:
 def register(sub) -> None:
     p = sub.add_parser(
         "advise",
-        help="rank plate materials x magnet grades x arrangements for a payload",
+        help=summary("advise"),
         description="Rank every plate material x magnet grade x default arrangement x plate "
         "thickness for a payload: worst-case margin at the required gap, stability, thermal "
         "derating, demagnetisation risk, cost; every rejection with its reason. "

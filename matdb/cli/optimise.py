@@ -15,6 +15,7 @@ from __future__ import annotations
 import math
 import sys
 
+from matdb.cli import summary
 from matdb.analysis import synthesis as S
 from matdb.errors import InputError
 from matdb.output import add_format_argument, emit, to_json
@@ -41,7 +42,7 @@ def _fm_module():
 def register(sub) -> None:
     p = sub.add_parser(
         "optimise",
-        help="size magnets, arrangement and plate beyond the catalogue",
+        help=summary("optimise"),
         description="Start from the best catalogue candidate of 'matdb advise' and vary the magnet "
         "size (continuous, or from --stock), rows and columns, spacing, plate side and thickness "
         "within the footprint, envelope and budget; every design shown is re-checked exactly as "

@@ -16,6 +16,7 @@ from pathlib import Path
 
 import numpy as np
 
+from matdb.cli import summary
 from matdb.errors import InputError
 from matdb.limits import MAX_FILE_BYTES, MAX_POINTS, check_count, check_magnitude, read_text_limited
 from matdb.output import add_format_argument, emit, to_json
@@ -82,7 +83,7 @@ def read_points_csv(path: str) -> np.ndarray:
 
 
 def _load(path: str):
-    from matdb.design.plate import load_design
+    from matdb.design import load_design
 
     return load_design(path)
 
@@ -107,7 +108,7 @@ def cmd_field(args) -> int:
         raise InputError("--at: give at least one point (--at '0,0,1 mm') or --points FILE.csv")
     check_count(len(pts), MAX_POINTS, "--at/--points", "points")
     temp = parse_temperature(args.temp, "--temp") if args.temp else None
-    from matdb.design.plate import load_design
+    from matdb.design import load_design
 
     design = load_design(args.design, need_plate=False)  # a field needs only the magnets
     emit(field_records(design, np.asarray(pts, dtype=float), temp), args.format,
@@ -261,7 +262,7 @@ def schedule_records(result: dict) -> list[dict]:
 
 
 def _payloads(args) -> np.ndarray | None:
-    from matdb.design.floating import parse_payload_range
+    from matdb.design import parse_payload_range
 
     if getattr(args, "payload_range", None) is None:
         if getattr(args, "steps", None) is not None:
@@ -299,7 +300,7 @@ def cmd_levitate(args) -> int:
 
 
 def register(subparsers) -> None:
-    p = subparsers.add_parser("field", help="B of a design's magnets at points",
+    p = subparsers.add_parser("field", help=summary("field"),
                               description="Flux density of a design's magnet arrangement "
                               "(Br at 20 C unless --temp) at points: --at 'x,y,z mm' "
                               "(repeatable) and/or --points FILE.csv with columns x_m,y_m,z_m.")
@@ -311,7 +312,7 @@ def register(subparsers) -> None:
     add_format_argument(p, choices=("json", "csv", "table"), default="table")
     p.set_defaults(func=cmd_field)
 
-    q = subparsers.add_parser("levitate", help="does the plate float, where, and is it stable",
+    q = subparsers.add_parser("levitate", help=summary("levitate"),
                               description="Floating-plate analysis of a design: lift curve, "
                               "equilibrium gap, payload, stiffnesses, stability, thermal "
                               "derating, worst case and safety distance. Floating-magnet "

@@ -37,7 +37,7 @@ from matdb.data.models import (
 )
 from matdb.constants import celsius_to_kelvin
 from matdb.data.lab_input import SLUG_RE, check_br, check_chi_magnitude, check_density, check_hcj, check_temp_coeff
-from matdb.units import CONVENTIONS, chi_to_si_volume, ureg
+from matdb.units import CONVENTIONS, chi_to_si_volume, quantity
 
 
 FILES = {
@@ -437,7 +437,7 @@ def _parse_properties(folder: Path, out: SeedSet, keys: set[str], material_ids: 
             if PROPERTY_UNITS[prop] == "K" and unit in ("degC", "C", "°C"):
                 si = celsius_to_kelvin(val)
             else:
-                si = float(ureg.Quantity(val, unit).to(PROPERTY_UNITS[prop]).magnitude)
+                si = float(quantity(val, unit).to(PROPERTY_UNITS[prop]).magnitude)
         except Exception as exc:  # pint raises several kinds
             raise r.err("unit_published", f"cannot convert {unit!r} to {PROPERTY_UNITS[prop]} ({exc})") from None
         skey = r.text("source_key")
