@@ -278,7 +278,8 @@ def _close_enough(a: Optional[float], b: Optional[float]) -> bool:
     return math.isclose(a, b, rel_tol=1e-9, abs_tol=1e-15)
 
 
-def _row_chi(s: Session, c: dict[str, str], mat: MaterialFacts, source_keys: set[str]) -> SusceptibilityValue:
+def _kind_and_source(c: dict[str, str], source_keys: set[str]) -> tuple[str, str]:
+    """(value_kind, source_key) of an imported value row; a measured row cites ``lab``."""
     quality = c.get("value_kind", "").strip() or "measured"
     if quality not in QUALITY_CLASSES:
         raise InputError(f"value_kind: expected one of {', '.join(QUALITY_CLASSES)}, got {quality!r}")
@@ -287,6 +288,23 @@ def _row_chi(s: Session, c: dict[str, str], mat: MaterialFacts, source_keys: set
         raise InputError("source_key: required for a published value")
     if skey not in source_keys:
         raise InputError(f"source_key: unknown source {skey!r}")
+    return quality, skey
+
+
+def _with_status(v, c: dict[str, str]):
+    """Value row ``v`` with the entry time and retraction of its imported cells ``c``."""
+    entered = parse_entered(text_of(c.get("entered_at")), "entered_at")
+    if entered is not None:
+        v.entered_at = entered
+    v.retracted = parse_bool(c.get("retracted"), "retracted")
+    v.retract_reason = text_of(c.get("retract_reason")) or None
+    if v.retracted and not v.retract_reason:
+        raise InputError("retract_reason: a retracted value needs its reason")
+    return v
+
+
+def _row_chi(s: Session, c: dict[str, str], mat: MaterialFacts, source_keys: set[str]) -> SusceptibilityValue:
+    quality, skey = _kind_and_source(c, source_keys)
     allow = parse_bool(c.get("allow_paramagnetic"), "allow_paramagnetic")
     if given(c.get("chi_si")):
         chi = parse_number(c["chi_si"], "chi_si")
@@ -336,23 +354,11 @@ def _row_chi(s: Session, c: dict[str, str], mat: MaterialFacts, source_keys: set
         labels["allow_paramagnetic"] = "allow_paramagnetic=true"
         v = build_chi_value(mat, f, labels)
         v.source_key = skey
-    entered = parse_entered(text_of(c.get("entered_at")), "entered_at")
-    if entered is not None:
-        v.entered_at = entered
-    v.retracted = parse_bool(c.get("retracted"), "retracted")
-    v.retract_reason = text_of(c.get("retract_reason")) or None
-    if v.retracted and not v.retract_reason:
-        raise InputError("retract_reason: a retracted value needs its reason")
-    return v
+    return _with_status(v, c)
 
 
 def _row_magnet(c: dict[str, str], grade: str, source_keys: set[str]) -> MagnetValue:
-    quality = c.get("value_kind", "").strip() or "measured"
-    if quality not in QUALITY_CLASSES:
-        raise InputError(f"value_kind: expected one of {', '.join(QUALITY_CLASSES)}, got {quality!r}")
-    skey = c.get("source_key", "").strip() or (LAB_SOURCE_KEY if quality == "measured" else "")
-    if skey not in source_keys:
-        raise InputError(f"source_key: unknown source {skey!r}")
+    quality, skey = _kind_and_source(c, source_keys)
     if quality == "measured":
         require_source(c.get("source"), "source")
     vals = {k: optional_number(c.get(k), k) for k in _MAGNET_NUM}
@@ -374,14 +380,7 @@ def _row_magnet(c: dict[str, str], grade: str, source_keys: set[str]) -> MagnetV
     v = MagnetValue(grade=grade, quality=quality, source_key=skey, source_note=text_of(c.get("source")),
                     note=text_of(c.get("note")), measured_by=text_of(c.get("measured_by")) or None,
                     measured_on=parse_date(c.get("date"), "date"), method=text_of(c.get("method")) or None, **vals)
-    entered = parse_entered(text_of(c.get("entered_at")), "entered_at")
-    if entered is not None:
-        v.entered_at = entered
-    v.retracted = parse_bool(c.get("retracted"), "retracted")
-    v.retract_reason = text_of(c.get("retract_reason")) or None
-    if v.retracted and not v.retract_reason:
-        raise InputError("retract_reason: a retracted value needs its reason")
-    return v
+    return _with_status(v, c)
 
 
 def _r(x: Optional[float]) -> Optional[float]:
