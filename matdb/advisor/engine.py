@@ -493,7 +493,8 @@ def _physics_fingerprint() -> str:
     if _FINGERPRINT is None:
         h = hashlib.sha256(CODE_VERSION.encode())
         here = Path(__file__).resolve().parent.parent / "physics"
-        for name in ("fields.py", "arrangement.py", "plate.py", "thermal.py", "recoil.py"):
+        for name in ("fields.py", "arrangement.py", "plate.py", "plate_geometry.py", "plate_lift.py",
+                     "plate_stiffness.py", "plate_intervals.py", "quadrature.py", "thermal.py", "recoil.py"):
             try:
                 h.update((here / name).read_bytes())
             except OSError:
