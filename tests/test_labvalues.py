@@ -99,7 +99,7 @@ BAD_RECORDS = [
     (["bismuth", "--chi", "1e400", "--source", "x"], "--chi"),
     (["bismuth", "--chi", "-1e300", "--source", "x"], "--chi"),
     (["bismuth", "--chi", "-0.5", "--source", "x"], "--chi"),
-    (["bismuth", "--chi", "1.6e-4", "--source", "x"], "--allow-paramagnetic"),
+    (["bismuth", "--chi", "1.6e-4", "--source", "x"], "allow_paramagnetic"),  # the override, named by its field
     (["bismuth", "--chi", "-1.6e-4", "--temperature", "20", "--source", "x"], "--temperature"),
     (["bismuth", "--chi", "-1.6e-4", "--temperature", "5 kg", "--source", "x"], "--temperature"),
     (["bismuth", "--chi", "-1.6e-4", "--density", "9780", "--source", "x"], "--density"),

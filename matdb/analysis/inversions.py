@@ -35,7 +35,7 @@ from matdb.units import parse_flux_density, parse_length
 def _parse_size(text: Any, label: str) -> tuple[float, ...]:
     parts = [p for p in re.split(r"\s*[,x×]\s*(?=[-+.\d])", text_of(text)) if p.strip()]
     if not parts:
-        raise InputError(f"{label}: expected lengths such as '10 mm,10 mm,5 mm'")
+        raise InputError("expected lengths such as '10 mm,10 mm,5 mm'", field=label)
     return tuple(parse_length(p, label, positive=True) for p in parts)
 
 
@@ -52,31 +52,31 @@ def surface_field_to_br(surface_field: Any, shape: Any, size: Any, probe_offset:
     .. [1] E. P. Furlani, "Permanent Magnet and Electromechanical Devices", Academic
        Press, 2001, ch. 4 (fields of uniformly magnetised cuboids and cylinders).
     """
-    b_meas = parse_flux_density(text_of(surface_field), "--surface-field")
+    b_meas = parse_flux_density(text_of(surface_field), "surface_field")
     if not (b_meas > 0):
-        raise InputError("--surface-field: expected a positive field, e.g. '0.52 T' or '5200 G'")
+        raise InputError("expected a positive field, e.g. '0.52 T' or '5200 G'", field="surface_field")
     shp = text_of(shape).lower()
     if shp not in ("cuboid", "cylinder"):
-        raise InputError(f"--shape: expected cuboid or cylinder, got {text_of(shape)!r}")
+        raise InputError(f"expected cuboid or cylinder, got {text_of(shape)!r}", field="shape")
     if not given(size):
-        raise InputError("--size: needed with --surface-field, e.g. '10 mm,10 mm,10 mm' (cuboid: x,y,height) "
-                         "or '10 mm,5 mm' (cylinder: diameter,height)")
-    dims = _parse_size(size, "--size")
+        raise InputError("needed with surface_field, e.g. '10 mm,10 mm,10 mm' (cuboid: x,y,height) "
+                         "or '10 mm,5 mm' (cylinder: diameter,height)", field="size")
+    dims = _parse_size(size, "size")
     want = 3 if shp == "cuboid" else 2
     if len(dims) != want:
-        raise InputError(f"--size: a {shp} needs {want} lengths "
-                         f"({'x,y,height' if shp == 'cuboid' else 'diameter,height'}), got {text_of(size)!r}")
-    offset = parse_length(text_of(probe_offset), "--probe-offset") if given(probe_offset) else 0.0
+        raise InputError(f"a {shp} needs {want} lengths "
+                         f"({'x,y,height' if shp == 'cuboid' else 'diameter,height'}), got {text_of(size)!r}", field="size")
+    offset = parse_length(text_of(probe_offset), "probe_offset") if given(probe_offset) else 0.0
     arr = build_arrangement(shp, dims, pattern="single", br=1.0)
     b_unit = float(np.asarray(arr.B(np.array([[0.0, 0.0, offset]])))[0, 2])
     if not (math.isfinite(b_unit) and b_unit > 0):
-        raise InputError("--probe-offset: the model gives no usable field there; check --size and --probe-offset")
+        raise InputError("the model gives no usable field there; check size and probe_offset", field="probe_offset")
     br = b_meas / b_unit
     try:
-        check_br(br, "--surface-field")
+        check_br(br, "surface_field")
     except InputError:
-        raise InputError(f"--surface-field: {text_of(surface_field)!r} on this {shp} implies Br = {br:.3g} T, "
-                         "which is implausible; check --size and --probe-offset") from None
+        raise InputError(f"{text_of(surface_field)!r} on this {shp} implies Br = {br:.3g} T, "
+                         "which is implausible; check size and probe_offset", field="surface_field") from None
     dims_txt = ",".join(f"{d * 1000:g} mm" for d in dims)
     assumed = (f"Br from surface field: measured {b_meas:.6g} T on the axis {offset * 1000:g} mm above the "
                f"face centre of a single {shp} {dims_txt} (model field there at Br = 1 T: "
@@ -100,16 +100,16 @@ def invert_float_gap(gap_m: float, design_path: Path, material) -> tuple[float, 
     """
     d = load_design(design_path)
     if not isinstance(d, PlateDesign):
-        raise InputError("--design: expected a floating-plate design ([magnets] and [plate] tables)")
+        raise InputError("expected a floating-plate design ([magnets] and [plate] tables)", field="design")
     if d.plate.material != material.id:
-        raise InputError(f"--design: the plate in {str(design_path)!r} is {d.plate.material!r}, "
-                         f"not {material.id!r}; use a design of the sample that was floated")
+        raise InputError(f"the plate in {str(design_path)!r} is {d.plate.material!r}, "
+                         f"not {material.id!r}; use a design of the sample that was floated", field="design")
     if material.kind != "diamagnetic":
-        raise InputError(f"--from-float-gap: {material.id} is not diamagnetic; it cannot float")
+        raise InputError(f"{material.id} is not diamagnetic; it cannot float", field="from_float_gap")
     cover = d.magnets.cover_m
     if gap_m <= cover:
-        raise InputError(f"--from-float-gap: the gap ({gap_m * 1000:g} mm, plate bottom above the magnets' "
-                         f"top faces) must exceed the cover sheet ({cover * 1000:g} mm)")
+        raise InputError(f"the gap ({gap_m * 1000:g} mm, plate bottom above the magnets' "
+                         f"top faces) must exceed the cover sheet ({cover * 1000:g} mm)", field="from_float_gap")
     t_k = d.conditions.nominal_k
     arr = d.arrangement(t_k)
     geom = plate_geometry(d, arr)
@@ -119,23 +119,23 @@ def invert_float_gap(gap_m: float, design_path: Path, material) -> tuple[float, 
     weight = (material.density_kg_m3 * d.plate.volume_m3 + d.plate.payload_kg) * G_STANDARD
     f1, f2 = (float(x) for x in P.lift_force(arr.B, geom, [gap_m, gap_m * 1.02], 1.0, ratio))
     if not (f1 > 0 and math.isfinite(f1)):
-        raise InputError("--from-float-gap: the design gives no lift at that gap")
+        raise InputError("the design gives no lift at that gap", field="from_float_gap")
     if f2 >= f1:
-        raise InputError(f"--from-float-gap: at {gap_m * 1000:g} mm the lift of this design still rises with "
-                         "the gap, so a plate cannot rest there stably; check the gap and the design")
+        raise InputError(f"at {gap_m * 1000:g} mm the lift of this design still rises with "
+                         "the gap, so a plate cannot rest there stably; check the gap and the design", field="from_float_gap")
     chi_abs = weight / f1
     if chi_abs > CHI_MAX_ABS:
-        raise InputError(f"--from-float-gap: a float at {gap_m * 1000:g} mm needs |chi| = {chi_abs:.3g}, "
-                         "implausible for a diamagnet; check the gap and the design")
+        raise InputError(f"a float at {gap_m * 1000:g} mm needs |chi| = {chi_abs:.3g}, "
+                         "implausible for a diamagnet; check the gap and the design", field="from_float_gap")
     return -chi_abs, {"temperature_k": t_k, "ratio": ratio, "weight_n": weight, "unit_lift_n": f1}
 
 
 def chi_fields_from_float_gap(material_id: str, gap: Any, design: Any, url: Optional[str] = None) -> dict:
     """Typed fields of a lab value (``chi`` or ``chi_perp``/``chi_par`` as SI numbers,
     ``temperature``, ``note``) from a measured float gap over a design file."""
-    gap_m = parse_length(text_of(gap), "--from-float-gap", positive=True)
+    gap_m = parse_length(text_of(gap), "from_float_gap", positive=True)
     path = Path(text_of(design))
-    content = read_text_limited(path, "--design", MAX_FILE_BYTES)
+    content = read_text_limited(path, "design", MAX_FILE_BYTES)
     m = catalog.get_material(material_id, url)
     chi_v, assumed = invert_float_gap(gap_m, path, m)
     aniso = m.anisotropic and m.chi_par_si is not None
@@ -161,14 +161,14 @@ def record_chi_from_float_gap(material_id: str, gap: Any, design: Any, *, chi: A
     """Record the susceptibility a float gap implies (:func:`invert_float_gap`) as a lab value
     of an existing material; ``fields`` are those of :func:`matdb.data.lab_store.record_material_value`
     (source, measured_by, date, method...). A typed ``temperature`` replaces the design's."""
-    require_source(fields.get("source"), "--source")
+    require_source(fields.get("source"), "source")
     if given(chi) or given(chi_perp) or given(chi_par):
-        raise InputError("--from-float-gap: give either --chi or --from-float-gap with --design, not both")
+        raise InputError("give either chi, or from_float_gap with design, not both", field="from_float_gap")
     if not (given(gap) and given(design)):
-        missing = "--design" if given(gap) else "--from-float-gap"
-        raise InputError(f"{missing}: --from-float-gap and --design go together")
+        missing = "design" if given(gap) else "from_float_gap"
+        raise InputError("from_float_gap and design go together", field=missing)
     if given(name):
-        raise InputError("--from-float-gap: needs an existing material (its perp/par ratio and density)")
+        raise InputError("needs an existing material (its perp/par ratio and density)", field="from_float_gap")
     mid = text_of(material_id).lower()
     derived = chi_fields_from_float_gap(mid, gap, design, url)
     if given(temperature):
@@ -184,12 +184,12 @@ def record_magnet_from_surface_field(grade: str, surface_field: Any, shape: Any,
     value of ``grade``; ``fields`` are those of :func:`matdb.data.lab_store.record_magnet_value`
     (hcj, alpha, source...)."""
     if not given(surface_field):
-        for flag, val in (("--shape", shape), ("--size", size), ("--probe-offset", probe_offset)):
+        for flag, val in (("shape", shape), ("size", size), ("probe_offset", probe_offset)):
             if given(val):
-                raise InputError(f"{flag}: only used with --surface-field")
+                raise InputError("only used with surface_field", field=flag)
     if given(br):
-        raise InputError("--surface-field: give --br or --surface-field, not both")
-    require_source(fields.get("source"), "--source")
+        raise InputError("give br or surface_field, not both", field="surface_field")
+    require_source(fields.get("source"), "source")
     br_t, assumed = surface_field_to_br(surface_field, shape, size, probe_offset)
     note = "; ".join(x for x in (text_of(note), assumed) if x)
     return lab_store.record_magnet_value(grade, br=f"{br_t!r} T", note=note, url=url, **fields)

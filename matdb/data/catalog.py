@@ -98,7 +98,7 @@ class GradeProps:
     source: str
 
 
-def check_family(name, field: str = "--family") -> str:
+def check_family(name, field: str = "family") -> str:
     """The family name as matdb spells it (any case accepted); an unknown one is refused.
 
     Every command and page that takes a magnet family goes through here, so each refuses
@@ -108,8 +108,8 @@ def check_family(name, field: str = "--family") -> str:
     for f in FAMILIES:
         if f.lower() == text.lower():
             return f
-    raise NotFoundError(f"{field}: unknown magnet family {text!r}; expected one of {', '.join(FAMILIES)}"
-                        + did_you_mean(text, FAMILIES))
+    raise NotFoundError(f"unknown magnet family {text!r}; expected one of {', '.join(FAMILIES)}"
+                        + did_you_mean(text, FAMILIES), field=field)
 
 
 def did_you_mean(name: str, choices: Iterable[str]) -> str:
@@ -228,7 +228,7 @@ def get_material(material_id: str, url: str | None = None) -> MaterialProps:
         m = s.get(Material, material_id)
         if m is None:
             ids = s.exec(select(Material.id)).all()
-            raise NotFoundError(f"material: unknown id {material_id!r}{did_you_mean(material_id, ids)}")
+            raise NotFoundError(f"unknown id {material_id!r}{did_you_mean(material_id, ids)}", field="material")
         values = s.exec(select(SusceptibilityValue).where(SusceptibilityValue.material_id == m.id)).all()
         return _material_props(m, list(values), _sources(s))
 
@@ -243,7 +243,7 @@ def get_grade(grade: str, url: str | None = None) -> GradeProps:
             if len(same) == 1:
                 g = s.get(MagnetGrade, same[0])
             else:
-                raise NotFoundError(f"grade: unknown magnet grade {grade!r}{did_you_mean(grade, all_grades)}")
+                raise NotFoundError(f"unknown magnet grade {grade!r}{did_you_mean(grade, all_grades)}", field="grade")
         values = s.exec(select(MagnetValue).where(MagnetValue.grade == g.grade)).all()
         return _grade_props(g, list(values), _sources(s))
 
@@ -287,7 +287,7 @@ def material_values(material_id: str, url: str | None = None) -> list[dict]:
         m = s.get(Material, material_id)
         if m is None:
             ids = s.exec(select(Material.id)).all()
-            raise NotFoundError(f"material: unknown id {material_id!r}{did_you_mean(material_id, ids)}")
+            raise NotFoundError(f"unknown id {material_id!r}{did_you_mean(material_id, ids)}", field="material")
         values = list(s.exec(select(SusceptibilityValue).where(SusceptibilityValue.material_id == m.id)
                              .order_by(SusceptibilityValue.id)).all())
         pref = choose_preferred(values, m.preferred_value_id)
@@ -486,7 +486,7 @@ def sources_summary(status: str | None = None, url: str | None = None) -> list[d
     ``status`` (verified, corrected, unverified) keeps only sources with values of that status.
     """
     if status is not None and status not in PROVENANCE_STATUSES:
-        raise InputError(f"--status: expected one of {', '.join(PROVENANCE_STATUSES)}, got {status!r}")
+        raise InputError(f"expected one of {', '.join(PROVENANCE_STATUSES)}, got {status!r}", field="status")
     with read_session(url) as s:
         counts: dict[str, dict[str, int]] = {}
         for p in s.exec(select(ValueProvenance)).all():

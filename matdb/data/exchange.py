@@ -24,7 +24,6 @@ from sqlmodel import Session, select
 from matdb.data import catalog
 from matdb.data.db import read_session, session_scope
 from matdb.data.lab_input import (
-    CLI_LABELS,
     GRADE_RE,
     LAB_SOURCE_KEY,
     SLUG_RE,
@@ -166,7 +165,7 @@ def export(fmt: str = "json", url: Optional[str] = None) -> str:
     if fmt == "json":
         return json.dumps(data, indent=2, ensure_ascii=False) + "\n"
     if fmt != "csv":
-        raise InputError(f"--format: expected csv or json, got {fmt!r}")
+        raise InputError(f"expected csv or json, got {fmt!r}", field="format")
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(EXPORT_COLUMNS)
@@ -246,7 +245,7 @@ def _json_rows(text: str, label: str) -> list[tuple[str, dict[str, str]]]:
     except json.JSONDecodeError as exc:
         raise InputError(f"{label}: not valid JSON (line {exc.lineno}: {exc.msg})") from None
     if not isinstance(data, dict) or data.get("format") != "matdb-export":
-        raise InputError(f"{label}: JSON import expects a 'matdb export --format json' file")
+        raise InputError(f"{label}: JSON import expects a file written by 'matdb export --format json'")
     rows = []
     for group in ("sources", "materials", "grades", "values"):
         items = data.get(group, [])
@@ -282,12 +281,12 @@ def _kind_and_source(c: dict[str, str], source_keys: set[str]) -> tuple[str, str
     """(value_kind, source_key) of an imported value row; a measured row cites ``lab``."""
     quality = c.get("value_kind", "").strip() or "measured"
     if quality not in QUALITY_CLASSES:
-        raise InputError(f"value_kind: expected one of {', '.join(QUALITY_CLASSES)}, got {quality!r}")
+        raise InputError(f"expected one of {', '.join(QUALITY_CLASSES)}, got {quality!r}", field="value_kind")
     skey = c.get("source_key", "").strip() or (LAB_SOURCE_KEY if quality == "measured" else "")
     if not skey:
-        raise InputError("source_key: required for a published value")
+        raise InputError("required for a published value", field="source_key")
     if skey not in source_keys:
-        raise InputError(f"source_key: unknown source {skey!r}")
+        raise InputError(f"unknown source {skey!r}", field="source_key")
     return quality, skey
 
 
@@ -299,7 +298,7 @@ def _with_status(v, c: dict[str, str]):
     v.retracted = parse_bool(c.get("retracted"), "retracted")
     v.retract_reason = text_of(c.get("retract_reason")) or None
     if v.retracted and not v.retract_reason:
-        raise InputError("retract_reason: a retracted value needs its reason")
+        raise InputError("a retracted value needs its reason", field="retract_reason")
     return v
 
 
@@ -311,15 +310,15 @@ def _row_chi(s: Session, c: dict[str, str], mat: MaterialFacts, source_keys: set
         perp = optional_number(c.get("chi_perp_si"), "chi_perp_si")
         par = optional_number(c.get("chi_par_si"), "chi_par_si")
         if perp is not None and not _close_enough(perp, chi):
-            raise InputError("chi_perp_si: must equal chi_si (chi_si is the value along the c axis)")
+            raise InputError("must equal chi_si (chi_si is the value along the c axis)", field="chi_perp_si")
         if mat.anisotropic and par is None:
-            raise InputError(f"chi_par_si: {mat.id} is anisotropic: the in-plane value is needed")
+            raise InputError(f"{mat.id} is anisotropic: the in-plane value is needed", field="chi_par_si")
         if not mat.anisotropic and par is not None:
-            raise InputError(f"chi_par_si: {mat.id} is isotropic")
+            raise InputError(f"{mat.id} is isotropic", field="chi_par_si")
         for val, lab in ((chi, "chi_si"), (par, "chi_par_si")):
             if val is not None:
                 check_measured_chi(val, lab, val)
-                check_sign(mat, val, lab, allow, "allow_paramagnetic=true")
+                check_sign(mat, val, lab, allow)
         conv = c.get("convention", "").strip() or "si-volume"
         conv = parse_convention(conv, "convention")
         pub = optional_number(c.get("value_published"), "value_published")
@@ -328,7 +327,7 @@ def _row_chi(s: Session, c: dict[str, str], mat: MaterialFacts, source_keys: set
             check_uncertainty(unc, "uncertainty_si")
         t_k = optional_number(c.get("temperature_k"), "temperature_k")
         if t_k is not None and t_k <= 0:
-            raise InputError(f"temperature_k: expected a temperature above 0 K, got {t_k!r}")
+            raise InputError(f"expected a temperature above 0 K, got {t_k!r}", field="temperature_k")
         rho = optional_number(c.get("density_kg_m3"), "density_kg_m3")
         if rho is not None:
             check_density(rho, "density_kg_m3")
@@ -345,15 +344,12 @@ def _row_chi(s: Session, c: dict[str, str], mat: MaterialFacts, source_keys: set
             measured_on=parse_date(c.get("date"), "date"), method=text_of(c.get("method")) or None)
     else:
         if quality != "measured":
-            raise InputError("chi_si: a published value needs chi_si")
+            raise InputError("a published value needs chi_si", field="chi_si")
         f = {k: c.get(k) for k in ("chi", "chi_perp", "chi_par", "temperature", "uncertainty", "source",
                                    "measured_by", "date", "method", "molar_mass", "note", "convention")}
         f["density"] = c.get("density")
         f["allow_paramagnetic"] = allow
-        labels = {k: k for k in CLI_LABELS}
-        labels["allow_paramagnetic"] = "allow_paramagnetic=true"
-        v = build_chi_value(mat, f, labels)
-        v.source_key = skey
+        v = build_chi_value(mat, f, source_key=skey)
     return _with_status(v, c)
 
 
@@ -376,7 +372,7 @@ def _row_magnet(c: dict[str, str], grade: str, source_keys: set[str]) -> MagnetV
         if vals[col] is not None:
             check(vals[col], col)
     if all(v is None for v in vals.values()):
-        raise InputError("br_t: no property given")
+        raise InputError("no property given", field="br_t")
     v = MagnetValue(grade=grade, quality=quality, source_key=skey, source_note=text_of(c.get("source")),
                     note=text_of(c.get("note")), measured_by=text_of(c.get("measured_by")) or None,
                     measured_on=parse_date(c.get("date"), "date"), method=text_of(c.get("method")) or None, **vals)
@@ -486,15 +482,15 @@ def _plan_import(s: Session, rows: list[tuple[str, dict[str, str]]], label: str)
         try:
             key = text_of(c.get("id"))
             if not key:
-                raise InputError("id: the source key is empty")
+                raise InputError("the source key is empty", field="id")
             if key in source_keys:
                 continue
             kind = text_of(c.get("kind"))
             if kind not in SOURCE_KINDS:
-                raise InputError(f"kind: expected one of {', '.join(SOURCE_KINDS)}, got {kind!r}")
+                raise InputError(f"expected one of {', '.join(SOURCE_KINDS)}, got {kind!r}", field="kind")
             cit = text_of(c.get("citation"))
             if not cit:
-                raise InputError("citation: required")
+                raise InputError("required", field="citation")
             year = optional_number(c.get("year"), "year")
             plan.sources.append(Source(key=key, citation=cit, kind=kind, year=int(year) if year is not None else None,
                                        note=text_of(c.get("note"))))
@@ -509,23 +505,23 @@ def _plan_import(s: Session, rows: list[tuple[str, dict[str, str]]], label: str)
             if s.get(Material, mid) is not None or mid in pending:
                 continue
             if not SLUG_RE.match(mid):
-                raise InputError(f"id: expected a lower-case slug, got {mid!r}")
+                raise InputError(f"expected a lower-case slug, got {mid!r}", field="id")
             name = text_of(c.get("name"))
             if not name:
-                raise InputError("name: required for a new material")
+                raise InputError("required for a new material", field="name")
             kind = text_of(c.get("kind")) or "diamagnetic"
             if kind not in MATERIAL_KINDS:
-                raise InputError(f"kind: expected one of {', '.join(MATERIAL_KINDS)}, got {kind!r}")
+                raise InputError(f"expected one of {', '.join(MATERIAL_KINDS)}, got {kind!r}", field="kind")
             rho = optional_number(c.get("density_kg_m3"), "density_kg_m3")
             if rho is None:
                 raise InputError("density_kg_m3: required for a new material")
             check_density(rho, "density_kg_m3")
             mm = optional_number(c.get("molar_mass_kg_mol"), "molar_mass_kg_mol")
             if mm is not None and mm <= 0:
-                raise InputError("molar_mass_kg_mol: expected a positive molar mass")
+                raise InputError("expected a positive molar mass", field="molar_mass_kg_mol")
             dsk = text_of(c.get("density_source_key")) or None
             if dsk and dsk not in source_keys:
-                raise InputError(f"density_source_key: unknown source {dsk!r}")
+                raise InputError(f"unknown source {dsk!r}", field="density_source_key")
             aniso = parse_bool(c.get("anisotropic"), "anisotropic")
             m = Material(id=mid, name=name, kind=kind, density_kg_m3=rho, molar_mass_kg_mol=mm, anisotropic=aniso,
                          price_usd_per_kg=optional_number(c.get("price_usd_per_kg"), "price_usd_per_kg"),
@@ -545,7 +541,7 @@ def _plan_import(s: Session, rows: list[tuple[str, dict[str, str]]], label: str)
             if find_grade(s, gid) is not None or gid in pending_grades:
                 continue
             if not GRADE_RE.match(gid):
-                raise InputError(f"id: not a grade name: {gid!r}")
+                raise InputError(f"not a grade name: {gid!r}", field="id")
             fam = catalog.check_family(c.get("family"), "family")
             plan.grades.append(MagnetGrade(grade=gid, family=fam,
                                            price_usd_per_kg=optional_number(c.get("price_usd_per_kg"), "price_usd_per_kg"),
@@ -562,12 +558,12 @@ def _plan_import(s: Session, rows: list[tuple[str, dict[str, str]]], label: str)
         try:
             mid = (text_of(c.get("material_id")) or text_of(c.get("id"))).lower()
             if not mid:
-                raise InputError("material_id: empty")
+                raise InputError("empty", field="material_id")
             mat = resolve_material(s, mid, {"name": c.get("name"), "density": c.get("density"),
                                              "molar_mass": c.get("molar_mass"), "chi": c.get("chi"),
                                              "chi_perp": c.get("chi_perp"), "chi_par": c.get("chi_par"),
                                              "allow_paramagnetic": parse_bool(c.get("allow_paramagnetic"), "allow_paramagnetic")},
-                                    {**{k: k for k in CLI_LABELS}, "name": "name", "density": "density"}, pending)
+                                    pending)
             if mat.new and mid not in pending:
                 pending[mid] = mat
                 plan.materials.append(mat.to_row())
@@ -585,7 +581,7 @@ def _plan_import(s: Session, rows: list[tuple[str, dict[str, str]]], label: str)
             g = find_grade(s, gid)
             name = g.grade if g is not None else gid
             if g is None and gid not in pending_grades:
-                raise InputError(f"id: unknown magnet grade {gid!r} (add a grade row for it)")
+                raise InputError(f"unknown magnet grade {gid!r} (add a grade row for it)", field="id")
             v = _row_magnet(c, name, source_keys)
             pref = parse_bool(c.get("preference_set"), "preference_set")
             _plan_value(plan, "magnet", name, v, pref, existing_mag, pinned_grades,

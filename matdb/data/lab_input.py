@@ -47,15 +47,6 @@ SLUG_RE = re.compile(r"^[a-z0-9]+(-[a-z0-9]+)*$")  # material ids: 'pyrolytic-gr
 GRADE_RE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._+-]*$")  # magnet grades: 'N42SH', 'SmCo-26'
 DATE_RE = re.compile(r"^\d{4}-\d{2}-\d{2}$")
 
-#: Field of a typed value -> the CLI option that carries it (used in messages).
-CLI_LABELS = {
-    "chi": "--chi", "chi_perp": "--chi-perp", "chi_par": "--chi-par", "density": "--density",
-    "temperature": "--temperature", "uncertainty": "--uncertainty", "molar_mass": "--molar-mass",
-    "source": "--source", "date": "--date", "allow_paramagnetic": "--allow-paramagnetic",
-    "name": "--name", "br": "--br", "hcj": "--hcj", "alpha": "--alpha", "max_temp": "--max-temp",
-    "family": "--family",
-}
-
 
 # ---------------------------------------------------------------------------
 # plausibility (shared with the seed loader)
@@ -64,7 +55,7 @@ def check_density(rho: float, label: str) -> float:
     """``rho`` [kg/m^3] within :data:`matdb.constants.DENSITY_RANGE_KG_M3`, else InputError."""
     lo, hi = DENSITY_RANGE_KG_M3
     if not (lo <= rho <= hi):
-        raise InputError(f"{label}: implausible density {rho!r} kg/m^3 (expected {lo:g} to {hi:g} kg/m^3)")
+        raise InputError(f"implausible density {rho!r} kg/m^3 (expected {lo:g} to {hi:g} kg/m^3)", field=label)
     return rho
 
 
@@ -72,8 +63,8 @@ def check_chi_magnitude(chi: float, label: str, typed: Any = None) -> float:
     """|chi| (SI volume) at most :data:`matdb.constants.CHI_MAX_ABS`, else InputError."""
     if abs(chi) > CHI_MAX_ABS:
         what = f" from {text_of(typed)!r}" if typed is not None else ""
-        raise InputError(f"{label}: |chi| = {abs(chi):.3g} (SI volume){what} is implausible for a dia- or "
-                         f"paramagnet (limit {CHI_MAX_ABS:g}); check the convention or unit")
+        raise InputError(f"|chi| = {abs(chi):.3g} (SI volume){what} is implausible for a dia- or "
+                         f"paramagnet (limit {CHI_MAX_ABS:g}); check the convention or unit", field=label)
     return chi
 
 
@@ -81,23 +72,23 @@ def check_br(br: float, label: str) -> float:
     """Remanence [T] within :data:`matdb.constants.BR_RANGE_T`, else InputError."""
     lo, hi = BR_RANGE_T
     if not (lo <= br <= hi):
-        raise InputError(f"{label}: implausible remanence {br:.4g} T (expected {lo:g} to {hi:g} T)")
+        raise InputError(f"implausible remanence {br:.4g} T (expected {lo:g} to {hi:g} T)", field=label)
     return br
 
 
 def check_hcj(h: float, label: str) -> float:
     """Intrinsic coercivity [kA/m] above 0 and at most :data:`matdb.constants.HCJ_MAX_KA_M`."""
     if not (0 < h <= HCJ_MAX_KA_M):
-        raise InputError(f"{label}: implausible coercivity {h:.4g} kA/m (expected above 0 and at most "
-                         f"{HCJ_MAX_KA_M:g} kA/m)")
+        raise InputError(f"implausible coercivity {h:.4g} kA/m (expected above 0 and at most "
+                         f"{HCJ_MAX_KA_M:g} kA/m)", field=label)
     return h
 
 
 def check_temp_coeff(a: float, label: str) -> float:
     """A temperature coefficient of Br or Hcj [%/K] within +-ALPHA_MAX_PCT_PER_K."""
     if abs(a) > ALPHA_MAX_PCT_PER_K:
-        raise InputError(f"{label}: implausible temperature coefficient {a:g} %/K "
-                         f"(expected |value| <= {ALPHA_MAX_PCT_PER_K:g})")
+        raise InputError(f"implausible temperature coefficient {a:g} %/K "
+                         f"(expected |value| <= {ALPHA_MAX_PCT_PER_K:g})", field=label)
     return a
 
 
@@ -121,24 +112,24 @@ def require_source(text: Any, label: str) -> str:
     """The free-text note saying where a value comes from; refused when empty."""
     s = text_of(text)
     if not s:
-        raise InputError(f"{label}: required: say where the value comes from "
-                         "(e.g. 'Gouy balance, sample B3, lab notebook 4 p. 12')")
+        raise InputError("required: say where the value comes from "
+                         "(e.g. 'Gouy balance, sample B3, lab notebook 4 p. 12')", field=label)
     return s
 
 
-def parse_date(text: Any, label: str = "--date") -> Optional[_dt.date]:
+def parse_date(text: Any, label: str = "date") -> Optional[_dt.date]:
     """``YYYY-MM-DD`` (not in the future), or None when empty."""
     s = text_of(text)
     if not s:
         return None
     if not DATE_RE.match(s):
-        raise InputError(f"{label}: expected a date YYYY-MM-DD, got {s!r}")
+        raise InputError(f"expected a date YYYY-MM-DD, got {s!r}", field=label)
     try:
         d = _dt.date.fromisoformat(s)
     except ValueError:
-        raise InputError(f"{label}: not a calendar date: {s!r}") from None
+        raise InputError(f"not a calendar date: {s!r}", field=label) from None
     if d > _dt.date.today() + _dt.timedelta(days=1):
-        raise InputError(f"{label}: {s} is in the future")
+        raise InputError(f"{s} is in the future", field=label)
     return d
 
 
@@ -150,7 +141,7 @@ def parse_entered(text: Any, label: str) -> Optional[_dt.datetime]:
     try:
         d = _dt.datetime.fromisoformat(s)
     except ValueError:
-        raise InputError(f"{label}: expected an ISO date and time, got {s!r}") from None
+        raise InputError(f"expected an ISO date and time, got {s!r}", field=label) from None
     if d.tzinfo is None:  # entry times are UTC (matdb.data.models)
         return d.replace(tzinfo=_dt.timezone.utc)
     return d.astimezone(_dt.timezone.utc)
@@ -171,7 +162,7 @@ def parse_bool(text: Any, label: str, default: bool = False) -> bool:
         return True
     if s in ("false", "no", "0"):
         return False
-    raise InputError(f"{label}: expected true or false, got {s!r}")
+    raise InputError(f"expected true or false, got {s!r}", field=label)
 
 
 def parse_chi_text(text: Any, label: str, rho: Optional[float], mm: Optional[float],
@@ -180,20 +171,20 @@ def parse_chi_text(text: Any, label: str, rho: Optional[float], mm: Optional[flo
     """(chi_si, value as typed, convention) from ``"-1.6e-4"`` or ``"-280e-6 cm^3/mol"``."""
     s = text_of(text)
     if not s:
-        raise InputError(f"{label}: required: a susceptibility such as -1.6e-4 or '-1.31e-5 cgs-volume'")
+        raise InputError("required: a susceptibility such as -1.6e-4 or '-1.31e-5 cgs-volume'", field=label)
     try:
         value, unit = _split_number_unit(s, label)
     except InputError:
-        raise InputError(f"{label}: expected a susceptibility such as -1.6e-4 or "
-                         f"'-280e-6 cm^3/mol', got {s!r}") from None
+        raise InputError(f"expected a susceptibility such as -1.6e-4 or "
+                         f"'-280e-6 cm^3/mol', got {s!r}", field=label) from None
     conv = parse_convention(unit, label) if unit else (convention_default or "si-volume")
     if needs_density(conv) and rho is None:
-        raise InputError(f"{rho_label}: needed to convert {label} from {conv}; give e.g. {rho_label} '9.78 g/cm^3'")
+        raise InputError(f"needed to convert {label} from {conv}; give e.g. {rho_label} '9.78 g/cm^3'", field=rho_label)
     if needs_molar_mass(conv) and mm is None:
-        raise InputError(f"{mm_label}: needed to convert {label} from {conv}; give e.g. {mm_label} '208.98 g/mol'")
+        raise InputError(f"needed to convert {label} from {conv}; give e.g. {mm_label} '208.98 g/mol'", field=mm_label)
     chi = chi_to_si_volume(value, conv, rho, mm)
     if not math.isfinite(chi):
-        raise InputError(f"{label}: expected a finite susceptibility, got {s!r}")
+        raise InputError(f"expected a finite susceptibility, got {s!r}", field=label)
     return chi, value, conv
 
 
@@ -201,7 +192,7 @@ def check_measured_chi(chi: float, label: str, typed: Any) -> None:
     """A measured chi: plausible (:func:`check_chi_magnitude`) and not exactly zero."""
     check_chi_magnitude(chi, label, typed)
     if chi == 0:
-        raise InputError(f"{label}: a susceptibility of exactly zero is not a measurement")
+        raise InputError("a susceptibility of exactly zero is not a measurement", field=label)
 
 
 def parse_uncertainty(text: Any, label: str, chi_si: float, conv: str, rho, mm) -> float:
@@ -210,25 +201,25 @@ def parse_uncertainty(text: Any, label: str, chi_si: float, conv: str, rho, mm) 
     if s.endswith("%"):
         pct = parse_number(s[:-1].strip(), label)
         if not (0 <= pct <= 100):
-            raise InputError(f"{label}: expected a percentage from 0 to 100, got {s!r}")
+            raise InputError(f"expected a percentage from 0 to 100, got {s!r}", field=label)
         return abs(chi_si) * pct / 100.0
     try:
         value, unit = _split_number_unit(s, label)
     except InputError:
-        raise InputError(f"{label}: expected an absolute uncertainty in the value's convention "
-                         f"(e.g. 0.5e-6) or a percentage (e.g. '5%'), got {s!r}") from None
+        raise InputError(f"expected an absolute uncertainty in the value's convention "
+                         f"(e.g. 0.5e-6) or a percentage (e.g. '5%'), got {s!r}", field=label) from None
     if value < 0:
-        raise InputError(f"{label}: expected an uncertainty of zero or more, got {s!r}")
+        raise InputError(f"expected an uncertainty of zero or more, got {s!r}", field=label)
     c = parse_convention(unit, label) if unit else conv
     if (needs_density(c) and rho is None) or (needs_molar_mass(c) and mm is None):
-        raise InputError(f"{label}: cannot convert {c} without density and molar mass")
+        raise InputError(f"cannot convert {c} without density and molar mass", field=label)
     return check_uncertainty(abs(chi_to_si_volume(value, c, rho, mm)), label)
 
 
 def check_uncertainty(unc: float, label: str) -> float:
     """An absolute uncertainty of chi (SI volume) from 0 to CHI_MAX_ABS."""
     if not (0 <= unc <= CHI_MAX_ABS):
-        raise InputError(f"{label}: implausible uncertainty {unc:.3g} (SI volume; expected 0 to {CHI_MAX_ABS:g})")
+        raise InputError(f"implausible uncertainty {unc:.3g} (SI volume; expected 0 to {CHI_MAX_ABS:g})", field=label)
     return unc
 
 
@@ -281,82 +272,78 @@ class MaterialFacts:
                         price_illustrative=True)
 
 
-def check_sign(mat: MaterialFacts, chi: float, label: str, allow_paramagnetic: bool, allow_label: str) -> None:
-    """A diamagnet's chi is negative, a paramagnet's positive, unless the person says otherwise."""
+def check_sign(mat: MaterialFacts, chi: float, field: str, allow_paramagnetic: bool) -> None:
+    """A diamagnet's chi is negative, a paramagnet's positive, unless the person says otherwise
+    (``allow_paramagnetic``)."""
     if mat.kind == "diamagnetic" and chi > 0 and not allow_paramagnetic:
-        raise InputError(f"{label}: {mat.id} is diamagnetic but chi = {chi:.4g} > 0; if the sample really "
-                         f"is paramagnetic, repeat with {allow_label}")
+        raise InputError(f"{mat.id} is diamagnetic but chi = {chi:.4g} > 0; if the sample really "
+                         "is paramagnetic, say so with allow_paramagnetic", field=field)
     if mat.kind == "paramagnetic" and chi < 0 and not allow_paramagnetic:
-        raise InputError(f"{label}: {mat.id} is paramagnetic but chi = {chi:.4g} < 0; check the sign, "
-                         f"or repeat with {allow_label}")
+        raise InputError(f"{mat.id} is paramagnetic but chi = {chi:.4g} < 0; check the sign, "
+                         "or say so with allow_paramagnetic", field=field)
 
 
-def build_chi_value(mat: MaterialFacts, f: dict, labels: dict[str, str], source_key: str = LAB_SOURCE_KEY
-                    ) -> SusceptibilityValue:
-    """A measured SusceptibilityValue (not yet stored) from typed fields ``f`` (keys as in
-    :data:`CLI_LABELS`); ``labels`` names each field in messages."""
-    L = labels.get
-    source_note = require_source(f.get("source"), L("source", "source"))
-    rho_measured = parse_density(text_of(f["density"]), L("density", "density")) if given(f.get("density")) else None
-    mm = (parse_molar_mass(text_of(f["molar_mass"]), L("molar_mass", "molar_mass")) if given(f.get("molar_mass"))
-          else mat.molar_mass)
+def build_chi_value(mat: MaterialFacts, f: dict, source_key: str = LAB_SOURCE_KEY) -> SusceptibilityValue:
+    """A measured SusceptibilityValue (not yet stored) from typed fields ``f``: ``chi`` (or
+    ``chi_perp`` and ``chi_par``), ``source``, optional ``density``, ``molar_mass``,
+    ``convention``, ``uncertainty``, ``temperature``, ``date``, ``measured_by``, ``method``,
+    ``note``, ``allow_paramagnetic``. Errors name these fields."""
+    source_note = require_source(f.get("source"), "source")
+    rho_measured = parse_density(text_of(f["density"]), "density") if given(f.get("density")) else None
+    mm = parse_molar_mass(text_of(f["molar_mass"]), "molar_mass") if given(f.get("molar_mass")) else mat.molar_mass
     rho = rho_measured if rho_measured is not None else mat.density
     allow = bool(f.get("allow_paramagnetic"))
     chi_t, perp_t, par_t = f.get("chi"), f.get("chi_perp"), f.get("chi_par")
     conv_default = text_of(f.get("convention")) or None
     if conv_default:
-        conv_default = parse_convention(conv_default, L("convention", "convention"))
+        conv_default = parse_convention(conv_default, "convention")
     if given(chi_t) and given(perp_t):
-        raise InputError(f"{L('chi_perp', 'chi_perp')}: give {L('chi', 'chi')} or {L('chi_perp', 'chi_perp')}, not both")
-    main_t, main_label = (perp_t, L("chi_perp", "chi_perp")) if given(perp_t) else (chi_t, L("chi", "chi"))
+        raise InputError("give chi or chi_perp, not both", field="chi_perp")
+    main_t, main_field = (perp_t, "chi_perp") if given(perp_t) else (chi_t, "chi")
     if not given(main_t):
-        raise InputError(f"{L('chi', 'chi')}: required: the measured susceptibility, e.g. -1.6e-4 "
-                         "or '-1.31e-5 cgs-volume'")
+        raise InputError("required: the measured susceptibility, e.g. -1.6e-4 or '-1.31e-5 cgs-volume'",
+                         field="chi")
     if mat.anisotropic and not given(par_t):
-        raise InputError(f"{L('chi_par', 'chi_par')}: {mat.id} is anisotropic: give the in-plane value too "
-                         f"({L('chi_perp', 'chi_perp')} for the field along the c axis, {L('chi_par', 'chi_par')} in the plane)")
+        raise InputError(f"{mat.id} is anisotropic: give the in-plane value too (chi_perp for the field "
+                         "along the c axis, chi_par in the plane)", field="chi_par")
     if not mat.anisotropic and (given(par_t) or given(perp_t)):
-        lab = L("chi_par", "chi_par") if given(par_t) else L("chi_perp", "chi_perp")
-        raise InputError(f"{lab}: {mat.id} is isotropic: give one value with {L('chi', 'chi')}")
-    rho_l, mm_l = L("density", "density"), L("molar_mass", "molar_mass")
-    chi, published, conv = parse_chi_text(main_t, main_label, rho, mm, rho_l, mm_l, conv_default)
-    check_measured_chi(chi, main_label, main_t)
-    check_sign(mat, chi, main_label, allow, L("allow_paramagnetic", "allow_paramagnetic"))
+        raise InputError(f"{mat.id} is isotropic: give one value with chi",
+                         field="chi_par" if given(par_t) else "chi_perp")
+    chi, published, conv = parse_chi_text(main_t, main_field, rho, mm, "density", "molar_mass", conv_default)
+    check_measured_chi(chi, main_field, main_t)
+    check_sign(mat, chi, main_field, allow)
     chi_par = par_published = None
     if given(par_t):
-        par_label = L("chi_par", "chi_par")
-        chi_par, _, _ = parse_chi_text(par_t, par_label, rho, mm, rho_l, mm_l, conv)
-        check_measured_chi(chi_par, par_label, par_t)
-        check_sign(mat, chi_par, par_label, allow, L("allow_paramagnetic", "allow_paramagnetic"))
+        chi_par, _, _ = parse_chi_text(par_t, "chi_par", rho, mm, "density", "molar_mass", conv)
+        check_measured_chi(chi_par, "chi_par", par_t)
+        check_sign(mat, chi_par, "chi_par", allow)
         par_published = chi_from_si_volume(chi_par, conv, rho, mm)
     unc = None
     if given(f.get("uncertainty")):
-        unc = parse_uncertainty(f["uncertainty"], L("uncertainty", "uncertainty"), chi, conv, rho, mm)
-    t_k = (parse_temperature(text_of(f["temperature"]), L("temperature", "temperature"))
-           if given(f.get("temperature")) else None)
+        unc = parse_uncertainty(f["uncertainty"], "uncertainty", chi, conv, rho, mm)
+    t_k = parse_temperature(text_of(f["temperature"]), "temperature") if given(f.get("temperature")) else None
     return SusceptibilityValue(
         material_id=mat.id, value_published=published, value_par_published=par_published,
         convention=conv, chi_si=chi, chi_perp_si=chi if chi_par is not None else None, chi_par_si=chi_par,
         temperature_k=t_k, uncertainty_si=unc, density_kg_m3=rho_measured, quality="measured",
         source_key=source_key, source_note=source_note, note=text_of(f.get("note")),
-        measured_by=text_of(f.get("measured_by")) or None, measured_on=parse_date(f.get("date"), L("date", "date")),
+        measured_by=text_of(f.get("measured_by")) or None, measured_on=parse_date(f.get("date"), "date"),
         method=text_of(f.get("method")) or None,
     )
 
 
-def new_material(mid: str, f: dict, labels: dict[str, str]) -> MaterialFacts:
+def new_material(mid: str, f: dict) -> MaterialFacts:
     """A material created by its first measured value (typed ``name`` and ``density``)."""
-    L = labels.get
     if not SLUG_RE.match(mid):
-        raise InputError(f"material: a new id must be a lower-case slug such as 'bismuth-casting-b3', got {mid!r}")
+        raise InputError(f"a new id must be a lower-case slug such as 'bismuth-casting-b3', got {mid!r}",
+                         field="material")
     name = text_of(f.get("name"))
     if not name:
-        raise InputError(f"material: unknown id {mid!r}; to create a new material give {L('name', 'name')} "
-                         f"and {L('density', 'density')}")
+        raise InputError(f"unknown id {mid!r}; to create a new material give name and density", field="material")
     if not given(f.get("density")):
-        raise InputError(f"{L('density', 'density')}: needed for a new material ({mid})")
-    rho = parse_density(text_of(f["density"]), L("density", "density"))
-    mm = parse_molar_mass(text_of(f["molar_mass"]), L("molar_mass", "molar_mass")) if given(f.get("molar_mass")) else None
+        raise InputError(f"needed for a new material ({mid})", field="density")
+    rho = parse_density(text_of(f["density"]), "density")
+    mm = parse_molar_mass(text_of(f["molar_mass"]), "molar_mass") if given(f.get("molar_mass")) else None
     typed_chi = text_of(f.get("chi_perp")) or text_of(f.get("chi"))
     chi_positive = bool(typed_chi) and not typed_chi.startswith("-")
     kind = "paramagnetic" if (chi_positive and f.get("allow_paramagnetic")) else "diamagnetic"

@@ -19,7 +19,6 @@ from sqlmodel import Session, select
 from matdb.data import catalog
 from matdb.data.db import read_session, session_scope
 from matdb.data.lab_input import (
-    CLI_LABELS,
     GRADE_RE,
     LAB_CITATION,
     LAB_SOURCE_KEY,
@@ -74,24 +73,24 @@ def find_grade(s: Session, grade: str) -> Optional[MagnetGrade]:
     return None
 
 
-def resolve_material(s: Session, mid: str, f: dict, labels: dict[str, str],
-                     pending: Optional[dict[str, MaterialFacts]] = None) -> MaterialFacts:
+def resolve_material(s: Session, mid: str, f: dict, pending: Optional[dict[str, MaterialFacts]] = None
+                     ) -> MaterialFacts:
     """The stored material ``mid``, one planned in ``pending``, or a new one from typed
     ``name`` and ``density`` (``f``)."""
     m = s.get(Material, mid)
     if m is not None:
         name = text_of(f.get("name"))
         if name and name.lower() != m.name.lower():
-            raise InputError(f"{labels.get('name', 'name')}: material {mid} exists already as {m.name!r}; "
-                             "leave the name out to add a value to it")
+            raise InputError(f"material {mid} exists already as {m.name!r}; leave the name out to add a "
+                             "value to it", field="name")
         return MaterialFacts.of(m)
     if pending is not None and mid in pending:
         return pending[mid]
     if not text_of(f.get("name")):
         ids = s.exec(select(Material.id)).all()
-        raise NotFoundError(f"material: unknown id {mid!r}{catalog.did_you_mean(mid, ids)}; to create a new "
-                            f"material give {labels.get('name', 'name')} and {labels.get('density', 'density')}")
-    return new_material(mid, f, labels)
+        raise NotFoundError(f"unknown id {mid!r}{catalog.did_you_mean(mid, ids)}; to create a new material "
+                            "give name and density", field="material")
+    return new_material(mid, f)
 
 
 def _find_value_row(rows: list[dict], value_id: int) -> dict:
@@ -130,15 +129,15 @@ def record_material_value(
     """
     mid = text_of(material_id).lower()
     if not mid:
-        raise InputError("material: give a material id (see 'matdb materials')")
+        raise InputError("give a material id (see 'matdb materials')", field="material")
     f = {"chi": chi, "chi_perp": chi_perp, "chi_par": chi_par, "density": density,
          "temperature": temperature, "uncertainty": uncertainty, "source": source,
          "measured_by": measured_by, "date": date, "method": method, "molar_mass": molar_mass,
          "name": name, "allow_paramagnetic": allow_paramagnetic, "note": note}
-    require_source(source, "--source")
+    require_source(source, "source")
     with session_scope(url) as s:
-        mat = resolve_material(s, mid, f, CLI_LABELS)
-        v = build_chi_value(mat, f, CLI_LABELS)
+        mat = resolve_material(s, mid, f)
+        v = build_chi_value(mat, f)
         if mat.new:
             s.add(mat.to_row())
         ensure_lab_source(s)
@@ -168,40 +167,40 @@ def record_magnet_value(
     """Append a measured property set of a magnet grade (created when ``family`` is given)."""
     gid = text_of(grade)
     if not gid:
-        raise InputError("grade: give a magnet grade (see 'matdb magnets') or a new id with --family")
-    source_note = require_source(source, "--source")
+        raise InputError("give a magnet grade (see 'matdb magnets') or a new id with its family", field="grade")
+    source_note = require_source(source, "source")
     vals = {
-        "br_t": parse_br(br, "--br") if given(br) else None,
-        "hcj_ka_m": parse_hcj(hcj, "--hcj") if given(hcj) else None,
-        "alpha_br_pct_per_k": parse_alpha(alpha, "--alpha") if given(alpha) else None,
-        "max_temp_c": parse_max_temp_c(max_temp, "--max-temp") if given(max_temp) else None,
-        "density_kg_m3": parse_density(text_of(density), "--density") if given(density) else None,
+        "br_t": parse_br(br, "br") if given(br) else None,
+        "hcj_ka_m": parse_hcj(hcj, "hcj") if given(hcj) else None,
+        "alpha_br_pct_per_k": parse_alpha(alpha, "alpha") if given(alpha) else None,
+        "max_temp_c": parse_max_temp_c(max_temp, "max_temp") if given(max_temp) else None,
+        "density_kg_m3": parse_density(text_of(density), "density") if given(density) else None,
     }
     if all(v is None for v in vals.values()):
-        raise InputError("--br: give at least one measured property (--br, --surface-field, --hcj, --alpha)")
-    d = parse_date(date, "--date")
+        raise InputError("give at least one measured property (br, surface_field, hcj, alpha)", field="br")
+    d = parse_date(date, "date")
     with session_scope(url) as s:
         g = find_grade(s, gid)
         created = False
         if g is None:
             if not given(family):
                 grades = s.exec(select(MagnetGrade.grade)).all()
-                raise NotFoundError(f"grade: unknown magnet grade {gid!r}{catalog.did_you_mean(gid, grades)}; "
-                                    "to add a new one give --family")
-            fam = catalog.check_family(text_of(family), "--family")
+                raise NotFoundError(f"unknown magnet grade {gid!r}{catalog.did_you_mean(gid, grades)}; "
+                                    "to add a new one give its family", field="family")
+            fam = catalog.check_family(text_of(family), "family")
             if not GRADE_RE.match(gid):
-                raise InputError(f"grade: a new id may hold letters, digits, '.', '-', '+', '_', got {gid!r}")
-            need = {"--br": "br_t", "--hcj": "hcj_ka_m", "--alpha": "alpha_br_pct_per_k",
-                    "--max-temp": "max_temp_c", "--density": "density_kg_m3"}
+                raise InputError(f"a new id may hold letters, digits, '.', '-', '+', '_', got {gid!r}", field="grade")
+            need = {"br": "br_t", "hcj": "hcj_ka_m", "alpha": "alpha_br_pct_per_k",
+                    "max_temp": "max_temp_c", "density": "density_kg_m3"}
             missing = [flag for flag, k in need.items() if vals[k] is None]
             if missing:
-                raise InputError(f"{missing[0]}: a new grade needs {', '.join(need)} "
-                                 f"(missing {', '.join(missing)})")
+                raise InputError(f"a new grade needs {', '.join(need)} (missing {', '.join(missing)})",
+                                 field=missing[0])
             g = MagnetGrade(grade=gid, family=fam, origin="user", price_illustrative=True)
             s.add(g)
             created = True
-        elif given(family) and catalog.check_family(text_of(family), "--family") != g.family:
-            raise InputError(f"--family: grade {g.grade} exists already as {g.family}")
+        elif given(family) and catalog.check_family(text_of(family), "family") != g.family:
+            raise InputError(f"grade {g.grade} exists already as {g.family}", field="family")
         ensure_lab_source(s)
         v = MagnetValue(grade=g.grade, quality="measured", source_key=LAB_SOURCE_KEY, source_note=source_note,
                         note=text_of(note), measured_by=text_of(measured_by) or None, measured_on=d,
@@ -225,7 +224,7 @@ def _subject(s: Session, ident: str):
     if g is not None:
         return "magnet", g
     ids = list(s.exec(select(Material.id)).all()) + list(s.exec(select(MagnetGrade.grade)).all())
-    raise NotFoundError(f"id: {ident!r} is neither a material id nor a magnet grade{catalog.did_you_mean(ident, ids)}")
+    raise NotFoundError(f"{ident!r} is neither a material id nor a magnet grade{catalog.did_you_mean(ident, ids)}", field="id")
 
 
 def history(ident: str, url: Optional[str] = None) -> list[dict]:
@@ -265,10 +264,10 @@ def prefer(ident: str, value_id: Any, url: Optional[str] = None) -> dict:
         if v is None or owner != name:
             ids = [x.id for x in s.exec(select(model).where(
                 (model.material_id if kind == "material" else model.grade) == name)).all()]
-            raise NotFoundError(f"VALUE-ID: {vid} is not a value of {name} (its values: "
-                                f"{', '.join(map(str, ids))}; see 'matdb history {name}')")
+            raise NotFoundError(f"{vid} is not a value of {name} (its values: "
+                                f"{', '.join(map(str, ids))}; see 'matdb history {name}')", field="value_id")
         if v.retracted:
-            raise InputError(f"VALUE-ID: value {vid} of {name} is retracted ({v.retract_reason}); it cannot be used")
+            raise InputError(f"value {vid} of {name} is retracted ({v.retract_reason}); it cannot be used", field="value_id")
         obj.preferred_value_id = vid
         s.add(obj)
     return _find_value_row(history(name, url), vid)
@@ -277,7 +276,7 @@ def prefer(ident: str, value_id: Any, url: Optional[str] = None) -> dict:
 def _value_id(value_id: Any) -> int:
     s = text_of(value_id)
     if not re.fullmatch(r"\d+", s):
-        raise InputError(f"VALUE-ID: expected a value id (a whole number shown by 'matdb history'), got {s!r}")
+        raise InputError(f"expected a value id (a whole number shown by 'matdb history'), got {s!r}", field="value_id")
     return int(s)
 
 
@@ -286,7 +285,7 @@ def retract(value_id: Any, reason: Any, ident: Any = None, url: Optional[str] = 
     vid = _value_id(value_id)
     why = text_of(reason)
     if not why:
-        raise InputError("--reason: required: say why the value is wrong")
+        raise InputError("required: say why the value is wrong", field="reason")
     with session_scope(url) as s:
         cands = []
         if given(ident):
@@ -296,7 +295,7 @@ def retract(value_id: Any, reason: Any, ident: Any = None, url: Optional[str] = 
             owner_attr = "material_id" if kind == "material" else "grade"
             name = obj.id if kind == "material" else obj.grade
             if v is None or getattr(v, owner_attr) != name:
-                raise NotFoundError(f"VALUE-ID: {vid} is not a value of {name} (see 'matdb history {name}')")
+                raise NotFoundError(f"{vid} is not a value of {name} (see 'matdb history {name}')", field="value_id")
             cands = [(kind, v)]
         else:
             for kind, model in (("material", SusceptibilityValue), ("magnet", MagnetValue)):
@@ -304,17 +303,17 @@ def retract(value_id: Any, reason: Any, ident: Any = None, url: Optional[str] = 
                 if v is not None and v.quality == "measured":
                     cands.append((kind, v))
             if not cands:
-                raise NotFoundError(f"VALUE-ID: no measured value with id {vid} (see 'matdb history ID')")
+                raise NotFoundError(f"no measured value with id {vid} (see 'matdb history ID')", field="value_id")
             if len(cands) > 1:
-                raise InputError(f"VALUE-ID: {vid} is a measured value of both {cands[0][1].material_id} and "
-                                 f"{cands[1][1].grade}; add --id MATERIAL-OR-GRADE")
+                raise InputError(f"{vid} is a measured value of both {cands[0][1].material_id} and "
+                                 f"{cands[1][1].grade}; name the material or grade too", field="value_id")
         kind, v = cands[0]
         name = v.material_id if kind == "material" else v.grade
         if v.quality != "measured":
-            raise InputError(f"VALUE-ID: value {vid} of {name} is a published ({v.quality}) value; published rows "
-                             "are never changed: prefer another value instead ('matdb prefer')")
+            raise InputError(f"value {vid} of {name} is a published ({v.quality}) value; published rows "
+                             "are never changed: prefer another value instead ('matdb prefer')", field="value_id")
         if v.retracted:
-            raise InputError(f"VALUE-ID: value {vid} of {name} is already retracted ({v.retract_reason})")
+            raise InputError(f"value {vid} of {name} is already retracted ({v.retract_reason})", field="value_id")
         v.retracted = True
         v.retract_reason = why
         s.add(v)
