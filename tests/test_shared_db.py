@@ -11,7 +11,6 @@ import os
 import signal
 import subprocess
 import sys
-import time
 import uuid
 from pathlib import Path
 
@@ -111,36 +110,9 @@ def test_import_export_round_trip(backend, run_cli, tmp_path):
     assert _export(run_cli) == snapshot
 
 
-_WRITER = """
-import sys, time
-from pathlib import Path
-from matdb.cli import main            # the slow imports happen before the start signal
-go, i = Path(sys.argv[1]), sys.argv[2]
-Path(sys.argv[1] + '.ready' + i).touch()
-while not go.exists():
-    time.sleep(0.01)
-sys.exit(main(['record', 'material', 'bismuth', '--chi', '-1.6' + i + 'e-4', '--source', 'writer ' + i]))
-"""
-
-
-def test_concurrent_writers_all_succeed(backend, tmp_path):
+def test_concurrent_writers_all_succeed(backend, simultaneous_records):
     n = 4
-    go = tmp_path / "go"
-    procs = [subprocess.Popen([sys.executable, "-c", _WRITER, str(go), str(i)], env=_env(backend), cwd=REPO,
-                              stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
-             for i in range(n)]
-    try:
-        deadline = time.monotonic() + 120
-        while not all(Path(f"{go}.ready{i}").exists() for i in range(n)):
-            assert time.monotonic() < deadline and all(p.poll() is None for p in procs), "writers did not start"
-            time.sleep(0.02)
-        go.touch()  # every writer records at the same moment
-        results = [p.communicate(timeout=120) + (p.returncode,) for p in procs]
-    finally:
-        for p in procs:
-            if p.poll() is None:
-                p.kill()
-                p.communicate()
+    results = simultaneous_records(backend, n, "writer")
     assert all(rc == 0 for _, _, rc in results), [err for _, err, rc in results if rc]
     measured = [r for r in lab_store.history("bismuth", backend) if r["value_kind"] == "measured"]
     assert sorted(r["source"] for r in measured) == sorted(f"writer {i}" for i in range(n))
