@@ -84,3 +84,29 @@ def simultaneous_records(tmp_path):
                     p.communicate()
 
     return run
+
+
+@pytest.fixture
+def export_text(run_cli):
+    """``export_text(fmt="json")``: the whole database as ``matdb export`` prints it (a
+    snapshot to compare before and after a refused write)."""
+
+    def _export(fmt: str = "json") -> str:
+        code, out, err = run_cli("export", "--format", fmt)
+        assert code == 0, err
+        return out
+
+    return _export
+
+
+@pytest.fixture
+def record_json(run_cli):
+    """``record_json(*argv)``: run ``matdb record ARGV --format json`` and return the row."""
+    import json
+
+    def _rec(*argv: str) -> dict:
+        code, out, err = run_cli("record", *argv, "--format", "json")
+        assert code == 0, err
+        return json.loads(out)
+
+    return _rec

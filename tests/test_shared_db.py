@@ -54,19 +54,13 @@ def backend(request, tmp_path, monkeypatch):
             conn.execute(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)')
 
 
-def _export(run_cli) -> str:
-    code, out, err = run_cli("export", "--format", "json")
-    assert code == 0, err
-    return out
-
-
 def _env(url: str) -> dict:
     env = dict(os.environ)
     env["MATDB_URL"] = url
     return env
 
 
-def test_record_prefer_retract(backend, run_cli):
+def test_record_prefer_retract(backend, run_cli, export_text):
     code, out, err = run_cli("record", "material", "bismuth", "--chi", "-1.6e-4", "--date", "2026-10-01",
                              "--source", "casting B3", "--format", "json")
     assert code == 0, err
@@ -86,28 +80,28 @@ def test_record_prefer_retract(backend, run_cli):
     code, out, _ = run_cli("materials", "--format", "json")
     bi = next(m for m in json.loads(out) if m["id"] == "bismuth")
     assert bi["value_kind"] == "measured" and bi["source"] == "bad holder"
-    before = _export(run_cli)
+    before = export_text()
     assert run_cli("record", "material", "bismuth", "--chi", "5 kg", "--source", "x")[0] == 2
     assert run_cli("record", "material", "bismuth", "--chi", "-1e-4", "--source", "")[0] == 2
-    assert _export(run_cli) == before
+    assert export_text() == before
 
 
-def test_import_export_round_trip(backend, run_cli, tmp_path):
+def test_import_export_round_trip(backend, run_cli, tmp_path, export_text):
     code, out, err = run_cli("import", str(DATA / "lab_good.csv"), "--format", "json")
     assert code == 0, err
     added = json.loads(out)["added"]
     assert added > 0
-    snapshot = _export(run_cli)
+    snapshot = export_text()
     code, out, _ = run_cli("import", str(DATA / "lab_good.csv"), "--format", "json")
-    assert json.loads(out)["added"] == 0 and _export(run_cli) == snapshot
+    assert json.loads(out)["added"] == 0 and export_text() == snapshot
     code, _, err = run_cli("import", str(DATA / "lab_bad.csv"))
     assert code == 2 and "line 3" in err
-    assert _export(run_cli) == snapshot
+    assert export_text() == snapshot
     dump = tmp_path / "dump.csv"
     assert run_cli("export", "--format", "csv", "--out", str(dump))[0] == 0
     code, out, _ = run_cli("import", str(dump), "--format", "json")
     assert code == 0 and json.loads(out)["added"] == 0
-    assert _export(run_cli) == snapshot
+    assert export_text() == snapshot
 
 
 def test_concurrent_writers_all_succeed(backend, simultaneous_records):
@@ -130,12 +124,12 @@ exchange.import_file(sys.argv[1], progress=pause)
 """
 
 
-def test_killed_import_leaves_the_database_as_it_was(backend, run_cli, tmp_path):
+def test_killed_import_leaves_the_database_as_it_was(backend, run_cli, tmp_path, export_text):
     big = tmp_path / "big.csv"
     lines = ["material_id,chi,temperature,source,date"]
     lines += [f"bismuth,-1.{i:04d}e-4,{15 + i % 10} degC,batch row {i},2026-09-{1 + i % 28:02d}" for i in range(400)]
     big.write_text("\n".join(lines) + "\n", encoding="utf-8")
-    before = _export(run_cli)
+    before = export_text()
     p = subprocess.Popen([sys.executable, "-c", _PAUSED_IMPORT, str(big)], env=_env(backend), cwd=REPO,
                          stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
     try:
@@ -150,7 +144,7 @@ def test_killed_import_leaves_the_database_as_it_was(backend, run_cli, tmp_path)
         p.stdout.close()
         p.stderr.close()
     db.reset_engines()
-    assert _export(run_cli) == before
+    assert export_text() == before
     # and the database is usable afterwards
     code, out, err = run_cli("import", str(big), "--format", "json")
     assert code == 0 and json.loads(out)["added"] == 400, err
