@@ -807,7 +807,7 @@ def sources_table(url: str | None = None) -> pd.DataFrame:
 
 
 def value_check_marks(rows: Sequence[dict], field: str = "value_published") -> list[str]:
-    """Status mark of one number in each value row of :func:`matdb.data.labvalues.history`
+    """Status mark of one number in each value row of :func:`matdb.data.lab_store.history`
     (``m`` for a lab measurement)."""
     out = []
     for r in rows:
