@@ -17,7 +17,6 @@ References
 
 from __future__ import annotations
 
-import math
 
 import numpy as np
 
@@ -41,46 +40,54 @@ def _snap(values: np.ndarray, tol: float) -> np.ndarray:
     return flat[first][inverse.ravel()].reshape(values.shape)
 
 
-def _log_term(t: np.ndarray, r: np.ndarray, rho2: np.ndarray, ell: float) -> np.ndarray:
-    """``ln(t + r)`` with ``r = sqrt(t^2 + rho2)``, cancellation-free, finite everywhere.
+#: Corners whose logarithms are multiplied together before one logarithm is taken.
+#: Arguments are normalised by the set's extent, so a product of this many stays far
+#: inside the floating-point range (smallest factor ~1e-22 next to an edge line).
+_LOG_GROUP = 8
+_OTHERS = ((1, 2), (0, 2), (0, 1))  # the two axes other than 0, 1, 2
 
-    For ``t < 0`` the identity ``t + r = rho2 / (r - t)`` avoids the cancellation. On the
-    line ``rho2 = 0`` (to within ``EDGE_SNAP * ell``, so that rounding of the inputs does
-    not matter) the divergent ``ln(rho2)`` is evaluated at ``rho = ell``, the rounding
-    length: for points on an edge's extension the substitution cancels exactly between
-    the two corners at the ends of the edge, and on the edge itself it replaces the
-    logarithmic edge singularity by its value at ``ell``. At a corner the term is
-    ``ln(ell)``.
+
+def _near_any(x: np.ndarray, values: np.ndarray, tol: float) -> np.ndarray:
+    """Which of ``x`` (n,) lie within ``tol`` of one of the sorted ``values``."""
+    i = np.searchsorted(values, x)
+    lo = values[np.maximum(i - 1, 0)]
+    hi = values[np.minimum(i, values.size - 1)]
+    return (np.abs(x - lo) <= tol) | (np.abs(x - hi) <= tol)
+
+
+class _LogPlan:
+    """How the corner logarithms along one axis combine into the two field components.
+
+    The term ``-ln(t + r)`` with ``t`` along axis ``a`` enters component ``b`` with the
+    corner coefficients of component ``c`` and component ``c`` with those of ``b``
+    (``{a, b, c} = {0, 1, 2}``). Corners with the same pair of coefficients are grouped,
+    and each group of up to :data:`_LOG_GROUP` corners costs one logarithm of the product
+    of their arguments (``sum k ln x_i = k ln prod x_i``) instead of one per corner.
     """
-    neg = t < 0
-    arg = np.abs(t)
-    arg += r  # |t| + r
-    np.divide(rho2, arg, out=arg, where=neg)
-    with np.errstate(divide="ignore"):
-        out = np.log(arg)
-    snap = EDGE_SNAP * ell
-    near = rho2 <= snap * snap
-    if np.any(near):
-        tb, rb = t[near], r[near]
-        log_ell = math.log(ell)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            s = np.abs(tb) + rb
-            line = np.where(tb < 0, 2.0 * log_ell - np.log(s), np.log(s))
-        out[near] = np.where(rb <= snap, log_ell, line)
-    return out
 
-
-def _atan_term(a: np.ndarray, b: np.ndarray, c: np.ndarray, r: np.ndarray) -> np.ndarray:
-    """``atan(a b / (c r))`` without a division; 0 where ``c r = 0``.
-
-    Written as ``arctan2(sign(c) a b, |c| r)``, equal to the arctangent wherever ``c r``
-    is non-zero; at ``c = 0`` it gives 0, the mean of the two one-sided limits.
-    """
-    num = a * b
-    num *= np.sign(c)
-    den = np.abs(c)
-    den *= r
-    return np.arctan2(num, den, out=num)
+    def __init__(self, axis: int, coefficients: np.ndarray):
+        b, c = _OTHERS[axis]
+        self.axis, self.others = axis, (b, c)
+        K = coefficients[:, [c, b]]  # (m, 2): coefficient of output b, of output c
+        m = K.shape[0]
+        nz = np.nonzero(np.any(K != 0, axis=1))[0]
+        self.active = nz.size > 0
+        if not self.active:
+            return
+        rows, inverse = np.unique(K[nz], axis=0, return_inverse=True)
+        inverse = inverse.ravel()
+        cols, coef = [], []
+        for g in range(rows.shape[0]):
+            members = nz[inverse == g]
+            for start in range(0, members.size, _LOG_GROUP):
+                part = members[start:start + _LOG_GROUP]
+                cols.append(np.concatenate([part, np.full(_LOG_GROUP - part.size, m)]))
+                coef.append(rows[g])
+        idx = np.array(cols).T  # (G, n_groups); index m is a factor of 1
+        # keep only the rows some group needs (a group of one corner has no padding)
+        used = int(np.max(np.sum(idx < m, axis=0)))
+        self.index = [np.ascontiguousarray(row) for row in idx[:used]]
+        self.coefficients = np.array(coef)  # (n_groups, 2)
 
 
 class CuboidSet:
@@ -130,6 +137,7 @@ class CuboidSet:
         pos = _as_rows(positions, 3, "positions")
         m = _same_count({"dimensions": dims, "polarizations": pols, "positions": pos})
         self.count = m
+        self._scale = 1.0
         if m == 0:
             self.corners = np.zeros((0, 3))
             self.coefficients = np.zeros((0, 3))
@@ -164,6 +172,15 @@ class CuboidSet:
         self.lo = lo
         self.hi = hi
         self.polarizations = pols
+        # the kernel works in lengths normalised by the extent (the corner sums of the
+        # logarithms are scale-free: each cuboid's signed coefficients sum to zero)
+        self._scale = extent
+        self._cn = self.corners / extent
+        self._ell = self.edge_length / extent
+        self._cn_cols = [np.ascontiguousarray(self._cn[:, ax])[:, None] for ax in range(3)]
+        self._values = [np.unique(self._cn[:, ax]) for ax in range(3)]
+        self._plans = [_LogPlan(ax, self.coefficients) for ax in range(3)]
+        self._atan_axes = [a for a in range(3) if np.any(self.coefficients[:, a] != 0)]
 
     # -- field ---------------------------------------------------------------
     def mu0_h_mean(self, p: np.ndarray, atan: bool = True, log: bool = True) -> np.ndarray:
@@ -173,48 +190,88 @@ class CuboidSet:
         off-diagonal part (logarithms, divergent on edge lines) of the corner sum.
         """
         out = np.zeros_like(p)
-        if self.corners.shape[0] == 0 or p.shape[0] == 0:
+        m = self.corners.shape[0]
+        if m == 0 or p.shape[0] == 0:
             return out
-        for sl in _chunks(p.shape[0], self.corners.shape[0]):
-            out[sl] = self._mu0_h(p[sl], atan, log)
+        pn = p / self._scale
+        # which points lie on a corner plane (arctangent masked) or near a corner line
+        # (logarithm regularised): found once, so the chunks below skip the masks
+        on_plane = [np.isin(pn[:, a], self._values[a]) for a in range(3)]
+        snap = EDGE_SNAP * self._ell
+        close = [_near_any(pn[:, a], self._values[a], snap) for a in range(3)]
+        on_line = [close[b] & close[c] for b, c in ((1, 2), (0, 2), (0, 1))]
+        slices = list(_chunks(p.shape[0], m))
+        ext = np.empty((m + 1, max(sl.stop - sl.start for sl in slices)))
+        ext[m] = 1.0  # the factor of 1 that pads the groups of logarithms
+        with np.errstate(divide="ignore", invalid="ignore"):
+            for sl in slices:
+                flags = ([bool(f[sl].any()) for f in on_plane], [bool(f[sl].any()) for f in on_line])
+                out[sl] = self._mu0_h(pn[sl], atan, log, flags, ext)
         return out
 
-    def _mu0_h(self, p: np.ndarray, atan: bool = True, log: bool = True) -> np.ndarray:
-        c = self.corners
+    def _mu0_h(self, pn: np.ndarray, atan: bool, log: bool, flags, ext: np.ndarray) -> np.ndarray:
+        """mu0 H (c, 3) [T] at normalised points ``pn`` (c, 3); ``ext`` scratch (m+1, >=c)."""
+        on_plane, on_line = flags
+        nc = pn.shape[0]
         C = self.coefficients
-        u = p[:, 0:1] - c[None, :, 0]
-        v = p[:, 1:2] - c[None, :, 1]
-        w = p[:, 2:3] - c[None, :, 2]
-        uu, vv, ww = u * u, v * v, w * w
-        r = uu + vv
-        r += ww
+        m = C.shape[0]
+        # layout (corners, points): every temporary contiguous, groups gathered by rows
+        d = [pn[:, ax][None, :] - self._cn_cols[ax] for ax in range(3)]  # (m, c) each
+        sq = [x * x for x in d]
+        r = sq[0] + sq[1]
+        r += sq[2]
         np.sqrt(r, out=r)
-        cx, cy, cz = C[:, 0], C[:, 1], C[:, 2]
-        nx, ny, nz = np.any(cx != 0), np.any(cy != 0), np.any(cz != 0)
-        bx = np.zeros(p.shape[0])
-        by = np.zeros(p.shape[0])
-        bz = np.zeros(p.shape[0])
-        if atan and nx:
-            bx += _atan_term(v, w, u, r) @ cx
-        if atan and ny:
-            by += _atan_term(u, w, v, r) @ cy
-        if atan and nz:
-            bz += _atan_term(u, v, w, r) @ cz
-        if not log:
-            return np.stack([bx, by, bz], axis=1) / _FOUR_PI
-        if nx or ny:  # ln(w + r): couples x and y
-            lw = _log_term(w, r, uu + vv, self.edge_length)
-            bx -= lw @ cy
-            by -= lw @ cx
-        if nx or nz:  # ln(v + r): couples x and z
-            lv = _log_term(v, r, uu + ww, self.edge_length)
-            bx -= lv @ cz
-            bz -= lv @ cx
-        if ny or nz:  # ln(u + r): couples y and z
-            lu = _log_term(u, r, vv + ww, self.edge_length)
-            by -= lu @ cz
-            bz -= lu @ cy
-        return np.stack([bx, by, bz], axis=1) / _FOUR_PI
+        out = np.zeros((3, nc))
+        if atan:
+            for a in self._atan_axes:
+                b, c = _OTHERS[a]
+                # atan(d_b d_c / (d_a r)); where d_a = 0 the mean of the one-sided limits, 0
+                q = d[b] * d[c]
+                den = d[a] * r
+                q /= den
+                np.arctan(q, out=q)
+                if on_plane[a]:
+                    q[den == 0] = 0.0
+                out[a] += C[:, a] @ q
+        if log:
+            e = ext[:, :nc]
+            for plan in self._plans:
+                if not plan.active:
+                    continue
+                b, c = plan.others
+                e[:m] = self._log_argument(d[plan.axis], r, sq[b] + sq[c], on_line[plan.axis])
+                prod = e[plan.index[0]]
+                for rows in plan.index[1:]:
+                    prod *= e[rows]
+                np.log(prod, out=prod)
+                out[[b, c]] -= plan.coefficients.T @ prod
+        out /= _FOUR_PI
+        return out.T
+
+    def _log_argument(self, t, r, rho2, maybe_near: bool) -> np.ndarray:
+        """``t + r`` with ``r = sqrt(t^2 + rho2)`` (normalised), cancellation-free, finite.
+
+        For ``t < 0`` the identity ``t + r = rho2 / (r - t)`` avoids the cancellation. On
+        the line ``rho2 = 0`` (to within ``EDGE_SNAP`` of the rounding length, so that
+        rounding of the inputs does not matter) the divergent ``rho2`` is taken at
+        ``rho = ell``, the rounding length: for points on an edge's extension the
+        substitution cancels exactly between the two corners at the ends of the edge, and
+        on the edge itself it replaces the logarithmic edge singularity by its value at
+        ``ell``. At a corner the argument is ``ell``.
+        """
+        s = np.abs(t)
+        s += r  # |t| + r
+        arg = np.where(t < 0, rho2 / s, s)
+        if not maybe_near:
+            return arg  # no point near a corner line along this axis
+        ell = self._ell
+        snap = EDGE_SNAP * ell
+        near = rho2 <= snap * snap
+        if np.any(near):
+            tb, rb, sb = t[near], r[near], s[near]
+            line = np.where(tb < 0, ell * ell / sb, sb)
+            arg[near] = np.where(rb <= snap, ell, line)
+        return arg
 
 
 def cuboid_B(observers, dimensions, polarizations, positions) -> np.ndarray:
