@@ -111,6 +111,60 @@ def cel(kc, p, c, s, *, rtol: float = 1e-8, max_iter: int = 40) -> np.ndarray:
     return out
 
 
+def _cel_two(kc: np.ndarray, p2: np.ndarray, s2: np.ndarray, rtol: float = 1e-8,
+             max_iter: int = 40) -> tuple[np.ndarray, np.ndarray]:
+    """``cel(kc, 1, 1, -1)`` and ``cel(kc, p2, 1, s2)`` in one pass (``p2 > 0``, ``kc != 0``).
+
+    Bulirsch's iteration [1]_ runs the same arithmetic-geometric sequence of ``kc`` for
+    any ``(p, c, s)``; only the three running sums differ, so both integrals share it.
+    Same tolerance and stopping rule as :func:`cel`.
+
+    References
+    ----------
+    .. [1] R. Bulirsch, Numer. Math. 13, 305-315 (1969), algorithm ``cel``.
+    """
+    k = np.abs(kc)
+    p2, s2 = np.broadcast_arrays(p2, s2, k)[:2]
+    em = np.ones_like(k)
+    # set 1: p = 1, c = 1, s = -1
+    cc1 = np.zeros_like(k)  # c + s / sqrt(p)
+    ss1 = 2.0 * (k - 1.0)  # 2 (s / sqrt(p) + c k / sqrt(p))
+    pp1 = 1.0 + k
+    # set 2: p = p2, c = 1, s = s2
+    pp2 = np.sqrt(p2)
+    ss2 = s2 / pp2
+    cc2 = 1.0 + ss2 / pp2
+    g2 = k / pp2
+    ss2 += g2
+    ss2 *= 2.0
+    pp2 += g2
+    g = em
+    em = k + em
+    kk = k
+    for _ in range(max_iter):
+        if not np.any(np.abs(g - k) > g * rtol):
+            break
+        k = 2.0 * np.sqrt(kk)
+        kk = k * em
+        f = cc1
+        cc1 = cc1 + ss1 / pp1
+        g1 = kk / pp1
+        ss1 += f * g1
+        ss1 *= 2.0
+        pp1 += g1
+        f = cc2
+        cc2 = cc2 + ss2 / pp2
+        g2 = kk / pp2
+        ss2 += f * g2
+        ss2 *= 2.0
+        pp2 += g2
+        g = em
+        em = k + em
+    half_pi = 0.5 * math.pi
+    return (half_pi * (ss1 + cc1 * em) / (em * (em + pp1)),
+            half_pi * (ss2 + cc2 * em) / (em * (em + pp2)))
+
+
 def _cyl_core(p: np.ndarray, radius, half_h, jz, centre, ell) -> np.ndarray:
     """B of axially polarised cylinders; p (n,3); per-source arrays (m,).
 
@@ -141,13 +195,10 @@ def _cyl_core(p: np.ndarray, radius, half_h, jz, centre, ell) -> np.ndarray:
     km_ok = km > EDGE_SNAP * k_rim
     kp_s = np.where(kp_ok, kp, k_rim)
     km_s = np.where(km_ok, km, k_rim)
-    one = np.ones_like(kp_s)
-    p1p = cel(kp_s, one, one, -one)
-    p1m = cel(km_s, one, one, -one)
     g2 = np.where(on_wall, 1.0, gamma * gamma)
     gs = np.where(on_wall, 1.0, gamma)  # on the wall cel(kc, 0, 1, 0) = cel(kc, 1, 1, 1)
-    p2p = cel(kp_s, g2, one, gs)
-    p2m = cel(km_s, g2, one, gs)
+    # one iteration for both moduli and both parameter sets
+    (p1p, p1m), (p2p, p2m) = _cel_two(np.stack([kp_s, km_s]), g2[None], gs[None])
     alp = a / dp * p1p
     alm = a / dm * p1m
     bep = np.where(kp_ok, zp / dp * p2p, 0.0)  # z_+ = 0 on the rim: beta K -> 0
