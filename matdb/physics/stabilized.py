@@ -57,7 +57,7 @@ from scipy.interpolate import CubicSpline
 from scipy.optimize import brentq
 
 from matdb.errors import InputError, PhysicsError
-from matdb.units import G_STANDARD, MU0
+from matdb.constants import G_STANDARD, MU0, T_REF_K
 from matdb.physics.fields import MagnetSet
 
 __all__ = [
@@ -954,7 +954,7 @@ class StationModel:
 
 
 def _recoil(spec) -> float:
-    """:attr:`matdb.design.floating.MagnetSpec.recoil_factor` (1 for other specs)."""
+    """:attr:`matdb.design.model.SingleMagnet.recoil_factor` (1 for other specs)."""
     return float(getattr(spec, "recoil_factor", 1.0))
 
 
@@ -1251,7 +1251,7 @@ def lift_temperature_slope(st, temp_k: float) -> float:
     ``dT = T - 20 C`` (linear law of IEC 60404-8-1). The plates do not enter: at the
     symmetric plate position their vertical forces cancel.
     """
-    dt = float(temp_k) - 293.15
+    dt = float(temp_k) - T_REF_K
     out = 0.0
     for a in (st.lifter.alpha_br_pct_per_k, st.floater.alpha_br_pct_per_k):
         out += a / (100.0 + a * dt)
@@ -1348,7 +1348,7 @@ def levitate_stabilized(design, temp_k: Optional[float] = None, n_window: int = 
     Parameters
     ----------
     design : StabilizedDesign
-        From :func:`matdb.design.floating.parse_stabilized`.
+        From :func:`matdb.design.toml_io.parse_stabilized`.
     temp_k : float, optional
         Temperature [K]; default the design's.
     n_window : int
