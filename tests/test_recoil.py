@@ -22,7 +22,7 @@ from matdb.design import load_design_text
 from matdb.physics import plate as P
 from matdb.physics import recoil as R
 from matdb.physics.arrangement import build_arrangement
-from matdb.units import MU0
+from matdb.constants import MU0
 
 A = 0.0127  # 1/2 inch cube [m]
 BR = 1.3
