@@ -82,62 +82,28 @@ def cel(kc, p, c, s, *, rtol: float = 1e-8, max_iter: int = 40) -> np.ndarray:
             pp = np.where(pos, pp_pos, pp_neg)
             cc = np.where(pos, c, cc_neg)
             ss = np.where(pos, s / pp_pos, ss_neg)
-        em = np.ones_like(k)
-        f = cc.copy()
-        cc += ss / pp
-        g = k / pp
-        ss += f * g
-        ss *= 2.0
-        pp += g
-        g = em
-        em = k + em
-        kk = k
-        for _ in range(max_iter):
-            if not np.any(np.abs(g - k) > g * rtol):
-                break
-            k = 2.0 * np.sqrt(kk)
-            kk = k * em
-            f = cc.copy()
-            cc += ss / pp
-            g = kk / pp
-            ss += f * g
-            ss *= 2.0
-            pp += g
-            g = em
-            em = k + em
-        out = 0.5 * math.pi * (ss + cc * em) / (em * (em + pp))
+        (out,) = _cel_iterate(k, [(pp, cc, ss)], rtol, max_iter)
     if any_bad:
         out = np.where(bad, np.nan, out)
     return out
 
 
-def _cel_two(kc: np.ndarray, p2: np.ndarray, s2: np.ndarray, rtol: float = 1e-8,
-             max_iter: int = 40) -> tuple[np.ndarray, np.ndarray]:
-    """``cel(kc, 1, 1, -1)`` and ``cel(kc, p2, 1, s2)`` in one pass (``p2 > 0``, ``kc != 0``).
+def _cel_iterate(k: np.ndarray, sets: list, rtol: float, max_iter: int) -> list:
+    """Bulirsch's ``cel`` iteration [1]_ for one modulus and several ``(p, c, s)``.
 
-    Bulirsch's iteration [1]_ runs the same arithmetic-geometric sequence of ``kc`` for
-    any ``(p, c, s)``; only the three running sums differ, so both integrals share it.
-    Same tolerance and stopping rule as :func:`cel`.
+    ``k = |kc|``; each set is ``(sqrt(p), c, s / sqrt(p))`` after the transformation for
+    the sign of ``p``. The arithmetic-geometric sequence of ``k`` is shared; only the
+    three running sums of each set differ.
 
     References
     ----------
     .. [1] R. Bulirsch, Numer. Math. 13, 305-315 (1969), algorithm ``cel``.
     """
-    k = np.abs(kc)
-    p2, s2 = np.broadcast_arrays(p2, s2, k)[:2]
     em = np.ones_like(k)
-    # set 1: p = 1, c = 1, s = -1
-    cc1 = np.zeros_like(k)  # c + s / sqrt(p)
-    ss1 = 2.0 * (k - 1.0)  # 2 (s / sqrt(p) + c k / sqrt(p))
-    pp1 = 1.0 + k
-    # set 2: p = p2, c = 1, s = s2
-    pp2 = np.sqrt(p2)
-    ss2 = s2 / pp2
-    cc2 = 1.0 + ss2 / pp2
-    g2 = k / pp2
-    ss2 += g2
-    ss2 *= 2.0
-    pp2 += g2
+    run = []
+    for pp, cc, ss in sets:
+        g = k / pp
+        run.append([pp + g, cc + ss / pp, 2.0 * (ss + cc * g)])
     g = em
     em = k + em
     kk = k
@@ -146,23 +112,28 @@ def _cel_two(kc: np.ndarray, p2: np.ndarray, s2: np.ndarray, rtol: float = 1e-8,
             break
         k = 2.0 * np.sqrt(kk)
         kk = k * em
-        f = cc1
-        cc1 = cc1 + ss1 / pp1
-        g1 = kk / pp1
-        ss1 += f * g1
-        ss1 *= 2.0
-        pp1 += g1
-        f = cc2
-        cc2 = cc2 + ss2 / pp2
-        g2 = kk / pp2
-        ss2 += f * g2
-        ss2 *= 2.0
-        pp2 += g2
+        for r in run:
+            pp, cc, ss = r
+            g = kk / pp
+            r[:] = [pp + g, cc + ss / pp, 2.0 * (ss + cc * g)]
         g = em
         em = k + em
-    half_pi = 0.5 * math.pi
-    return (half_pi * (ss1 + cc1 * em) / (em * (em + pp1)),
-            half_pi * (ss2 + cc2 * em) / (em * (em + pp2)))
+    return [0.5 * math.pi * (ss + cc * em) / (em * (em + pp)) for pp, cc, ss in run]
+
+
+def _cel_two(kc: np.ndarray, p2: np.ndarray, s2: np.ndarray, rtol: float = 1e-8,
+             max_iter: int = 40) -> tuple[np.ndarray, np.ndarray]:
+    """``cel(kc, 1, 1, -1)`` and ``cel(kc, p2, 1, s2)`` in one pass (``p2 > 0``, ``kc != 0``).
+
+    Both share the iteration of :func:`_cel_iterate` (same tolerance and stopping rule
+    as :func:`cel`).
+    """
+    k = np.abs(kc)
+    p2, s2 = np.broadcast_arrays(p2, s2, k)[:2]
+    one = np.ones_like(k)
+    pp2 = np.sqrt(p2)
+    c1, c2 = _cel_iterate(k, [(one, one, -one), (pp2, one, s2 / pp2)], rtol, max_iter)
+    return c1, c2
 
 
 def _cyl_core(p: np.ndarray, radius, half_h, jz, centre, ell) -> np.ndarray:
