@@ -45,6 +45,7 @@ def _snap(values: np.ndarray, tol: float) -> np.ndarray:
 #: inside the floating-point range (smallest factor ~1e-22 next to an edge line).
 _LOG_GROUP = 8
 _OTHERS = ((1, 2), (0, 2), (0, 1))  # the two axes other than 0, 1, 2
+_N_SCRATCH = 10  # (corners, points) scratch arrays of one chunk
 
 
 def _near_any(x: np.ndarray, values: np.ndarray, tol: float) -> np.ndarray:
@@ -88,6 +89,70 @@ class _LogPlan:
         used = int(np.max(np.sum(idx < m, axis=0)))
         self.index = [np.ascontiguousarray(row) for row in idx[:used]]
         self.coefficients = np.array(coef)  # (n_groups, 2)
+
+
+def _atan_difference(P: np.ndarray, D1: np.ndarray, D2: np.ndarray) -> np.ndarray:
+    """``atan(P / D1) - atan(P / D2)`` with one arctangent (``D1, D2`` non-zero).
+
+    ``(x - y) / (1 + x y)`` is the tangent of the difference; where ``1 + x y < 0`` (the
+    two angles on opposite sides, ``D1 D2 < 0``) the difference is that arctangent
+    ``+- pi``, with the sign of ``x - y`` [1]_.
+
+    References
+    ----------
+    .. [1] M. Abramowitz and I. A. Stegun, Handbook of Mathematical Functions, Dover
+       (1965), eq. 4.4.34.
+    """
+    num = D2 - D1
+    num *= P
+    d12 = D1 * D2
+    den = P * P
+    den += d12
+    q = num / den  # = (x - y) / (1 + x y), both scaled by D1 D2
+    np.arctan(q, out=q)
+    # 1 + x y = den / (D1 D2) < 0 only where D1 D2 < 0 < den; there sign(x - y) = -sign(num)
+    wrap = (d12 < 0) & (den > 0)
+    if np.any(wrap):
+        q -= np.pi * np.sign(num) * wrap
+    return q
+
+
+class _AtanPlan:
+    """Corners paired along the lines of axis ``a`` for the arctangent terms.
+
+    Corners sharing their two other coordinates have the same ``d_b d_c``; consecutive
+    ones along the line with coefficients ``k1, k2`` contribute
+    ``k1 (atan x1 - atan x2) + (k1 + k2) atan x2``, the difference taken with one
+    arctangent (:func:`_atan_difference`); a single-layer array has exactly opposite
+    coefficients at the top and bottom of each line, so no remainder.
+    """
+
+    def __init__(self, axis: int, corners: np.ndarray, k: np.ndarray):
+        b, c = _OTHERS[axis]
+        nz = np.nonzero(k != 0)[0]
+        order = nz[np.lexsort((corners[nz, axis], corners[nz, c], corners[nz, b]))]
+        kmax = float(np.max(np.abs(k))) if k.size else 0.0
+        i1, i2, kp, single, ks = [], [], [], [], []
+        j = 0
+        while j < order.size:
+            u = order[j]
+            if j + 1 < order.size and np.all(corners[order[j + 1], [b, c]] == corners[u, [b, c]]):
+                w = order[j + 1]
+                i1.append(u)
+                i2.append(w)
+                kp.append(k[u])
+                rest = k[u] + k[w]
+                if abs(rest) > 1e-13 * kmax:
+                    single.append(w)
+                    ks.append(rest)
+                j += 2
+            else:
+                single.append(u)
+                ks.append(k[u])
+                j += 1
+        # pairing pays only when it removes arctangents
+        self.pairs = (np.array(i1), np.array(i2), np.array(kp)) if len(i1) > len(single) else None
+        self.singles = (np.array(single), np.array(ks)) if single and self.pairs is not None else None
 
 
 class CuboidSet:
@@ -181,6 +246,7 @@ class CuboidSet:
         self._values = [np.unique(self._cn[:, ax]) for ax in range(3)]
         self._plans = [_LogPlan(ax, self.coefficients) for ax in range(3)]
         self._atan_axes = [a for a in range(3) if np.any(self.coefficients[:, a] != 0)]
+        self._atan_plans = {a: _AtanPlan(a, self._cn, self.coefficients[:, a]) for a in self._atan_axes}
 
     # -- field ---------------------------------------------------------------
     def mu0_h_mean(self, p: np.ndarray, atan: bool = True, log: bool = True) -> np.ndarray:
@@ -201,45 +267,65 @@ class CuboidSet:
         close = [_near_any(pn[:, a], self._values[a], snap) for a in range(3)]
         on_line = [close[b] & close[c] for b, c in ((1, 2), (0, 2), (0, 1))]
         slices = list(_chunks(p.shape[0], m))
-        ext = np.empty((m + 1, max(sl.stop - sl.start for sl in slices)))
+        width = max(sl.stop - sl.start for sl in slices)
+        # scratch reused by every chunk (no allocation, no page faults per operation)
+        ws = np.empty((_N_SCRATCH, m, width))
+        ext = np.empty((m + 1, width))
         ext[m] = 1.0  # the factor of 1 that pads the groups of logarithms
         with np.errstate(divide="ignore", invalid="ignore"):
             for sl in slices:
                 flags = ([bool(f[sl].any()) for f in on_plane], [bool(f[sl].any()) for f in on_line])
-                out[sl] = self._mu0_h(pn[sl], atan, log, flags, ext)
+                out[sl] = self._mu0_h(pn[sl], atan, log, flags, ext, ws)
         return out
 
-    def _mu0_h(self, pn: np.ndarray, atan: bool, log: bool, flags, ext: np.ndarray) -> np.ndarray:
-        """mu0 H (c, 3) [T] at normalised points ``pn`` (c, 3); ``ext`` scratch (m+1, >=c)."""
+    def _mu0_h(self, pn: np.ndarray, atan: bool, log: bool, flags, ext: np.ndarray,
+               ws: np.ndarray) -> np.ndarray:
+        """mu0 H (c, 3) [T] at normalised points ``pn`` (c, 3); ``ext`` (m+1, >=c) and
+        ``ws`` (_N_SCRATCH, m, >=c) scratch."""
         on_plane, on_line = flags
         nc = pn.shape[0]
         C = self.coefficients
         m = C.shape[0]
-        # layout (corners, points): every temporary contiguous, groups gathered by rows
-        d = [pn[:, ax][None, :] - self._cn_cols[ax] for ax in range(3)]  # (m, c) each
-        sq = [x * x for x in d]
-        r = sq[0] + sq[1]
+        w = ws[:, :, :nc]
+        # layout (corners, points): rows contiguous, groups gathered by rows
+        d = [w[0], w[1], w[2]]  # (m, c) each
+        sq = [w[3], w[4], w[5]]
+        for ax in range(3):
+            np.subtract(pn[:, ax][None, :], self._cn_cols[ax], out=d[ax])
+            np.multiply(d[ax], d[ax], out=sq[ax])
+        r = np.add(sq[0], sq[1], out=w[6])
         r += sq[2]
         np.sqrt(r, out=r)
         out = np.zeros((3, nc))
         if atan:
             for a in self._atan_axes:
                 b, c = _OTHERS[a]
-                # atan(d_b d_c / (d_a r)); where d_a = 0 the mean of the one-sided limits, 0
-                q = d[b] * d[c]
-                den = d[a] * r
-                q /= den
-                np.arctan(q, out=q)
-                if on_plane[a]:
-                    q[den == 0] = 0.0
-                out[a] += C[:, a] @ q
+                plan = self._atan_plans[a]
+                if on_plane[a] or plan.pairs is None:
+                    # atan(d_b d_c / (d_a r)); where d_a = 0 the mean of its one-sided limits, 0
+                    q = np.multiply(d[b], d[c], out=w[7])
+                    den = np.multiply(d[a], r, out=w[8])
+                    q /= den
+                    np.arctan(q, out=q)
+                    if on_plane[a]:
+                        q[den == 0] = 0.0
+                    out[a] += C[:, a] @ q
+                    continue
+                i1, i2, kp = plan.pairs
+                out[a] += kp @ _atan_difference(d[b][i1] * d[c][i1], d[a][i1] * r[i1], d[a][i2] * r[i2])
+                if plan.singles is not None:
+                    i, k = plan.singles
+                    q = d[b][i] * d[c][i]
+                    q /= d[a][i] * r[i]
+                    out[a] += k @ np.arctan(q, out=q)
         if log:
             e = ext[:, :nc]
             for plan in self._plans:
                 if not plan.active:
                     continue
                 b, c = plan.others
-                e[:m] = self._log_argument(d[plan.axis], r, sq[b] + sq[c], on_line[plan.axis])
+                rho2 = np.add(sq[b], sq[c], out=w[9])
+                self._log_argument(d[plan.axis], r, rho2, on_line[plan.axis], e[:m], w[7], w[8])
                 prod = e[plan.index[0]]
                 for rows in plan.index[1:]:
                     prod *= e[rows]
@@ -248,8 +334,10 @@ class CuboidSet:
         out /= _FOUR_PI
         return out.T
 
-    def _log_argument(self, t, r, rho2, maybe_near: bool) -> np.ndarray:
-        """``t + r`` with ``r = sqrt(t^2 + rho2)`` (normalised), cancellation-free, finite.
+    def _log_argument(self, t, r, rho2, maybe_near: bool, arg, s, tmp) -> None:
+        """``t + r`` into ``arg``, ``r = sqrt(t^2 + rho2)`` (normalised), cancellation-free.
+
+        ``s`` and ``tmp`` are scratch of the same shape.
 
         For ``t < 0`` the identity ``t + r = rho2 / (r - t)`` avoids the cancellation. On
         the line ``rho2 = 0`` (to within ``EDGE_SNAP`` of the rounding length, so that
@@ -259,11 +347,12 @@ class CuboidSet:
         on the edge itself it replaces the logarithmic edge singularity by its value at
         ``ell``. At a corner the argument is ``ell``.
         """
-        s = np.abs(t)
+        np.abs(t, out=s)
         s += r  # |t| + r
-        arg = np.where(t < 0, rho2 / s, s)
+        np.divide(rho2, s, out=tmp)
+        arg[...] = np.where(t < 0, tmp, s)
         if not maybe_near:
-            return arg  # no point near a corner line along this axis
+            return  # no point near a corner line along this axis
         ell = self._ell
         snap = EDGE_SNAP * ell
         near = rho2 <= snap * snap
@@ -271,7 +360,6 @@ class CuboidSet:
             tb, rb, sb = t[near], r[near], s[near]
             line = np.where(tb < 0, ell * ell / sb, sb)
             arg[near] = np.where(rb <= snap, ell, line)
-        return arg
 
 
 def cuboid_B(observers, dimensions, polarizations, positions) -> np.ndarray:
