@@ -91,8 +91,11 @@ class _LogPlan:
         self.coefficients = np.array(coef)  # (n_groups, 2)
 
 
-def _atan_difference(P: np.ndarray, D1: np.ndarray, D2: np.ndarray) -> np.ndarray:
+def _atan_difference(P: np.ndarray, D1: np.ndarray, D2: np.ndarray, branch: bool = True) -> np.ndarray:
     """``atan(P / D1) - atan(P / D2)`` with one arctangent (``D1, D2`` non-zero).
+
+    ``branch=False`` where ``D1 D2 > 0`` is known (no branch to take); ``D1`` is
+    overwritten.
 
     ``(x - y) / (1 + x y)`` is the tangent of the difference; where ``1 + x y < 0`` (the
     two angles on opposite sides, ``D1 D2 < 0``) the difference is that arctangent
@@ -105,15 +108,17 @@ def _atan_difference(P: np.ndarray, D1: np.ndarray, D2: np.ndarray) -> np.ndarra
     """
     num = D2 - D1
     num *= P
-    d12 = D1 * D2
-    den = P * P
-    den += d12
-    q = num / den  # = (x - y) / (1 + x y), both scaled by D1 D2
+    den = np.multiply(D1, D2, out=D1)
+    d12 = den.copy() if branch else None
+    den += P * P
+    q = np.divide(num, den, out=num)  # = (x - y) / (1 + x y), both scaled by D1 D2
     np.arctan(q, out=q)
-    # 1 + x y = den / (D1 D2) < 0 only where D1 D2 < 0 < den; there sign(x - y) = -sign(num)
-    wrap = (d12 < 0) & (den > 0)
-    if np.any(wrap):
-        q -= np.pi * np.sign(num) * wrap
+    if branch:
+        # 1 + x y = den / (D1 D2) < 0 only where D1 D2 < 0 < den; there
+        # sign(x - y) = -sign(num) = -sign(q)
+        wrap = (d12 < 0) & (den > 0)
+        if np.any(wrap):
+            q -= np.pi * np.sign(q) * wrap
     return q
 
 
@@ -152,6 +157,12 @@ class _AtanPlan:
                 j += 1
         # pairing pays only when it removes arctangents
         self.pairs = (np.array(i1), np.array(i2), np.array(kp)) if len(i1) > len(single) else None
+        self.slices = None  # the pairs as slices, when they are two contiguous halves
+        if self.pairs is not None:
+            npair = len(i1)
+            if np.array_equal(self.pairs[0], np.arange(npair)) and \
+                    np.array_equal(self.pairs[1], np.arange(npair, 2 * npair)):
+                self.slices = (slice(0, npair), slice(npair, 2 * npair), self.pairs[2])
         self.singles = (np.array(single), np.array(ks)) if single and self.pairs is not None else None
 
 
@@ -231,8 +242,19 @@ class CuboidSet:
         np.add.at(net, inverse.ravel(), coeffs)
         jmax = float(np.max(np.abs(pols))) if pols.size else 0.0
         keep = np.any(np.abs(net) > 1e-13 * max(jmax, 1e-300), axis=1)
-        self.corners = uniq[keep]
-        self.coefficients = net[keep]
+        corners, coeffs = uniq[keep], net[keep]
+        # order the corners so that the pairs of the axis with most arctangents are two
+        # contiguous halves (the kernel then takes them as slices, without copies)
+        counts = np.count_nonzero(coeffs, axis=0)
+        main = int(np.argmax(counts))
+        pairs = _AtanPlan(main, corners, coeffs[:, main]).pairs
+        if pairs is not None:
+            i1, i2 = pairs[0], pairs[1]
+            rest = np.setdiff1d(np.arange(corners.shape[0]), np.concatenate([i1, i2]))
+            order = np.concatenate([i1, i2, rest])
+            corners, coeffs = corners[order], coeffs[order]
+        self.corners = corners
+        self.coefficients = coeffs
         self.edge_length = EDGE_ROUNDING * float(np.min(hi - lo))  # rounding length [m]
         self.lo = lo
         self.hi = hi
@@ -247,6 +269,7 @@ class CuboidSet:
         self._plans = [_LogPlan(ax, self.coefficients) for ax in range(3)]
         self._atan_axes = [a for a in range(3) if np.any(self.coefficients[:, a] != 0)]
         self._atan_plans = {a: _AtanPlan(a, self._cn, self.coefficients[:, a]) for a in self._atan_axes}
+        self._lo_hi = [(float(v[0]), float(v[-1])) if v.size else (0.0, 0.0) for v in self._values]
 
     # -- field ---------------------------------------------------------------
     def mu0_h_mean(self, p: np.ndarray, atan: bool = True, log: bool = True) -> np.ndarray:
@@ -266,6 +289,9 @@ class CuboidSet:
         snap = EDGE_SNAP * self._ell
         close = [_near_any(pn[:, a], self._values[a], snap) for a in range(3)]
         on_line = [close[b] & close[c] for b, c in ((1, 2), (0, 2), (0, 1))]
+        # strictly between the outermost corner planes of an axis: paired arctangents
+        # there may need their branch
+        inner = [(pn[:, a] > lo) & (pn[:, a] < hi) for a, (lo, hi) in enumerate(self._lo_hi)]
         slices = list(_chunks(p.shape[0], m))
         width = max(sl.stop - sl.start for sl in slices)
         # scratch reused by every chunk (no allocation, no page faults per operation)
@@ -274,7 +300,8 @@ class CuboidSet:
         ext[m] = 1.0  # the factor of 1 that pads the groups of logarithms
         with np.errstate(divide="ignore", invalid="ignore"):
             for sl in slices:
-                flags = ([bool(f[sl].any()) for f in on_plane], [bool(f[sl].any()) for f in on_line])
+                flags = ([bool(f[sl].any()) for f in on_plane], [bool(f[sl].any()) for f in on_line],
+                         [bool(f[sl].any()) for f in inner])
                 out[sl] = self._mu0_h(pn[sl], atan, log, flags, ext, ws)
         return out
 
@@ -282,7 +309,7 @@ class CuboidSet:
                ws: np.ndarray) -> np.ndarray:
         """mu0 H (c, 3) [T] at normalised points ``pn`` (c, 3); ``ext`` (m+1, >=c) and
         ``ws`` (_N_SCRATCH, m, >=c) scratch."""
-        on_plane, on_line = flags
+        on_plane, on_line, between = flags
         nc = pn.shape[0]
         C = self.coefficients
         m = C.shape[0]
@@ -311,8 +338,11 @@ class CuboidSet:
                         q[den == 0] = 0.0
                     out[a] += C[:, a] @ q
                     continue
-                i1, i2, kp = plan.pairs
-                out[a] += kp @ _atan_difference(d[b][i1] * d[c][i1], d[a][i1] * r[i1], d[a][i2] * r[i2])
+                i1, i2, kp = plan.pairs if plan.slices is None else plan.slices
+                P = np.multiply(d[b][i1], d[c][i1], out=w[7][:len(kp)])
+                D1 = np.multiply(d[a][i1], r[i1], out=w[8][:len(kp)])
+                D2 = np.multiply(d[a][i2], r[i2], out=w[9][:len(kp)])
+                out[a] += kp @ _atan_difference(P, D1, D2, between[a])
                 if plan.singles is not None:
                     i, k = plan.singles
                     q = d[b][i] * d[c][i]

@@ -191,7 +191,7 @@ def _cyl_sum(p: np.ndarray, radii, half_h, jz, positions, ell) -> np.ndarray:
     m = radii.shape[0]
     if m == 0 or p.shape[0] == 0:
         return out
-    for sl in _chunks(p.shape[0], m):
+    for sl in _chunks(p.shape[0], 2 * m):  # both moduli are stacked: keep temporaries small
         out[sl] = _cyl_core(p[sl], radii, half_h, jz, positions, ell)
     return out
 
