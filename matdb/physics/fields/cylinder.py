@@ -88,35 +88,58 @@ def cel(kc, p, c, s, *, rtol: float = 1e-8, max_iter: int = 40) -> np.ndarray:
     return out
 
 
+def _agm_steps(kmin: float, rtol: float, max_iter: int) -> int:
+    """Iterations Bulirsch's stopping rule needs for the complementary modulus ``kmin``.
+
+    The arithmetic-geometric sequence converges slowest for the smallest ``|kc|``, so this
+    count (run on the scalar) is enough for every element of an array whose smallest
+    modulus is ``kmin``.
+    """
+    k, em, n = kmin, 1.0, 0
+    g, em, kk = em, k + em, k
+    while n < max_iter and abs(g - k) > g * rtol:
+        k = 2.0 * math.sqrt(kk)
+        kk = k * em
+        g, em = em, k + em
+        n += 1
+    return n
+
+
 def _cel_iterate(k: np.ndarray, sets: list, rtol: float, max_iter: int) -> list:
     """Bulirsch's ``cel`` iteration [1]_ for one modulus and several ``(p, c, s)``.
 
     ``k = |kc|``; each set is ``(sqrt(p), c, s / sqrt(p))`` after the transformation for
     the sign of ``p``. The arithmetic-geometric sequence of ``k`` is shared; only the
-    three running sums of each set differ.
+    three running sums of each set differ. The number of iterations is the one the
+    smallest modulus needs (:func:`_agm_steps`), so no element is tested on the way.
 
     References
     ----------
     .. [1] R. Bulirsch, Numer. Math. 13, 305-315 (1969), algorithm ``cel``.
     """
+    steps = _agm_steps(float(np.min(k)), rtol, max_iter) if k.size else 0
     em = np.ones_like(k)
     run = []
     for pp, cc, ss in sets:
         g = k / pp
         run.append([pp + g, cc + ss / pp, 2.0 * (ss + cc * g)])
-    g = em
     em = k + em
     kk = k
-    for _ in range(max_iter):
-        if not np.any(np.abs(g - k) > g * rtol):
-            break
-        k = 2.0 * np.sqrt(kk)
+    for _ in range(steps):
+        k = np.sqrt(kk)
+        k *= 2.0
         kk = k * em
         for r in run:
             pp, cc, ss = r
-            g = kk / pp
-            r[:] = [pp + g, cc + ss / pp, 2.0 * (ss + cc * g)]
-        g = em
+            inv = 1.0 / pp  # one division serves s / p and kk / p
+            g = kk * inv
+            inv *= ss
+            inv += cc  # c + s / p
+            cc *= g
+            ss += cc
+            ss *= 2.0
+            pp += g
+            r[:] = [pp, inv, ss]
         em = k + em
     return [0.5 * math.pi * (ss + cc * em) / (em * (em + pp)) for pp, cc, ss in run]
 
