@@ -39,7 +39,7 @@ def run() -> dict:
     old = os.environ.get("MATDB_CACHE_DIR")
     os.environ["MATDB_CACHE_DIR"] = tmp
     try:
-        from matdb.advisor import engine as A
+        from matdb import advisor as A
         from matdb.physics import plate, thermal  # noqa: F401  (imports are not part of "cold")
 
         req = A.parse_request("0.2 g", "17 mm x 17 mm", temp_min="0 degC", temp_max="60 degC")

@@ -1,6 +1,6 @@
 """Sizing optimiser for floating plates: beyond the catalogue of standard magnets.
 
-The advisor (:mod:`matdb.advisor.engine`) ranks standard cubes and cylinders in default counts.
+The advisor (:mod:`matdb.advisor`) ranks standard cubes and cylinders in default counts.
 :func:`optimise` starts from its best feasible candidate and varies, for that plate
 material, grade, pattern and magnet shape:
 
@@ -41,8 +41,9 @@ from typing import Any, Callable, Sequence
 
 import numpy as np
 
-from matdb.advisor import engine as A
+from matdb import advisor as A
 from matdb.errors import InputError
+from matdb.physics.thermal import T_REF_K
 from matdb.units import G_STANDARD, MU0
 
 #: plate side as a fraction of the array's shorter side (an outer loop: lateral stability
@@ -147,18 +148,18 @@ class _Model:
         self.req, self.mat, self.grade = req, mat, grade
         t_w = req.temp_max_k
         coeff = mat.temp_coeff_per_k
-        cf = 1.0 if coeff is None else 1.0 + coeff * (t_w - A.T20_K)
+        cf = 1.0 if coeff is None else 1.0 + coeff * (t_w - T_REF_K)
         ref = abs(mat.chi_vertical)
         fw = 1.0
         if mat.uncertainty_si is not None and ref > 0:
             fw = max(ref - abs(mat.uncertainty_si), 0.0) / ref
         self.a_w = abs(mat.chi_vertical * cf) * fw
         self.b_w = abs(mat.chi_horizontal * cf) * fw
-        br_op = grade.br_t * (1.0 + grade.alpha_br_pct_per_k / 100.0 * (t_w - A.T20_K))
+        br_op = grade.br_t * (1.0 + grade.alpha_br_pct_per_k / 100.0 * (t_w - T_REF_K))
         self.a_op = abs(mat.chi_vertical * cf) * br_op ** 2  # nominal, times B_r^2 [T^2]
         self.b_op = abs(mat.chi_horizontal * cf) * br_op ** 2
         br_min = grade.br_min_t if grade.br_min_t is not None else grade.br_t
-        br_w = br_min * (1.0 + grade.alpha_br_pct_per_k / 100.0 * (t_w - A.T20_K))
+        br_w = br_min * (1.0 + grade.alpha_br_pct_per_k / 100.0 * (t_w - T_REF_K))
         self.s_w = br_w ** 2 / (2 * MU0)
         self.g_req = max(req.min_gap_m, 5e-5)
         self.memo: dict[tuple, float] = {}
@@ -520,7 +521,7 @@ def _catalogue_start(req: A.AdviceRequest, objective: str, min_margin: float, ur
     if req.envelope_m is not None:  # arrays outside the envelope cannot be the start
         inside = [s for s in cat.specs
                   if not any(e > 1e-9 for e in s.envelope_excess(req.envelope_m))]
-        cat = A._Catalogue(cat.mats, cat.grades, inside or cat.specs, cat.thick, cat.thick_owner)
+        cat = A.Catalogue(cat.mats, cat.grades, inside or cat.specs, cat.thick, cat.thick_owner)
     cb = (lambda f, t: progress(0.12 * f, f"catalogue: {t}")) if progress else None
     with A.reporting_progress(cb):
         df, cat = A.rank(req, polish=1, catalogue=cat, url=url, tilt_rows=40)
@@ -560,8 +561,8 @@ def optimise(req: A.AdviceRequest, *, objective: str = "margin", min_margin: flo
 
     Parameters
     ----------
-    req : matdb.advisor.engine.AdviceRequest
-        What to float (:func:`matdb.advisor.engine.parse_request`).
+    req : matdb.advisor.AdviceRequest
+        What to float (:func:`matdb.advisor.parse_request`).
     objective : {"margin", "cost"}
         Largest worst-case margin within the budget, or the cheapest design reaching
         ``min_margin``.

@@ -880,7 +880,7 @@ ADVISOR_SHOWN = ["rank", "material", "grade", "arrangement", "array_mm", "magnet
 
 
 def advisor_table(df: pd.DataFrame) -> pd.DataFrame:
-    """The ranking of :func:`matdb.advisor.engine.advise` for people: lengths in mm, reasons as
+    """The ranking of :func:`matdb.advisor.advise` for people: lengths in mm, reasons as
     one sentence list (``reasons_text``); the other columns as they are."""
     out = df.copy()
     out["thickness_mm"] = out["thickness_m"] * 1e3
@@ -945,7 +945,7 @@ def candidate_label(row) -> str:
 
 def candidate_toml(row: dict, request) -> str:
     """Design-file text of one ranked candidate (what ``matdb advise --save`` writes)."""
-    from matdb.advisor.engine import candidate_design
+    from matdb.advisor import candidate_design
     from matdb.design.plate import design_to_toml
 
     return design_to_toml(candidate_design(dict(row), request))
