@@ -12,7 +12,7 @@ import math
 from matdb.advisor.candidates import ArrangementSpec, Catalogue
 from matdb.advisor.request import AdviceRequest
 from matdb.advisor.tables import SCREEN_HEIGHTS_M
-from matdb.units import kelvin_to_celsius
+from matdb.constants import kelvin_to_celsius
 
 
 def _c(t_k: float) -> str:

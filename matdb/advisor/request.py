@@ -14,8 +14,8 @@ from dataclasses import asdict, dataclass, field
 import numpy as np
 
 from matdb.errors import InputError
+from matdb.constants import T_REF_K
 from matdb.units import parse_length, parse_mass, parse_quantity, parse_temperature
-from matdb.physics.thermal import T_REF_K
 
 DEFAULT_THICKNESSES_M = (0.5e-3, 1e-3, 2e-3)
 #: with a total mass and no fixed plate, plates of these fractions of the footprint are ranked

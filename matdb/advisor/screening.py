@@ -33,7 +33,7 @@ from matdb.advisor.tables import SCREEN_HEIGHTS_M, GeometryData, geometry
 from matdb.errors import InputError
 from matdb.physics import plate_tables as PT
 from matdb.physics import thermal as TH
-from matdb.units import G_STANDARD, MU0, kelvin_to_celsius
+from matdb.constants import G_STANDARD, MU0, kelvin_to_celsius
 
 G_START_M = 5e-5  # lowest gap considered [m] (as matdb.physics.plate.MIN_GAP)
 #: gaps of the tilt tables [m] (interpolated in log gap)

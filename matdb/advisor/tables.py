@@ -24,6 +24,7 @@ import numpy as np
 from platformdirs import user_cache_dir
 
 from matdb.advisor.candidates import ArrangementSpec
+from matdb.constants import T_REF_K
 from matdb.physics import plate as P
 from matdb.physics import plate_tables as PT
 from matdb.physics import thermal as TH
@@ -211,7 +212,7 @@ class GeometryData:
                 knee = TH.KNEE_FRACTION["NdFeB"][0]
                 # the idealised (rigid) magnets: their reverse field is a little larger than
                 # on the recoil line, so the check errs on the safe side (as levitate's)
-                r = TH.demag_check(self.spec.build(1.0), 1.0, 0.0, "NdFeB", [TH.T_REF_K])
+                r = TH.demag_check(self.spec.build(1.0), 1.0, 0.0, "NdFeB", [T_REF_K])
                 self.hmax = float(r.worst_ratio * knee)
             _HMAX[self.spec] = self.hmax
             self.dirty = True

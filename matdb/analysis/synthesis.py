@@ -43,8 +43,7 @@ import numpy as np
 
 from matdb import advisor as A
 from matdb.errors import InputError
-from matdb.physics.thermal import T_REF_K
-from matdb.units import G_STANDARD, MU0
+from matdb.constants import G_STANDARD, MU0, T_REF_K, kelvin_to_celsius
 
 #: plate side as a fraction of the array's shorter side (an outer loop: lateral stability
 #: over a checkerboard depends mostly on this ratio, and is not monotone in it)
@@ -458,7 +457,7 @@ def check(z: Sizing, req: A.AdviceRequest, mat, grade, require_spare: bool = Tru
             reasons.append(spare_note)
     if res["demag_risk"]:
         reasons.append("irreversible loss of magnetisation at the coldest or hottest temperature")
-    if grade.max_temp_c is not None and req.temp_max_k - 273.15 > grade.max_temp_c + 1e-9:
+    if grade.max_temp_c is not None and kelvin_to_celsius(req.temp_max_k) > grade.max_temp_c + 1e-9:
         reasons.append(f"{grade.grade} is rated to {grade.max_temp_c:g} C")
     if req.budget_usd is not None and not (cost <= req.budget_usd * (1 + 1e-9)):
         reasons.append(f"cost {cost:.2f} USD is over the budget of {req.budget_usd:.2f} USD"
