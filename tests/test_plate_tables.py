@@ -18,7 +18,8 @@ def test_lateral_line_integrals_equal_the_stiffness_of_a_shifted_plate():
     # sideways shift (Berry and Geim, Eur. J. Phys. 18, 307 (1997)); the line integrals across
     # the side faces, summed over the height, must equal the central difference of the
     # generalised force that matdb.physics.plate.stiffness_split takes (an independent path:
-    # volume quadrature of the shifted plate).
+    # volume quadrature of the shifted plate). Both take central differences (1 um across a
+    # face here, 4 um shifts there): they agree to about 4e-5; bound 1e-4.
     arr = build_arrangement("cuboid", (0.01, 0.01, 0.01), "checkerboard", 2, 2, 0.0, br=1.0)
     bx, by = P.edge_lines(arr.magnets)
     g, t, side = 1e-3, 1e-3, 0.008
@@ -27,10 +28,10 @@ def test_lateral_line_integrals_equal_the_stiffness_of_a_shifted_plate():
     cum = PT.cumulative_over_height(lat, hs)[:, -1] / (2 * MU0)
     geom = P.PlateGeometry("rectangle", side, side, t, 0.0, 0.0, bx, by)
     k = P.stiffness_split(arr.B, geom, g, (0.0, 0.0, g + t / 2), 8, dofs=(0, 1))
-    assert cum[0] == pytest.approx(k[0][0, 0], rel=1e-6)  # x, chi_perp part
-    assert cum[1] == pytest.approx(k[1][0, 0], rel=1e-6)  # x, chi_par part
-    assert cum[2] == pytest.approx(k[0][1, 1], rel=1e-6)  # y
-    assert cum[3] == pytest.approx(k[1][1, 1], rel=1e-6)
+    assert cum[0] == pytest.approx(k[0][0, 0], rel=1e-4)  # x, chi_perp part
+    assert cum[1] == pytest.approx(k[1][0, 0], rel=1e-4)  # x, chi_par part
+    assert cum[2] == pytest.approx(k[0][1, 1], rel=1e-4)  # y
+    assert cum[3] == pytest.approx(k[1][1, 1], rel=1e-4)
 
 
 def test_cumulative_over_height_of_a_linear_function_is_exact():
