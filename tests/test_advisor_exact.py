@@ -10,7 +10,7 @@ import pytest
 import matdb.analysis.levitate as L
 from matdb import advisor as A
 from matdb.analysis.levitate import levitate_plate
-from matdb.design.plate import load_design
+from matdb.design import load_design
 from matdb.physics import plate as P
 
 from advisor_cases import CUBE10_2X2, PLATE

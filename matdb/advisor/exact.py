@@ -1,6 +1,6 @@
 """The exact rows: a candidate as a design file, worked out by ``matdb levitate``.
 
-:func:`candidate_design` turns a ranked row into a :class:`matdb.design.plate.PlateDesign`
+:func:`candidate_design` turns a ranked row into a :class:`matdb.design.PlateDesign`
 (the file ``--save`` writes); :func:`exact_evaluation` runs
 :func:`matdb.analysis.levitate.levitate_plate` on it -- the very computation of
 ``matdb levitate`` -- and maps its keys onto the ranking's columns. The worst-case
@@ -17,7 +17,7 @@ from matdb.advisor.candidates import ArrangementSpec, Catalogue, row_request
 from matdb.advisor.request import AdviceRequest
 from matdb.analysis.levitate import format_intervals, levitate_plate
 from matdb.data import catalog
-from matdb.design.plate import Conditions, MagnetSpec, PlateDesign, PlateSpec, write_design
+from matdb.design import Conditions, MagnetSpec, PlateDesign, PlateSpec, write_design
 
 
 def _props(row: dict, cat: Catalogue | None):
@@ -29,7 +29,7 @@ def _props(row: dict, cat: Catalogue | None):
 
 def candidate_design(row: dict, req: AdviceRequest, cat: Catalogue | None = None,
                      name: str | None = None) -> PlateDesign:
-    """A :class:`matdb.design.plate.PlateDesign` of one candidate row (for ``--save``)."""
+    """A :class:`matdb.design.PlateDesign` of one candidate row (for ``--save``)."""
     grade, mat = _props(row, cat)
     if cat is not None and "spec_index" in row:
         spec = cat.specs[int(row["spec_index"])]

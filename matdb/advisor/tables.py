@@ -75,7 +75,7 @@ def physics_fingerprint() -> str:
         h = hashlib.sha256(CODE_VERSION.encode())
         pkg = Path(P.__file__).resolve().parent.parent
         files = sorted((pkg / "physics").rglob("*.py")) + [pkg / "analysis" / "levitate.py",
-                                                           pkg / "design" / "plate.py"]
+                                                           *sorted((pkg / "design").glob("*.py"))]
         for f in files:
             h.update(f.relative_to(pkg).as_posix().encode())
             h.update(f.read_bytes() if f.exists() else b"")
