@@ -51,81 +51,24 @@ class Figure:
     worst: str | None = None  # key of the worst-case counterpart
 
 
-def _figs(rows) -> tuple[Figure, ...]:
-    return tuple(Figure(*r) for r in rows)
+FIGURES_FILE = Path(__file__).with_name("figures.toml")
 
 
-_PLATE = "matdb.physics.plate"
-_TH = "matdb.physics.thermal"
+def load_figures(path: Path = FIGURES_FILE) -> tuple[Figure, ...]:
+    """The plate report's figures, in order, from ``figures.toml``.
+
+    A figure's display unit and scale follow its key's SI suffix (:func:`_suffix_unit`)
+    unless the file gives ``unit`` (and ``scale``).
+    """
+    figures = []
+    for r in tomllib.loads(path.read_text(encoding="utf-8"))["figure"]:
+        unit, scale = _suffix_unit(r["key"])
+        figures.append(Figure(r["key"], r["label"], r.get("unit", unit), float(r.get("scale", scale)),
+                              r["method"], r["ref"], r.get("worst")))
+    return tuple(figures)
+
+
 _ST = "matdb.physics.stabilized"
-
-PLATE_FIGURES = _figs([
-    ("floats", "floats", "yes/no", 1, "The lift curve crosses the weight on a falling branch.",
-     f"{_PLATE}.analyse_plate"),
-    ("gap_m", "equilibrium gap", "mm", 1e3, "Highest root of lift(gap) = weight where the lift falls with "
-     "height, refined by Brent's method on the surface-integral lift.", f"{_PLATE}.equilibrium_gap", "gap_worst_m"),
-    ("clearance_m", "clearance above the cover sheet", "mm", 1e3, "Equilibrium gap minus the cover thickness.",
-     f"{_PLATE}.analyse_plate"),
-    ("weight_n", "weight (plate + payload)", "mN", 1e3, "Mass times standard gravity.", f"{_PLATE}.analyse_plate"),
-    ("plate_mass_kg", "plate mass", "g", 1e3, "Density times plate volume.", f"{_PLATE}.analyse_plate"),
-    ("payload_kg", "payload", "g", 1e3, "As given in the design.", f"{_PLATE}.analyse_plate"),
-    ("required_gap_m", "required gap", "mm", 1e3, "Design's min_gap (at least cover + 0.05 mm).",
-     f"{_PLATE}.analyse_plate"),
-    ("lift_at_required_gap_n", "lift at the required gap", "mN", 1e3,
-     "Maxwell-stress surface integral of B^2 over the plate faces (Gauss-Legendre panels).",
-     f"{_PLATE}.lift_force"),
-    ("margin", "margin (lift / weight at the required gap)", "", 1, "Lift at the required gap over the weight.",
-     f"{_PLATE}.lift_force"),
-    ("max_payload_kg", "largest payload at the required gap", "g", 1e3,
-     "Largest lift at or above the required gap over g, minus the plate mass.", f"{_PLATE}.max_lift_above",
-     "max_payload_worst_kg"),
-    ("k_z_n_m", "vertical stiffness k_z", "N/m", 1, "Minus the slope of the lift curve at the equilibrium.",
-     f"{_PLATE}.vertical_stiffness"),
-    ("f_z_hz", "vertical natural frequency f_z", "Hz", 1, "sqrt(k_z / m) / (2 pi) of plate and payload.",
-     f"{_PLATE}.analyse_plate"),
-    ("k_x_n_m", "lateral stiffness k_x", "N/m", 1, "Central differences of the generalised forces of the "
-     "rigid plate about the combined centre of mass.", f"{_PLATE}.stability"),
-    ("k_y_n_m", "lateral stiffness k_y", "N/m", 1, "As k_x, along y.", f"{_PLATE}.stability"),
-    ("k_tilt_n_m_per_rad", "tilt stiffness (smaller of pitch and roll)", "mN m/rad", 1e3,
-     "Rigid-body stiffness matrix, rotational terms.", f"{_PLATE}.stability"),
-    ("k_pitch_n_m_per_rad", "tilt stiffness, pitch", "mN m/rad", 1e3, "Rigid-body stiffness matrix.",
-     f"{_PLATE}.stability"),
-    ("k_roll_n_m_per_rad", "tilt stiffness, roll", "mN m/rad", 1e3, "Rigid-body stiffness matrix.",
-     f"{_PLATE}.stability"),
-    ("k_yaw_n_m_per_rad", "stiffness about the vertical (yaw)", "mN m/rad", 1e3,
-     "Rigid-body stiffness matrix (reported, not part of the verdict).", f"{_PLATE}.stability"),
-    ("laterally_stable", "laterally stable", "yes/no", 1, "k_x, k_y, pitch, roll > 0 and the coupled "
-     "(x, pitch) and (y, roll) blocks positive definite.", f"{_PLATE}.stability"),
-    ("stable_plate_side_max_m", "upper end of the stable side interval holding this plate", "mm", 1e3,
-     "Scan of square sides, each judged at its lateral equilibrium near the centre; bisection "
-     "at every change of verdict.", f"{_PLATE}.stable_side_intervals"),
-    ("lateral_force_n", "sideways force at the given position", "mN", 1e3,
-     "Side-face integral of the energy density at the position the design gives.",
-     f"{_PLATE}.lateral_force"),
-    ("lift_derating_pct", "lift lost against 20 C", "%", 1, "(Br(T)/Br(20 C))^2 and chi(T)/chi(20 C), "
-     "linear temperature coefficients.", f"{_TH}.lift_factor"),
-    ("derating_temperature_k", "temperature of the derating figure", "degC", 1, "Hottest temperature "
-     "(or the one asked for).", f"{_TH}.lift_derating_pct"),
-    ("gap_drift_um_per_k", "gap drift", "um/K", 1, "d(lift factor)/dT over the lift factor, times weight / k_z.",
-     f"{_TH}.lift_factor"),
-    ("demag_risk", "irreversible-loss (demagnetisation) risk", "yes/no", 1,
-     "Self- and mutual demagnetising field against Hcj(T) at the extreme temperatures.", f"{_TH}.demag_check"),
-    ("safe_distance_m", "distance to 0.5 mT", "cm", 1e2, "Farthest crossing of |B| = 0.5 mT along "
-     "ten rays from the arrangement, Brent's method.", f"{_TH}.safe_distance"),
-    ("temperature_k", "temperature of the analysis", "degC", 1, "As given (the case's temperature).",
-     f"{_TH}.br_at"),
-    ("temp_coldest_k", "coldest temperature named", "degC", 1, "From the design's conditions.", f"{_TH}.br_at"),
-    ("temp_hottest_k", "hottest temperature named", "degC", 1, "From the design's conditions.", f"{_TH}.br_at"),
-    ("br_t", "remanence Br at 20 C", "T", 1, "Value in use in the database (or the design).", f"{_TH}.br_at"),
-    ("br_at_temperature_t", "remanence Br at the temperature", "T", 1, "Linear reversible coefficient alpha.",
-     f"{_TH}.br_at"),
-    ("chi_perp_si", "chi perpendicular (c axis) at the temperature", "", 1,
-     "Value in use with its temperature coefficient.", f"{_TH}.chi_at"),
-    ("chi_par_si", "chi parallel (basal plane) at the temperature", "", 1,
-     "Value in use with its temperature coefficient.", f"{_TH}.chi_at"),
-    ("magnet_mass_kg", "magnet mass", "g", 1e3, "Volume times the grade's density.", f"{_TH}.safe_distance"),
-    ("magnet_count", "number of magnets", "", 1, "From the arrangement.", f"{_PLATE}.analyse_plate"),
-])
 
 STABILIZED_LABELS = {
     "floats": "floats",
@@ -159,6 +102,9 @@ def _suffix_unit(key: str) -> tuple[str, float]:
         if key.endswith(suf):
             return unit, scale
     return "", 1.0
+
+
+PLATE_FIGURES = load_figures()
 
 
 # ---------------------------------------------------------------------------
