@@ -23,6 +23,7 @@ import re
 from pathlib import Path
 
 from matdb.errors import InputError
+from matdb.constants import celsius_to_kelvin, kelvin_to_celsius
 
 MAX_FILE_BYTES = 1_000_000          # design files, --points files
 MAX_IMPORT_BYTES = 50_000_000       # lab-value CSV / JSON imports
@@ -43,7 +44,7 @@ LARGEST = {
     "kA/m": 1e5,
     "USD": 1e9,
 }
-TEMPERATURE_RANGE_K = (0.0, 1273.15)   # above absolute zero, at most 1000 degC
+TEMPERATURE_RANGE_K = (0.0, celsius_to_kelvin(1000.0))   # above absolute zero, at most 1000 degC
 MAX_ABS_CHI = 1e6                      # SI volume susceptibility (a soft ferrite reaches ~1e4)
 
 _HUMAN = {"m": "100 m", "kg": "10000 kg", "T": "100 T", "kg/m^3": "25000 kg/m^3", "kg/mol": "10 kg/mol",
@@ -68,7 +69,7 @@ def check_temperature(kelvin: float, field: str, typed) -> None:
     lo, hi = TEMPERATURE_RANGE_K
     if not (lo < kelvin <= hi):
         raise InputError(f"{typed!r} is outside the accepted temperatures, above 0 K and at most "
-                         f"{hi - 273.15:g} degC", field=field)
+                         f"{kelvin_to_celsius(hi):g} degC", field=field)
 
 
 def check_count(n: int, limit: int, field: str, what: str) -> None:

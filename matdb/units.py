@@ -38,6 +38,7 @@ import math
 import re
 from typing import TYPE_CHECKING, Iterable
 
+from matdb.constants import DENSITY_RANGE_KG_M3
 from matdb.errors import InputError
 from matdb.limits import check_chi, check_magnitude, check_temperature
 
@@ -74,9 +75,6 @@ def __getattr__(name: str):
         return registry().Quantity
     raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
-
-MU0 = 4e-7 * math.pi * 1.00000000055  # vacuum permeability, CODATA 2018 [T m / A]
-G_STANDARD = 9.80665  # standard gravity [m/s^2] (CGPM 1901)
 
 CONVENTIONS = ("si-volume", "cgs-volume", "si-mass", "cgs-mass", "si-molar", "cgs-molar")
 
@@ -258,19 +256,12 @@ def parse_temperature(text, field: str) -> float:
     return k
 
 
-def kelvin_to_celsius(t_k: float) -> float:
-    return t_k - 273.15
-
-
-def celsius_to_kelvin(t_c: float) -> float:
-    return t_c + 273.15
-
-
 def parse_density(text, field: str = "density") -> float:
-    """Density in kg/m^3, refusing values outside 1 to 25000 kg/m^3."""
+    """Density in kg/m^3, refusing values outside :data:`matdb.constants.DENSITY_RANGE_KG_M3`."""
     v = parse_quantity(text, "kg/m^3", field)
-    if not (1.0 <= v <= 25000.0):
-        raise InputError(f"density {text!r} is outside 1 to 25000 kg/m^3", field=field)
+    lo, hi = DENSITY_RANGE_KG_M3
+    if not (lo <= v <= hi):
+        raise InputError(f"density {text!r} is outside {lo:g} to {hi:g} kg/m^3", field=field)
     return v
 
 

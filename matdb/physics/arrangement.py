@@ -28,7 +28,7 @@ from typing import Any, Sequence
 import numpy as np
 
 from matdb.errors import InputError
-from matdb.units import MU0
+from matdb.constants import MU0
 from matdb.physics.fields import MagnetSet, as_points
 from matdb.physics.recoil import effective_polarizations
 

@@ -7,7 +7,7 @@ import math
 import numpy as np
 
 from matdb.errors import InputError
-from matdb.units import MU0
+from matdb.constants import MU0
 
 _FOUR_PI = 4.0 * math.pi
 MU0_OVER_4PI = MU0 / _FOUR_PI  # [T m / A]
