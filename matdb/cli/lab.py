@@ -5,6 +5,7 @@ from __future__ import annotations
 import sys
 
 from matdb.cli import summary
+from matdb.cli.dynamics import register_record_q
 from matdb.data import labvalues
 from matdb.output import add_format_argument, check_output_path, emit
 
@@ -49,8 +50,6 @@ def register(sub) -> None:
     _common_provenance(pm)
     add_format_argument(pm, choices=("table", "json"))
     pm.set_defaults(func=cmd_record_material)
-
-    from matdb.cli.dynamics import register_record_q
 
     register_record_q(rsub)
 

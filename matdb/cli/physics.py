@@ -16,7 +16,11 @@ from pathlib import Path
 
 import numpy as np
 
+from matdb.analysis.levitate import _mm3, format_intervals, levitate
 from matdb.cli import summary
+from matdb.design.floating import parse_payload_range
+from matdb.design.plate import load_design
+from matdb.physics.stabilized import format_table
 from matdb.errors import InputError
 from matdb.limits import MAX_FILE_BYTES, MAX_POINTS, check_count, check_magnitude, read_text_limited
 from matdb.output import add_format_argument, emit, to_json
@@ -83,8 +87,6 @@ def read_points_csv(path: str) -> np.ndarray:
 
 
 def _load(path: str):
-    from matdb.design.plate import load_design
-
     return load_design(path)
 
 
@@ -108,8 +110,6 @@ def cmd_field(args) -> int:
         raise InputError("--at: give at least one point (--at '0,0,1 mm') or --points FILE.csv")
     check_count(len(pts), MAX_POINTS, "--at/--points", "points")
     temp = parse_temperature(args.temp, "--temp") if args.temp else None
-    from matdb.design.plate import load_design
-
     design = load_design(args.design, need_plate=False)  # a field needs only the magnets
     emit(field_records(design, np.asarray(pts, dtype=float), temp), args.format,
          columns=list(FIELD_COLUMNS))
@@ -130,16 +130,12 @@ def _num(v, scale: float = 1.0, digits: int = 4, unit: str = "") -> str:
 def _point_mm(p) -> str:
     if not p:
         return "none found"
-    from matdb.analysis.levitate import _mm3
-
     return f"({_mm3(p[0])}, {_mm3(p[1])}) mm"
 
 
 def _intervals_mm(iv) -> str:
     if iv is None:
         return "-"
-    from matdb.analysis.levitate import format_intervals
-
     return format_intervals(iv)
 
 
@@ -173,17 +169,9 @@ def _cold_hot_lines(r: dict) -> list[str]:
 
 def format_levitate(r: dict) -> str:
     """The result of a plate levitate as text for a person (mm, g, Hz, N/m, mN)."""
-    if r.get("mode") == "stabilized":
-        from matdb.physics.stabilized import format_table
-
+    if r.get("mode") == "stabilized":  # the floating-magnet mode brings its own table
         return format_table(r)
     if r.get("mode") != "plate":
-        try:  # the floating-magnet mode brings its own table
-            from matdb.physics.stabilized import format_table
-
-            return format_table(r)
-        except ImportError:  # pragma: no cover
-            pass
         lines = [f"{k}: {v}" for k, v in r.items() if not isinstance(v, (list, dict))]
         lines += [f"warning: {w}" for w in r.get("warnings", [])]
         return "\n".join(lines)
@@ -262,8 +250,6 @@ def schedule_records(result: dict) -> list[dict]:
 
 
 def _payloads(args) -> np.ndarray | None:
-    from matdb.design.floating import parse_payload_range
-
     if getattr(args, "payload_range", None) is None:
         if getattr(args, "steps", None) is not None:
             raise InputError("--steps: give it with --payload-range")
@@ -278,8 +264,6 @@ def _payloads(args) -> np.ndarray | None:
 
 
 def cmd_levitate(args) -> int:
-    from matdb.analysis.levitate import levitate
-
     temp = parse_temperature(args.temp, "--temp") if args.temp else None
     gap = parse_length(args.gap, "--gap") if args.gap else None
     payloads = _payloads(args)

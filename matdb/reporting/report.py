@@ -16,6 +16,7 @@ from __future__ import annotations
 import datetime as _dt
 import hashlib
 import html as _html
+import importlib
 import inspect
 import json
 import math
@@ -25,9 +26,20 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Callable
 
+import jinja2
+from sqlalchemy import select as sa_select
+from sqlmodel import SQLModel
+
 from matdb import __version__
-from matdb.errors import InputError, PhysicsError
+from matdb.analysis.dynamics import analyse_dynamics
+from matdb.analysis.levitate import levitate, stability_scan
 from matdb.constants import kelvin_to_celsius
+from matdb.data import catalog
+from matdb.data.db import read_session
+from matdb.design.plate import load_design_text
+from matdb.errors import InputError, PhysicsError
+from matdb.physics.thermal import SAFETY_TEXT
+from matdb.reporting import charts, presentation
 
 PAPERS = ("A4", "Letter")
 CASES = ("coldest", "nominal", "hottest", "worst")
@@ -112,8 +124,6 @@ PLATE_FIGURES = load_figures()
 # ---------------------------------------------------------------------------
 
 def _resolve(dotted: str):
-    import importlib
-
     mod, _, name = dotted.rpartition(".")
     return getattr(importlib.import_module(mod), name)
 
@@ -135,8 +145,6 @@ def docstring_references(fn: Callable, _depth: int = 0) -> list[str]:
             kind, target = see.groups()
             mod = inspect.getmodule(fn)
             if kind == "mod":
-                import importlib
-
                 try:
                     obj = importlib.import_module(target)
                 except ImportError:
@@ -164,11 +172,6 @@ def references_of(dotted: str) -> list[str]:
 def database_fingerprint(url: str | None = None) -> str:
     """SHA-256 over every stored row (all tables, primary-key order; entry timestamps
     left out, so two databases with the same content agree). 16 hex digits."""
-    from sqlalchemy import select as sa_select
-    from sqlmodel import SQLModel
-
-    from matdb.data.db import read_session
-
     h = hashlib.sha256()
     with read_session(url) as s:
         for name in sorted(SQLModel.metadata.tables):
@@ -232,7 +235,6 @@ def _temperatures(design) -> tuple[float, float, float]:
 def run_cases(design, levitate_fn=None) -> dict[str, dict]:
     """levitate results: ``nominal`` (the design as given, what ``matdb levitate``
     prints), ``coldest`` and ``hottest`` (``matdb levitate --temp``)."""
-    from matdb.analysis.levitate import levitate
 
     fn = levitate_fn or levitate
     return _three(design, fn)
@@ -342,7 +344,6 @@ def _inputs_as_typed(text: str) -> list[dict]:
 def _provenance(design, url: str | None) -> list[dict]:
     """Every database property the design uses: the value in use, its kind, source
     (with the lab's source note and date for a measured value) and uncertainty."""
-    from matdb.data import catalog
 
     rows: list[dict] = []
     mats: dict[str, Any] = {}
@@ -415,7 +416,6 @@ def _provenance(design, url: str | None) -> list[dict]:
 def _status_marks(rows: list[dict], material_ids: set, url: str | None) -> None:
     """The checked-against-source status of each number (verified, corrected, unverified,
     measured) when the database keeps one (``catalog.status_marks``)."""
-    from matdb.data import catalog
 
     fn = getattr(catalog, "status_marks", None)
     if fn is None:
@@ -438,12 +438,8 @@ DYNAMICS_MODE_COLUMNS = (("frequency_hz", "frequency"), ("q", "Q"), ("q_eddy", "
 
 def _dynamics(design) -> dict | None:
     """Modes, damping, Q, ring-down and noise of a floating plate at the coldest, nominal
-    and hottest temperature, when :mod:`matdb.analysis.dynamics` is available (else None)."""
+    and hottest temperature (None for a floating-magnet design)."""
     if getattr(design, "mode", "plate") != "plate":
-        return None
-    try:
-        from matdb.analysis.dynamics import analyse_dynamics
-    except ImportError:
         return None
     try:
         cases = _three(design, analyse_dynamics)
@@ -473,9 +469,6 @@ def _dynamics(design) -> dict | None:
 
 
 def _charts_plate(design, result) -> list[dict]:
-    from matdb.reporting import charts
-    from matdb.reporting import presentation
-    from matdb.analysis.levitate import stability_scan
 
     out = [{"title": "Lift against gap",
             "caption": "Solid: magnetic lift on the plate; dashed: weight of plate and payload; dot: the "
@@ -500,8 +493,6 @@ def _charts_plate(design, result) -> list[dict]:
 
 
 def _charts_stabilized(result) -> list[dict]:
-    from matdb.reporting import charts
-    from matdb.reporting import presentation
 
     sched = presentation.stabilized_window_df(result)
     if not len(sched):
@@ -513,7 +504,6 @@ def _charts_stabilized(result) -> list[dict]:
 
 
 def _bom(design, url) -> dict | None:
-    from matdb.reporting import presentation
 
     if getattr(design, "mode", "") == "stabilized":
         return None
@@ -540,8 +530,6 @@ def build_report(text: str, *, source_name: str = "design.toml", url: str | None
     ``levitate_fn`` replaces :func:`matdb.analysis.levitate.levitate` (the page passes its cached
     call). Raises :class:`~matdb.errors.InputError` for a bad design.
     """
-    from matdb.design.plate import load_design_text
-    from matdb.physics.thermal import SAFETY_TEXT
 
     design = load_design_text(text, source=source_name)
     mode = getattr(design, "mode", "plate")
@@ -656,8 +644,6 @@ def _warnings(results: dict[str, dict]) -> list[dict]:
 # ---------------------------------------------------------------------------
 
 def _env():
-    import jinja2
-
     return jinja2.Environment(
         loader=jinja2.PackageLoader("matdb", "templates"),
         autoescape=jinja2.select_autoescape(["html", "j2"]),
@@ -667,13 +653,13 @@ def _env():
 def render_html(ctx: dict, paper: str = "A4") -> str:
     """The report as one self-contained HTML page (inline CSS and SVG; nothing fetched)."""
     if paper not in PAPERS:
-        raise InputError(f"--paper: expected one of {', '.join(PAPERS)}, got {paper!r}")
+        raise InputError(f"expected one of {', '.join(PAPERS)}, got {paper!r}", field="paper")
     return _env().get_template("report.html.j2").render(**ctx, paper=paper)
 
 
 def html_to_pdf(html: str) -> bytes:
     """PDF of a report page with WeasyPrint (the page size comes from the HTML's @page)."""
-    import weasyprint
+    import weasyprint  # lazy: PDF only; ~1 s of import and the Pango libraries, which HTML does not need
 
     return weasyprint.HTML(string=html, base_url=None).write_pdf()
 
@@ -682,7 +668,7 @@ def report_bytes(text: str, fmt: str, *, paper: str = "A4", source_name: str = "
                  url: str | None = None, levitate_fn: Callable | None = None) -> bytes:
     """The report of a design's text as ``html`` or ``pdf`` bytes."""
     if fmt not in ("html", "pdf"):
-        raise InputError(f"format: expected html or pdf, got {fmt!r}")
+        raise InputError(f"expected html or pdf, got {fmt!r}", field="format")
     html = render_html(build_report(text, source_name=source_name, url=url, levitate_fn=levitate_fn), paper)
     return html.encode("utf-8") if fmt == "html" else html_to_pdf(html)
 
