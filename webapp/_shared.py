@@ -11,6 +11,7 @@ from contextlib import contextmanager
 
 import streamlit as st
 
+from matdb.analysis import reach
 from matdb.data import catalog
 from matdb.reporting import presentation
 from matdb.data.db import default_url
@@ -126,7 +127,7 @@ def materials_table(convention: str, url: str):
 
 @st.cache_data(show_spinner=False, max_entries=8)
 def arrangement_reach(url: str):
-    return presentation.arrangement_reach(url=url)
+    return reach.arrangement_reach(url=url)
 
 
 @st.cache_data(show_spinner=False, max_entries=8)
@@ -200,7 +201,7 @@ def levitate_text(text: str, temp_k: float | None, gap_m: float | None, url: str
                   payloads: tuple | None = None, resolution_m: float | None = None):
     """Keyed by the design's content: pass :func:`matdb.reporting.presentation.canonical_design_text`,
     so the same design from the form, the editor or a saved copy computes once."""
-    from matdb.design.plate import load_design_text
+    from matdb.design import load_design_text
     from matdb.analysis.levitate import levitate
 
     return levitate(load_design_text(text), temp_k=temp_k, gap_m=gap_m,
@@ -225,7 +226,7 @@ def levitate_key(text: str, url: str) -> dict:
 
 def evaluate_design_text(text: str, url: str) -> dict:
     """:func:`levitate_text` of any design text, through its content key."""
-    from matdb.design.plate import load_design_text
+    from matdb.design import load_design_text
 
     return levitate_key(presentation.canonical_design_text(load_design_text(text), text), url)
 
@@ -317,7 +318,7 @@ def run_with_progress(fn, *args, label: str = "Working..."):
 @st.cache_resource(show_spinner=False, max_entries=16)
 def dynamics_prep(text: str, url: str):
     """Not pickled (it holds the factorised finite-element matrices): a shared resource."""
-    from matdb.design.plate import load_design_text
+    from matdb.design import load_design_text
     from matdb.analysis.dynamics import prepare_dynamics
 
     return prepare_dynamics(load_design_text(text))
@@ -331,7 +332,7 @@ def dynamics_text(text: str, pressure_pa: float, url: str) -> dict:
 
 @st.cache_data(show_spinner=False, max_entries=16)
 def pressure_sweep(text: str, url: str):
-    from matdb.design.plate import load_design_text
+    from matdb.design import load_design_text
     from matdb.analysis.dynamics import pressure_sweep_df
 
     return pressure_sweep_df(load_design_text(text), prep=dynamics_prep(text, url))

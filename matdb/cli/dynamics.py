@@ -9,14 +9,14 @@ from __future__ import annotations
 
 import sys
 
-from matdb.cli import summary
-from matdb.errors import InputError
 from matdb.analysis.dynamics import analyse_dynamics, record_q_value
+from matdb.cli import summary
+from matdb.constants import kelvin_to_celsius
 from matdb.data.catalog import conductivities_df
-from matdb.design.plate import load_design
+from matdb.design import load_design
+from matdb.errors import InputError
 from matdb.output import add_format_argument, emit, records, to_json
 from matdb.units import parse_length, parse_quantity, parse_temperature
-from matdb.constants import kelvin_to_celsius
 
 MODE_COLUMNS = ("name", "frequency_hz", "q", "q_eddy", "q_air", "ring_down_s",
                 "dominant_damping", "noise_m_s2_rthz", "noise_micro_g_rthz")

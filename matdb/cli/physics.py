@@ -18,14 +18,13 @@ import numpy as np
 
 from matdb.analysis.levitate import _mm3, format_intervals, levitate
 from matdb.cli import summary
-from matdb.design.floating import parse_payload_range
-from matdb.design.plate import load_design
-from matdb.physics.stabilized import format_table
+from matdb.constants import kelvin_to_celsius
+from matdb.design import load_design, parse_payload_range
 from matdb.errors import InputError
 from matdb.limits import MAX_FILE_BYTES, MAX_POINTS, check_count, check_magnitude, read_text_limited
 from matdb.output import add_format_argument, emit, to_json
+from matdb.physics.stabilized import format_table
 from matdb.units import parse_length, parse_number, parse_quantity, parse_temperature
-from matdb.constants import kelvin_to_celsius
 
 FIELD_COLUMNS = ("x_m", "y_m", "z_m", "bx_t", "by_t", "bz_t")
 

@@ -32,7 +32,7 @@ from ezdxf.addons.drawing import Frontend, RenderContext, layout, svg
 from ezdxf.addons.drawing.config import BackgroundPolicy, ColorPolicy, Configuration
 from ezdxf.enums import TextEntityAlignment
 
-from matdb.design.plate import load_design_text
+from matdb.design import load_design_text
 from matdb.errors import InputError
 from matdb.physics.dynamics import plate_outline
 from matdb.physics.stabilized import levitate_stabilized

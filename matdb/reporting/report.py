@@ -36,7 +36,7 @@ from matdb.analysis.levitate import levitate, stability_scan
 from matdb.constants import kelvin_to_celsius
 from matdb.data import catalog
 from matdb.data.db import read_session
-from matdb.design.plate import load_design_text
+from matdb.design import load_design_text
 from matdb.errors import InputError, PhysicsError
 from matdb.physics.thermal import SAFETY_TEXT
 from matdb.reporting import charts, presentation

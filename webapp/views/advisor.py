@@ -189,7 +189,7 @@ with sh.shown_errors("candidate design"):
                        key="adv_download_design")
     _downloads.report_buttons(toml_text, url, "adv", name=f"design-{row['material']}-{row['grade']}")
     if d2.button("Open on the Design page", key="adv_open", type="primary"):
-        from matdb.design.plate import load_design_text
+        from matdb.design import load_design_text
 
         fields = presentation.form_fields_from_design(load_design_text(toml_text))
         st.session_state["d_open"] = {"fields": fields, "text": toml_text,

@@ -14,9 +14,9 @@ from webapp import _downloads
 from webapp import _shared as sh
 
 st.title("Design")
-design_mod = sh.module_or_none("matdb.design.plate")
+design_mod = sh.module_or_none("matdb.design")
 lev_mod = sh.module_or_none("matdb.analysis.levitate")
-design_mod_stab = sh.module_or_none("matdb.design.floating")
+design_mod_stab = sh.module_or_none("matdb.design")
 if design_mod is None or lev_mod is None:
     sh.not_available("The Design page")
     st.stop()
@@ -74,7 +74,7 @@ with left:
         size_help = {"cuboid": "x, y, height", "cylinder": "diameter, height",
                      "ring": "outer diameter, inner diameter, height"}[shape]
         size = st.text_input(f"Magnet size ({size_help})", key="d_size")
-        for i, part in enumerate(presentation._split_lengths(size)):
+        for i, part in enumerate(presentation.split_lengths(size)):
             sh.checked(lambda v: parse_length(v, "size", positive=True), part, f"magnet size, value {i + 1}")
         grade = st.selectbox("Grade", glist, key="d_grade")
         pattern = st.selectbox("Arrangement", list(presentation.FORM_PATTERNS), key="d_pattern")
@@ -91,7 +91,7 @@ with left:
         pshape = st.selectbox("Plate shape", ["rectangle", "disc"], key="d_pshape")
         psize = st.text_input("Plate size (" + ("x, y, thickness" if pshape == "rectangle" else "diameter, thickness")
                               + ")", key="d_psize")
-        for i, part in enumerate(presentation._split_lengths(psize)):
+        for i, part in enumerate(presentation.split_lengths(psize)):
             sh.checked(lambda v: parse_length(v, "plate size", positive=True), part, f"plate size, value {i + 1}")
         payload = st.text_input("Payload mass", key="d_payload")
         sh.checked(lambda v: parse_mass(v, "payload"), payload, "payload mass")
@@ -334,7 +334,7 @@ with right:
                                            progress=lambda f, t="": bar.progress(min(max(f, 0.0), 1.0), text=t[:90]))
                         best = next((d for r, d in zip(res.rows, res.designs) if r["feasible"] and d is not None),
                                     None)
-                        best_text = None if best is None else design_mod_stab.to_toml(best)
+                        best_text = None if best is None else design_mod_stab.design_to_toml(best)
                         st.session_state["fm_search"] = (synth.records(res), res.message, res.notes, best_text)
                     except MatdbError as exc:
                         st.error(sh.plain(f"search: {exc}"))
