@@ -97,7 +97,7 @@ class GradeProps:
     source: str
 
 
-def check_family(name, field: str = "--family") -> str:
+def check_family(name, field: str = "family") -> str:
     """The family name as matdb spells it (any case accepted); an unknown one is refused.
 
     Every command and page that takes a magnet family goes through here, so each refuses
@@ -109,8 +109,8 @@ def check_family(name, field: str = "--family") -> str:
     for f in FAMILIES:
         if f.lower() == text.lower():
             return f
-    raise NotFoundError(f"{field}: unknown magnet family {text!r}; expected one of {', '.join(FAMILIES)}"
-                        + _close(text, FAMILIES))
+    raise NotFoundError(f"unknown magnet family {text!r}; expected one of {', '.join(FAMILIES)}"
+                        + _close(text, FAMILIES), field=field)
 
 
 def _close(name: str, choices: Iterable[str]) -> str:
@@ -499,7 +499,7 @@ def sources_summary(status: str | None = None, url: str | None = None) -> list[d
     if status is not None and status not in PROVENANCE_STATUSES:
         from matdb.errors import InputError
 
-        raise InputError(f"--status: expected one of {', '.join(PROVENANCE_STATUSES)}, got {status!r}")
+        raise InputError(f"expected one of {', '.join(PROVENANCE_STATUSES)}, got {status!r}", field="status")
     with read_session(url) as s:
         counts: dict[str, dict[str, int]] = {}
         for p in s.exec(select(ValueProvenance)).all():
