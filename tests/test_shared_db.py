@@ -115,7 +115,8 @@ def test_import_export_round_trip(backend, run_cli, tmp_path):
 _WRITER = """
 import sys, time
 from pathlib import Path
-from matdb.cli import main            # the slow imports happen before the start signal
+import matdb.cli.lab                 # the slow imports (the record command's module) happen before the start signal
+from matdb.cli import main
 go, i = Path(sys.argv[1]), sys.argv[2]
 Path(sys.argv[1] + '.ready' + i).touch()
 while not go.exists():
