@@ -415,15 +415,9 @@ def _provenance(design, url: str | None) -> list[dict]:
 
 def _status_marks(rows: list[dict], material_ids: set, url: str | None) -> None:
     """The checked-against-source status of each number (verified, corrected, unverified,
-    measured) when the database keeps one (``catalog.status_marks``)."""
-
-    fn = getattr(catalog, "status_marks", None)
-    if fn is None:
-        return
-    try:
-        marks = fn(url)
-    except Exception:  # an older database without the provenance tables
-        return
+    measured), from :func:`matdb.data.catalog.status_marks` (the schema is migrated on opening,
+    so every database has the provenance tables)."""
+    marks = catalog.status_marks(url)
     for r in rows:
         kind = "material" if r["item"] in material_ids else "magnet"
         st = marks.get(kind, {}).get(r["item"], {}).get(r.get("column", ""))
