@@ -32,10 +32,10 @@ from ezdxf.addons.drawing import Frontend, RenderContext, layout, svg
 from ezdxf.addons.drawing.config import BackgroundPolicy, ColorPolicy, Configuration
 from ezdxf.enums import TextEntityAlignment
 
+from matdb.analysis.floating import levitate_stabilized
 from matdb.design import load_design_text
 from matdb.errors import InputError
 from matdb.physics.dynamics import plate_outline
-from matdb.physics.stabilized import levitate_stabilized
 
 LAYERS = {  # name: ACI colour
     "PLATE": 5, "MAGNETS": 7, "MAGNET_BORES": 8, "POLARITY": 1, "BASE": 3, "MARKS": 6, "SIDE": 7,

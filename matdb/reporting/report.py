@@ -80,7 +80,7 @@ def load_figures(path: Path = FIGURES_FILE) -> tuple[Figure, ...]:
     return tuple(figures)
 
 
-_ST = "matdb.physics.stabilized"
+_ST = "matdb.analysis.floating"
 
 STABILIZED_LABELS = {
     "floats": "floats",
