@@ -6,6 +6,7 @@ import sys
 
 from matdb.analysis import inversions
 from matdb.cli import summary
+from matdb.cli.dynamics import register_record_q
 from matdb.data import exchange, lab_store
 from matdb.progress import progress_bar
 from matdb.output import add_format_argument, check_output_path, emit
@@ -51,8 +52,6 @@ def register(sub) -> None:
     _common_provenance(pm)
     add_format_argument(pm, choices=("table", "json"))
     pm.set_defaults(func=cmd_record_material)
-
-    from matdb.cli.dynamics import register_record_q
 
     register_record_q(rsub)
 
