@@ -5,7 +5,7 @@ at the operating temperature with the real remanence (not a scaled unit field), 
 the thermal derating, irreversible-loss check, worst-case band and safety distance of
 :mod:`matdb.physics.thermal`, and returns the keys the CLI, the page and later checks
 rely on (see ``CONTRACT_KEYS``). :func:`levitate` dispatches floating-magnet designs to
-:func:`matdb.physics.stabilized.levitate_stabilized`.
+:func:`matdb.analysis.floating.levitate_stabilized`.
 """
 
 from __future__ import annotations
@@ -290,6 +290,7 @@ def levitate_plate(design: PlateDesign, temp_k: float | None = None,
                             plate_spec.payload_height_m, g_start, g_req, n_gaps=N_GAPS,
                             with_stability=False, memo=memo_w)
     out["gap_worst_m"] = _f(res_w.gap)
+    out["lift_worst_at_required_gap_n"] = float(P.lift_force(field_w, geom, [g_req], cw_perp, cw_par)[0])
     out["max_payload_worst_kg"] = float(max(res_w.max_lift / G_STANDARD - plate_mass, 0.0))
 
     # safety distance, at the temperature of the strongest field
@@ -391,14 +392,14 @@ def levitate_plate(design: PlateDesign, temp_k: float | None = None,
 def levitate(design, temp_k: float | None = None, gap_m: float | None = None, payloads_kg=None,
              resolution_m: float | None = None) -> dict[str, Any]:
     """Plate designs go to :func:`levitate_plate`; floating-magnet designs to
-    :func:`matdb.physics.stabilized.levitate_stabilized` (with the schedule's payloads
+    :func:`matdb.analysis.floating.levitate_stabilized` (with the schedule's payloads
     [kg] and allowed floater shift [m] when given)."""
     if isinstance(design, PlateDesign):
         if payloads_kg is not None or resolution_m is not None:
             raise InputError("payload range: only floating-magnet designs have a payload schedule")
         return levitate_plate(design, temp_k=temp_k, gap_m=gap_m)
     # lazy: plate-only callers (and the CLI's plate path) skip the floating-magnet physics
-    from matdb.physics.stabilized import levitate_stabilized
+    from matdb.analysis.floating import levitate_stabilized
 
     extra = {}
     if payloads_kg is not None:
