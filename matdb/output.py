@@ -202,15 +202,15 @@ def check_output_path(path, field: str) -> Path:
     """
     text = str(path).strip()
     if not text:
-        raise InputError(f"{field}: expected a file name, got an empty one")
+        raise InputError("expected a file name, got an empty one", field=field)
     p = Path(text).expanduser()
     if p.is_dir():
-        raise InputError(f"{field}: {text!r} is a folder, expected a file name")
+        raise InputError(f"{text!r} is a folder, expected a file name", field=field)
     folder = p.parent if str(p.parent) else Path(".")
     if not folder.is_dir():
-        raise InputError(f"{field}: folder {str(folder)!r} does not exist")
+        raise InputError(f"folder {str(folder)!r} does not exist", field=field)
     if not os.access(folder, os.W_OK | os.X_OK) or (p.exists() and not os.access(p, os.W_OK)):
-        raise InputError(f"{field}: cannot write {text!r} (permission denied)")
+        raise InputError(f"cannot write {text!r} (permission denied)", field=field)
     return p
 
 
@@ -220,7 +220,3 @@ def records(df: pd.DataFrame) -> list[dict]:
     for r in df.to_dict(orient="records"):
         out.append({k: (None if (isinstance(v, float) and math.isnan(v)) else v) for k, v in r.items()})
     return out
-
-
-def iter_lines(text: str) -> Iterable[str]:
-    return text.splitlines()

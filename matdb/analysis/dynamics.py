@@ -381,11 +381,12 @@ def record_q_value(material_id: str, *, q: Any = None, ring_down: Any = None,
         The stored row (:data:`Q_VALUE_COLUMNS`).
     """
     from matdb.data.db import session_scope
-    from matdb.data.labvalues import _ensure_lab_source, _require_source, parse_date
+    from matdb.data.lab_input import parse_date, require_source
+    from matdb.data.lab_store import ensure_lab_source
     from matdb.data.models import Material, QualityFactorValue
     from matdb.units import parse_number, parse_quantity, parse_temperature
 
-    note_src = _require_source(source, "--source")
+    note_src = require_source(source, "--source")
     qv = None
     if q is not None and str(q).strip() != "":
         qv = parse_number(q, "--q")
@@ -409,7 +410,7 @@ def record_q_value(material_id: str, *, q: Any = None, ring_down: Any = None,
     with session_scope(url) as s:
         if s.get(Material, material_id) is None:
             raise InputError(f"material: unknown id {material_id!r} (see 'matdb materials')")
-        _ensure_lab_source(s)
+        ensure_lab_source(s)
         row = QualityFactorValue(material_id=material_id, design=design or "", mode=mode or "",
                                  frequency_hz=f, q=qv, ring_down_s=tau, pressure_pa=p,
                                  temperature_k=t_k, source_note=note_src,

@@ -20,6 +20,7 @@ from matdb.cli import summary
 from matdb.errors import InputError
 from matdb.limits import MAX_FILE_BYTES, MAX_POINTS, check_count, check_magnitude, read_text_limited
 from matdb.output import add_format_argument, emit, to_json
+from matdb.reporting.schedule import SCHEDULE_COLUMNS, payload_steps, schedule_records
 from matdb.units import parse_length, parse_number, parse_quantity, parse_temperature
 from matdb.constants import kelvin_to_celsius
 
@@ -174,16 +175,11 @@ def _cold_hot_lines(r: dict) -> list[str]:
 def format_levitate(r: dict) -> str:
     """The result of a plate levitate as text for a person (mm, g, Hz, N/m, mN)."""
     if r.get("mode") == "stabilized":
-        from matdb.physics.stabilized import format_table
+        # lazy: the floating-magnet text (and the analysis it imports) only for that mode
+        from matdb.reporting.floating_text import format_table
 
         return format_table(r)
     if r.get("mode") != "plate":
-        try:  # the floating-magnet mode brings its own table
-            from matdb.physics.stabilized import format_table
-
-            return format_table(r)
-        except ImportError:  # pragma: no cover
-            pass
         lines = [f"{k}: {v}" for k, v in r.items() if not isinstance(v, (list, dict))]
         lines += [f"warning: {w}" for w in r.get("warnings", [])]
         return "\n".join(lines)
@@ -236,31 +232,6 @@ def format_levitate(r: dict) -> str:
     return "\n".join(lines)
 
 
-SCHEDULE_COLUMNS = ("payload_kg", "station", "lifter_distance_m", "lifter_travel_m", "min_plate_distance_m",
-                    "max_plate_distance_m", "window_m", "resolution_m", "lifter_distance_drift_um_per_k",
-                    "dforce_dd_n_m")
-
-
-def schedule_records(result: dict) -> list[dict]:
-    """The payload schedule of a floating-magnet result, one record per payload and
-    station (``SCHEDULE_COLUMNS``, SI; stations numbered from 0): a table a motorised
-    stage can follow."""
-    if result.get("mode") != "stabilized":
-        raise InputError("--format csv: the schedule exists for floating-magnet designs only; "
-                         "use --format json or table for a floating plate")
-    out = []
-    for w in result.get("window") or []:
-        d = w.get("lifter_distance_m")
-        n = len(d) if isinstance(d, list) else 1
-        for i in range(n):
-            rec = {"payload_kg": w["payload_kg"], "station": i}
-            for k in SCHEDULE_COLUMNS[2:]:
-                v = w.get(k)
-                rec[k] = v[i] if isinstance(v, list) else v
-            out.append(rec)
-    return out
-
-
 def _payloads(args) -> np.ndarray | None:
     from matdb.design import parse_payload_range
 
@@ -272,9 +243,7 @@ def _payloads(args) -> np.ndarray | None:
     n = 11 if args.steps is None else args.steps
     if not 1 <= n <= 1000:
         raise InputError(f"--steps: expected a whole number from 1 to 1000, got {n}")
-    if hi == lo:
-        return np.array([lo])
-    return np.linspace(lo, hi, max(n, 2))
+    return payload_steps((lo, hi), n)
 
 
 def cmd_levitate(args) -> int:

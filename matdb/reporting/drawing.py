@@ -171,7 +171,7 @@ def stabilized_drawing(design, result: dict | None = None, title: str = ""):
     """The DXF document of a floating-magnet design: sheet 1 (top view) and sheet 2
     (side view with the schedule's distances) side by side in model space."""
     if result is None:
-        from matdb.physics.stabilized import levitate_stabilized
+        from matdb.analysis.floating import levitate_stabilized
 
         result = levitate_stabilized(design)
     doc = _new_doc()

@@ -57,7 +57,7 @@ def _figs(rows) -> tuple[Figure, ...]:
 
 _PLATE = "matdb.physics.plate"
 _TH = "matdb.physics.thermal"
-_ST = "matdb.physics.stabilized"
+_ST = "matdb.analysis.floating"
 
 PLATE_FIGURES = _figs([
     ("floats", "floats", "yes/no", 1, "The lift curve crosses the weight on a falling branch.",

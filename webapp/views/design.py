@@ -7,7 +7,7 @@ import pandas as pd
 import streamlit as st
 
 from matdb.reporting import charts
-from matdb.reporting import presentation
+from matdb.reporting import presentation, schedule
 from matdb.errors import MatdbError
 from matdb.units import parse_length, parse_mass, parse_quantity, parse_temperature
 from webapp import _downloads
@@ -276,7 +276,7 @@ with right:
         if prange.strip():
             rng = sh.checked(lambda v: design_mod_stab.parse_payload_range(v, "payload range"), prange, "payload range")
             if rng is not None:
-                payloads = tuple(float(x) for x in presentation.payload_steps(rng, int(steps)))
+                payloads = tuple(float(x) for x in schedule.payload_steps(rng, int(steps)))
         if shift.strip():
             res_m = sh.checked(lambda v: parse_length(v, "shift", positive=True), shift, "allowed floater shift")
         if payloads is not None or res_m is not None:

@@ -11,7 +11,7 @@ from matdb.errors import MatdbError
 from webapp import _shared as sh
 
 st.title("Lab values")
-lab = sh.module_or_none("matdb.data.labvalues")
+lab = sh.module_or_none("matdb.data.lab_store")
 if lab is None:
     sh.not_available("The Lab values page")
     st.stop()
