@@ -31,7 +31,7 @@ def run() -> dict:
     old = os.environ.get("MATDB_CACHE_DIR")
     os.environ["MATDB_CACHE_DIR"] = tmp
     try:
-        from matdb.advisor import engine as A
+        from matdb import advisor as A
         from matdb.analysis import levitate  # noqa: F401  (imports are not part of "cold")
         from matdb.analysis import synthesis as S
 

@@ -432,7 +432,7 @@ def test_advisor_lowest_noise_floor_and_minimum_q():
     damping (Chen et al. 2022), so it ranks above pyrolytic graphite; a minimum Q of 100
     rejects the eddy-limited graphite plate with the reason in words. Rows shown are
     solved exactly."""
-    from matdb.advisor import engine as A
+    from matdb import advisor as A
 
     arrs = [A.ArrangementSpec("cuboid", (0.0127,) * 3, "checkerboard", 2, 2)]
     df = A.advise("0 g", "10 mm x 10 mm", thickness="0.5 mm",

@@ -213,7 +213,7 @@ def test_readme_states_the_limits():
 # ---------------------------------------------------------------------------- commands
 
 def test_output_path_checked_before_computing(fresh_db, run_cli, monkeypatch, tmp_path):
-    from matdb.advisor import engine as advisor
+    from matdb import advisor
 
     def boom(*a, **k):
         raise AssertionError("computed before checking --save")

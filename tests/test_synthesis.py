@@ -11,7 +11,7 @@ import types
 
 import pytest
 
-from matdb.advisor import engine as A
+from matdb import advisor as A
 from matdb.analysis import synthesis as S
 from matdb.errors import InputError
 

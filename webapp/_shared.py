@@ -282,7 +282,7 @@ class _Memo:
 
 
 def _advise(params: tuple, url: str):
-    from matdb.advisor import engine as advisor
+    from matdb import advisor
 
     return advisor.advise(url=url, **dict(params))
 
@@ -294,7 +294,7 @@ advise = _Memo(_advise, 16)
 def run_with_progress(fn, *args, label: str = "Working..."):
     """Call ``fn(*args)`` under a progress bar fed by the advisor's progress reports; the
     bar disappears when done. A cached answer shows no bar."""
-    from matdb.advisor import engine as advisor
+    from matdb import advisor
 
     if isinstance(fn, _Memo) and fn.cached(*args):
         return fn(*args)
@@ -339,7 +339,7 @@ def pressure_sweep(text: str, url: str):
 
 
 def _optimise(key: tuple, url: str, progress=None):
-    from matdb.advisor import engine as advisor
+    from matdb import advisor
     from matdb.analysis import synthesis
 
     params, objective, min_margin = key

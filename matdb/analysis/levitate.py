@@ -290,6 +290,7 @@ def levitate_plate(design: PlateDesign, temp_k: float | None = None,
                             plate_spec.payload_height_m, g_start, g_req, n_gaps=N_GAPS,
                             with_stability=False, memo=memo_w)
     out["gap_worst_m"] = _f(res_w.gap)
+    out["lift_worst_at_required_gap_n"] = float(P.lift_force(field_w, geom, [g_req], cw_perp, cw_par)[0])
     out["max_payload_worst_kg"] = float(max(res_w.max_lift / G_STANDARD - plate_mass, 0.0))
 
     # safety distance, at the temperature of the strongest field

@@ -1,6 +1,6 @@
 """Sizing optimiser for floating plates: beyond the catalogue of standard magnets.
 
-The advisor (:mod:`matdb.advisor.engine`) ranks standard cubes and cylinders in default counts.
+The advisor (:mod:`matdb.advisor`) ranks standard cubes and cylinders in default counts.
 :func:`optimise` starts from its best feasible candidate and varies, for that plate
 material, grade, pattern and magnet shape:
 
@@ -43,7 +43,7 @@ import numpy as np
 import pandas as pd
 from scipy.optimize import Bounds, NonlinearConstraint, minimize
 
-from matdb.advisor import engine as A
+from matdb import advisor as A
 from matdb.analysis import levitate as L
 from matdb.data import catalog
 from matdb.design import Conditions, MagnetSpec, PlateDesign, PlateSpec, write_design
@@ -513,7 +513,7 @@ def _catalogue_start(req: A.AdviceRequest, objective: str, min_margin: float, ur
     if req.envelope_m is not None:  # arrays outside the envelope cannot be the start
         inside = [s for s in cat.specs
                   if not any(e > 1e-9 for e in s.envelope_excess(req.envelope_m))]
-        cat = A._Catalogue(cat.mats, cat.grades, inside or cat.specs, cat.thick, cat.thick_owner)
+        cat = A.Catalogue(cat.mats, cat.grades, inside or cat.specs, cat.thick, cat.thick_owner)
     cb = (lambda f, t: progress(0.12 * f, f"catalogue: {t}")) if progress else None
     with A.reporting_progress(cb):
         df, cat = A.rank(req, polish=1, catalogue=cat, url=url, tilt_rows=40)
@@ -553,8 +553,8 @@ def optimise(req: A.AdviceRequest, *, objective: str = "margin", min_margin: flo
 
     Parameters
     ----------
-    req : matdb.advisor.engine.AdviceRequest
-        What to float (:func:`matdb.advisor.engine.parse_request`).
+    req : matdb.advisor.AdviceRequest
+        What to float (:func:`matdb.advisor.parse_request`).
     objective : {"margin", "cost"}
         Largest worst-case margin within the budget, or the cheapest design reaching
         ``min_margin``.

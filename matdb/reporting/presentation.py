@@ -18,7 +18,7 @@ from typing import Sequence
 import numpy as np
 import pandas as pd
 
-from matdb.advisor.engine import candidate_design
+from matdb.advisor.exact import candidate_design
 from matdb.constants import celsius_to_kelvin, kelvin_to_celsius
 from matdb.analysis.levitate import format_intervals
 from matdb.analysis.synthesis import design_of
@@ -696,7 +696,7 @@ ADVISOR_SHOWN = ["rank", "material", "grade", "arrangement", "array_mm", "magnet
 
 
 def advisor_table(df: pd.DataFrame) -> pd.DataFrame:
-    """The ranking of :func:`matdb.advisor.engine.advise` for people: lengths in mm, reasons as
+    """The ranking of :func:`matdb.advisor.advise` for people: lengths in mm, reasons as
     one sentence list (``reasons_text``); the other columns as they are."""
     out = df.copy()
     out["thickness_mm"] = out["thickness_m"] * 1e3

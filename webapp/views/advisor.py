@@ -12,7 +12,7 @@ from webapp import _downloads
 from webapp import _shared as sh
 
 st.title("Advisor")
-advisor = sh.module_or_none("matdb.advisor.engine")
+advisor = sh.module_or_none("matdb.advisor")
 if advisor is None:
     sh.not_available("The Advisor page")
     st.stop()
