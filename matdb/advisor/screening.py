@@ -212,9 +212,14 @@ def screen(req: AdviceRequest, cat: Catalogue) -> pd.DataFrame:
         y_w = weight / (s_w[ig] * a_w[im])
     sel = np.nonzero(ok)[0]
     if sel.size:
-        G = Zg[grp[sel]] + r_nom[sel, None] * Xg[grp[sel]]
-        gn, i_n, f_n = PT.highest_root_grid(G, y_nom[sel], grid)
-        gw, _, _ = PT.highest_root_grid(G, np.where(np.isfinite(y_w[sel]), y_w[sel], np.inf), grid)
+        # one lift curve per (material, geometry, thickness): grades only scale it
+        pair = im[sel] * (nc * ns * nt) + grp[sel]
+        upair, first, inv = np.unique(pair, return_index=True, return_inverse=True)
+        su = sel[first]
+        G = Zg[grp[su]] + r_nom[su, None] * Xg[grp[su]]
+        gn, i_n, f_n = PT.highest_root_grid(G, y_nom[sel], grid, rows=inv)
+        gw, _, _ = PT.highest_root_grid(G, np.where(np.isfinite(y_w[sel]), y_w[sel], np.inf), grid,
+                                        rows=inv)
         gap_nom[sel] = gn
         gap_w[sel] = gw
         dZ = np.gradient(Zg, grid, axis=1)

@@ -83,9 +83,9 @@ def physics_fingerprint() -> str:
     return _FINGERPRINT
 
 
-def _hkey(h: float) -> int:
-    """Table key of a height: whole picometres."""
-    return int(round(float(h) / HEIGHT_KEY_M))
+def _hkeys(heights) -> list[int]:
+    """Table keys of heights: whole picometres."""
+    return np.rint(np.ravel(np.asarray(heights, dtype=float)) / HEIGHT_KEY_M).astype(np.int64).tolist()
 
 
 def _empty_stores() -> dict[str, dict[int, tuple]]:
@@ -123,6 +123,7 @@ class GeometryData:
         self.stores: dict[str, dict[int, tuple]] = _empty_stores()
         self.hmax: float | None = None
         self.memo: dict[str, Any] = {}
+        self._arrays: dict[tuple, np.ndarray] = {}  # tables already assembled for a height set
         self.dirty = False
         self._loaded = False
 
@@ -162,16 +163,22 @@ class GeometryData:
     # -- tables ---------------------------------------------------------------
     def _fill(self, name: str, heights, compute) -> np.ndarray:
         self.load()
-        st = self.stores.setdefault(name, {})
         hs = np.atleast_1d(np.asarray(heights, dtype=float)).ravel()
-        keys = [_hkey(h) for h in hs]
+        akey = (name, hs.tobytes())
+        got = self._arrays.get(akey)
+        if got is not None:
+            return got.copy()
+        st = self.stores.setdefault(name, {})
+        keys = _hkeys(hs)
         missing = sorted({k for k in keys if k not in st})
         if missing:
             vals = compute(np.array(missing, dtype=float) * HEIGHT_KEY_M)
             for k, v in zip(missing, vals):
                 st[k] = tuple(float(x) for x in np.ravel(v))
             self.dirty = True
-        return np.array([st[k] for k in keys], dtype=float).reshape(len(hs), -1)
+        out = np.array([st[k] for k in keys], dtype=float).reshape(len(hs), -1)
+        self._arrays[akey] = out
+        return out.copy()
 
     def coarse(self, heights) -> np.ndarray:
         """(n, 2): ``int B_z^2 dA``, ``int (B_x^2 + B_y^2) dA`` [T^2 m^2] at unit
@@ -222,8 +229,8 @@ class GeometryData:
         """Whether every table of these heights (and ``hmax``) is already at hand."""
         self.load()
         st = self.stores
-        return (self.hmax is not None and all(_hkey(h) in st["coarse"] for h in np.ravel(heights))
-                and all(_hkey(h) in st["lateral"] for h in np.ravel(lat_heights)))
+        return (self.hmax is not None and all(k in st["coarse"] for k in _hkeys(heights))
+                and all(k in st["lateral"] for k in _hkeys(lat_heights)))
 
 
 _GEOMETRIES: dict[tuple, GeometryData] = {}

@@ -204,7 +204,7 @@ def move_pivot(k: np.ndarray, h, weight_n) -> dict:
             "tilt_stable": (kp > 0) & (kr > 0)}
 
 
-def highest_root_grid(G: np.ndarray, y: np.ndarray, gaps: np.ndarray):
+def highest_root_grid(G: np.ndarray, y: np.ndarray, gaps: np.ndarray, rows=None):
     """Highest gap ``g`` with ``G(g) = y`` on tabulated lift curves (one per row of ``G``).
 
     Between nodes the curve is interpolated linearly in ``log G`` (the lift of a magnet
@@ -213,10 +213,12 @@ def highest_root_grid(G: np.ndarray, y: np.ndarray, gaps: np.ndarray):
 
     Parameters
     ----------
-    G : ndarray, shape (m, n)
+    G : ndarray, shape (u, n)
         Curves on ``gaps`` (any common scale) [N or N/(unit)].
     y : ndarray, shape (m,)
-        Value to reach per curve, on the same scale.
+        Value to reach, on the same scale, on curve ``rows[k]`` (default: curve ``k``).
+    rows : ndarray of int, shape (m,), optional
+        Which curve each value is sought on (curves shared by many values are scanned once).
     gaps : ndarray, shape (n,)
         Increasing gaps [m].
 
@@ -231,11 +233,11 @@ def highest_root_grid(G: np.ndarray, y: np.ndarray, gaps: np.ndarray):
     .. [2] M. D. Simon and A. K. Geim, J. Appl. Phys. 87, 6200 (2000).
     """
     m = np.maximum.accumulate(G[:, ::-1], axis=1)[:, ::-1]  # max over g' >= g
-    count = np.sum(m >= y[:, None], axis=1)
+    r = np.arange(G.shape[0]) if rows is None else np.asarray(rows)
+    count = np.sum(m[r] >= y[:, None], axis=1)
     n = G.shape[1]
     ok = (count > 0) & (count < n) & (y > 0)
     i = np.clip(count - 1, 0, n - 2)
-    r = np.arange(G.shape[0])
     g0, g1 = G[r, i], G[r, i + 1]
     with np.errstate(divide="ignore", invalid="ignore"):
         pos = (g0 > 0) & (g1 > 0)
