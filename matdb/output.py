@@ -98,7 +98,7 @@ def add_format_argument(parser, choices: Sequence[str] = FORMATS, default: str =
 
 def _json_default(o: Any):
     try:
-        import numpy as np
+        import numpy as np  # lazy: keeps numpy off the CLI start-up path (only numbers from numpy need it)
 
         if isinstance(o, np.generic):
             return o.item()

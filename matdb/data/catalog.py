@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import datetime as _dt
 import difflib
+import re
 from dataclasses import asdict, dataclass
 from typing import TYPE_CHECKING, Iterable, Optional
 
@@ -218,8 +219,6 @@ _SUFFIX_ORDER = {"": 0, "M": 1, "H": 2, "SH": 3, "UH": 4, "EH": 5, "AH": 6}
 
 def grade_sort_key(g) -> tuple:
     """Family, then the usual temperature-suffix order (N, M, H, SH, UH, EH, AH), then Br."""
-    import re
-
     m = re.match(r"^N(\d+)([A-Z]*)$", g.grade)
     suffix = _SUFFIX_ORDER.get(m.group(2), 9) if m else 0
     return (_FAMILY_ORDER.get(g.family, 9), suffix, g.br_t, g.grade)
