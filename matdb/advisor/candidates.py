@@ -174,10 +174,10 @@ def select_grades(req: AdviceRequest, url=None):
         wanted = [catalog.get_grade(g, url).grade for g in req.grades]
         grades = [g for g in grades if g.grade in wanted]
     if req.families:
-        want = {catalog.check_family(f, "--family") for f in req.families}
+        want = {catalog.check_family(f, "family") for f in req.families}
         grades = [g for g in grades if g.family in want]
     if not grades:
-        raise InputError("--grade/--family: no magnet grade matches the restrictions")
+        raise InputError("no magnet grade matches the restrictions (grades and families)", field="grade")
     return grades
 
 

@@ -84,32 +84,32 @@ def parse_dimensions(text, n: int, field_name: str, example: str) -> tuple[float
     (a bare number takes the unit of the last length) -> [m], all positive."""
     if isinstance(text, (tuple, list)):
         if len(text) != n:
-            raise InputError(f"{field_name}: expected {n} lengths such as {example!r}, got {text!r}")
+            raise InputError(f"expected {n} lengths such as {example!r}, got {text!r}", field=field_name)
         vals = [_length_si(v, field_name) for v in text]
     else:
         s = str(text).strip()
         parts = [q for q in _SEP_RE.split(s)]
         if len(parts) != n or not all(parts):
-            raise InputError(f"{field_name}: expected {n} lengths such as {example!r}, got {text!r}")
+            raise InputError(f"expected {n} lengths such as {example!r}, got {text!r}", field=field_name)
         unit = re.sub(r"^" + _NUM_RE + r"\s*", "", parts[-1])
         fixed = []
         for q in parts:
             if re.fullmatch(_NUM_RE, q):
                 if not unit or unit == parts[-1]:
-                    raise InputError(f"{field_name}: missing unit in {text!r}; expected e.g. {example!r}")
+                    raise InputError(f"missing unit in {text!r}; expected e.g. {example!r}", field=field_name)
                 q = f"{q} {unit}"
             fixed.append(q)
         try:
             vals = [parse_length(q, field_name, positive=True) for q in fixed]
         except InputError as exc:
-            raise InputError(f"{field_name}: expected {n} lengths such as {example!r}, got {text!r} "
-                             f"({str(exc).split(': ', 1)[-1]})") from None
+            raise InputError(f"expected {n} lengths such as {example!r}, got {text!r} "
+                             f"({str(exc).split(': ', 1)[-1]})", field=field_name) from None
     if not all(v > 0 for v in vals):
-        raise InputError(f"{field_name}: expected positive lengths, got {text!r}")
+        raise InputError(f"expected positive lengths, got {text!r}", field=field_name)
     return tuple(float(v) for v in vals)
 
 
-def parse_footprint(text, field_name: str = "--footprint") -> tuple[float, float]:
+def parse_footprint(text, field_name: str = "footprint") -> tuple[float, float]:
     """``"17 mm x 17 mm"``, ``"17x17 mm"``, ``"17 by 17 mm"`` or ``"17 mm"`` (a square)
     -> (x, y) [m]."""
     if not isinstance(text, (tuple, list)) and len(_SEP_RE.split(str(text).strip())) == 1:
@@ -118,7 +118,7 @@ def parse_footprint(text, field_name: str = "--footprint") -> tuple[float, float
     return parse_dimensions(text, 2, field_name, "17 mm x 17 mm")  # type: ignore[return-value]
 
 
-def parse_envelope(text, field_name: str = "--magnet-envelope") -> tuple[float, float, float]:
+def parse_envelope(text, field_name: str = "magnet_envelope") -> tuple[float, float, float]:
     """``"24 x 24 x 15 mm"`` (width x length x height of the magnet array) -> [m]."""
     return parse_dimensions(text, 3, field_name, "24 mm x 24 mm x 15 mm")  # type: ignore[return-value]
 
@@ -137,19 +137,19 @@ def parse_weights(text) -> Weights:
             if not part.strip():
                 continue
             if "=" not in part:
-                raise InputError(f"--weights: expected name=value pairs such as 'margin=1,cost=1,derating=1', got {text!r}")
+                raise InputError(f"expected name=value pairs such as 'margin=1,cost=1,derating=1', got {text!r}", field="weights")
             k, v = part.split("=", 1)
             items.append((k.strip(), v.strip()))
     out = asdict(Weights())
     for k, v in items:
         if k not in out:
-            raise InputError(f"--weights: unknown weight {k!r}; expected margin, cost or derating")
+            raise InputError(f"unknown weight {k!r}; expected margin, cost or derating", field="weights")
         try:
             f = float(v)
         except (TypeError, ValueError):
-            raise InputError(f"--weights: expected a number for {k}, got {v!r}") from None
+            raise InputError(f"expected a number for {k}, got {v!r}", field="weights") from None
         if not math.isfinite(f) or f < 0:
-            raise InputError(f"--weights: expected a weight of zero or more for {k}, got {v!r}")
+            raise InputError(f"expected a weight of zero or more for {k}, got {v!r}", field="weights")
         out[k] = f
     return Weights(**out)
 
@@ -157,7 +157,7 @@ def parse_weights(text) -> Weights:
 def _length_si(v, field_name: str) -> float:
     if isinstance(v, (int, float)) and not isinstance(v, bool):
         if not (math.isfinite(v) and v >= 0):
-            raise InputError(f"{field_name}: expected a length of zero or more, got {v!r}")
+            raise InputError(f"expected a length of zero or more, got {v!r}", field=field_name)
         return float(v)
     return parse_length(v, field_name)
 
@@ -165,7 +165,7 @@ def _length_si(v, field_name: str) -> float:
 def _temp_si(v, field_name: str) -> float:
     if isinstance(v, (int, float)) and not isinstance(v, bool):
         if not (math.isfinite(v) and v > 0):
-            raise InputError(f"{field_name}: expected an absolute temperature in K, got {v!r}")
+            raise InputError(f"expected an absolute temperature in K, got {v!r}", field=field_name)
         return float(v)
     return parse_temperature(v, field_name)
 
@@ -181,14 +181,14 @@ def _names(values, field_name: str) -> tuple[str, ...] | None:
             if part.strip():
                 out.append(part.strip())
     if not out:
-        raise InputError(f"{field_name}: expected at least one name")
+        raise InputError("expected at least one name", field=field_name)
     return tuple(out)
 
 
 def _mass_si(v, field_name: str) -> float:
     if isinstance(v, (int, float)) and not isinstance(v, bool):
         if not (math.isfinite(v) and v >= 0):
-            raise InputError(f"{field_name}: expected a mass of zero or more, got {v!r}")
+            raise InputError(f"expected a mass of zero or more, got {v!r}", field=field_name)
         return float(v)
     return parse_mass(v, field_name)
 
@@ -212,42 +212,42 @@ def parse_request(mass=None, footprint=None, *, min_gap="0.2 mm", temp_min="20 d
         _s(v) for v in (mass, footprint, min_gap, temp_min, temp_max, budget, max_magnet_size,
                         plate_size, payload_height, total_mass, envelope))
     if mass in ("", None) and total_mass in ("", None):
-        raise InputError("--mass/--total-mass: expected one of them, e.g. --mass '0.2 g' (payload) "
-                         "or --total-mass '0.3 g' (plate plus payload)")
+        raise InputError("expected a payload mass such as '0.2 g', or a total mass (plate plus payload) "
+                         "such as '0.3 g'", field="mass")
     if mass not in ("", None) and total_mass not in ("", None):
-        raise InputError("--total-mass: expected either --mass (payload) or --total-mass (plate plus "
-                         "payload), not both")
+        raise InputError("expected either the payload mass or the total mass (plate plus payload), "
+                         "not both", field="total_mass")
     total = None
     if total_mass not in ("", None):
-        total = _mass_si(total_mass, "--total-mass")
+        total = _mass_si(total_mass, "total_mass")
         if total <= 0:
-            raise InputError(f"--total-mass: expected a positive mass, got {total_mass!r}")
+            raise InputError(f"expected a positive mass, got {total_mass!r}", field="total_mass")
         m = 0.0
     else:
-        m = _mass_si(mass, "--mass")
+        m = _mass_si(mass, "mass")
     if footprint in ("", None):
-        raise InputError("--footprint: expected the plate outline, e.g. '20 mm x 20 mm'")
-    fp = parse_footprint(footprint, "--footprint")
-    plate = parse_footprint(plate_size, "--plate-size") if plate_size not in ("", None) else fp
-    env = parse_envelope(envelope, "--magnet-envelope") if envelope not in ("", None) else None
-    gap = _length_si(min_gap, "--min-gap")
-    t_lo = _temp_si(temp_min, "--temp-min")
-    t_hi = _temp_si(temp_max, "--temp-max")
+        raise InputError("expected the plate outline, e.g. '20 mm x 20 mm'", field="footprint")
+    fp = parse_footprint(footprint, "footprint")
+    plate = parse_footprint(plate_size, "plate_size") if plate_size not in ("", None) else fp
+    env = parse_envelope(envelope, "magnet_envelope") if envelope not in ("", None) else None
+    gap = _length_si(min_gap, "min_gap")
+    t_lo = _temp_si(temp_min, "temp_min")
+    t_hi = _temp_si(temp_max, "temp_max")
     if t_lo > t_hi:
-        raise InputError(f"--temp-min: expected at most --temp-max, got {temp_min!r} > {temp_max!r}")
+        raise InputError(f"expected at most the hottest temperature, got {temp_min!r} > {temp_max!r}", field="temp_min")
     b = None
     if budget is not None:
         if isinstance(budget, (int, float)) and not isinstance(budget, bool):
             b = float(budget)
         else:
-            b = parse_quantity(budget, "USD", "--budget", require_unit=False)
+            b = parse_quantity(budget, "USD", "budget", require_unit=False)
         if not (math.isfinite(b) and b >= 0):
-            raise InputError(f"--budget: expected an amount of zero or more, got {budget!r}")
+            raise InputError(f"expected an amount of zero or more, got {budget!r}", field="budget")
     mms = None
     if max_magnet_size is not None:
-        mms = _length_si(max_magnet_size, "--max-magnet-size")
+        mms = _length_si(max_magnet_size, "max_magnet_size")
         if mms <= 0:
-            raise InputError(f"--max-magnet-size: expected a positive length, got {max_magnet_size!r}")
+            raise InputError(f"expected a positive length, got {max_magnet_size!r}", field="max_magnet_size")
     th = DEFAULT_THICKNESSES_M
     if thickness is not None and thickness != () and thickness != []:
         items = [thickness] if isinstance(thickness, (str, int, float)) else list(thickness)
@@ -255,20 +255,20 @@ def parse_request(mass=None, footprint=None, *, min_gap="0.2 mm", temp_min="20 d
         for it in items:
             parts = str(it).split(",") if isinstance(it, str) else [it]
             for p in parts:
-                v = _length_si(p.strip() if isinstance(p, str) else p, "--thickness")
+                v = _length_si(p.strip() if isinstance(p, str) else p, "thickness")
                 if v <= 0:
-                    raise InputError(f"--thickness: expected a positive length, got {p!r}")
+                    raise InputError(f"expected a positive length, got {p!r}", field="thickness")
                 vals.append(v)
         if not vals:
-            raise InputError("--thickness: expected at least one thickness such as '1 mm'")
+            raise InputError("expected at least one thickness such as '1 mm'", field="thickness")
         th = tuple(sorted(set(vals)))
-    ph = _length_si(payload_height, "--payload-height")
+    ph = _length_si(payload_height, "payload_height")
     plates = ()
     if total is not None and plate_size in ("", None):
         plates = tuple((fp[0] * f, fp[1] * f) for f in PLATE_FRACTIONS)
     return AdviceRequest(mass_kg=m, footprint_m=fp, plate_m=plate, min_gap_m=gap, temp_min_k=t_lo,
-                         temp_max_k=t_hi, budget_usd=b, materials=_names(materials, "--material"),
-                         families=_names(families, "--family"), grades=_names(grades, "--grade"),
+                         temp_max_k=t_hi, budget_usd=b, materials=_names(materials, "material"),
+                         families=_names(families, "family"), grades=_names(grades, "grade"),
                          max_magnet_size_m=mms, thicknesses_m=th, weights=parse_weights(weights),
                          payload_height_m=ph, total_mass_kg=total, envelope_m=env,
                          thickness_given=th is not DEFAULT_THICKNESSES_M, plate_options=plates)

@@ -111,7 +111,7 @@ def screen(req: AdviceRequest, cat: Catalogue) -> pd.DataFrame:
     mats, grades, specs, thick = cat.mats, cat.grades, cat.specs, cat.thick
     nm, ng, ns, nt = len(mats), len(grades), len(specs), len(thick)
     if ns == 0:
-        raise InputError("--max-magnet-size: no default arrangement has magnets that small")
+        raise InputError("no default arrangement has magnets that small", field="max_magnet_size")
     lx, ly = req.plate_m
     area = lx * ly
     t_op = req.temp_max_k  # nominal: typical values at the hottest temperature
