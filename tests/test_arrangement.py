@@ -58,7 +58,7 @@ def _points(arr: Arrangement, n=2000, above_plate=False):
 
 
 def _tol(ref):
-    # acceptance from the brief: 1e-9 max|B| + 1e-12 T
+    # tolerance of the field comparisons (regression check): 1e-9 max|B| + 1e-12 T
     return 1e-9 * float(np.max(np.linalg.norm(ref, axis=1))) + 1e-12
 
 

@@ -1,7 +1,7 @@
 """``matdb field`` and ``matdb levitate`` (matdb.cli.physics, matdb.analysis.levitate).
 
-References: magpylib (independent field library) for ``field``; the issue-3 JSON key
-contract; the linear reversible temperature coefficient of Br (IEC 60404-8-1) and the
+References: magpylib (independent field library) for ``field``; a regression check of the JSON
+key contract; the linear reversible temperature coefficient of Br (IEC 60404-8-1) and the
 Br^2 |chi| scaling of diamagnetic lift (Berry & Geim, Eur. J. Phys. 18, 307 (1997)) for
 the thermal figures; standard gravity 9.80665 m/s^2 (CGPM 1901) for the weight.
 """

@@ -50,7 +50,7 @@ def demo_result(demo):
 
 
 def test_result_keys_are_plain_json(demo_result):
-    # the contract keys, JSON round trip (json module)
+    # regression check of the JSON key contract; round trip through the json module
     keys = {"mode", "floats", "lifter_distance_m", "k_lifter_z_n_m", "k_lifter_r_n_m", "k_plates_n_m",
             "k_plates_dipole_n_m", "max_plate_distance_m", "max_plate_distance_dipole_m", "max_payload_kg",
             "verdict_model", "window", "safe_distance_m", "warnings", "tilt_stable"}

@@ -101,7 +101,7 @@ def test_rectangle_footprint_weights_sum_to_area(checker):
 @pytest.mark.parametrize("shape", ["rectangle", "disc"])
 @pytest.mark.parametrize("gap", [0.0, 5e-5, 1e-3])
 def test_lift_quadrature_converges_including_zero_gap(checker, gap, shape):
-    # convergence criterion of the issue: doubling the Gauss order changes F by < 1e-6
+    # convergence (regression check): doubling the Gauss order changes F by < 1e-6
     if shape == "disc":
         plate = _geom(checker, 0.012, shape="disc", cx=1e-3)
     else:

@@ -157,7 +157,9 @@ def test_knee_fractions_cover_the_catalogue_families_and_carry_citations():
     assert set(KNEE_FRACTION) == {"NdFeB", "SmCo", "ferrite", "AlNiCo", "bonded-NdFeB"}
     for fraction, citation in KNEE_FRACTION.values():
         assert 0.0 < fraction <= 1.0
-        assert "verify" in citation or "conservative" in citation
+        # values from memory are marked so (project rule for seed data citations)
+        assert "from memory of" in citation
+        assert citation.endswith("verify.")
     assert KNEE_FRACTION["NdFeB"][0] > KNEE_FRACTION["bonded-NdFeB"][0]
     assert KNEE_FRACTION["NdFeB"][0] > KNEE_FRACTION["AlNiCo"][0]
 
