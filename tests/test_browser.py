@@ -7,19 +7,15 @@ from __future__ import annotations
 
 import os
 import shutil
-import socket
-import subprocess
-import time
-import urllib.request
 from pathlib import Path
 
 import pytest
 
+from webapp._server import CHROMIUM_ARGS, served
+
 REPO = Path(__file__).resolve().parent.parent
 ARTIFACTS = REPO / "test-artifacts"
 CHROMIUM = shutil.which("chromium")
-CHROMIUM_ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-                 "--disable-background-networking", "--disable-component-update", "--disable-sync"]
 
 pytestmark = [
     pytest.mark.browser,
@@ -31,47 +27,15 @@ PAGES = [("", "Materials"), ("magnets", "Magnets"), ("design", "Design"), ("advi
          ("lab_values", "Lab values")]
 
 
-def _free_port() -> int:
-    with socket.socket(socket.AF_INET, socket.SOCK_STREAM) as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
-
-
 @pytest.fixture(scope="module")
 def server():
-    from matdb.cli.serve import serve_command
     from matdb.data.db import get_engine
 
     get_engine()  # create and seed the test database before the page opens it
-    port = _free_port()
-    env = os.environ.copy()  # MATDB_URL from tests/conftest.py: the page reads the test database
     ARTIFACTS.mkdir(exist_ok=True)
-    log = open(ARTIFACTS / "streamlit.log", "w")
-    proc = subprocess.Popen(serve_command(port), cwd=str(REPO), env=env, stdout=log, stderr=subprocess.STDOUT)
-    base = f"http://127.0.0.1:{port}"
-    deadline = time.monotonic() + 90
-    try:
-        while True:
-            if proc.poll() is not None:
-                raise RuntimeError(f"streamlit exited with {proc.returncode}; see {log.name}")
-            try:
-                with urllib.request.urlopen(base + "/_stcore/health", timeout=2) as r:
-                    if r.read().decode().strip() == "ok":
-                        break
-            except OSError:
-                pass
-            if time.monotonic() > deadline:
-                raise RuntimeError("streamlit did not answer /_stcore/health within 90 s")
-            time.sleep(0.3)
+    # MATDB_URL from tests/conftest.py: the page reads the test database
+    with served(ARTIFACTS / "streamlit.log", env=dict(os.environ, MATDB_PAGE_WARM_UP="1")) as base:
         yield base
-    finally:
-        proc.terminate()
-        try:
-            proc.wait(timeout=15)
-        except subprocess.TimeoutExpired:
-            proc.kill()
-            proc.wait()
-        log.close()
 
 
 @pytest.fixture(scope="module")

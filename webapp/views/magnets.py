@@ -15,10 +15,11 @@ except MatdbError as exc:
     st.error(sh.plain(f"magnet grades: {exc}"))
     st.stop()
 
-all_grades = list(grades["grade"])
+all_grades = grades["grade"].tolist()
 preferred = [g for g in ("N42", "N42SH", "N52", "N35EH") if g in all_grades]
-smco = [g for g in all_grades if grades.set_index("grade").loc[g, "family"] == "SmCo"][:1]
-ferrite = [g for g in all_grades if grades.set_index("grade").loc[g, "family"] == "ferrite"][:1]
+family_of = dict(zip(grades["grade"].tolist(), grades["family"].tolist()))
+smco = [g for g in all_grades if family_of[g] == "SmCo"][:1]
+ferrite = [g for g in all_grades if family_of[g] == "ferrite"][:1]
 default = (preferred[:3] + smco + ferrite) or all_grades[:3]
 
 # ---- lead chart -----------------------------------------------------------
@@ -83,7 +84,7 @@ else:
             "diamagnet scales with B^2, so with Br^2. Each grade has its own colour and marker shape. Open "
             "diamonds and dotted rules: each grade's maximum working temperature; dashed line beyond it."
         )
-        st.download_button("Download curves (CSV, exact values)", sh.csv_bytes(curves),
+        st.download_button("Download curves (CSV, exact values)", lambda df=curves: sh.csv_bytes(df),
                            file_name="matdb-grade-curves.csv", mime="text/csv", key="curves_download")
 
 # ---- table ----------------------------------------------------------------
@@ -116,6 +117,6 @@ st.dataframe(
 )
 sh.status_legend()
 st.caption("Prices are illustrative, not quotes.")
-st.download_button("Download grades (CSV, exact values)", sh.csv_bytes(shown),
+st.download_button("Download grades (CSV, exact values)", lambda df=shown: sh.csv_bytes(df),
                    file_name="matdb-grades.csv", mime="text/csv", key="grades_download")
 sh.sources_expander(url, "grades_sources")

@@ -33,8 +33,10 @@ st.caption(
 reach_df, band, reach_msg = None, None, ""
 if presentation.field_engine_available():
     try:
-        with st.spinner("Computing the field of common magnet arrangements..."):
-            reach_df = sh.arrangement_reach(url)
+        reach_bar = st.empty()
+        reach_bar.progress(0.1, text="Computing the field of common magnet arrangements...")
+        reach_df = sh.arrangement_reach(url)
+        reach_bar.empty()
         band = presentation.reach_band(reach_df)
     except MatdbError as exc:
         reach_msg = f"range of common arrangements: {exc}"
@@ -161,13 +163,14 @@ st.dataframe(
 sh.status_legend()
 if conv in ("si-molar", "cgs-molar") and shown["chi_shown"].isna().any():
     st.caption("Empty molar values: the database holds no molar mass for that material (e.g. polymers).")
-st.download_button("Download this table (CSV, exact values)", sh.csv_bytes(shown),
+st.download_button("Download this table (CSV, exact values)", lambda df=shown: sh.csv_bytes(df),
                    file_name="matdb-materials.csv", mime="text/csv", key="mat_download")
 
 # ---- compare -------------------------------------------------------------
 st.subheader("Compare")
-picked = st.multiselect("Materials to compare side by side", list(mats["id"]), key="mat_compare",
-                        format_func=lambda i: f"{mats.set_index('id').loc[i, 'name']} ({i})")
+names = dict(zip(mats["id"].tolist(), mats["name"].tolist()))
+picked = st.multiselect("Materials to compare side by side", list(names), key="mat_compare",
+                        format_func=lambda i: f"{names[i]} ({i})")
 if picked:
     with sh.shown_errors("compare"):
         st.dataframe(presentation.compare_materials(mats.merge(need[["id", "required_t2_m"]], on="id"), picked,
