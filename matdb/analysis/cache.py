@@ -23,12 +23,10 @@ from __future__ import annotations
 import dataclasses
 import hashlib
 import json
-import os
 from pathlib import Path
 from typing import Any
 
 import joblib
-from platformdirs import user_cache_dir
 
 from matdb.advisor import engine
 from matdb.analysis.levitate import levitate as _levitate_fn
@@ -48,13 +46,9 @@ _MEMORY: dict[str, joblib.Memory] = {}
 
 
 def cache_dir() -> Path:
-    """``$MATDB_CACHE_DIR/results``, else the user cache folder's ``results``."""
-    env = os.environ.get("MATDB_CACHE_DIR")
-    if env:
-        base = Path(env)
-    else:
-        base = Path(user_cache_dir("matdb"))
-    return base / "results"
+    """``$MATDB_CACHE_DIR/results``, else the user cache folder's ``results`` (beside the
+    advisor's tables, :func:`matdb.advisor.engine.cache_dir`)."""
+    return engine.cache_dir().parent / "results"
 
 
 def memory() -> joblib.Memory:
