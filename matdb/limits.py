@@ -23,6 +23,7 @@ import re
 from pathlib import Path
 
 from matdb.errors import InputError
+from matdb.constants import celsius_to_kelvin, kelvin_to_celsius
 
 MAX_FILE_BYTES = 1_000_000          # design files, --points files
 MAX_IMPORT_BYTES = 50_000_000       # lab-value CSV / JSON imports
@@ -43,7 +44,7 @@ LARGEST = {
     "kA/m": 1e5,
     "USD": 1e9,
 }
-TEMPERATURE_RANGE_K = (0.0, 1273.15)   # above absolute zero, at most 1000 degC
+TEMPERATURE_RANGE_K = (0.0, celsius_to_kelvin(1000.0))   # above absolute zero, at most 1000 degC
 MAX_ABS_CHI = 1e6                      # SI volume susceptibility (a soft ferrite reaches ~1e4)
 
 _HUMAN = {"m": "100 m", "kg": "10000 kg", "T": "100 T", "kg/m^3": "25000 kg/m^3", "kg/mol": "10 kg/mol",
@@ -54,36 +55,36 @@ def check_magnitude(value: float, unit: str, field: str, typed) -> None:
     """Refuse a magnitude (in ``unit``) beyond :data:`LARGEST` for that unit."""
     limit = LARGEST.get(unit)
     if limit is not None and abs(value) > limit:
-        raise InputError(f"{field}: {typed!r} is beyond the largest accepted magnitude, {_HUMAN[unit]}")
+        raise InputError(f"{typed!r} is beyond the largest accepted magnitude, {_HUMAN[unit]}", field=field)
 
 
 def check_chi(chi_si: float, field: str, typed) -> None:
     """Refuse a susceptibility that is not finite or beyond :data:`MAX_ABS_CHI` (SI volume)."""
     if not (abs(chi_si) <= MAX_ABS_CHI):  # also catches inf and nan
-        raise InputError(f"{field}: {typed!r} is beyond the largest accepted susceptibility, "
-                         f"|chi| <= {MAX_ABS_CHI:g} (SI volume)")
+        raise InputError(f"{typed!r} is beyond the largest accepted susceptibility, "
+                         f"|chi| <= {MAX_ABS_CHI:g} (SI volume)", field=field)
 
 
 def check_temperature(kelvin: float, field: str, typed) -> None:
     lo, hi = TEMPERATURE_RANGE_K
     if not (lo < kelvin <= hi):
-        raise InputError(f"{field}: {typed!r} is outside the accepted temperatures, above 0 K and at most "
-                         f"{hi - 273.15:g} degC")
+        raise InputError(f"{typed!r} is outside the accepted temperatures, above 0 K and at most "
+                         f"{kelvin_to_celsius(hi):g} degC", field=field)
 
 
 def check_count(n: int, limit: int, field: str, what: str) -> None:
     if n > limit:
-        raise InputError(f"{field}: {n} {what} is more than the limit of {limit}")
+        raise InputError(f"{n} {what} is more than the limit of {limit}", field=field)
 
 
 def check_arrangement(rows: int, cols: int, field: str = "magnets") -> None:
     """rows and cols each at most :data:`MAX_ROWS_COLS`, rows x cols at most :data:`MAX_MAGNETS`."""
     for name, n in (("rows", rows), ("cols", cols)):
         if n > MAX_ROWS_COLS:
-            raise InputError(f"{field}.{name}: {n} is more than the limit of {MAX_ROWS_COLS}")
+            raise InputError(f"{n} is more than the limit of {MAX_ROWS_COLS}", field=f"{field}.{name}")
     if rows * cols > MAX_MAGNETS:
-        raise InputError(f"{field}.rows: {rows} x {cols} = {rows * cols} magnets is more than the limit of "
-                         f"{MAX_MAGNETS}")
+        raise InputError(f"{rows} x {cols} = {rows * cols} magnets is more than the limit of {MAX_MAGNETS}",
+                         field=f"{field}.rows")
 
 
 _TOKENS = re.compile(r'"""[\s\S]*?"""|\'\'\'[\s\S]*?\'\'\'|"(?:\\.|[^"\\\n])*"|\'[^\'\n]*\'|#[^\n]*|[\[\]{}]')
@@ -102,7 +103,7 @@ def check_nesting(text: str, field: str, limit: int = MAX_NESTING) -> None:
             depth += 1
             if depth > limit:
                 line = text.count("\n", 0, m.start()) + 1
-                raise InputError(f"{field}: line {line}: nesting deeper than the limit of {limit} levels")
+                raise InputError(f"line {line}: nesting deeper than the limit of {limit} levels", field=field)
         elif t in "]}":
             depth = max(0, depth - 1)
 
@@ -112,18 +113,18 @@ def read_text_limited(path, field: str, max_bytes: int = MAX_FILE_BYTES) -> str:
     p = Path(path)
     try:
         if p.exists() and not p.is_file():
-            raise InputError(f"{field}: {str(p)!r} is not a regular file")
+            raise InputError(f"{str(p)!r} is not a regular file", field=field)
         with p.open("rb") as fh:
             raw = fh.read(max_bytes + 1)
     except FileNotFoundError:
-        raise InputError(f"{field}: no such file {str(p)!r}") from None
+        raise InputError(f"no such file {str(p)!r}", field=field) from None
     except IsADirectoryError:
-        raise InputError(f"{field}: {str(p)!r} is a folder, expected a file") from None
+        raise InputError(f"{str(p)!r} is a folder, expected a file", field=field) from None
     except OSError as exc:
-        raise InputError(f"{field}: cannot read {str(p)!r}: {exc.strerror or exc}") from None
+        raise InputError(f"cannot read {str(p)!r}: {exc.strerror or exc}", field=field) from None
     if len(raw) > max_bytes:
-        raise InputError(f"{field}: {str(p)!r} is larger than the limit of {max_bytes:,} bytes")
+        raise InputError(f"{str(p)!r} is larger than the limit of {max_bytes:,} bytes", field=field)
     try:
         return raw.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
-        raise InputError(f"{field}: {str(p)!r} is not UTF-8 text ({exc.reason} at byte {exc.start})") from None
+        raise InputError(f"{str(p)!r} is not UTF-8 text ({exc.reason} at byte {exc.start})", field=field) from None

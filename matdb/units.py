@@ -33,22 +33,48 @@ References
 
 from __future__ import annotations
 
+import functools
 import math
 import re
-from typing import Iterable
+from typing import TYPE_CHECKING, Iterable
 
-import pint
-
+from matdb.constants import DENSITY_RANGE_KG_M3
 from matdb.errors import InputError
 from matdb.limits import check_chi, check_magnitude, check_temperature
 
-ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
-ureg.define("MGOe = 1e5 / (4 * pi) * J / m**3")
-ureg.define("USD = [currency]")
-Q_ = ureg.Quantity
+if TYPE_CHECKING:
+    import pint
 
-MU0 = 4e-7 * math.pi * 1.00000000055  # vacuum permeability, CODATA 2018 [T m / A]
-G_STANDARD = 9.80665  # standard gravity [m/s^2] (CGPM 1901)
+
+@functools.cache
+def registry() -> "pint.UnitRegistry":
+    """The one unit registry of matdb, built on first use.
+
+    Building it (importing pint and reading its definitions) costs about half a second, so
+    it is not built at import: commands that only list tables never pay for it. Offset
+    temperatures ("20 degC") convert to kelvin; ``MGOe`` and ``USD`` are added.
+    """
+    import pint  # lazy: keeps `matdb --help` and table commands from importing pint at all
+
+    ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
+    ureg.define("MGOe = 1e5 / (4 * pi) * J / m**3")
+    ureg.define("USD = [currency]")
+    return ureg
+
+
+def quantity(value, unit=None) -> "pint.Quantity":
+    """``Quantity(value, unit)`` in :func:`registry` (``unit`` may be a string or a Unit)."""
+    return registry().Quantity(value, unit)
+
+
+def __getattr__(name: str):
+    """``units.ureg`` and ``units.Q_`` (the registry and its Quantity), built on first access."""
+    if name == "ureg":
+        return registry()
+    if name == "Q_":
+        return registry().Quantity
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
 
 CONVENTIONS = ("si-volume", "cgs-volume", "si-mass", "cgs-mass", "si-molar", "cgs-molar")
 
@@ -94,16 +120,16 @@ _NEG_NUMBER_RE = re.compile(r"^-(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?(\s.*)?$")
 def parse_number(text: str | float | int, field: str) -> float:
     """A finite float from a number or a string such as ``"-1.6e-4"``."""
     if isinstance(text, bool):
-        raise InputError(f"{field}: expected a number, got {text!r}")
+        raise InputError(f"expected a number, got {text!r}", field=field)
     if isinstance(text, (int, float)):
         value = float(text)
     else:
         s = str(text).strip()
         if not _NUMBER_RE.match(s):
-            raise InputError(f"{field}: expected a number such as -1.6e-4, got {text!r}")
+            raise InputError(f"expected a number such as -1.6e-4, got {text!r}", field=field)
         value = float(s)
     if not math.isfinite(value):
-        raise InputError(f"{field}: expected a finite number, got {text!r}")
+        raise InputError(f"expected a finite number, got {text!r}", field=field)
     return value
 
 
@@ -118,17 +144,18 @@ def _split_number_unit(text: str, field: str) -> tuple[float, str]:
     s = str(text).strip()
     m = re.match(r"^([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*)$", s)
     if not m:
-        raise InputError(f"{field}: expected a number with a unit, got {text!r}")
+        raise InputError(f"expected a number with a unit, got {text!r}", field=field)
     value = parse_number(m.group(1), field)
     return value, m.group(2).strip()
 
 
 def to_quantity(text: str | float | int, field: str) -> pint.Quantity:
     """Parse ``text`` into a pint Quantity (number and unit), with a field-named error."""
-    if isinstance(text, pint.Quantity):
+    ureg = registry()
+    if isinstance(text, ureg.Quantity):
         return text
     if isinstance(text, (int, float)) and not isinstance(text, bool):
-        return Q_(parse_number(text, field), "")
+        return ureg.Quantity(parse_number(text, field), "")
     value, unit = _split_number_unit(str(text), field)
     unit = _normalise_unit_text(unit)
     if unit in ("C",):
@@ -138,22 +165,18 @@ def to_quantity(text: str | float | int, field: str) -> pint.Quantity:
     try:
         u = ureg.parse_units(unit) if unit else ureg.dimensionless
     except Exception as exc:  # pint raises several types for junk units
-        raise InputError(f"{field}: unknown unit {unit!r} in {text!r}") from exc
-    return Q_(value, u)
+        raise InputError(f"unknown unit {unit!r} in {text!r}", field=field) from exc
+    return ureg.Quantity(value, u)
 
 
 def _convert(q: pint.Quantity, unit: str, field: str, text) -> float:
     for ctx in ((), ("Gaussian",)):
         try:
             return float(q.to(unit, *ctx).magnitude)
-        except pint.DimensionalityError:
+        except Exception:  # pint's DimensionalityError and offset-unit errors alike: try the next
             continue
-        except Exception:
-            continue
-    want = ureg.parse_units(unit).dimensionality
-    raise InputError(
-        f"{field}: expected a quantity with units of {want} (e.g. '1 {unit}'), got {text!r}"
-    )
+    want = registry().parse_units(unit).dimensionality
+    raise InputError(f"expected a quantity with units of {want} (e.g. '1 {unit}'), got {text!r}", field=field)
 
 
 def parse_quantity(
@@ -180,22 +203,20 @@ def parse_quantity(
     min_value, positive : optional bounds, checked in ``unit``.
     """
     q = to_quantity(text, field)
-    target = ureg.parse_units(unit)
+    target = registry().parse_units(unit)
     if str(q.units) == "dimensionless" and not (1 * target).dimensionless:
         if require_unit:
-            raise InputError(
-                f"{field}: missing unit in {text!r}; expected a quantity such as '1 {unit}'"
-            )
+            raise InputError(f"missing unit in {text!r}; expected a quantity such as '1 {unit}'", field=field)
         value = float(q.magnitude)
     else:
         value = _convert(q, unit, field, text)
     if not math.isfinite(value):
-        raise InputError(f"{field}: expected a finite value, got {text!r}")
+        raise InputError(f"expected a finite value, got {text!r}", field=field)
     check_magnitude(value, unit, field, text)
     if positive and value <= 0:
-        raise InputError(f"{field}: expected a positive value, got {text!r}")
+        raise InputError(f"expected a positive value, got {text!r}", field=field)
     if min_value is not None and value < min_value:
-        raise InputError(f"{field}: expected at least {min_value:g} {unit}, got {text!r}")
+        raise InputError(f"expected at least {min_value:g} {unit}, got {text!r}", field=field)
     return value
 
 
@@ -203,7 +224,7 @@ def parse_length(text, field: str, *, positive: bool = False, allow_zero: bool =
     """Length in metres; negative lengths are refused."""
     v = parse_quantity(text, "m", field)
     if v < 0 or (positive and v == 0) or (not allow_zero and v == 0):
-        raise InputError(f"{field}: expected a positive length, got {text!r}")
+        raise InputError(f"expected a positive length, got {text!r}", field=field)
     return v
 
 
@@ -211,7 +232,7 @@ def parse_mass(text, field: str) -> float:
     """Mass in kg, not negative."""
     v = parse_quantity(text, "kg", field)
     if v < 0:
-        raise InputError(f"{field}: expected a mass of zero or more, got {text!r}")
+        raise InputError(f"expected a mass of zero or more, got {text!r}", field=field)
     return v
 
 
@@ -224,30 +245,23 @@ def parse_temperature(text, field: str) -> float:
     """Absolute temperature in kelvin from ``"20 degC"``, ``"293.15 K"``, ``"68 degF"``."""
     q = to_quantity(text, field)
     if str(q.units) == "dimensionless":
-        raise InputError(f"{field}: missing unit in {text!r}; expected e.g. '20 degC' or '293 K'")
+        raise InputError(f"missing unit in {text!r}; expected e.g. '20 degC' or '293 K'", field=field)
     try:
         k = float(q.to("K").magnitude)
     except Exception as exc:
-        raise InputError(f"{field}: expected a temperature such as '20 degC', got {text!r}") from exc
+        raise InputError(f"expected a temperature such as '20 degC', got {text!r}", field=field) from exc
     if k <= 0:
-        raise InputError(f"{field}: temperature below absolute zero: {text!r}")
+        raise InputError(f"temperature below absolute zero: {text!r}", field=field)
     check_temperature(k, field, text)
     return k
 
 
-def kelvin_to_celsius(t_k: float) -> float:
-    return t_k - 273.15
-
-
-def celsius_to_kelvin(t_c: float) -> float:
-    return t_c + 273.15
-
-
 def parse_density(text, field: str = "density") -> float:
-    """Density in kg/m^3, refusing values outside 1 to 25000 kg/m^3."""
+    """Density in kg/m^3, refusing values outside :data:`matdb.constants.DENSITY_RANGE_KG_M3`."""
     v = parse_quantity(text, "kg/m^3", field)
-    if not (1.0 <= v <= 25000.0):
-        raise InputError(f"{field}: density {text!r} is outside 1 to 25000 kg/m^3")
+    lo, hi = DENSITY_RANGE_KG_M3
+    if not (lo <= v <= hi):
+        raise InputError(f"density {text!r} is outside {lo:g} to {hi:g} kg/m^3", field=field)
     return v
 
 
@@ -258,17 +272,15 @@ def parse_molar_mass(text, field: str = "molar_mass") -> float:
 
 def format_quantity(value_si: float, si_unit: str, unit: str, digits: int = 4) -> str:
     """Format an SI magnitude in a human unit: ``format_quantity(1.2e-3, "m", "mm")``."""
-    q = Q_(value_si, si_unit)
-    try:
-        mag = q.to(unit).magnitude
-    except pint.DimensionalityError:
-        mag = q.to(unit, "Gaussian").magnitude
+    q = quantity(value_si, si_unit)
+    ctx = () if q.is_compatible_with(unit) else ("Gaussian",)
+    mag = q.to(unit, *ctx).magnitude
     return f"{mag:.{digits}g} {unit}"
 
 
 def tesla_to_gauss(b_t: float) -> float:
     """Flux density in gauss, via pint's Gaussian context."""
-    return float(Q_(b_t, "T").to("gauss", "Gaussian").magnitude)
+    return float(quantity(b_t, "T").to("gauss", "Gaussian").magnitude)
 
 
 # ---------------------------------------------------------------------------
@@ -281,9 +293,7 @@ def parse_convention(unit_text: str, field: str = "unit") -> str:
     key = key.replace("(g.Oe)", "(gOe)").replace("(mol.Oe)", "(molOe)")
     conv = _UNIT_ALIASES.get(key) or _UNIT_ALIASES.get(key.lower())
     if conv is None:
-        raise InputError(
-            f"{field}: unknown susceptibility unit {unit_text!r}; accepted: {ACCEPTED_CHI_UNITS}"
-        )
+        raise InputError(f"unknown susceptibility unit {unit_text!r}; accepted: {ACCEPTED_CHI_UNITS}", field=field)
     return conv
 
 
@@ -297,17 +307,17 @@ def needs_molar_mass(convention: str) -> bool:
 
 def _check_inputs(convention: str, density_kg_m3, molar_mass_kg_mol, what: str) -> None:
     if convention not in CONVENTIONS:
-        raise InputError(f"convention: expected one of {', '.join(CONVENTIONS)}, got {convention!r}")
+        raise InputError(f"expected one of {', '.join(CONVENTIONS)}, got {convention!r}", field="convention")
     if needs_density(convention) and density_kg_m3 is None:
-        raise InputError(f"density: needed to convert {what} {convention}; give e.g. --density '9.78 g/cm^3'")
+        raise InputError(f"needed to convert {what} {convention}; give a density such as '9.78 g/cm^3'",
+                         field="density")
     if needs_molar_mass(convention) and molar_mass_kg_mol is None:
-        raise InputError(
-            f"molar_mass: needed to convert {what} {convention}; give e.g. --molar-mass '208.98 g/mol'"
-        )
+        raise InputError(f"needed to convert {what} {convention}; give a molar mass such as '208.98 g/mol'",
+                         field="molar_mass")
     if density_kg_m3 is not None and not (density_kg_m3 > 0 and math.isfinite(density_kg_m3)):
-        raise InputError(f"density: expected a positive density, got {density_kg_m3!r}")
+        raise InputError(f"expected a positive density, got {density_kg_m3!r}", field="density")
     if molar_mass_kg_mol is not None and not (molar_mass_kg_mol > 0 and math.isfinite(molar_mass_kg_mol)):
-        raise InputError(f"molar_mass: expected a positive molar mass, got {molar_mass_kg_mol!r}")
+        raise InputError(f"expected a positive molar mass, got {molar_mass_kg_mol!r}", field="molar_mass")
 
 
 def chi_to_si_volume(

@@ -18,7 +18,7 @@ from hypothesis import strategies as st
 
 from matdb.errors import InputError
 from matdb.physics.arrangement import Arrangement, Magnet, build_arrangement
-from matdb.units import MU0
+from matdb.constants import MU0
 
 RNG = np.random.default_rng(7)
 CUBE = (0.01, 0.01, 0.01)

@@ -22,7 +22,7 @@ from scipy import integrate, special
 
 from matdb.errors import InputError
 from matdb.physics.fields import CuboidSet, cel, cuboid_B, cylinder_B, dipole_B, ring_B
-from matdb.units import MU0
+from matdb.constants import MU0
 
 RNG = np.random.default_rng(20260202)
 

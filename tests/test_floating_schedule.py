@@ -23,7 +23,7 @@ from scipy.optimize import brentq
 from matdb.design.floating import parse_payload_range, parse_stabilized, to_toml
 from matdb.errors import InputError
 from matdb.physics import stabilized as S
-from matdb.units import MU0
+from matdb.constants import MU0
 
 REPO = Path(__file__).resolve().parent.parent
 EXAMPLE = REPO / "examples" / "floating_magnet.toml"

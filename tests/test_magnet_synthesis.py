@@ -14,7 +14,7 @@ import pytest
 from matdb.analysis import magnet_synthesis as M
 from matdb.design.floating import parse_stabilized, to_toml
 from matdb.physics import stabilized as S
-from matdb.units import MU0
+from matdb.constants import MU0
 
 G = 9.80665  # standard gravity (scipy.constants.g)
 SMALL = dict(floaters=(("cylinder", (6.35, 3.175)), ("cuboid", (5.0, 5.0, 5.0)), ("ring", (12.7, 6.35, 6.35))),

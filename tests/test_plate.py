@@ -25,7 +25,7 @@ from hypothesis import given, settings, strategies as st
 from matdb.errors import InputError
 from matdb.physics import plate as P
 from matdb.physics.arrangement import build_arrangement
-from matdb.units import G_STANDARD, MU0
+from matdb.constants import G_STANDARD, MU0
 
 A = 0.0127  # 1/2 inch cube [m]
 PG = dict(chi_perp_abs=4.5e-4, chi_par_abs=8.5e-5)  # pyrolytic graphite, Simon & Geim (2000)

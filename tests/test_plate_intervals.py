@@ -24,7 +24,7 @@ from scipy.spatial.transform import Rotation
 
 from matdb.physics import plate as P
 from matdb.physics.arrangement import build_arrangement
-from matdb.units import G_STANDARD, MU0
+from matdb.constants import G_STANDARD, MU0
 
 A = 0.0127  # 1/2 inch cube [m]
 PG = (4.5e-4, 8.5e-5)  # |chi_perp|, |chi_par| of pyrolytic graphite, Simon & Geim (2000)

@@ -155,7 +155,7 @@ def _design(tmp_path, **subs) -> Path:
     (lambda t: ("levitate", str(_design(t, **{'"12.7 mm", "12.7 mm"': '"1e308 mm", "12.7 mm"'}))),
      "magnets.size[0]", "100 m"),
     (lambda t: ("levitate", str(EXAMPLE), "--gap", "1e308 m"), "--gap", "100 m"),
-    (lambda t: ("convert", "1e308", "cgs-volume"), "VALUE", "largest accepted susceptibility"),
+    (lambda t: ("convert", "1e308", "cgs-volume"), "value", "largest accepted susceptibility"),
     (lambda t: ("levitate", str(_design(t, **{"rows = 2": "rows = 200", "cols = 2": "cols = 200"}))),
      "magnets.rows", f"limit of {limits.MAX_ROWS_COLS}"),
     (lambda t: ("levitate", str(_design(t, **{"rows = 2": "rows = 20", "cols = 2": "cols = 20"}))),

@@ -16,7 +16,7 @@ from scipy import integrate
 
 from matdb.errors import InputError
 from matdb.physics import stabilized as S
-from matdb.units import MU0
+from matdb.constants import MU0
 
 REPO = Path(__file__).resolve().parent.parent
 EXAMPLE = REPO / "examples" / "floating_magnet.toml"

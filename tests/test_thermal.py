@@ -41,7 +41,7 @@ from matdb.physics.thermal import (
     worst_case_abs_chi,
     worst_case_br,
 )
-from matdb.units import MU0
+from matdb.constants import MU0
 
 C = 273.15  # degC -> K offset (definition of the Celsius scale)
 

@@ -13,7 +13,7 @@ import pytest
 
 from matdb.data import catalog
 from matdb.reporting import presentation
-from matdb.units import G_STANDARD, MU0
+from matdb.constants import G_STANDARD, MU0
 
 pytest.importorskip("streamlit")
 from streamlit.dataframe_util import convert_arrow_bytes_to_pandas_df  # noqa: E402

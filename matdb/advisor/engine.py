@@ -63,10 +63,10 @@ import pandas as pd
 
 from matdb import limits as _limits
 from matdb.errors import InputError
-from matdb.units import G_STANDARD, MU0, parse_length, parse_mass, parse_quantity, parse_temperature
+from matdb.constants import G_STANDARD, MU0, T_REF_K, kelvin_to_celsius
+from matdb.units import parse_length, parse_mass, parse_quantity, parse_temperature
 
 CODE_VERSION = "advisor-1"
-T20_K = 293.15
 
 #: standard cube edges [m] and cylinder (diameter, height) [m] of the default arrangements
 STANDARD_CUBES_M = (6.35e-3, 10e-3, 12.7e-3, 19.05e-3, 25.4e-3)
@@ -116,8 +116,8 @@ class AdviceRequest:
     footprint_m: tuple[float, float]
     plate_m: tuple[float, float]
     min_gap_m: float = 2e-4
-    temp_min_k: float = T20_K
-    temp_max_k: float = T20_K
+    temp_min_k: float = T_REF_K
+    temp_max_k: float = T_REF_K
     budget_usd: float | None = None
     materials: tuple[str, ...] | None = None
     families: tuple[str, ...] | None = None
@@ -705,7 +705,7 @@ class GeometryData:
             knee = TH.KNEE_FRACTION["NdFeB"][0]
             # the idealised (rigid) magnets: their reverse field is a little larger than
             # on the recoil line, so the check errs on the safe side (as levitate's)
-            r = TH.demag_check(self.spec.build(1.0), 1.0, 0.0, "NdFeB", [T20_K])
+            r = TH.demag_check(self.spec.build(1.0), 1.0, 0.0, "NdFeB", [T_REF_K])
             self.hmax = float(r.worst_ratio * knee)
             self.dirty = True
         return self.hmax
@@ -772,12 +772,12 @@ def _fnum(x, none=np.nan) -> float:
 
 
 def _brf(alpha_pct, t_k):
-    return 1.0 + np.asarray(alpha_pct, dtype=float) / 100.0 * (t_k - T20_K)
+    return 1.0 + np.asarray(alpha_pct, dtype=float) / 100.0 * (t_k - T_REF_K)
 
 
 def _lin(coeff, t_k):
     c = np.nan_to_num(np.asarray(coeff, dtype=float), nan=0.0)
-    return 1.0 + c * (t_k - T20_K)
+    return 1.0 + c * (t_k - T_REF_K)
 
 
 def _highest_root_grid(G: np.ndarray, y: np.ndarray, gaps: np.ndarray):
@@ -1102,7 +1102,7 @@ def _evaluate(req: AdviceRequest, cat: _Catalogue) -> pd.DataFrame:
     bad_model = np.zeros(ng, dtype=bool)
     for t in temps:
         bf = _brf(alpha, t)
-        hf = 1.0 + beta / 100.0 * (t - T20_K)
+        hf = 1.0 + beta / 100.0 * (t - T_REF_K)
         bad_model |= (bf <= 0) | (hf <= 0)
         with np.errstate(divide="ignore", invalid="ignore"):
             r = hmax[:, None] * (br * bf)[None, :] / (knee * hcj * hf)[None, :]
@@ -1113,7 +1113,7 @@ def _evaluate(req: AdviceRequest, cat: _Catalogue) -> pd.DataFrame:
     demag_ratio = ratio_g[is_, ig]
     demag_temp = ratio_t[is_, ig]
     demag_risk = demag_ratio >= 1.0
-    too_hot = (req.temp_max_k - 273.15) > tmax_c[ig] + 1e-9
+    too_hot = kelvin_to_celsius(req.temp_max_k) > tmax_c[ig] + 1e-9
 
     # cost
     magnet_mass = vol[is_] * rho_m[ig]
@@ -1157,7 +1157,7 @@ def _evaluate(req: AdviceRequest, cat: _Catalogue) -> pd.DataFrame:
 # plain-words reasons
 # ---------------------------------------------------------------------------
 def _c(t_k: float) -> str:
-    return f"{t_k - 273.15:.0f} C"
+    return f"{kelvin_to_celsius(t_k):.0f} C"
 
 
 def _mm(v: float) -> str:
@@ -1202,7 +1202,7 @@ def reasons_for(row: dict, req: AdviceRequest, cat: _Catalogue) -> tuple[list[st
             if not math.isfinite(row["gap_worst_m"]) and not math.isfinite(row["gap_m"]):
                 reasons.append("it does not float at any gap with this payload")
         if row["too_hot"]:
-            over = req.temp_max_k - 273.15 - grade.max_temp_c
+            over = kelvin_to_celsius(req.temp_max_k) - grade.max_temp_c
             reasons.append(f"{grade.grade} is rated to {grade.max_temp_c:g} C; the range reaches "
                            f"{_c(req.temp_max_k)} ({over:.0f} K over)")
         if row["demag_risk"]:
@@ -1314,9 +1314,9 @@ def exact_evaluation(row: dict, req: AdviceRequest, cat: _Catalogue, *, side: bo
     g_req = max(req.min_gap_m, g_start)
     t_op = t_w = req.temp_max_k
     coeff = mat.temp_coeff_per_k
-    cf = 1.0 if coeff is None else 1.0 + coeff * (t_op - T20_K)
+    cf = 1.0 if coeff is None else 1.0 + coeff * (t_op - T_REF_K)
     a, b = abs(mat.chi_vertical * cf), abs(mat.chi_horizontal * cf)
-    br_op = grade.br_t * (1.0 + grade.alpha_br_pct_per_k / 100.0 * (t_op - T20_K))
+    br_op = grade.br_t * (1.0 + grade.alpha_br_pct_per_k / 100.0 * (t_op - T_REF_K))
     s_op = br_op ** 2 / (2.0 * MU0)
     plate_mass = mat.density_kg_m3 * geom.volume
     payload = max(float(req.payload_for(plate_mass)), 0.0)
@@ -1365,10 +1365,10 @@ def exact_evaluation(row: dict, req: AdviceRequest, cat: _Catalogue, *, side: bo
     fw = 1.0
     if mat.uncertainty_si is not None and ref > 0:
         fw = worst_case_abs_chi(mat.chi_vertical, mat.uncertainty_si) / ref
-    cfw = 1.0 if coeff is None else 1.0 + coeff * (t_w - T20_K)
+    cfw = 1.0 if coeff is None else 1.0 + coeff * (t_w - T_REF_K)
     aw, bw = abs(mat.chi_vertical * cfw) * fw, abs(mat.chi_horizontal * cfw) * fw
     b20 = worst_case_br(grade.br_t, None if grade.br_min_t is None else grade.br_min_t * grade.br_t / grade.br_t)
-    br_w = b20 * (1.0 + grade.alpha_br_pct_per_k / 100.0 * (t_w - T20_K))
+    br_w = b20 * (1.0 + grade.alpha_br_pct_per_k / 100.0 * (t_w - T_REF_K))
     force_w = _scaled_force(g, t, br_w ** 2 / (2.0 * MU0), aw, bw)
     gaps_w, forces_w, gap_w, f1w = _curve(force_w, weight, g_start, 30)
     out["gap_worst_m"] = np.nan if gap_w is None else float(gap_w)
@@ -1506,9 +1506,9 @@ def _screen_tilt(df: pd.DataFrame, idx, req: AdviceRequest, cat: _Catalogue) -> 
             j, f = where[i]
             kk = K[j] * (1 - f) + K[j + 1] * f
             coeff = mat.temp_coeff_per_k
-            cf = 1.0 if coeff is None else 1.0 + coeff * (req.temp_max_k - T20_K)
+            cf = 1.0 if coeff is None else 1.0 + coeff * (req.temp_max_k - T_REF_K)
             a, b = abs(mat.chi_vertical * cf), abs(mat.chi_horizontal * cf)
-            br = grade.br_t * (1.0 + grade.alpha_br_pct_per_k / 100.0 * (req.temp_max_k - T20_K))
+            br = grade.br_t * (1.0 + grade.alpha_br_pct_per_k / 100.0 * (req.temp_max_k - T_REF_K))
             k = br ** 2 * (a * kk[0] + b * kk[1])  # about O; order x, y, roll, pitch
             pm = float(df.at[i, "plate_mass_kg"])
             pl = float(df.at[i, "payload_kg"])

@@ -23,7 +23,7 @@ from matdb.design.plate import PlateDesign
 from matdb.errors import InputError, PhysicsError
 from matdb.physics import dynamics as D
 from matdb.physics import plate as P
-from matdb.units import G_STANDARD
+from matdb.constants import G_STANDARD
 
 CONTRACT_KEYS = ("pressure_pa", "sigma_in_plane_s_m", "sigma_across_s_m", "mass_kg", "modes")
 MODE_KEYS = ("name", "frequency_hz", "q", "q_eddy", "q_air", "ring_down_s",

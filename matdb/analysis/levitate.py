@@ -19,7 +19,7 @@ from matdb.design.plate import PlateDesign
 from matdb.errors import InputError
 from matdb.physics import plate as P
 from matdb.physics import thermal as TH
-from matdb.units import G_STANDARD
+from matdb.constants import G_STANDARD, kelvin_to_celsius
 
 CONTRACT_KEYS = (
     "mode", "floats", "gap_m", "weight_n", "lift_curve", "max_payload_kg", "k_z_n_m",
@@ -242,7 +242,7 @@ def levitate_plate(design: PlateDesign, temp_k: float | None = None,
     out["demag_message"] = demag.message
     if demag.risk:
         warnings.append(demag.message[0].upper() + demag.message[1:] + ".")
-    hot_c = t_hot - 273.15
+    hot_c = kelvin_to_celsius(t_hot)
     for g in {g.grade: g for g in gprops}.values():
         if g.max_temp_c is not None and hot_c > g.max_temp_c:
             warnings.append(f"{g.grade} is rated to {g.max_temp_c:.0f} C; at {hot_c:.0f} C it "

@@ -40,7 +40,7 @@ from scipy.interpolate import CubicSpline
 
 from matdb.errors import InputError
 from matdb.physics import stabilized as S
-from matdb.units import G_STANDARD, MU0
+from matdb.constants import G_STANDARD, MU0, T_REF_K, kelvin_to_celsius
 
 __all__ = [
     "FLOATERS",
@@ -123,7 +123,7 @@ class FMRequest:
     stations: tuple = (1, 2, 3)
     budget_usd: Optional[float] = None
     families: Optional[tuple] = None
-    temperature_k: float = 293.15
+    temperature_k: float = T_REF_K
     clearance_m: float = 0.5e-3
     top: int = 3
     rejected: Optional[int] = None
@@ -366,10 +366,10 @@ def _grades(families, temperature_k):
     from matdb.data.catalog import list_grades
 
     gs = [g for g in list_grades() if (families is None or g.family in families)
-          and (g.max_temp_c is None or g.max_temp_c >= temperature_k - 273.15)]
+          and (g.max_temp_c is None or g.max_temp_c >= kelvin_to_celsius(temperature_k))]
     if not gs:
         raise InputError(f"--family: no magnet grade of {', '.join(families or [])} is rated for "
-                         f"{temperature_k - 273.15:.0f} C")
+                         f"{kelvin_to_celsius(temperature_k):.0f} C")
     # keep the grades no other beats on both remanence (up) and price (down)
     out = []
     for g in gs:
@@ -448,7 +448,7 @@ def search(req: FMRequest, progress: Optional[Callable[[float, str], None]] = No
     alpha = np.array([gr.alpha_br_pct_per_k for gr in grades])
     dens = np.array([gr.density_kg_m3 for gr in grades])
     price = np.array([gr.price_usd_per_kg if gr.price_usd_per_kg is not None else np.nan for gr in grades])
-    dt = req.temperature_k - 293.15
+    dt = req.temperature_k - T_REF_K
     br_t = br * (1 + alpha / 100 * dt)
     mats = []
     for mid in req.materials:

@@ -43,7 +43,7 @@ import numpy as np
 
 from matdb.advisor import engine as A
 from matdb.errors import InputError
-from matdb.units import G_STANDARD, MU0
+from matdb.constants import G_STANDARD, MU0, T_REF_K, kelvin_to_celsius
 
 #: plate side as a fraction of the array's shorter side (an outer loop: lateral stability
 #: over a checkerboard depends mostly on this ratio, and is not monotone in it)
@@ -147,18 +147,18 @@ class _Model:
         self.req, self.mat, self.grade = req, mat, grade
         t_w = req.temp_max_k
         coeff = mat.temp_coeff_per_k
-        cf = 1.0 if coeff is None else 1.0 + coeff * (t_w - A.T20_K)
+        cf = 1.0 if coeff is None else 1.0 + coeff * (t_w - T_REF_K)
         ref = abs(mat.chi_vertical)
         fw = 1.0
         if mat.uncertainty_si is not None and ref > 0:
             fw = max(ref - abs(mat.uncertainty_si), 0.0) / ref
         self.a_w = abs(mat.chi_vertical * cf) * fw
         self.b_w = abs(mat.chi_horizontal * cf) * fw
-        br_op = grade.br_t * (1.0 + grade.alpha_br_pct_per_k / 100.0 * (t_w - A.T20_K))
+        br_op = grade.br_t * (1.0 + grade.alpha_br_pct_per_k / 100.0 * (t_w - T_REF_K))
         self.a_op = abs(mat.chi_vertical * cf) * br_op ** 2  # nominal, times B_r^2 [T^2]
         self.b_op = abs(mat.chi_horizontal * cf) * br_op ** 2
         br_min = grade.br_min_t if grade.br_min_t is not None else grade.br_t
-        br_w = br_min * (1.0 + grade.alpha_br_pct_per_k / 100.0 * (t_w - A.T20_K))
+        br_w = br_min * (1.0 + grade.alpha_br_pct_per_k / 100.0 * (t_w - T_REF_K))
         self.s_w = br_w ** 2 / (2 * MU0)
         self.g_req = max(req.min_gap_m, 5e-5)
         self.memo: dict[tuple, float] = {}
@@ -457,7 +457,7 @@ def check(z: Sizing, req: A.AdviceRequest, mat, grade, require_spare: bool = Tru
             reasons.append(spare_note)
     if res["demag_risk"]:
         reasons.append("irreversible loss of magnetisation at the coldest or hottest temperature")
-    if grade.max_temp_c is not None and req.temp_max_k - 273.15 > grade.max_temp_c + 1e-9:
+    if grade.max_temp_c is not None and kelvin_to_celsius(req.temp_max_k) > grade.max_temp_c + 1e-9:
         reasons.append(f"{grade.grade} is rated to {grade.max_temp_c:g} C")
     if req.budget_usd is not None and not (cost <= req.budget_usd * (1 + 1e-9)):
         reasons.append(f"cost {cost:.2f} USD is over the budget of {req.budget_usd:.2f} USD"

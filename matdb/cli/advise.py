@@ -16,9 +16,12 @@ from __future__ import annotations
 
 import math
 
+from matdb.cli import summary
 from matdb.advisor import engine as A
 from matdb.errors import InputError
 from matdb.output import add_format_argument, check_output_path, emit, to_json
+from matdb import constants
+from matdb.constants import kelvin_to_celsius
 
 TABLE_COLUMNS = ["rank", "material", "grade", "arrangement", "array_mm", "n", "plate_mm", "t_mm", "plate_g",
                  "feasible", "margin", "gap_mm", "gap_worst_mm", "derating_pct", "cost_usd", "score",
@@ -77,7 +80,7 @@ def request_from_args(args, **extra) -> A.AdviceRequest:
 def register(sub) -> None:
     p = sub.add_parser(
         "advise",
-        help="rank plate materials x magnet grades x arrangements for a payload",
+        help=summary("advise"),
         description="Rank every plate material x magnet grade x default arrangement x plate "
         "thickness for a payload: worst-case margin at the required gap, stability, thermal "
         "derating, demagnetisation risk, cost; every rejection with its reason. "
@@ -183,7 +186,7 @@ def cmd_advise(args) -> int:
         pl = "" if len(req.plates) > 1 else " plate"
         print(f"{n_feas} feasible of {len(df)} shown; {what} on {up} "
               f"{req.plate_m[0] * 1e3:.4g} x {req.plate_m[1] * 1e3:.4g} mm{pl}, gap >= "
-              f"{req.min_gap_m * 1e3:.3g} mm, {req.temp_min_k - 273.15:.0f} to {req.temp_max_k - 273.15:.0f} C{env}.")
+              f"{req.min_gap_m * 1e3:.3g} mm, {kelvin_to_celsius(req.temp_min_k):.0f} to {kelvin_to_celsius(req.temp_max_k):.0f} C{env}.")
         dyn = "noise_m_s2_rthz" in df.columns
         rows_t = table_rows(df)
         cols_t = list(TABLE_COLUMNS)
@@ -191,7 +194,7 @@ def cmd_advise(args) -> int:
             for rt, r in zip(rows_t, df.to_dict(orient="records")):
                 q, n = r.get("q_vertical"), r.get("noise_m_s2_rthz")
                 rt["q"] = q if isinstance(q, float) and math.isfinite(q) else None
-                rt["noise_ug"] = n / 9.80665e-6 if isinstance(n, float) and math.isfinite(n) else None
+                rt["noise_ug"] = n / (1e-6 * constants.G_STANDARD) if isinstance(n, float) and math.isfinite(n) else None
                 rt["dyn"] = "exact" if r.get("dynamics_exact") else ("screen" if rt["q"] or rt["noise_ug"] is not None else "-")
             cols_t[cols_t.index("why"):cols_t.index("why")] = ["q", "noise_ug", "dyn"]
         emit(rows_t, "table", cols_t, {**TABLE_HEADERS, "q": "Q vert", "noise_ug": "noise ug/rtHz",

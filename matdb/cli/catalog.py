@@ -4,7 +4,10 @@ from __future__ import annotations
 
 import math
 
+from matdb.cli import summary
 from matdb.data import catalog
+from matdb.data.db import default_url, get_engine
+from matdb.data.seed import seed_database
 from matdb.errors import InputError, NotFoundError
 from matdb.limits import check_chi
 from matdb.output import add_format_argument, emit, format_table, with_marks
@@ -36,34 +39,34 @@ MAGNET_HEADERS = {"br_t": "Br T", "br_min_t": "Br min T", "hcb_ka_m": "Hcb kA/m"
 
 def register(sub) -> None:
     _register_admin(sub)
-    p = sub.add_parser("materials", help="list diamagnetic (and reference paramagnetic) materials")
+    p = sub.add_parser("materials", help=summary("materials"))
     add_format_argument(p)
     p.set_defaults(func=cmd_materials)
 
-    p = sub.add_parser("magnets", help="list permanent-magnet grades")
+    p = sub.add_parser("magnets", help=summary("magnets"))
     p.add_argument("--family", action="append", help="only these families (repeatable)")
     add_format_argument(p)
     p.set_defaults(func=cmd_magnets)
 
-    p = sub.add_parser("sources", help="the bibliography: how many stored values each source supports, by status")
+    p = sub.add_parser("sources", help=summary("sources"))
     p.add_argument("--status", choices=("verified", "corrected", "unverified"),
                    help="only sources that support values of this status")
     add_format_argument(p, choices=("table", "json"))
     p.set_defaults(func=cmd_sources)
 
-    p = sub.add_parser("properties", help="further published properties: resistivity, thermal expansion, ...")
+    p = sub.add_parser("properties", help=summary("properties"))
     p.add_argument("id", nargs="?", help="only this material id or magnet family (e.g. pyrolytic-graphite, NdFeB)")
     add_format_argument(p)
     p.set_defaults(func=cmd_properties)
 
-    p = sub.add_parser("show", help="one material or grade with every value and its provenance")
+    p = sub.add_parser("show", help=summary("show"))
     p.add_argument("id", help="material id (e.g. bismuth) or magnet grade (e.g. N42SH)")
     add_format_argument(p, choices=("table", "json"))
     p.set_defaults(func=cmd_show)
 
     p = sub.add_parser(
         "convert",
-        help="convert a susceptibility between conventions",
+        help=summary("convert"),
         description="Convert a magnetic susceptibility. UNIT: " + ", ".join(CONVENTIONS)
         + ", or m^3/kg, m^3/mol (SI), cm^3/g, cm^3/mol, emu/(g Oe), emu/(mol Oe) (CGS-emu). "
         "Example: matdb convert -280.1e-6 cm^3/mol --density '9.78 g/cm^3' --molar-mass '208.98 g/mol'",
@@ -98,7 +101,7 @@ def cmd_materials(args) -> int:
 
 
 def cmd_magnets(args) -> int:
-    fams = {catalog.check_family(f, "--family") for f in (args.family or [])}
+    fams = {catalog.check_family(f, "family") for f in (args.family or [])}
     rows = [catalog.grade_record(g) for g in catalog.list_grades()]
     if fams:
         rows = [r for r in rows if r["family"] in fams]
@@ -186,8 +189,9 @@ def cmd_show(args) -> int:
         g = catalog.get_grade(key)
     except NotFoundError:
         names = [m.id for m in catalog.list_materials()] + [x.grade for x in catalog.list_grades()]
-        raise NotFoundError(f"id: {key!r} is neither a material id nor a magnet grade"
-                            f"{catalog._close(key, names) or ' (see matdb materials, matdb magnets)'}") from None
+        raise NotFoundError(f"{key!r} is neither a material id nor a magnet grade"
+                            f"{catalog._close(key, names) or ' (see matdb materials, matdb magnets)'}",
+                            field="id") from None
     rec = catalog.grade_record(g)
     values = catalog.grade_values(g.grade)
     props = catalog.list_properties(g.family) + catalog.list_properties(g.grade)
@@ -231,34 +235,37 @@ def convert_chi(value_text: str, unit: str | None, to: str = "si-volume", densit
     if inline_unit and unit:
         a, b = parse_convention(inline_unit, "value"), parse_convention(unit, "unit")
         if a != b:
-            raise InputError(f"unit: VALUE says {inline_unit!r} but UNIT says {unit!r}; give one")
+            raise InputError(f"the unit in VALUE ({inline_unit!r}) differs from {unit!r}; give one", field="unit")
     unit = unit or inline_unit
     if not unit:
-        raise InputError("unit: missing; give the convention or unit of VALUE, e.g. cm^3/mol or si-volume")
+        raise InputError("missing; give the convention or unit of VALUE, e.g. cm^3/mol or si-volume", field="unit")
     src = parse_convention(unit, "unit")
-    dst = parse_convention(to, "--to")
-    rho = parse_density(density, "--density") if density else None
-    mm = parse_molar_mass(molar_mass, "--molar-mass") if molar_mass else None
+    dst = parse_convention(to, "to")
+    rho = parse_density(density, "density") if density else None
+    mm = parse_molar_mass(molar_mass, "molar_mass") if molar_mass else None
     if material:
         m = catalog.get_material(material)
         if rho is not None and abs(rho - m.density_kg_m3) > 0.02 * m.density_kg_m3:
-            raise InputError(f"--density: {density!r} contradicts {m.id}'s density "
-                             f"{m.density_kg_m3:g} kg/m^3 in the database; give one of them")
+            raise InputError(f"{density!r} contradicts {m.id}'s density "
+                             f"{m.density_kg_m3:g} kg/m^3 in the database; give one of them", field="density")
         if mm is not None and m.molar_mass_kg_mol and abs(mm - m.molar_mass_kg_mol) > 0.01 * m.molar_mass_kg_mol:
-            raise InputError(f"--molar-mass: {molar_mass!r} contradicts {m.id}'s molar mass "
-                             f"{m.molar_mass_kg_mol * 1000:g} g/mol in the database; give one of them")
+            raise InputError(f"{molar_mass!r} contradicts {m.id}'s molar mass "
+                             f"{m.molar_mass_kg_mol * 1000:g} g/mol in the database; give one of them",
+                             field="molar_mass")
         rho = rho if rho is not None else m.density_kg_m3
         mm = mm if mm is not None else m.molar_mass_kg_mol
-    for conv, where in ((src, "UNIT"), (dst, "--to")):
+    for conv, where in ((src, "unit"), (dst, "to")):
         if needs_density(conv) and rho is None:
-            raise InputError(f"--density: needed for {conv} ({where}); give e.g. --density '9.78 g/cm^3' or --material ID")
+            raise InputError(f"needed for {conv} ({where}); give a density such as '9.78 g/cm^3' or a "
+                             "material", field="density")
         if needs_molar_mass(conv) and mm is None:
-            raise InputError(f"--molar-mass: needed for {conv} ({where}); give e.g. --molar-mass '208.98 g/mol' or --material ID")
+            raise InputError(f"needed for {conv} ({where}); give a molar mass such as '208.98 g/mol' or a "
+                             "material", field="molar_mass")
     chi_si = chi_to_si_volume(value, src, rho, mm)
-    check_chi(chi_si, "VALUE", f"{value:g} {src}")
+    check_chi(chi_si, "value", f"{value:g} {src}")
     result = chi_from_si_volume(chi_si, dst, rho, mm)
     if not math.isfinite(result):
-        raise InputError(f"--to: {value:g} {src} has no finite value in {dst}")
+        raise InputError(f"{value:g} {src} has no finite value in {dst}", field="to")
     return {"chi_si": chi_si, "value": value, "from": src, "to": dst, "result": result,
             "density_kg_m3": rho, "molar_mass_kg_mol": mm, "material": material}
 
@@ -274,14 +281,11 @@ def cmd_convert(args) -> int:
 
 
 def _register_admin(sub) -> None:
-    p = sub.add_parser("seed", help="create the database if needed and (re)load seed_data/ (idempotent)")
+    p = sub.add_parser("seed", help=summary("seed"))
     p.set_defaults(func=cmd_seed)
 
 
 def cmd_seed(args) -> int:
-    from matdb.data.db import default_url, get_engine
-    from matdb.data.seed import seed_database
-
     url = default_url()
     counts = seed_database(get_engine(url, seed=False))
     shown = url if "@" not in url else url.split("@", 1)[-1]

@@ -9,9 +9,11 @@ from __future__ import annotations
 
 import sys
 
+from matdb.cli import summary
 from matdb.errors import InputError
 from matdb.output import add_format_argument, emit, to_json
 from matdb.units import parse_length, parse_quantity, parse_temperature
+from matdb.constants import kelvin_to_celsius
 
 MODE_COLUMNS = ("name", "frequency_hz", "q", "q_eddy", "q_air", "ring_down_s",
                 "dominant_damping", "noise_m_s2_rthz", "noise_micro_g_rthz")
@@ -36,7 +38,7 @@ def format_dynamics(r: dict) -> str:
          f"{_g(r['sigma_across_s_m'])} S/m  ({r.get('sigma_source')})"),
         ("mass (plate + payload)", f"{r['mass_kg'] * 1e3:.4g} g"),
         ("gap / air gap", f"{r['gap_m'] * 1e3:.4g} mm / {r['air_gap_m'] * 1e3:.4g} mm"),
-        ("temperature", f"{r['temperature_k'] - 273.15:.4g} C"),
+        ("temperature", f"{kelvin_to_celsius(r['temperature_k']):.4g} C"),
         ("mesh", f"{r['mesh_triangles']} triangles, element size {r['mesh_size_m'] * 1e3:.3g} mm"),
     ]
     width = max(len(k) for k, _ in head)
@@ -137,7 +139,7 @@ def register_record_q(rsub) -> None:
 
 def register(subparsers) -> None:
     p = subparsers.add_parser(
-        "dynamics", help="modes, damping, Q, ring-down and noise floor of a floating plate",
+        "dynamics", help=summary("dynamics"),
         description="Rigid-body modes of the floating plate (K v = omega^2 M v), eddy-current "
         "damping (finite elements on the plate outline with its slots and holes), air damping "
         "(squeeze film and shear, rarefied gas) at --pressure, Q, ring-down time and thermal "
@@ -152,7 +154,7 @@ def register(subparsers) -> None:
     add_format_argument(p, choices=("table", "json", "csv"), default="table")
     p.set_defaults(func=cmd_dynamics)
 
-    c = subparsers.add_parser("conductivities", help="electrical conductivities (cited)",
+    c = subparsers.add_parser("conductivities", help=summary("conductivities"),
                               description="Electrical conductivity in use for each material, "
                               "in the plate plane and across it, with its source.")
     add_format_argument(c, choices=("table", "json", "csv"), default="table")

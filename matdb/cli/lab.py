@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import sys
 
+from matdb.cli import summary
 from matdb.data import labvalues
 from matdb.output import add_format_argument, check_output_path, emit
 
@@ -22,7 +23,7 @@ def _common_provenance(p) -> None:
 
 
 def register(sub) -> None:
-    p = sub.add_parser("record", help="append a lab-measured value (handbook values are never changed)")
+    p = sub.add_parser("record", help=summary("record"))
     rsub = p.add_subparsers(dest="what", metavar="WHAT")  # parser class defaults to the parent's
     rsub.required = True
 
@@ -73,18 +74,18 @@ def register(sub) -> None:
     add_format_argument(pg, choices=("table", "json"))
     pg.set_defaults(func=cmd_record_magnet)
 
-    p = sub.add_parser("prefer", help="choose which value of a material or grade is used")
+    p = sub.add_parser("prefer", help=summary("prefer"))
     p.add_argument("id", help="material id or magnet grade")
     p.add_argument("value_id", metavar="VALUE-ID", help="value id shown by 'matdb history ID'")
     add_format_argument(p, choices=("table", "json"))
     p.set_defaults(func=cmd_prefer)
 
-    p = sub.add_parser("history", help="every value of a material or grade with provenance")
+    p = sub.add_parser("history", help=summary("history"))
     p.add_argument("id", help="material id or magnet grade")
     add_format_argument(p)
     p.set_defaults(func=cmd_history)
 
-    p = sub.add_parser("retract", help="hide a wrong measured value from use (it stays in the history)")
+    p = sub.add_parser("retract", help=summary("retract"))
     p.add_argument("value_id", metavar="VALUE-ID", help="value id shown by 'matdb history ID'")
     p.add_argument("--reason", required=True, help="why the value is wrong")
     p.add_argument("--id", dest="subject", help="material id or grade, when VALUE-ID is ambiguous")
@@ -92,7 +93,7 @@ def register(sub) -> None:
     p.set_defaults(func=cmd_retract)
 
     p = sub.add_parser(
-        "import", help="import measured values from a CSV file (all rows checked first)",
+        "import", help=summary("import"),
         description="Columns of a measured-value file: material_id, chi, source (required); temperature, "
         "uncertainty, density, molar_mass, measured_by, date, method, name (new material), "
         "allow_paramagnetic, note (optional). A file written by 'matdb export' is accepted back.")
@@ -101,7 +102,7 @@ def register(sub) -> None:
     add_format_argument(p, choices=("table", "json"))
     p.set_defaults(func=cmd_import)
 
-    p = sub.add_parser("export", help="materials, grades and every value with provenance")
+    p = sub.add_parser("export", help=summary("export"))
     p.add_argument("--format", choices=("csv", "json"), default="csv", help="output format (default csv)")
     p.add_argument("--out", help="write to this file instead of standard output")
     p.set_defaults(func=cmd_export)
@@ -180,15 +181,15 @@ def cmd_retract(args) -> int:
 
 
 def cmd_import(args) -> int:
-    summary = labvalues.import_file(args.file, dry_run=args.dry_run)
+    totals = labvalues.import_file(args.file, dry_run=args.dry_run)
     if args.format == "json":
-        emit(summary, "json")
+        emit(totals, "json")
         return 0
     verb = "checked (dry run, nothing written)" if args.dry_run else "imported"
-    print(f"{verb} {summary['file']}: {summary['added']} values added, {summary['already_present']} already "
-          f"present; {summary['materials_added']} materials, {summary['grades_added']} grades, "
-          f"{summary['sources_added']} sources added; {summary['retracted']} retracted, "
-          f"{summary['preferences_set']} preferences set")
+    print(f"{verb} {totals['file']}: {totals['added']} values added, {totals['already_present']} already "
+          f"present; {totals['materials_added']} materials, {totals['grades_added']} grades, "
+          f"{totals['sources_added']} sources added; {totals['retracted']} retracted, "
+          f"{totals['preferences_set']} preferences set")
     return 0
 
 

@@ -15,10 +15,12 @@ from __future__ import annotations
 import math
 import sys
 
+from matdb.cli import summary
 from matdb.analysis import synthesis as S
 from matdb.errors import InputError
 from matdb.output import add_format_argument, emit, to_json
 from matdb.cli import advise as ADV
+from matdb.constants import kelvin_to_celsius
 
 TABLE_COLUMNS = ["rank", "source", "material", "grade", "arrangement", "array_mm", "n", "plate_mm",
                  "t_mm", "plate_g", "margin", "gap_mm", "gap_worst_mm", "cost_usd", "k_x", "why"]
@@ -40,7 +42,7 @@ def _fm_module():
 def register(sub) -> None:
     p = sub.add_parser(
         "optimise",
-        help="size magnets, arrangement and plate beyond the catalogue",
+        help=summary("optimise"),
         description="Start from the best catalogue candidate of 'matdb advise' and vary the magnet "
         "size (continuous, or from --stock), rows and columns, spacing, plate side and thickness "
         "within the footprint, envelope and budget; every design shown is re-checked exactly as "
@@ -143,8 +145,8 @@ def cmd_optimise(args) -> int:
                 else f"payload {req.mass_kg * 1e3:.4g} g")
         print(f"{len(result.rows)} design(s), each re-checked exactly; {what}, footprint "
               f"{req.footprint_m[0] * 1e3:.4g} x {req.footprint_m[1] * 1e3:.4g} mm, gap >= "
-              f"{req.min_gap_m * 1e3:.3g} mm, {req.temp_min_k - 273.15:.0f} to "
-              f"{req.temp_max_k - 273.15:.0f} C; objective {result.objective}.")
+              f"{req.min_gap_m * 1e3:.3g} mm, {kelvin_to_celsius(req.temp_min_k):.0f} to "
+              f"{kelvin_to_celsius(req.temp_max_k):.0f} C; objective {result.objective}.")
         if result.rows:
             emit(table_rows(result), "table", TABLE_COLUMNS, TABLE_HEADERS)
         if result.start is not None and result.improvement is not None:

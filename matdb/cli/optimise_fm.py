@@ -19,6 +19,7 @@ from contextlib import contextmanager
 
 from matdb.errors import InputError
 from matdb.output import emit, to_json
+from matdb.constants import T_REF_K
 
 CSV_COLUMNS = ["rank", "feasible", "stations", "floater_shape", "floater_size_m", "floater_grade", "lifter_shape",
                "lifter_size_m", "lifter_grade", "material", "thickness_m", "plate_width_m", "plate_distance_m",
@@ -87,7 +88,7 @@ def request_from_args(args):
     prange = parse_payload_range(args.payload_range, "--payload-range")
     win = parse_length(args.min_window, "--min-window", positive=True)
     env = parse_envelope(args.envelope) if getattr(args, "envelope", None) else None
-    temp = parse_temperature(args.temp, "--temp") if getattr(args, "temp", None) else 293.15
+    temp = parse_temperature(args.temp, "--temp") if getattr(args, "temp", None) else T_REF_K
     clearance = parse_length(args.clearance, "--clearance", positive=True)
     budget = None
     if getattr(args, "budget", None) is not None:

@@ -16,10 +16,12 @@ from pathlib import Path
 
 import numpy as np
 
+from matdb.cli import summary
 from matdb.errors import InputError
 from matdb.limits import MAX_FILE_BYTES, MAX_POINTS, check_count, check_magnitude, read_text_limited
 from matdb.output import add_format_argument, emit, to_json
 from matdb.units import parse_length, parse_number, parse_quantity, parse_temperature
+from matdb.constants import kelvin_to_celsius
 
 FIELD_COLUMNS = ("x_m", "y_m", "z_m", "bx_t", "by_t", "bz_t")
 
@@ -149,7 +151,7 @@ def _cold_hot_lines(r: dict) -> list[str]:
 
     def head(s):
         t = s["temperature_k"]
-        return f"{t - 273.15:.4g} C ({t:.5g} K)"
+        return f"{kelvin_to_celsius(t):.4g} C ({t:.5g} K)"
 
     rows = [
         ("", head(cold), head(hot)),
@@ -205,7 +207,7 @@ def format_levitate(r: dict) -> str:
         ("stable square sides", _intervals_mm(r.get("stable_side_intervals_m"))),
         ("lift lost vs 20 C", _num(r["lift_derating_pct"], 1, 3, "%")
          + f"  (at {_num(r.get('derating_temperature_k'), 1, 4)} K = "
-           f"{_num((r.get('derating_temperature_k') or 0) - 273.15, 1, 3)} C)"),
+           f"{_num(kelvin_to_celsius(r.get('derating_temperature_k') or 0), 1, 3)} C)"),
         ("gap drift", _num(r["gap_drift_um_per_k"], 1, 3, "um/K")),
         ("demagnetisation risk", yes(r["demag_risk"])),
         ("worst-case gap", _num(r["gap_worst_m"], 1e3, 4, "mm")),
@@ -215,7 +217,7 @@ def format_levitate(r: dict) -> str:
         ("chi_perp / chi_par (SI)", f"{_num(r.get('chi_perp_si'), 1, 3)} / {_num(r.get('chi_par_si'), 1, 3)}"
          f"  ({r.get('chi_value_kind')})"),
         ("temperature", "-" if r.get("temperature_k") is None
-         else f"{r['temperature_k'] - 273.15:.4g} C ({r['temperature_k']:.5g} K)"),
+         else f"{kelvin_to_celsius(r['temperature_k']):.4g} C ({r['temperature_k']:.5g} K)"),
     ]
     width = max(len(k) for k, _ in rows)
     lines = [f"{k.ljust(width)}  {v}" for k, v in rows]
@@ -298,7 +300,7 @@ def cmd_levitate(args) -> int:
 
 
 def register(subparsers) -> None:
-    p = subparsers.add_parser("field", help="B of a design's magnets at points",
+    p = subparsers.add_parser("field", help=summary("field"),
                               description="Flux density of a design's magnet arrangement "
                               "(Br at 20 C unless --temp) at points: --at 'x,y,z mm' "
                               "(repeatable) and/or --points FILE.csv with columns x_m,y_m,z_m.")
@@ -310,7 +312,7 @@ def register(subparsers) -> None:
     add_format_argument(p, choices=("json", "csv", "table"), default="table")
     p.set_defaults(func=cmd_field)
 
-    q = subparsers.add_parser("levitate", help="does the plate float, where, and is it stable",
+    q = subparsers.add_parser("levitate", help=summary("levitate"),
                               description="Floating-plate analysis of a design: lift curve, "
                               "equilibrium gap, payload, stiffnesses, stability, thermal "
                               "derating, worst case and safety distance. Floating-magnet "

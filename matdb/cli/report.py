@@ -14,6 +14,7 @@ import sys
 import tempfile
 from pathlib import Path
 
+from matdb.cli import summary
 from matdb.errors import InputError
 
 REPORT_KINDS = {".html": "html", ".htm": "html", ".pdf": "pdf"}
@@ -79,7 +80,7 @@ def cmd_drawing(args) -> int:
 
 
 def register(subparsers) -> None:
-    p = subparsers.add_parser("report", help="design report as HTML or PDF",
+    p = subparsers.add_parser("report", help=summary("report"),
                               description="A design report to file with a review: inputs as typed, "
                               "every levitate figure at the coldest, nominal and hottest temperature "
                               "and in the worst case with its method and reference, provenance of "
@@ -92,7 +93,7 @@ def register(subparsers) -> None:
                    help="paper size of the PDF and of printing the HTML (default A4)")
     p.set_defaults(func=cmd_report)
 
-    d = subparsers.add_parser("drawing", help="1:1 drawing (DXF or SVG, millimetres)",
+    d = subparsers.add_parser("drawing", help=summary("drawing"),
                               description="A drawing to cut and assemble from, 1:1 in millimetres: "
                               "plate outline, magnet layout with N/S marks, base outline, centre of "
                               "mass; layers PLATE, MAGNETS, POLARITY, BASE, MARKS. Floating-magnet "

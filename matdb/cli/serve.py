@@ -7,6 +7,7 @@ import subprocess
 import sys
 from pathlib import Path
 
+from matdb.cli import summary
 from matdb.errors import InputError
 
 APP = Path(__file__).resolve().parent.parent.parent / "webapp" / "app.py"
@@ -27,7 +28,7 @@ def serve_command(port: int, app: Path = APP) -> list[str]:
 
 
 def register(sub) -> None:
-    p = sub.add_parser("serve", help="serve the local web page on http://127.0.0.1:PORT")
+    p = sub.add_parser("serve", help=summary("serve"))
     p.add_argument("--port", type=int, default=8501, help="TCP port (default 8501)")
     p.set_defaults(func=cmd_serve)
 

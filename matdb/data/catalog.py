@@ -28,6 +28,7 @@ from matdb.data.models import (
     SusceptibilityValue,
     ValueProvenance,
 )
+from matdb.constants import kelvin_to_celsius
 
 _QUALITY_RANK = {"standard": 0, "handbook": 1, "estimate": 2, "measured": 3}
 _MAGNET_FIELDS = (
@@ -302,7 +303,7 @@ def material_values(material_id: str, url: str | None = None) -> list[dict]:
                 "chi_perp_si": v.chi_perp_si, "chi_par_si": v.chi_par_si,
                 "value_published": v.value_published, "value_par_published": v.value_par_published,
                 "convention": v.convention,
-                "temperature_c": None if v.temperature_k is None else round(v.temperature_k - 273.15, 6),
+                "temperature_c": None if v.temperature_k is None else round(kelvin_to_celsius(v.temperature_k), 6),
                 "uncertainty": v.uncertainty_si, "temp_coeff_per_k": v.temp_coeff_per_k,
                 "density_kg_m3": v.density_kg_m3,
                 "source": (v.source_note or (src.citation if src else v.source_key)),
@@ -472,7 +473,7 @@ def list_properties(subject_id: str | None = None, url: str | None = None) -> li
                 "key": p.key, "subject_kind": p.subject_kind, "subject_id": p.subject_id,
                 "property": p.property, "axis": p.axis, "value_si": p.value_si, "unit_si": p.unit_si,
                 "value_published": p.value_published, "unit_published": p.unit_published,
-                "temperature_c": None if p.temperature_k is None else round(p.temperature_k - 273.15, 6),
+                "temperature_c": None if p.temperature_k is None else round(kelvin_to_celsius(p.temperature_k), 6),
                 "quality": p.quality, "source_key": p.source_key,
                 "source": sources[p.source_key].citation if p.source_key in sources else p.source_key,
                 "note": p.note, "status": pv[0]["status"] if pv else "unverified",

@@ -29,6 +29,7 @@ from sqlmodel import Session, select
 from matdb.data import catalog
 from matdb.data.db import read_session, session_scope
 from matdb.errors import InputError, NotFoundError
+from matdb.constants import ALPHA_MAX_PCT_PER_K, BR_RANGE_T, CHI_MAX_ABS, DENSITY_RANGE_KG_M3, HCJ_MAX_KA_M, kelvin_to_celsius
 from matdb.output import escape_cell, unescape_cell  # noqa: F401  (also used by callers as labvalues.*)
 from matdb.limits import MAX_FILE_BYTES, MAX_IMPORT_BYTES, MAX_IMPORT_ROWS, check_count, check_nesting, read_text_limited
 from matdb.data.models import (
@@ -57,10 +58,7 @@ from matdb.units import (
 
 LAB_SOURCE_KEY = "lab"
 LAB_CITATION = "lab-measured value; see the value's source note"
-CHI_LIMIT = 1e-2  # |chi_v| above this is not a dia- or paramagnet (common practice, no source)
-BR_RANGE_T = (0.05, 1.7)
-HCJ_MAX_KA_M = 5000.0
-ALPHA_MAX_PCT_PER_K = 1.0
+RHO_LO, RHO_HI = DENSITY_RANGE_KG_M3
 SOURCE_KINDS = ("handbook", "standard", "paper", "datasheet", "common-practice", "lab")
 SLUG_RE = re.compile(r"^[a-z0-9]+(-[a-z0-9]+)*$")
 GRADE_RE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._+-]*$")
@@ -132,9 +130,9 @@ def _parse_chi_text(text: Any, label: str, rho: Optional[float], mm: Optional[fl
 
 
 def _check_magnitude(chi: float, label: str, typed: Any) -> None:
-    if abs(chi) > CHI_LIMIT:
+    if abs(chi) > CHI_MAX_ABS:
         raise InputError(f"{label}: |chi| = {abs(chi):.3g} (SI volume) from {_text(typed)!r} is absurd for a "
-                         f"dia- or paramagnet (limit {CHI_LIMIT:g}); check the convention or unit")
+                         f"dia- or paramagnet (limit {CHI_MAX_ABS:g}); check the convention or unit")
     if chi == 0:
         raise InputError(f"{label}: a susceptibility of exactly zero is not a measurement")
 
@@ -158,7 +156,7 @@ def _parse_uncertainty(text: Any, label: str, chi_si: float, conv: str, rho, mm)
     if (needs_density(c) and rho is None) or (needs_molar_mass(c) and mm is None):
         raise InputError(f"{label}: cannot convert {c} without density and molar mass")
     unc = abs(chi_to_si_volume(value, c, rho, mm))
-    if unc > CHI_LIMIT:
+    if unc > CHI_MAX_ABS:
         raise InputError(f"{label}: uncertainty {unc:.3g} (SI volume) is absurd")
     return unc
 
@@ -501,7 +499,7 @@ def record_magnet_value(
         "br_t": br_t,
         "hcj_ka_m": _parse_hcj(hcj, "--hcj") if _given(hcj) else None,
         "alpha_br_pct_per_k": _parse_alpha(alpha, "--alpha") if _given(alpha) else None,
-        "max_temp_c": (parse_temperature(_text(max_temp), "--max-temp") - 273.15) if _given(max_temp) else None,
+        "max_temp_c": kelvin_to_celsius(parse_temperature(_text(max_temp), "--max-temp")) if _given(max_temp) else None,
         "density_kg_m3": parse_density(_text(density), "--density") if _given(density) else None,
     }
     if all(v is None for v in vals.values()):
@@ -616,7 +614,7 @@ def _chi_from_float_gap(material_id: str, gap: Any, design: Any, url: Optional[s
     aniso = m.anisotropic and m.chi_par_si is not None
     one_line = " | ".join(x.strip() for x in content.splitlines() if x.strip() and not x.strip().startswith("#"))
     note = (f"chi from float gap: plate bottom {gap_m * 1000:g} mm above the magnets' top faces over the design "
-            f"{str(path)!r}; magnets at {assumed['temperature_k'] - 273.15:g} C; weight {assumed['weight_n']:.6g} N "
+            f"{str(path)!r}; magnets at {kelvin_to_celsius(assumed['temperature_k']):g} C; weight {assumed['weight_n']:.6g} N "
             f"with density {m.density_kg_m3:g} kg/m^3; lift taken linear in |chi|"
             + (f", chi_par/chi_perp = {assumed['ratio']:.6g} kept from value {m.value_id}" if aniso else "")
             + f"; design: {one_line}")
@@ -642,7 +640,7 @@ def invert_float_gap(gap_m: float, design_path: Path, material) -> tuple[float, 
     from matdb.design.plate import PlateDesign, load_design
     from matdb.analysis.levitate import plate_geometry
     from matdb.physics import plate as P
-    from matdb.units import G_STANDARD
+    from matdb.constants import G_STANDARD
 
     d = load_design(design_path)
     if not isinstance(d, PlateDesign):
@@ -670,7 +668,7 @@ def invert_float_gap(gap_m: float, design_path: Path, material) -> tuple[float, 
         raise InputError(f"--from-float-gap: at {gap_m * 1000:g} mm the lift of this design still rises with "
                          "the gap, so a plate cannot rest there stably; check the gap and the design")
     chi_abs = weight / f1
-    if chi_abs > CHI_LIMIT:
+    if chi_abs > CHI_MAX_ABS:
         raise InputError(f"--from-float-gap: a float at {gap_m * 1000:g} mm needs |chi| = {chi_abs:.3g}, "
                          "absurd for a diamagnet; check the gap and the design")
     return -chi_abs, {"temperature_k": t_k, "ratio": ratio, "weight_n": weight, "unit_lift_n": f1}
@@ -1042,14 +1040,14 @@ def _row_chi(s: Session, c: dict[str, str], mat: _Mat, source_keys: set[str]) ->
         conv = parse_convention(conv, "convention")
         pub = _num(c.get("value_published"), "value_published")
         unc = _num(c.get("uncertainty_si"), "uncertainty_si")
-        if unc is not None and (unc < 0 or unc > CHI_LIMIT):
-            raise InputError(f"uncertainty_si: expected 0 to {CHI_LIMIT:g}, got {unc!r}")
+        if unc is not None and (unc < 0 or unc > CHI_MAX_ABS):
+            raise InputError(f"uncertainty_si: expected 0 to {CHI_MAX_ABS:g}, got {unc!r}")
         t_k = _num(c.get("temperature_k"), "temperature_k")
         if t_k is not None and t_k <= 0:
             raise InputError(f"temperature_k: expected a temperature above 0 K, got {t_k!r}")
         rho = _num(c.get("density_kg_m3"), "density_kg_m3")
-        if rho is not None and not (1 <= rho <= 25000):
-            raise InputError(f"density_kg_m3: density {rho!r} is outside 1 to 25000 kg/m^3")
+        if rho is not None and not (RHO_LO <= rho <= RHO_HI):
+            raise InputError(f"density_kg_m3: density {rho!r} is outside {RHO_LO:g} to {RHO_HI:g} kg/m^3")
         if quality == "measured":
             _require_source(c.get("source"), "source")
         v = SusceptibilityValue(
@@ -1099,15 +1097,15 @@ def _row_magnet(c: dict[str, str], grade: str, source_keys: set[str]) -> MagnetV
     if _given(c.get("alpha")):
         vals["alpha_br_pct_per_k"] = _parse_alpha(c["alpha"], "alpha")
     if _given(c.get("max_temp")):
-        vals["max_temp_c"] = parse_temperature(_text(c["max_temp"]), "max_temp") - 273.15
+        vals["max_temp_c"] = kelvin_to_celsius(parse_temperature(_text(c["max_temp"]), "max_temp"))
     if _given(c.get("density")):
         vals["density_kg_m3"] = parse_density(_text(c["density"]), "density")
     if vals["br_t"] is not None and not (BR_RANGE_T[0] <= vals["br_t"] <= BR_RANGE_T[1]):
         raise InputError(f"br_t: remanence {vals['br_t']} T is outside {BR_RANGE_T[0]} to {BR_RANGE_T[1]} T")
     if vals["hcj_ka_m"] is not None and not (0 < vals["hcj_ka_m"] <= HCJ_MAX_KA_M):
         raise InputError(f"hcj_ka_m: coercivity {vals['hcj_ka_m']} kA/m is implausible")
-    if vals["density_kg_m3"] is not None and not (1 <= vals["density_kg_m3"] <= 25000):
-        raise InputError(f"density_kg_m3: density {vals['density_kg_m3']} is outside 1 to 25000 kg/m^3")
+    if vals["density_kg_m3"] is not None and not (RHO_LO <= vals["density_kg_m3"] <= RHO_HI):
+        raise InputError(f"density_kg_m3: density {vals['density_kg_m3']} is outside {RHO_LO:g} to {RHO_HI:g} kg/m^3")
     if all(v is None for v in vals.values()):
         raise InputError("br_t: no property given")
     v = MagnetValue(grade=grade, quality=quality, source_key=skey, source_note=_text(c.get("source")),
@@ -1257,8 +1255,8 @@ def _plan_import(s: Session, rows: list[tuple[str, dict[str, str]]], label: str)
             if kind not in MATERIAL_KINDS:
                 raise InputError(f"kind: expected one of {', '.join(MATERIAL_KINDS)}, got {kind!r}")
             rho = _num(c.get("density_kg_m3"), "density_kg_m3")
-            if rho is None or not (1 <= rho <= 25000):
-                raise InputError(f"density_kg_m3: expected 1 to 25000 kg/m^3, got {c.get('density_kg_m3')!r}")
+            if rho is None or not (RHO_LO <= rho <= RHO_HI):
+                raise InputError(f"density_kg_m3: expected {RHO_LO:g} to {RHO_HI:g} kg/m^3, got {c.get('density_kg_m3')!r}")
             mm = _num(c.get("molar_mass_kg_mol"), "molar_mass_kg_mol")
             if mm is not None and mm <= 0:
                 raise InputError("molar_mass_kg_mol: expected a positive molar mass")

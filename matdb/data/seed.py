@@ -35,7 +35,8 @@ from matdb.data.models import (
     SusceptibilityValue,
     ValueProvenance,
 )
-from matdb.units import CONVENTIONS, celsius_to_kelvin, chi_to_si_volume, ureg
+from matdb.constants import ALPHA_MAX_PCT_PER_K, BR_RANGE_T, HCJ_MAX_KA_M, CHI_MAX_ABS, DENSITY_RANGE_KG_M3, celsius_to_kelvin
+from matdb.units import CONVENTIONS, chi_to_si_volume, quantity
 
 SLUG_RE = re.compile(r"^[a-z0-9]+(-[a-z0-9]+)*$")
 SOURCE_KINDS = ("handbook", "standard", "paper", "datasheet", "common-practice", "lab")
@@ -241,7 +242,7 @@ def parse_seed(folder: Path | None = None) -> SeedSet:
         if mid in mats:
             raise r.err("id", f"duplicate material id {mid!r}")
         rho = r.num("density_kg_m3", required=True)
-        if not (0.01 <= rho <= 25000):
+        if not (DENSITY_RANGE_KG_M3[0] <= rho <= DENSITY_RANGE_KG_M3[1]):
             raise r.err("density_kg_m3", f"implausible density {rho} kg/m^3")
         mm = r.num("molar_mass_g_mol")
         if mm is not None and mm <= 0:
@@ -285,7 +286,7 @@ def parse_seed(folder: Path | None = None) -> SeedSet:
             unc_si = abs(chi_to_si_volume(unc, conv, m.density_kg_m3, m.molar_mass_kg_mol)) if unc is not None else None
         except InputError as exc:
             raise r.err("convention", str(exc)) from None
-        if abs(chi) > 1e-2:
+        if abs(chi) > CHI_MAX_ABS:
             raise r.err("value_published", f"SI volume susceptibility {chi:.3g} is implausibly large")
         if m.kind == "diamagnetic" and chi >= 0:
             raise r.err("value_published", f"{mid} is diamagnetic but chi = {chi:.3g} >= 0")
@@ -343,12 +344,17 @@ def parse_seed(folder: Path | None = None) -> SeedSet:
         for req in ("br_t", "hcj_ka_m", "alpha_br_pct_per_k", "max_temp_c", "density_kg_m3"):
             if vals[req] is None:
                 raise r.err(req, "required number is empty")
-        if not (0.05 <= vals["br_t"] <= 1.7):
+        if not (BR_RANGE_T[0] <= vals["br_t"] <= BR_RANGE_T[1]):
             raise r.err("br_t", f"implausible remanence {vals['br_t']} T")
         if vals["br_min_t"] is not None and vals["br_min_t"] > vals["br_t"]:
             raise r.err("br_min_t", "minimum Br above nominal Br")
         if vals["hcj_ka_m"] <= 0:
             raise r.err("hcj_ka_m", "expected a positive coercivity")
+        if vals["hcj_ka_m"] > HCJ_MAX_KA_M:
+            raise r.err("hcj_ka_m", f"implausible coercivity {vals['hcj_ka_m']} kA/m")
+        for coef in ("alpha_br_pct_per_k", "beta_hcj_pct_per_k"):
+            if vals[coef] is not None and abs(vals[coef]) > ALPHA_MAX_PCT_PER_K:
+                raise r.err(coef, f"implausible temperature coefficient {vals[coef]} %/K")
         price = vals.pop("price_usd_per_kg")
         out.grades.append(MagnetGrade(grade=grade, family=fam, price_usd_per_kg=price,
                                       price_illustrative=True, note=r.text("note", False), origin="seed"))
@@ -429,7 +435,7 @@ def _parse_properties(folder: Path, out: SeedSet, keys: set[str], material_ids: 
             if PROPERTY_UNITS[prop] == "K" and unit in ("degC", "C", "°C"):
                 si = celsius_to_kelvin(val)
             else:
-                si = float(ureg.Quantity(val, unit).to(PROPERTY_UNITS[prop]).magnitude)
+                si = float(quantity(val, unit).to(PROPERTY_UNITS[prop]).magnitude)
         except Exception as exc:  # pint raises several kinds
             raise r.err("unit_published", f"cannot convert {unit!r} to {PROPERTY_UNITS[prop]} ({exc})") from None
         skey = r.text("source_key")

@@ -53,6 +53,7 @@ from typing import Any, Optional
 
 from matdb.errors import InputError, NotFoundError
 from matdb.units import parse_chi, parse_length, parse_mass, parse_temperature
+from matdb.constants import T_REF_K
 
 __all__ = [
     "DEFAULT_CLEARANCE_M",
@@ -85,7 +86,6 @@ _STATION_KEYS = {"x", "y", "lifter", "floater", "plates", "name"}
 _PAYLOAD_KEYS = {"mass", "centre_of_mass"}
 _CONDITION_KEYS = {"temperature", "temp_min", "temp_max"}
 
-T_REF_K = 293.15
 
 
 @dataclass(frozen=True)

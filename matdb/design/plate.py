@@ -25,8 +25,8 @@ from typing import Any
 from matdb import limits
 from matdb.errors import InputError, NotFoundError
 from matdb.units import parse_chi, parse_length, parse_mass, parse_number, parse_temperature
+from matdb.constants import T_REF_K, kelvin_to_celsius
 
-T20_K = 293.15
 
 MAGNET_KEYS = {"shape", "size", "grade", "br", "pattern", "rows", "cols", "spacing",
                "back_plate", "cover", "item", "rigid"}
@@ -184,12 +184,12 @@ class Conditions:
             return self.temp_max_k
         if self.temp_min_k is not None:
             return self.temp_min_k
-        return T20_K
+        return T_REF_K
 
     def extremes(self, extra_k: float | None = None) -> tuple[float, float]:
         """Coldest and hottest temperature named anywhere (plus ``extra_k``) [K]."""
         ts = [t for t in (self.temperature_k, self.temp_min_k, self.temp_max_k, extra_k)
-              if t is not None] or [T20_K]
+              if t is not None] or [T_REF_K]
         return min(ts), max(ts)
 
 
@@ -643,7 +643,7 @@ def _mm(v: float) -> str:
 
 
 def _temp(v: float) -> str:
-    c = f"{v - 273.15!r} degC"
+    c = f"{kelvin_to_celsius(v)!r} degC"
     return c if parse_temperature(c, "t") == v else f"{v!r} K"
 
 

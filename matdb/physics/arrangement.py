@@ -28,8 +28,9 @@ from typing import Any, Sequence
 import numpy as np
 
 from matdb.errors import InputError
-from matdb.units import MU0
-from matdb.physics.fields import MagnetSet, _as_points
+from matdb.constants import MU0
+from matdb.physics.fields import MagnetSet, as_points
+from matdb.physics.recoil import effective_polarizations
 
 __all__ = ["Magnet", "Arrangement", "build_arrangement", "SHAPES", "PATTERNS"]
 
@@ -268,7 +269,7 @@ class Arrangement:
         :mod:`matdb.physics.fields`). With a back plate, values below the plate surface
         (inside the steel) include the images and have no physical meaning.
         """
-        p = _as_points(points, "points")
+        p = as_points(points, "points")
         return self._fields().B(p)
 
     def _pol_table(self) -> np.ndarray:
@@ -283,7 +284,7 @@ class Arrangement:
 
         J_inside is the polarisation of the real magnet containing the point (0 outside).
         """
-        p = _as_points(points, "points")
+        p = as_points(points, "points")
         b = self._fields().B(p)
         idx = self.inside(p)
         j = np.zeros_like(p)
@@ -297,7 +298,7 @@ class Arrangement:
         Magnets are closed sets (faces count as inside); where magnets touch, the lower
         index wins (the same owner whose inside limit :meth:`B` returns on the face).
         """
-        p = _as_points(points, "points")
+        p = as_points(points, "points")
         idx = self._fields().owner(p)
         idx[idx >= self.count] = -1  # images are not magnets
         return idx
@@ -315,8 +316,6 @@ class Arrangement:
         ``chis[i] = mu_rec - 1`` (its own and its neighbours' demagnetising fields, images
         in the back plate included). ``br`` and ``direction`` of the returned magnets are
         the magnitude and direction of that polarisation. All zeros: ``self``."""
-        from matdb.physics.recoil import effective_polarizations
-
         chis = [_float(c, "mu_rec") for c in chis]
         if len(chis) != self.count:
             raise InputError(f"mu_rec: expected {self.count} values, got {len(chis)}")

@@ -91,7 +91,7 @@ from scipy import constants, linalg
 from scipy.sparse.linalg import splu
 
 from matdb.errors import InputError, PhysicsError
-from matdb.units import MU0
+from matdb.constants import MU0, T_REF_K
 
 FieldFn = Callable[[np.ndarray], np.ndarray]
 
@@ -587,7 +587,7 @@ def eddy_validity(sigma: float, omega: float, thickness: float, size: float) -> 
 # ---------------------------------------------------------------------------
 # air
 # ---------------------------------------------------------------------------
-def mean_free_path(pressure_pa, temperature_k: float = 293.15):
+def mean_free_path(pressure_pa, temperature_k: float = T_REF_K):
     """Mean free path of air [m], ``lambda = lambda_0 (p_0 / p) (T / T_0)``.
 
     References
@@ -595,7 +595,7 @@ def mean_free_path(pressure_pa, temperature_k: float = 293.15):
     .. [1] T. Veijola et al., Sens. Actuators A 48, 239 (1995) (lambda about 69 nm at
        1 atm; 68 nm used here; from memory, verify).
     """
-    return LAMBDA_AIR_1ATM * (P_ATM / np.asarray(pressure_pa, float)) * (temperature_k / 293.15)
+    return LAMBDA_AIR_1ATM * (P_ATM / np.asarray(pressure_pa, float)) * (temperature_k / T_REF_K)
 
 
 def mu_eff_squeeze(mu: float, knudsen):
@@ -626,7 +626,7 @@ def mu_eff_couette(mu: float, knudsen):
     return mu / (1.0 + 2.0 * kn + 0.2 * kn ** 0.788 * np.exp(-kn / 10.0))
 
 
-def air_density(pressure_pa: float, temperature_k: float = 293.15) -> float:
+def air_density(pressure_pa: float, temperature_k: float = T_REF_K) -> float:
     """Ideal-gas density of air ``p M / (R T)`` [kg/m^3]."""
     return pressure_pa * M_AIR / (constants.R * temperature_k)
 
@@ -659,7 +659,7 @@ def squeeze_film_matrix(fp: _FemPlate, gap: float, mu: float, pivot) -> np.ndarr
 
 
 def air_damping_matrix(fp: _FemPlate, area: float, polar: float, gap: float,
-                       pressure_pa: float, omega: float, pivot, temperature_k: float = 293.15,
+                       pressure_pa: float, omega: float, pivot, temperature_k: float = T_REF_K,
                        squeeze_unit: np.ndarray | None = None) -> tuple[np.ndarray, dict]:
     """6 x 6 air damping: squeeze film (z, roll, pitch), Couette shear in the gap and
     Stokes drag on the top face (x, y, yaw), at pressure ``pressure_pa`` and angular

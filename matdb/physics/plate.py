@@ -87,22 +87,23 @@ References
 
 from __future__ import annotations
 
-import bisect
 import math
 from dataclasses import dataclass, replace
-from functools import lru_cache
 from typing import Callable, Sequence
 
 import numpy as np
 from scipy import optimize
+from scipy.interpolate import CubicSpline
+from scipy.spatial.transform import Rotation
 
 from matdb.errors import InputError
-from matdb.units import G_STANDARD, MU0
+from matdb.constants import G_STANDARD, MU0
+from matdb.physics import quadrature as Q
+from matdb.physics.quadrature import GRADING_RATIO, gauss_panels, graded_breaks  # noqa: F401  (public API)
 
 FieldFn = Callable[[np.ndarray], np.ndarray]
 
 DEFAULT_ORDER = 8  # Gauss-Legendre nodes per panel
-GRADING_RATIO = 3.0  # geometric growth of the panels away from an edge line
 CHUNK = 250_000  # points per field call
 MIN_GAP = 5e-5  # lowest gap of the lift curve above the cover [m]
 
@@ -218,104 +219,8 @@ def _dedupe(values: Sequence[float], tol: float = 1e-12) -> tuple[float, ...]:
 
 
 # ---------------------------------------------------------------------------
-# quadrature rules
+# quadrature rules (matdb.physics.quadrature)
 # ---------------------------------------------------------------------------
-_GL: dict[int, tuple[np.ndarray, np.ndarray]] = {}
-
-
-def _gl(n: int) -> tuple[np.ndarray, np.ndarray]:
-    if n not in _GL:
-        _GL[n] = np.polynomial.legendre.leggauss(n)
-    return _GL[n]
-
-
-def graded_breaks(lo: float, hi: float, singular: Sequence[float], scale: float,
-                  ratio: float = GRADING_RATIO) -> np.ndarray:
-    """Panel boundaries on ``[lo, hi]``, graded geometrically towards ``singular`` points.
-
-    Around every point ``s`` the boundaries ``s +- scale * ratio**k`` (k = 0, 1, ...) that
-    fall inside the interval are added, and ``s`` itself when inside. ``scale`` is the
-    distance of the integration line from the singular line (its height above the
-    magnets), which sets the width of the field's variation there. Boundaries are then
-    merged while every panel stays no wider than ``(ratio - 1)`` times its distance from
-    the nearest singular point (at least ``scale``): each panel sees the nearest
-    singularity at about one half-width or more, which keeps Gauss-Legendre converging
-    geometrically, and no panel is narrower than it needs to be.
-
-    Returns
-    -------
-    ndarray
-        Sorted boundaries including ``lo`` and ``hi``.
-
-    References
-    ----------
-    .. [1] P. J. Davis and P. Rabinowitz, Methods of Numerical Integration, 2nd ed.,
-       Academic Press (1984), ch. 2 (Gauss-Legendre and compound rules, subdivision
-       towards singular points).
-    """
-    return np.asarray(_graded_breaks(float(lo), float(hi), tuple(float(v) for v in singular),
-                                     float(scale), float(ratio)))
-
-
-@lru_cache(maxsize=4096)
-def _graded_breaks(lo: float, hi: float, singular: tuple[float, ...], scale: float,
-                   ratio: float) -> tuple[float, ...]:
-    length = hi - lo
-    if not (length > 0):
-        return (lo, hi)
-    sing = sorted(x for x in singular if max(lo - x, x - hi, 0.0) <= 0.5 * length)
-    if scale <= 0 or not sing:
-        return (lo, hi)
-    levels = int(math.ceil(math.log(max(2.0 * length / scale, 1.0)) / math.log(ratio))) + 1
-    steps = [scale * ratio ** k for k in range(levels)]
-    cand = set()
-    for x in sing:
-        if lo < x < hi:
-            cand.add(x)
-        for d in steps:
-            for c in (x - d, x + d):
-                if lo < c < hi:
-                    cand.add(c)
-    inner = sorted(cand)
-    hard = {x for x in sing if lo < x < hi}
-    allowed = ratio - 1.0
-
-    def dist(a: float, b: float) -> float:
-        # distance from the panel [a, b] to the nearest singular point
-        k = bisect.bisect_left(sing, a)
-        if k < len(sing) and sing[k] <= b:
-            return 0.0
-        left = a - sing[k - 1] if k > 0 else math.inf
-        right = sing[k] - b if k < len(sing) else math.inf
-        return min(left, right)
-
-    out = [lo]
-    pts = inner + [hi]
-    tiny = 1e-9 * length
-    for i, p in enumerate(pts[:-1]):
-        nxt = pts[i + 1]
-        if p in hard or (nxt - out[-1]) > allowed * max(dist(out[-1], nxt), scale):
-            if p - out[-1] > tiny:
-                out.append(p)
-    out.append(hi)
-    return tuple(out)
-
-
-def gauss_panels(breaks: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray]:
-    """Composite Gauss-Legendre nodes and weights, ``n`` per panel between ``breaks``.
-
-    References
-    ----------
-    .. [1] P. J. Davis and P. Rabinowitz, Methods of Numerical Integration, 2nd ed.,
-       Academic Press (1984), ch. 2 (Gauss-Legendre and compound rules, subdivision
-       towards singular points).
-    """
-    xi, wi = _gl(n)
-    a, b = breaks[:-1, None], breaks[1:, None]
-    half = 0.5 * (b - a)
-    return ((a + b) * 0.5 + half * xi).ravel(), (half * wi).ravel()
-
-
 def footprint_rule(plate: PlateGeometry, scale: float, order: int = DEFAULT_ORDER
                    ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Quadrature over the footprint, graded for a plane at distance ``scale`` from the
@@ -333,24 +238,13 @@ def footprint_rule(plate: PlateGeometry, scale: float, order: int = DEFAULT_ORDE
        towards singular points).
     """
     if plate.shape == "rectangle":
-        xb = graded_breaks(plate.cx - plate.lx / 2, plate.cx + plate.lx / 2, plate.breaks_x, scale)
-        yb = graded_breaks(plate.cy - plate.ly / 2, plate.cy + plate.ly / 2, plate.breaks_y, scale)
-        x, wx = gauss_panels(xb, order)
-        y, wy = gauss_panels(yb, order)
+        x, wx = Q.graded_rule(plate.cx - plate.lx / 2, plate.cx + plate.lx / 2, plate.breaks_x,
+                              scale, order)
+        y, wy = Q.graded_rule(plate.cy - plate.ly / 2, plate.cy + plate.ly / 2, plate.breaks_y,
+                              scale, order)
         return (np.repeat(x, y.size), np.tile(y, x.size), np.outer(wx, wy).ravel())
-    r = plate.lx / 2
-    xb = graded_breaks(plate.cx - r, plate.cx + r, plate.breaks_x, scale)
-    phib = np.arcsin(np.clip((xb - plate.cx) / r, -1.0, 1.0))
-    phi, wphi = gauss_panels(phib, order)
-    half = r * np.cos(phi)
-    xs, ys, ws = [], [], []
-    for p, wp, c in zip(phi, wphi, half):  # builds nodes only; the field call is vectorised
-        yb = graded_breaks(plate.cy - c, plate.cy + c, plate.breaks_y, scale)
-        y, wy = gauss_panels(yb, order)
-        xs.append(np.full(y.size, plate.cx + r * math.sin(p)))
-        ys.append(y)
-        ws.append(wy * wp * c)  # dx = R cos(phi) dphi
-    return np.concatenate(xs), np.concatenate(ys), np.concatenate(ws)
+    return Q.disc_rule(plate.cx, plate.cy, plate.lx / 2, plate.breaks_x, plate.breaks_y, scale,
+                       order)
 
 
 def _z_rule(z_lo: float, z_hi: float, order: int) -> tuple[np.ndarray, np.ndarray]:
@@ -362,8 +256,7 @@ def _z_rule(z_lo: float, z_hi: float, order: int) -> tuple[np.ndarray, np.ndarra
        Academic Press (1984), ch. 2 (Gauss-Legendre and compound rules, subdivision
        towards singular points).
     """
-    zb = graded_breaks(z_lo, z_hi, [0.0], max(z_lo, 1e-9))
-    return gauss_panels(zb, order)
+    return Q.graded_rule(z_lo, z_hi, (0.0,), max(z_lo, 1e-9), order)
 
 
 def side_rule(plate: PlateGeometry, z_lo: float, z_hi: float, order: int = DEFAULT_ORDER
@@ -386,10 +279,10 @@ def side_rule(plate: PlateGeometry, z_lo: float, z_hi: float, order: int = DEFAU
     scale = max(z_lo, 1e-9)
     pts, nrm, wts = [], [], []
     if plate.shape == "rectangle":
-        yb = graded_breaks(plate.cy - plate.ly / 2, plate.cy + plate.ly / 2, plate.breaks_y, scale)
-        xb = graded_breaks(plate.cx - plate.lx / 2, plate.cx + plate.lx / 2, plate.breaks_x, scale)
-        y, wy = gauss_panels(yb, order)
-        x, wx = gauss_panels(xb, order)
+        y, wy = Q.graded_rule(plate.cy - plate.ly / 2, plate.cy + plate.ly / 2, plate.breaks_y,
+                              scale, order)
+        x, wx = Q.graded_rule(plate.cx - plate.lx / 2, plate.cx + plate.lx / 2, plate.breaks_x,
+                              scale, order)
         yy, zy = np.repeat(y, z.size), np.tile(z, y.size)
         xx, zx = np.repeat(x, z.size), np.tile(z, x.size)
         wyz, wxz = np.outer(wy, wz).ravel(), np.outer(wx, wz).ravel()
@@ -416,8 +309,7 @@ def side_rule(plate: PlateGeometry, z_lo: float, z_hi: float, order: int = DEFAU
             a = math.asin(u)
             cross += [a % (2 * math.pi), math.pi - a]
     cross = [c + k * 2 * math.pi for c in cross for k in (-1, 0, 1)]
-    pb = graded_breaks(0.0, 2 * math.pi, cross, scale / r)
-    phi, wphi = gauss_panels(pb, order)
+    phi, wphi = Q.graded_rule(0.0, 2 * math.pi, cross, scale / r, order)
     cph, sph = np.cos(phi), np.sin(phi)
     pp = np.column_stack([np.repeat(plate.cx + r * cph, z.size),
                           np.repeat(plate.cy + r * sph, z.size), np.tile(z, phi.size)])
@@ -615,19 +507,6 @@ def vertical_stiffness(field: FieldFn, plate: PlateGeometry, gap: float, chi_per
 # ---------------------------------------------------------------------------
 # forces and torques at any small pose
 # ---------------------------------------------------------------------------
-def _rotations(rotvecs: np.ndarray) -> np.ndarray:
-    """Rotation matrices (P, 3, 3) from rotation vectors (P, 3) [rad] (Rodrigues)."""
-    theta = np.linalg.norm(rotvecs, axis=1)
-    safe = np.where(theta > 0, theta, 1.0)
-    k = rotvecs / safe[:, None]
-    kx = np.zeros((rotvecs.shape[0], 3, 3))
-    kx[:, 0, 1], kx[:, 0, 2] = -k[:, 2], k[:, 1]
-    kx[:, 1, 0], kx[:, 1, 2] = k[:, 2], -k[:, 0]
-    kx[:, 2, 0], kx[:, 2, 1] = -k[:, 1], k[:, 0]
-    s, c = np.sin(theta)[:, None, None], np.cos(theta)[:, None, None]
-    return np.eye(3)[None] + s * kx + (1 - c) * (kx @ kx)
-
-
 def generalized_forces_split(field: FieldFn, plate: PlateGeometry, gap: float, pivot,
                              poses, order: int = DEFAULT_ORDER) -> np.ndarray:
     """Force and torque on the plate at several rigid poses, split by chi component.
@@ -665,7 +544,7 @@ def generalized_forces_split(field: FieldFn, plate: PlateGeometry, gap: float, p
     pivot = np.asarray(pivot, dtype=float)
     sp, sn, sw = surface_rule(plate, gap, order)
     vp, vw = volume_rule(plate, gap, order)
-    rot = _rotations(poses[:, 3:])  # (P, 3, 3)
+    rot = Rotation.from_rotvec(poses[:, 3:]).as_matrix()  # (P, 3, 3)
     centre = pivot[None, :] + poses[:, :3]  # displaced pivot (P, 3)
     # transformed points (P, m, 3)
     sp_t = centre[:, None, :] + np.einsum("pij,mj->pmi", rot, sp - pivot)
@@ -706,7 +585,7 @@ def stored_energy_split(field: FieldFn, plate: PlateGeometry, gap: float, pivot,
     poses = np.atleast_2d(np.asarray(poses, dtype=float))
     pivot = np.asarray(pivot, dtype=float)
     vp, vw = volume_rule(plate, gap, order)
-    rot = _rotations(poses[:, 3:])
+    rot = Rotation.from_rotvec(poses[:, 3:]).as_matrix()
     centre = pivot[None, :] + poses[:, :3]
     vp_t = centre[:, None, :] + np.einsum("pij,mj->pmi", rot, vp - pivot)
     b = _eval_field(field, vp_t.reshape(-1, 3)).reshape(vp_t.shape)
@@ -1040,8 +919,6 @@ def equilibrium_gap(field: FieldFn, plate: PlateGeometry, chi_perp_abs: float,
     ----------
     .. [1] M. D. Simon and A. K. Geim, J. Appl. Phys. 87, 6200 (2000).
     """
-    from scipy.interpolate import CubicSpline
-
     top = lift_curve_range(field, plate, chi_perp_abs, chi_par_abs, weight, g_start, 3e-3, order)
     gaps = np.geomspace(g_start, top, n_gaps)
     forces = lift_force(field, plate, gaps, chi_perp_abs, chi_par_abs, order)

@@ -57,7 +57,7 @@ from scipy.interpolate import CubicSpline
 from scipy.optimize import brentq
 
 from matdb.errors import InputError, PhysicsError
-from matdb.units import G_STANDARD, MU0
+from matdb.constants import G_STANDARD, MU0, T_REF_K
 from matdb.physics.fields import MagnetSet
 
 __all__ = [
@@ -1251,7 +1251,7 @@ def lift_temperature_slope(st, temp_k: float) -> float:
     ``dT = T - 20 C`` (linear law of IEC 60404-8-1). The plates do not enter: at the
     symmetric plate position their vertical forces cancel.
     """
-    dt = float(temp_k) - 293.15
+    dt = float(temp_k) - T_REF_K
     out = 0.0
     for a in (st.lifter.alpha_br_pct_per_k, st.floater.alpha_br_pct_per_k):
         out += a / (100.0 + a * dt)

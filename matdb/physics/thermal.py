@@ -29,8 +29,8 @@ import numpy as np
 from scipy.optimize import brentq
 
 from matdb.errors import InputError, PhysicsError
+from matdb.constants import T_REF_K, kelvin_to_celsius
 
-T_REF_K = 293.15  # 20 C, the reference temperature of catalogue magnet data [K]
 
 # ---------------------------------------------------------------------------
 # reversible temperature dependence
@@ -422,7 +422,7 @@ def _rescaled(arrangement, factors: np.ndarray):
 
 
 def _celsius(t_k: float) -> str:
-    return f"{t_k - 273.15:.0f} C"
+    return f"{kelvin_to_celsius(t_k):.0f} C"
 
 
 def demag_check(

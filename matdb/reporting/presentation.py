@@ -31,7 +31,8 @@ import pandas as pd
 from matdb.data import catalog
 from matdb.errors import InputError
 from matdb.output import csv_text
-from matdb.units import CONVENTIONS, G_STANDARD, MU0, chi_from_si_volume
+from matdb.constants import G_STANDARD, MU0, celsius_to_kelvin, kelvin_to_celsius
+from matdb.units import CONVENTIONS, chi_from_si_volume
 
 # ---------------------------------------------------------------------------
 # susceptibility conventions as people read them
@@ -122,7 +123,7 @@ def fmt_temperature_c(value_k) -> str:
     """A temperature given in kelvin, shown in degrees Celsius to 0.1 degC."""
     if _is_missing(value_k):
         return MISSING
-    return f"{float(value_k) - 273.15:.1f} degC"
+    return f"{kelvin_to_celsius(float(value_k)):.1f} degC"
 
 
 def unit_label(label: str, unit: str) -> str:
@@ -439,7 +440,7 @@ def grade_temperature_curves(grades_df: pd.DataFrame, grades: Sequence[str],
 
     if not (math.isfinite(t_min_c) and math.isfinite(t_max_c)) or t_min_c >= t_max_c:
         raise InputError(f"temperature range: expected min < max, got {t_min_c!r} to {t_max_c!r} degC")
-    if t_min_c <= -273.15:
+    if celsius_to_kelvin(t_min_c) <= 0:
         raise InputError(f"temperature range: {t_min_c!r} degC is below absolute zero")
     if n < 2:
         raise InputError(f"n: expected at least 2 temperatures, got {n!r}")
@@ -448,7 +449,7 @@ def grade_temperature_curves(grades_df: pd.DataFrame, grades: Sequence[str],
     if unknown:
         raise InputError(f"grades: unknown grade(s) {', '.join(unknown)}")
     t_c = np.linspace(float(t_min_c), float(t_max_c), int(n))
-    t_k = t_c + 273.15
+    t_k = celsius_to_kelvin(t_c)
     parts = []
     by = grades_df.set_index("grade")
     for g in grades:
@@ -597,7 +598,7 @@ def form_fields_from_design(design) -> dict | None:
 
     def _t(v: float) -> str:
         for digits in range(1, 17):
-            t = f"{v - 273.15:.{digits}g} degC"
+            t = f"{kelvin_to_celsius(v):.{digits}g} degC"
             if parse_temperature(t, "temperature") == v:
                 return t
         return _temp(v)
@@ -728,7 +729,7 @@ def _temp_pair(result: dict, key: str, scale: float = 1.0) -> str:
     c, h = result.get("cold") or {}, result.get("hot") or {}
     vals = [c.get(key), h.get(key)]
     if key == "temperature_k":
-        return " / ".join("-" if v is None else f"{v - 273.15:.4g}" for v in vals)
+        return " / ".join("-" if v is None else f"{kelvin_to_celsius(v):.4g}" for v in vals)
     return " / ".join("-" if v is None else _human(v * scale) for v in vals)
 
 

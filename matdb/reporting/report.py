@@ -27,10 +27,10 @@ from typing import Any, Callable
 
 from matdb import __version__
 from matdb.errors import InputError, PhysicsError
+from matdb.constants import kelvin_to_celsius
 
 PAPERS = ("A4", "Letter")
 CASES = ("coldest", "nominal", "hottest", "worst")
-T0_K = 273.15
 REPORT_MAP_N = 31  # field-map grid of the report (n x n cells: the SVG and the PDF grow with n^2)
 REPORT_SCAN_N = 8  # square sides of the stability chart (as stable_side_max scans)
 
@@ -257,7 +257,7 @@ def cell(value: Any, key: str, case: str, unit: str, scale: float) -> dict:
                 "si": "true" if value else "false", "unit": "yes/no"}
     if isinstance(value, (int, float)):
         if unit == "degC":
-            shown = float(value) - T0_K
+            shown = kelvin_to_celsius(float(value))
         else:
             shown = float(value) * scale
         text = str(int(value)) if isinstance(value, int) else fmt_number(shown)
@@ -616,7 +616,7 @@ def build_report(text: str, *, source_name: str = "design.toml", url: str | None
         "version": __version__,
         "db_fingerprint": database_fingerprint(url),
         "date": (now or _dt.datetime.now(_dt.timezone.utc)).strftime("%Y-%m-%d %H:%M UTC"),
-        "temps": [{"case": c, "k": t, "c": t - T0_K} for c, t in
+        "temps": [{"case": c, "k": t, "c": kelvin_to_celsius(t)} for c, t in
                   (("coldest", t_cold), ("nominal", t_nom), ("hottest", t_hot))],
         "figures": _figure_rows(results, figures, *(
             ("Floating-plate analysis.", "matdb.analysis.levitate.levitate_plate") if mode == "plate" else
