@@ -37,7 +37,7 @@ CACHE_VERSION = "1"
 
 _HERE = Path(__file__).resolve().parent.parent
 #: Folders and modules whose source feeds the cached results.
-_CODE = ("physics", "analysis", "design", "advisor", "data/catalog.py", "units.py", "limits.py")
+_CODE = ("physics", "analysis", "design", "advisor", "data/catalog.py", "units.py", "constants.py", "limits.py")
 #: Top-level design fields that do not change a result.
 _NOT_CONTENT = ("name", "description", "source")
 
@@ -68,7 +68,7 @@ def code_fingerprint() -> str:
         h = hashlib.sha256(CACHE_VERSION.encode())
         for part in _CODE:
             p = _HERE / part
-            files = sorted(p.rglob("*.py")) if p.is_dir() else [p]
+            files = sorted(p.rglob("*.py")) if p.is_dir() else [p] if p.is_file() else []
             for f in files:
                 h.update(str(f.relative_to(_HERE)).encode())
                 h.update(f.read_bytes())
