@@ -186,18 +186,18 @@ except ImportError:  # pragma: no cover - another Streamlit version: charts are 
 
 
 @st.cache_data(show_spinner=False, max_entries=256)
-def _chart_spec(key: tuple, _build) -> dict:
+def _chart_spec(content: tuple, _build) -> dict:
     return _to_vega_lite(_build())
 
 
-def chart(key: tuple, build, where=None, **kwargs):
+def chart(content: tuple, build, where=None, **kwargs):
     """Show the Altair chart ``build()`` (``st.altair_chart`` arguments in ``kwargs``),
-    built and converted once per ``key``: a tuple naming everything the chart is drawn
+    built and converted once per ``content``: a tuple naming everything the chart is drawn
     from (content keys of results, form values). ``where``: a column or container."""
     where = st if where is None else where
     if _to_vega_lite is None:
         return where.altair_chart(build(), **kwargs)
-    return where.vega_lite_chart(_chart_spec(key, build), **kwargs)
+    return where.vega_lite_chart(_chart_spec(content, build), **kwargs)
 
 
 #: Functions that forget cached values after a database write, by name (modules that cache more add theirs).
