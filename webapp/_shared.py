@@ -5,12 +5,14 @@ comes from a public matdb function."""
 from __future__ import annotations
 
 import cProfile
+import hashlib
 import os
 import re
 import threading
 from contextlib import contextmanager
 from pathlib import Path
 
+import pandas as pd
 import streamlit as st
 
 from matdb.data import catalog
@@ -188,6 +190,15 @@ except ImportError:  # pragma: no cover - another Streamlit version: charts are 
 @st.cache_data(show_spinner=False, max_entries=256)
 def _chart_spec(content: tuple, _build) -> dict:
     return _to_vega_lite(_build())
+
+
+def frame_key(df) -> str | None:
+    """Content key of a DataFrame (values, index and column names) for :func:`chart`."""
+    if df is None:
+        return None
+    h = hashlib.sha256(pd.util.hash_pandas_object(df, index=True).to_numpy().tobytes())
+    h.update(repr(list(df.columns)).encode())
+    return h.hexdigest()
 
 
 def chart(content: tuple, build, where=None, **kwargs):

@@ -53,25 +53,30 @@ pts["lo"] = pts["chi_si"] - pts["uncertainty"].fillna(0.0)
 pts["hi"] = pts["chi_si"] + pts["uncertainty"].fillna(0.0)
 pts["status"] = ["in use" if p else "retracted" if r else "kept" for p, r in zip(pts["preferred"], pts["retracted"])]
 pts["uncertainty_text"] = [P.fmt_chi(u) if u == u else "not stated" for u in pts["uncertainty"]]
-y_lo, y_hi = P.padded_domain(pts["lo"], pts["hi"])
-y_scale = alt.Scale(domain=[y_lo, y_hi], zero=False, nice=False)
-STATUS = ["in use", "kept", "retracted"]
-base = alt.Chart(pts).encode(x=alt.X("label:N", title="value (id and kind), oldest first", sort=list(pts["label"]),
-                                     axis=alt.Axis(labelAngle=0)))
-with_unc = base.transform_filter("datum.hi > datum.lo")
-bars = with_unc.mark_rule(strokeWidth=2.5, color="#444444").encode(
-    y=alt.Y("lo:Q", title="chi (SI volume, dimensionless)", scale=y_scale, axis=alt.Axis(format=".2e")), y2="hi:Q")
-caps_lo = with_unc.mark_tick(thickness=2.5, size=18, color="#444444").encode(y=alt.Y("lo:Q", scale=y_scale))
-caps_hi = with_unc.mark_tick(thickness=2.5, size=18, color="#444444").encode(y=alt.Y("hi:Q", scale=y_scale))
-dots = base.mark_point(filled=True, size=140, opacity=1).encode(
-    y=alt.Y("chi_si:Q", scale=y_scale),
-    color=alt.Color("status:N", title="status", scale=alt.Scale(domain=STATUS, range=["#1b7837", "#3d6fb6", "#999999"])),
-    shape=alt.Shape("status:N", title="status", scale=alt.Scale(domain=STATUS, range=["diamond", "circle", "cross"])),
-    tooltip=[alt.Tooltip("value_id:Q", title="value id"), alt.Tooltip("value_kind:N", title="kind"),
-             alt.Tooltip("chi_si:Q", title="chi (SI volume)", format=".3e"),
-             alt.Tooltip("uncertainty_text:N", title="uncertainty (SI volume)"), "status:N", "source:N"])
-st.altair_chart(alt.layer(bars, caps_lo, caps_hi, dots).properties(
-    height=260, title="Susceptibility values of this material with their stated uncertainty"), width="stretch")
+def values_chart():
+    """Every value of the material with its stated uncertainty, the one in use marked."""
+    y_lo, y_hi = P.padded_domain(pts["lo"], pts["hi"])
+    y_scale = alt.Scale(domain=[y_lo, y_hi], zero=False, nice=False)
+    STATUS = ["in use", "kept", "retracted"]
+    base = alt.Chart(pts).encode(x=alt.X("label:N", title="value (id and kind), oldest first", sort=list(pts["label"]),
+                                         axis=alt.Axis(labelAngle=0)))
+    with_unc = base.transform_filter("datum.hi > datum.lo")
+    bars = with_unc.mark_rule(strokeWidth=2.5, color="#444444").encode(
+        y=alt.Y("lo:Q", title="chi (SI volume, dimensionless)", scale=y_scale, axis=alt.Axis(format=".2e")), y2="hi:Q")
+    caps_lo = with_unc.mark_tick(thickness=2.5, size=18, color="#444444").encode(y=alt.Y("lo:Q", scale=y_scale))
+    caps_hi = with_unc.mark_tick(thickness=2.5, size=18, color="#444444").encode(y=alt.Y("hi:Q", scale=y_scale))
+    dots = base.mark_point(filled=True, size=140, opacity=1).encode(
+        y=alt.Y("chi_si:Q", scale=y_scale),
+        color=alt.Color("status:N", title="status", scale=alt.Scale(domain=STATUS, range=["#1b7837", "#3d6fb6", "#999999"])),
+        shape=alt.Shape("status:N", title="status", scale=alt.Scale(domain=STATUS, range=["diamond", "circle", "cross"])),
+        tooltip=[alt.Tooltip("value_id:Q", title="value id"), alt.Tooltip("value_kind:N", title="kind"),
+                 alt.Tooltip("chi_si:Q", title="chi (SI volume)", format=".3e"),
+                 alt.Tooltip("uncertainty_text:N", title="uncertainty (SI volume)"), "status:N", "source:N"])
+    return alt.layer(bars, caps_lo, caps_hi, dots).properties(
+        height=260, title="Susceptibility values of this material with their stated uncertainty")
+
+
+sh.chart(("lab values", sh.frame_key(pts)), values_chart, width="stretch")
 st.caption("Bars with end caps: stated uncertainty (none drawn where the source states none). Diamond: the value in "
            "use; circles: kept; crosses: retracted. Nothing is ever deleted: retracted values stay.")
 hist["chi_si_check"] = presentation.value_check_marks(hist.to_dict("records"))

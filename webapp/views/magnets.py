@@ -74,11 +74,13 @@ else:
         # two charts in two columns that follow the screen width (a fixed-width pair ran past a 1000 px page)
         legend = dict(orient="bottom", columns=2, labelLimit=160, titleLimit=200)
         p1, p2 = st.columns(2)
-        p1.altair_chart(panel("br_t", "Br (T)", ".2f", "Remanence against temperature")
-                        .properties(width="container").configure_legend(**legend), width="stretch")
-        p2.altair_chart(panel("relative_lift", "relative lift (Br/Br at 20 degC)^2, %", ".0%",
-                              "Lift over a diamagnet, relative to 20 degC")
-                        .properties(width="container").configure_legend(**legend), width="stretch")
+        content = (sh.frame_key(curves), sh.frame_key(marks), tuple(chosen))
+        sh.chart(("magnets Br",) + content, lambda: panel("br_t", "Br (T)", ".2f", "Remanence against temperature")
+                 .properties(width="container").configure_legend(**legend), p1, width="stretch")
+        sh.chart(("magnets lift",) + content,
+                 lambda: panel("relative_lift", "relative lift (Br/Br at 20 degC)^2, %", ".0%",
+                               "Lift over a diamagnet, relative to 20 degC")
+                 .properties(width="container").configure_legend(**legend), p2, width="stretch")
         st.caption(
             "Br(T) = Br20 (1 + alpha/100 (T - 20 degC)) from each grade's reversible coefficient; lift over a "
             "diamagnet scales with B^2, so with Br^2. Each grade has its own colour and marker shape. Open "
