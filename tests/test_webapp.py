@@ -345,7 +345,7 @@ def test_advisor_choice_opens_on_the_design_page():
     table = _table(at, "reasons_text")
     second = int(table["rank"].iloc[1])
     _candidate_box(at).set_value(second).run()
-    at.button(key="adv_open").click().run()
+    at.button(key="adv_open").click().run(timeout=600)  # computes the candidate: minutes on a loaded machine
     assert not at.exception, [e.message for e in at.exception]
     assert at.title[0].value == "Design"
     row = table.iloc[1]

@@ -13,7 +13,9 @@ analysis modules.
 from __future__ import annotations
 
 import logging
+import os
 import threading
+import time
 from collections import OrderedDict
 
 import streamlit as st
@@ -111,37 +113,75 @@ def _compute(call: cache.CachedCall, run):
         done.set()
 
 
-def result_of(call: cache.CachedCall, label: str = "Working...", bar=None):
+def result_of(call: cache.CachedCall, label: str = "Working...", bar=None, how: dict | None = None):
     """The result of ``call``: from memory, else from disk, else computed under a progress
-    bar (``label``; the advisor's progress reports move it)."""
+    bar (``label``; the advisor's progress reports move it). ``how``, when given, receives
+    ``computed`` (True when computed by this call or a background one it waited for) and
+    ``seconds`` (time spent here)."""
+    t0 = time.perf_counter()
+    computed = False
     if _RESULTS.cached(call.key):
-        return _RESULTS.get(call.key)
-    if call.cached():
-        return _compute(call, call)
+        value = _RESULTS.get(call.key)
+    elif call.cached():
+        value = _compute(call, call)
+    else:
+        computed = True
 
-    def run(report):
-        with advisor_engine.reporting_progress(report):
-            return call()
+        def run(report):
+            with advisor_engine.reporting_progress(report):
+                return call()
 
-    return _with_bar(lambda report: _compute(call, lambda: run(report)), label, bar)
+        value = _with_bar(lambda report: _compute(call, lambda: run(report)), label, bar)
+    if how is not None:
+        how.update(computed=computed, seconds=time.perf_counter() - t0)
+    return value
+
+
+def provenance_text(how: dict) -> str:
+    """One line saying whether a result was computed now or read from the results cache."""
+    if how.get("computed"):
+        return f"Computed now ({how['seconds']:.1f} s); kept for this design content and catalogue values."
+    return "From the results cache: computed before for this design content and the catalogue values in use."
+
+
+_PENDING: dict = {}  # the one call waiting for the background worker ("next")
+_WORKER: dict = {}  # the running background worker thread ("thread")
+
+
+def background_enabled() -> bool:
+    """Background computing is on unless ``MATDB_PAGE_WARM_UP=0``."""
+    return os.environ.get("MATDB_PAGE_WARM_UP", "1") != "0"
 
 
 def prefetch(call: cache.CachedCall) -> None:
-    """Start computing ``call`` in a background thread when it is not ready, so a page
-    that asks for it next finds it done (or waits for it, no second computation)."""
-    if is_ready(call):
+    """Queue ``call`` for one background worker when it is not ready, so a page that asks
+    for it next finds it done (or waits for it: no second computation). One computation
+    at a time in the background; a newer request replaces one still waiting."""
+    if not background_enabled() or is_ready(call):
         return
     with _INFLIGHT_LOCK:
         if call.key in _INFLIGHT:
             return
+        _PENDING["next"] = call
+        running = _WORKER.get("thread")
+        if running is not None and running.is_alive():
+            return
 
-    def work():
-        try:
-            _compute(call, call)
-        except Exception as exc:  # best effort: the page that asks for it computes again and shows any error
-            _LOG.info("background computation %s failed: %s", call.key[:12], exc)
+        def work():
+            while True:
+                with _INFLIGHT_LOCK:
+                    nxt = _PENDING.pop("next", None)
+                    if nxt is None:
+                        _WORKER.pop("thread", None)
+                        return
+                try:
+                    if not is_ready(nxt):
+                        _compute(nxt, nxt)
+                except Exception as exc:  # best effort: the page that asks for it computes again and shows any error
+                    _LOG.info("background computation %s failed: %s", nxt.key[:12], exc)
 
-    threading.Thread(target=work, daemon=True, name="matdb-prefetch").start()
+        _WORKER["thread"] = threading.Thread(target=work, daemon=True, name="matdb-prefetch")
+        _WORKER["thread"].start()
 
 
 def levitate_call(design, temp_k=None, gap_m=None, payloads=None, resolution_m=None) -> cache.CachedCall:
@@ -202,14 +242,16 @@ def design_as_the_form_shows(text: str):
 
 
 def prefetch_defaults(url: str) -> None:
-    """Compute what the Design and Advisor pages show as they open, in the background."""
-    prefetch(levitate_call(load_design_text(presentation.design_text_from_fields(
-        presentation.DESIGN_FORM_DEFAULTS))))
+    """Compute what the Design and Advisor pages show as they open, one after the other
+    (call it from a background thread)."""
     d = ADVISOR_DEFAULTS
-    prefetch(advise_call(tuple(sorted(advisor_params(
-        mass=d["mass"], footprint=d["footprint"], min_gap=d["min_gap"], temp_min=d["temp_min"],
-        temp_max=d["temp_max"], budget=d["budget"], materials=d["materials"], families=d["families"],
-        weights=d["weights"], top=d["top"]).items())), url))
+    for call in (levitate_call(load_design_text(presentation.design_text_from_fields(presentation.DESIGN_FORM_DEFAULTS))),
+                 advise_call(tuple(sorted(advisor_params(
+                     mass=d["mass"], footprint=d["footprint"], min_gap=d["min_gap"], temp_min=d["temp_min"],
+                     temp_max=d["temp_max"], budget=d["budget"], materials=d["materials"], families=d["families"],
+                     weights=d["weights"], top=d["top"]).items())), url)):
+        if not is_ready(call):
+            _compute(call, call)
 
 
 def magnets_key(design) -> str:

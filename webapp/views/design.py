@@ -255,7 +255,8 @@ with right:
         call = rs.levitate_call(design)
         bar = None if rs.is_ready(call) else progress.progress(
             0.05, text="Computing the lift curve, stiffnesses and checks (step 1 of 2)...")
-        result = rs.result_of(call, "Computing the lift curve, stiffnesses and checks (step 1 of 2)...", bar)
+        how: dict = {}
+        result = rs.result_of(call, "Computing the lift curve, stiffnesses and checks (step 1 of 2)...", bar, how)
     except MatdbError as exc:
         progress.empty()
         st.error(sh.plain(f"levitation: {exc}"))
@@ -372,6 +373,7 @@ with right:
     c3, c4 = st.columns(2)
     c3.metric("Laterally stable", "yes" if result["laterally_stable"] else "no")
     c4.metric("0.5 mT distance", presentation.fmt_number(result["safe_distance_m"] * 1e2, "cm"))
+    st.caption(rs.provenance_text(how))
 
     st.subheader("Lift against gap")
     sh.chart(("lift", call.key), lambda: charts.lift_chart(result).properties(title="Lift and weight against gap"),
