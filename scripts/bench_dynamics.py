@@ -32,7 +32,7 @@ def _qs(result):
 
 
 def run() -> dict:
-    from matdb.design.plate import load_design
+    from matdb.design import load_design
     from matdb.analysis.dynamics import (analyse_dynamics, evaluate_dynamics, prepare_dynamics,
                                 screening_estimate)
 

@@ -34,7 +34,7 @@ def _best(fn, repeats=REPEATS):
 
 
 def run() -> dict:
-    from matdb.design.plate import load_design
+    from matdb.design import load_design
     from matdb.analysis.levitate import levitate_plate, plate_geometry
     from matdb.physics import plate as P
 

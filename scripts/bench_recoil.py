@@ -39,7 +39,7 @@ def _best(fn, repeats=REPEATS):
 
 
 def run() -> dict:
-    from matdb.design.plate import load_design
+    from matdb.design import load_design
     from matdb.analysis.levitate import levitate_plate
     from matdb.physics import recoil as R
     from matdb.physics.arrangement import build_arrangement

@@ -20,7 +20,7 @@ def _t(fn):
 
 def run() -> dict:
     from matdb.reporting import report
-    from matdb.design.plate import load_design_text
+    from matdb.design import load_design_text
     from matdb.reporting.drawing import drawing_bytes
 
     text = DESIGN.read_text(encoding="utf-8")

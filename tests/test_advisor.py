@@ -285,7 +285,7 @@ def _root_scatter_m(design, key: str, gap: float) -> float:
 
 @pytest.mark.parametrize("specs, kw, picks", KEY_CASES)
 def test_exact_rows_equal_levitate_on_the_saved_design(tmp_path, specs, kw, picks):
-    from matdb.design.plate import load_design
+    from matdb.design import load_design
     from matdb.analysis.levitate import levitate_plate
     from matdb.physics import plate as P
 

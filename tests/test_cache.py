@@ -9,7 +9,7 @@ import pytest
 
 from matdb.analysis import cache
 from matdb.data import labvalues
-from matdb.design.plate import load_design_text
+from matdb.design import load_design_text
 from matdb.reporting import presentation
 
 

@@ -18,7 +18,7 @@ import magpylib as magpy
 import numpy as np
 import pytest
 
-from matdb.design.plate import load_design
+from matdb.design import load_design
 from matdb.analysis.levitate import CONTRACT_KEYS, levitate, levitate_plate, plate_geometry
 from matdb.physics import plate as P
 

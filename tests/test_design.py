@@ -1,8 +1,9 @@
-"""Design files (matdb.design.plate): parsing into SI, errors naming the key, round trip.
+"""Floating-plate design files (matdb.design.toml_io, matdb.design.model): parsing into SI,
+errors naming the key, round trip.
 
 Values compared against: unit definitions (1 in = 25.4 mm exactly, NIST SP 811;
 0 degC = 273.15 K, SI Brochure 9th ed.), the database rows (seed_data, cited there),
-and the issue-3 key contract.
+and the design-file key contract of the README.
 """
 
 from __future__ import annotations
@@ -14,7 +15,7 @@ from pathlib import Path
 
 import pytest
 
-from matdb.design.plate import (PlateDesign, design_to_toml, load_design, load_design_text,
+from matdb.design import (PlateDesign, StabilizedDesign, design_to_toml, load_design, load_design_text,
                           parse_design, write_design)
 from matdb.errors import InputError
 
@@ -49,8 +50,8 @@ def _doc():
     return tomllib.loads(BASE)
 
 
-def test_issue_example_parses_to_si():
-    # key contract of issue 3; 12.7 mm = 0.0127 m, 20 degC = 293.15 K (SI Brochure)
+def test_readme_example_parses_to_si():
+    # design-file key contract (README); 12.7 mm = 0.0127 m, 20 degC = 293.15 K (SI Brochure)
     d = load_design_text(BASE)
     assert isinstance(d, PlateDesign) and d.mode == "plate"
     assert d.magnets.size == pytest.approx((0.0127,) * 3, rel=1e-15)
@@ -191,6 +192,8 @@ def test_errors_name_the_key(edit, key):
     msg = str(exc.value)
     assert key in msg
     assert "\n" not in msg
+    # the key is the error's field (each front end shows it in its own words)
+    assert exc.value.field == key.split(":")[0]
 
 
 def test_bad_toml_and_missing_file(tmp_path):
@@ -200,22 +203,16 @@ def test_bad_toml_and_missing_file(tmp_path):
         load_design(tmp_path / "nope.toml")
 
 
-def test_floating_magnet_tables_dispatch(monkeypatch):
-    # designs with [lifter]/[floater]/[[station]] go to matdb.design.floating
-    import sys
-    import types
-
-    seen = {}
-    fake = types.ModuleType("matdb.design.floating")
-
-    def parse_stabilized(doc, source=None):
-        seen["doc"], seen["source"] = doc, source
-        return "stabilized"
-
-    fake.parse_stabilized = parse_stabilized
-    monkeypatch.setitem(sys.modules, "matdb.design.floating", fake)
-    assert load_design_text('[lifter]\nx = 1\n', source="s.toml") == "stabilized"
-    assert seen["source"] == "s.toml" and "lifter" in seen["doc"]
+def test_floating_magnet_tables_dispatch():
+    # designs with [lifter]/[floater]/[[station]] are floating-magnet designs (regression check)
+    text = ('[lifter]\nshape = "cylinder"\nsize = ["25.4 mm", "25.4 mm"]\ngrade = "N42"\n'
+            '[floater]\nshape = "cylinder"\nsize = ["6 mm", "3 mm"]\ngrade = "N42"\n'
+            '[plates]\nmaterial = "pyrolytic-graphite"\nthickness = "1 mm"\n')
+    d = load_design_text(text, source="s.toml")
+    assert isinstance(d, StabilizedDesign) and d.mode == "stabilized"
+    assert d.source == "s.toml"
+    with pytest.raises(InputError, match="lifter.x: unknown key"):
+        load_design_text('[lifter]\nx = 1\n', source="s.toml")
 
 
 def test_demo_files_load():

@@ -1,4 +1,4 @@
-"""Floating-magnet design files (matdb.design.floating): parsing, refusals, round trip.
+"""Floating-magnet design files (matdb.design.toml_io, matdb.design.model): parsing, refusals, round trip.
 
 Unit conversions are checked against their definitions (1 in = 25.4 mm exactly, by the
 1959 international yard and pound agreement; 1 g = 1e-3 kg; 0 degC = 273.15 K, SI
@@ -14,11 +14,11 @@ from pathlib import Path
 
 import pytest
 
-from matdb.design.floating import (
+from matdb.design import (
     DEFAULT_CLEARANCE_M,
     StabilizedDesign,
     parse_stabilized,
-    to_toml,
+    design_to_toml,
 )
 from matdb.errors import InputError
 
@@ -107,6 +107,7 @@ def test_refusals_name_the_key(edit, key):
     with pytest.raises(InputError) as exc:
         parse_stabilized(doc)
     assert key in str(exc.value)
+    assert key in exc.value.field  # the design-file key, never a command-line flag
 
 
 def test_stations_inherit_top_level_tables():
@@ -146,7 +147,7 @@ def test_examples_parse_and_round_trip(path):
     text = path.read_text()
     assert "demo" in text
     d = parse_stabilized(tomllib.loads(text), source=str(path))
-    again = parse_stabilized(tomllib.loads(to_toml(d)))
+    again = parse_stabilized(tomllib.loads(design_to_toml(d)))
     assert again == d
 
 
@@ -157,14 +158,14 @@ def test_round_trip_with_overrides_and_range():
     doc["conditions"] = {"temp_min": "0 degC", "temp_max": "40 degC"}
     d = parse_stabilized(doc)
     assert d.temperature_k == pytest.approx(293.15)
-    assert parse_stabilized(tomllib.loads(to_toml(d))) == d
+    assert parse_stabilized(tomllib.loads(design_to_toml(d))) == d
 
 
 def test_load_design_dispatches_here(tmp_path):
-    # matdb.design.plate.load_design hands lifter/floater/station designs to this module
+    # matdb.design.toml_io.load_design hands lifter/floater/station designs to this module
     import tomli_w
 
-    from matdb.design.plate import load_design
+    from matdb.design import load_design
 
     p = tmp_path / "d.toml"
     p.write_text(tomli_w.dumps(base()))

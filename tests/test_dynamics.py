@@ -26,7 +26,7 @@ import magpylib as magpy
 import numpy as np
 import pytest
 
-from matdb.design.plate import design_to_toml, load_design, load_design_text, parse_design
+from matdb.design import design_to_toml, load_design, load_design_text, parse_design
 from matdb.analysis.dynamics import (
     CONTRACT_KEYS,
     MODE_KEYS,

@@ -63,7 +63,7 @@ def test_design_page_suggests_designs_with_progress(monkeypatch, tmp_path):
     # the best design is offered as a design file that parses back (the saved-file contract)
     import tomllib
 
-    from matdb.design.floating import parse_stabilized
+    from matdb.design import parse_stabilized
 
     best_text = at.session_state["fm_search"][3]
     d = parse_stabilized(tomllib.loads(best_text))

@@ -20,7 +20,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as hst
 from scipy.optimize import brentq
 
-from matdb.design.floating import parse_payload_range, parse_stabilized, to_toml
+from matdb.design import parse_payload_range, parse_stabilized, design_to_toml
 from matdb.errors import InputError
 from matdb.physics import stabilized as S
 from matdb.constants import MU0
@@ -175,7 +175,7 @@ def test_payload_range_parsing():
 
 def test_design_file_payload_range_round_trip(demo):
     d = replace(demo, payload_range=(0.0, 1e-3))
-    back = parse_stabilized(tomllib.loads(to_toml(d)))
+    back = parse_stabilized(tomllib.loads(design_to_toml(d)))
     assert back.payload_range == pytest.approx((0.0, 1e-3))
     r = S.levitate_stabilized(back, n_window=3)
     assert [row["payload_kg"] for row in r["window"]] == pytest.approx([0.0, 5e-4, 1e-3])
@@ -280,7 +280,7 @@ def test_plates_narrower_than_the_floater_are_refused_and_narrow_ones_warned():
     doc["plates"]["width"] = "7 mm"
     d = parse_stabilized(doc)
     assert d.stations[0].plates.width == pytest.approx(7e-3)
-    assert parse_stabilized(tomllib.loads(to_toml(d))).stations[0].plates.width == pytest.approx(7e-3)
+    assert parse_stabilized(tomllib.loads(design_to_toml(d))).stations[0].plates.width == pytest.approx(7e-3)
     r = S.levitate_stabilized(d, payloads_kg=[0.0])
     wide = S.levitate_stabilized(parse_stabilized(tomllib.loads(EXAMPLE.read_text())), payloads_kg=[0.0])
     assert r["plate_width_m"] == pytest.approx(7e-3)

@@ -336,7 +336,7 @@ DESIGN = Path(__file__).resolve().parent / "data" / "plate_checkerboard.toml"
 
 
 def test_float_gap_inverts_the_plate_physics(fresh_db, run_cli):
-    from matdb.design.plate import load_design
+    from matdb.design import load_design
     from matdb.analysis.levitate import levitate
 
     hb = catalog.get_material("pyrolytic-graphite")  # handbook chi (Simon and Geim 2000, seed data)

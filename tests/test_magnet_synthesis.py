@@ -12,7 +12,7 @@ import numpy as np
 import pytest
 
 from matdb.analysis import magnet_synthesis as M
-from matdb.design.floating import parse_stabilized, to_toml
+from matdb.design import parse_stabilized, design_to_toml
 from matdb.physics import stabilized as S
 from matdb.constants import MU0
 
@@ -113,7 +113,7 @@ def test_search_confirms_its_best_design_exactly(small_result, tmp_path, run_cli
     assert best["feasible"] and best["rank"] == 1 and best["exact_checked"]
     assert best["window_min_m"] >= req.min_window_m
     path = tmp_path / "best.toml"
-    path.write_text(to_toml(res.designs[0]))
+    path.write_text(design_to_toml(res.designs[0]))
     code, out, err = run_cli("levitate", str(path), "--format", "json")
     assert code == 0, err
     r = json.loads(out)

@@ -11,65 +11,6 @@ import pytest
 from matdb.data import catalog
 from matdb.reporting import presentation as P
 from matdb.errors import InputError
-from matdb.physics.arrangement import build_arrangement
-
-
-def test_levitation_requirement_water_and_sign():
-    # Berry and Geim, Eur. J. Phys. 18, 307 (1997): water (chi = -9.0e-6, 1000 kg/m^3) needs ~1400 T^2/m
-    assert P.levitation_requirement(-9.0e-6, 1000.0) == pytest.approx(1400, rel=0.03)
-    # a paramagnet is pulled into the field: no finite requirement (Berry and Geim, sec. 2)
-    assert P.levitation_requirement(2.2e-5, 2700.0) == math.inf
-    with pytest.raises(InputError, match="density"):
-        P.levitation_requirement(-1e-5, 0.0)
-
-
-def test_gradient_product_matches_closed_form_on_cylinder_axis():
-    """On the axis of an axially magnetised cylinder (radius R, length L, top face at
-    z = 0): Bz(z) = Br/2 [(z + L)/sqrt(R^2 + (z + L)^2) - z/sqrt(R^2 + z^2)], Bx = By = 0
-    (E. P. Furlani, Permanent Magnet and Electromechanical Devices, Academic Press 2001,
-    sec. 4.3; also any textbook solenoid formula). So -(1/2) d(B^2)/dz = -Bz dBz/dz."""
-    br, d, length = 1.3, 0.020, 0.010
-    r = d / 2
-    arr = build_arrangement(shape="cylinder", size=(d, length), br=br)
-    z = np.array([0.2e-3, 0.5e-3, 1e-3, 3e-3, 10e-3])
-    bz = br / 2 * ((z + length) / np.sqrt(r**2 + (z + length) ** 2) - z / np.sqrt(r**2 + z**2))
-    dbz = br / 2 * (r**2 / (r**2 + (z + length) ** 2) ** 1.5 - r**2 / (r**2 + z**2) ** 1.5)
-    expected = -bz * dbz
-    pts = np.column_stack([np.zeros_like(z), np.zeros_like(z), z])
-    got = P.gradient_product(arr, pts)
-    assert got == pytest.approx(expected, rel=1e-6)
-
-
-def test_reach_plate_average_is_the_mean_of_the_local_product():
-    """The plate figure [B^2(g) - B^2(g+t)]/(2t) is the thickness average of
-    -(1/2) d(B^2)/dz (fundamental theorem of calculus): compare with a Gauss-Legendre
-    average of the local product over the same footprint grid."""
-    arr = build_arrangement(shape="cuboid", size=(0.0127, 0.0127, 0.0127), pattern="checkerboard",
-                            rows=2, cols=2, br=1.3)
-    gap, t, n = 0.5e-3, 1e-3, 21
-    r = P.reach_of(arr, gap, t, n=n)
-    xg, wg = np.polynomial.legendre.leggauss(12)
-    zs = gap + (xg + 1) / 2 * t
-    base = P._footprint_grid(arr, 0.0, n)
-    vals = [np.mean(P.gradient_product(arr, base + np.array([0, 0, z]))) for z in zs]
-    assert r["plate_avg_t2_m"] == pytest.approx(float(np.dot(wg, vals) / 2), rel=1e-5)
-    assert r["peak_t2_m"] >= r["plate_avg_t2_m"]
-
-
-def test_arrangement_reach_orders_materials_as_the_trade_expects():
-    """Common practice: pyrolytic graphite plates float over ordinary NdFeB arrays,
-    bismuth plates of similar size do not, and water (a frog) needs a ~16 T laboratory
-    magnet (Berry and Geim 1997): far beyond any plate average here."""
-    reach = P.arrangement_reach()
-    low, high = P.reach_band(reach)
-    assert 0 < low < high
-    mats = P.materials_table()
-    need = P.levitation_requirements(mats, (low, high)).set_index("id")
-    assert need.loc["pyrolytic-graphite", "verdict"] == "plate floats"
-    assert need.loc["bismuth", "verdict"] != "plate floats"
-    assert need.loc["water", "required_t2_m"] > low
-    assert need.loc["aluminium", "verdict"] == "pulled in (paramagnetic)"
-    assert need.index[0] == "pyrolytic-graphite"
 
 
 def test_chi_in_convention_handbook_molar_and_missing_molar_mass():
@@ -105,6 +46,8 @@ def test_grade_curves_validation_and_marks():
     # IEC 60404-8-1: Br(T) = Br20 (1 + alpha/100 (T - 20 C)); at 20 C exactly Br20
     at20 = np.interp(20.0, curves["temp_c"], curves["br_t"])
     assert at20 == pytest.approx(g.br_t, rel=1e-12)
+    # lift over a diamagnet scales with B^2 (Berry and Geim 1997), hence with (Br/Br20)^2
+    assert curves["relative_lift"].to_numpy() == pytest.approx((curves["br_t"] / g.br_t).to_numpy() ** 2, rel=1e-12)
     marks = P.grade_max_temp_marks(curves)
     assert list(marks["max_temp_c"]) == [g.max_temp_c]
     with pytest.raises(InputError, match="min < max"):
@@ -131,8 +74,18 @@ def test_fmt_number_three_significant_digits(value):
     # significant-figure rounding as Python's own "%.3g" does it (the value read back agrees)
     text = P.fmt_number(value)
     assert float(text) == pytest.approx(float("%.3g" % value), rel=1e-12)
-    digits = text.lstrip("-").split("e")[0].replace(".", "").lstrip("0")
-    assert len(digits) == 3 or value in (1399.7,)  # 1400: trailing zeros of an integer
+
+
+@pytest.mark.parametrize("value", [0.6412, 12.71, 0.0123456, 9.996, 0.5, 7.0, -3.14159, 123456.0, 4.2e-5])
+def test_fmt_number_shows_three_digits(value):
+    # three significant digits on screen, trailing zeros kept ("0.500", "7.00")
+    digits = P.fmt_number(value).lstrip("-").split("e")[0].replace(".", "").lstrip("0")
+    assert len(digits) == 3
+
+
+def test_fmt_number_whole_numbers_print_without_a_decimal_point():
+    # 1399.7 to three significant digits is 1400 ("%.3g" gives 1.4e+03): printed as a whole number
+    assert P.fmt_number(1399.7) == "1400"
 
 
 def test_fmt_number_units_and_missing():
@@ -149,7 +102,7 @@ def test_form_fields_give_back_the_same_design():
     """Regression check: a design put into the Design form and read back is the same design."""
     from dataclasses import replace
 
-    from matdb.design.plate import load_design_text
+    from matdb.design import load_design_text
 
     fields = dict(P.DESIGN_FORM_DEFAULTS, size="6 mm, 6 mm, 3 mm", payload="0.35 g", temp_min="-5 degC",
                   temp_max="45 degC", back_plate=True, spacing="0.5 mm")

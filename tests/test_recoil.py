@@ -18,7 +18,7 @@ import magpylib as magpy
 import numpy as np
 import pytest
 
-from matdb.design.plate import load_design_text
+from matdb.design import load_design_text
 from matdb.physics import plate as P
 from matdb.physics import recoil as R
 from matdb.physics.arrangement import build_arrangement
@@ -132,7 +132,7 @@ def test_design_default_and_rigid_switch():
     np.testing.assert_allclose([m.polarization for m in default.arrangement().magnets],
                                [m.polarization for m in expect.magnets], rtol=1e-12)
     assert default.arrangement().magnets[0].br < ideal.magnets[0].br
-    from matdb.design.plate import design_to_toml
+    from matdb.design import design_to_toml
 
     assert "rigid = true" in design_to_toml(rigid) and "rigid" not in design_to_toml(default)
 
@@ -141,7 +141,7 @@ def test_floating_magnet_rigid_key():
     import tomllib
     from pathlib import Path
 
-    from matdb.design.floating import parse_stabilized
+    from matdb.design import parse_stabilized
 
     path = Path(__file__).parent.parent / "examples" / "floating_magnet.toml"
     doc = tomllib.loads(path.read_text())

@@ -313,7 +313,7 @@ def test_provenance_shows_a_lab_value_with_its_source_note_and_date(fresh_db):
     """A measured value recorded with `matdb record` is the one in use (DEVELOPERS.md):
     the report names it as measured, with the lab's source note, date and uncertainty."""
     from matdb.data import labvalues
-    from matdb.design.plate import load_design_text
+    from matdb.design import load_design_text
     from matdb.reporting.report import _number_notes, _provenance
 
     labvalues.record_material_value("bismuth", chi=-1.62e-4, uncertainty=0.03e-4,

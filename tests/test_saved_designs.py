@@ -6,7 +6,7 @@ from __future__ import annotations
 import pytest
 
 from matdb.data import saved_designs as sd
-from matdb.design.plate import load_design_text
+from matdb.design import load_design_text
 from matdb.errors import InputError, NotFoundError
 from matdb.reporting.presentation import design_text_from_fields
 

@@ -301,7 +301,7 @@ def test_lifter_tilt_terms_tend_to_the_dipole_values():
 # ---------------------------------------------------------------------------
 @pytest.fixture(scope="module")
 def demo():
-    from matdb.design.floating import parse_stabilized
+    from matdb.design import parse_stabilized
 
     return parse_stabilized(_rigid_doc(EXAMPLE), source=str(EXAMPLE))
 
@@ -416,7 +416,7 @@ def test_three_stations_statics_exact():
 def test_two_station_demo_shares_and_tilt(tmp_path):
     # lever rule on the demo (centre of mass 5 mm towards the right of a 60 mm span) and
     # the heavier share set closer to its lifter (common practice, no source)
-    from matdb.design.floating import parse_stabilized
+    from matdb.design import parse_stabilized
 
     d = parse_stabilized(_rigid_doc(TWO))
     r = S.levitate_stabilized(d)
@@ -444,7 +444,7 @@ def test_two_station_demo_shares_and_tilt(tmp_path):
 
 def test_centred_identical_stations_share_equally():
     # symmetry of statics: identical stations under a centred payload share equally
-    from matdb.design.floating import parse_stabilized
+    from matdb.design import parse_stabilized
 
     doc = _rigid_doc(TWO)
     doc["payload"]["centre_of_mass"] = ["0 mm", "0 mm"]
@@ -459,7 +459,7 @@ def test_three_station_disc_shares_and_tilt_mode():
     # payload carry a third each; a rigid body on three stable vertical supports not in a
     # line has positive tilt stiffness (K = sum k_i r_i r_i^T); its centre of mass below
     # the floaters only adds to it (pendulum)
-    from matdb.design.floating import parse_stabilized
+    from matdb.design import parse_stabilized
 
     d = parse_stabilized(_rigid_doc(THREE))
     r = S.levitate_stabilized(d)

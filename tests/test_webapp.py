@@ -528,7 +528,7 @@ def test_design_save_list_reopen_and_bad_input_writes_nothing(fresh_db):
 
 def test_design_duplicate_delete_and_compare(fresh_db):
     from matdb.data import saved_designs
-    from matdb.design.plate import load_design_text
+    from matdb.design import load_design_text
     from matdb.analysis.levitate import levitate
     from matdb.reporting.presentation import DESIGN_FORM_DEFAULTS, design_text_from_fields
 

@@ -23,7 +23,7 @@ import streamlit as st
 from matdb.advisor import engine as advisor_engine
 from matdb.analysis import cache, synthesis
 from matdb.analysis.dynamics import evaluate_dynamics, prepare_dynamics, pressure_sweep_df
-from matdb.design.plate import load_design_text
+from matdb.design import load_design_text
 from matdb.reporting import presentation
 from webapp import _shared as sh
 

@@ -15,6 +15,7 @@ from pathlib import Path
 import pandas as pd
 import streamlit as st
 
+from matdb.analysis import reach
 from matdb.data import catalog
 from matdb.reporting import presentation
 from matdb.data.db import default_url
@@ -125,7 +126,7 @@ def materials_table(convention: str, url: str):
 
 @st.cache_data(show_spinner=False, max_entries=8)
 def arrangement_reach(url: str):
-    return presentation.arrangement_reach(url=url)
+    return reach.arrangement_reach(url=url)
 
 
 @st.cache_data(show_spinner=False, max_entries=8)

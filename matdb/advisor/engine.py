@@ -493,7 +493,8 @@ def _physics_fingerprint() -> str:
     if _FINGERPRINT is None:
         h = hashlib.sha256(CODE_VERSION.encode())
         here = Path(__file__).resolve().parent.parent / "physics"
-        for name in ("fields.py", "arrangement.py", "plate.py", "thermal.py", "recoil.py"):
+        for name in ("fields.py", "arrangement.py", "plate.py", "plate_geometry.py", "plate_lift.py",
+                     "plate_stiffness.py", "plate_intervals.py", "quadrature.py", "thermal.py", "recoil.py"):
             try:
                 h.update((here / name).read_bytes())
             except OSError:
@@ -1788,9 +1789,9 @@ def records(df: pd.DataFrame) -> list[dict]:
 
 
 def candidate_design(row: dict, req: AdviceRequest, cat: _Catalogue | None = None, name: str | None = None):
-    """A :class:`matdb.design.plate.PlateDesign` of one candidate row (for ``--save``)."""
+    """A :class:`matdb.design.model.PlateDesign` of one candidate row (for ``--save``)."""
     from matdb.data import catalog
-    from matdb.design.plate import Conditions, MagnetSpec, PlateDesign, PlateSpec
+    from matdb.design import Conditions, MagnetSpec, PlateDesign, PlateSpec
 
     grade = catalog.get_grade(row["grade"])
     mat = catalog.get_material(row["material"])
@@ -1816,6 +1817,6 @@ def candidate_design(row: dict, req: AdviceRequest, cat: _Catalogue | None = Non
 
 def save_design(row: dict, req: AdviceRequest, path, cat: _Catalogue | None = None) -> Path:
     """Write one candidate as a design file ``matdb levitate`` reads."""
-    from matdb.design.plate import write_design
+    from matdb.design import write_design
 
     return write_design(candidate_design(row, req, cat), path)

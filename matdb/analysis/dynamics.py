@@ -19,7 +19,7 @@ from typing import Any, Sequence
 
 import numpy as np
 
-from matdb.design.plate import PlateDesign
+from matdb.design import PlateDesign
 from matdb.errors import InputError, PhysicsError
 from matdb.physics import dynamics as D
 from matdb.physics import plate as P

@@ -15,7 +15,7 @@ from typing import Any
 
 import numpy as np
 
-from matdb.design.plate import PlateDesign
+from matdb.design import PlateDesign
 from matdb.errors import InputError
 from matdb.physics import plate as P
 from matdb.physics import thermal as TH

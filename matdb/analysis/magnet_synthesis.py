@@ -670,9 +670,9 @@ def _reasons(i, C, short, req: FMRequest, pays) -> list[str]:
 
 def design_of(r: dict, req: FMRequest):
     """The design file document of a search row, parsed into a
-    :class:`~matdb.design.floating.StabilizedDesign` (demo: a suggestion, not a tested
+    :class:`~matdb.design.model.StabilizedDesign` (demo: a suggestion, not a tested
     build)."""
-    from matdb.design.floating import parse_stabilized
+    from matdb.design import parse_stabilized
 
     def mm(v):
         return f"{v * 1e3:.6g} mm"

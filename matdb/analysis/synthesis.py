@@ -376,8 +376,8 @@ def _refine(prob: _Problem) -> tuple[Sizing, float]:
 # the exact check
 # ---------------------------------------------------------------------------
 def design_of(z: Sizing, req: A.AdviceRequest, mat, grade, name: str | None = None):
-    """A :class:`matdb.design.plate.PlateDesign` of a sizing (what ``--save`` writes)."""
-    from matdb.design.plate import Conditions, MagnetSpec, PlateDesign, PlateSpec
+    """A :class:`matdb.design.model.PlateDesign` of a sizing (what ``--save`` writes)."""
+    from matdb.design import Conditions, MagnetSpec, PlateDesign, PlateSpec
 
     spec = z.spec()
     mags = MagnetSpec(spec.shape, tuple(spec.size), grade.grade, None, spec.pattern, spec.rows,
@@ -736,7 +736,7 @@ def records(result: OptimiseResult) -> list[dict]:
 def save(result: OptimiseResult, path, index: int = 0) -> Path:
     """Write design ``index`` (default the best) as a design file ``matdb levitate`` reads."""
     from matdb.data import catalog
-    from matdb.design.plate import write_design
+    from matdb.design import write_design
 
     if not result.rows:
         raise InputError("--save: no design to save")

@@ -67,7 +67,7 @@ def format_dynamics(r: dict) -> str:
 
 
 def cmd_dynamics(args) -> int:
-    from matdb.design.plate import load_design
+    from matdb.design import load_design
     from matdb.analysis.dynamics import analyse_dynamics
 
     pressure = parse_pressure(args.pressure) if args.pressure else 101325.0

@@ -79,7 +79,7 @@ def parse_envelope(text: str, field: str = "--envelope") -> tuple[float, float]:
 
 def request_from_args(args):
     """The :class:`~matdb.analysis.magnet_synthesis.FMRequest` of the command line."""
-    from matdb.design.floating import parse_payload_range
+    from matdb.design import parse_payload_range
     from matdb.analysis.magnet_synthesis import DEFAULT_MATERIALS, FMRequest
     from matdb.units import parse_length, parse_quantity, parse_temperature
 
@@ -189,7 +189,7 @@ def format_result(res) -> str:
 def run(args) -> int:
     """``matdb optimise --floating-magnet``: exit status 0 when a design works, 1 when none does."""
     from matdb.analysis import magnet_synthesis as M
-    from matdb.design.floating import to_toml
+    from matdb.design import design_to_toml
 
     req = request_from_args(args)
     save = getattr(args, "save", None)
@@ -199,7 +199,7 @@ def run(args) -> int:
     if save:
         if best is None:
             raise InputError(f"--save: nothing to write to {save}: no design meets the requirements ({res.message})")
-        text = to_toml(best)
+        text = design_to_toml(best)
         try:
             with open(save, "w", encoding="utf-8") as fh:
                 fh.write(text)

@@ -83,7 +83,7 @@ def read_points_csv(path: str) -> np.ndarray:
 
 
 def _load(path: str):
-    from matdb.design.plate import load_design
+    from matdb.design import load_design
 
     return load_design(path)
 
@@ -108,7 +108,7 @@ def cmd_field(args) -> int:
         raise InputError("--at: give at least one point (--at '0,0,1 mm') or --points FILE.csv")
     check_count(len(pts), MAX_POINTS, "--at/--points", "points")
     temp = parse_temperature(args.temp, "--temp") if args.temp else None
-    from matdb.design.plate import load_design
+    from matdb.design import load_design
 
     design = load_design(args.design, need_plate=False)  # a field needs only the magnets
     emit(field_records(design, np.asarray(pts, dtype=float), temp), args.format,
@@ -262,7 +262,7 @@ def schedule_records(result: dict) -> list[dict]:
 
 
 def _payloads(args) -> np.ndarray | None:
-    from matdb.design.floating import parse_payload_range
+    from matdb.design import parse_payload_range
 
     if getattr(args, "payload_range", None) is None:
         if getattr(args, "steps", None) is not None:

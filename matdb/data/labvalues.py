@@ -637,7 +637,7 @@ def invert_float_gap(gap_m: float, design_path: Path, material) -> tuple[float, 
     ``|chi_perp| = W / (F_perp(g) + r F_par(g))``, ``W`` the weight of plate and payload.
     Returns (chi_perp, what was assumed: temperature_k, ratio, weight_n, unit_lift_n).
     """
-    from matdb.design.plate import PlateDesign, load_design
+    from matdb.design import PlateDesign, load_design
     from matdb.analysis.levitate import plate_geometry
     from matdb.physics import plate as P
     from matdb.constants import G_STANDARD

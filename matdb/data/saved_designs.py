@@ -1,7 +1,7 @@
 """Saved designs: name a design, keep it in the database with a note, list, reopen,
 duplicate, delete, and compare the key figures of a few of them side by side.
 
-A saved design is the design-file text (TOML, see :mod:`matdb.design.plate`) as the person had
+A saved design is the design-file text (TOML, see :mod:`matdb.design.toml_io`) as the person had
 it, so reopening gives back exactly what was saved. Every write checks its input first
 and runs in one transaction: a bad name or a design that does not parse writes nothing.
 """
@@ -48,7 +48,7 @@ def _clean_note(note: Any) -> str:
 
 
 def _check_text(text: Any) -> str:
-    from matdb.design.plate import load_design_text
+    from matdb.design import load_design_text
 
     if not isinstance(text, str) or not text.strip():
         raise InputError("design: expected the design-file text (TOML), got nothing")
@@ -183,7 +183,7 @@ def _names(idents: Sequence[Any]) -> list:
 
 
 def _default_evaluate(text: str) -> dict:
-    from matdb.design.plate import load_design_text
+    from matdb.design import load_design_text
     from matdb.analysis.levitate import levitate
 
     return levitate(load_design_text(text))

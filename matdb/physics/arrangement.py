@@ -32,16 +32,17 @@ from matdb.constants import MU0
 from matdb.physics.fields import MagnetSet, as_points
 from matdb.physics.recoil import effective_polarizations
 
-__all__ = ["Magnet", "Arrangement", "build_arrangement", "SHAPES", "PATTERNS"]
+__all__ = ["Magnet", "Arrangement", "build_arrangement", "SHAPES", "PATTERNS", "SIZE_FORMS"]
 
 SHAPES = ("cuboid", "cylinder", "ring")
 PATTERNS = ("single", "grid", "checkerboard", "stripes", "list")
-_SIZE_FORM = {
-    "cuboid": "(x, y, height)",
-    "cylinder": "(diameter, height)",
-    "ring": "(outer diameter, inner diameter, height)",
+#: Per magnet shape: how many lengths its ``size`` holds and in which order (the design
+#: model adds the plate shapes to these).
+SIZE_FORMS = {
+    "cuboid": (3, "[x, y, height]"),
+    "cylinder": (2, "[diameter, height]"),
+    "ring": (3, "[outer diameter, inner diameter, height]"),
 }
-_SIZE_LEN = {"cuboid": 3, "cylinder": 2, "ring": 3}
 
 
 def _float(value: Any, field_name: str) -> float:
@@ -72,12 +73,12 @@ def _check_shape(shape: Any) -> str:
 
 
 def _check_size(shape: str, size: Any) -> tuple[float, ...]:
-    form = _SIZE_FORM[shape]
+    n, form = SIZE_FORMS[shape]
     try:
         items = list(size)
     except TypeError as exc:
         raise InputError(f"size: expected {form} in metres for a {shape}, got {size!r}") from exc
-    if len(items) != _SIZE_LEN[shape]:
+    if len(items) != n:
         raise InputError(f"size: expected {form} in metres for a {shape}, got {size!r}")
     vals = tuple(_float(v, "size") for v in items)
     if shape == "ring":

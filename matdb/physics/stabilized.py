@@ -954,7 +954,7 @@ class StationModel:
 
 
 def _recoil(spec) -> float:
-    """:attr:`matdb.design.floating.MagnetSpec.recoil_factor` (1 for other specs)."""
+    """:attr:`matdb.design.model.SingleMagnet.recoil_factor` (1 for other specs)."""
     return float(getattr(spec, "recoil_factor", 1.0))
 
 
@@ -1348,7 +1348,7 @@ def levitate_stabilized(design, temp_k: Optional[float] = None, n_window: int = 
     Parameters
     ----------
     design : StabilizedDesign
-        From :func:`matdb.design.floating.parse_stabilized`.
+        From :func:`matdb.design.toml_io.parse_stabilized`.
     temp_k : float, optional
         Temperature [K]; default the design's.
     n_window : int

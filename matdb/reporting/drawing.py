@@ -284,7 +284,7 @@ def svg_text(doc) -> str:
 
 def drawing_bytes(text: str, kind: str, source_name: str = "design.toml") -> bytes:
     """The drawing of a design's TOML text as ``dxf`` or ``svg`` bytes."""
-    from matdb.design.plate import load_design_text
+    from matdb.design import load_design_text
     from matdb.errors import InputError
 
     if kind not in ("dxf", "svg"):

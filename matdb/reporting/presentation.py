@@ -1,37 +1,34 @@
-"""Tables and curves the local web page shows, prepared without any page code.
+"""Tables and text the local web page and the report show, prepared without any page code.
 
-Every function here returns plain pandas DataFrames or floats in SI units (column names
-carry the unit), so the page only lays them out and the same numbers can be checked in
-tests or printed elsewhere. Nothing here imports Streamlit.
-
-The levitation view
--------------------
-A body of volume susceptibility chi < 0 and density rho floats freely in a static field
-where the upward magnetic force per volume, (|chi| / mu0) (-B dB/dz), reaches its weight
-per volume rho g, i.e. where the field-gradient product
-
-    -B dB/dz = -(1/2) d(B^2)/dz  >=  mu0 rho g / |chi|                       [T^2/m]
-
-(M. V. Berry and A. K. Geim, "Of flying frogs and levitrons", Eur. J. Phys. 18, 307
-(1997); water needs about 1400 T^2/m). :func:`levitation_requirements` gives the right-hand
-side per material; :func:`arrangement_reach` evaluates the left-hand side over a few
-common NdFeB arrangements with the field engine, so the page can mark which materials
-such magnets can float.
+Every function here returns plain pandas DataFrames or strings (column names carry the
+unit), so the page only lays them out and the same numbers can be checked in tests or
+printed elsewhere. Nothing here imports Streamlit, and nothing here is physics: the
+levitation requirement and what magnet arrangements reach are in
+:mod:`matdb.physics.levitation` and :mod:`matdb.analysis.reach`.
 """
 
 from __future__ import annotations
 
+import hashlib
 import math
-from dataclasses import dataclass
-from typing import Iterable, Sequence
+import re
+from dataclasses import replace
+from typing import Sequence
 
 import numpy as np
 import pandas as pd
 
+from matdb.advisor.engine import candidate_design
+from matdb.constants import celsius_to_kelvin, kelvin_to_celsius
+from matdb.analysis.levitate import format_intervals
+from matdb.analysis.synthesis import design_of
+from matdb.cli.physics import SCHEDULE_COLUMNS, schedule_records
 from matdb.data import catalog
+from matdb.design import PlateDesign, body_volume, design_to_toml, document_to_toml, exact_quantity, exact_temperature
 from matdb.errors import InputError
 from matdb.output import csv_text
-from matdb.constants import G_STANDARD, MU0, celsius_to_kelvin, kelvin_to_celsius
+from matdb.physics.levitation import levitation_requirement
+from matdb.physics.thermal import br_at, lift_factor
 from matdb.units import CONVENTIONS, chi_from_si_volume
 
 # ---------------------------------------------------------------------------
@@ -143,7 +140,7 @@ MATERIAL_COLUMNS = [
 
 def _check_convention(convention: str) -> str:
     if convention not in CONVENTIONS:
-        raise InputError(f"unit: expected one of {', '.join(CONVENTIONS)}, got {convention!r}")
+        raise InputError(f"expected one of {', '.join(CONVENTIONS)}, got {convention!r}", field="unit")
     return convention
 
 
@@ -215,7 +212,7 @@ def compare_materials(df: pd.DataFrame, ids: Sequence[str], rounded: bool = Fals
     :func:`matdb.data.catalog.status_marks`) each stored value is followed by its status mark."""
     unknown = [i for i in ids if i not in set(df["id"])]
     if unknown:
-        raise InputError(f"compare: unknown material id(s) {', '.join(unknown)}")
+        raise InputError(f"unknown material id(s) {', '.join(unknown)}", field="compare")
     fields = {
         "name": "name",
         "chi_si": "chi, SI volume",
@@ -229,15 +226,14 @@ def compare_materials(df: pd.DataFrame, ids: Sequence[str], rounded: bool = Fals
     }
     sub = df.set_index("id").loc[list(ids)]
     if "required_t2_m" not in sub.columns:
-        sub = sub.assign(required_t2_m=[levitation_requirement(c, r) for c, r in zip(sub["chi_si"], sub["density_kg_m3"])])
+        sub = sub.assign(required_t2_m=np.atleast_1d(levitation_requirement(sub["chi_si"].to_numpy(float),
+                                                                            sub["density_kg_m3"].to_numpy(float))))
     table = sub[list(fields)].T.astype(object)
     if rounded:
-        from matdb.data.catalog import mark
-
         for key in table.index:
             vals = [_human(v, sci=key.startswith("chi") or key == "abs_chi_per_density") for v in table.loc[key]]
             if marks is not None and key in ("chi_si", "chi_perp_si", "chi_par_si", "density_kg_m3"):
-                vals = [f"{v} {mark(marks.get(i, {}).get(key))}" if v not in ("", "-") else v
+                vals = [f"{v} {catalog.mark(marks.get(i, {}).get(key))}" if v not in ("", "-") else v
                         for v, i in zip(vals, table.columns)]
             table.loc[key] = vals
     table.index = [fields[k] for k in table.index]
@@ -255,27 +251,6 @@ def _human(v, sci: bool = False) -> str:
 # levitation requirement per material
 # ---------------------------------------------------------------------------
 
-def levitation_requirement(chi_si: float, density_kg_m3: float, g: float = G_STANDARD) -> float:
-    """Field-gradient product a free body needs to float: mu0 rho g / |chi| [T^2/m].
-
-    Only diamagnets (chi < 0) are pushed out of the field; for chi >= 0 the answer is
-    ``inf`` (no field floats it from below).
-
-    References
-    ----------
-    .. [1] M. V. Berry and A. K. Geim, Eur. J. Phys. 18, 307 (1997), eq. (3).
-    """
-    chi = float(chi_si)
-    rho = float(density_kg_m3)
-    if not (math.isfinite(rho) and rho > 0):
-        raise InputError(f"density: expected a positive density in kg/m^3, got {density_kg_m3!r}")
-    if not math.isfinite(chi):
-        raise InputError(f"chi: expected a finite susceptibility, got {chi_si!r}")
-    if chi >= 0:
-        return math.inf
-    return MU0 * rho * g / abs(chi)
-
-
 def levitation_requirements(df: pd.DataFrame, reach: tuple[float, float] | None = None) -> pd.DataFrame:
     """The levitation view: every diamagnet with the -B dB/dz it needs, easiest first.
 
@@ -287,9 +262,9 @@ def levitation_requirements(df: pd.DataFrame, reach: tuple[float, float] | None 
     field) or ``"out of reach"``. Paramagnets are listed last with ``required_t2_m`` = NaN and
     ``verdict`` = ``"pulled in (paramagnetic)"``.
     """
-    req = [levitation_requirement(c, r) for c, r in zip(df["chi_si"], df["density_kg_m3"])]
+    req = np.atleast_1d(levitation_requirement(df["chi_si"].to_numpy(float), df["density_kg_m3"].to_numpy(float)))
     out = df[["id", "name", "chi_si", "density_kg_m3", "source", "value_kind"]].copy()
-    out["required_t2_m"] = [v if math.isfinite(v) else math.nan for v in req]
+    out["required_t2_m"] = np.where(np.isfinite(req), req, np.nan)
     verdicts = []
     for v in out["required_t2_m"]:
         if math.isnan(v):
@@ -309,120 +284,6 @@ def levitation_requirements(df: pd.DataFrame, reach: tuple[float, float] | None 
 
 
 # ---------------------------------------------------------------------------
-# what common magnet arrangements reach
-# ---------------------------------------------------------------------------
-
-@dataclass(frozen=True)
-class StandardArrangement:
-    """A magnet arrangement people commonly build, in design-file terms (SI)."""
-
-    key: str
-    description: str
-    shape: str
-    size_m: tuple[float, ...]
-    grade: str
-    pattern: str
-    rows: int = 1
-    cols: int = 1
-
-
-STANDARD_ARRANGEMENTS: tuple[StandardArrangement, ...] = (
-    StandardArrangement("cube-10", "one 10 mm N42 cube", "cuboid", (0.010, 0.010, 0.010), "N42", "single"),
-    StandardArrangement("cyl-20x10", "one 20 mm x 10 mm N42 disc", "cylinder", (0.020, 0.010), "N42", "single"),
-    StandardArrangement("check-2x2-12.7", "2x2 checkerboard of 12.7 mm N42 cubes", "cuboid",
-                        (0.0127, 0.0127, 0.0127), "N42", "checkerboard", 2, 2),
-    StandardArrangement("check-4x4-6", "4x4 checkerboard of 6 mm N42 cubes", "cuboid",
-                        (0.006, 0.006, 0.006), "N42", "checkerboard", 4, 4),
-    StandardArrangement("stripes-4-5", "4 stripes of 5 x 5 x 40 mm N52 bars", "cuboid",
-                        (0.040, 0.005, 0.005), "N52", "stripes", 4, 1),
-)
-
-REACH_GAP_M = 0.2e-3  # gap above the magnets' top faces where the reach is read [m]
-REACH_PLATE_M = 1.0e-3  # plate thickness for the plate-averaged figure [m]
-_FD_STEP_M = 1e-6  # central-difference step for d(B^2)/dz [m]
-
-
-def field_engine_available() -> bool:
-    """True when :func:`matdb.physics.arrangement.build_arrangement` can be imported."""
-    try:
-        from matdb.physics.arrangement import build_arrangement  # noqa: F401
-    except ImportError:
-        return False
-    return True
-
-
-def build_standard(spec: StandardArrangement, br_t: float | None = None, url: str | None = None):
-    """The field-engine arrangement for ``spec`` (Br from the catalogue unless given)."""
-    from matdb.physics.arrangement import build_arrangement
-
-    if br_t is None:
-        br_t = catalog.get_grade(spec.grade, url).br_t
-    return build_arrangement(
-        shape=spec.shape, size=spec.size_m, br=br_t, pattern=spec.pattern,
-        rows=spec.rows, cols=spec.cols, grade=spec.grade,
-    )
-
-
-def gradient_product(arrangement, points: np.ndarray, step_m: float = _FD_STEP_M) -> np.ndarray:
-    """-(1/2) d(B^2)/dz at ``points`` (n, 3) [T^2/m], by central differences of the
-    field engine's B (B^2 is smooth off the magnets, so the O(h^2) error is tiny)."""
-    p = np.asarray(points, dtype=float).reshape(-1, 3)
-    dz = np.array([0.0, 0.0, step_m])
-    b_up = np.asarray(arrangement.B(p + dz), dtype=float).reshape(-1, 3)
-    b_dn = np.asarray(arrangement.B(p - dz), dtype=float).reshape(-1, 3)
-    return -0.5 * (np.sum(b_up**2, axis=1) - np.sum(b_dn**2, axis=1)) / (2.0 * step_m)
-
-
-def _footprint_grid(arrangement, z: float, n: int) -> np.ndarray:
-    xmin, xmax, ymin, ymax, _zmin, _zmax = (float(v) for v in arrangement.bounds())
-    xs = xmin + (np.arange(n) + 0.5) * (xmax - xmin) / n
-    ys = ymin + (np.arange(n) + 0.5) * (ymax - ymin) / n
-    gx, gy = np.meshgrid(xs, ys, indexing="xy")
-    return np.column_stack([gx.ravel(), gy.ravel(), np.full(gx.size, z)])
-
-
-def reach_of(arrangement, gap_m: float = REACH_GAP_M, plate_m: float = REACH_PLATE_M, n: int = 41) -> dict:
-    """What one arrangement offers a diamagnet at ``gap_m`` above its top faces.
-
-    Returns ``peak_t2_m``: the largest local -(1/2) d(B^2)/dz over the footprint (what a
-    small chip at the best spot feels), and ``plate_avg_t2_m``: the footprint mean of
-    [B^2(gap) - B^2(gap + plate)] / (2 plate), the average push on a plate of thickness
-    ``plate_m`` covering the arrangement (the vertical lift of such a plate is exactly
-    |chi| / mu0 times this times its volume).
-    """
-    pts = _footprint_grid(arrangement, gap_m, n)
-    peak = float(np.max(gradient_product(arrangement, pts)))
-    b0 = np.asarray(arrangement.B(pts), dtype=float).reshape(-1, 3)
-    b1 = np.asarray(arrangement.B(pts + np.array([0.0, 0.0, plate_m])), dtype=float).reshape(-1, 3)
-    avg = float(np.mean(np.sum(b0**2, axis=1) - np.sum(b1**2, axis=1)) / (2.0 * plate_m))
-    return {"peak_t2_m": peak, "plate_avg_t2_m": avg}
-
-
-def arrangement_reach(specs: Iterable[StandardArrangement] = STANDARD_ARRANGEMENTS,
-                      gap_m: float = REACH_GAP_M, plate_m: float = REACH_PLATE_M,
-                      url: str | None = None) -> pd.DataFrame:
-    """Per standard arrangement: ``key``, ``description``, ``grade``, ``br_t``,
-    ``gap_m``, ``plate_avg_t2_m``, ``peak_t2_m``. Needs the field engine."""
-    rows = []
-    for spec in specs:
-        br = catalog.get_grade(spec.grade, url).br_t
-        arr = build_standard(spec, br)
-        r = reach_of(arr, gap_m, plate_m)
-        rows.append({"key": spec.key, "description": spec.description, "grade": spec.grade,
-                     "br_t": br, "gap_m": gap_m, **r})
-    return pd.DataFrame(rows)
-
-
-def reach_band(reach_df: pd.DataFrame) -> tuple[float, float]:
-    """(low, high) in T^2/m: the best plate average and the best local peak over the
-    arrangements. Below ``low`` a plate floats over the best common arrangement; between
-    the two only a small piece near the strongest spot can."""
-    if reach_df is None or reach_df.empty:
-        raise InputError("reach: no arrangements evaluated")
-    return float(reach_df["plate_avg_t2_m"].max()), float(reach_df["peak_t2_m"].max())
-
-
-# ---------------------------------------------------------------------------
 # magnet grades against temperature
 # ---------------------------------------------------------------------------
 
@@ -432,22 +293,20 @@ def grade_temperature_curves(grades_df: pd.DataFrame, grades: Sequence[str],
 
     Long format, one row per grade and temperature: ``grade``, ``temp_c``, ``br_t``
     (from :func:`matdb.physics.thermal.br_at`), ``relative_lift`` (lift over a
-    diamagnet scales with B^2, hence with Br^2), ``max_temp_c`` and ``beyond_max``
+    diamagnet scales with B^2, hence with Br^2: :func:`matdb.physics.thermal.lift_factor`), ``max_temp_c`` and ``beyond_max``
     (True above the grade's maximum working temperature, where the linear model no
     longer describes a usable magnet).
     """
-    from matdb.physics.thermal import br_at
-
     if not (math.isfinite(t_min_c) and math.isfinite(t_max_c)) or t_min_c >= t_max_c:
-        raise InputError(f"temperature range: expected min < max, got {t_min_c!r} to {t_max_c!r} degC")
+        raise InputError(f"expected min < max, got {t_min_c!r} to {t_max_c!r} degC", field="temperature range")
     if celsius_to_kelvin(t_min_c) <= 0:
-        raise InputError(f"temperature range: {t_min_c!r} degC is below absolute zero")
+        raise InputError(f"{t_min_c!r} degC is below absolute zero", field="temperature range")
     if n < 2:
-        raise InputError(f"n: expected at least 2 temperatures, got {n!r}")
+        raise InputError(f"expected at least 2 temperatures, got {n!r}", field="n")
     known = set(grades_df["grade"])
     unknown = [g for g in grades if g not in known]
     if unknown:
-        raise InputError(f"grades: unknown grade(s) {', '.join(unknown)}")
+        raise InputError(f"unknown grade(s) {', '.join(unknown)}", field="grades")
     t_c = np.linspace(float(t_min_c), float(t_max_c), int(n))
     t_k = celsius_to_kelvin(t_c)
     parts = []
@@ -459,7 +318,8 @@ def grade_temperature_curves(grades_df: pd.DataFrame, grades: Sequence[str],
         tmax = float(row["max_temp_c"])
         parts.append(pd.DataFrame({
             "grade": g, "family": row["family"], "temp_c": t_c, "br_t": br,
-            "relative_lift": (br / br20) ** 2, "max_temp_c": tmax, "beyond_max": t_c > tmax,
+            "relative_lift": np.asarray(lift_factor(float(row["alpha_br_pct_per_k"]), t_k), dtype=float),
+            "max_temp_c": tmax, "beyond_max": t_c > tmax,
         }))
     if not parts:
         return pd.DataFrame(columns=["grade", "family", "temp_c", "br_t", "relative_lift", "max_temp_c", "beyond_max"])
@@ -510,10 +370,8 @@ def grade_max_temp_marks(curves: pd.DataFrame) -> pd.DataFrame:
 # design page
 # ---------------------------------------------------------------------------
 
-def _split_lengths(text: str) -> list[str]:
+def split_lengths(text: str) -> list[str]:
     """"12.7 mm, 12.7 mm, 5 mm" or "12.7 mm x 12.7 mm x 5 mm" -> list of length strings."""
-    import re
-
     parts = [p.strip() for p in re.split(r",|\s+x\s+", str(text)) if p.strip()]
     return parts
 
@@ -525,15 +383,13 @@ def design_text_from_fields(f: dict) -> str:
     ``pattern``, ``rows``, ``cols``, ``spacing``, ``back_plate``, ``cover``,
     ``material``, ``plate_shape``, ``plate_size``, ``payload``, ``payload_height``,
     ``min_gap``, ``temperature`` (or ``temp_min`` and ``temp_max``). The text is parsed
-    by :func:`matdb.design.plate.load_design_text`, which names any bad key.
+    by :func:`matdb.design.toml_io.load_design_text`, which names any bad key.
     """
-    import tomli_w
-
-    mags = {"shape": f["shape"], "size": _split_lengths(f["size"]), "grade": f["grade"],
+    mags = {"shape": f["shape"], "size": split_lengths(f["size"]), "grade": f["grade"],
             "pattern": f["pattern"], "rows": int(f.get("rows", 1)), "cols": int(f.get("cols", 1)),
             "spacing": f.get("spacing") or "0 mm", "back_plate": bool(f.get("back_plate", False)),
             "cover": f.get("cover") or "0 mm"}
-    plate = {"material": f["material"], "shape": f["plate_shape"], "size": _split_lengths(f["plate_size"]),
+    plate = {"material": f["material"], "shape": f["plate_shape"], "size": split_lengths(f["plate_size"]),
              "payload": f.get("payload") or "0 g"}
     for k in ("payload_height", "min_gap"):
         if f.get(k):
@@ -546,7 +402,7 @@ def design_text_from_fields(f: dict) -> str:
     doc = {"magnets": mags, "plate": plate}
     if cond:
         doc["conditions"] = cond
-    return tomli_w.dumps(doc)
+    return document_to_toml(doc)
 
 
 #: The Design page's form fields with their starting values (a demo design: a 2 x 2 NdFeB
@@ -563,9 +419,7 @@ def form_fields_from_design(design) -> dict | None:
     """The form fields (keys of :data:`DESIGN_FORM_DEFAULTS`) that give back ``design``,
     or None when the design holds something the form cannot show (a list of magnets, a
     Br or chi override, an off-centre plate, several grades, a floating-magnet design).
-    Lengths are written so that they read back exactly."""
-    from matdb.design.plate import PlateDesign, _mm as _mm_exact, _temp
-
+    Each quantity is the shortest text that reads back exactly."""
     if not isinstance(design, PlateDesign):
         return None
     m, p, c = design.magnets, design.plate, design.conditions
@@ -573,57 +427,32 @@ def form_fields_from_design(design) -> dict | None:
         return None
     if p.chi_si is not None or p.chi_perp_si is not None or tuple(p.center_m) != (0.0, 0.0):
         return None
-    lo = c.temp_min_k if c.temp_min_k is not None else c.temperature_k
-    hi = c.temp_max_k if c.temp_max_k is not None else c.temperature_k
     if c.temperature_k is not None and (c.temp_min_k is not None or c.temp_max_k is not None):
         return None
+    lo = c.temp_min_k if c.temp_min_k is not None else c.temperature_k
+    hi = c.temp_max_k if c.temp_max_k is not None else c.temperature_k
     lo = lo if lo is not None else hi
     hi = hi if hi is not None else lo
-    from matdb.design.plate import _q
-    from matdb.units import parse_length, parse_mass, parse_temperature
 
-    def _mm(v: float) -> str:  # shortest text that reads back exactly
-        for digits in range(1, 17):
-            t = f"{v * 1e3:.{digits}g} mm"
-            if parse_length(t, "length") == v:
-                return t
-        return _mm_exact(v)
-
-    def _g(v: float) -> str:
-        for digits in range(1, 17):
-            t = f"{v * 1e3:.{digits}g} g"
-            if parse_mass(t, "mass") == v:
-                return t
-        return _q(v, "kg", "g", 1e-3)
-
-    def _t(v: float) -> str:
-        for digits in range(1, 17):
-            t = f"{kelvin_to_celsius(v):.{digits}g} degC"
-            if parse_temperature(t, "temperature") == v:
-                return t
-        return _temp(v)
+    def mm(v: float) -> str:
+        return exact_quantity(v, "m", "mm", 1e-3)
 
     return dict(
-        shape=m.shape, size=", ".join(_mm(v) for v in m.size), grade=m.grade, pattern=m.pattern,
-        rows=int(m.rows), cols=int(m.cols), spacing=_mm(m.spacing_m), back_plate=bool(m.back_plate),
-        cover=_mm(m.cover_m), material=p.material, plate_shape=p.shape,
-        plate_size=", ".join(_mm(v) for v in p.size), payload=_g(p.payload_kg),
-        payload_height=_mm(p.payload_height_m), min_gap=_mm(p.min_gap_m),
-        temp_min="" if lo is None else _t(lo), temp_max="" if hi is None else _t(hi))
+        shape=m.shape, size=", ".join(mm(v) for v in m.size), grade=m.grade, pattern=m.pattern,
+        rows=int(m.rows), cols=int(m.cols), spacing=mm(m.spacing_m), back_plate=bool(m.back_plate),
+        cover=mm(m.cover_m), material=p.material, plate_shape=p.shape,
+        plate_size=", ".join(mm(v) for v in p.size), payload=exact_quantity(p.payload_kg, "kg", "g", 1e-3),
+        payload_height=mm(p.payload_height_m), min_gap=mm(p.min_gap_m),
+        temp_min="" if lo is None else exact_temperature(lo), temp_max="" if hi is None else exact_temperature(hi))
 
 
 def canonical_design_text(design, text: str) -> str:
-    """One text per design content (the cache key of its results): a floating-plate design
-    written back by :func:`matdb.design.plate.design_to_toml` without its name and description,
-    so the same design typed in the form or in the editor computes once; other designs:
-    their text."""
-    from dataclasses import replace
-
-    from matdb.design.plate import PlateDesign, design_to_toml
-
+    """One text per design content (the cache key of its results): the design written back
+    by :func:`matdb.design.toml_io.design_to_toml` without its name and description, so the
+    same design typed in the form or in the editor computes once."""
     if isinstance(design, PlateDesign):
         return design_to_toml(replace(design, name=None, description=None))
-    return text
+    return design_to_toml(replace(design, name="", description=""))
 
 
 def lift_curve_df(result: dict) -> pd.DataFrame:
@@ -701,12 +530,8 @@ def bill_of_materials(design, url: str | None = None) -> pd.DataFrame:
     rows = list(groups.values())
     p = design.plate
     mat = p.material_props or catalog.get_material(p.material, url)
-    if p.shape == "disc":
-        vol = math.pi * (p.size[0] / 2) ** 2 * p.size[1]
-    else:
-        vol = p.size[0] * p.size[1] * p.size[2]
     rows.append({"item": "plate", "size": _size_text(p.shape, p.size), "grade_or_material": mat.id, "count": 1,
-                 "mass_g": vol * mat.density_kg_m3 * 1e3, "price_usd_per_kg": mat.price_usd_per_kg,
+                 "mass_g": body_volume(p.shape, p.size) * mat.density_kg_m3 * 1e3, "price_usd_per_kg": mat.price_usd_per_kg,
                  "illustrative": bool(mat.price_illustrative)})
     df = pd.DataFrame(rows)
     df["cost_usd"] = [None if pr is None or pd.isna(pr) else m * 1e-3 * pr
@@ -719,8 +544,6 @@ def _intervals_text(iv) -> str:
     """Stable side intervals [m] as text in mm ("-" when not computed)."""
     if iv is None:
         return "-"
-    from matdb.analysis.levitate import format_intervals
-
     return format_intervals(iv)
 
 
@@ -831,8 +654,6 @@ def payload_steps(payload_range, steps: int) -> np.ndarray:
 
 def schedule_csv(result: dict) -> str:
     """The schedule as CSV, SI columns (what ``matdb levitate --format csv`` prints)."""
-    from matdb.cli.physics import SCHEDULE_COLUMNS, schedule_records
-
     return csv_text(pd.DataFrame(schedule_records(result), columns=list(SCHEDULE_COLUMNS)), float_format="%.10g")
 
 
@@ -917,8 +738,6 @@ def advisor_verdicts(df: pd.DataFrame) -> list[str]:
 def ranking_signature(params: dict) -> str:
     """A short stable name of one set of advisor inputs (widget keys that must start over
     when the ranking changes)."""
-    import hashlib
-
     return hashlib.sha256(repr(sorted(params.items())).encode()).hexdigest()[:12]
 
 
@@ -946,9 +765,6 @@ def candidate_label(row) -> str:
 
 def candidate_toml(row: dict, request) -> str:
     """Design-file text of one ranked candidate (what ``matdb advise --save`` writes)."""
-    from matdb.advisor.engine import candidate_design
-    from matdb.design.plate import design_to_toml
-
     return design_to_toml(candidate_design(dict(row), request))
 
 
@@ -975,8 +791,6 @@ def add_status_columns(df: pd.DataFrame, marks: dict[str, dict[str, str]], key: 
     ``chi_si``). Returns the new frame and the column order (each value followed by
     ``<column>_check``). The mark is a letter (v, c, ?, m), never colour alone.
     """
-    from matdb.data.catalog import mark
-
     out = df.copy()
     order: list[str] = []
     for c in df.columns:
@@ -984,7 +798,7 @@ def add_status_columns(df: pd.DataFrame, marks: dict[str, dict[str, str]], key: 
         if c in columns:
             f = columns[c]
             out[f"{c}_check"] = [
-                (mark(marks.get(k, {}).get(f)) if v is not None and not (isinstance(v, float) and math.isnan(v))
+                (catalog.mark(marks.get(k, {}).get(f)) if v is not None and not (isinstance(v, float) and math.isnan(v))
                  else "")
                 for k, v in zip(df[key], df[c])]
             order.append(f"{c}_check")
@@ -993,9 +807,7 @@ def add_status_columns(df: pd.DataFrame, marks: dict[str, dict[str, str]], key: 
 
 def sources_table(url: str | None = None) -> pd.DataFrame:
     """The bibliography with the number of stored values each supports, by status."""
-    from matdb.data.catalog import sources_summary
-
-    rows = sources_summary(url=url)
+    rows = catalog.sources_summary(url=url)
     return pd.DataFrame(rows, columns=["key", "kind", "year", "values", "verified", "corrected",
                                        "unverified", "citation", "note"])
 
@@ -1003,15 +815,13 @@ def sources_table(url: str | None = None) -> pd.DataFrame:
 def value_check_marks(rows: Sequence[dict], field: str = "value_published") -> list[str]:
     """Status mark of one number in each value row of :func:`matdb.data.labvalues.history`
     (``m`` for a lab measurement)."""
-    from matdb.data.catalog import mark
-
     out = []
     for r in rows:
         if r.get("value_kind") == "measured":
             out.append("m")
             continue
         st = next((p["status"] for p in (r.get("provenance") or []) if p.get("field") == field), None)
-        out.append(mark(st))
+        out.append(catalog.mark(st))
     return out
 
 
@@ -1026,10 +836,6 @@ def optimised_frame(rows: list[dict]) -> pd.DataFrame:
 
 def optimised_toml(result, index: int = 0) -> str:
     """TOML text of one design of an optimiser result (the best by default)."""
-    from matdb.data import catalog
-    from matdb.design.plate import design_to_toml
-    from matdb.analysis.synthesis import design_of
-
     r = result.rows[index]
     return design_to_toml(design_of(r["sizing"], result.request, catalog.get_material(r["material"]),
                                     catalog.get_grade(r["grade"])))

@@ -594,7 +594,7 @@ def build_report(text: str, *, source_name: str = "design.toml", url: str | None
     ``levitate_fn`` replaces :func:`matdb.analysis.levitate.levitate` (the page passes its cached
     call). Raises :class:`~matdb.errors.InputError` for a bad design.
     """
-    from matdb.design.plate import load_design_text
+    from matdb.design import load_design_text
     from matdb.physics.thermal import SAFETY_TEXT
 
     design = load_design_text(text, source=source_name)

@@ -5,7 +5,7 @@ import streamlit as st
 
 from matdb.advisor import engine as advisor
 from matdb.analysis.levitate import LARGE_MAGNET_M, LARGE_MAGNET_MASS_KG
-from matdb.design.plate import load_design_text
+from matdb.design import load_design_text
 from matdb.errors import MatdbError
 from matdb.reporting import presentation
 from matdb.physics.thermal import SAFETY_TEXT

@@ -9,8 +9,7 @@ import streamlit as st
 from matdb.analysis import dynamics as dyn_mod
 from matdb.analysis import magnet_synthesis as synth
 from matdb.data import saved_designs as saved
-from matdb.design import floating as design_mod_stab
-from matdb.design.plate import load_design_text
+from matdb.design import design_to_toml, load_design_text, parse_payload_range
 from matdb.errors import MatdbError
 from matdb.physics.thermal import SAFETY_TEXT
 from matdb.reporting import charts
@@ -74,7 +73,7 @@ with left:
         size_help = {"cuboid": "x, y, height", "cylinder": "diameter, height",
                      "ring": "outer diameter, inner diameter, height"}[shape]
         size = st.text_input(f"Magnet size ({size_help})", key="d_size")
-        for i, part in enumerate(presentation._split_lengths(size)):
+        for i, part in enumerate(presentation.split_lengths(size)):
             sh.checked(lambda v: parse_length(v, "size", positive=True), part, f"magnet size, value {i + 1}")
         grade = st.selectbox("Grade", glist, key="d_grade")
         pattern = st.selectbox("Arrangement", list(presentation.FORM_PATTERNS), key="d_pattern")
@@ -91,7 +90,7 @@ with left:
         pshape = st.selectbox("Plate shape", ["rectangle", "disc"], key="d_pshape")
         psize = st.text_input("Plate size (" + ("x, y, thickness" if pshape == "rectangle" else "diameter, thickness")
                               + ")", key="d_psize")
-        for i, part in enumerate(presentation._split_lengths(psize)):
+        for i, part in enumerate(presentation.split_lengths(psize)):
             sh.checked(lambda v: parse_length(v, "plate size", positive=True), part, f"plate size, value {i + 1}")
         payload = st.text_input("Payload mass", key="d_payload")
         sh.checked(lambda v: parse_mass(v, "payload"), payload, "payload mass")
@@ -273,7 +272,7 @@ with right:
                               key="d_resolution")
         payloads, res_m = None, None
         if prange.strip():
-            rng = sh.checked(lambda v: design_mod_stab.parse_payload_range(v, "payload range"), prange, "payload range")
+            rng = sh.checked(lambda v: parse_payload_range(v, "payload range"), prange, "payload range")
             if rng is not None:
                 payloads = tuple(float(x) for x in presentation.payload_steps(rng, int(steps)))
         if shift.strip():
@@ -321,7 +320,7 @@ with right:
             s_mats = s3.multiselect("Plate materials", list(synth.DEFAULT_MATERIALS),
                                     default=list(synth.DEFAULT_MATERIALS), key="fm_s_mats")
             if st.button("Search designs", key="fm_s_go"):
-                rng = sh.checked(lambda v: design_mod_stab.parse_payload_range(v, "payload range"), s_range,
+                rng = sh.checked(lambda v: parse_payload_range(v, "payload range"), s_range,
                                  "payload range to float")
                 win = sh.checked(lambda v: parse_length(v, "window", positive=True), s_win, "smallest window")
                 if rng is not None and win is not None:
@@ -332,7 +331,7 @@ with right:
                                            progress=lambda f, t="": bar.progress(min(max(f, 0.0), 1.0), text=t[:90]))
                         best = next((d for r, d in zip(res.rows, res.designs) if r["feasible"] and d is not None),
                                     None)
-                        best_text = None if best is None else design_mod_stab.to_toml(best)
+                        best_text = None if best is None else design_to_toml(best)
                         st.session_state["fm_search"] = (synth.records(res), res.message, res.notes, best_text)
                     except MatdbError as exc:
                         st.error(sh.plain(f"search: {exc}"))

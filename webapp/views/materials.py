@@ -4,6 +4,7 @@ import altair as alt
 import pandas as pd
 import streamlit as st
 
+from matdb.analysis import reach
 from matdb.reporting import presentation
 from matdb.errors import MatdbError
 from matdb.units import CONVENTIONS
@@ -31,17 +32,14 @@ st.caption(
     "value along the c axis, the one a plate lying flat over magnets feels."
 )
 reach_df, band, reach_msg = None, None, ""
-if presentation.field_engine_available():
-    try:
-        reach_bar = st.empty()
-        reach_bar.progress(0.1, text="Computing the field of common magnet arrangements...")
-        reach_df = sh.arrangement_reach(url)
-        reach_bar.empty()
-        band = presentation.reach_band(reach_df)
-    except MatdbError as exc:
-        reach_msg = f"range of common arrangements: {exc}"
-else:
-    reach_msg = "The range that common magnet arrangements reach needs the field engine, which is not available yet."
+try:
+    reach_bar = st.empty()
+    reach_bar.progress(0.1, text="Computing the field of common magnet arrangements...")
+    reach_df = sh.arrangement_reach(url)
+    reach_bar.empty()
+    band = reach.reach_band(reach_df)
+except MatdbError as exc:
+    reach_msg = f"range of common arrangements: {exc}"
 
 need = presentation.levitation_requirements(mats, band)
 diam = need[need["required_t2_m"].notna()].copy()
