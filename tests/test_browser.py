@@ -314,3 +314,39 @@ def test_design_dynamics_section_in_browser(server, browser):
         assert page.outside == [], f"fetched outside resources: {page.outside[:5]}"
     finally:
         page.close()
+
+
+def test_design_result_is_cached_and_a_new_lab_value_recomputes(server, browser):
+    """Regression check of the results cache in the real browser: a second visit reads the
+    result from the cache; a measured value of the plate material that takes over computes
+    afresh (a weaker diamagnet floats lower: lift is proportional to |chi|, Simon and Geim,
+    J. Appl. Phys. 87, 6200 (2000)); after its retraction the first result comes back."""
+    from matdb.data import catalog
+    from matdb.data import labvalues
+
+    def visit() -> tuple[str, str]:
+        page = _open_at(browser, f"{server}/design", 1400)
+        try:
+            _ready(page, "Design")
+            page.locator('[data-testid="stMetric"]').first.wait_for(timeout=300_000)
+            _no_exception(page, "Design")
+            how = page.get_by_text("results cache", exact=False).or_(page.get_by_text("Computed now", exact=False))
+            return _metric_text(page, "Equilibrium gap"), how.first.inner_text()
+        finally:
+            page.close()
+
+    first, _ = visit()
+    again, how = visit()
+    assert again == first and how.startswith("From the results cache"), how
+    pg = catalog.get_material("pyrolytic-graphite")
+    row = labvalues.record_material_value(
+        "pyrolytic-graphite", chi_perp=repr(pg.chi_perp_si * 0.9), chi_par=repr(pg.chi_par_si),
+        source="regression check: browser cache test", date="2026-10-06")
+    try:
+        weaker, how = visit()
+        assert how.startswith("Computed now"), how
+        assert float(weaker.split()[0]) < float(first.split()[0]), (weaker, first)
+    finally:
+        labvalues.retract(row["value_id"], "browser cache test done", "pyrolytic-graphite")
+    back, how = visit()
+    assert back == first and how.startswith("From the results cache"), how
