@@ -7,9 +7,10 @@ import math
 import os
 import sys
 from pathlib import Path
-from typing import Any, Iterable, Sequence
+from typing import TYPE_CHECKING, Any, Iterable, Sequence
 
-import pandas as pd
+if TYPE_CHECKING:
+    import pandas as pd
 
 from matdb.errors import InputError
 
@@ -52,6 +53,8 @@ def csv_text(data, columns: Sequence[str] | None = None, float_format: str | Non
     written exactly (``repr``) unless ``float_format`` is given. The one CSV writer behind
     every download and every ``--format csv``.
     """
+    import pandas as pd  # lazy: tables and JSON need no pandas (keeps `matdb materials` start-up light)
+
     df = data.copy() if isinstance(data, pd.DataFrame) else pd.DataFrame(list(data))
     if columns:
         df = df[[c for c in columns if c in df.columns]]
@@ -202,25 +205,21 @@ def check_output_path(path, field: str) -> Path:
     """
     text = str(path).strip()
     if not text:
-        raise InputError(f"{field}: expected a file name, got an empty one")
+        raise InputError("expected a file name, got an empty one", field=field)
     p = Path(text).expanduser()
     if p.is_dir():
-        raise InputError(f"{field}: {text!r} is a folder, expected a file name")
+        raise InputError(f"{text!r} is a folder, expected a file name", field=field)
     folder = p.parent if str(p.parent) else Path(".")
     if not folder.is_dir():
-        raise InputError(f"{field}: folder {str(folder)!r} does not exist")
+        raise InputError(f"folder {str(folder)!r} does not exist", field=field)
     if not os.access(folder, os.W_OK | os.X_OK) or (p.exists() and not os.access(p, os.W_OK)):
-        raise InputError(f"{field}: cannot write {text!r} (permission denied)")
+        raise InputError(f"cannot write {text!r} (permission denied)", field=field)
     return p
 
 
-def records(df: pd.DataFrame) -> list[dict]:
+def records(df: "pd.DataFrame") -> list[dict]:
     """DataFrame rows as plain dicts with None for missing values."""
     out = []
     for r in df.to_dict(orient="records"):
         out.append({k: (None if (isinstance(v, float) and math.isnan(v)) else v) for k, v in r.items()})
     return out
-
-
-def iter_lines(text: str) -> Iterable[str]:
-    return text.splitlines()

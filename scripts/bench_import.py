@@ -42,7 +42,7 @@ def _write_rows(path: Path, n: int) -> None:
 
 def run() -> dict:
     from matdb.data import db
-    from matdb.data import labvalues
+    from matdb.data import exchange
 
     tmp = Path(tempfile.mkdtemp(prefix="matdb-bench-import-"))
     src = tmp / "rows.csv"
@@ -53,17 +53,17 @@ def run() -> dict:
     try:
         db.reset_engines()
         db.get_engine(url)
-        dry_w, dry_c, _ = _timed(lambda: labvalues.import_file(src, dry_run=True, url=url))
-        imp_w, imp_c, s1 = _timed(lambda: labvalues.import_file(src, url=url))
-        re_w, re_c, s2 = _timed(lambda: labvalues.import_file(src, url=url))
+        dry_w, dry_c, _ = _timed(lambda: exchange.import_file(src, dry_run=True, url=url))
+        imp_w, imp_c, s1 = _timed(lambda: exchange.import_file(src, url=url))
+        re_w, re_c, s2 = _timed(lambda: exchange.import_file(src, url=url))
         dump = tmp / "dump.csv"
-        exp_w, _, text = _timed(lambda: labvalues.export("csv", url))
+        exp_w, _, text = _timed(lambda: exchange.export("csv", url))
         dump.write_text(text, encoding="utf-8")
         url_b = f"sqlite:///{tmp / 'b.sqlite'}"
         os.environ["MATDB_URL"] = url_b
         db.reset_engines()
         db.get_engine(url_b)
-        rt_w, rt_c, s3 = _timed(lambda: labvalues.import_file(dump, url=url_b))
+        rt_w, rt_c, s3 = _timed(lambda: exchange.import_file(dump, url=url_b))
     finally:
         if old is None:
             os.environ.pop("MATDB_URL", None)

@@ -31,7 +31,7 @@ def run() -> dict:
     old = os.environ.get("MATDB_CACHE_DIR")
     os.environ["MATDB_CACHE_DIR"] = tmp
     try:
-        from matdb.advisor import engine as A
+        from matdb import advisor as A
         from matdb.analysis import levitate  # noqa: F401  (imports are not part of "cold")
         from matdb.analysis import synthesis as S
 
@@ -55,6 +55,7 @@ def run() -> dict:
             "best_margin": best.get("margin"), "start_margin": (res2.start or {}).get("margin"),
             "improvement_pct": None if res2.improvement is None else 100 * res2.improvement,
             "load_average_1min_before": load0, "load_average_1min_after": os.getloadavg()[0],
+            "cores": os.cpu_count(),
         }
     finally:
         if old is None:

@@ -263,7 +263,7 @@ def test_advisor_second_ranking_box_follows_and_open_fills_the_form(server, brow
 
 def test_lab_values_record_clears_the_form_and_the_box_follows(server, browser):
     from matdb.data import catalog
-    from matdb.data import labvalues
+    from matdb.data import lab_store
 
     before = catalog.get_material("copper")
     page = _open_at(browser, f"{server}/lab_values", 1400)
@@ -294,7 +294,7 @@ def test_lab_values_record_clears_the_form_and_the_box_follows(server, browser):
     finally:
         page.close()
         if new_id is not None:
-            labvalues.retract(new_id, "browser test entry, removed", "copper")
+            lab_store.retract(new_id, "browser test entry, removed", "copper")
 
 
 def test_design_dynamics_section_in_browser(server, browser):

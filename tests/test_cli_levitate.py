@@ -231,13 +231,13 @@ def test_levitate_bad_design(run_cli, tmp_path):
 
 
 def test_floating_magnet_designs_dispatch(monkeypatch):
-    # levitate hands non-plate designs to matdb.physics.stabilized.levitate_stabilized
+    # levitate hands non-plate designs to matdb.analysis.floating.levitate_stabilized
     import sys
     import types
 
-    fake = types.ModuleType("matdb.physics.stabilized")
+    fake = types.ModuleType("matdb.analysis.floating")
     fake.levitate_stabilized = lambda design, temp_k=None: {"mode": "stabilized", "t": temp_k}
-    monkeypatch.setitem(sys.modules, "matdb.physics.stabilized", fake)
+    monkeypatch.setitem(sys.modules, "matdb.analysis.floating", fake)
     assert levitate(object(), temp_k=300.0) == {"mode": "stabilized", "t": 300.0}
 
 

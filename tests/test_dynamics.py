@@ -386,8 +386,9 @@ def test_conductivity_lookup_and_override():
 
 
 def test_record_q_requires_source_and_derives_ring_down(fresh_db):
-    with pytest.raises(InputError, match="--source"):
+    with pytest.raises(InputError, match="source") as info:
         record_q_value("pyrolytic-graphite", q=40, source="", url=fresh_db)
+    assert info.value.field == "source"
     assert list_q_values(url=fresh_db) == []
     row = record_q_value("pyrolytic-graphite", q="40", frequency="16 Hz", pressure="1e-3 Pa",
                          mode="vertical", source="demo ring-down, notebook 2 p. 5", url=fresh_db)
@@ -431,7 +432,7 @@ def test_advisor_lowest_noise_floor_and_minimum_q():
     damping (Chen et al. 2022), so it ranks above pyrolytic graphite; a minimum Q of 100
     rejects the eddy-limited graphite plate with the reason in words. Rows shown are
     solved exactly."""
-    from matdb.advisor import engine as A
+    from matdb import advisor as A
 
     arrs = [A.ArrangementSpec("cuboid", (0.0127,) * 3, "checkerboard", 2, 2)]
     df = A.advise("0 g", "10 mm x 10 mm", thickness="0.5 mm",

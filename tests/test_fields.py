@@ -548,3 +548,39 @@ def test_shapes_and_single_point():
     b = cuboid_B((0, 0, 0.01), [(0.01, 0.01, 0.01)], [(0, 0, 1)], [(0, 0, 0)])
     assert b.shape == (1, 3)
     assert cylinder_B(np.zeros((0, 3)), [0.01], [0.01], [1.0], [(0, 0, 0)]).shape == (0, 3)
+
+
+def test_grouped_corner_sums_match_magpylib_near_edges_faces_corners_and_far():
+    # the kernel combines logarithms of corners sharing coefficients (log of a product)
+    # and pairs arctangents along corner lines (tangent of a difference, Abramowitz and
+    # Stegun 4.4.34, with its branch); magpylib sums every corner term separately
+    rows = cols = 4
+    a = 0.01
+    xs = (np.arange(cols) - 1.5) * a
+    pos = np.array([[x, y, -a / 2] for y in xs for x in xs])
+    dims = np.full((rows * cols, 3), a)
+    sign = np.array([(-1) ** (i + j) for j in range(rows) for i in range(cols)], dtype=float)
+    pols = np.column_stack([0.2 * sign, -0.1 * sign, 1.3 * sign])  # all three components
+    coll = magpy.Collection(*[magpy.magnet.Cuboid(polarization=j, dimension=d, position=c)
+                              for d, j, c in zip(dims, pols, pos)])
+    corners = np.array([[x, y, z] for x in np.r_[xs - a / 2, xs[-1] + a / 2]
+                        for y in np.r_[xs - a / 2, xs[-1] + a / 2] for z in (-a, 0.0)])
+    pick = corners[RNG.choice(len(corners), 40)]
+    offs = RNG.normal(size=(40, 3))
+    pts = np.concatenate([
+        pick + 1e-6 * a * offs,  # next to corners
+        pick + np.array([0.3 * a, 1e-4 * a, 1e-4 * a]) * np.sign(offs),  # next to edge lines
+        pick + np.array([3 * a, 1e-7 * a, 2e-7 * a]),  # on an edge's extension, off the magnets
+        pick + np.array([0.2 * a, 0.3 * a, 1e-9 * a]) * np.sign(offs),  # next to faces
+        RNG.uniform(-2.5 * a, 2.5 * a, (200, 3)) * np.array([1, 1, 0.4]),  # between the planes
+        RNG.normal(size=(40, 3)) * 1e3 * a,  # far away
+    ])
+    keep = ~_on_cuboid_surface(pts, dims, pos, 1e-8 * a) & ~_near_cuboid_edges(pts, dims, pos, 1e-9 * a)
+    pts = pts[keep]
+    got = cuboid_B(pts, dims, pols, pos)
+    ref = magpy.getB(coll, pts)
+    assert np.max(np.abs(got - ref)) < _tol(ref)
+    # where the field is not tiny, also per point (far away the sums cancel to rounding)
+    norm = np.linalg.norm(ref, axis=1)
+    big = norm > 1e-3
+    assert np.all(np.linalg.norm(got - ref, axis=1)[big] <= 1e-9 * norm[big] + 1e-12)

@@ -3,6 +3,7 @@ that range (Streamlit AppTest, in-process; database of tests/conftest.py)."""
 
 from __future__ import annotations
 
+import tomllib
 from pathlib import Path
 
 import numpy as np
@@ -10,6 +11,9 @@ import pytest
 
 pytest.importorskip("streamlit")
 from streamlit.testing.v1 import AppTest
+
+from matdb.analysis import magnet_synthesis as M  # noqa: E402 (after the streamlit skip)
+from matdb.design import parse_stabilized  # noqa: E402
 
 REPO = Path(__file__).resolve().parent.parent
 APP = str(REPO / "webapp" / "app.py")
@@ -45,8 +49,6 @@ def test_design_page_payload_range_schedule():
 def test_design_page_suggests_designs_with_progress(monkeypatch, tmp_path):
     # the search from the page (a reduced size list keeps the test short); every shown
     # design carries feasible and its reasons
-    from matdb.analysis import magnet_synthesis as M
-
     monkeypatch.setenv("MATDB_CACHE_DIR", str(tmp_path / "cache"))
     monkeypatch.setattr(M, "FLOATERS", (("cylinder", (6.35, 3.175)), ("ring", (12.7, 6.35, 6.35))))
     monkeypatch.setattr(M, "LIFTERS", (("cylinder", (25.4, 25.4)), ("cylinder", (50.8, 25.4))))
@@ -61,10 +63,6 @@ def test_design_page_suggests_designs_with_progress(monkeypatch, tmp_path):
     assert len(designs) >= 1 and "feasible" in designs.columns
     assert designs["feasible"].iloc[0]
     # the best design is offered as a design file that parses back (the saved-file contract)
-    import tomllib
-
-    from matdb.design import parse_stabilized
-
     best_text = at.session_state["fm_search"][3]
     d = parse_stabilized(tomllib.loads(best_text))
     assert d.payload_range == pytest.approx((0.0, 1e-3))

@@ -18,12 +18,15 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as hst
+from scipy import integrate
 from scipy.optimize import brentq
 
 from matdb.design import parse_payload_range, parse_stabilized, design_to_toml
 from matdb.errors import InputError
-from matdb.physics import stabilized as S
+from matdb.analysis.floating import levitate_stabilized
 from matdb.constants import MU0
+from matdb.physics import floating as S
+from matdb.reporting.floating_text import format_table
 
 REPO = Path(__file__).resolve().parent.parent
 EXAMPLE = REPO / "examples" / "floating_magnet.toml"
@@ -38,7 +41,7 @@ def demo():
 
 @pytest.fixture(scope="module")
 def ranged(demo):
-    return S.levitate_stabilized(demo, payloads_kg=np.linspace(0.0, 1.5e-3, 6))
+    return levitate_stabilized(demo, payloads_kg=np.linspace(0.0, 1.5e-3, 6))
 
 
 def test_range_rows_keys_and_narrowest_window(ranged):
@@ -69,7 +72,7 @@ def test_payload_brings_the_lifter_closer_and_narrows_the_window(ranged):
 
 def test_dforce_dd_is_the_slope_of_the_pull(demo, ranged):
     # definition: dF/dd by a central difference of the pull against the lifter distance
-    model = S._station_model(demo.stations[0], demo.temperature_k)
+    model = S.station_model(demo.stations[0], demo.temperature_k)
     r = ranged["window"][2]
     D, h = r["lifter_distance_m"], 1e-5
     slope = (model.force(D + h) - model.force(D - h)) / (2 * h)
@@ -82,7 +85,7 @@ def test_resolution_step_moves_the_floater_a_tenth_of_its_clearance(demo, ranged
     # equilibrium with the lifter's real pull and the plates' restoring force; the floater
     # rises by a tenth of its clearance to the nearer plate (small-step linearisation)
     st = demo.stations[0]
-    model = S._station_model(st, demo.temperature_k)
+    model = S.station_model(st, demo.temperature_k)
     r = ranged["window"][0]
     a = st.plates.distance
     clearance = a - st.floater.size[-1] / 2
@@ -99,8 +102,8 @@ def test_resolution_step_moves_the_floater_a_tenth_of_its_clearance(demo, ranged
 
 def test_given_resolution_scales_the_step(demo):
     # the step is proportional to the allowed floater shift (linear statics)
-    a = S.levitate_stabilized(demo, payloads_kg=[0.0], resolution_m=10e-6)["window"][0]["resolution_m"]
-    b = S.levitate_stabilized(demo, payloads_kg=[0.0], resolution_m=20e-6)["window"][0]["resolution_m"]
+    a = levitate_stabilized(demo, payloads_kg=[0.0], resolution_m=10e-6)["window"][0]["resolution_m"]
+    b = levitate_stabilized(demo, payloads_kg=[0.0], resolution_m=20e-6)["window"][0]["resolution_m"]
     assert b == pytest.approx(2 * a, rel=1e-9)
 
 
@@ -112,8 +115,8 @@ def test_row_drift_matches_rebalancing_at_another_temperature(demo, ranged):
     r = ranged["window"][3]
     w = st.floater.mass_kg * G + r["payload_kg"] * G
     t = demo.temperature_k
-    d_hot = S._station_model(st, t + 5).balance(w)
-    d_cold = S._station_model(st, t - 5).balance(w)
+    d_hot = S.station_model(st, t + 5).balance(w)
+    d_cold = S.station_model(st, t - 5).balance(w)
     assert r["lifter_distance_drift_um_per_k"] == pytest.approx((d_hot - d_cold) / 10 * 1e6, rel=2e-3)
     assert r["lifter_distance_drift_um_per_k"] < 0
 
@@ -142,7 +145,7 @@ def test_far_limit_window_edge_matches_the_image_dipole_analysis():
 
 def test_two_stations_rows_are_lists_and_window_min_over_stations():
     d = parse_stabilized(tomllib.loads(TWO.read_text()))
-    r = S.levitate_stabilized(d, payloads_kg=[0.0, 1e-3])
+    r = levitate_stabilized(d, payloads_kg=[0.0, 1e-3])
     for row in r["window"]:
         for k in ("lifter_distance_m", "min_plate_distance_m", "max_plate_distance_m", "lifter_travel_m",
                   "resolution_m", "lifter_distance_drift_um_per_k", "dforce_dd_n_m"):
@@ -156,10 +159,10 @@ def test_no_window_is_null_and_none_in_text(demo):
     # distance at any payload, window_min_m null, the table says "none"
     st = demo.stations[0]
     weak = replace(st, plates=replace(st.plates, chi_perp=-1e-6, chi_par=-1e-6, distance=None))
-    r = S.levitate_stabilized(replace(demo, stations=(weak,)), payloads_kg=[0.0, 1e-4])
+    r = levitate_stabilized(replace(demo, stations=(weak,)), payloads_kg=[0.0, 1e-4])
     assert r["window_min_m"] is None
     assert all(row["max_plate_distance_m"] is None and row["min_plate_distance_m"] is None for row in r["window"])
-    text = S.format_table(r)
+    text = format_table(r)
     assert re.search(r"stable plate distance, finite-size\s+none", text)
     assert " to -" not in text
 
@@ -177,7 +180,7 @@ def test_design_file_payload_range_round_trip(demo):
     d = replace(demo, payload_range=(0.0, 1e-3))
     back = parse_stabilized(tomllib.loads(design_to_toml(d)))
     assert back.payload_range == pytest.approx((0.0, 1e-3))
-    r = S.levitate_stabilized(back, n_window=3)
+    r = levitate_stabilized(back, n_window=3)
     assert [row["payload_kg"] for row in r["window"]] == pytest.approx([0.0, 5e-4, 1e-3])
 
 
@@ -216,12 +219,12 @@ def test_cli_payload_range_errors(run_cli):
 def test_dipole_values_are_labelled_comparisons(demo):
     # Simon, Heflinger and Geim (2001) point-dipole images overstate the plates'
     # stiffness near a real (finite) floater; the verdict keeps the finite-size model
-    r = S.levitate_stabilized(demo)
+    r = levitate_stabilized(demo)
     assert r["verdict_model"] == "finite-size"
     assert r["plate_stiffness_dipole_ratio"] == pytest.approx(r["k_plates_dipole_n_m"] / r["k_plates_n_m"], rel=1e-9)
     assert r["plate_stiffness_dipole_ratio"] > 1
     assert r["max_plate_distance_dipole_m"] > r["max_plate_distance_m"]
-    text = S.format_table(r)
+    text = format_table(r)
     assert "image-dipole idealisation" in text and "unsafe" in text and "comparison only" in text
     assert any("image-dipole idealisation" in w for w in r["warnings"])
 
@@ -229,8 +232,6 @@ def test_dipole_values_are_labelled_comparisons(demo):
 def _dipole_square_integral(m, s, w, chi_perp, chi_par):
     """Weighted B^2 of Jackson's vertical point dipole (eq. 5.56) over a w x w square at
     height s, by scipy's dblquad (quarter square times 4)."""
-    from scipy import integrate
-
     C = MU0 / (4 * math.pi)
 
     def f(y, x):
@@ -281,8 +282,8 @@ def test_plates_narrower_than_the_floater_are_refused_and_narrow_ones_warned():
     d = parse_stabilized(doc)
     assert d.stations[0].plates.width == pytest.approx(7e-3)
     assert parse_stabilized(tomllib.loads(design_to_toml(d))).stations[0].plates.width == pytest.approx(7e-3)
-    r = S.levitate_stabilized(d, payloads_kg=[0.0])
-    wide = S.levitate_stabilized(parse_stabilized(tomllib.loads(EXAMPLE.read_text())), payloads_kg=[0.0])
+    r = levitate_stabilized(d, payloads_kg=[0.0])
+    wide = levitate_stabilized(parse_stabilized(tomllib.loads(EXAMPLE.read_text())), payloads_kg=[0.0])
     assert r["plate_width_m"] == pytest.approx(7e-3)
     assert r["k_plates_n_m"] < r["k_plates_wide_n_m"]
     assert r["k_plates_wide_n_m"] == pytest.approx(wide["k_plates_n_m"], rel=1e-3)
@@ -314,5 +315,5 @@ _MODEL = {}
 def _model_cached():
     if "m" not in _MODEL:
         demo = parse_stabilized(tomllib.loads(EXAMPLE.read_text()))
-        _MODEL["m"] = S._station_model(demo.stations[0], demo.temperature_k)
+        _MODEL["m"] = S.station_model(demo.stations[0], demo.temperature_k)
     return _MODEL["m"]

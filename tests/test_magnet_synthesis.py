@@ -6,15 +6,17 @@ from __future__ import annotations
 import argparse
 import json
 import math
+import os
 import tomllib
 
 import numpy as np
 import pytest
 
 from matdb.analysis import magnet_synthesis as M
+from matdb.cli import optimise_fm
 from matdb.design import parse_stabilized, design_to_toml
-from matdb.physics import stabilized as S
 from matdb.constants import MU0
+from matdb.physics import floating as S
 
 G = 9.80665  # standard gravity (scipy.constants.g)
 SMALL = dict(floaters=(("cylinder", (6.35, 3.175)), ("cuboid", (5.0, 5.0, 5.0)), ("ring", (12.7, 6.35, 6.35))),
@@ -37,7 +39,7 @@ def test_pull_table_vs_magpylib(lifter, floater):
     magpy = pytest.importorskip("magpylib")
     lb, fb = S.Body(lifter[0], lifter[1], 1.3), S.Body(floater[0], floater[1], 1.2)
     d = np.array([5e-3, 15e-3, 40e-3])
-    ours = M.pull_table(lb, fb, d)
+    ours = S.axial_pull(lb, fb, d)
 
     def magnet(shape, size, j, z):
         if shape == "cuboid":
@@ -57,7 +59,7 @@ def test_pull_table_vs_magpylib(lifter, floater):
 def test_pull_interpolation_error_is_checked_and_small():
     # the tabulated pull (spline in log-log) against the direct quadrature between nodes,
     # and the balance it gives against the direct pull (statics)
-    p = M._pull("cylinder", (25.4e-3, 25.4e-3), "cylinder", (6.35e-3, 3.175e-3))
+    p = M.unit_pull("cylinder", (25.4e-3, 25.4e-3), "cylinder", (6.35e-3, 3.175e-3))
     assert p.error < 2e-3
     lifter, floater = S.Body("cylinder", (25.4e-3, 25.4e-3), 1.0), S.Body("cylinder", (6.35e-3, 3.175e-3), 1.0)
     target = 0.3 * p.f_peak
@@ -80,7 +82,7 @@ def test_scaled_plate_table_matches_the_direct_finite_size_model(shape, size):
     body = S.Body(shape, size, 1.0)
     fp = S.FinitePlates(body, cz, ch, t)
     for a in (body.half_height + 0.5e-3, body.half_height + 3e-3):
-        assert M._plate_k_unit(shape, size, cz, ch, t, a) == pytest.approx(fp.stiffness_direct(a), rel=3e-3)
+        assert M.plate_stiffness_unit(shape, size, cz, ch, t, a) == pytest.approx(fp.stiffness_direct(a), rel=3e-3)
 
 
 def test_plate_table_far_limit_is_the_image_dipole_result():
@@ -88,15 +90,13 @@ def test_plate_table_far_limit_is_the_image_dipole_result():
     # [a^-5 - (a+t)^-5] for a point dipole between two slabs (isotropic chi)
     body = S.Body("cylinder", (2e-3, 1e-3), 1.0)
     chi, t, a = -1.7e-4, 2e-3, 30e-3
-    k = M._plate_k_unit("cylinder", body.size, chi, chi, t, a)
+    k = M.plate_stiffness_unit("cylinder", body.size, chi, chi, t, a)
     shg = 3 * MU0 * abs(chi) * body.moment**2 / (8 * math.pi) * (a**-5 - (a + t) ** -5)
     assert k == pytest.approx(shg, rel=1e-2)
 
 
 @pytest.fixture(scope="module")
 def small_result(tmp_path_factory):
-    import os
-
     os.environ.setdefault("MATDB_CACHE_DIR", str(tmp_path_factory.getbasetemp() / "synthesis-cache"))
     req = M.FMRequest(payload_range_kg=(0.0, 1e-3), top=1, stations=(1, 2))
     seen = []
@@ -156,8 +156,6 @@ def test_rejected_designs_keep_their_reasons():
 
 
 def test_add_arguments_adds_only_missing_options():
-    from matdb.cli import optimise_fm
-
     p = argparse.ArgumentParser()
     p.add_argument("--format", choices=["table", "json", "csv"], default="table")
     p.add_argument("--budget")

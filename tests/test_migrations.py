@@ -7,9 +7,6 @@ from __future__ import annotations
 import os
 import shutil
 import sqlite3
-import subprocess
-import sys
-import time
 import uuid
 from pathlib import Path
 
@@ -17,7 +14,7 @@ import pytest
 
 from matdb.data import catalog
 from matdb.data import db
-from matdb.data import labvalues
+from matdb.data import lab_store
 from matdb.data import migrate
 from matdb.errors import DataError
 
@@ -119,7 +116,7 @@ def test_upgrade_of_pre_alembic_database_keeps_every_row(pre_alembic):
     assert len(backups) == 1 and _rows(backups[0], tables) == before  # the copy is the file as it was
     # the lab values still behave: the chosen value is in use, the retraction and its reason kept
     assert catalog.get_material("bismuth", url).value_id == 22
-    hist = {r["value_id"]: r for r in labvalues.history("bismuth", url)}
+    hist = {r["value_id"]: r for r in lab_store.history("bismuth", url)}
     assert hist[23]["retracted"] and hist[23]["retract_reason"] == "demo: holder magnetic"
     # opening again is a no-op: no second backup
     _open(url)
@@ -205,17 +202,6 @@ def test_migrate_command_line(pre_alembic, capsys):
 
 # ------------------------------------------------------------------ concurrent first use
 
-_OPENER = """
-import sys, time
-from pathlib import Path
-from matdb.cli import main            # the slow imports happen before the start signal
-go, i = Path(sys.argv[1]), sys.argv[2]
-Path(sys.argv[1] + '.ready' + i).touch()
-while not go.exists():
-    time.sleep(0.01)
-sys.exit(main(['record', 'material', 'bismuth', '--chi', '-1.6' + i + 'e-4', '--source', 'opener ' + i]))
-"""
-
 
 def _pg_admin():
     import psycopg
@@ -242,30 +228,14 @@ def empty_backend(request, tmp_path):
 
 
 @pytest.mark.slow
-def test_eight_processes_opening_an_empty_database_at_once(empty_backend, tmp_path):
+def test_eight_processes_opening_an_empty_database_at_once(empty_backend, tmp_path, simultaneous_records):
     n = 8
-    go = tmp_path / "go"
-    env = dict(os.environ, MATDB_URL=empty_backend)
-    procs = [subprocess.Popen([sys.executable, "-c", _OPENER, str(go), str(i)], env=env, cwd=REPO,
-                              stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
-             for i in range(n)]
-    try:
-        deadline = time.monotonic() + 180
-        while not all(Path(f"{go}.ready{i}").exists() for i in range(n)):
-            assert time.monotonic() < deadline and all(p.poll() is None for p in procs), "openers did not start"
-            time.sleep(0.02)
-        go.touch()
-        results = [p.communicate(timeout=180) + (p.returncode,) for p in procs]
-    finally:
-        for p in procs:
-            if p.poll() is None:
-                p.kill()
-                p.communicate()
+    results = simultaneous_records(empty_backend, n, "opener")
     assert all(rc == 0 for _, _, rc in results), [err for _, err, rc in results if rc]
-    measured = [r for r in labvalues.history("bismuth", empty_backend) if r["value_kind"] == "measured"]
+    measured = [r for r in lab_store.history("bismuth", empty_backend) if r["value_kind"] == "measured"]
     assert sorted(r["source"] for r in measured) == sorted(f"opener {i}" for i in range(n))
-    handbook = [r for r in labvalues.history("bismuth", empty_backend) if r["value_kind"] != "measured"]
-    assert len(handbook) == len([r for r in labvalues.history("bismuth", _seeded_reference(tmp_path))
+    handbook = [r for r in lab_store.history("bismuth", empty_backend) if r["value_kind"] != "measured"]
+    assert len(handbook) == len([r for r in lab_store.history("bismuth", _seeded_reference(tmp_path))
                                  if r["value_kind"] != "measured"])  # seeded once, not twice
 
 

@@ -373,3 +373,35 @@ def test_lateral_force_and_stiffness_against_plain_midpoint_energy(checker):
     assert q[0] == pytest.approx(-(u[0] - u[2]) / (2 * h), rel=5e-3)
     k = P.combine(P.stiffness_split(checker.B, plate, gap, (cx, 0, gap), dofs=(0,)), *PG.values())
     assert k[0, 0] == pytest.approx((u[0] - 2 * u[1] + u[2]) / h ** 2, rel=1e-2)
+
+
+@pytest.mark.parametrize("side", [0.004, 0.010, 0.020, 0.030])
+def test_staged_verdict_equals_the_full_matrix_verdict(checker, side):
+    # regression check: the staged (verdict-only) path stops early but never changes the
+    # verdict; where it runs to the end it has the full matrix's entries
+    plate = _geom(checker, side)
+    mass = PG_RHO * plate.volume
+    gap = P.equilibrium_gap(checker.B, plate, weight=mass * G_STANDARD, order=4, **PG)
+    assert gap is not None
+    full = P.stability(checker.B, plate, gap, plate_mass=mass, order=4, full=False, **PG)
+    staged = P.stability(checker.B, plate, gap, plate_mass=mass, order=4, full=False,
+                         staged=True, **PG)
+    assert staged.laterally_stable == full.laterally_stable
+    assert staged.k_x == pytest.approx(full.k_x, rel=1e-9)
+    if full.laterally_stable:
+        np.testing.assert_allclose(staged.k, full.k, rtol=1e-9, atol=1e-12 * np.abs(full.k).max())
+
+
+def test_plane_memo_scaled_by_remanence_squared(checker):
+    # Berry & Geim (1997): the energy is quadratic in B, so the lift of the field s B equals
+    # the lift of B with |chi| times s^2; a memo of the field B serves both
+    plate = _geom(checker, 0.010)
+    gaps = np.array([3e-4, 6e-4, 1.2e-3])
+    s = 0.93
+    memo = P.PlaneMemo(checker.B, plate)
+    scaled = P.lift_force(checker.B, plate, gaps, PG["chi_perp_abs"] * s ** 2,
+                          PG["chi_par_abs"] * s ** 2, memo=memo)
+    direct = P.lift_force(lambda p: s * checker.B(p), plate, gaps, **PG)
+    np.testing.assert_allclose(scaled, direct, rtol=1e-12)
+    again = P.lift_force(checker.B, plate, gaps, memo=memo, **PG)
+    np.testing.assert_allclose(again * s ** 2, scaled, rtol=1e-12)

@@ -170,7 +170,7 @@ def test_compare_and_lab_tables_carry_the_marks_too():
     table = presentation.compare_materials(mats, ["antimony", "pmma"], rounded=True, marks=catalog.status_marks()["material"])
     chi = table.loc["chi, SI volume"]
     assert chi["antimony"].endswith(" v") and chi["pmma"].endswith(" ?")
-    from matdb.data import labvalues
+    from matdb.data import lab_store
 
-    rows = labvalues.history("antimony")
+    rows = lab_store.history("antimony")
     assert presentation.value_check_marks(rows) == ["v"]

@@ -312,11 +312,11 @@ def test_pdf_paper_size_and_pages_not_blank(plate_report, tmp_path, paper, size_
 def test_provenance_shows_a_lab_value_with_its_source_note_and_date(fresh_db):
     """A measured value recorded with `matdb record` is the one in use (DEVELOPERS.md):
     the report names it as measured, with the lab's source note, date and uncertainty."""
-    from matdb.data import labvalues
+    from matdb.data import lab_store
     from matdb.design import load_design_text
     from matdb.reporting.report import _number_notes, _provenance
 
-    labvalues.record_material_value("bismuth", chi=-1.62e-4, uncertainty=0.03e-4,
+    lab_store.record_material_value("bismuth", chi=-1.62e-4, uncertainty=0.03e-4,
                                     source="bench SQUID run 7, sample B2", date="2026-11-02", url=fresh_db)
     text = (Path(__file__).resolve().parent / "data" / "plate_bismuth.toml").read_text(encoding="utf-8")
     rows = _provenance(load_design_text(text), fresh_db)

@@ -8,7 +8,7 @@ import json
 
 import pytest
 
-from matdb.advisor import engine as A
+from matdb import advisor as A
 from matdb.errors import InputError
 
 

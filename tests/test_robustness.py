@@ -18,7 +18,8 @@ from pathlib import Path
 import pytest
 
 from matdb import limits, output
-from matdb.data import labvalues
+from matdb.data import exchange
+from matdb.data import lab_store
 
 REPO = Path(__file__).resolve().parent.parent
 DATA = Path(__file__).resolve().parent / "data"
@@ -117,7 +118,7 @@ def test_lab_page_shows_a_note_as_text(fresh_db):
     from webapp._shared import plain
 
     note = "demo: ![img](http://127.0.0.1:9/x.png) <b>bold</b> [link](http://example.invalid)"
-    labvalues.record_material_value("bismuth", chi="-1.6e-4", source=note, date="2026-10-01", url=fresh_db)
+    lab_store.record_material_value("bismuth", chi="-1.6e-4", source=note, date="2026-10-01", url=fresh_db)
     at = AppTest.from_file(str(REPO / "webapp" / "app.py"), default_timeout=120).run()
     at.switch_page("views/lab_values.py").run()
     assert not at.exception, [e.message for e in at.exception]
@@ -212,7 +213,7 @@ def test_readme_states_the_limits():
 # ---------------------------------------------------------------------------- commands
 
 def test_output_path_checked_before_computing(fresh_db, run_cli, monkeypatch, tmp_path):
-    from matdb.advisor import engine as advisor
+    from matdb import advisor
 
     def boom(*a, **k):
         raise AssertionError("computed before checking --save")
@@ -224,7 +225,7 @@ def test_output_path_checked_before_computing(fresh_db, run_cli, monkeypatch, tm
     err = _one_line_error(*run_cli("advise", "--mass", "1 g", "--footprint", "20 mm x 20 mm",
                                    "--save", str(tmp_path)))
     assert "is a folder" in err
-    monkeypatch.setattr(labvalues, "export", boom)
+    monkeypatch.setattr(exchange, "export", boom)
     err = _one_line_error(*run_cli("export", "--out", "/nonexistent/dump.csv"))
     assert "--out" in err
 
@@ -272,32 +273,32 @@ def test_export_import_round_trip_is_exact(fresh_db, run_cli, tmp_path, monkeypa
         code, _, err = run_cli("record", "material", "bismuth", "--chi", "-1.6e-4", "--date", "2026-10-01",
                                "--source", "demo: casting B3, it's '=quoted'")
         assert code == 0, err
-    hist = [r for r in labvalues.history("bismuth", src) if r["value_kind"] == "measured"]
-    labvalues.retract(hist[-1]["value_id"], "demo: holder 'B' was magnetic", "bismuth", src)
-    labvalues.record_material_value("bismuth", chi="-1.5e-4", source="=cmd|' /C calc'!A0", date="2026-10-02",
+    hist = [r for r in lab_store.history("bismuth", src) if r["value_kind"] == "measured"]
+    lab_store.retract(hist[-1]["value_id"], "demo: holder 'B' was magnetic", "bismuth", src)
+    lab_store.record_material_value("bismuth", chi="-1.5e-4", source="=cmd|' /C calc'!A0", date="2026-10-02",
                                     note="demo note: 'apostrophes' kept", url=src)
-    labvalues.record_magnet_value("N42", br="1.28 T", source="@demo gaussmeter", date="2026-10-03", url=src)
-    before = _measured(labvalues.export("json", src))
+    lab_store.record_magnet_value("N42", br="1.28 T", source="@demo gaussmeter", date="2026-10-03", url=src)
+    before = _measured(exchange.export("json", src))
     dump = tmp_path / f"dump.{fmt}"
-    dump.write_text(labvalues.export(fmt, src), encoding="utf-8")
+    dump.write_text(exchange.export(fmt, src), encoding="utf-8")
 
     dst = f"sqlite:///{tmp_path / 'other.sqlite'}"
     monkeypatch.setenv("MATDB_URL", dst)
     db.reset_engines()
-    summary = labvalues.import_file(dump, url=dst)
-    after = _measured(labvalues.export("json", dst))
+    summary = exchange.import_file(dump, url=dst)
+    after = _measured(exchange.export("json", dst))
     assert after == before  # every value, status, reason and note
     assert summary["added"] == len(before)
-    again = labvalues.import_file(dump, url=dst)  # and importing it again adds nothing
-    assert again["added"] == 0 and _measured(labvalues.export("json", dst)) == before
+    again = exchange.import_file(dump, url=dst)  # and importing it again adds nothing
+    assert again["added"] == 0 and _measured(exchange.export("json", dst)) == before
     retracted = [r for r in after if r["retracted"]]
     assert len(retracted) == 1 and retracted[0]["retract_reason"] == "demo: holder 'B' was magnetic"
 
 
 def test_typed_apostrophe_is_kept_on_import(fresh_db, tmp_path):
     f = _write(tmp_path, "typed.csv", "material_id,chi,source,date\nbismuth,-1.6e-4,'=already quoted,2026-10-01\n")
-    labvalues.import_file(f, url=fresh_db)
-    sources = [r["source"] for r in labvalues.history("bismuth", fresh_db) if r["value_kind"] == "measured"]
+    exchange.import_file(f, url=fresh_db)
+    sources = [r["source"] for r in lab_store.history("bismuth", fresh_db) if r["value_kind"] == "measured"]
     assert sources == ["'=already quoted"]
 
 
@@ -337,8 +338,8 @@ def test_note_is_text_in_a_real_browser(tmp_path):
     url = f"sqlite:///{tmp_path / 'browser.sqlite'}"
     db.get_engine(url)
     note = 'demo: <img id="evil-img" src="x"> [evil-link](http://example.invalid) **evilbold**'
-    row = labvalues.record_material_value("bismuth", chi="-1.6e-4", source=note, date="2026-10-01", url=url)
-    labvalues.prefer("bismuth", row["value_id"], url)
+    row = lab_store.record_material_value("bismuth", chi="-1.6e-4", source=note, date="2026-10-01", url=url)
+    lab_store.prefer("bismuth", row["value_id"], url)
     db.reset_engines()
     with served(tmp_path / "streamlit.log", env=dict(os.environ, MATDB_URL=url)) as base:
         with sync_api.sync_playwright() as p:

@@ -70,7 +70,7 @@ def test_bad_input_names_the_field_and_writes_nothing(fresh_db, name, text, note
 def test_duplicate_onto_an_existing_name_writes_nothing(fresh_db):
     sd.save_design("demo a", _text(), url=fresh_db)
     sd.save_design("demo b", _text(), url=fresh_db)
-    with pytest.raises(InputError, match="^new name:"):
+    with pytest.raises(InputError, match="^new_name:"):
         sd.duplicate_design("demo a", "demo b", url=fresh_db)
     with pytest.raises(NotFoundError):
         sd.delete_design("demo c", fresh_db)

@@ -11,7 +11,6 @@ import os
 import signal
 import subprocess
 import sys
-import time
 import uuid
 from pathlib import Path
 
@@ -19,7 +18,7 @@ import pytest
 
 from matdb.data import catalog
 from matdb.data import db
-from matdb.data import labvalues
+from matdb.data import lab_store
 
 DATA = Path(__file__).resolve().parent / "data"
 REPO = Path(__file__).resolve().parent.parent
@@ -55,20 +54,13 @@ def backend(request, tmp_path, monkeypatch):
             conn.execute(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)')
 
 
-def _export(run_cli) -> str:
-    code, out, err = run_cli("export", "--format", "json")
-    assert code == 0, err
-    return out
-
-
 def _env(url: str) -> dict:
     env = dict(os.environ)
     env["MATDB_URL"] = url
-    env.pop("MATDB_TEST_IMPORT_PAUSE_AFTER", None)
     return env
 
 
-def test_record_prefer_retract(backend, run_cli):
+def test_record_prefer_retract(backend, run_cli, export_text):
     code, out, err = run_cli("record", "material", "bismuth", "--chi", "-1.6e-4", "--date", "2026-10-01",
                              "--source", "casting B3", "--format", "json")
     assert code == 0, err
@@ -83,83 +75,66 @@ def test_record_prefer_retract(backend, run_cli):
     assert catalog.get_material("bismuth").value_id == first
     assert run_cli("retract", str(first), "--id", "bismuth", "--reason", "holder magnetic")[0] == 0
     assert catalog.get_material("bismuth").value_id == second
-    rows = {r["value_id"]: r for r in labvalues.history("bismuth")}
+    rows = {r["value_id"]: r for r in lab_store.history("bismuth")}
     assert rows[first]["retracted"] and not rows[first]["preferred"] and rows[second]["preferred"]
     code, out, _ = run_cli("materials", "--format", "json")
     bi = next(m for m in json.loads(out) if m["id"] == "bismuth")
     assert bi["value_kind"] == "measured" and bi["source"] == "bad holder"
-    before = _export(run_cli)
+    before = export_text()
     assert run_cli("record", "material", "bismuth", "--chi", "5 kg", "--source", "x")[0] == 2
     assert run_cli("record", "material", "bismuth", "--chi", "-1e-4", "--source", "")[0] == 2
-    assert _export(run_cli) == before
+    assert export_text() == before
 
 
-def test_import_export_round_trip(backend, run_cli, tmp_path):
+def test_import_export_round_trip(backend, run_cli, tmp_path, export_text):
     code, out, err = run_cli("import", str(DATA / "lab_good.csv"), "--format", "json")
     assert code == 0, err
     added = json.loads(out)["added"]
     assert added > 0
-    snapshot = _export(run_cli)
+    snapshot = export_text()
     code, out, _ = run_cli("import", str(DATA / "lab_good.csv"), "--format", "json")
-    assert json.loads(out)["added"] == 0 and _export(run_cli) == snapshot
+    assert json.loads(out)["added"] == 0 and export_text() == snapshot
     code, _, err = run_cli("import", str(DATA / "lab_bad.csv"))
     assert code == 2 and "line 3" in err
-    assert _export(run_cli) == snapshot
+    assert export_text() == snapshot
     dump = tmp_path / "dump.csv"
     assert run_cli("export", "--format", "csv", "--out", str(dump))[0] == 0
     code, out, _ = run_cli("import", str(dump), "--format", "json")
     assert code == 0 and json.loads(out)["added"] == 0
-    assert _export(run_cli) == snapshot
+    assert export_text() == snapshot
 
 
-_WRITER = """
-import sys, time
-from pathlib import Path
-from matdb.cli import main            # the slow imports happen before the start signal
-go, i = Path(sys.argv[1]), sys.argv[2]
-Path(sys.argv[1] + '.ready' + i).touch()
-while not go.exists():
-    time.sleep(0.01)
-sys.exit(main(['record', 'material', 'bismuth', '--chi', '-1.6' + i + 'e-4', '--source', 'writer ' + i]))
-"""
-
-
-def test_concurrent_writers_all_succeed(backend, tmp_path):
+def test_concurrent_writers_all_succeed(backend, simultaneous_records):
     n = 4
-    go = tmp_path / "go"
-    procs = [subprocess.Popen([sys.executable, "-c", _WRITER, str(go), str(i)], env=_env(backend), cwd=REPO,
-                              stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
-             for i in range(n)]
-    try:
-        deadline = time.monotonic() + 120
-        while not all(Path(f"{go}.ready{i}").exists() for i in range(n)):
-            assert time.monotonic() < deadline and all(p.poll() is None for p in procs), "writers did not start"
-            time.sleep(0.02)
-        go.touch()  # every writer records at the same moment
-        results = [p.communicate(timeout=120) + (p.returncode,) for p in procs]
-    finally:
-        for p in procs:
-            if p.poll() is None:
-                p.kill()
-                p.communicate()
+    results = simultaneous_records(backend, n, "writer")
     assert all(rc == 0 for _, _, rc in results), [err for _, err, rc in results if rc]
-    measured = [r for r in labvalues.history("bismuth", backend) if r["value_kind"] == "measured"]
+    measured = [r for r in lab_store.history("bismuth", backend) if r["value_kind"] == "measured"]
     assert sorted(r["source"] for r in measured) == sorted(f"writer {i}" for i in range(n))
 
 
-def test_killed_import_leaves_the_database_as_it_was(backend, run_cli, tmp_path):
+_PAUSED_IMPORT = """
+import sys, time
+from matdb.data import exchange
+
+def pause(fraction, text):  # called with the rows written, inside the open transaction
+    print('matdb: import paused after ' + text, file=sys.stderr, flush=True)
+    time.sleep(120)
+
+exchange.import_file(sys.argv[1], progress=pause)
+"""
+
+
+def test_killed_import_leaves_the_database_as_it_was(backend, run_cli, tmp_path, export_text):
     big = tmp_path / "big.csv"
     lines = ["material_id,chi,temperature,source,date"]
     lines += [f"bismuth,-1.{i:04d}e-4,{15 + i % 10} degC,batch row {i},2026-09-{1 + i % 28:02d}" for i in range(400)]
     big.write_text("\n".join(lines) + "\n", encoding="utf-8")
-    before = _export(run_cli)
-    env = _env(backend)
-    env["MATDB_TEST_IMPORT_PAUSE_AFTER"] = "150"  # labvalues pauses inside the transaction
-    p = subprocess.Popen([sys.executable, "-m", "matdb", "import", str(big)], env=env, cwd=REPO,
+    before = export_text()
+    p = subprocess.Popen([sys.executable, "-c", _PAUSED_IMPORT, str(big)], env=_env(backend), cwd=REPO,
                          stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
     try:
         line = p.stderr.readline()
-        assert "paused after 150 rows" in line, line + p.stderr.read()
+        assert "paused after 400 of 400 rows written" in line, line + p.stderr.read()
         os.kill(p.pid, signal.SIGKILL)
         p.wait(timeout=30)
     finally:
@@ -169,7 +144,7 @@ def test_killed_import_leaves_the_database_as_it_was(backend, run_cli, tmp_path)
         p.stdout.close()
         p.stderr.close()
     db.reset_engines()
-    assert _export(run_cli) == before
+    assert export_text() == before
     # and the database is usable afterwards
     code, out, err = run_cli("import", str(big), "--format", "json")
     assert code == 0 and json.loads(out)["added"] == 400, err

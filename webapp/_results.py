@@ -20,7 +20,7 @@ from collections import OrderedDict
 
 import streamlit as st
 
-from matdb.advisor import engine as advisor_engine
+from matdb import advisor as advisor_engine
 from matdb.analysis import cache, synthesis
 from matdb.analysis.dynamics import evaluate_dynamics, prepare_dynamics, pressure_sweep_df
 from matdb.design import load_design_text

@@ -18,6 +18,9 @@ import math
 import numpy as np
 import pandas as pd
 
+from matdb.advisor.exact import candidate_design
+from matdb.analysis.dynamics import analyse_dynamics, screening_estimate
+from matdb.data import catalog
 from matdb.errors import MatdbError
 
 OBJECTIVES = ("score", "noise")
@@ -45,9 +48,6 @@ def apply_dynamics_objective(df: pd.DataFrame, req, cat, *, objective: str = "no
         are solved exactly
     pool : feasible rows screened (default ``max(3 * shown, 20)``)
     """
-    from matdb.advisor.engine import candidate_design
-    from matdb.analysis.dynamics import analyse_dynamics, screening_estimate
-
     if objective not in OBJECTIVES:
         raise MatdbError(f"objective: expected one of {', '.join(OBJECTIVES)}, got {objective!r}")
     df = df.copy()
@@ -141,8 +141,7 @@ def rank_optimised(result, *, objective: str = "noise", min_q: float | None = No
     The optimiser shows a few designs (``--top``), so every row is solved exactly (no
     screening needed). Returns the same result object, rows updated and re-ranked.
     """
-    from matdb.data import catalog
-    from matdb.analysis.dynamics import analyse_dynamics
+    # lazy: matdb.analysis.synthesis imports the advisor package (an import cycle at load time)
     from matdb.analysis.synthesis import design_of
 
     kept = []

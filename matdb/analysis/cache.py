@@ -28,7 +28,7 @@ from typing import Any
 
 import joblib
 
-from matdb.advisor import engine
+from matdb import advisor as engine
 from matdb.analysis.levitate import levitate as _levitate_fn
 from matdb.data import catalog
 

@@ -5,7 +5,7 @@ at the operating temperature with the real remanence (not a scaled unit field), 
 the thermal derating, irreversible-loss check, worst-case band and safety distance of
 :mod:`matdb.physics.thermal`, and returns the keys the CLI, the page and later checks
 rely on (see ``CONTRACT_KEYS``). :func:`levitate` dispatches floating-magnet designs to
-:func:`matdb.physics.stabilized.levitate_stabilized`.
+:func:`matdb.analysis.floating.levitate_stabilized`.
 """
 
 from __future__ import annotations
@@ -112,15 +112,36 @@ def _state(t_k: float, res: P.PlateResult, lift_req: float) -> dict[str, Any]:
             "laterally_stable": bool(st.laterally_stable) if st else False}
 
 
+def _field_scale(design: PlateDesign, t_k: float, worst: bool, ref) -> float | None:
+    """``s`` with field(t_k, worst) = s * field of ``ref`` (the rigid arrangement the
+    analysed field was built from), or None when the magnets' remanences do not all
+    change by one factor (mixed grades). The recoil correction is linear in the
+    remanence (``J = S J_r``), so one factor on every ``J_r`` scales the whole field."""
+    other = design.arrangement(t_k, worst=worst, rigid=True)
+    ratios = np.array([m.br / r.br if r.br else np.nan
+                       for m, r in zip(other.magnets, ref.magnets)])
+    if not np.all(np.isfinite(ratios)) or np.ptp(ratios) > 1e-12 * abs(ratios[0]):
+        return None
+    return float(ratios[0])
+
+
 def _state_at(design: PlateDesign, t_k: float, geom: P.PlateGeometry, g_start: float,
-              g_req: float) -> dict[str, Any]:
-    """:func:`_state` of a fresh analysis at ``t_k`` (nominal Br and chi there)."""
-    arr = design.arrangement(t_k)
+              g_req: float, field=None, scale: float | None = None,
+              memo: P.PlaneMemo | None = None) -> dict[str, Any]:
+    """:func:`_state` of a fresh analysis at ``t_k`` (nominal Br and chi there). With
+    ``scale``, ``field`` times ``scale`` is the field at ``t_k`` and the plane integrals
+    of ``memo`` are reused (``|chi|`` scaled by ``scale**2``: the same physics)."""
     cp, cq = _chi_at(design, t_k)
+    if scale is None:
+        field = design.arrangement(t_k).B
+        memo = None
+    else:
+        cp, cq = cp * scale ** 2, cq * scale ** 2
     spec = design.plate
-    res = P.analyse_plate(arr.B, geom, cp, cq, spec.density_kg_m3, spec.payload_kg,
-                          spec.payload_height_m, g_start, g_req, n_gaps=30)
-    lift = float(P.lift_force(arr.B, geom, [g_req], cp, cq)[0])
+    res = P.analyse_plate(field, geom, cp, cq, spec.density_kg_m3, spec.payload_kg,
+                          spec.payload_height_m, g_start, g_req, n_gaps=N_GAPS, memo=memo,
+                          full_stability=False)
+    lift = float(P.lift_force(field, geom, [g_req], cp, cq, memo=memo)[0])
     return _state(t_k, res, lift)
 
 
@@ -182,8 +203,13 @@ def levitate_plate(design: PlateDesign, temp_k: float | None = None,
         warnings.append(f"The required gap {g_req_asked * 1e3:.3g} mm is below the cover sheet "
                         f"plus 0.05 mm; the payload is given at {g_req * 1e3:.3g} mm.")
 
-    res = P.analyse_plate(arr.B, geom, chi_perp, chi_par, density, plate_spec.payload_kg,
-                          plate_spec.payload_height_m, g_start, g_req, n_gaps=N_GAPS)
+    # one memo of plane integrals for every temperature and the worst case: their fields
+    # are this field times a factor (see _field_scale)
+    field = arr.B
+    memo = P.PlaneMemo(field, geom)
+    ref = design.arrangement(t_op, rigid=True)
+    res = P.analyse_plate(field, geom, chi_perp, chi_par, density, plate_spec.payload_kg,
+                          plate_spec.payload_height_m, g_start, g_req, n_gaps=N_GAPS, memo=memo)
     plate_mass = res.plate_mass
     weight = res.weight
     max_payload = res.max_lift / G_STANDARD - plate_mass
@@ -253,12 +279,18 @@ def levitate_plate(design: PlateDesign, temp_k: float | None = None,
 
     # worst case: minimum-spec Br, |chi| minus its uncertainty, hottest temperature
     t_worst = max(t_hot, t_op)
-    arr_w = design.arrangement(t_worst, worst=True)
     cw_perp, cw_par = _chi_worst(design, *_chi_at(design, t_worst))
-    res_w = P.analyse_plate(arr_w.B, geom, cw_perp, cw_par, density, plate_spec.payload_kg,
-                            plate_spec.payload_height_m, g_start, g_req, n_gaps=30,
-                            with_stability=False)
+    s_w = _field_scale(design, t_worst, True, ref)
+    if s_w is None:
+        field_w, memo_w = design.arrangement(t_worst, worst=True).B, None
+    else:
+        field_w, memo_w = field, memo
+        cw_perp, cw_par = cw_perp * s_w ** 2, cw_par * s_w ** 2
+    res_w = P.analyse_plate(field_w, geom, cw_perp, cw_par, density, plate_spec.payload_kg,
+                            plate_spec.payload_height_m, g_start, g_req, n_gaps=N_GAPS,
+                            with_stability=False, memo=memo_w)
     out["gap_worst_m"] = _f(res_w.gap)
+    out["lift_worst_at_required_gap_n"] = float(P.lift_force(field_w, geom, [g_req], cw_perp, cw_par)[0])
     out["max_payload_worst_kg"] = float(max(res_w.max_lift / G_STANDARD - plate_mass, 0.0))
 
     # safety distance, at the temperature of the strongest field
@@ -322,10 +354,11 @@ def levitate_plate(design: PlateDesign, temp_k: float | None = None,
                     "from the magnets (0.5 mT).")
 
     # coldest and hottest temperature side by side (nominal Br and chi there)
-    lift_req = float(P.lift_force(arr.B, geom, [g_req], chi_perp, chi_par)[0])
+    lift_req = float(P.lift_force(field, geom, [g_req], chi_perp, chi_par, memo=memo)[0])
     here = _state(t_op, res, lift_req)
-    out["cold"] = here if t_cold == t_op else _state_at(design, t_cold, geom, g_start, g_req)
-    out["hot"] = here if t_hot == t_op else _state_at(design, t_hot, geom, g_start, g_req)
+    for key, t_k in (("cold", t_cold), ("hot", t_hot)):
+        out[key] = here if t_k == t_op else _state_at(
+            design, t_k, geom, g_start, g_req, field, _field_scale(design, t_k, False, ref), memo)
 
     out["warnings"] = warnings
     # extras
@@ -359,13 +392,14 @@ def levitate_plate(design: PlateDesign, temp_k: float | None = None,
 def levitate(design, temp_k: float | None = None, gap_m: float | None = None, payloads_kg=None,
              resolution_m: float | None = None) -> dict[str, Any]:
     """Plate designs go to :func:`levitate_plate`; floating-magnet designs to
-    :func:`matdb.physics.stabilized.levitate_stabilized` (with the schedule's payloads
+    :func:`matdb.analysis.floating.levitate_stabilized` (with the schedule's payloads
     [kg] and allowed floater shift [m] when given)."""
     if isinstance(design, PlateDesign):
         if payloads_kg is not None or resolution_m is not None:
             raise InputError("payload range: only floating-magnet designs have a payload schedule")
         return levitate_plate(design, temp_k=temp_k, gap_m=gap_m)
-    from matdb.physics.stabilized import levitate_stabilized
+    # lazy: plate-only callers (and the CLI's plate path) skip the floating-magnet physics
+    from matdb.analysis.floating import levitate_stabilized
 
     extra = {}
     if payloads_kg is not None:

@@ -6,18 +6,19 @@ materials and thicknesses, and 1, 2 or 3 floaters sharing a rigid payload. It is
 because everything that does not depend on a grade or a material is tabulated once:
 
 * the lifter's pull on the floater against the lifter distance, for unit polarisations
-  (the pull is bilinear in the two remanences), on a log grid, interpolated by a cubic
-  spline in log-log; its error is checked against the direct quadrature of
-  :func:`matdb.physics.stabilized.lifter_force` at points between the grid nodes;
+  (the pull is bilinear in the two remanences): the
+  :class:`~matdb.physics.floating.lifter.PullTable` of the pair, resampled finely on its
+  falling branch; its error is checked against the direct quadrature
+  (:func:`~matdb.physics.floating.lifter.axial_pull`) halfway between the table's nodes;
 * the plates' plane integrals of ``B_z^2`` and ``B_h^2`` of the floater (the
-  finite-size model of :class:`matdb.physics.stabilized.FinitePlates`), per shape
+  finite-size model of :class:`matdb.physics.floating.plates.FinitePlates`), per shape
   *proportion*: the field of a magnet scaled by ``L`` at points scaled by ``L`` is the
   same, so ``dP/ds(s; L) = (L/L0) dP/ds(s L0/L; L0)`` and one table serves all cubes,
   all cylinders of one aspect ratio, and so on. Grade (``J^2``) and material
   (``|chi_perp|``, ``|chi_par|``) are factors.
 
 Every design that is shown is then re-checked by the exact levitate path
-(:func:`matdb.physics.stabilized.levitate_stabilized` over the payload range); a design
+(:func:`matdb.analysis.floating.levitate_stabilized` over the payload range); a design
 the exact path does not confirm is rejected with that reason. Sizes, prices and the
 default size lists are illustrative: prices come from the catalogue's illustrative
 figures.
@@ -31,16 +32,22 @@ References
 from __future__ import annotations
 
 import math
+import os
 from dataclasses import dataclass, field
 from functools import lru_cache
 from typing import Callable, Optional
 
+import joblib
 import numpy as np
+import platformdirs
 from scipy.interpolate import CubicSpline
 
 from matdb.errors import InputError
-from matdb.physics import stabilized as S
+from matdb.analysis.floating import levitate_stabilized
 from matdb.constants import G_STANDARD, MU0, T_REF_K, kelvin_to_celsius
+from matdb.data.catalog import get_material, list_grades
+from matdb.design import parse_stabilized
+from matdb.physics.floating import Body, FinitePlates, axial_pull, pull_table
 
 __all__ = [
     "FLOATERS",
@@ -49,8 +56,9 @@ __all__ = [
     "DEFAULT_MATERIALS",
     "FMRequest",
     "FMResult",
-    "pull_table",
     "plate_slope_table",
+    "plate_stiffness_unit",
+    "unit_pull",
     "search",
     "records",
     "design_of",
@@ -166,67 +174,6 @@ class FMResult:
 # ---------------------------------------------------------------------------
 # tables
 # ---------------------------------------------------------------------------
-def _gl_on(a, b, n):
-    x, w = np.polynomial.legendre.leggauss(n)
-    return 0.5 * (b - a) * x + 0.5 * (a + b), 0.5 * (b - a) * w
-
-
-def _face_nodes(floater: S.Body, axisymmetric_source: bool, n: int = 10):
-    """Nodes (k, 2) and weights [m^2] over a pole face of ``floater``, using the
-    symmetry of the on-axis pair: radial only when both bodies are axisymmetric, a
-    quarter (times 4) otherwise."""
-    s = floater.size
-    if floater.shape == "cuboid":
-        x, wx = _gl_on(0.0, 0.5 * s[0], n)
-        y, wy = _gl_on(0.0, 0.5 * s[1], n)
-        X, Y = np.meshgrid(x, y, indexing="ij")
-        return np.column_stack([X.ravel(), Y.ravel()]), 4 * np.outer(wx, wy).ravel()
-    r0 = 0.0 if floater.shape == "cylinder" else 0.5 * s[1]
-    r, wr = _gl_on(r0, 0.5 * s[0], n)
-    if axisymmetric_source:
-        return np.column_stack([r, np.zeros_like(r)]), 2 * math.pi * r * wr
-    phi, wp = _gl_on(0.0, 0.5 * math.pi, n)
-    R, P = np.meshgrid(r, phi, indexing="ij")
-    W = 4 * np.outer(r * wr, wp)
-    return np.column_stack([(R * np.cos(P)).ravel(), (R * np.sin(P)).ravel()]), W.ravel()
-
-
-def pull_table(lifter: S.Body, floater: S.Body, distances) -> np.ndarray:
-    """Upward pull of ``lifter`` on ``floater`` at lifter distances ``distances`` [N].
-
-    Parameters
-    ----------
-    lifter, floater : Body
-        Both magnetised along +z on one axis (centres ignored).
-    distances : array_like
-        Floater centre to the lifter's near face [m].
-
-    Returns
-    -------
-    ndarray
-        ``F_z`` [N], vectorised over the distances (one field evaluation).
-
-    Notes
-    -----
-    The equivalent surface charges of the floater's pole faces,
-    ``F = (J/mu0) [int_top B_z dA - int_bottom B_z dA]`` (Jackson (1999), sec. 5.9),
-    as in :func:`matdb.physics.stabilized.lifter_force`, with the nodes reduced by the
-    symmetry of the pair.
-    """
-    d = np.atleast_1d(np.asarray(distances, dtype=float))
-    axi = lifter.shape in ("cylinder", "ring")
-    xy, w = _face_nodes(floater, axi)
-    k = w.size
-    zc = d + lifter.half_height  # lifter centre above the floater's centre
-    rel = []
-    for dz in (floater.half_height, -floater.half_height):
-        z = (dz - zc)[:, None] * np.ones((1, k))
-        rel.append(np.stack([np.broadcast_to(xy[:, 0], z.shape), np.broadcast_to(xy[:, 1], z.shape), z], axis=-1))
-    pts = np.concatenate(rel, axis=1).reshape(-1, 3)
-    bz = lifter.at((0.0, 0.0, 0.0)).B(pts)[:, 2].reshape(d.size, 2 * k)
-    return floater.j_t / MU0 * (bz[:, :k] @ w - bz[:, k:] @ w)
-
-
 @dataclass
 class _Pull:
     """Falling branch of the unit pull: fine grid of distances, pull and slope."""
@@ -257,57 +204,46 @@ class _Pull:
         return np.where(far, self.dfdd[-1] * (self.d[-1] / np.where(far, d, 1.0)) ** 5, s)
 
 
-_TABLE_VERSION = 1  # bump when the tables' physics or grids change (drops the disk cache)
+_TABLE_VERSION = 3  # bump when the tables' physics or grids change (drops the disk cache)
 _MEMORY = None
 
 
 def _memory():
     """joblib's on-disk cache of the tables: ``$MATDB_CACHE_DIR`` or the user cache folder."""
     global _MEMORY
-    import os
-
     d = os.environ.get("MATDB_CACHE_DIR")
     if d is None:
-        import platformdirs
-
         d = platformdirs.user_cache_dir("matdb")
     path = os.path.join(d, "synthesis")
     if _MEMORY is None or _MEMORY.location != path:
-        import joblib
-
         _MEMORY = joblib.Memory(path, verbose=0)
     return _MEMORY
 
 
 @lru_cache(maxsize=512)
-def _pull(lshape: str, lsize: tuple, fshape: str, fsize: tuple) -> _Pull:
+def unit_pull(lshape: str, lsize: tuple, fshape: str, fsize: tuple) -> _Pull:
+    """The falling branch of the unit pull of a lifter and floater (shapes, sizes [m]),
+    from memory, the disk cache or built (:class:`~matdb.physics.floating.lifter.PullTable`)."""
     d, f, dfdd, f_peak, d_peak, err = _memory().cache(_pull_arrays)(lshape, lsize, fshape, fsize, _TABLE_VERSION)
     return _Pull(d, f, dfdd, f_peak, d_peak, err)
 
 
 def _pull_arrays(lshape: str, lsize: tuple, fshape: str, fsize: tuple, version: int) -> tuple:
-    lifter = S.Body(lshape, lsize, 1.0)
-    floater = S.Body(fshape, fsize, 1.0)
-    size = max(lifter.height, 2 * lifter.lateral)
-    u = np.geomspace(1e-3 * floater.height, 40 * size, 56)
-    d = floater.half_height + u
-    f = pull_table(lifter, floater, d)
-    i0 = int(np.argmax(f))
-    if i0 >= d.size - 3:
+    lifter = Body(lshape, lsize, 1.0)
+    floater = Body(fshape, fsize, 1.0)
+    table = pull_table(lifter, floater)
+    i0 = int(np.argmax(table.f))
+    if i0 >= table.d.size - 3:
         raise InputError("lifter: no falling branch in the table")  # pragma: no cover
-    x, y = np.log(d[i0:]), np.log(f[i0:])
-    spl = CubicSpline(x, y)
-    # checked error: the spline against the direct quadrature between grid nodes
-    mids = 0.5 * (x[1:] + x[:-1])
-    pick = mids[mids.size // 4:: max(1, mids.size // 2)]
-    direct = np.array([S.lifter_force(lifter.at((0, 0, math.exp(m) + lifter.half_height)), floater)[2]
-                       for m in pick])
-    err = float(np.max(np.abs(np.exp(spl(pick)) / direct - 1)))
-    xf = np.linspace(x[0], x[-1], 3000)
-    ff = np.exp(spl(xf))
-    df = ff / np.exp(xf) * spl(xf, 1)
-    keep = df < 0
-    return np.exp(xf[keep]), ff[keep], df[keep], float(f[i0]), float(d[i0]), err
+    x = np.log(table.d[i0:])
+    # checked error: the table against the direct quadrature halfway between its nodes
+    # on the falling branch, relative to the pull there
+    mids = np.exp(0.5 * (x[1:] + x[:-1]))
+    err = float(np.max(np.abs(table.pull(mids) / axial_pull(lifter, floater, mids) - 1)))
+    df_ = np.exp(np.linspace(x[0], x[-1], 3000))
+    ff, df = table.pull(df_), table.slope(df_)
+    keep = (df < 0) & (ff > 0)
+    return df_[keep], ff[keep], df[keep], float(table.f[i0]), float(table.d[i0]), err
 
 
 def _norm_key(shape: str, size_m: tuple) -> tuple[tuple, float]:
@@ -317,8 +253,8 @@ def _norm_key(shape: str, size_m: tuple) -> tuple[tuple, float]:
 
 
 def _plate_ratio_arrays(shape: str, proportions: tuple, version: int) -> tuple:
-    body = S.Body(shape, tuple(v * _L0 for v in proportions), 1.0)
-    fp = S.FinitePlates(body, -1.0, -1.0, 1.0, g_min=1e-3 * _L0)
+    body = Body(shape, tuple(v * _L0 for v in proportions), 1.0)
+    fp = FinitePlates(body, -1.0, -1.0, 1.0, g_min=1e-3 * _L0)
     g = np.geomspace(2e-3 * _L0, 100 * _L0, 26)
     s = body.half_height + g
     parts = fp.plane_slope_parts(s)
@@ -332,7 +268,7 @@ def plate_slope_table(shape: str, proportions: tuple):
     ``proportions`` (scaled to size ``_L0``): a function of the gap above the face
     returning ``(dPz/ds, dPh/ds)`` [T^2 m] (finite-size model), tabulated as the
     ratio to the point-dipole slopes ``-3 pi C^2 m^2 s^-5`` (each part) and kept on disk."""
-    body = S.Body(shape, tuple(v * _L0 for v in proportions), 1.0)
+    body = Body(shape, tuple(v * _L0 for v in proportions), 1.0)
     g, ratio = _memory().cache(_plate_ratio_arrays)(shape, proportions, _TABLE_VERSION)
     spl = CubicSpline(np.log(g), ratio, axis=0)
     last = ratio[-1]
@@ -346,7 +282,7 @@ def plate_slope_table(shape: str, proportions: tuple):
     return slopes, body.half_height
 
 
-def _plate_k_unit(shape: str, size_m: tuple, chi_perp: float, chi_par: float, t: float, a):
+def plate_stiffness_unit(shape: str, size_m: tuple, chi_perp: float, chi_par: float, t: float, a):
     """Finite-size stiffness of two plates per J_f^2 [N/m/T^2] at plate distances ``a``."""
     prop, L = _norm_key(shape, size_m)
     slopes, h2_0 = plate_slope_table(shape, prop)
@@ -363,13 +299,11 @@ def _plate_k_unit(shape: str, size_m: tuple, chi_perp: float, chi_par: float, t:
 # the search
 # ---------------------------------------------------------------------------
 def _grades(families, temperature_k):
-    from matdb.data.catalog import list_grades
-
     gs = [g for g in list_grades() if (families is None or g.family in families)
           and (g.max_temp_c is None or g.max_temp_c >= kelvin_to_celsius(temperature_k))]
     if not gs:
-        raise InputError(f"--family: no magnet grade of {', '.join(families or [])} is rated for "
-                         f"{kelvin_to_celsius(temperature_k):.0f} C")
+        raise InputError(f"no magnet grade of {', '.join(families or [])} is rated for "
+                         f"{kelvin_to_celsius(temperature_k):.0f} C", field="family")
     # keep the grades no other beats on both remanence (up) and price (down)
     out = []
     for g in gs:
@@ -385,7 +319,7 @@ def _grades(families, temperature_k):
 
 
 def _body_volume(shape, size):
-    return S.Body(shape, size, 1.0).volume
+    return Body(shape, size, 1.0).volume
 
 
 def _width(shape, size):
@@ -434,8 +368,6 @@ def search(req: FMRequest, progress: Optional[Callable[[float, str], None]] = No
     upper plate meets the lifter (``D - t``); the design's window is the narrowest
     over the range (Simon, Heflinger and Geim (2001) for the balance of stiffnesses).
     """
-    from matdb.data.catalog import get_material
-
     floaters = FLOATERS if floaters is None else floaters
     lifters = LIFTERS if lifters is None else lifters
     thicknesses = THICKNESSES_M if thicknesses is None else thicknesses
@@ -455,10 +387,10 @@ def search(req: FMRequest, progress: Optional[Callable[[float, str], None]] = No
         try:
             m = get_material(mid)
         except Exception as exc:  # NotFoundError -> one line naming the option
-            raise InputError(f"--plates: {exc}") from exc
+            raise InputError(f"{exc}", field="plates") from exc
         cz, ch = float(m.chi_vertical), float(m.chi_horizontal)
         if not (cz < 0 and ch < 0):
-            raise InputError(f"--plates: {mid!r} is not diamagnetic; the plates need a negative susceptibility")
+            raise InputError(f"{mid!r} is not diamagnetic; the plates need a negative susceptibility", field="plates")
         coeff = m.temp_coeff_per_k or 0.0
         mats.append((m.id, cz * (1 + coeff * dt), ch * (1 + coeff * dt), m.density_kg_m3,
                      m.price_usd_per_kg if m.price_usd_per_kg is not None else np.nan))
@@ -478,7 +410,7 @@ def search(req: FMRequest, progress: Optional[Callable[[float, str], None]] = No
         fw, lw = _width(fs, fsize), _width(ls, lsize)
         if fw > lw:
             continue  # a floater wider than its lifter: outside this search
-        pull = _pull(ls, lsize, fs, fsize)
+        pull = unit_pull(ls, lsize, fs, fsize)
         err = max(err, pull.error)
         vf, vl = _body_volume(fs, fsize), _body_volume(ls, lsize)
         mf = vf * dens[gf]  # (G,)
@@ -496,7 +428,7 @@ def search(req: FMRequest, progress: Optional[Callable[[float, str], None]] = No
                     a = a_min + u
                     key = (fs, fsize, mid, t)
                     if key not in k1_cache:
-                        k1_cache[key] = np.maximum(_plate_k_unit(fs, fsize, cz, ch, t, a), 1e-300)  # (A,)
+                        k1_cache[key] = np.maximum(plate_stiffness_unit(fs, fsize, cz, ch, t, a), 1e-300)  # (A,)
                     k1 = k1_cache[key]
                     need = -kz / (br_t[gf] ** 2)[:, None]  # (G, P)
                     below = k1[None, None, :] < need[..., None]
@@ -584,7 +516,7 @@ def search(req: FMRequest, progress: Optional[Callable[[float, str], None]] = No
         r = row(i)
         prog(0.8 + 0.2 * min(tried / (2 * req.top), 1.0), f"exact check {tried}: {_label(r)}")
         design = design_of(r, req)
-        exact = S.levitate_stabilized(design, payloads_kg=np.linspace(lo, hi, N_PAYLOADS) if hi > lo else [lo])
+        exact = levitate_stabilized(design, payloads_kg=np.linspace(lo, hi, N_PAYLOADS) if hi > lo else [lo])
         r["window_min_m"] = exact.get("window_min_m")
         r["exact_checked"] = True
         rows_w = exact["window"]
@@ -672,8 +604,6 @@ def design_of(r: dict, req: FMRequest):
     """The design file document of a search row, parsed into a
     :class:`~matdb.design.model.StabilizedDesign` (demo: a suggestion, not a tested
     build)."""
-    from matdb.design import parse_stabilized
-
     def mm(v):
         return f"{v * 1e3:.6g} mm"
 

@@ -1,6 +1,6 @@
 """Sizing optimiser for floating plates: beyond the catalogue of standard magnets.
 
-The advisor (:mod:`matdb.advisor.engine`) ranks standard cubes and cylinders in default counts.
+The advisor (:mod:`matdb.advisor`) ranks standard cubes and cylinders in default counts.
 :func:`optimise` starts from its best feasible candidate and varies, for that plate
 material, grade, pattern and magnet shape:
 
@@ -40,9 +40,16 @@ from pathlib import Path
 from typing import Any, Callable, Sequence
 
 import numpy as np
+import pandas as pd
+from scipy.optimize import Bounds, NonlinearConstraint, minimize
 
-from matdb.advisor import engine as A
+from matdb import advisor as A
+from matdb.analysis import levitate as L
+from matdb.data import catalog
+from matdb.design import Conditions, MagnetSpec, PlateDesign, PlateSpec, write_design
 from matdb.errors import InputError
+from matdb.physics import plate as P
+from matdb.physics.thermal import lift_derating_pct
 from matdb.constants import G_STANDARD, MU0, T_REF_K, kelvin_to_celsius
 
 #: plate side as a fraction of the array's shorter side (an outer loop: lateral stability
@@ -84,17 +91,17 @@ def read_stock(path) -> tuple[StockItem, ...]:
     try:
         text = p.read_text(encoding="utf-8")
     except OSError as exc:
-        raise InputError(f"--stock: cannot read {str(p)!r}: {exc.strerror or exc}") from None
+        raise InputError(f"cannot read {str(p)!r}: {exc.strerror or exc}", field="stock") from None
     rows = list(csv.DictReader(text.splitlines()))
     if not rows or "shape" not in rows[0] or "size" not in rows[0]:
-        raise InputError(f"--stock: expected a CSV with columns shape,size in {str(p)!r}")
+        raise InputError(f"expected a CSV with columns shape,size in {str(p)!r}", field="stock")
     out = []
     for i, r in enumerate(rows, start=2):
         shape = (r.get("shape") or "").strip().lower()
         if shape not in ("cuboid", "cylinder"):
-            raise InputError(f"--stock: line {i}: expected shape cuboid or cylinder, got {shape!r}")
+            raise InputError(f"line {i}: expected shape cuboid or cylinder, got {shape!r}", field="stock")
         n = 3 if shape == "cuboid" else 2
-        size = A.parse_dimensions(r.get("size") or "", n, f"--stock: line {i}: size",
+        size = A.parse_dimensions(r.get("size") or "", n, f"stock, line {i}, size",
                                   "10 x 10 x 5 mm" if n == 3 else "12.7 x 6.35 mm")
         out.append(StockItem(shape, tuple(size)))
     return tuple(out)
@@ -182,8 +189,6 @@ class _Model:
 
     def lift(self, z: Sizing) -> float:
         """Worst-case lift at the required gap [N] (search quadrature)."""
-        from matdb.physics import plate as P
-
         key = (z.shape, tuple(round(v * 1e9) for v in z.size), z.pattern, z.rows, z.cols,
                round(z.spacing * 1e9), round(z.side * 1e9), round(z.thickness * 1e9))
         v = self.memo.get(key)
@@ -202,8 +207,6 @@ class _Model:
     def stable_with_spare(self, z: Sizing, spare: float = SIDE_SPARE) -> bool:
         """Pre-screen: floats and is laterally stable (nominal, hottest) at the side and at
         the side shrunk and grown by ``spare`` (coarse quadrature)."""
-        from matdb.physics import plate as P
-
         arr = z.spec().build(1.0)
         bx, by = P.edge_lines(arr.magnets)
         geom = P.PlateGeometry("rectangle", z.side, z.side, z.thickness, 0.0, 0.0, bx, by)
@@ -350,8 +353,6 @@ def _start_point(prob: _Problem) -> np.ndarray:
 
 def _refine(prob: _Problem) -> tuple[Sizing, float]:
     """Continuous search of one case (COBYQA: derivative-free, bounds, constraints)."""
-    from scipy.optimize import Bounds, NonlinearConstraint, minimize
-
     x0 = np.clip(prob.case.x0 if prob.case.x0 is not None else _start_point(prob), prob.lo, prob.hi)
     best = [x0, prob.value(x0) if (prob.constraints(x0) >= -1e-9).all() else -math.inf]
 
@@ -377,8 +378,6 @@ def _refine(prob: _Problem) -> tuple[Sizing, float]:
 # ---------------------------------------------------------------------------
 def design_of(z: Sizing, req: A.AdviceRequest, mat, grade, name: str | None = None):
     """A :class:`matdb.design.model.PlateDesign` of a sizing (what ``--save`` writes)."""
-    from matdb.design import Conditions, MagnetSpec, PlateDesign, PlateSpec
-
     spec = z.spec()
     mags = MagnetSpec(spec.shape, tuple(spec.size), grade.grade, None, spec.pattern, spec.rows,
                       spec.cols, spec.spacing, False, 0.0, (), {grade.grade: grade})
@@ -405,8 +404,6 @@ def side_spare_ok(result: dict, side: float, spare: float = SIDE_SPARE, design=N
     if design is None:
         mx = result.get("stable_plate_side_max_m")
         return mx is not None and side * (1 + spare) <= mx
-    from matdb.analysis import levitate as L
-    from matdb.physics import plate as P
 
     t = result["temperature_k"]
     arr = design.arrangement(t)
@@ -424,10 +421,6 @@ def check(z: Sizing, req: A.AdviceRequest, mat, grade, require_spare: bool = Tru
 
     ``require_spare=False`` (the catalogue start, judged as ``advise`` judges) turns a plate
     side without 10% to spare into a note instead of a reason."""
-    from matdb.analysis import levitate as L
-    from matdb.physics import plate as P
-    from matdb.physics.thermal import lift_derating_pct
-
     design = design_of(z, req, mat, grade)
     res = L.levitate_plate(design)
     # worst-case margin at the required gap, as the advisor's exact rows define it
@@ -520,7 +513,7 @@ def _catalogue_start(req: A.AdviceRequest, objective: str, min_margin: float, ur
     if req.envelope_m is not None:  # arrays outside the envelope cannot be the start
         inside = [s for s in cat.specs
                   if not any(e > 1e-9 for e in s.envelope_excess(req.envelope_m))]
-        cat = A._Catalogue(cat.mats, cat.grades, inside or cat.specs, cat.thick, cat.thick_owner)
+        cat = A.Catalogue(cat.mats, cat.grades, inside or cat.specs, cat.thick, cat.thick_owner)
     cb = (lambda f, t: progress(0.12 * f, f"catalogue: {t}")) if progress else None
     with A.reporting_progress(cb):
         df, cat = A.rank(req, polish=1, catalogue=cat, url=url, tilt_rows=40)
@@ -560,8 +553,8 @@ def optimise(req: A.AdviceRequest, *, objective: str = "margin", min_margin: flo
 
     Parameters
     ----------
-    req : matdb.advisor.engine.AdviceRequest
-        What to float (:func:`matdb.advisor.engine.parse_request`).
+    req : matdb.advisor.AdviceRequest
+        What to float (:func:`matdb.advisor.parse_request`).
     objective : {"margin", "cost"}
         Largest worst-case margin within the budget, or the cheapest design reaching
         ``min_margin``.
@@ -584,11 +577,11 @@ def optimise(req: A.AdviceRequest, *, objective: str = "margin", min_margin: flo
     """
     t0 = time.perf_counter()
     if objective not in OBJECTIVES:
-        raise InputError(f"--objective: expected one of {', '.join(OBJECTIVES)}, got {objective!r}")
+        raise InputError(f"expected one of {', '.join(OBJECTIVES)}, got {objective!r}", field="objective")
     if objective == "cost":
         min_margin = 1.0 if min_margin is None else float(min_margin)
         if not (math.isfinite(min_margin) and min_margin > 0):
-            raise InputError(f"--min-margin: expected a positive number, got {min_margin!r}")
+            raise InputError(f"expected a positive number, got {min_margin!r}", field="min_margin")
     else:
         min_margin = 1.0
     prog = progress or (lambda f, t: None)
@@ -712,8 +705,6 @@ def records(result: OptimiseResult) -> list[dict]:
     """Rows as JSON objects: the keys of ``matdb advise --format json`` plus the varied
     sizes (``magnet_size_m``, ``spacing_m``, ``plate_side_m``), ``catalogue`` (the start)
     and ``improvement`` (the best's over the start, on the first row)."""
-    import pandas as pd
-
     clean = []
     for r in result.rows:
         d = {k: v for k, v in r.items() if k not in ("sizing", "levitate")}
@@ -735,11 +726,8 @@ def records(result: OptimiseResult) -> list[dict]:
 
 def save(result: OptimiseResult, path, index: int = 0) -> Path:
     """Write design ``index`` (default the best) as a design file ``matdb levitate`` reads."""
-    from matdb.data import catalog
-    from matdb.design import write_design
-
     if not result.rows:
-        raise InputError("--save: no design to save")
+        raise InputError("no design to save", field="save")
     r = result.rows[index]
     mat = catalog.get_material(r["material"])
     grade = catalog.get_grade(r["grade"])

@@ -9,7 +9,7 @@
         [--save DESIGN.toml] [--format table|json|csv]
         [--objective score|noise] [--min-q Q] [--pressure "1e-3 Pa"]
 
-A thin layer over :func:`matdb.advisor.engine.advise_request`.
+A thin layer over :func:`matdb.advisor.advise_request`.
 """
 
 from __future__ import annotations
@@ -17,7 +17,7 @@ from __future__ import annotations
 import math
 
 from matdb.cli import summary
-from matdb.advisor import engine as A
+from matdb import advisor as A
 from matdb.errors import InputError
 from matdb.output import add_format_argument, check_output_path, emit, to_json
 from matdb import constants
@@ -67,7 +67,7 @@ def add_request_arguments(p, *, mass: bool = True) -> None:
 
 
 def request_from_args(args, **extra) -> A.AdviceRequest:
-    """:class:`matdb.advisor.engine.AdviceRequest` from the options of :func:`add_request_arguments`."""
+    """:class:`matdb.advisor.AdviceRequest` from the options of :func:`add_request_arguments`."""
     return A.parse_request(args.mass, args.footprint, min_gap=args.min_gap, temp_min=args.temp_min,
                            temp_max=args.temp_max, budget=getattr(args, "budget", None),
                            materials=args.material, families=getattr(args, "family", None),

@@ -190,7 +190,7 @@ def cmd_show(args) -> int:
     except NotFoundError:
         names = [m.id for m in catalog.list_materials()] + [x.grade for x in catalog.list_grades()]
         raise NotFoundError(f"{key!r} is neither a material id nor a magnet grade"
-                            f"{catalog._close(key, names) or ' (see matdb materials, matdb magnets)'}",
+                            f"{catalog.did_you_mean(key, names) or ' (see matdb materials, matdb magnets)'}",
                             field="id") from None
     rec = catalog.grade_record(g)
     values = catalog.grade_values(g.grade)

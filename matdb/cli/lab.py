@@ -4,8 +4,11 @@ from __future__ import annotations
 
 import sys
 
+from matdb.analysis import inversions
 from matdb.cli import summary
-from matdb.data import labvalues
+from matdb.cli.dynamics import register_record_q
+from matdb.data import exchange, lab_store
+from matdb.progress import progress_bar
 from matdb.output import add_format_argument, check_output_path, emit
 
 HISTORY_MATERIAL_COLUMNS = ["value_id", "value_kind", "chi_si", "chi_par_si", "uncertainty", "temperature_c",
@@ -49,8 +52,6 @@ def register(sub) -> None:
     _common_provenance(pm)
     add_format_argument(pm, choices=("table", "json"))
     pm.set_defaults(func=cmd_record_material)
-
-    from matdb.cli.dynamics import register_record_q
 
     register_record_q(rsub)
 
@@ -129,12 +130,14 @@ def _print_value(row: dict, fmt: str, verb: str) -> None:
 
 
 def cmd_record_material(args) -> int:
-    row = labvalues.record_material_value(
-        args.id, chi=args.chi, chi_perp=args.chi_perp, chi_par=args.chi_par, density=args.density,
-        temperature=args.temperature, uncertainty=args.uncertainty, source=args.source,
-        measured_by=args.measured_by, date=args.date, method=args.method, molar_mass=args.molar_mass,
-        name=args.name, allow_paramagnetic=args.allow_paramagnetic, from_float_gap=args.from_float_gap,
-        design=args.design)
+    fields = dict(chi=args.chi, chi_perp=args.chi_perp, chi_par=args.chi_par, density=args.density,
+                  temperature=args.temperature, uncertainty=args.uncertainty, source=args.source,
+                  measured_by=args.measured_by, date=args.date, method=args.method, molar_mass=args.molar_mass,
+                  name=args.name, allow_paramagnetic=args.allow_paramagnetic)
+    if args.from_float_gap or args.design:
+        row = inversions.record_chi_from_float_gap(args.id, args.from_float_gap, args.design, **fields)
+    else:
+        row = lab_store.record_material_value(args.id, **fields)
     if row.get("created_material") and args.format != "json":
         print(f"created material {row['material_id']}")
     _print_value(row, args.format, "recorded")
@@ -142,11 +145,14 @@ def cmd_record_material(args) -> int:
 
 
 def cmd_record_magnet(args) -> int:
-    row = labvalues.record_magnet_value(
-        args.grade, br=args.br, hcj=args.hcj, alpha=args.alpha, max_temp=args.max_temp, density=args.density,
-        family=args.family, source=args.source, measured_by=args.measured_by, date=args.date,
-        method=args.method, surface_field=args.surface_field, shape=args.shape, size=args.size,
-        probe_offset=args.probe_offset)
+    fields = dict(br=args.br, hcj=args.hcj, alpha=args.alpha, max_temp=args.max_temp, density=args.density,
+                  family=args.family, source=args.source, measured_by=args.measured_by, date=args.date,
+                  method=args.method)
+    if args.surface_field or args.shape or args.size or args.probe_offset:
+        row = inversions.record_magnet_from_surface_field(args.grade, args.surface_field, args.shape, args.size,
+                                                          args.probe_offset, **fields)
+    else:
+        row = lab_store.record_magnet_value(args.grade, **fields)
     if row.get("created_grade") and args.format != "json":
         print(f"created grade {row['grade']}")
     _print_value(row, args.format, "recorded")
@@ -154,13 +160,13 @@ def cmd_record_magnet(args) -> int:
 
 
 def cmd_prefer(args) -> int:
-    row = labvalues.prefer(args.id, args.value_id)
+    row = lab_store.prefer(args.id, args.value_id)
     _print_value(row, args.format, "preferred")
     return 0
 
 
 def cmd_history(args) -> int:
-    rows = labvalues.history(args.id)
+    rows = lab_store.history(args.id)
     # CSV output is spreadsheet-safe already: emit() escapes formula-like text cells
     if args.format != "table":
         emit(rows, args.format)
@@ -175,13 +181,14 @@ def cmd_history(args) -> int:
 
 
 def cmd_retract(args) -> int:
-    row = labvalues.retract(args.value_id, args.reason, args.subject)
+    row = lab_store.retract(args.value_id, args.reason, args.subject)
     _print_value(row, args.format, "retracted")
     return 0
 
 
 def cmd_import(args) -> int:
-    totals = labvalues.import_file(args.file, dry_run=args.dry_run)
+    with progress_bar("import") as progress:
+        totals = exchange.import_file(args.file, dry_run=args.dry_run, progress=progress)
     if args.format == "json":
         emit(totals, "json")
         return 0
@@ -195,7 +202,7 @@ def cmd_import(args) -> int:
 
 def cmd_export(args) -> int:
     out = check_output_path(args.out, "--out") if args.out is not None else None
-    text = labvalues.export(args.format)
+    text = exchange.export(args.format)
     if out is not None:
         out.write_text(text, encoding="utf-8", newline="")
         print(f"wrote {out}", file=sys.stderr)

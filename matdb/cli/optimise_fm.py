@@ -15,10 +15,14 @@ from __future__ import annotations
 
 import math
 import sys
-from contextlib import contextmanager
 
+from matdb.analysis import magnet_synthesis as M
+from matdb.analysis.magnet_synthesis import DEFAULT_MATERIALS, FMRequest
+from matdb.design import design_to_toml, parse_payload_range
 from matdb.errors import InputError
 from matdb.output import emit, to_json
+from matdb.progress import progress_bar
+from matdb.units import parse_length, parse_quantity, parse_temperature
 from matdb.constants import T_REF_K
 
 CSV_COLUMNS = ["rank", "feasible", "stations", "floater_shape", "floater_size_m", "floater_grade", "lifter_shape",
@@ -63,8 +67,6 @@ def add_arguments(parser) -> None:
 
 def parse_envelope(text: str, field: str = "--envelope") -> tuple[float, float]:
     """``"80 mm x 200 mm"`` or ``"80 x 200 mm"`` -> (width, height) [m]."""
-    from matdb.units import parse_length
-
     parts = [p.strip() for p in str(text).replace("X", "x").replace("by", "x").split("x")]
     if len(parts) != 2 or not all(parts):
         raise InputError(f"{field}: expected width and height such as '80 mm x 200 mm', got {text!r}")
@@ -79,10 +81,6 @@ def parse_envelope(text: str, field: str = "--envelope") -> tuple[float, float]:
 
 def request_from_args(args):
     """The :class:`~matdb.analysis.magnet_synthesis.FMRequest` of the command line."""
-    from matdb.design import parse_payload_range
-    from matdb.analysis.magnet_synthesis import DEFAULT_MATERIALS, FMRequest
-    from matdb.units import parse_length, parse_quantity, parse_temperature
-
     if not getattr(args, "payload_range", None):
         raise InputError("--payload-range: expected the payloads to float, e.g. '0 g..5 g'")
     prange = parse_payload_range(args.payload_range, "--payload-range")
@@ -109,38 +107,6 @@ def request_from_args(args):
     return FMRequest(payload_range_kg=prange, materials=mats, min_window_m=win, envelope_m=env,
                      stations=stations, budget_usd=budget, families=fam, temperature_k=temp,
                      clearance_m=clearance, top=top, rejected=rejected)
-
-
-@contextmanager
-def _progress(quiet: bool):
-    try:  # the shared progress bar when the plate optimiser brought it
-        from matdb.progress import progress_bar
-    except ImportError:
-        progress_bar = None
-    if progress_bar is not None:
-        with progress_bar("floating-magnet search", quiet=quiet) as p:
-            yield p
-        return
-    if quiet or not sys.stderr.isatty():
-        yield lambda f, t="": None
-        return
-    from tqdm import tqdm
-
-    bar = tqdm(total=1000, desc="floating-magnet search", file=sys.stderr, delay=0.5, leave=False)
-    state = {"n": 0}
-
-    def update(f, text=""):
-        n = int(round(min(max(f, 0.0), 1.0) * 1000))
-        if n > state["n"]:
-            bar.update(n - state["n"])
-            state["n"] = n
-        if text:
-            bar.set_postfix_str(text[:60], refresh=False)
-
-    try:
-        yield update
-    finally:
-        bar.close()
 
 
 def _mm(v, d=4):
@@ -188,12 +154,9 @@ def format_result(res) -> str:
 
 def run(args) -> int:
     """``matdb optimise --floating-magnet``: exit status 0 when a design works, 1 when none does."""
-    from matdb.analysis import magnet_synthesis as M
-    from matdb.design import design_to_toml
-
     req = request_from_args(args)
     save = getattr(args, "save", None)
-    with _progress(bool(getattr(args, "quiet", False))) as prog:
+    with progress_bar("floating-magnet search", quiet=bool(getattr(args, "quiet", False))) as prog:
         res = M.search(req, progress=prog)
     best = next((d for r, d in zip(res.rows, res.designs) if r["feasible"] and d is not None), None)
     if save:

@@ -16,12 +16,15 @@ from pathlib import Path
 
 import numpy as np
 
+from matdb.analysis.levitate import _mm3, format_intervals, levitate
 from matdb.cli import summary
+from matdb.constants import kelvin_to_celsius
+from matdb.design import load_design, parse_payload_range
 from matdb.errors import InputError
 from matdb.limits import MAX_FILE_BYTES, MAX_POINTS, check_count, check_magnitude, read_text_limited
 from matdb.output import add_format_argument, emit, to_json
+from matdb.reporting.schedule import SCHEDULE_COLUMNS, payload_steps, schedule_records
 from matdb.units import parse_length, parse_number, parse_quantity, parse_temperature
-from matdb.constants import kelvin_to_celsius
 
 FIELD_COLUMNS = ("x_m", "y_m", "z_m", "bx_t", "by_t", "bz_t")
 
@@ -83,8 +86,6 @@ def read_points_csv(path: str) -> np.ndarray:
 
 
 def _load(path: str):
-    from matdb.design import load_design
-
     return load_design(path)
 
 
@@ -108,8 +109,6 @@ def cmd_field(args) -> int:
         raise InputError("--at: give at least one point (--at '0,0,1 mm') or --points FILE.csv")
     check_count(len(pts), MAX_POINTS, "--at/--points", "points")
     temp = parse_temperature(args.temp, "--temp") if args.temp else None
-    from matdb.design import load_design
-
     design = load_design(args.design, need_plate=False)  # a field needs only the magnets
     emit(field_records(design, np.asarray(pts, dtype=float), temp), args.format,
          columns=list(FIELD_COLUMNS))
@@ -130,16 +129,12 @@ def _num(v, scale: float = 1.0, digits: int = 4, unit: str = "") -> str:
 def _point_mm(p) -> str:
     if not p:
         return "none found"
-    from matdb.analysis.levitate import _mm3
-
     return f"({_mm3(p[0])}, {_mm3(p[1])}) mm"
 
 
 def _intervals_mm(iv) -> str:
     if iv is None:
         return "-"
-    from matdb.analysis.levitate import format_intervals
-
     return format_intervals(iv)
 
 
@@ -174,16 +169,11 @@ def _cold_hot_lines(r: dict) -> list[str]:
 def format_levitate(r: dict) -> str:
     """The result of a plate levitate as text for a person (mm, g, Hz, N/m, mN)."""
     if r.get("mode") == "stabilized":
-        from matdb.physics.stabilized import format_table
+        # lazy: the floating-magnet text (and the analysis it imports) only for that mode
+        from matdb.reporting.floating_text import format_table
 
         return format_table(r)
     if r.get("mode") != "plate":
-        try:  # the floating-magnet mode brings its own table
-            from matdb.physics.stabilized import format_table
-
-            return format_table(r)
-        except ImportError:  # pragma: no cover
-            pass
         lines = [f"{k}: {v}" for k, v in r.items() if not isinstance(v, (list, dict))]
         lines += [f"warning: {w}" for w in r.get("warnings", [])]
         return "\n".join(lines)
@@ -236,34 +226,7 @@ def format_levitate(r: dict) -> str:
     return "\n".join(lines)
 
 
-SCHEDULE_COLUMNS = ("payload_kg", "station", "lifter_distance_m", "lifter_travel_m", "min_plate_distance_m",
-                    "max_plate_distance_m", "window_m", "resolution_m", "lifter_distance_drift_um_per_k",
-                    "dforce_dd_n_m")
-
-
-def schedule_records(result: dict) -> list[dict]:
-    """The payload schedule of a floating-magnet result, one record per payload and
-    station (``SCHEDULE_COLUMNS``, SI; stations numbered from 0): a table a motorised
-    stage can follow."""
-    if result.get("mode") != "stabilized":
-        raise InputError("--format csv: the schedule exists for floating-magnet designs only; "
-                         "use --format json or table for a floating plate")
-    out = []
-    for w in result.get("window") or []:
-        d = w.get("lifter_distance_m")
-        n = len(d) if isinstance(d, list) else 1
-        for i in range(n):
-            rec = {"payload_kg": w["payload_kg"], "station": i}
-            for k in SCHEDULE_COLUMNS[2:]:
-                v = w.get(k)
-                rec[k] = v[i] if isinstance(v, list) else v
-            out.append(rec)
-    return out
-
-
 def _payloads(args) -> np.ndarray | None:
-    from matdb.design import parse_payload_range
-
     if getattr(args, "payload_range", None) is None:
         if getattr(args, "steps", None) is not None:
             raise InputError("--steps: give it with --payload-range")
@@ -272,14 +235,10 @@ def _payloads(args) -> np.ndarray | None:
     n = 11 if args.steps is None else args.steps
     if not 1 <= n <= 1000:
         raise InputError(f"--steps: expected a whole number from 1 to 1000, got {n}")
-    if hi == lo:
-        return np.array([lo])
-    return np.linspace(lo, hi, max(n, 2))
+    return payload_steps((lo, hi), n)
 
 
 def cmd_levitate(args) -> int:
-    from matdb.analysis.levitate import levitate
-
     temp = parse_temperature(args.temp, "--temp") if args.temp else None
     gap = parse_length(args.gap, "--gap") if args.gap else None
     payloads = _payloads(args)

@@ -11,15 +11,19 @@ from __future__ import annotations
 import datetime as _dt
 import difflib
 from dataclasses import asdict, dataclass
-from typing import Iterable, Optional
+from typing import TYPE_CHECKING, Iterable, Optional
 
-import pandas as pd
+if TYPE_CHECKING:
+    import pandas as pd
+
 from sqlmodel import Session, select
 
-from matdb.data.db import read_session
-from matdb.errors import NotFoundError
+from matdb.constants import kelvin_to_celsius
+from matdb.data.db import get_engine, read_session
 from matdb.data.models import (
+    FAMILIES,
     PROVENANCE_STATUSES,
+    ConductivityValue,
     MagnetGrade,
     MagnetValue,
     Material,
@@ -28,7 +32,8 @@ from matdb.data.models import (
     SusceptibilityValue,
     ValueProvenance,
 )
-from matdb.constants import kelvin_to_celsius
+from matdb.data.seed import seed_database
+from matdb.errors import InputError, NotFoundError
 
 _QUALITY_RANK = {"standard": 0, "handbook": 1, "estimate": 2, "measured": 3}
 _MAGNET_FIELDS = (
@@ -95,23 +100,22 @@ class GradeProps:
     source: str
 
 
-def check_family(name, field: str = "--family") -> str:
+def check_family(name, field: str = "family") -> str:
     """The family name as matdb spells it (any case accepted); an unknown one is refused.
 
     Every command and page that takes a magnet family goes through here, so each refuses
     the same names with the same one line listing the families.
     """
-    from matdb.data.models import FAMILIES
-
     text = str(name if name is not None else "").strip()
     for f in FAMILIES:
         if f.lower() == text.lower():
             return f
-    raise NotFoundError(f"{field}: unknown magnet family {text!r}; expected one of {', '.join(FAMILIES)}"
-                        + _close(text, FAMILIES))
+    raise NotFoundError(f"unknown magnet family {text!r}; expected one of {', '.join(FAMILIES)}"
+                        + did_you_mean(text, FAMILIES), field=field)
 
 
-def _close(name: str, choices: Iterable[str]) -> str:
+def did_you_mean(name: str, choices: Iterable[str]) -> str:
+    """``"; did you mean a, b?"`` naming up to three close matches of ``name``, or ``""``."""
     near = difflib.get_close_matches(name, list(choices), n=3, cutoff=0.5)
     return f"; did you mean {', '.join(near)}?" if near else ""
 
@@ -226,7 +230,7 @@ def get_material(material_id: str, url: str | None = None) -> MaterialProps:
         m = s.get(Material, material_id)
         if m is None:
             ids = s.exec(select(Material.id)).all()
-            raise NotFoundError(f"material: unknown id {material_id!r}{_close(material_id, ids)}")
+            raise NotFoundError(f"unknown id {material_id!r}{did_you_mean(material_id, ids)}", field="material")
         values = s.exec(select(SusceptibilityValue).where(SusceptibilityValue.material_id == m.id)).all()
         return _material_props(m, list(values), _sources(s))
 
@@ -241,7 +245,7 @@ def get_grade(grade: str, url: str | None = None) -> GradeProps:
             if len(same) == 1:
                 g = s.get(MagnetGrade, same[0])
             else:
-                raise NotFoundError(f"grade: unknown magnet grade {grade!r}{_close(grade, all_grades)}")
+                raise NotFoundError(f"unknown magnet grade {grade!r}{did_you_mean(grade, all_grades)}", field="grade")
         values = s.exec(select(MagnetValue).where(MagnetValue.grade == g.grade)).all()
         return _grade_props(g, list(values), _sources(s))
 
@@ -275,12 +279,15 @@ def grade_record(g: GradeProps) -> dict:
     return {k: d[k] for k in first} | {k: v for k, v in d.items() if k not in first}
 
 
-def materials_df(url: str | None = None) -> pd.DataFrame:
-    return pd.DataFrame([material_record(p) for p in list_materials(url)])
+def _frame(rows, columns=None) -> "pd.DataFrame":
+    """Rows as a DataFrame (for the page)."""
+    import pandas as pd  # lazy: the CLI's table commands need no pandas (keeps start-up light)
+
+    return pd.DataFrame(rows, columns=columns)
 
 
-def magnets_df(url: str | None = None) -> pd.DataFrame:
-    return pd.DataFrame([grade_record(g) for g in list_grades(url)])
+def magnets_df(url: str | None = None) -> "pd.DataFrame":
+    return _frame([grade_record(g) for g in list_grades(url)])
 
 
 def material_values(material_id: str, url: str | None = None) -> list[dict]:
@@ -289,7 +296,7 @@ def material_values(material_id: str, url: str | None = None) -> list[dict]:
         m = s.get(Material, material_id)
         if m is None:
             ids = s.exec(select(Material.id)).all()
-            raise NotFoundError(f"material: unknown id {material_id!r}{_close(material_id, ids)}")
+            raise NotFoundError(f"unknown id {material_id!r}{did_you_mean(material_id, ids)}", field="material")
         values = list(s.exec(select(SusceptibilityValue).where(SusceptibilityValue.material_id == m.id)
                              .order_by(SusceptibilityValue.id)).all())
         pref = choose_preferred(values, m.preferred_value_id)
@@ -488,9 +495,7 @@ def sources_summary(status: str | None = None, url: str | None = None) -> list[d
     ``status`` (verified, corrected, unverified) keeps only sources with values of that status.
     """
     if status is not None and status not in PROVENANCE_STATUSES:
-        from matdb.errors import InputError
-
-        raise InputError(f"--status: expected one of {', '.join(PROVENANCE_STATUSES)}, got {status!r}")
+        raise InputError(f"expected one of {', '.join(PROVENANCE_STATUSES)}, got {status!r}", field="status")
     with read_session(url) as s:
         counts: dict[str, dict[str, int]] = {}
         for p in s.exec(select(ValueProvenance)).all():
@@ -532,10 +537,6 @@ class ConductivityProps:
 def _ensure_conductivities(url: str | None) -> None:
     """A database made before conductivities existed gets them from the seed files
     (the seed write is idempotent and never touches measured rows)."""
-    from matdb.data.db import get_engine
-    from matdb.data.models import ConductivityValue
-    from matdb.data.seed import seed_database
-
     with read_session(url) as s:
         if s.exec(select(ConductivityValue.id).limit(1)).first() is not None:
             return
@@ -548,8 +549,6 @@ def get_conductivity(material_id: str, url: str | None = None) -> Optional[Condu
     Measured rows win over published ones (newest first), then handbook/standard before
     estimate; retracted rows are never used.
     """
-    from matdb.data.models import ConductivityValue
-
     _ensure_conductivities(url)
     with read_session(url) as s:
         rows = [r for r in s.exec(select(ConductivityValue).where(
@@ -566,7 +565,7 @@ def get_conductivity(material_id: str, url: str | None = None) -> Optional[Condu
                                  v.note, int(v.id))
 
 
-def conductivities_df(url: str | None = None) -> pd.DataFrame:
+def conductivities_df(url: str | None = None) -> "pd.DataFrame":
     """Every material's conductivity in use (materials without one are left out)."""
     rows = []
     for m in list_materials(url):
@@ -577,6 +576,6 @@ def conductivities_df(url: str | None = None) -> pd.DataFrame:
                      "sigma_in_plane_s_m": c.sigma_in_plane_s_m,
                      "sigma_across_s_m": c.sigma_across_s_m, "quality": c.quality,
                      "source_key": c.source_key, "source": c.source, "note": c.note})
-    return pd.DataFrame(rows, columns=["material", "name", "sigma_in_plane_s_m",
+    return _frame(rows, columns=["material", "name", "sigma_in_plane_s_m",
                                        "sigma_across_s_m", "quality", "source_key", "source",
                                        "note"])

@@ -13,7 +13,7 @@ from contextlib import contextmanager
 from pathlib import Path
 from typing import Iterator
 
-from sqlalchemy import event, inspect
+from sqlalchemy import event
 from sqlalchemy.engine import Engine
 from sqlmodel import Session, create_engine
 
@@ -100,7 +100,3 @@ def session_scope(url: str | None = None) -> Iterator[Session]:
 def read_session(url: str | None = None) -> Session:
     """A session for reading (caller closes it; prefer ``with read_session() as s``)."""
     return Session(get_engine(url), expire_on_commit=False)
-
-
-def table_names(url: str | None = None) -> list[str]:
-    return inspect(get_engine(url)).get_table_names()

@@ -17,6 +17,7 @@ from sqlmodel import Field, SQLModel
 QUALITY_CLASSES = ("handbook", "standard", "measured", "estimate")
 MATERIAL_KINDS = ("diamagnetic", "paramagnetic")
 FAMILIES = ("NdFeB", "SmCo", "ferrite", "AlNiCo", "bonded-NdFeB")
+SOURCE_KINDS = ("handbook", "standard", "paper", "datasheet", "common-practice", "lab")
 AXES = ("iso", "perp", "par")
 
 

@@ -34,16 +34,16 @@ def _now() -> _dt.datetime:
 def _clean_name(name: Any, field: str = "name") -> str:
     text = " ".join(str(name or "").split())
     if not text:
-        raise InputError(f"{field}: expected a name for the design, got nothing")
+        raise InputError("expected a name for the design, got nothing", field=field)
     if len(text) > NAME_MAX:
-        raise InputError(f"{field}: expected at most {NAME_MAX} characters, got {len(text)}")
+        raise InputError(f"expected at most {NAME_MAX} characters, got {len(text)}", field=field)
     return text
 
 
 def _clean_note(note: Any) -> str:
     text = str(note or "").strip()
     if len(text) > NOTE_MAX:
-        raise InputError(f"note: expected at most {NOTE_MAX} characters, got {len(text)}")
+        raise InputError(f"expected at most {NOTE_MAX} characters, got {len(text)}", field="note")
     return text
 
 
@@ -51,7 +51,7 @@ def _check_text(text: Any) -> str:
     from matdb.design import load_design_text
 
     if not isinstance(text, str) or not text.strip():
-        raise InputError("design: expected the design-file text (TOML), got nothing")
+        raise InputError("expected the design-file text (TOML), got nothing", field="design")
     load_design_text(text)  # raises InputError naming the bad key
     return text
 
@@ -77,7 +77,7 @@ def _get(s, ident: Any) -> SavedDesign:
     if d is None:
         names = [n for n in s.exec(select(SavedDesign.name).order_by(SavedDesign.name)).all()]
         known = ", ".join(names[:10]) + (" ..." if len(names) > 10 else "") if names else "none saved yet"
-        raise NotFoundError(f"design: no saved design {str(ident)!r} (saved: {known})")
+        raise NotFoundError(f"no saved design {str(ident)!r} (saved: {known})", field="design")
     return d
 
 
@@ -96,7 +96,7 @@ def save_design(name: Any, text: str, note: Any = "", *, overwrite: bool = False
         d = s.exec(select(SavedDesign).where(SavedDesign.name == nm)).first()
         if d is not None:
             if not overwrite:
-                raise InputError(f"name: a saved design called {nm!r} exists; choose another name or overwrite it")
+                raise InputError(f"a saved design called {nm!r} exists; choose another name or overwrite it", field="name")
             d.design_toml, d.note, d.updated_at = body, nt, _now()
         else:
             d = SavedDesign(name=nm, note=nt, design_toml=body)
@@ -127,7 +127,7 @@ def _free_copy_name(s, base: str) -> str:
             cand = cand[-NAME_MAX:]
         if cand not in taken:
             return cand
-    raise InputError(f"name: no free copy name for {base!r}")  # pragma: no cover
+    raise InputError(f"no free copy name for {base!r}", field="name")  # pragma: no cover
 
 
 def duplicate_design(ident: Any, new_name: Any = None, url: Optional[str] = None) -> dict:
@@ -136,7 +136,7 @@ def duplicate_design(ident: Any, new_name: Any = None, url: Optional[str] = None
         src = _get(s, ident)
         nm = _clean_name(new_name, "new name") if new_name not in (None, "") else _free_copy_name(s, src.name)
         if s.exec(select(SavedDesign).where(SavedDesign.name == nm)).first() is not None:
-            raise InputError(f"new name: a saved design called {nm!r} exists; choose another name")
+            raise InputError(f"a saved design called {nm!r} exists; choose another name", field="new_name")
         d = SavedDesign(name=nm, note=src.note, design_toml=src.design_toml)
         s.add(d)
         s.flush()
@@ -176,9 +176,9 @@ COMPARE_FIGURES = [
 def _names(idents: Sequence[Any]) -> list:
     items = list(idents or [])
     if not (COMPARE_MIN <= len(items) <= COMPARE_MAX):
-        raise InputError(f"designs: expected {COMPARE_MIN} to {COMPARE_MAX} saved designs to compare, got {len(items)}")
+        raise InputError(f"expected {COMPARE_MIN} to {COMPARE_MAX} saved designs to compare, got {len(items)}", field="designs")
     if len({str(i) for i in items}) != len(items):
-        raise InputError("designs: expected different saved designs, got one twice")
+        raise InputError("expected different saved designs, got one twice", field="designs")
     return items
 
 

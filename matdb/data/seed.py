@@ -12,7 +12,6 @@ from __future__ import annotations
 import csv
 import math
 import os
-import re
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -28,6 +27,7 @@ from matdb.data.models import (
     ConductivityValue,
     MagnetGrade,
     PROVENANCE_STATUSES,
+    SOURCE_KINDS,
     MagnetValue,
     Material,
     PropertyValue,
@@ -35,11 +35,10 @@ from matdb.data.models import (
     SusceptibilityValue,
     ValueProvenance,
 )
-from matdb.constants import ALPHA_MAX_PCT_PER_K, BR_RANGE_T, HCJ_MAX_KA_M, CHI_MAX_ABS, DENSITY_RANGE_KG_M3, celsius_to_kelvin
+from matdb.constants import celsius_to_kelvin
+from matdb.data.lab_input import SLUG_RE, check_br, check_chi_magnitude, check_density, check_hcj, check_temp_coeff
 from matdb.units import CONVENTIONS, chi_to_si_volume, quantity
 
-SLUG_RE = re.compile(r"^[a-z0-9]+(-[a-z0-9]+)*$")
-SOURCE_KINDS = ("handbook", "standard", "paper", "datasheet", "common-practice", "lab")
 
 FILES = {
     "sources": "sources.csv",
@@ -135,6 +134,14 @@ class _Row:
 
     def err(self, fld: str, msg: str) -> DataError:
         return DataError(f"{self.fname}:{self.line}: {fld}: {msg}")
+
+    def check(self, check_fn, value, fld: str) -> None:
+        """Run a shared plausibility check (:mod:`matdb.data.lab_input`) on ``value``; its
+        one-line error gets this row's file and line."""
+        try:
+            check_fn(value, fld)
+        except InputError as exc:
+            raise DataError(f"{self.fname}:{self.line}: {exc}") from None
 
     def text(self, fld: str, required: bool = True) -> str:
         v = (self.data.get(fld) or "").strip()
@@ -242,8 +249,7 @@ def parse_seed(folder: Path | None = None) -> SeedSet:
         if mid in mats:
             raise r.err("id", f"duplicate material id {mid!r}")
         rho = r.num("density_kg_m3", required=True)
-        if not (DENSITY_RANGE_KG_M3[0] <= rho <= DENSITY_RANGE_KG_M3[1]):
-            raise r.err("density_kg_m3", f"implausible density {rho} kg/m^3")
+        r.check(check_density, rho, "density_kg_m3")
         mm = r.num("molar_mass_g_mol")
         if mm is not None and mm <= 0:
             raise r.err("molar_mass_g_mol", "expected a positive molar mass")
@@ -286,8 +292,7 @@ def parse_seed(folder: Path | None = None) -> SeedSet:
             unc_si = abs(chi_to_si_volume(unc, conv, m.density_kg_m3, m.molar_mass_kg_mol)) if unc is not None else None
         except InputError as exc:
             raise r.err("convention", str(exc)) from None
-        if abs(chi) > CHI_MAX_ABS:
-            raise r.err("value_published", f"SI volume susceptibility {chi:.3g} is implausibly large")
+        r.check(check_chi_magnitude, chi, "value_published")
         if m.kind == "diamagnetic" and chi >= 0:
             raise r.err("value_published", f"{mid} is diamagnetic but chi = {chi:.3g} >= 0")
         if m.kind == "paramagnetic" and chi <= 0:
@@ -344,17 +349,14 @@ def parse_seed(folder: Path | None = None) -> SeedSet:
         for req in ("br_t", "hcj_ka_m", "alpha_br_pct_per_k", "max_temp_c", "density_kg_m3"):
             if vals[req] is None:
                 raise r.err(req, "required number is empty")
-        if not (BR_RANGE_T[0] <= vals["br_t"] <= BR_RANGE_T[1]):
-            raise r.err("br_t", f"implausible remanence {vals['br_t']} T")
+        r.check(check_br, vals["br_t"], "br_t")
         if vals["br_min_t"] is not None and vals["br_min_t"] > vals["br_t"]:
             raise r.err("br_min_t", "minimum Br above nominal Br")
-        if vals["hcj_ka_m"] <= 0:
-            raise r.err("hcj_ka_m", "expected a positive coercivity")
-        if vals["hcj_ka_m"] > HCJ_MAX_KA_M:
-            raise r.err("hcj_ka_m", f"implausible coercivity {vals['hcj_ka_m']} kA/m")
+        r.check(check_hcj, vals["hcj_ka_m"], "hcj_ka_m")
+        r.check(check_density, vals["density_kg_m3"], "density_kg_m3")
         for coef in ("alpha_br_pct_per_k", "beta_hcj_pct_per_k"):
-            if vals[coef] is not None and abs(vals[coef]) > ALPHA_MAX_PCT_PER_K:
-                raise r.err(coef, f"implausible temperature coefficient {vals[coef]} %/K")
+            if vals[coef] is not None:
+                r.check(check_temp_coeff, vals[coef], coef)
         price = vals.pop("price_usd_per_kg")
         out.grades.append(MagnetGrade(grade=grade, family=fam, price_usd_per_kg=price,
                                       price_illustrative=True, note=r.text("note", False), origin="seed"))

@@ -30,7 +30,7 @@ import numpy as np
 from matdb.errors import InputError
 from matdb.constants import MU0
 from matdb.physics.fields import MagnetSet, as_points
-from matdb.physics.recoil import effective_polarizations
+from matdb.physics.recoil import effective_polarizations, polarization_cells
 
 __all__ = ["Magnet", "Arrangement", "build_arrangement", "SHAPES", "PATTERNS", "SIZE_FORMS"]
 
@@ -180,18 +180,24 @@ class Magnet:
         return self.position[2] - self.height / 2
 
 
-def _sources(magnets: Sequence[Magnet], plate_z: float | None) -> MagnetSet:
-    """All sources in priority order: the real magnets, then their images (if any)."""
+def _sources(magnets: Sequence[Magnet], plate_z: float | None, cells=None) -> MagnetSet:
+    """All sources in priority order: the real magnets, then their images (if any), then
+    the blocks of non-uniform polarisation ``cells`` (sizes, centres, dJ, magnet index)
+    and their images."""
     kinds = [m.shape for m in magnets]
     sizes = [m.size for m in magnets]
     pols = [m.polarization for m in magnets]
     pos = [m.position for m in magnets]
+    if cells is not None:
+        for size, c, dj in zip(*cells[:3]):
+            kinds.append("cuboid")
+            sizes.append(tuple(size))
+            pols.append(tuple(dj))
+            pos.append(tuple(c))
     if plate_z is not None:
-        for m in magnets:
-            x, y, z = m.position
-            jx, jy, jz = m.polarization
-            kinds.append(m.shape)
-            sizes.append(m.size)
+        for shape, size, (jx, jy, jz), (x, y, z) in list(zip(kinds, sizes, pols, pos)):
+            kinds.append(shape)
+            sizes.append(size)
             pols.append((-jx, -jy, jz))
             pos.append((x, y, 2.0 * plate_z - z))
     return MagnetSet(kinds, sizes, np.asarray(pols, dtype=float), np.asarray(pos, dtype=float))
@@ -208,6 +214,11 @@ class Arrangement:
         Ideal high-permeability half-space under the magnets, surface at the lowest
         bottom face, modelled by image magnets with J' = (-Jx, -Jy, +Jz).
     pattern, rows, cols : descriptive.
+    cells : tuple or None
+        Magnets on their recoil lines (:meth:`with_recoil`): blocks of each magnet whose
+        polarisation departs from the magnet's mean (sizes (k, 3) [m], centres (k, 3)
+        [m], departures dJ (k, 3) [T], magnet index (k,)); their field is added to that
+        of the magnets with their mean polarisation.
     """
 
     magnets: tuple[Magnet, ...]
@@ -215,6 +226,7 @@ class Arrangement:
     pattern: str = "list"
     rows: int = 1
     cols: int = 1
+    cells: tuple | None = field(default=None, compare=False, repr=False)
     _cache: dict = field(default_factory=dict, init=False, repr=False, compare=False)
 
     def __post_init__(self) -> None:
@@ -258,7 +270,7 @@ class Arrangement:
     def _fields(self) -> MagnetSet:
         f = self._cache.get("fields")
         if f is None:
-            f = _sources(self.magnets, self.bottom_z if self.back_plate else None)
+            f = _sources(self.magnets, self.bottom_z if self.back_plate else None, self.cells)
             self._cache["fields"] = f
         return f
 
@@ -291,6 +303,10 @@ class Arrangement:
         j = np.zeros_like(p)
         hit = idx >= 0
         j[hit] = self._pol_table()[idx[hit]]
+        if self.cells is not None and np.any(hit):  # the blocks' departures inside
+            k = self.cells[2].shape[0]
+            w = self._fields().weights(p[hit])[:, self.count:self.count + k]
+            j[hit] += w @ self.cells[2]
         return (b - j) / MU0
 
     def inside(self, points) -> np.ndarray:
@@ -301,7 +317,7 @@ class Arrangement:
         """
         p = as_points(points, "points")
         idx = self._fields().owner(p)
-        idx[idx >= self.count] = -1  # images are not magnets
+        idx[idx >= self.count] = -1  # images and blocks are not magnets
         return idx
 
     # -- derived arrangements --------------------------------------------------
@@ -309,20 +325,27 @@ class Arrangement:
         """Every br multiplied by ``factor`` (the field is linear in J)."""
         f = _float(factor, "factor")
         mags = tuple(replace(m, br=m.br * f) for m in self.magnets)
-        return Arrangement(mags, self.back_plate, self.pattern, self.rows, self.cols)
+        cells = None if self.cells is None else (*self.cells[:2], self.cells[2] * f, self.cells[3])
+        return Arrangement(mags, self.back_plate, self.pattern, self.rows, self.cols, cells)
 
-    def with_recoil(self, chis: Sequence[float]) -> "Arrangement":
-        """The magnets on their recoil lines: each magnet's uniform polarisation from
-        :func:`matdb.physics.recoil.effective_polarizations` with recoil susceptibility
-        ``chis[i] = mu_rec - 1`` (its own and its neighbours' demagnetising fields, images
-        in the back plate included). ``br`` and ``direction`` of the returned magnets are
-        the magnitude and direction of that polarisation. All zeros: ``self``."""
+    def with_recoil(self, chis: Sequence[float], subdivision: int | None = None) -> "Arrangement":
+        """The magnets on their recoil lines (:mod:`matdb.physics.recoil`), with recoil
+        susceptibility ``chis[i] = mu_rec - 1`` (their own and their neighbours'
+        demagnetising fields, images in the back plate included).
+
+        ``br`` and ``direction`` of the returned magnets are the magnitude and direction
+        of each magnet's mean polarisation; the non-uniform part (stronger demagnetisation
+        near the face centres) is carried by :attr:`cells` and included in :meth:`B`.
+        ``subdivision`` cells per edge (default :data:`matdb.physics.recoil.SUBDIVISION`;
+        1: one uniform polarisation per magnet). All zeros: ``self``."""
         chis = [_float(c, "mu_rec") for c in chis]
         if len(chis) != self.count:
             raise InputError(f"mu_rec: expected {self.count} values, got {len(chis)}")
         if all(c == 0 for c in chis):
             return self
-        J = effective_polarizations(self.magnets, chis, self.bottom_z if self.back_plate else None)
+        plate_z = self.bottom_z if self.back_plate else None
+        J = effective_polarizations(self.magnets, chis, plate_z, subdivision)
+        cells = polarization_cells(self.magnets, chis, plate_z, subdivision)
         # components at rounding level (symmetry makes them zero) are zero: the field code
         # then skips the terms of those components, as for the rigid magnets
         J = np.where(np.abs(J) < 1e-12 * np.abs(J).max(axis=1, keepdims=True), 0.0, J)
@@ -330,12 +353,16 @@ class Arrangement:
         for m, j in zip(self.magnets, J):
             n = float(np.linalg.norm(j))
             mags.append(replace(m, direction=tuple(float(c) / n for c in j), br=n) if n > 0 else m)
-        return Arrangement(tuple(mags), self.back_plate, self.pattern, self.rows, self.cols)
+        return Arrangement(tuple(mags), self.back_plate, self.pattern, self.rows, self.cols, cells)
 
     def with_unit_polarization(self) -> "Arrangement":
         """Every |br| = 1 T, magnetisation directions kept (sign of br kept)."""
         mags = tuple(replace(m, br=-1.0 if m.br < 0 else 1.0) for m in self.magnets)
-        return Arrangement(mags, self.back_plate, self.pattern, self.rows, self.cols)
+        cells = self.cells
+        if cells is not None:  # each magnet's blocks scaled with it
+            f = np.array([1.0 / abs(m.br) if m.br != 0 else 0.0 for m in self.magnets])[cells[3]]
+            cells = (*cells[:2], cells[2] * f[:, None], cells[3])
+        return Arrangement(mags, self.back_plate, self.pattern, self.rows, self.cols, cells)
 
 
 def _footprint(shape: str, size: tuple[float, ...]) -> tuple[float, float]:

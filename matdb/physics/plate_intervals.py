@@ -47,7 +47,7 @@ def is_stable_floating(field: FieldFn, plate: PlateGeometry, chi_perp_abs: float
     if gap is None:
         return False
     st = stability(field, plate, gap, chi_perp_abs, chi_par_abs, mass, payload_kg,
-                   payload_height, order, full=False)
+                   payload_height, order, full=False, staged=True)
     return st.laterally_stable
 
 
@@ -277,7 +277,7 @@ def stability_at_equilibrium(field: FieldFn, plate: PlateGeometry, chi_perp_abs:
         return EquilibriumStability(eq, None)
     pl = replace(plate, cx=eq.cx, cy=eq.cy)
     st = stability(field, pl, eq.gap, chi_perp_abs, chi_par_abs, density * plate.volume,
-                   payload_kg, payload_height, order, full=full)
+                   payload_kg, payload_height, order, full=full, staged=not full)
     return EquilibriumStability(eq, st)
 
 

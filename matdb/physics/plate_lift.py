@@ -22,7 +22,6 @@ from typing import Callable
 
 import numpy as np
 from scipy import optimize
-from scipy.interpolate import CubicSpline
 
 from matdb.errors import InputError
 from matdb.physics.plate_geometry import (DEFAULT_ORDER, MIN_GAP, FieldFn, PlateGeometry,
@@ -34,7 +33,8 @@ from matdb.constants import G_STANDARD, MU0
 # vertical force
 # ---------------------------------------------------------------------------
 def plane_integrals(field: FieldFn, plate: PlateGeometry, heights, order: int = DEFAULT_ORDER,
-                    rule_heights=None) -> tuple[np.ndarray, np.ndarray]:
+                    rule_heights=None, memo: "PlaneMemo | None" = None
+                    ) -> tuple[np.ndarray, np.ndarray]:
     """Footprint integrals of ``B_z^2`` and ``B_x^2 + B_y^2`` on horizontal planes.
 
     Parameters
@@ -49,6 +49,9 @@ def plane_integrals(field: FieldFn, plate: PlateGeometry, heights, order: int = 
     rule_heights : array_like, optional
         Heights the quadrature is graded for (default: ``heights``); giving the same rule
         to neighbouring heights makes finite differences smooth.
+    memo : PlaneMemo, optional
+        Integrals already computed for this field and plate (used and filled; ignored
+        when it belongs to another field or plate).
 
     Returns
     -------
@@ -62,6 +65,13 @@ def plane_integrals(field: FieldFn, plate: PlateGeometry, heights, order: int = 
     """
     h = np.atleast_1d(np.asarray(heights, dtype=float))
     rh = h if rule_heights is None else np.broadcast_to(np.asarray(rule_heights, float), h.shape)
+    if memo is not None and memo.serves(field, plate):
+        return memo.planes(h, rh, order)
+    return _planes(field, plate, h, rh, order)
+
+
+def _planes(field: FieldFn, plate: PlateGeometry, h: np.ndarray, rh: np.ndarray, order: int
+            ) -> tuple[np.ndarray, np.ndarray]:
     cache: dict[float, tuple] = {}
     pts, wts, idx = [], [], []
     for i, (hi, ri) in enumerate(zip(h, rh)):
@@ -80,8 +90,47 @@ def plane_integrals(field: FieldFn, plate: PlateGeometry, heights, order: int = 
     return iz, ixy
 
 
+class PlaneMemo:
+    """Plane integrals of one field under one plate, remembered by (height, rule height,
+    order) [m].
+
+    Every plate result is linear in ``(|chi_perp|, |chi_par|)`` and quadratic in the
+    field's scale (module docstring of :mod:`matdb.physics.plate`): with the field of the
+    magnets at one temperature, the analysis at another temperature, or with minimum-spec
+    remanence, is the same analysis with both ``|chi|`` multiplied by ``s^2`` (``s`` the
+    ratio of remanences), so the same memo serves all of them and integrals at heights
+    already visited are not computed again.
+
+    References
+    ----------
+    .. [1] M. V. Berry and A. K. Geim, Eur. J. Phys. 18, 307 (1997) (energy linear in chi,
+       quadratic in B).
+    """
+
+    def __init__(self, field: FieldFn, plate: PlateGeometry):
+        self.field = field
+        self.plate = plate
+        self._store: dict[tuple[float, float, int], tuple[float, float]] = {}
+
+    def serves(self, field: FieldFn, plate: PlateGeometry) -> bool:
+        """True when ``field`` and ``plate`` are the ones this memo was made for."""
+        return (field is self.field or field == self.field) and plate == self.plate
+
+    def planes(self, h: np.ndarray, rh: np.ndarray, order: int) -> tuple[np.ndarray, np.ndarray]:
+        keys = [(float(a), float(b), int(order)) for a, b in zip(h, rh)]
+        todo = [k for k in dict.fromkeys(keys) if k not in self._store]
+        if todo:
+            iz, ixy = _planes(self.field, self.plate, np.array([k[0] for k in todo]),
+                              np.array([k[1] for k in todo]), order)
+            for k, a, b in zip(todo, iz, ixy):
+                self._store[k] = (float(a), float(b))
+        vals = np.array([self._store[k] for k in keys], dtype=float).reshape(len(keys), 2)
+        return vals[:, 0], vals[:, 1]
+
+
 def plate_surface_integrals(field: FieldFn, plate: PlateGeometry, gaps,
-                            order: int = DEFAULT_ORDER) -> tuple[np.ndarray, np.ndarray]:
+                            order: int = DEFAULT_ORDER, memo: PlaneMemo | None = None
+                            ) -> tuple[np.ndarray, np.ndarray]:
     """Bottom- and top-face integrals of the plate for each gap, split by field component.
 
     Computed once per geometry at unit polarisation, they give the lift of any material
@@ -113,7 +162,8 @@ def plate_surface_integrals(field: FieldFn, plate: PlateGeometry, gaps,
     g = np.atleast_1d(np.asarray(gaps, dtype=float))
     if np.any(g < 0):
         raise InputError("gap: expected a gap of zero or more")
-    iz, ixy = plane_integrals(field, plate, np.concatenate([g, g + plate.thickness]), order)
+    iz, ixy = plane_integrals(field, plate, np.concatenate([g, g + plate.thickness]), order,
+                               memo=memo)
     n = g.size
     return np.column_stack([iz[:n], iz[n:]]), np.column_stack([ixy[:n], ixy[n:]])
 
@@ -139,7 +189,8 @@ def lift_from_integrals(iz: np.ndarray, ixy: np.ndarray, chi_perp_abs: float,
 
 
 def lift_force(field: FieldFn, plate: PlateGeometry, gaps, chi_perp_abs: float,
-               chi_par_abs: float, order: int = DEFAULT_ORDER) -> np.ndarray:
+               chi_par_abs: float, order: int = DEFAULT_ORDER, memo: PlaneMemo | None = None
+               ) -> np.ndarray:
     """Vertical magnetic force on the plate, positive upward [N], for each gap [m].
 
     ``F(g) = (1/(2 mu0)) integral_footprint [w(g) - w(g + t)] dA`` with
@@ -150,13 +201,13 @@ def lift_force(field: FieldFn, plate: PlateGeometry, gaps, chi_perp_abs: float,
     .. [1] M. V. Berry and A. K. Geim, Eur. J. Phys. 18, 307 (1997).
     .. [2] M. D. Simon and A. K. Geim, J. Appl. Phys. 87, 6200 (2000).
     """
-    iz, ixy = plate_surface_integrals(field, plate, gaps, order)
+    iz, ixy = plate_surface_integrals(field, plate, gaps, order, memo)
     return lift_from_integrals(iz, ixy, chi_perp_abs, chi_par_abs)
 
 
 def vertical_stiffness(field: FieldFn, plate: PlateGeometry, gap: float, chi_perp_abs: float,
                        chi_par_abs: float, order: int = DEFAULT_ORDER,
-                       step: float | None = None) -> float:
+                       step: float | None = None, memo: PlaneMemo | None = None) -> float:
     """``k_z = -dF/dg`` [N/m] by a central difference on one fixed quadrature rule.
 
     References
@@ -166,7 +217,8 @@ def vertical_stiffness(field: FieldFn, plate: PlateGeometry, gap: float, chi_per
     h = step if step is not None else max(1e-7, 1e-3 * gap)
     t = plate.thickness
     hs = np.array([gap + h, gap - h, gap + h + t, gap - h + t])
-    iz, ixy = plane_integrals(field, plate, hs, order, rule_heights=[gap, gap, gap + t, gap + t])
+    iz, ixy = plane_integrals(field, plate, hs, order, rule_heights=[gap, gap, gap + t, gap + t],
+                              memo=memo)
     f = lambda i, j: (chi_perp_abs * (iz[i] - iz[j]) + chi_par_abs * (ixy[i] - ixy[j])) / (2 * MU0)
     return -(f(0, 2) - f(1, 3)) / (2 * h)
 
@@ -263,15 +315,16 @@ class PlateResult:
         return self.gap is not None
 
 
-def _force_fn(field, plate, chi_perp_abs, chi_par_abs, order):
+def _force_fn(field, plate, chi_perp_abs, chi_par_abs, order, memo=None):
     def f(g: float) -> float:
-        return float(lift_force(field, plate, [g], chi_perp_abs, chi_par_abs, order)[0])
+        return float(lift_force(field, plate, [g], chi_perp_abs, chi_par_abs, order, memo)[0])
     return f
 
 
 def lift_curve_range(field: FieldFn, plate: PlateGeometry, chi_perp_abs: float,
                      chi_par_abs: float, weight: float, g_start: float, g_end: float = 3e-3,
-                     order: int = DEFAULT_ORDER, g_cap: float = 0.2) -> float:
+                     order: int = DEFAULT_ORDER, g_cap: float = 0.2,
+                     memo: PlaneMemo | None = None) -> float:
     """Upper end of the lift curve: ``g_end``, or doubled until ``F < W`` (at most ``g_cap``).
 
     References
@@ -281,7 +334,7 @@ def lift_curve_range(field: FieldFn, plate: PlateGeometry, chi_perp_abs: float,
     .. [2] M. D. Simon and A. K. Geim, J. Appl. Phys. 87, 6200 (2000) (stable float: the
        lift falls with height at the equilibrium).
     """
-    f = _force_fn(field, plate, chi_perp_abs, chi_par_abs, order)
+    f = _force_fn(field, plate, chi_perp_abs, chi_par_abs, order, memo)
     g = max(g_end, g_start + 1e-3)
     while f(g) >= weight and g < g_cap:
         g *= 2.0
@@ -293,7 +346,8 @@ def analyse_plate(field: FieldFn, plate: PlateGeometry, chi_perp_abs: float,
                   payload_height: float = 0.0, g_start: float = MIN_GAP,
                   g_req: float | None = None, n_gaps: int = 60,
                   order: int = DEFAULT_ORDER, with_stability: bool = True,
-                  g_end: float = 3e-3) -> PlateResult:
+                  g_end: float = 3e-3, memo: PlaneMemo | None = None,
+                  full_stability: bool = True) -> PlateResult:
     """Lift curve, equilibrium, vertical frequency, stability and lift at a required gap.
 
     Parameters
@@ -314,6 +368,11 @@ def analyse_plate(field: FieldFn, plate: PlateGeometry, chi_perp_abs: float,
     n_gaps : int
         Points of the lift curve (equally spaced from ``g_start`` to 3 mm, or beyond
         the equilibrium).
+    memo : PlaneMemo, optional
+        Plane integrals shared with other analyses of the same field and plate (e.g.
+        at other temperatures, with ``|chi|`` scaled by the squared remanence ratio).
+    full_stability : bool
+        Also perturb z and yaw (:func:`~matdb.physics.plate_stiffness.stability`).
 
     Returns
     -------
@@ -326,28 +385,29 @@ def analyse_plate(field: FieldFn, plate: PlateGeometry, chi_perp_abs: float,
     """
     mass = density * plate.volume
     weight = (mass + payload_kg) * G_STANDARD
-    f = _force_fn(field, plate, chi_perp_abs, chi_par_abs, order)
-    top = lift_curve_range(field, plate, chi_perp_abs, chi_par_abs, weight, g_start, g_end, order)
+    f = _force_fn(field, plate, chi_perp_abs, chi_par_abs, order, memo)
+    top = lift_curve_range(field, plate, chi_perp_abs, chi_par_abs, weight, g_start, g_end, order,
+                           memo=memo)
     gaps = np.linspace(g_start, top, n_gaps)
-    forces = lift_force(field, plate, gaps, chi_perp_abs, chi_par_abs, order)
+    forces = lift_force(field, plate, gaps, chi_perp_abs, chi_par_abs, order, memo)
     if forces[-1] >= weight:
         gap = None  # still lifting at the cap: treat as not found
     else:
         gap = highest_stable_root(gaps, forces, weight, f)
     if gap is not None and gap > 0.8 * top:  # keep the curve beyond the equilibrium
         gaps = np.linspace(g_start, 1.25 * gap, n_gaps)
-        forces = lift_force(field, plate, gaps, chi_perp_abs, chi_par_abs, order)
+        forces = lift_force(field, plate, gaps, chi_perp_abs, chi_par_abs, order, memo)
     req = g_start if g_req is None else max(g_req, g_start)
     max_f, max_g = max_lift_above(gaps, forces, req, f)
     k_z = f_z = None
     stab = None
     if gap is not None:
-        k_z = vertical_stiffness(field, plate, gap, chi_perp_abs, chi_par_abs, order)
+        k_z = vertical_stiffness(field, plate, gap, chi_perp_abs, chi_par_abs, order, memo=memo)
         m_tot = mass + payload_kg
         f_z = math.sqrt(k_z / m_tot) / (2 * math.pi) if k_z > 0 else 0.0
         if with_stability:
             stab = stability(field, plate, gap, chi_perp_abs, chi_par_abs, mass,
-                             payload_kg, payload_height, order)
+                             payload_kg, payload_height, order, full=full_stability)
     return PlateResult(gaps=gaps, forces=forces, weight=weight, gap=gap, k_z=k_z, f_z=f_z,
                        stability=stab, max_lift=max_f, max_lift_gap=max_g, plate_mass=mass)
 
@@ -356,30 +416,47 @@ def equilibrium_gap(field: FieldFn, plate: PlateGeometry, chi_perp_abs: float,
                     chi_par_abs: float, weight: float, g_start: float = MIN_GAP,
                     order: int = DEFAULT_ORDER, n_gaps: int = 12, xtol: float | None = 1e-8
                     ) -> float | None:
-    """Equilibrium gap from a short geometric lift curve [m] (None: it does not float).
+    """Equilibrium gap on a short geometric lift curve [m] (None: it does not float).
 
-    With ``xtol`` the bracketing pair is refined by brentq on the quadrature itself;
-    with ``xtol=None`` the root is taken on a cubic spline through ``log F`` (cheaper;
-    good to about 1e-4 relative for the smooth, nearly exponential lift, enough for the
-    stiffness scans).
+    The curve ``geomspace(g_start, top, n_gaps)`` is evaluated from the top down, a few
+    gaps at a time, until the lift first reaches the weight: that pair brackets the
+    highest stable root (the lift falls through ``W`` there), and the gaps below it,
+    whose quadrature is the finest, are never needed. The bracket is then refined by
+    brentq on the quadrature itself, to ``xtol`` [m], or with ``xtol=None`` (scans) to
+    1e-5 relative.
 
     References
     ----------
     .. [1] M. D. Simon and A. K. Geim, J. Appl. Phys. 87, 6200 (2000).
+    .. [2] R. P. Brent, Algorithms for Minimization without Derivatives, Prentice-Hall
+       (1973).
     """
-    top = lift_curve_range(field, plate, chi_perp_abs, chi_par_abs, weight, g_start, 3e-3, order)
+    memo = PlaneMemo(field, plate)
+    top = lift_curve_range(field, plate, chi_perp_abs, chi_par_abs, weight, g_start, 3e-3, order,
+                           memo=memo)
     gaps = np.geomspace(g_start, top, n_gaps)
-    forces = lift_force(field, plate, gaps, chi_perp_abs, chi_par_abs, order)
-    if forces[-1] >= weight:
+    forces = np.full(n_gaps, np.nan)
+    hi = n_gaps
+    while hi > 0:
+        lo = max(hi - EQ_BATCH, 0)
+        forces[lo:hi] = lift_force(field, plate, gaps[lo:hi], chi_perp_abs, chi_par_abs, order,
+                                   memo)
+        if forces[-1] >= weight:
+            return None
+        if np.any(forces[lo:hi] >= weight):
+            break
+        hi = lo
+    k = np.nonzero(forces >= weight)[0]
+    if k.size == 0:
         return None
-    if xtol is not None:
-        f = _force_fn(field, plate, chi_perp_abs, chi_par_abs, order)
-        return highest_stable_root(gaps, forces, weight, f, xtol=xtol)
-    if np.all(forces > 0) and weight > 0:
-        spl = CubicSpline(gaps, np.log(forces))
-        target = math.log(weight)
-    else:
-        spl = CubicSpline(gaps, forces)
-        target = weight
-    return highest_stable_root(gaps, forces, weight, lambda g: float(spl(g)) - target + weight,
-                               xtol=1e-10)
+    i = int(k[-1])
+    f = _force_fn(field, plate, chi_perp_abs, chi_par_abs, order, memo)
+    a, b = float(gaps[i]), float(gaps[i + 1])
+    if forces[i] == weight:
+        return a
+    if xtol is None:
+        return float(optimize.brentq(lambda g: f(g) - weight, a, b, xtol=1e-15, rtol=1e-5))
+    return float(optimize.brentq(lambda g: f(g) - weight, a, b, xtol=xtol, rtol=1e-12))
+
+
+EQ_BATCH = 3  # gaps of the lift curve evaluated per step, from the top down

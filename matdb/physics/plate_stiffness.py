@@ -31,7 +31,8 @@ from matdb.constants import MU0
 # forces and torques at any small pose
 # ---------------------------------------------------------------------------
 def generalized_forces_split(field: FieldFn, plate: PlateGeometry, gap: float, pivot,
-                             poses, order: int = DEFAULT_ORDER) -> np.ndarray:
+                             poses, order: int = DEFAULT_ORDER, torques: bool = True
+                             ) -> np.ndarray:
     """Force and torque on the plate at several rigid poses, split by chi component.
 
     Parameters
@@ -45,6 +46,8 @@ def generalized_forces_split(field: FieldFn, plate: PlateGeometry, gap: float, p
     poses : array_like (P, 6)
         ``(dx, dy, dz, rx, ry, rz)``: displacement of the pivot [m] and rotation vector
         about it [rad]; the pose maps ``r -> C + d + R (r - C)``.
+    torques : bool
+        False: forces only (torques NaN), which needs no volume integral.
 
     Returns
     -------
@@ -66,7 +69,7 @@ def generalized_forces_split(field: FieldFn, plate: PlateGeometry, gap: float, p
     poses = np.atleast_2d(np.asarray(poses, dtype=float))
     pivot = np.asarray(pivot, dtype=float)
     sp, sn, sw = surface_rule(plate, gap, order)
-    vp, vw = volume_rule(plate, gap, order)
+    vp, vw = volume_rule(plate, gap, order) if torques else (np.zeros((0, 3)), np.zeros(0))
     rot = Rotation.from_rotvec(poses[:, 3:]).as_matrix()  # (P, 3, 3)
     centre = pivot[None, :] + poses[:, :3]  # displaced pivot (P, 3)
     # transformed points (P, m, 3)
@@ -92,6 +95,8 @@ def generalized_forces_split(field: FieldFn, plate: PlateGeometry, gap: float, p
     intrinsic = np.einsum("pm,pmi->pi", be_v * vw[None, :], bxe) / MU0
     out[:, 0, 3:] += intrinsic
     out[:, 1, 3:] -= intrinsic
+    if not torques:
+        out[:, :, 3:] = np.nan
     return out
 
 
@@ -130,7 +135,9 @@ def stiffness_split(field: FieldFn, plate: PlateGeometry, gap: float, pivot,
     Coordinates ``q = (x, y, z, roll, pitch, yaw)`` (:data:`DOF`): displacement of the
     pivot [m] and rotation about the x (roll), y (pitch) and z (yaw) axes through it
     [rad]; ``dofs`` selects which (indices into :data:`DOF`). Central differences of
-    :func:`generalized_forces_split`; symmetrised.
+    :func:`generalized_forces_split`; symmetrised. The couplings of a translation with a
+    rotation are taken from the force's response to the rotation alone (the mixed second
+    derivatives of the energy are equal), so translated poses need no volume integral.
 
     Returns
     -------
@@ -144,16 +151,35 @@ def stiffness_split(field: FieldFn, plate: PlateGeometry, gap: float, pivot,
        stable when the stiffness matrix is positive definite).
     """
     dofs = [int(d) for d in dofs]
+    return _symmetric(_columns(field, plate, gap, pivot, order, dofs, dofs, step_m, step_rad))
+
+
+def _symmetric(k: np.ndarray) -> np.ndarray:
+    """``(K + K^T) / 2`` over the last two axes, an entry alone where its mirror is NaN."""
+    kt = np.swapaxes(k, -1, -2)
+    return np.where(np.isnan(k), kt, np.where(np.isnan(kt), k, 0.5 * (k + kt)))
+
+
+def _columns(field: FieldFn, plate: PlateGeometry, gap: float, pivot, order: int,
+             perturbed: Sequence[int], rows: Sequence[int], step_m: float | None,
+             step_rad: float) -> np.ndarray:
+    """Unsymmetrised columns ``-dQ_rows/dq_j`` for the ``perturbed`` coordinates j,
+    (2, len(rows), len(perturbed)); central differences of
+    :func:`generalized_forces_split` (the steps of :func:`stiffness_split`)."""
     hs = step_m if step_m is not None else max(1e-7, 5e-4 * min(plate.lx, plate.ly, 10 * gap))
-    steps = np.array([hs] * 3 + [step_rad] * 3)[dofs]
-    poses = np.zeros((2 * len(dofs), 6))
-    for j, d in enumerate(dofs):
+    steps = np.array([hs] * 3 + [step_rad] * 3)[list(perturbed)]
+    poses = np.zeros((2 * len(perturbed), 6))
+    for j, d in enumerate(perturbed):
         poses[2 * j, d] = steps[j]
         poses[2 * j + 1, d] = -steps[j]
-    q = generalized_forces_split(field, plate, gap, pivot, poses, order)[:, :, dofs]
+    q = np.empty((poses.shape[0], 2, 6))
+    moved = np.array([d < 3 for d in perturbed for _ in (0, 1)], dtype=bool)
+    for sel, tq in ((moved, False), (~moved, True)):  # translations: forces only
+        if np.any(sel):
+            q[sel] = generalized_forces_split(field, plate, gap, pivot, poses[sel], order, tq)
+    q = q[:, :, list(rows)]
     k = -(q[0::2] - q[1::2]) / (2.0 * steps[:, None, None])  # (j, comp, i)
-    k = np.transpose(k, (1, 2, 0))  # (comp, i, j)
-    return 0.5 * (k + np.transpose(k, (0, 2, 1)))
+    return np.transpose(k, (1, 2, 0))  # (comp, i, j)
 
 
 def combine(split: np.ndarray, chi_perp_abs: float, chi_par_abs: float) -> np.ndarray:
@@ -215,12 +241,15 @@ def _pos_def(m: np.ndarray) -> bool:
 def stability(field: FieldFn, plate: PlateGeometry, gap: float, chi_perp_abs: float,
               chi_par_abs: float, plate_mass: float, payload_kg: float = 0.0,
               payload_height: float = 0.0, order: int = DEFAULT_ORDER,
-              full: bool = True) -> Stability:
+              full: bool = True, staged: bool = False) -> Stability:
     """Rigid-body stiffness of the floating plate about the combined centre of mass.
 
     Laterally stable when ``k_x, k_y, k_pitch, k_roll > 0`` and the coupled matrices in
     ``(x, pitch)`` and ``(y, roll)`` are positive definite. ``full`` also perturbs z and
-    yaw (reported, not part of the verdict: a disc is neutral in yaw).
+    yaw (reported, not part of the verdict: a disc is neutral in yaw). ``staged`` (with
+    ``full=False``, for scans that need only the verdict) perturbs one coordinate at a
+    time and stops once the verdict is settled; the verdict is the same, entries not
+    computed are NaN.
 
     References
     ----------
@@ -228,15 +257,22 @@ def stability(field: FieldFn, plate: PlateGeometry, gap: float, chi_perp_abs: fl
     .. [2] M. D. Simon and A. K. Geim, J. Appl. Phys. 87, 6200 (2000).
     """
     zc = combined_com_height(plate, gap, plate_mass, payload_kg, payload_height)
+    pivot = (plate.cx, plate.cy, zc)
+    if staged and not full:
+        return _staged_stability(field, plate, gap, pivot, chi_perp_abs, chi_par_abs, order)
     dofs = (0, 1, 2, 3, 4, 5) if full else (0, 1, 3, 4)
-    ks = stiffness_split(field, plate, gap, (plate.cx, plate.cy, zc), order, dofs=dofs)
-    k = combine(ks, chi_perp_abs, chi_par_abs)
+    ks = stiffness_split(field, plate, gap, pivot, order, dofs=dofs)
+    return _verdict(combine(ks, chi_perp_abs, chi_par_abs), dofs)
+
+
+def _verdict(k: np.ndarray, dofs: Sequence[int]) -> Stability:
     pos = {d: i for i, d in enumerate(dofs)}
     ix, iy, iroll, ipitch = pos[0], pos[1], pos[3], pos[4]
     xp = k[np.ix_([ix, ipitch], [ix, ipitch])]
     yr = k[np.ix_([iy, iroll], [iy, iroll])]
     diag = [k[ix, ix], k[iy, iy], k[ipitch, ipitch], k[iroll, iroll]]
-    xp_ok, yr_ok = _pos_def(xp), _pos_def(yr)
+    xp_ok = bool(np.all(np.isfinite(xp))) and _pos_def(xp)
+    yr_ok = bool(np.all(np.isfinite(yr))) and _pos_def(yr)
     return Stability(k=k, dofs=tuple(DOF[d] for d in dofs), k_x=float(k[ix, ix]),
                      k_y=float(k[iy, iy]), k_pitch=float(k[ipitch, ipitch]),
                      k_roll=float(k[iroll, iroll]),
@@ -244,3 +280,33 @@ def stability(field: FieldFn, plate: PlateGeometry, gap: float, chi_perp_abs: fl
                      k_z_matrix=float(k[pos[2], pos[2]]) if 2 in pos else None,
                      xp_definite=xp_ok, yr_definite=yr_ok,
                      laterally_stable=bool(all(d > 0 for d in diag) and xp_ok and yr_ok))
+
+
+LATERAL_DOFS = (0, 1, 3, 4)  # x, y, roll, pitch: the coordinates of the verdict
+_STAGES = ((0,), (1,), (4,), (3,))  # x, y, pitch, roll: one coordinate perturbed at a time
+
+
+def _staged_stability(field: FieldFn, plate: PlateGeometry, gap: float, pivot,
+                      chi_perp_abs: float, chi_par_abs: float, order: int) -> Stability:
+    """:func:`stability` over :data:`LATERAL_DOFS`, one perturbed coordinate at a time,
+    stopping as soon as the verdict is settled (a non-positive diagonal term or coupled
+    block). The matrix entries computed are those of the full computation; entries
+    never computed are NaN (only when the verdict is "not stable")."""
+    n = len(LATERAL_DOFS)
+    pos = {d: i for i, d in enumerate(LATERAL_DOFS)}
+    raw = np.full((n, n), np.nan)
+    done: list[int] = []
+    for stage in _STAGES:
+        cols = combine(_columns(field, plate, gap, pivot, order, stage, LATERAL_DOFS, None,
+                                2e-4), chi_perp_abs, chi_par_abs)
+        for j, d in enumerate(stage):
+            raw[:, pos[d]] = cols[:, j]
+        done += list(stage)
+        sym = _symmetric(raw)
+        ok = all(sym[pos[d], pos[d]] > 0 for d in done)
+        for a, b in ((0, 4), (1, 3)):
+            if a in done and b in done:
+                ok = ok and _pos_def(sym[np.ix_([pos[a], pos[b]], [pos[a], pos[b]])])
+        if not ok:
+            break
+    return _verdict(_symmetric(raw), LATERAL_DOFS)

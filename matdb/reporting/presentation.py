@@ -18,17 +18,17 @@ from typing import Sequence
 import numpy as np
 import pandas as pd
 
-from matdb.advisor.engine import candidate_design
+from matdb.advisor.exact import candidate_design
 from matdb.constants import celsius_to_kelvin, kelvin_to_celsius
 from matdb.analysis.levitate import format_intervals
 from matdb.analysis.synthesis import design_of
-from matdb.cli.physics import SCHEDULE_COLUMNS, schedule_records
 from matdb.data import catalog
 from matdb.design import PlateDesign, body_volume, design_to_toml, document_to_toml, exact_quantity, exact_temperature
 from matdb.errors import InputError
 from matdb.output import csv_text
 from matdb.physics.levitation import levitation_requirement
 from matdb.physics.thermal import br_at, lift_factor
+from matdb.reporting.schedule import SCHEDULE_COLUMNS, schedule_records
 from matdb.units import CONVENTIONS, chi_from_si_volume
 
 # ---------------------------------------------------------------------------
@@ -646,12 +646,6 @@ def stabilized_window_df(result: dict) -> pd.DataFrame:
     return df
 
 
-def payload_steps(payload_range, steps: int) -> np.ndarray:
-    """``steps`` payloads evenly over ``(lo, hi)`` [kg] (one when they are equal)."""
-    lo, hi = payload_range
-    return np.array([lo]) if hi == lo else np.linspace(lo, hi, max(int(steps), 2))
-
-
 def schedule_csv(result: dict) -> str:
     """The schedule as CSV, SI columns (what ``matdb levitate --format csv`` prints)."""
     return csv_text(pd.DataFrame(schedule_records(result), columns=list(SCHEDULE_COLUMNS)), float_format="%.10g")
@@ -702,7 +696,7 @@ ADVISOR_SHOWN = ["rank", "material", "grade", "arrangement", "array_mm", "magnet
 
 
 def advisor_table(df: pd.DataFrame) -> pd.DataFrame:
-    """The ranking of :func:`matdb.advisor.engine.advise` for people: lengths in mm, reasons as
+    """The ranking of :func:`matdb.advisor.advise` for people: lengths in mm, reasons as
     one sentence list (``reasons_text``); the other columns as they are."""
     out = df.copy()
     out["thickness_mm"] = out["thickness_m"] * 1e3
@@ -813,7 +807,7 @@ def sources_table(url: str | None = None) -> pd.DataFrame:
 
 
 def value_check_marks(rows: Sequence[dict], field: str = "value_published") -> list[str]:
-    """Status mark of one number in each value row of :func:`matdb.data.labvalues.history`
+    """Status mark of one number in each value row of :func:`matdb.data.lab_store.history`
     (``m`` for a lab measurement)."""
     out = []
     for r in rows:

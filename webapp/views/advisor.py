@@ -3,7 +3,7 @@
 import altair as alt
 import streamlit as st
 
-from matdb.advisor import engine as advisor
+from matdb import advisor
 from matdb.analysis.levitate import LARGE_MAGNET_M, LARGE_MAGNET_MASS_KG
 from matdb.design import load_design_text
 from matdb.errors import MatdbError

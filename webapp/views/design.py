@@ -13,7 +13,7 @@ from matdb.design import design_to_toml, load_design_text, parse_payload_range
 from matdb.errors import MatdbError
 from matdb.physics.thermal import SAFETY_TEXT
 from matdb.reporting import charts
-from matdb.reporting import presentation
+from matdb.reporting import presentation, schedule
 from matdb.units import parse_length, parse_mass, parse_quantity, parse_temperature
 from webapp import _downloads
 from webapp import _results as rs
@@ -274,7 +274,7 @@ with right:
         if prange.strip():
             rng = sh.checked(lambda v: parse_payload_range(v, "payload range"), prange, "payload range")
             if rng is not None:
-                payloads = tuple(float(x) for x in presentation.payload_steps(rng, int(steps)))
+                payloads = tuple(float(x) for x in schedule.payload_steps(rng, int(steps)))
         if shift.strip():
             res_m = sh.checked(lambda v: parse_length(v, "shift", positive=True), shift, "allowed floater shift")
         if payloads is not None or res_m is not None:

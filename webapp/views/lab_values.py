@@ -8,7 +8,7 @@ import streamlit as st
 from matdb.reporting import presentation
 from matdb.reporting import presentation as P
 from matdb.analysis import dynamics as dyn_lab
-from matdb.data import labvalues as lab
+from matdb.data import lab_store as lab
 from matdb.errors import MatdbError
 from webapp import _shared as sh
 

@@ -68,8 +68,8 @@ def _same_count(field_arrays: dict[str, np.ndarray]) -> int:
     return m.pop()
 
 
-def _chunks(n_points: int, n_sources: int):
-    step = max(1, _CHUNK_ELEMENTS // max(1, n_sources))
+def _chunks(n_points: int, n_sources: int, elements: int | None = None):
+    step = max(1, (elements or _CHUNK_ELEMENTS) // max(1, n_sources))
     for start in range(0, n_points, step):
         yield slice(start, min(n_points, start + step))
 

@@ -82,33 +82,81 @@ def cel(kc, p, c, s, *, rtol: float = 1e-8, max_iter: int = 40) -> np.ndarray:
             pp = np.where(pos, pp_pos, pp_neg)
             cc = np.where(pos, c, cc_neg)
             ss = np.where(pos, s / pp_pos, ss_neg)
-        em = np.ones_like(k)
-        f = cc.copy()
-        cc += ss / pp
-        g = k / pp
-        ss += f * g
-        ss *= 2.0
-        pp += g
-        g = em
-        em = k + em
-        kk = k
-        for _ in range(max_iter):
-            if not np.any(np.abs(g - k) > g * rtol):
-                break
-            k = 2.0 * np.sqrt(kk)
-            kk = k * em
-            f = cc.copy()
-            cc += ss / pp
-            g = kk / pp
-            ss += f * g
-            ss *= 2.0
-            pp += g
-            g = em
-            em = k + em
-        out = 0.5 * math.pi * (ss + cc * em) / (em * (em + pp))
+        (out,) = _cel_iterate(k, [(pp, cc, ss)], rtol, max_iter)
     if any_bad:
         out = np.where(bad, np.nan, out)
     return out
+
+
+def _agm_steps(kmin: float, rtol: float, max_iter: int) -> int:
+    """Iterations Bulirsch's stopping rule needs for the complementary modulus ``kmin``.
+
+    The arithmetic-geometric sequence converges slowest for the smallest ``|kc|``, so this
+    count (run on the scalar) is enough for every element of an array whose smallest
+    modulus is ``kmin``.
+    """
+    k, em, n = kmin, 1.0, 0
+    g, em, kk = em, k + em, k
+    while n < max_iter and abs(g - k) > g * rtol:
+        k = 2.0 * math.sqrt(kk)
+        kk = k * em
+        g, em = em, k + em
+        n += 1
+    return n
+
+
+def _cel_iterate(k: np.ndarray, sets: list, rtol: float, max_iter: int) -> list:
+    """Bulirsch's ``cel`` iteration [1]_ for one modulus and several ``(p, c, s)``.
+
+    ``k = |kc|``; each set is ``(sqrt(p), c, s / sqrt(p))`` after the transformation for
+    the sign of ``p``. The arithmetic-geometric sequence of ``k`` is shared; only the
+    three running sums of each set differ. The number of iterations is the one the
+    smallest modulus needs (:func:`_agm_steps`), so no element is tested on the way.
+
+    References
+    ----------
+    .. [1] R. Bulirsch, Numer. Math. 13, 305-315 (1969), algorithm ``cel``.
+    """
+    steps = _agm_steps(float(np.min(k)), rtol, max_iter) if k.size else 0
+    em = np.ones_like(k)
+    run = []
+    for pp, cc, ss in sets:
+        g = k / pp
+        run.append([pp + g, cc + ss / pp, 2.0 * (ss + cc * g)])
+    em = k + em
+    kk = k
+    for _ in range(steps):
+        k = np.sqrt(kk)
+        k *= 2.0
+        kk = k * em
+        for r in run:
+            pp, cc, ss = r
+            inv = 1.0 / pp  # one division serves s / p and kk / p
+            g = kk * inv
+            inv *= ss
+            inv += cc  # c + s / p
+            cc *= g
+            ss += cc
+            ss *= 2.0
+            pp += g
+            r[:] = [pp, inv, ss]
+        em = k + em
+    return [0.5 * math.pi * (ss + cc * em) / (em * (em + pp)) for pp, cc, ss in run]
+
+
+def _cel_two(kc: np.ndarray, p2: np.ndarray, s2: np.ndarray, rtol: float = 1e-8,
+             max_iter: int = 40) -> tuple[np.ndarray, np.ndarray]:
+    """``cel(kc, 1, 1, -1)`` and ``cel(kc, p2, 1, s2)`` in one pass (``p2 > 0``, ``kc != 0``).
+
+    Both share the iteration of :func:`_cel_iterate` (same tolerance and stopping rule
+    as :func:`cel`).
+    """
+    k = np.abs(kc)
+    p2, s2 = np.broadcast_arrays(p2, s2, k)[:2]
+    one = np.ones_like(k)
+    pp2 = np.sqrt(p2)
+    c1, c2 = _cel_iterate(k, [(one, one, -one), (pp2, one, s2 / pp2)], rtol, max_iter)
+    return c1, c2
 
 
 def _cyl_core(p: np.ndarray, radius, half_h, jz, centre, ell) -> np.ndarray:
@@ -141,13 +189,10 @@ def _cyl_core(p: np.ndarray, radius, half_h, jz, centre, ell) -> np.ndarray:
     km_ok = km > EDGE_SNAP * k_rim
     kp_s = np.where(kp_ok, kp, k_rim)
     km_s = np.where(km_ok, km, k_rim)
-    one = np.ones_like(kp_s)
-    p1p = cel(kp_s, one, one, -one)
-    p1m = cel(km_s, one, one, -one)
     g2 = np.where(on_wall, 1.0, gamma * gamma)
     gs = np.where(on_wall, 1.0, gamma)  # on the wall cel(kc, 0, 1, 0) = cel(kc, 1, 1, 1)
-    p2p = cel(kp_s, g2, one, gs)
-    p2m = cel(km_s, g2, one, gs)
+    # one iteration for both moduli and both parameter sets
+    (p1p, p1m), (p2p, p2m) = _cel_two(np.stack([kp_s, km_s]), g2[None], gs[None])
     alp = a / dp * p1p
     alm = a / dm * p1m
     bep = np.where(kp_ok, zp / dp * p2p, 0.0)  # z_+ = 0 on the rim: beta K -> 0
@@ -169,7 +214,7 @@ def _cyl_sum(p: np.ndarray, radii, half_h, jz, positions, ell) -> np.ndarray:
     m = radii.shape[0]
     if m == 0 or p.shape[0] == 0:
         return out
-    for sl in _chunks(p.shape[0], m):
+    for sl in _chunks(p.shape[0], 2 * m):  # both moduli are stacked: keep temporaries small
         out[sl] = _cyl_core(p[sl], radii, half_h, jz, positions, ell)
     return out
 

@@ -1,29 +1,16 @@
-"""Recording, preferring, retracting lab-measured values (matdb.data.labvalues, matdb record/prefer/
+"""Recording, preferring, retracting lab-measured values (matdb.data.lab_store, matdb record/prefer/
 history/retract)."""
 
 from __future__ import annotations
 
 import json
 import math
-from pathlib import Path
 
 import pytest
 
 from matdb.data import catalog
-from matdb.data import labvalues
+from matdb.data import lab_store
 from matdb.errors import InputError, NotFoundError
-
-
-def _export(run_cli) -> str:
-    code, out, err = run_cli("export", "--format", "json")
-    assert code == 0, err
-    return out
-
-
-def _rec(run_cli, *argv) -> dict:
-    code, out, err = run_cli("record", *argv, "--format", "json")
-    assert code == 0, err
-    return json.loads(out)
 
 
 def _handbook_rows(material_id: str) -> list[dict]:
@@ -35,11 +22,11 @@ def _handbook_rows(material_id: str) -> list[dict]:
 # ---------------------------------------------------------------------------
 # negative numbers as typed, conventions
 # ---------------------------------------------------------------------------
-def test_negative_chi_three_ways(fresh_db, run_cli):
+def test_negative_chi_three_ways(fresh_db, run_cli, record_json):
     bi = catalog.get_material("bismuth")
-    a = _rec(run_cli, "material", "bismuth", "--chi", "-1.6e-4", "--source", "Gouy balance, casting B3")
-    b = _rec(run_cli, "material", "bismuth", "--chi=-1.6e-4", "--source", "Gouy balance, casting B4")
-    c = _rec(run_cli, "material", "bismuth", "--chi", "-280e-6 cm^3/mol", "--molar-mass", "208.98 g/mol",
+    a = record_json("material", "bismuth", "--chi", "-1.6e-4", "--source", "Gouy balance, casting B3")
+    b = record_json("material", "bismuth", "--chi=-1.6e-4", "--source", "Gouy balance, casting B4")
+    c = record_json("material", "bismuth", "--chi", "-280e-6 cm^3/mol", "--molar-mass", "208.98 g/mol",
              "--source", "Faraday balance, casting B5")
     # a bare number is the SI volume susceptibility (matdb convention, DEVELOPERS.md)
     assert a["chi_si"] == pytest.approx(-1.6e-4, rel=1e-12)
@@ -52,8 +39,8 @@ def test_negative_chi_three_ways(fresh_db, run_cli):
     assert a["source_key"] == "lab" and a["source"] == "Gouy balance, casting B3"
 
 
-def test_cgs_volume_and_uncertainty_in_the_same_convention(fresh_db, run_cli):
-    r = _rec(run_cli, "material", "antimony", "--chi", "-1.31e-5 cgs-volume", "--uncertainty", "0.05e-5",
+def test_cgs_volume_and_uncertainty_in_the_same_convention(fresh_db, run_cli, record_json):
+    r = record_json("material", "antimony", "--chi", "-1.31e-5 cgs-volume", "--uncertainty", "0.05e-5",
              "--temperature", "22 degC", "--source", "SQUID, sample S2", "--measured-by", "R. Ivanova",
              "--date", "2026-11-20", "--method", "SQUID magnetometer")
     # CGS volume -> SI volume: factor 4 pi (IUPAC Green Book 3rd ed., 7.4)
@@ -64,14 +51,14 @@ def test_cgs_volume_and_uncertainty_in_the_same_convention(fresh_db, run_cli):
     assert (r["measured_by"], r["date"], r["method"]) == ("R. Ivanova", "2026-11-20", "SQUID magnetometer")
 
 
-def test_percentage_uncertainty(fresh_db, run_cli):
-    r = _rec(run_cli, "material", "bismuth", "--chi", "-1.60e-4", "--uncertainty", "5%", "--source", "balance")
+def test_percentage_uncertainty(fresh_db, run_cli, record_json):
+    r = record_json("material", "bismuth", "--chi", "-1.60e-4", "--uncertainty", "5%", "--source", "balance")
     # a percentage is relative to |chi| (common practice, no source)
     assert r["uncertainty"] == pytest.approx(0.05 * 1.60e-4, rel=1e-12)
 
 
-def test_anisotropic_record_keeps_both_axes(fresh_db, run_cli):
-    r = _rec(run_cli, "material", "pyrolytic-graphite", "--chi-perp", "-4.1e-4", "--chi-par", "-7.9e-5",
+def test_anisotropic_record_keeps_both_axes(fresh_db, run_cli, record_json):
+    r = record_json("material", "pyrolytic-graphite", "--chi-perp", "-4.1e-4", "--chi-par", "-7.9e-5",
              "--source", "supplier X sheet, torque magnetometer")
     m = catalog.get_material("pyrolytic-graphite")
     assert m.value_id == r["value_id"] and m.value_kind == "measured"
@@ -79,11 +66,11 @@ def test_anisotropic_record_keeps_both_axes(fresh_db, run_cli):
     assert m.chi_vertical == pytest.approx(-4.1e-4) and m.chi_horizontal == pytest.approx(-7.9e-5)
 
 
-def test_anisotropic_without_in_plane_value_is_refused(fresh_db, run_cli):
-    before = _export(run_cli)
+def test_anisotropic_without_in_plane_value_is_refused(fresh_db, run_cli, export_text):
+    before = export_text()
     code, _, err = run_cli("record", "material", "pyrolytic-graphite", "--chi", "-4.1e-4", "--source", "x")
     assert code == 2 and "--chi-par" in err and "anisotropic" in err
-    assert _export(run_cli) == before
+    assert export_text() == before
 
 
 # ---------------------------------------------------------------------------
@@ -98,7 +85,7 @@ BAD_RECORDS = [
     (["bismuth", "--chi", "1e400", "--source", "x"], "--chi"),
     (["bismuth", "--chi", "-1e300", "--source", "x"], "--chi"),
     (["bismuth", "--chi", "-0.5", "--source", "x"], "--chi"),
-    (["bismuth", "--chi", "1.6e-4", "--source", "x"], "--allow-paramagnetic"),
+    (["bismuth", "--chi", "1.6e-4", "--source", "x"], "allow_paramagnetic"),  # the override, named by its field
     (["bismuth", "--chi", "-1.6e-4", "--temperature", "20", "--source", "x"], "--temperature"),
     (["bismuth", "--chi", "-1.6e-4", "--temperature", "5 kg", "--source", "x"], "--temperature"),
     (["bismuth", "--chi", "-1.6e-4", "--density", "9780", "--source", "x"], "--density"),
@@ -120,17 +107,17 @@ BAD_RECORDS = [
 
 
 @pytest.mark.parametrize("argv,field", BAD_RECORDS, ids=[" ".join(a[1:3]) + f" [{f}]" for a, f in BAD_RECORDS])
-def test_bad_record_is_refused_and_writes_nothing(fresh_db, run_cli, argv, field):
-    before = _export(run_cli)
+def test_bad_record_is_refused_and_writes_nothing(fresh_db, run_cli, argv, field, export_text):
+    before = export_text()
     code, out, err = run_cli("record", "material", *argv)
     assert code == 2, out
     assert err.startswith("matdb: error:") and err.count("\n") == 1  # one line
     assert field in err
-    assert _export(run_cli) == before  # matdb export --format json unchanged
+    assert export_text() == before  # matdb export --format json unchanged
 
 
-def test_bad_magnet_records_write_nothing(fresh_db, run_cli):
-    before = _export(run_cli)
+def test_bad_magnet_records_write_nothing(fresh_db, run_cli, export_text):
+    before = export_text()
     cases = [
         (["N42", "--br", "1.25", "--source", "g"], "--br"),            # missing unit
         (["N42", "--br", "5 kg", "--source", "g"], "--br"),            # wrong dimension
@@ -152,15 +139,15 @@ def test_bad_magnet_records_write_nothing(fresh_db, run_cli):
     for argv, field in cases:
         code, _, err = run_cli("record", "magnet", *argv)
         assert code == 2 and field in err, (argv, err)
-    assert _export(run_cli) == before
+    assert export_text() == before
 
 
 # ---------------------------------------------------------------------------
 # preferred value, prefer, retract, history
 # ---------------------------------------------------------------------------
-def test_materials_json_shows_the_measured_value_in_use(fresh_db, run_cli):
+def test_materials_json_shows_the_measured_value_in_use(fresh_db, run_cli, record_json):
     hb_before = _handbook_rows("bismuth")
-    r = _rec(run_cli, "material", "bismuth", "--chi", "-1.58e-4", "--source", "casting B3, Gouy balance")
+    r = record_json("material", "bismuth", "--chi", "-1.58e-4", "--source", "casting B3, Gouy balance")
     code, out, _ = run_cli("materials", "--format", "json")
     assert code == 0
     bi = next(m for m in json.loads(out) if m["id"] == "bismuth")
@@ -169,20 +156,20 @@ def test_materials_json_shows_the_measured_value_in_use(fresh_db, run_cli):
     assert _handbook_rows("bismuth") == hb_before  # handbook rows never change
 
 
-def test_newest_measurement_by_date_then_entry_is_used(fresh_db, run_cli):
+def test_newest_measurement_by_date_then_entry_is_used(fresh_db, run_cli, record_json):
     # rule stated in issue 7 and matdb.data.catalog.choose_preferred
-    new = _rec(run_cli, "material", "bismuth", "--chi", "-1.60e-4", "--date", "2026-10-01", "--source", "a")
-    old = _rec(run_cli, "material", "bismuth", "--chi", "-1.50e-4", "--date", "2025-10-01", "--source", "b")
+    new = record_json("material", "bismuth", "--chi", "-1.60e-4", "--date", "2026-10-01", "--source", "a")
+    old = record_json("material", "bismuth", "--chi", "-1.50e-4", "--date", "2025-10-01", "--source", "b")
     assert catalog.get_material("bismuth").value_id == new["value_id"]
-    same_day = _rec(run_cli, "material", "bismuth", "--chi", "-1.55e-4", "--date", "2026-10-01", "--source", "c")
+    same_day = record_json("material", "bismuth", "--chi", "-1.55e-4", "--date", "2026-10-01", "--source", "c")
     assert catalog.get_material("bismuth").value_id == same_day["value_id"]  # later entry wins the tie
     assert old["preferred"] is False
 
 
-def test_prefer_and_retract_cycle(fresh_db, run_cli):
+def test_prefer_and_retract_cycle(fresh_db, run_cli, record_json):
     hb = _handbook_rows("bismuth")[0]
-    m1 = _rec(run_cli, "material", "bismuth", "--chi", "-1.60e-4", "--date", "2026-10-01", "--source", "a")
-    m2 = _rec(run_cli, "material", "bismuth", "--chi", "-1.20e-4", "--date", "2026-11-01", "--source", "bad run")
+    m1 = record_json("material", "bismuth", "--chi", "-1.60e-4", "--date", "2026-10-01", "--source", "a")
+    m2 = record_json("material", "bismuth", "--chi", "-1.20e-4", "--date", "2026-11-01", "--source", "bad run")
     assert catalog.get_material("bismuth").value_id == m2["value_id"]
 
     code, _, err = run_cli("prefer", "bismuth", str(m1["value_id"]))
@@ -210,8 +197,8 @@ def test_prefer_and_retract_cycle(fresh_db, run_cli):
     assert _handbook_rows("bismuth")[0] == hb
 
 
-def test_history_json_contract_keys(fresh_db, run_cli):
-    _rec(run_cli, "material", "bismuth", "--chi", "-1.6e-4", "--uncertainty", "2%", "--source", "s",
+def test_history_json_contract_keys(fresh_db, run_cli, record_json):
+    record_json("material", "bismuth", "--chi", "-1.6e-4", "--uncertainty", "2%", "--source", "s",
          "--measured-by", "me", "--date", "2026-11-01", "--method", "Gouy")
     code, out, _ = run_cli("history", "bismuth", "--format", "json")
     assert code == 0
@@ -227,10 +214,10 @@ def test_history_json_contract_keys(fresh_db, run_cli):
     assert code == 0 and "Gouy" in out
 
 
-def test_prefer_and_retract_errors_write_nothing(fresh_db, run_cli):
+def test_prefer_and_retract_errors_write_nothing(fresh_db, run_cli, export_text):
     bi_hb = _handbook_rows("bismuth")[0]
     sb_hb = _handbook_rows("antimony")[0]
-    before = _export(run_cli)
+    before = export_text()
     cases = [
         (("prefer", "bismuth", str(sb_hb["value_id"])), "VALUE-ID"),  # a value of another material
         (("prefer", "bismuth", "abc"), "VALUE-ID"),
@@ -243,25 +230,25 @@ def test_prefer_and_retract_errors_write_nothing(fresh_db, run_cli):
     for argv, field in cases:
         code, _, err = run_cli(*argv)
         assert code == 2 and field in err, (argv, err)
-    assert _export(run_cli) == before
+    assert export_text() == before
 
 
 def test_library_record_and_retract(fresh_db):
-    r = labvalues.record_material_value("bismuth", chi=-1.6e-4, source="lib call", date="2026-11-02")
+    r = lab_store.record_material_value("bismuth", chi=-1.6e-4, source="lib call", date="2026-11-02")
     assert r["value_kind"] == "measured" and r["preferred"]
-    out = labvalues.retract(r["value_id"], "x", "bismuth")
+    out = lab_store.retract(r["value_id"], "x", "bismuth")
     assert out["retracted"] and out["retract_reason"] == "x"
     with pytest.raises(InputError, match="already retracted"):
-        labvalues.retract(r["value_id"], "x", "bismuth")
+        lab_store.retract(r["value_id"], "x", "bismuth")
     with pytest.raises(NotFoundError):
-        labvalues.history("no-such-thing")
+        lab_store.history("no-such-thing")
 
 
-def test_allow_paramagnetic_and_new_material(fresh_db, run_cli):
+def test_allow_paramagnetic_and_new_material(fresh_db, run_cli, record_json):
     code, _, err = run_cli("record", "material", "bismuth", "--chi", "2e-6", "--allow-paramagnetic",
                            "--source", "contaminated casting (iron inclusions)")
     assert code == 0, err
-    r = _rec(run_cli, "material", "bismuth-tin-eutectic", "--name", "Bi-Sn eutectic", "--density", "8.56 g/cm^3",
+    r = record_json("material", "bismuth-tin-eutectic", "--name", "Bi-Sn eutectic", "--density", "8.56 g/cm^3",
              "--chi", "-9.5e-5", "--source", "own casting, Gouy balance")
     assert r["created_material"] is True
     m = catalog.get_material("bismuth-tin-eutectic")
@@ -272,103 +259,18 @@ def test_allow_paramagnetic_and_new_material(fresh_db, run_cli):
 
 
 # ---------------------------------------------------------------------------
-# magnets; surface-field inversion
+# magnets
 # ---------------------------------------------------------------------------
-def test_record_magnet_br_merges_with_published(fresh_db, run_cli):
+def test_record_magnet_br_merges_with_published(fresh_db, run_cli, record_json):
     pub = catalog.get_grade("N42")
-    r = _rec(run_cli, "magnet", "N42", "--br", "12650 G", "--source", "batch 7, gaussmeter + fluxmeter")
+    r = record_json("magnet", "N42", "--br", "12650 G", "--source", "batch 7, gaussmeter + fluxmeter")
     g = catalog.get_grade("N42")
     # 1 G = 1e-4 T (CGS-emu definition)
     assert g.br_t == pytest.approx(1.265) and g.value_kind == "measured" and g.value_id == r["value_id"]
     assert g.hcj_ka_m == pub.hcj_ka_m  # the rest comes from the published row
-    r2 = _rec(run_cli, "magnet", "N77Q", "--family", "ndfeb", "--br", "1.27 T", "--hcj", "12 kOe",
+    r2 = record_json("magnet", "N77Q", "--family", "ndfeb", "--br", "1.27 T", "--hcj", "12 kOe",
               "--alpha", "-0.12 %/K", "--max-temp", "80 degC", "--density", "7.5 g/cm^3", "--source", "s")
     assert r2["created_grade"] is True
     g2 = catalog.get_grade("N77Q")
     # 1 Oe = 1000/(4 pi) A/m (CGS-emu definition)
     assert g2.family == "NdFeB" and g2.hcj_ka_m == pytest.approx(12 * 1000 / (4 * math.pi), rel=1e-9)
-
-
-def _cuboid_axis_bz(br, a, b, h, z):
-    """On-axis Bz above the centre of a uniformly magnetised cuboid of sides 2a x 2b x h
-    (textbook closed form from the charge-sheet model, e.g. Furlani, Permanent Magnet and
-    Electromechanical Devices, 2001, ch. 4)."""
-    def term(zz):
-        return math.atan(a * b / (zz * math.sqrt(a * a + b * b + zz * zz)))
-    return br / math.pi * (term(z) - term(z + h))
-
-
-def _cylinder_axis_bz(br, r, h, z):
-    """On-axis Bz of a uniformly magnetised cylinder (same source; current-sheet model)."""
-    return br / 2 * ((h + z) / math.sqrt(r * r + (h + z) ** 2) - z / math.sqrt(r * r + z * z))
-
-
-def test_surface_field_inverts_to_br_cuboid(fresh_db, run_cli):
-    r = _rec(run_cli, "magnet", "N42", "--surface-field", "0.40 T", "--shape", "cuboid",
-             "--size", "10 mm,10 mm,10 mm", "--probe-offset", "0.5 mm", "--source", "gaussmeter, axial probe")
-    expected = 0.40 / _cuboid_axis_bz(1.0, 5e-3, 5e-3, 10e-3, 0.5e-3)
-    assert r["br_t"] == pytest.approx(expected, rel=1e-6)
-    # the note says what was assumed
-    for part in ("cuboid", "10 mm,10 mm,10 mm", "0.5 mm", "0.4 T"):
-        assert part in r["note"], part
-    # the offset matters: the field of a 10 mm cube falls steeply over the first millimetre
-    assert _cuboid_axis_bz(1, 5e-3, 5e-3, 10e-3, 1e-3) < 0.85 * _cuboid_axis_bz(1, 5e-3, 5e-3, 10e-3, 1e-9)
-
-
-def test_surface_field_inverts_to_br_cylinder(fresh_db):
-    br, note = labvalues.surface_field_to_br("4800 G", "cylinder", "12 mm,6 mm", None)
-    assert br == pytest.approx(0.48 / _cylinder_axis_bz(1.0, 6e-3, 6e-3, 0.0), rel=1e-6)
-    assert "0 mm above" in note and "cylinder" in note
-
-
-def test_unit_field_is_linear_in_br():
-    # B is linear in Br (superposition of magnetic charge; Furlani 2001, ch. 4): doubling the
-    # measured field doubles the inferred Br
-    a, _ = labvalues.surface_field_to_br("0.25 T", "cuboid", "20 mm, 20 mm, 10 mm", "1 mm")
-    b, _ = labvalues.surface_field_to_br("0.5 T", "cuboid", "20 mm, 20 mm, 10 mm", "1 mm")
-    assert b == pytest.approx(2 * a, rel=1e-12)
-
-
-# ---------------------------------------------------------------------------
-# float-gap inversion
-# ---------------------------------------------------------------------------
-DESIGN = Path(__file__).resolve().parent / "data" / "plate_checkerboard.toml"
-
-
-def test_float_gap_inverts_the_plate_physics(fresh_db, run_cli):
-    from matdb.design import load_design
-    from matdb.analysis.levitate import levitate
-
-    hb = catalog.get_material("pyrolytic-graphite")  # handbook chi (Simon and Geim 2000, seed data)
-    gap = levitate(load_design(DESIGN))["gap_m"]
-    r = _rec(run_cli, "material", "pyrolytic-graphite", "--from-float-gap", f"{gap * 1000!r} mm",
-             "--design", str(DESIGN), "--source", "floated sheet 3 over the demo array, feeler gauge")
-    # the forward equilibrium of the handbook value, inverted, gives that value back; the
-    # perp/par ratio is kept
-    assert r["chi_si"] == pytest.approx(hb.chi_vertical, rel=1e-4)
-    assert r["chi_par_si"] / r["chi_si"] == pytest.approx(hb.chi_horizontal / hb.chi_vertical, rel=1e-12)
-    assert "float gap" in r["note"] and "plate_checkerboard.toml" in r["note"] and 'grade = "N42"' in r["note"]
-    assert r["temperature_c"] == pytest.approx(20.0)
-    # lift is linear in |chi| (Berry and Geim 1997): a higher float means a larger |chi|
-    higher = labvalues.record_material_value("pyrolytic-graphite", from_float_gap=f"{gap * 1.2} m",
-                                             design=str(DESIGN), source="higher")
-    assert abs(higher["chi_si"]) > abs(r["chi_si"])
-
-
-def test_float_gap_errors_write_nothing(fresh_db, run_cli, tmp_path):
-    other = tmp_path / "bismuth.toml"
-    other.write_text(DESIGN.read_text(encoding="utf-8").replace('"pyrolytic-graphite"', '"bismuth"'),
-                     encoding="utf-8")
-    before = _export(run_cli)
-    cases = [
-        (["--from-float-gap", "0.9 mm", "--design", str(other)], "--design"),         # another material
-        (["--from-float-gap", "0.9 mm", "--design", str(tmp_path / "none.toml")], "--design"),
-        (["--from-float-gap", "0.9 mm"], "--design"),
-        (["--from-float-gap", "0.9", "--design", str(DESIGN)], "--from-float-gap"),    # missing unit
-        (["--from-float-gap", "40 mm", "--design", str(DESIGN)], "--from-float-gap"),  # absurd |chi|
-        (["--from-float-gap", "0.9 mm", "--design", str(DESIGN), "--chi", "-1e-4"], "--from-float-gap"),
-    ]
-    for extra, field in cases:
-        code, _, err = run_cli("record", "material", "pyrolytic-graphite", *extra, "--source", "s")
-        assert code == 2 and field in err, (extra, err)
-    assert _export(run_cli) == before

@@ -13,15 +13,11 @@ from hypothesis import strategies as st
 
 from matdb.data import catalog
 from matdb.data import db
-from matdb.data import labvalues
+from matdb.data import exchange
+from matdb.data import lab_store
+from matdb import output
 
 DATA = Path(__file__).resolve().parent / "data"
-
-
-def _export(run_cli, fmt: str = "json") -> str:
-    code, out, err = run_cli("export", "--format", fmt)
-    assert code == 0, err
-    return out
 
 
 def _import(run_cli, path) -> dict:
@@ -37,28 +33,28 @@ def _measured(export_json: str) -> list[dict]:
                   key=lambda r: (r["record"], r["id"], r["entered_at"], r["source"]))
 
 
-def test_import_good_file_then_reimport_adds_nothing(fresh_db, run_cli):
+def test_import_good_file_then_reimport_adds_nothing(fresh_db, run_cli, export_text):
     n_rows = sum(1 for _ in csv.DictReader((DATA / "lab_good.csv").open(encoding="utf-8")))
     first = _import(run_cli, DATA / "lab_good.csv")
     assert first["added"] == n_rows and first["already_present"] == 0
-    snapshot = _export(run_cli)
+    snapshot = export_text()
     again = _import(run_cli, DATA / "lab_good.csv")
     assert again["added"] == 0 and again["already_present"] == n_rows
-    assert _export(run_cli) == snapshot
+    assert export_text() == snapshot
     # a row typed in a convention is converted like 'matdb record' (IUPAC Green Book 7.4: x 4 pi)
     sb = catalog.get_material("antimony")
     assert sb.value_kind == "measured" and sb.source.startswith("=HYPERLINK(")
 
 
-def test_bad_file_names_every_bad_row_and_writes_nothing(fresh_db, run_cli):
-    before = _export(run_cli)
+def test_bad_file_names_every_bad_row_and_writes_nothing(fresh_db, run_cli, export_text):
+    before = export_text()
     code, _, err = run_cli("import", str(DATA / "lab_bad.csv"))
     assert code == 2 and err.count("\n") == 1
     # lines 3-7 are bad (chi '5 kg', temperature without unit, unknown material, empty source, NaN)
     for line, field in ((3, "chi"), (4, "temperature"), (5, "unobtainium"), (6, "source"), (7, "chi")):
         assert f"line {line}: " in err and field in err.split(f"line {line}: ")[1].split(";")[0], (line, err)
     assert "line 2:" not in err and "5 bad rows" in err
-    assert _export(run_cli) == before
+    assert export_text() == before
 
 
 def test_import_creates_a_new_material_once(fresh_db, run_cli):
@@ -77,13 +73,13 @@ def test_import_creates_a_new_material_once(fresh_db, run_cli):
     (b"", "empty"),
     (b"{not json", "not valid JSON"),
 ])
-def test_malformed_files_are_refused(fresh_db, run_cli, tmp_path, content, expect):
+def test_malformed_files_are_refused(fresh_db, run_cli, tmp_path, content, expect, export_text):
     path = tmp_path / "in.csv"
     path.write_bytes(content)
-    before = _export(run_cli)
+    before = export_text()
     code, _, err = run_cli("import", str(path))
     assert code == 2 and expect in err, err
-    assert _export(run_cli) == before
+    assert export_text() == before
 
 
 def test_excel_bom_is_accepted(fresh_db, run_cli, tmp_path):
@@ -93,11 +89,11 @@ def test_excel_bom_is_accepted(fresh_db, run_cli, tmp_path):
     assert _import(run_cli, path)["added"] == 1
 
 
-def test_dry_run_writes_nothing(fresh_db, run_cli):
-    before = _export(run_cli)
+def test_dry_run_writes_nothing(fresh_db, run_cli, export_text):
+    before = export_text()
     code, out, err = run_cli("import", str(DATA / "lab_good.csv"), "--dry-run")
     assert code == 0 and "dry run" in out, err
-    assert _export(run_cli) == before
+    assert export_text() == before
 
 
 def _populate(run_cli):
@@ -127,9 +123,9 @@ def _populate(run_cli):
     assert code == 0, err
 
 
-def test_csv_export_escapes_formulas_but_not_numbers(fresh_db, run_cli):
+def test_csv_export_escapes_formulas_but_not_numbers(fresh_db, run_cli, export_text):
     _populate(run_cli)
-    text = _export(run_cli, "csv")
+    text = export_text("csv")
     rows = list(csv.DictReader(io.StringIO(text)))
     bi = [r for r in rows if r["record"] == "chi" and r["id"] == "bismuth" and r["value_kind"] == "measured"]
     # OWASP "CSV Injection": cells starting with = + - @ are prefixed with a single quote
@@ -142,47 +138,47 @@ def test_csv_export_escapes_formulas_but_not_numbers(fresh_db, run_cli):
     assert own["source"] == "''quoted note"  # a leading quote is doubled so import restores it
     for r in rows:
         for col, cell in r.items():
-            if cell and col not in labvalues.NUMERIC_COLUMNS:
+            if cell and col not in exchange.NUMERIC_COLUMNS:
                 assert cell[0] not in "=+-@", (col, cell)
     # JSON keeps notes as typed
-    hist = {r["value_id"]: r for r in labvalues.history("bismuth")}
+    hist = {r["value_id"]: r for r in lab_store.history("bismuth")}
     assert any(r["source"] == '=HYPERLINK("http://example.invalid","x")' for r in hist.values())
 
 
 @pytest.mark.parametrize("fmt", ["csv", "json"])
-def test_round_trip_restores_measured_rows_into_a_fresh_database(fresh_db, run_cli, tmp_path, monkeypatch, fmt):
+def test_round_trip_restores_measured_rows_into_a_fresh_database(fresh_db, run_cli, tmp_path, monkeypatch, fmt, export_text):
     _populate(run_cli)
     dump = tmp_path / f"dump.{fmt}"
     code, _, err = run_cli("export", "--format", fmt, "--out", str(dump))
     assert code == 0, err
-    original = _export(run_cli)
+    original = export_text()
     # into the same (identical) database: nothing new
     s = _import(run_cli, dump)
     assert s["added"] == 0 and s["materials_added"] == 0 and s["grades_added"] == 0 and s["preferences_set"] == 0
-    assert _export(run_cli) == original
+    assert export_text() == original
 
     other = f"sqlite:///{tmp_path / 'other.sqlite'}"
     monkeypatch.setenv("MATDB_URL", other)
     db.reset_engines()
     s = _import(run_cli, dump)
     assert s["materials_added"] == 1 and s["grades_added"] == 1 and s["added"] == 6
-    restored = _export(run_cli)
+    restored = export_text()
     assert _measured(restored) == _measured(original)  # lossless: every field, retraction, note
     assert [m for m in json.loads(restored)["materials"]] == json.loads(original)["materials"]
     assert catalog.get_material("bismuth").chi_si == pytest.approx(-1.6e-4)
     assert catalog.get_material("antimony").value_kind == "handbook"  # explicit preference restored
     assert catalog.get_grade("X1").br_t == pytest.approx(1.05)
     again = _import(run_cli, dump)
-    assert again["added"] == 0 and _export(run_cli) == restored
+    assert again["added"] == 0 and export_text() == restored
     db.reset_engines()
 
 
 def test_retraction_travels_with_an_import(fresh_db, run_cli, tmp_path):
     _import(run_cli, DATA / "lab_good.csv")
-    vid = next(r["value_id"] for r in labvalues.history("graphite") if r["value_kind"] == "measured")
+    vid = next(r["value_id"] for r in lab_store.history("graphite") if r["value_kind"] == "measured")
     dump = tmp_path / "d.csv"
-    labvalues.retract(vid, "machined surface contaminated", "graphite")
-    dump.write_text(labvalues.export("csv"), encoding="utf-8")
+    lab_store.retract(vid, "machined surface contaminated", "graphite")
+    dump.write_text(exchange.export("csv"), encoding="utf-8")
     # an export that says retracted, imported where it is not retracted, retracts it there
     with db.session_scope() as s:
         from matdb.data.models import SusceptibilityValue
@@ -191,15 +187,15 @@ def test_retraction_travels_with_an_import(fresh_db, run_cli, tmp_path):
         v.retracted, v.retract_reason = False, None
     s = _import(run_cli, dump)
     assert s["retracted"] == 1 and s["added"] == 0
-    assert next(r for r in labvalues.history("graphite") if r["value_id"] == vid)["retracted"] is True
+    assert next(r for r in lab_store.history("graphite") if r["value_id"] == vid)["retracted"] is True
 
 
 @settings(max_examples=300, deadline=None)
 @given(st.text(max_size=30))
 def test_escape_round_trip_and_neutralises_formulas(text):
     # OWASP "CSV Injection": a cell must not begin with = + - @ tab or CR when a spreadsheet opens it
-    esc = labvalues.escape_cell(text)
-    assert labvalues.unescape_cell(esc) == text
+    esc = output.escape_cell(text)
+    assert output.unescape_cell(esc) == text
     assert not esc or esc[0] not in "=+-@\t\r"
 
 

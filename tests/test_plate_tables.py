@@ -1,0 +1,78 @@
+"""matdb.physics.plate_tables: the screening tables against the plate code and closed forms."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from matdb.constants import MU0
+from matdb.physics import plate as P
+from matdb.physics import plate_tables as PT
+from matdb.physics.arrangement import build_arrangement
+
+
+def test_lateral_line_integrals_equal_the_stiffness_of_a_shifted_plate():
+    # The lateral stiffness is the derivative of the plate's energy -chi B^2/(2 mu0) under a
+    # sideways shift (Berry and Geim, Eur. J. Phys. 18, 307 (1997)); the line integrals across
+    # the side faces, summed over the height, must equal the central difference of the
+    # generalised force that matdb.physics.plate.stiffness_split takes (an independent path:
+    # volume quadrature of the shifted plate). Both take central differences (1 um across a
+    # face here, 4 um shifts there): they agree to about 4e-5; bound 1e-4.
+    arr = build_arrangement("cuboid", (0.01, 0.01, 0.01), "checkerboard", 2, 2, 0.0, br=1.0)
+    bx, by = P.edge_lines(arr.magnets)
+    g, t, side = 1e-3, 1e-3, 0.008
+    hs = np.linspace(g, g + t, 41)
+    lat = PT.lateral_line_integrals(arr.B, side, side, bx, by, hs, 8, 1e-4, 1e-6)
+    cum = PT.cumulative_over_height(lat, hs)[:, -1] / (2 * MU0)
+    geom = P.PlateGeometry("rectangle", side, side, t, 0.0, 0.0, bx, by)
+    k = P.stiffness_split(arr.B, geom, g, (0.0, 0.0, g + t / 2), 8, dofs=(0, 1))
+    assert cum[0] == pytest.approx(k[0][0, 0], rel=1e-4)  # x, chi_perp part
+    assert cum[1] == pytest.approx(k[1][0, 0], rel=1e-4)  # x, chi_par part
+    assert cum[2] == pytest.approx(k[0][1, 1], rel=1e-4)  # y
+    assert cum[3] == pytest.approx(k[1][1, 1], rel=1e-4)
+
+
+def test_cumulative_over_height_of_a_linear_function_is_exact():
+    # the trapezoid rule integrates a linear function exactly (any numerical analysis text)
+    hs = np.array([0.0, 1e-4, 3e-4, 1e-3])
+    lat = np.column_stack([2.0 * hs + 1.0] * 4)
+    cum = PT.cumulative_over_height(lat, hs)
+    assert np.allclose(cum[0], hs ** 2 + hs, rtol=1e-12, atol=1e-18)
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.floats(1e-4, 5e-3), st.floats(0.0, 1e-2), st.integers(0, 2 ** 31 - 1))
+def test_move_pivot_is_the_rigid_body_change_of_coordinates(h, weight, seed):
+    # Rotating by pitch theta about the combined centre of mass C moves the point O a height h
+    # below it by -h theta along x (roll phi: +h phi along y); so K_C = T^T K_O T with that T
+    # (Goldstein, Classical Mechanics, 3rd ed., ch. 6), and the weight acting at C adds -h W
+    # to each tilt stiffness.
+    rng = np.random.default_rng(seed)
+    a = rng.normal(size=(4, 4))
+    k = a + a.T
+    T = np.eye(4)
+    T[0, 3] = -h  # x_O = x_C - h pitch
+    T[1, 2] = h  # y_O = y_C + h roll
+    kc = T.T @ k @ T
+    mv = PT.move_pivot(k, h, weight)
+    assert mv["k_x"] == pytest.approx(kc[0, 0])
+    assert mv["k_y"] == pytest.approx(kc[1, 1])
+    assert mv["k_pitch"] == pytest.approx(kc[3, 3] - h * weight)
+    assert mv["k_roll"] == pytest.approx(kc[2, 2] - h * weight)
+    assert mv["k_x_pitch"] == pytest.approx(kc[0, 3])
+    assert mv["k_y_roll"] == pytest.approx(kc[1, 2])
+
+
+def test_highest_root_grid_is_exact_for_an_exponential_lift():
+    # Lift of a periodic array decays as exp(-k g) far from it (Simon and Geim, J. Appl. Phys.
+    # 87, 6200 (2000)); interpolation in log G is exact for such a curve.
+    gaps = np.linspace(5e-5, 5e-3, 30)
+    lam = np.array([1e-3, 2.5e-3])
+    G = 3.0 * np.exp(-gaps[None, :] / lam[:, None])
+    y = np.array([0.5, 1.2])
+    gap, _, _ = PT.highest_root_grid(G, y, gaps)
+    assert gap == pytest.approx(lam * np.log(3.0 / y), rel=1e-12)
+    none, _, _ = PT.highest_root_grid(G, np.array([10.0, 1e-9]), gaps)
+    assert np.isnan(none).all()  # above the curve, or below it everywhere on the grid
