@@ -322,7 +322,7 @@ def test_design_result_is_cached_and_a_new_lab_value_recomputes(server, browser)
     afresh (a weaker diamagnet floats lower: lift is proportional to |chi|, Simon and Geim,
     J. Appl. Phys. 87, 6200 (2000)); after its retraction the first result comes back."""
     from matdb.data import catalog
-    from matdb.data import labvalues
+    from matdb.data import lab_store as labvalues
 
     def visit() -> tuple[str, str]:
         page = _open_at(browser, f"{server}/design", 1400)

@@ -8,7 +8,7 @@ from __future__ import annotations
 import pytest
 
 from matdb.analysis import cache
-from matdb.data import labvalues
+from matdb.data import exchange, lab_store
 from matdb.design import load_design_text
 from matdb.reporting import presentation
 
@@ -57,12 +57,12 @@ def test_lab_value_retraction_and_import_change_the_key(fresh_db, counted, tmp_p
     assert len(counted) == 1
 
     # a value for another material leaves this design's result alone
-    labvalues.record_material_value("copper", chi="-9.6e-6", source="regression check: other material",
+    lab_store.record_material_value("copper", chi="-9.6e-6", source="regression check: other material",
                                     date="2026-10-01", url=fresh_db)
     assert cache.levitate_call(load_design_text(text)).key == key0
 
     # a new measured value of the plate material takes over: new key, computed afresh
-    row = labvalues.record_material_value("bismuth", chi="-1.5e-4", source="regression check: new value",
+    row = lab_store.record_material_value("bismuth", chi="-1.5e-4", source="regression check: new value",
                                           date="2026-10-02", url=fresh_db)
     call1 = cache.levitate_call(load_design_text(text))
     assert call1.key != key0 and not call1.cached()
@@ -70,7 +70,7 @@ def test_lab_value_retraction_and_import_change_the_key(fresh_db, counted, tmp_p
     assert cache.advise_call((("mass", "0.2 g"), ("footprint", "17 mm x 17 mm")), fresh_db).key != adv0
 
     # retracting it brings the handbook value back: the first key again, read from disk
-    labvalues.retract(row["value_id"], "regression check: retracted", "bismuth", url=fresh_db)
+    lab_store.retract(row["value_id"], "regression check: retracted", "bismuth", url=fresh_db)
     call2 = cache.levitate_call(load_design_text(text))
     assert call2.key == key0 and call2.cached()
 
@@ -78,7 +78,7 @@ def test_lab_value_retraction_and_import_change_the_key(fresh_db, counted, tmp_p
     f = tmp_path / "lab.csv"
     f.write_text("material_id,chi,source,date\nbismuth,-1.55e-4,regression check: imported,2026-10-03\n",
                  encoding="utf-8")
-    labvalues.import_file(f, url=fresh_db)
+    exchange.import_file(f, url=fresh_db)
     call3 = cache.levitate_call(load_design_text(text))
     assert call3.key not in (key0, call1.key) and not call3.cached()
     assert call3()["chi_used"] == pytest.approx(-1.55e-4)
@@ -91,7 +91,7 @@ def test_grade_values_are_part_of_the_key(fresh_db, counted):
     design = load_design_text(text)
     key0 = cache.levitate_call(design).key
     grade = design.magnets.grade
-    labvalues.record_magnet_value(grade, br="1.2 T", source="regression check: measured Br", date="2026-10-04",
+    lab_store.record_magnet_value(grade, br="1.2 T", source="regression check: measured Br", date="2026-10-04",
                                   url=fresh_db)
     assert cache.levitate_call(load_design_text(text)).key != key0
 

@@ -665,7 +665,7 @@ def test_design_second_render_does_not_recompute_and_a_new_lab_value_does(counte
     """Regression check of the results cache on the Design page: a second session, and a
     server restart (memory cleared, disk kept), show the result without computing it; a
     measured value of the plate material that takes over computes afresh."""
-    from matdb.data import labvalues
+    from matdb.data import lab_store as labvalues
     from webapp import _results
 
     def gap_text():
