@@ -6,38 +6,35 @@ Goals (this 2-core machine, whatever its load; the load average is printed besid
 first render of each page under 3 s; opening an advisor candidate on the Design page
 under 2 s with a warm cache (the same candidate opened a second time).
 
-The server runs on a scratch database in a temporary folder (seeded on first use), so
-the bench never touches a user's database. Run alone: ``python scripts/bench_browser.py``.
+The server runs on a scratch database and a scratch results cache in a temporary folder
+(seeded on first use), so the bench never touches a user's files. "cold": the first visit
+of each page after the server started with an empty cache; "warm": later visits in new
+browser tabs (``--repeats`` of them, min and median printed); "restart": a new server on
+the same results cache (the persistent cache, without the server's memory). Run alone:
+``python scripts/bench_browser.py [--repeats N]``.
 """
 
 from __future__ import annotations
 
+import argparse
 import os
 import shutil
-import socket
-import subprocess
+import statistics
 import sys
 import tempfile
 import time
-import urllib.request
 from pathlib import Path
 
-REPO = Path(__file__).resolve().parent.parent
-ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-        "--disable-background-networking", "--disable-component-update", "--disable-sync"]
+from webapp._server import CHROMIUM_ARGS, served
+
 PAGES = [("", "Materials"), ("magnets", "Magnets"), ("design", "Design"), ("advisor", "Advisor"),
          ("lab_values", "Lab values")]
 GOAL_PAGE_S = 3.0
 GOAL_OPEN_WARM_S = 2.0
+VIEWPORT = {"width": 1400, "height": 1400}
 IDLE_JS = ("() => !document.querySelector('[data-stale=\"true\"]')"
            " && !document.querySelector('[data-testid=\"stStatusWidget\"] [data-testid=\"stStatusWidgetRunningIcon\"]')"
            " && !(document.querySelector('[data-testid=\"stStatusWidget\"]') || {innerText: ''}).innerText.includes('Running')")
-
-
-def _free_port() -> int:
-    with socket.socket(socket.AF_INET, socket.SOCK_STREAM) as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
 
 
 def _wait_idle(page) -> None:
@@ -59,7 +56,42 @@ def _timed(fn) -> float:
     return time.perf_counter() - t0
 
 
-def run() -> dict:
+def _first_render(browser, base: str, path: str, heading: str) -> float:
+    page = browser.new_page(viewport=VIEWPORT)
+    try:
+        return _timed(lambda: (page.goto(f"{base}/{path}", wait_until="load", timeout=300_000),
+                               _rendered(page, heading)))
+    finally:
+        page.close()
+
+
+def _open_candidate(browser, base: str) -> float:
+    """On the Advisor page, the time from clicking "Open on the Design page" to the Design
+    page's results on screen."""
+    page = browser.new_page(viewport=VIEWPORT)
+    try:
+        page.goto(f"{base}/advisor", wait_until="load", timeout=300_000)
+        _rendered(page, "Advisor")
+        button = page.get_by_role("button", name="Open on the Design page")
+        button.wait_for(timeout=300_000)
+
+        def open_it():
+            button.click()
+            page.get_by_role("heading", name="Design", exact=True).first.wait_for(timeout=300_000)
+            page.locator('[data-testid="stMetric"]').first.wait_for(timeout=300_000)
+            _wait_idle(page)
+
+        return _timed(open_it)
+    finally:
+        page.close()
+
+
+def _stats(out: dict, name: str, values: list[float]) -> None:
+    out[f"{name}_min_s"] = min(values)
+    out[f"{name}_median_s"] = statistics.median(values)
+
+
+def run(repeats: int = 3) -> dict:
     chromium = shutil.which("chromium")
     if chromium is None:
         return {"skipped": "Debian chromium is not installed (apt-get install chromium)"}
@@ -67,82 +99,53 @@ def run() -> dict:
         from playwright.sync_api import sync_playwright
     except ImportError:
         return {"skipped": "python playwright is not installed (pip install playwright)"}
-    from matdb.cli.serve import serve_command
 
-    tmp = tempfile.mkdtemp(prefix="matdb-bench-browser-")
-    env = os.environ.copy()
-    env["MATDB_URL"] = f"sqlite:///{Path(tmp) / 'bench.sqlite'}"
-    env.setdefault("MATDB_CACHE_DIR", str(Path(tmp) / "cache"))
-    port = _free_port()
-    log = open(Path(tmp) / "streamlit.log", "w")
-    proc = subprocess.Popen(serve_command(port), cwd=str(REPO), env=env, stdout=log, stderr=subprocess.STDOUT)
-    base = f"http://127.0.0.1:{port}"
-    out: dict = {"load_average_1min": os.getloadavg()[0], "cpu_count": os.cpu_count()}
+    tmp = Path(tempfile.mkdtemp(prefix="matdb-bench-browser-"))
+    env = dict(os.environ, MATDB_URL=f"sqlite:///{tmp / 'bench.sqlite'}", MATDB_CACHE_DIR=str(tmp / "cache"))
+    out: dict = {"load_average_1min": os.getloadavg()[0], "cpu_count": os.cpu_count(), "repeats": repeats}
     try:
-        deadline = time.monotonic() + 120
-        while True:
-            try:
-                with urllib.request.urlopen(base + "/_stcore/health", timeout=2) as r:
-                    if r.read().decode().strip() == "ok":
-                        break
-            except OSError:
-                pass
-            if proc.poll() is not None or time.monotonic() > deadline:
-                return {"skipped": f"streamlit did not start; see {log.name}"}
-            time.sleep(0.3)
         with sync_playwright() as p:
-            browser = p.chromium.launch(executable_path=chromium, args=ARGS)
+            browser = p.chromium.launch(executable_path=chromium, args=CHROMIUM_ARGS)
             try:
-                page = browser.new_page(viewport={"width": 1400, "height": 1400})
-                # a throwaway first visit starts the server's Python side (imports, database seeding)
-                out["server_warm_up_s"] = _timed(lambda: (page.goto(base, wait_until="load", timeout=300_000),
-                                                          _rendered(page, "Materials")))
-                for cold_or_warm in ("cold", "warm"):
+                with served(tmp / "streamlit.log", env=env, timeout_s=120) as base:
+                    # a throwaway first visit starts the server's Python side (imports, database seeding)
+                    out["server_warm_up_s"] = _first_render(browser, base, "", "Materials")
                     for path, heading in PAGES:
-                        page.close()
-                        page = browser.new_page(viewport={"width": 1400, "height": 1400})
-                        t = _timed(lambda: (page.goto(f"{base}/{path}", wait_until="load", timeout=300_000),
-                                            _rendered(page, heading)))
-                        out[f"first_render_{cold_or_warm}_{path or 'materials'}_s"] = t
-                # opening the advisor's first candidate, twice (the second with a warm cache)
-                for attempt in ("cold", "warm"):
-                    page.close()
-                    page = browser.new_page(viewport={"width": 1400, "height": 1400})
-                    page.goto(f"{base}/advisor", wait_until="load", timeout=300_000)
-                    _rendered(page, "Advisor")
-                    page.get_by_role("button", name="Open on the Design page").wait_for(timeout=300_000)
-
-                    def open_it():
-                        page.get_by_role("button", name="Open on the Design page").click()
-                        page.get_by_role("heading", name="Design", exact=True).first.wait_for(timeout=300_000)
-                        page.locator('[data-testid="stMetric"]').first.wait_for(timeout=300_000)
-                        _wait_idle(page)
-
-                    out[f"open_candidate_{attempt}_s"] = _timed(open_it)
+                        out[f"first_render_cold_{path or 'materials'}_s"] = _first_render(browser, base, path, heading)
+                    warm: dict = {path: [] for path, _ in PAGES}
+                    for _ in range(repeats):
+                        for path, heading in PAGES:
+                            warm[path].append(_first_render(browser, base, path, heading))
+                    for path, values in warm.items():
+                        _stats(out, f"first_render_warm_{path or 'materials'}", values)
+                    out["open_candidate_cold_s"] = _open_candidate(browser, base)
+                    _stats(out, "open_candidate_warm", [_open_candidate(browser, base) for _ in range(repeats)])
+                # a new server on the same results cache: what a restart costs
+                with served(tmp / "streamlit-restart.log", env=env, timeout_s=120) as base:
+                    out["restart_server_warm_up_s"] = _first_render(browser, base, "", "Materials")
+                    for path, heading in PAGES[2:4]:
+                        out[f"first_render_restart_{path}_s"] = _first_render(browser, base, path, heading)
             finally:
                 browser.close()
+    except RuntimeError as exc:
+        return {"skipped": str(exc)}
     finally:
-        proc.terminate()
-        try:
-            proc.wait(timeout=15)
-        except subprocess.TimeoutExpired:
-            proc.kill()
-        log.close()
         shutil.rmtree(tmp, ignore_errors=True)
-    warm = [v for k, v in out.items() if k.startswith("first_render_warm_")]
-    cold = [v for k, v in out.items() if k.startswith("first_render_cold_")]
-    out["first_render_cold_worst_s"] = max(cold)
-    out["first_render_warm_worst_s"] = max(warm)
+    out["first_render_cold_worst_s"] = max(v for k, v in out.items() if k.startswith("first_render_cold_"))
+    out["first_render_warm_worst_median_s"] = max(v for k, v in out.items()
+                                                  if k.startswith("first_render_warm_") and k.endswith("_median_s"))
     out["goal_first_render_s"] = GOAL_PAGE_S
     out["goal_open_candidate_warm_s"] = GOAL_OPEN_WARM_S
-    out["first_render_goal_met_warm"] = max(warm) < GOAL_PAGE_S
-    out["open_candidate_goal_met"] = out["open_candidate_warm_s"] < GOAL_OPEN_WARM_S
+    out["first_render_goal_met_warm"] = out["first_render_warm_worst_median_s"] < GOAL_PAGE_S
+    out["open_candidate_goal_met"] = out["open_candidate_warm_median_s"] < GOAL_OPEN_WARM_S
     out["load_average_1min_after"] = os.getloadavg()[0]
     return out
 
 
 if __name__ == "__main__":
-    res = run()
+    ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
+    ap.add_argument("--repeats", type=int, default=3, help="warm visits of each page (default 3)")
+    res = run(ap.parse_args().repeats)
     for k, v in res.items():
         print(f"{k}: {v:.3g}" if isinstance(v, float) else f"{k}: {v}")
     sys.exit(0)

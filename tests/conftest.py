@@ -16,6 +16,8 @@ _TMP = tempfile.mkdtemp(prefix="matdb-test-")
 if not os.environ.get("MATDB_TEST_KEEP_URL"):
     os.environ["MATDB_URL"] = f"sqlite:///{Path(_TMP) / 'matdb.sqlite'}"
 os.environ.setdefault("MATDB_CACHE_DIR", str(Path(_TMP) / "cache"))
+# no background computing of the pages' defaults in in-process page tests (browser tests turn it on)
+os.environ.setdefault("MATDB_PAGE_WARM_UP", "0")
 
 REPO = Path(__file__).resolve().parent.parent
 

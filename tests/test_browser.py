@@ -7,19 +7,15 @@ from __future__ import annotations
 
 import os
 import shutil
-import socket
-import subprocess
-import time
-import urllib.request
 from pathlib import Path
 
 import pytest
 
+from webapp._server import CHROMIUM_ARGS, served
+
 REPO = Path(__file__).resolve().parent.parent
 ARTIFACTS = REPO / "test-artifacts"
 CHROMIUM = shutil.which("chromium")
-CHROMIUM_ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-                 "--disable-background-networking", "--disable-component-update", "--disable-sync"]
 
 pytestmark = [
     pytest.mark.browser,
@@ -31,47 +27,15 @@ PAGES = [("", "Materials"), ("magnets", "Magnets"), ("design", "Design"), ("advi
          ("lab_values", "Lab values")]
 
 
-def _free_port() -> int:
-    with socket.socket(socket.AF_INET, socket.SOCK_STREAM) as s:
-        s.bind(("127.0.0.1", 0))
-        return s.getsockname()[1]
-
-
 @pytest.fixture(scope="module")
 def server():
-    from matdb.cli.serve import serve_command
     from matdb.data.db import get_engine
 
     get_engine()  # create and seed the test database before the page opens it
-    port = _free_port()
-    env = os.environ.copy()  # MATDB_URL from tests/conftest.py: the page reads the test database
     ARTIFACTS.mkdir(exist_ok=True)
-    log = open(ARTIFACTS / "streamlit.log", "w")
-    proc = subprocess.Popen(serve_command(port), cwd=str(REPO), env=env, stdout=log, stderr=subprocess.STDOUT)
-    base = f"http://127.0.0.1:{port}"
-    deadline = time.monotonic() + 90
-    try:
-        while True:
-            if proc.poll() is not None:
-                raise RuntimeError(f"streamlit exited with {proc.returncode}; see {log.name}")
-            try:
-                with urllib.request.urlopen(base + "/_stcore/health", timeout=2) as r:
-                    if r.read().decode().strip() == "ok":
-                        break
-            except OSError:
-                pass
-            if time.monotonic() > deadline:
-                raise RuntimeError("streamlit did not answer /_stcore/health within 90 s")
-            time.sleep(0.3)
+    # MATDB_URL from tests/conftest.py: the page reads the test database
+    with served(ARTIFACTS / "streamlit.log", env=dict(os.environ, MATDB_PAGE_WARM_UP="1")) as base:
         yield base
-    finally:
-        proc.terminate()
-        try:
-            proc.wait(timeout=15)
-        except subprocess.TimeoutExpired:
-            proc.kill()
-            proc.wait()
-        log.close()
 
 
 @pytest.fixture(scope="module")
@@ -350,3 +314,39 @@ def test_design_dynamics_section_in_browser(server, browser):
         assert page.outside == [], f"fetched outside resources: {page.outside[:5]}"
     finally:
         page.close()
+
+
+def test_design_result_is_cached_and_a_new_lab_value_recomputes(server, browser):
+    """Regression check of the results cache in the real browser: a second visit reads the
+    result from the cache; a measured value of the plate material that takes over computes
+    afresh (a weaker diamagnet floats lower: lift is proportional to |chi|, Simon and Geim,
+    J. Appl. Phys. 87, 6200 (2000)); after its retraction the first result comes back."""
+    from matdb.data import catalog
+    from matdb.data import lab_store as labvalues
+
+    def visit() -> tuple[str, str]:
+        page = _open_at(browser, f"{server}/design", 1400)
+        try:
+            _ready(page, "Design")
+            page.locator('[data-testid="stMetric"]').first.wait_for(timeout=300_000)
+            _no_exception(page, "Design")
+            how = page.get_by_text("results cache", exact=False).or_(page.get_by_text("Computed now", exact=False))
+            return _metric_text(page, "Equilibrium gap"), how.first.inner_text()
+        finally:
+            page.close()
+
+    first, _ = visit()
+    again, how = visit()
+    assert again == first and how.startswith("From the results cache"), how
+    pg = catalog.get_material("pyrolytic-graphite")
+    row = labvalues.record_material_value(
+        "pyrolytic-graphite", chi_perp=repr(pg.chi_perp_si * 0.9), chi_par=repr(pg.chi_par_si),
+        source="regression check: browser cache test", date="2026-10-06")
+    try:
+        weaker, how = visit()
+        assert how.startswith("Computed now"), how
+        assert float(weaker.split()[0]) < float(first.split()[0]), (weaker, first)
+    finally:
+        labvalues.retract(row["value_id"], "browser cache test done", "pyrolytic-graphite")
+    back, how = visit()
+    assert back == first and how.startswith("From the results cache"), how

@@ -326,16 +326,14 @@ def test_note_is_text_in_a_real_browser(tmp_path):
     characters and makes no image, link or bold element (regression check)."""
     import os
     import shutil
-    import socket
-    import subprocess
-    import urllib.request
+
+    from webapp._server import CHROMIUM_ARGS, served
 
     chromium = shutil.which("chromium")
     if chromium is None:
         pytest.skip("Debian chromium is not installed (apt-get install chromium; CI does)")
     sync_api = pytest.importorskip("playwright.sync_api")
     from matdb.data import db
-    from matdb.cli.serve import serve_command
 
     url = f"sqlite:///{tmp_path / 'browser.sqlite'}"
     db.get_engine(url)
@@ -343,29 +341,9 @@ def test_note_is_text_in_a_real_browser(tmp_path):
     row = lab_store.record_material_value("bismuth", chi="-1.6e-4", source=note, date="2026-10-01", url=url)
     lab_store.prefer("bismuth", row["value_id"], url)
     db.reset_engines()
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        port = s.getsockname()[1]
-    env = dict(os.environ, MATDB_URL=url)
-    log = (tmp_path / "streamlit.log").open("w")
-    proc = subprocess.Popen(serve_command(port), cwd=str(REPO), env=env, stdout=log, stderr=subprocess.STDOUT)
-    base = f"http://127.0.0.1:{port}"
-    try:
-        deadline = time.monotonic() + 90
-        while True:
-            assert proc.poll() is None, (tmp_path / "streamlit.log").read_text()
-            try:
-                with urllib.request.urlopen(base + "/_stcore/health", timeout=2) as r:
-                    if r.read().decode().strip() == "ok":
-                        break
-            except OSError:
-                pass
-            assert time.monotonic() < deadline, "streamlit did not start"
-            time.sleep(0.3)
+    with served(tmp_path / "streamlit.log", env=dict(os.environ, MATDB_URL=url)) as base:
         with sync_api.sync_playwright() as p:
-            b = p.chromium.launch(executable_path=chromium, args=[
-                "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-                "--disable-background-networking", "--disable-component-update", "--disable-sync"])
+            b = p.chromium.launch(executable_path=chromium, args=CHROMIUM_ARGS)
             try:
                 page = b.new_page(viewport={"width": 1400, "height": 2000})
                 page.goto(f"{base}/lab_values", wait_until="load", timeout=60_000)
@@ -378,11 +356,3 @@ def test_note_is_text_in_a_real_browser(tmp_path):
                 assert alert.locator("a").count() == 0 and alert.locator("strong").count() == 0, alert.inner_html()
             finally:
                 b.close()
-    finally:
-        proc.terminate()
-        try:
-            proc.wait(timeout=15)
-        except subprocess.TimeoutExpired:
-            proc.kill()
-            proc.wait()
-        log.close()

@@ -12,6 +12,9 @@ import hashlib
 import streamlit as st
 
 from matdb.errors import MatdbError
+from matdb.reporting.drawing import drawing_bytes
+from matdb.reporting.report import report_bytes
+from webapp import _results as rs
 from webapp import _shared as sh
 
 MIME = {"html": "text/html", "pdf": "application/pdf", "dxf": "image/vnd.dxf", "svg": "image/svg+xml"}
@@ -19,18 +22,14 @@ MIME = {"html": "text/html", "pdf": "application/pdf", "dxf": "image/vnd.dxf", "
 
 @st.cache_data(show_spinner=False, max_entries=8)
 def report_file(text: str, fmt: str, paper: str, url: str, name: str) -> bytes:
-    from matdb.reporting.report import report_bytes
-
     def lev(design, temp_k=None):
-        return sh.levitate_text(text, temp_k, None, url)
+        return rs.levitate_text(text, temp_k)
 
     return report_bytes(text, fmt, paper=paper, source_name=f"{name}.toml", url=url, levitate_fn=lev)
 
 
 @st.cache_data(show_spinner=False, max_entries=16)
 def drawing_file(text: str, fmt: str, name: str) -> bytes:
-    from matdb.reporting.drawing import drawing_bytes
-
     return drawing_bytes(text, fmt, source_name=f"{name}.toml")
 
 
@@ -49,11 +48,15 @@ def report_buttons(text: str, url: str, key: str, name: str = "design") -> None:
                    "(DXF or SVG, millimetres) are made on request; a report takes up to a minute.")
         return
     try:
-        with st.spinner("Making the report and the drawing..."):
-            html = report_file(text, "html", paper, url, name)
-            pdf = report_file(text, "pdf", paper, url, name)
-            dxf = drawing_file(text, "dxf", name)
-            svg = drawing_file(text, "svg", name)
+        bar = st.progress(0.05, text="Making the report (HTML, step 1 of 4)...")
+        html = report_file(text, "html", paper, url, name)
+        bar.progress(0.5, text="Making the report (PDF, step 2 of 4)...")
+        pdf = report_file(text, "pdf", paper, url, name)
+        bar.progress(0.8, text="Making the drawing (DXF, step 3 of 4)...")
+        dxf = drawing_file(text, "dxf", name)
+        bar.progress(0.9, text="Making the drawing (SVG, step 4 of 4)...")
+        svg = drawing_file(text, "svg", name)
+        bar.empty()
     except MatdbError as exc:
         st.error(sh.plain(f"report: {exc}"))
         return

@@ -4,11 +4,15 @@ comes from a public matdb function."""
 
 from __future__ import annotations
 
-import importlib
+import cProfile
+import hashlib
 import os
 import re
+import threading
 from contextlib import contextmanager
+from pathlib import Path
 
+import pandas as pd
 import streamlit as st
 
 from matdb.analysis import reach
@@ -23,20 +27,6 @@ _MARKDOWN_PUNCT = re.compile(r"([!-/:-@\[-`{-~])")
 
 
 _AUTOLINK = re.compile(r"(?<=:)(?=//)|(?<=www)(?=\.)|(?<=@)", re.IGNORECASE)
-
-
-def plain(text) -> str:
-    """Text shown exactly as typed in a Streamlit element that renders Markdown
-    (``st.info``, ``st.error``, ``st.caption``...): every ASCII punctuation character is
-    backslash-escaped, so no link, image, emphasis, HTML or directive is made from user text
-    (notes, sources, names, error messages quoting input). The page's Markdown also turns
-    bare ``http://``, ``www.`` and e-mail addresses into links after escapes are read, so an
-    invisible zero-width space goes after ``:`` in ``://``, after ``www`` and after ``@``.
-    Line breaks are kept."""
-    def one(line: str) -> str:
-        return _MARKDOWN_PUNCT.sub(r"\\\1", _AUTOLINK.sub("\u200b", line))
-
-    return "  \n".join(one(line) for line in str(text).split("\n"))
 
 
 # the library names the field at fault (MatdbError.field); the page shows it by its label
@@ -73,6 +63,20 @@ def error_text(exc: MatdbError, where: str | None = None) -> str:
     return f"{where}: {text}" if where else text
 
 
+def plain(text) -> str:
+    """Text shown exactly as typed in a Streamlit element that renders Markdown
+    (``st.info``, ``st.error``, ``st.caption``...): every ASCII punctuation character is
+    backslash-escaped, so no link, image, emphasis, HTML or directive is made from user text
+    (notes, sources, names, error messages quoting input). The page's Markdown also turns
+    bare ``http://``, ``www.`` and e-mail addresses into links after escapes are read, so an
+    invisible zero-width space goes after ``:`` in ``://``, after ``www`` and after ``@``.
+    Line breaks are kept."""
+    def one(line: str) -> str:
+        return _MARKDOWN_PUNCT.sub(r"\\\1", _AUTOLINK.sub("\u200b", line))
+
+    return "  \n".join(one(line) for line in str(text).split("\n"))
+
+
 def csv_bytes(df) -> bytes:
     """A table as CSV for ``st.download_button``: the same escaping as every CSV matdb writes."""
     return csv_text(df).encode("utf-8")
@@ -82,28 +86,57 @@ def run_page(page) -> None:
     """Run one page; a matdb error that no page caught shows as one line. Any other error is
     left to Streamlit, which with ``client.showErrorDetails = "none"`` (.streamlit/config.toml
     and ``matdb serve``) shows a one-line notice in the browser and logs the traceback to the
-    server's standard error."""
+    server's standard error.
+
+    For developers: with ``MATDB_PAGE_PROFILE`` set to a folder, each run of a page is
+    profiled (:mod:`cProfile`) into ``<folder>/<page>-<n>.prof``."""
+    folder = os.environ.get("MATDB_PAGE_PROFILE")
+    prof = cProfile.Profile() if folder else None
     try:
+        if prof is not None:
+            prof.enable()
         page.run()
     except MatdbError as exc:
         st.error(plain(error_text(exc)))
+    finally:
+        if prof is not None:
+            prof.disable()
+            _dump_profile(prof, Path(folder), getattr(page, "url_path", "") or "materials")
+
+
+def _dump_profile(prof, folder: Path, name: str) -> None:
+    folder.mkdir(parents=True, exist_ok=True)
+    n = len(list(folder.glob(f"{name}-*.prof")))
+    prof.dump_stats(str(folder / f"{name}-{n}.prof"))
+
+
+_WARMED: set = set()
+_WARMED_LOCK = threading.Lock()
+
+
+def warm_up_in_background(url: str) -> None:
+    """Once per server and database: compute what the Design and Advisor pages show as
+    they open, in a background thread, while the person reads another page."""
+    with _WARMED_LOCK:
+        if url in _WARMED:
+            return
+        _WARMED.add(url)
+
+    def work():
+        # imported here, in the background: the analysis modules stay out of the light pages' first render
+        from webapp import _results
+
+        try:
+            _results.prefetch_defaults(url)
+        except Exception as exc:  # best effort: each page computes what it needs and shows any error
+            _results._LOG.info("warm-up failed: %s", exc)
+
+    threading.Thread(target=work, daemon=True, name="matdb-warm-up").start()
 
 
 def db_url() -> str:
     """The database in force (``MATDB_URL`` or the default); part of every cache key."""
     return os.environ.get("MATDB_URL", "").strip() or default_url()
-
-
-def module_or_none(name: str):
-    """The module, or None while that part of matdb has not landed yet."""
-    try:
-        return importlib.import_module(name)
-    except ImportError:
-        return None
-
-
-def not_available(what: str) -> None:
-    st.info(plain(f"{what} is not available yet in this version of matdb."))
 
 
 @contextmanager
@@ -178,63 +211,57 @@ def sources_expander(url: str, key: str) -> None:
                      hide_index=True, key=key)
 
 
+# ---------------------------------------------------------------------------
+# charts: built once per content (building and checking an Altair chart takes
+# 0.1-0.5 s each; the page would pay it on every run)
+# ---------------------------------------------------------------------------
+
+try:  # Streamlit's own Altair -> Vega-Lite conversion (data as Arrow), the one st.altair_chart uses
+    from streamlit.elements.vega_charts import _convert_altair_to_vega_lite_spec as _to_vega_lite
+except ImportError:  # pragma: no cover - another Streamlit version: charts are built on every run
+    _to_vega_lite = None
+
+
+@st.cache_data(show_spinner=False, max_entries=256)
+def _chart_spec(content: tuple, _build) -> dict:
+    return _to_vega_lite(_build())
+
+
+def frame_key(df) -> str | None:
+    """Content key of a DataFrame (values, index and column names) for :func:`chart`."""
+    if df is None:
+        return None
+    h = hashlib.sha256(pd.util.hash_pandas_object(df, index=True).to_numpy().tobytes())
+    h.update(repr(list(df.columns)).encode())
+    return h.hexdigest()
+
+
+def chart(content: tuple, build, where=None, **kwargs):
+    """Show the Altair chart ``build()`` (``st.altair_chart`` arguments in ``kwargs``),
+    built and converted once per ``content``: a tuple naming everything the chart is drawn
+    from (content keys of results, form values). ``where``: a column or container."""
+    where = st if where is None else where
+    if _to_vega_lite is None:
+        return where.altair_chart(build(), **kwargs)
+    return where.vega_lite_chart(_chart_spec(content, build), **kwargs)
+
+
+#: Functions that forget cached values after a database write, by name (modules that cache more add theirs).
+CLEAR_HOOKS: dict = {}
+
+
 def clear_catalog_caches() -> None:
-    """After a write to the database (a lab value), forget cached tables."""
+    """After a write to the database (a lab value), forget cached tables. Results keyed on
+    their content (levitate, advisor) need no clearing: the values in use are in their key."""
     status_marks.clear()
     materials_table.clear()
     magnets_df.clear()
     grade_curves.clear()
-    levitate_text.clear()
-    field_map.clear()
     arrangement_reach.clear()
-    advise.clear()
-    dynamics_prep.clear()
-    pressure_sweep.clear()
-
-
-# ---------------------------------------------------------------------------
-# designs (cached by the design text, so unchanged geometry is never recomputed)
-# ---------------------------------------------------------------------------
-
-@st.cache_data(show_spinner=False, max_entries=64)
-def levitate_text(text: str, temp_k: float | None, gap_m: float | None, url: str,
-                  payloads: tuple | None = None, resolution_m: float | None = None):
-    """Keyed by the design's content: pass :func:`matdb.reporting.presentation.canonical_design_text`,
-    so the same design from the form, the editor or a saved copy computes once."""
-    from matdb.design import load_design_text
-    from matdb.analysis.levitate import levitate
-
-    return levitate(load_design_text(text), temp_k=temp_k, gap_m=gap_m,
-                    payloads_kg=None if payloads is None else list(payloads), resolution_m=resolution_m)
-
-
-_LEVITATED: set = set()
-
-
-def levitate_text_cached(text: str, url: str) -> bool:
-    """True when :func:`levitate_text` of this content key has run in this process (so no
-    progress bar is needed)."""
-    return (text, url) in _LEVITATED
-
-
-def levitate_key(text: str, url: str) -> dict:
-    """:func:`levitate_text` at the design's own temperature, remembered as computed."""
-    out = levitate_text(text, None, None, url)
-    _LEVITATED.add((text, url))
-    return out
-
-
-def evaluate_design_text(text: str, url: str) -> dict:
-    """:func:`levitate_text` of any design text, through its content key."""
-    from matdb.design import load_design_text
-
-    return levitate_key(presentation.canonical_design_text(load_design_text(text), text), url)
-
-
-@st.cache_data(show_spinner=False, max_entries=64)
-def field_map(magnets_key: str, temp_k: float | None, gap_m: float, extent: tuple, _design):
-    """Keyed by the magnets' description only: changing the plate or payload reuses it."""
-    return presentation.field_map_df(_design.arrangement(temp_k), gap_m, extent)
+    sources_table.clear()
+    _chart_spec.clear()
+    for hook in CLEAR_HOOKS.values():
+        hook()
 
 
 def checked(parse, value: str, where: str):
@@ -245,128 +272,3 @@ def checked(parse, value: str, where: str):
         # ``where`` is this field's own label: it stands in for the library's field name
         st.error(plain(exc.shown_as(where) if exc.field else f"{where}: {exc}"))
         return None
-
-
-class _Memo:
-    """A small process-wide cache (least recently used first out) for calls that report
-    progress while they run: st.cache_data cannot replay a progress bar made outside the
-    cached function, so these are cached here instead."""
-
-    def __init__(self, fn, max_entries: int):
-        import threading
-        from collections import OrderedDict
-
-        self.fn, self.max_entries = fn, max_entries
-        self.store: "OrderedDict" = OrderedDict()
-        self.lock = threading.Lock()
-
-    def cached(self, *key) -> bool:
-        with self.lock:
-            return key in self.store
-
-    def __call__(self, *key):
-        with self.lock:
-            if key in self.store:
-                self.store.move_to_end(key)
-                return self.store[key]
-        value = self.fn(*key)
-        with self.lock:
-            self.store[key] = value
-            while len(self.store) > self.max_entries:
-                self.store.popitem(last=False)
-        return value
-
-    def clear(self) -> None:
-        with self.lock:
-            self.store.clear()
-
-
-def _advise(params: tuple, url: str):
-    from matdb import advisor
-
-    return advisor.advise(url=url, **dict(params))
-
-
-#: The ranked DataFrame for one set of form values (a sorted tuple of items).
-advise = _Memo(_advise, 16)
-
-
-def run_with_progress(fn, *args, label: str = "Working..."):
-    """Call ``fn(*args)`` under a progress bar fed by the advisor's progress reports; the
-    bar disappears when done. A cached answer shows no bar."""
-    from matdb import advisor
-
-    if isinstance(fn, _Memo) and fn.cached(*args):
-        return fn(*args)
-    slot = st.empty()
-    bar = slot.progress(0.0, text=label)
-
-    def report(fraction: float, text: str) -> None:
-        bar.progress(fraction, text=f"{label} {text}")
-
-    try:
-        with advisor.reporting_progress(report):
-            return fn(*args)
-    finally:
-        slot.empty()
-
-
-# ---------------------------------------------------------------------------
-# dynamics (modes, damping, Q) of a plate design, cached by the design text
-# ---------------------------------------------------------------------------
-
-@st.cache_resource(show_spinner=False, max_entries=16)
-def dynamics_prep(text: str, url: str):
-    """Not pickled (it holds the factorised finite-element matrices): a shared resource."""
-    from matdb.design import load_design_text
-    from matdb.analysis.dynamics import prepare_dynamics
-
-    return prepare_dynamics(load_design_text(text))
-
-
-def dynamics_text(text: str, pressure_pa: float, url: str) -> dict:
-    from matdb.analysis.dynamics import evaluate_dynamics
-
-    return evaluate_dynamics(dynamics_prep(text, url), pressure_pa)
-
-
-@st.cache_data(show_spinner=False, max_entries=16)
-def pressure_sweep(text: str, url: str):
-    from matdb.design import load_design_text
-    from matdb.analysis.dynamics import pressure_sweep_df
-
-    return pressure_sweep_df(load_design_text(text), prep=dynamics_prep(text, url))
-
-
-def _optimise(key: tuple, url: str, progress=None):
-    from matdb import advisor
-    from matdb.analysis import synthesis
-
-    params, objective, min_margin = key
-    kw = {k: v for k, v in dict(params).items() if k not in ("top", "weights")}
-    req = advisor.parse_request(**kw)
-    return synthesis.optimise(req, objective=objective, min_margin=min_margin, url=url, top=3,
-                              progress=progress)
-
-
-#: Optimiser results for one set of form values.
-optimise = _Memo(lambda key, url: _optimise(key, url, _OPT_PROGRESS.get("cb")), 4)
-_OPT_PROGRESS: dict = {}
-
-
-def run_optimise(key: tuple, url: str, label: str = "Sizing:"):
-    """:func:`matdb.analysis.synthesis.optimise` under a progress bar (no bar for a cached answer)."""
-    if optimise.cached(key, url):
-        return optimise(key, url)
-    slot = st.empty()
-    bar = slot.progress(0.0, text=label)
-
-    def report(fraction: float, text: str) -> None:
-        bar.progress(min(max(fraction, 0.0), 1.0), text=f"{label} {text}")
-
-    _OPT_PROGRESS["cb"] = report
-    try:
-        return optimise(key, url)
-    finally:
-        _OPT_PROGRESS.pop("cb", None)
-        slot.empty()

@@ -1,5 +1,7 @@
 """matdb's local page: navigation over one short script per page (webapp/views/; not named pages/, which Streamlit would also serve as its own automatic pages)."""
 
+import os
+
 import streamlit as st
 
 from webapp import _shared as sh
@@ -18,4 +20,6 @@ PAGES = [
     st.Page("views/lab_values.py", title="Lab values"),
 ]
 
+if os.environ.get("MATDB_PAGE_WARM_UP", "1") != "0":  # MATDB_PAGE_WARM_UP=0: no background computing
+    sh.warm_up_in_background(sh.db_url())
 sh.run_page(st.navigation(PAGES))  # one-line errors on the page, tracebacks to server stderr

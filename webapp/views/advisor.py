@@ -3,26 +3,23 @@
 import altair as alt
 import streamlit as st
 
-from matdb.reporting import presentation
-from matdb.errors import MatdbError
+from matdb import advisor
 from matdb.analysis.levitate import LARGE_MAGNET_M, LARGE_MAGNET_MASS_KG
+from matdb.design import load_design_text
+from matdb.errors import MatdbError
+from matdb.reporting import presentation
 from matdb.physics.thermal import SAFETY_TEXT
 from matdb.units import parse_length, parse_mass, parse_temperature
 from webapp import _downloads
+from webapp import _results as rs
 from webapp import _shared as sh
 
 st.title("Advisor")
-advisor = sh.module_or_none("matdb.advisor")
-if advisor is None:
-    sh.not_available("The Advisor page")
-    st.stop()
 url = sh.db_url()
 mats = sh.materials_table("si-volume", url)
 grades = sh.magnets_df(url)
 
-DEFAULTS = {"mass": "0.2 g", "footprint": "17 mm x 17 mm", "min_gap": "0.2 mm", "temp_min": "20 degC",
-            "temp_max": "20 degC", "budget": "", "materials": (), "families": (), "top": 30,
-            "weights": "margin=1,cost=1,derating=1"}
+DEFAULTS = rs.ADVISOR_DEFAULTS
 MASS_KINDS = ("payload on top of the plate", "total: plate and payload")
 
 st.subheader("Payload")
@@ -74,12 +71,9 @@ for where, value, parse in (("footprint", footprint, lambda v: advisor.parse_foo
             raise
 
 total = mass_kind == MASS_KINDS[1]
-params = dict(mass=None if total else mass.strip(), total_mass=mass.strip() if total else None,
-              footprint=footprint.strip(), min_gap=min_gap.strip(), temp_min=temp_min.strip(),
-              temp_max=temp_max.strip(), budget=budget.strip() or None,
-              plate_size=plate_size.strip() or None, envelope=envelope.strip() or None,
-              materials=tuple(materials) or None, families=tuple(families) or None,
-              weights=weights.strip() or None, top=int(top))
+params = rs.advisor_params(mass=mass, footprint=footprint, min_gap=min_gap, temp_min=temp_min, temp_max=temp_max,
+                           budget=budget, plate_size=plate_size, envelope=envelope, materials=materials,
+                           families=families, weights=weights, top=top, total=total)
 if bad:
     st.stop()
 try:
@@ -90,7 +84,8 @@ except MatdbError as exc:
 
 key = tuple(sorted(params.items()))
 try:
-    ranked = sh.run_with_progress(sh.advise, key, url, label="Ranking every plate material, grade and arrangement:")
+    call = rs.advise_call(key, url)
+    ranked = rs.result_of(call, "Ranking every plate material, grade and arrangement:")
 except MatdbError as exc:
     st.error(sh.plain(f"advisor: {exc}"))
     st.stop()
@@ -112,26 +107,33 @@ else:
 
 # ---- Pareto chart -------------------------------------------------------------
 st.subheader("Cost against worst-case margin")
-plot = table[["rank", "material", "grade", "arrangement", "thickness_mm", "margin", "cost_usd", "feasible",
-              "pareto", "reasons_text"]].dropna(subset=["margin", "cost_usd"])
-pick = alt.selection_point(fields=["rank"], name="pick")
-plot = plot.assign(verdict=presentation.advisor_verdicts(plot))
-chart = alt.Chart(plot).mark_point(filled=True, size=90).encode(
-    x=alt.X("cost_usd:Q", title="indicative cost (USD, illustrative, log scale)", scale=alt.Scale(type="log")),
-    y=alt.Y("margin:Q", title="worst-case margin (lift / weight at the required gap, dimensionless)"),
-    color=alt.Color("material:N", title="plate material"),
-    shape=alt.Shape("verdict:N", title="verdict", scale=alt.Scale(domain=list(presentation.ADVISOR_VERDICTS),
-                                                                  range=["diamond", "circle", "cross"])),
-    opacity=alt.condition("datum.feasible", alt.value(0.95), alt.value(0.35)),
-    tooltip=[alt.Tooltip("rank:Q"), "material:N", "grade:N", "arrangement:N",
-             alt.Tooltip("thickness_mm:Q", title="plate thickness (mm)", format=".2f"),
-             alt.Tooltip("margin:Q", format=".2f"), alt.Tooltip("cost_usd:Q", title="cost (USD)", format=".2f"),
-             "verdict:N", alt.Tooltip("reasons_text:N", title="reasons")],
-).add_params(pick)
-rule = alt.Chart(plot.head(1)).mark_rule(color="#b2182b", strokeDash=[4, 3]).encode(y=alt.datum(1.0))
+
+
+def pareto_chart(table):
+    """Cost against worst-case margin, one point per candidate (click to choose)."""
+    plot = table[["rank", "material", "grade", "arrangement", "thickness_mm", "margin", "cost_usd", "feasible",
+                  "pareto", "reasons_text"]].dropna(subset=["margin", "cost_usd"])
+    pick = alt.selection_point(fields=["rank"], name="pick")
+    plot = plot.assign(verdict=presentation.advisor_verdicts(plot))
+    points = alt.Chart(plot).mark_point(filled=True, size=90).encode(
+        x=alt.X("cost_usd:Q", title="indicative cost (USD, illustrative, log scale)", scale=alt.Scale(type="log")),
+        y=alt.Y("margin:Q", title="worst-case margin (lift / weight at the required gap, dimensionless)"),
+        color=alt.Color("material:N", title="plate material"),
+        shape=alt.Shape("verdict:N", title="verdict", scale=alt.Scale(domain=list(presentation.ADVISOR_VERDICTS),
+                                                                      range=["diamond", "circle", "cross"])),
+        opacity=alt.condition("datum.feasible", alt.value(0.95), alt.value(0.35)),
+        tooltip=[alt.Tooltip("rank:Q"), "material:N", "grade:N", "arrangement:N",
+                 alt.Tooltip("thickness_mm:Q", title="plate thickness (mm)", format=".2f"),
+                 alt.Tooltip("margin:Q", format=".2f"), alt.Tooltip("cost_usd:Q", title="cost (USD)", format=".2f"),
+                 "verdict:N", alt.Tooltip("reasons_text:N", title="reasons")],
+    ).add_params(pick)
+    rule = alt.Chart(plot.head(1)).mark_rule(color="#b2182b", strokeDash=[4, 3]).encode(y=alt.datum(1.0))
+    return alt.layer(points, rule).properties(height=360, title="Indicative cost against worst-case margin")
+
+
 sig = presentation.ranking_signature(params)
-event = st.altair_chart(alt.layer(chart, rule).properties(height=360, title="Indicative cost against worst-case margin"),
-                        width="stretch", on_select="rerun", key=f"adv_chart_{sig}")
+event = sh.chart(("pareto", call.key, int(top)), lambda: pareto_chart(table), width="stretch", on_select="rerun",
+                 key=f"adv_chart_{sig}")
 st.caption("Diamonds: feasible and on the Pareto front (no other candidate beats them on margin, cost and "
            "derating at once); circles: other feasible candidates; crosses, faded: rejected. Dashed line: "
            "margin 1 (just floats). Click a point to choose it.")
@@ -157,7 +159,7 @@ st.dataframe(
         "score": st.column_config.NumberColumn("score", format="%.3f"),
         "reasons_text": st.column_config.TextColumn("reasons", width="large"),
     })
-st.download_button("Download the ranking (CSV, exact values)", presentation.ranking_csv(ranked).encode(),
+st.download_button("Download the ranking (CSV, exact values)", lambda df=ranked: presentation.ranking_csv(df).encode(),
                    file_name="matdb-ranking.csv", mime="text/csv", key="adv_download_csv")
 
 # ---- choose a candidate ----------------------------------------------------------
@@ -171,13 +173,14 @@ except (AttributeError, TypeError, KeyError):
 if clicked and clicked[0] in ranks and st.session_state.get("adv_last_click") != (sig, clicked[0]):
     st.session_state["adv_last_click"] = (sig, clicked[0])
     st.session_state[choice_key] = clicked[0]
-labels = {int(r["rank"]): presentation.candidate_label(r) for _, r in table.iterrows()}
+labels = {int(r["rank"]): presentation.candidate_label(r) for r in table.to_dict("records")}
 choice = st.selectbox("Candidate", ranks, key=choice_key, format_func=lambda r: labels[r])
 row = ranked[ranked["rank"] == choice].iloc[0].to_dict()
 st.caption(f"{row['material']} plate {presentation.fmt_number(row['thickness_m'] * 1e3, 'mm')} thick over "
            f"{row['arrangement']}, grade {row['grade']}; worst-case margin {presentation.fmt_number(row['margin'])}.")
 with sh.shown_errors("candidate design"):
     toml_text = presentation.candidate_toml(row, request)
+    rs.prefetch(rs.levitate_call(rs.design_as_the_form_shows(toml_text)))  # "Open" finds it computed
     if row.get("reasons"):
         st.warning(sh.plain("Rejected: " + "; ".join(row["reasons"]) + "."))
     big = max(row["size_m"]) > LARGE_MAGNET_M or (row.get("magnet_mass_kg") or 0) > LARGE_MAGNET_MASS_KG
@@ -189,8 +192,6 @@ with sh.shown_errors("candidate design"):
                        key="adv_download_design")
     _downloads.report_buttons(toml_text, url, "adv", name=f"design-{row['material']}-{row['grade']}")
     if d2.button("Open on the Design page", key="adv_open", type="primary"):
-        from matdb.design import load_design_text
-
         fields = presentation.form_fields_from_design(load_design_text(toml_text))
         st.session_state["d_open"] = {"fields": fields, "text": toml_text,
                                       "message": f"Opened advisor candidate {labels[choice]}."}
@@ -208,9 +209,9 @@ o2, o3 = st.columns(2)
 min_margin = o2.number_input("Margin to reach (cost objective)", 0.5, 10.0, 1.2, 0.1, key="opt_min_margin")
 run_opt = o3.button("Optimise sizes", key="opt_run", type="primary")
 opt_key = (tuple(sorted(params.items())), objective, float(min_margin) if objective == "cost" else None)
-if run_opt or sh.optimise.cached(opt_key, url):
+if run_opt or rs.optimise_done(opt_key, url):
     try:
-        result = sh.run_optimise(opt_key, url, label="Sizing:")
+        result = rs.run_optimise(opt_key, url, label="Sizing:")
     except MatdbError as exc:
         st.error(sh.plain(f"optimiser: {exc}"))
         st.stop()

@@ -6,21 +6,20 @@ import altair as alt
 import pandas as pd
 import streamlit as st
 
+from matdb.analysis import dynamics as dyn_mod
+from matdb.analysis import magnet_synthesis as synth
+from matdb.data import saved_designs as saved
+from matdb.design import design_to_toml, load_design_text, parse_payload_range
+from matdb.errors import MatdbError
+from matdb.physics.thermal import SAFETY_TEXT
 from matdb.reporting import charts
 from matdb.reporting import presentation, schedule
-from matdb.errors import MatdbError
 from matdb.units import parse_length, parse_mass, parse_quantity, parse_temperature
 from webapp import _downloads
+from webapp import _results as rs
 from webapp import _shared as sh
 
 st.title("Design")
-design_mod = sh.module_or_none("matdb.design")
-lev_mod = sh.module_or_none("matdb.analysis.levitate")
-design_mod_stab = sh.module_or_none("matdb.design")
-if design_mod is None or lev_mod is None:
-    sh.not_available("The Design page")
-    st.stop()
-
 url = sh.db_url()
 FIELDS = presentation.DESIGN_FORM_DEFAULTS
 KEYS = dict(shape="d_shape", size="d_size", grade="d_grade", pattern="d_pattern", rows="d_rows", cols="d_cols",
@@ -124,14 +123,12 @@ with left:
         text = st.text_area("Design (TOML; every quantity with its unit)", key="design_text", height=320)
         st.session_state["d_kept_text"] = text
 
-from matdb.data import saved_designs as saved  # noqa: E402
-
 
 def open_saved(name: str) -> None:
     """Reopen a saved design: in the form when the form can show it, else in the editor."""
     row = saved.get_design(name, url)
     try:
-        fields = presentation.form_fields_from_design(design_mod.load_design_text(row["design_toml"]))
+        fields = presentation.form_fields_from_design(load_design_text(row["design_toml"]))
     except MatdbError:
         fields = None
     st.session_state["d_open"] = {"fields": fields, "text": row["design_toml"],
@@ -186,7 +183,7 @@ def saved_designs_panel(design_text: str | None) -> None:
 with left:
     # ---- parse ------------------------------------------------------------------
     try:
-        design = design_mod.load_design_text(text)
+        design = load_design_text(text)
     except MatdbError as exc:
         st.error(sh.plain(f"design: {exc}"))
         design = None
@@ -220,7 +217,7 @@ def compare_section() -> None:
         def evaluate(text: str) -> dict:
             bar.progress(len(done) / len(chosen), text=f"Computing saved design {len(done) + 1} of {len(chosen)}...")
             done.append(text)
-            return sh.evaluate_design_text(text, url)
+            return rs.levitate_text(text)
 
         ev = saved.evaluate_saved(chosen, url, evaluate=evaluate)
         bar.empty()
@@ -231,7 +228,7 @@ def compare_section() -> None:
         c1, c2 = st.columns([1, 1], gap="large")
         c1.dataframe(shown, hide_index=True, key="d_compare_table",
                      column_config={"figure": st.column_config.TextColumn("key figure (unit)", width="large")})
-        c1.download_button("Download the comparison (CSV, exact values)", sh.csv_bytes(table),
+        c1.download_button("Download the comparison (CSV, exact values)", lambda df=table: sh.csv_bytes(df),
                            file_name="matdb-compare.csv", mime="text/csv", key="d_compare_csv")
         curves = saved.compare_curves(ev)
         if len(curves):
@@ -251,13 +248,14 @@ def compare_section() -> None:
 
 
 # ---- results ----------------------------------------------------------------
-key_text = presentation.canonical_design_text(design, text)
 progress = right.empty()
 with right:
     try:
-        if not sh.levitate_text_cached(key_text, url):
-            progress.progress(0.1, text="Computing the lift curve, stiffnesses and checks (step 1 of 2)...")
-        result = sh.levitate_key(key_text, url)
+        call = rs.levitate_call(design)
+        bar = None if rs.is_ready(call) else progress.progress(
+            0.05, text="Computing the lift curve, stiffnesses and checks (step 1 of 2)...")
+        how: dict = {}
+        result = rs.result_of(call, "Computing the lift curve, stiffnesses and checks (step 1 of 2)...", bar, how)
     except MatdbError as exc:
         progress.empty()
         st.error(sh.plain(f"levitation: {exc}"))
@@ -274,15 +272,15 @@ with right:
                               key="d_resolution")
         payloads, res_m = None, None
         if prange.strip():
-            rng = sh.checked(lambda v: design_mod_stab.parse_payload_range(v, "payload range"), prange, "payload range")
+            rng = sh.checked(lambda v: parse_payload_range(v, "payload range"), prange, "payload range")
             if rng is not None:
                 payloads = tuple(float(x) for x in schedule.payload_steps(rng, int(steps)))
         if shift.strip():
             res_m = sh.checked(lambda v: parse_length(v, "shift", positive=True), shift, "allowed floater shift")
         if payloads is not None or res_m is not None:
             try:
-                with st.spinner("Computing the schedule over the payload range..."):
-                    result = sh.levitate_text(text, None, None, url, payloads, res_m)
+                call = rs.levitate_call(design, None, None, payloads, res_m)
+                result = rs.result_of(call, "Computing the schedule over the payload range...")
             except MatdbError as exc:
                 st.error(sh.plain(f"payload range: {exc}"))
                 st.stop()
@@ -299,7 +297,7 @@ with right:
         st.caption("Narrowest window of plate distances over the schedule: "
                    + ("none (some payload has no stable plate distance)" if wm is None else f"{wm * 1e3:.3g} mm"))
         sched = presentation.stabilized_window_df(result)
-        st.altair_chart(charts.schedule_chart(sched).properties(
+        sh.chart(("schedule", call.key), lambda: charts.schedule_chart(sched).properties(
             title="Lifter setting and stable plate distances against payload"), width="content")
         st.caption("Top: where to set the lifter for each payload. Bottom: the band of plate distances that "
                    "keeps the floater stable; it narrows as the payload grows.")
@@ -316,14 +314,13 @@ with right:
         st.download_button("Schedule as CSV (for a positioning stage)", presentation.schedule_csv(result).encode(),
                            file_name="schedule.csv", mime="text/csv", key="d_schedule_csv")
         with st.expander("Suggest designs that float a payload range", expanded=not result.get("floats")):
-            synth = sh.module_or_none("matdb.analysis.magnet_synthesis")
             s1, s2, s3 = st.columns([2, 1, 2])
             s_range = s1.text_input("Payload range to float", prange.strip() or "0 g..5 g", key="fm_s_range")
             s_win = s2.text_input("Smallest window", "0.5 mm", key="fm_s_window")
-            s_mats = s3.multiselect("Plate materials", list(synth.DEFAULT_MATERIALS) if synth else [],
-                                    default=list(synth.DEFAULT_MATERIALS) if synth else [], key="fm_s_mats")
-            if synth is not None and st.button("Search designs", key="fm_s_go"):
-                rng = sh.checked(lambda v: design_mod_stab.parse_payload_range(v, "payload range"), s_range,
+            s_mats = s3.multiselect("Plate materials", list(synth.DEFAULT_MATERIALS),
+                                    default=list(synth.DEFAULT_MATERIALS), key="fm_s_mats")
+            if st.button("Search designs", key="fm_s_go"):
+                rng = sh.checked(lambda v: parse_payload_range(v, "payload range"), s_range,
                                  "payload range to float")
                 win = sh.checked(lambda v: parse_length(v, "window", positive=True), s_win, "smallest window")
                 if rng is not None and win is not None:
@@ -334,7 +331,7 @@ with right:
                                            progress=lambda f, t="": bar.progress(min(max(f, 0.0), 1.0), text=t[:90]))
                         best = next((d for r, d in zip(res.rows, res.designs) if r["feasible"] and d is not None),
                                     None)
-                        best_text = None if best is None else design_mod_stab.design_to_toml(best)
+                        best_text = None if best is None else design_to_toml(best)
                         st.session_state["fm_search"] = (synth.records(res), res.message, res.notes, best_text)
                     except MatdbError as exc:
                         st.error(sh.plain(f"search: {exc}"))
@@ -375,9 +372,11 @@ with right:
     c3, c4 = st.columns(2)
     c3.metric("Laterally stable", "yes" if result["laterally_stable"] else "no")
     c4.metric("0.5 mT distance", presentation.fmt_number(result["safe_distance_m"] * 1e2, "cm"))
+    st.caption(rs.provenance_text(how))
 
     st.subheader("Lift against gap")
-    st.altair_chart(charts.lift_chart(result).properties(title="Lift and weight against gap"), width="stretch")
+    sh.chart(("lift", call.key), lambda: charts.lift_chart(result).properties(title="Lift and weight against gap"),
+             width="stretch")
     st.caption("Solid: magnetic lift on the plate; dashed: weight of plate and payload; dot: where they balance "
                "on the falling branch (the equilibrium gap).")
 
@@ -388,16 +387,16 @@ gap_mm = m1.slider("Height of the map above the magnets (mm)", 0.05, 5.0,
                    float(min(5.0, max(0.05, round(default_gap * 1e3, 2)))), 0.05, key="d_map_gap")
 quantity = m2.radio("Show", ["|B| (T)", "B^2 (T^2)"], key="d_map_q", horizontal=True)
 extent = (design.plate.size[0], design.plate.size[1] if design.plate.shape == "rectangle" else design.plate.size[0])
-progress.progress(0.6, text="Computing the field map (step 2 of 2)...")
-fmap = sh.field_map(repr(design.magnets), result["temperature_k"], gap_mm * 1e-3, extent, design)
 progress.empty()
-field = "b_t" if quantity.startswith("|B|") else "b2_t2"
-pol = presentation.polarity_df(design.arrangement())
 # one under the other, legends below: square maps that fit a 1000 px screen without being cut
 legend = dict(orient="bottom", titleLimit=300)
-st.altair_chart(charts.field_map_chart(fmap, gap_mm, quantity, charts.plate_outline_df(design))
-                .configure_legend(**legend), width="content")
-st.altair_chart(charts.polarity_chart(pol).configure_legend(**legend), width="content")
+sh.chart(("field map", rs.design_key(design), result["temperature_k"], gap_mm, extent, quantity),
+         lambda: charts.field_map_chart(
+             rs.field_map(rs.magnets_key(design), result["temperature_k"], gap_mm * 1e-3, extent, design),
+             gap_mm, quantity, charts.plate_outline_df(design)).configure_legend(**legend), width="content")
+sh.chart(("polarity", rs.magnets_key(design)),
+         lambda: charts.polarity_chart(presentation.polarity_df(design.arrangement())).configure_legend(**legend),
+         width="content")
 
 st.subheader("Numbers")
 n1, n2 = st.columns([3, 2])
@@ -424,29 +423,29 @@ for w in warns:
     st.warning(sh.plain(w))
 if not warns:
     st.success("No warnings.")
-from matdb.physics.thermal import SAFETY_TEXT  # noqa: E402
-
 with st.expander("Strong-magnet cautions", expanded=any("Strong magnets" in w for w in warns)):
     st.markdown(SAFETY_TEXT.replace("\n", "  \n"))
 
 # ---- dynamics ---------------------------------------------------------------
-dyn_mod = sh.module_or_none("matdb.analysis.dynamics")
-if dyn_mod is not None and result.get("mode") == "plate":
+def outline_chart(design):
+    """The plate's outline with its slots and holes, at 1:1 aspect."""
+    ring = dyn_mod.outline_df(design)
+    ring["path"] = ring["piece"].astype(str) + "-" + ring["ring"].astype(str)
+    span = max(ring["x_mm"].max() - ring["x_mm"].min(), ring["y_mm"].max() - ring["y_mm"].min())
+    cx = 0.5 * (ring["x_mm"].max() + ring["x_mm"].min())
+    cy = 0.5 * (ring["y_mm"].max() + ring["y_mm"].min())
+    return alt.Chart(ring).mark_line(color="#333333", strokeWidth=1.5).encode(
+        x=alt.X("x_mm:Q", title="x (mm)", scale=alt.Scale(domain=[cx - 0.6 * span, cx + 0.6 * span])),
+        y=alt.Y("y_mm:Q", title="y (mm)", scale=alt.Scale(domain=[cy - 0.6 * span, cy + 0.6 * span])),
+        detail="path:N", order="order:Q").properties(width=300, height=300, title="plate outline, slots and holes")
+
+
+if result.get("mode") == "plate":
     st.subheader("Dynamics: modes, damping, Q and noise floor")
     g1, g2 = st.columns([2, 3], gap="large")
     with g1:
         with sh.shown_errors("plate drawing"):
-            ring = dyn_mod.outline_df(design)
-            ring["path"] = ring["piece"].astype(str) + "-" + ring["ring"].astype(str)
-            span = max(ring["x_mm"].max() - ring["x_mm"].min(), ring["y_mm"].max() - ring["y_mm"].min())
-            cx = 0.5 * (ring["x_mm"].max() + ring["x_mm"].min())
-            cy = 0.5 * (ring["y_mm"].max() + ring["y_mm"].min())
-            drawing = alt.Chart(ring).mark_line(color="#333333", strokeWidth=1.5).encode(
-                x=alt.X("x_mm:Q", title="x (mm)", scale=alt.Scale(domain=[cx - 0.6 * span, cx + 0.6 * span])),
-                y=alt.Y("y_mm:Q", title="y (mm)", scale=alt.Scale(domain=[cy - 0.6 * span, cy + 0.6 * span])),
-                detail="path:N", order="order:Q")
-            st.altair_chart(drawing.properties(width=300, height=300, title="plate outline, slots and holes"),
-                            width="content")
+            sh.chart(("outline", rs.design_key(design)), lambda: outline_chart(design), width="content")
             st.caption("Slots and holes cut the eddy-current loops (higher Q in vacuum); set them in "
                        "[plate] as slots = {count, width, length, direction, start} and holes.")
     with g2:
@@ -454,13 +453,17 @@ if dyn_mod is not None and result.get("mode") == "plate":
         pressure = sh.checked(lambda v: parse_quantity(v, "Pa", "pressure", positive=True), p_text, "pressure")
         run = st.checkbox("Compute modes, damping and noise (a few seconds)", key="d_dyn_run")
     if run and pressure is not None:
+        dyn_bar = st.progress(0.05, text="Meshing the plate, solving the eddy currents and the air film "
+                                         "(step 1 of 2)...")
         try:
-            with st.spinner("Meshing the plate, solving the eddy currents and the air film..."):
-                dres = sh.dynamics_text(text, pressure, url)
-                sweep = sh.pressure_sweep(text, url)
+            dres = rs.dynamics_text(text, pressure, url)
+            dyn_bar.progress(0.5, text="Q against pressure for each mode (step 2 of 2)...")
+            sweep = rs.pressure_sweep(text, url)
         except MatdbError as exc:
+            dyn_bar.empty()
             st.error(sh.plain(f"dynamics: {exc}"))
         else:
+            dyn_bar.empty()
             st.dataframe(dyn_mod.modes_df(dres), hide_index=True, key="design_modes", column_config={
                 "frequency_hz": st.column_config.NumberColumn("frequency (Hz)", format="%.3g"),
                 "q": st.column_config.NumberColumn("Q", format="%.3g"),

@@ -7,14 +7,12 @@ import streamlit as st
 
 from matdb.reporting import presentation
 from matdb.reporting import presentation as P
+from matdb.analysis import dynamics as dyn_lab
+from matdb.data import lab_store as lab
 from matdb.errors import MatdbError
 from webapp import _shared as sh
 
 st.title("Lab values")
-lab = sh.module_or_none("matdb.data.lab_store")
-if lab is None:
-    sh.not_available("The Lab values page")
-    st.stop()
 url = sh.db_url()
 FORM_KEYS = ("lab_chi", "lab_chi_perp", "lab_chi_par", "lab_temperature", "lab_uncertainty", "lab_density",
              "lab_source", "lab_by", "lab_date", "lab_method", "lab_take_over")
@@ -55,25 +53,30 @@ pts["lo"] = pts["chi_si"] - pts["uncertainty"].fillna(0.0)
 pts["hi"] = pts["chi_si"] + pts["uncertainty"].fillna(0.0)
 pts["status"] = ["in use" if p else "retracted" if r else "kept" for p, r in zip(pts["preferred"], pts["retracted"])]
 pts["uncertainty_text"] = [P.fmt_chi(u) if u == u else "not stated" for u in pts["uncertainty"]]
-y_lo, y_hi = P.padded_domain(pts["lo"], pts["hi"])
-y_scale = alt.Scale(domain=[y_lo, y_hi], zero=False, nice=False)
-STATUS = ["in use", "kept", "retracted"]
-base = alt.Chart(pts).encode(x=alt.X("label:N", title="value (id and kind), oldest first", sort=list(pts["label"]),
-                                     axis=alt.Axis(labelAngle=0)))
-with_unc = base.transform_filter("datum.hi > datum.lo")
-bars = with_unc.mark_rule(strokeWidth=2.5, color="#444444").encode(
-    y=alt.Y("lo:Q", title="chi (SI volume, dimensionless)", scale=y_scale, axis=alt.Axis(format=".2e")), y2="hi:Q")
-caps_lo = with_unc.mark_tick(thickness=2.5, size=18, color="#444444").encode(y=alt.Y("lo:Q", scale=y_scale))
-caps_hi = with_unc.mark_tick(thickness=2.5, size=18, color="#444444").encode(y=alt.Y("hi:Q", scale=y_scale))
-dots = base.mark_point(filled=True, size=140, opacity=1).encode(
-    y=alt.Y("chi_si:Q", scale=y_scale),
-    color=alt.Color("status:N", title="status", scale=alt.Scale(domain=STATUS, range=["#1b7837", "#3d6fb6", "#999999"])),
-    shape=alt.Shape("status:N", title="status", scale=alt.Scale(domain=STATUS, range=["diamond", "circle", "cross"])),
-    tooltip=[alt.Tooltip("value_id:Q", title="value id"), alt.Tooltip("value_kind:N", title="kind"),
-             alt.Tooltip("chi_si:Q", title="chi (SI volume)", format=".3e"),
-             alt.Tooltip("uncertainty_text:N", title="uncertainty (SI volume)"), "status:N", "source:N"])
-st.altair_chart(alt.layer(bars, caps_lo, caps_hi, dots).properties(
-    height=260, title="Susceptibility values of this material with their stated uncertainty"), width="stretch")
+def values_chart():
+    """Every value of the material with its stated uncertainty, the one in use marked."""
+    y_lo, y_hi = P.padded_domain(pts["lo"], pts["hi"])
+    y_scale = alt.Scale(domain=[y_lo, y_hi], zero=False, nice=False)
+    STATUS = ["in use", "kept", "retracted"]
+    base = alt.Chart(pts).encode(x=alt.X("label:N", title="value (id and kind), oldest first", sort=list(pts["label"]),
+                                         axis=alt.Axis(labelAngle=0)))
+    with_unc = base.transform_filter("datum.hi > datum.lo")
+    bars = with_unc.mark_rule(strokeWidth=2.5, color="#444444").encode(
+        y=alt.Y("lo:Q", title="chi (SI volume, dimensionless)", scale=y_scale, axis=alt.Axis(format=".2e")), y2="hi:Q")
+    caps_lo = with_unc.mark_tick(thickness=2.5, size=18, color="#444444").encode(y=alt.Y("lo:Q", scale=y_scale))
+    caps_hi = with_unc.mark_tick(thickness=2.5, size=18, color="#444444").encode(y=alt.Y("hi:Q", scale=y_scale))
+    dots = base.mark_point(filled=True, size=140, opacity=1).encode(
+        y=alt.Y("chi_si:Q", scale=y_scale),
+        color=alt.Color("status:N", title="status", scale=alt.Scale(domain=STATUS, range=["#1b7837", "#3d6fb6", "#999999"])),
+        shape=alt.Shape("status:N", title="status", scale=alt.Scale(domain=STATUS, range=["diamond", "circle", "cross"])),
+        tooltip=[alt.Tooltip("value_id:Q", title="value id"), alt.Tooltip("value_kind:N", title="kind"),
+                 alt.Tooltip("chi_si:Q", title="chi (SI volume)", format=".3e"),
+                 alt.Tooltip("uncertainty_text:N", title="uncertainty (SI volume)"), "status:N", "source:N"])
+    return alt.layer(bars, caps_lo, caps_hi, dots).properties(
+        height=260, title="Susceptibility values of this material with their stated uncertainty")
+
+
+sh.chart(("lab values", sh.frame_key(pts)), values_chart, width="stretch")
 st.caption("Bars with end caps: stated uncertainty (none drawn where the source states none). Diamond: the value in "
            "use; circles: kept; crosses: retracted. Nothing is ever deleted: retracted values stay.")
 hist["chi_si_check"] = presentation.value_check_marks(hist.to_dict("records"))
@@ -193,37 +196,35 @@ with p2:
             st.rerun()
 
 # ---- measured Q / ring-down -----------------------------------------------------
-dyn_lab = sh.module_or_none("matdb.analysis.dynamics")
-if dyn_lab is not None:
-    st.subheader("Measured quality factor or ring-down of a floating plate")
-    qrows = dyn_lab.list_q_values(mid, url)
-    if qrows:
-        st.dataframe(qrows, hide_index=True, key="lab_q_table", column_config={
-            "frequency_hz": st.column_config.NumberColumn("frequency (Hz)", format="%.4g"),
-            "q": st.column_config.NumberColumn("Q", format="%.4g"),
-            "ring_down_s": st.column_config.NumberColumn("ring-down (s)", format="%.4g"),
-            "pressure_pa": st.column_config.NumberColumn("pressure (Pa)", format="%.3g"),
-            "temperature_k": st.column_config.NumberColumn("temperature (K)", format="%.5g")})
+st.subheader("Measured quality factor or ring-down of a floating plate")
+qrows = dyn_lab.list_q_values(mid, url)
+if qrows:
+    st.dataframe(qrows, hide_index=True, key="lab_q_table", column_config={
+        "frequency_hz": st.column_config.NumberColumn("frequency (Hz)", format="%.4g"),
+        "q": st.column_config.NumberColumn("Q", format="%.4g"),
+        "ring_down_s": st.column_config.NumberColumn("ring-down (s)", format="%.4g"),
+        "pressure_pa": st.column_config.NumberColumn("pressure (Pa)", format="%.3g"),
+        "temperature_k": st.column_config.NumberColumn("temperature (K)", format="%.5g")})
+else:
+    st.caption(sh.plain(f"No measured Q recorded for {mid} yet."))
+with st.form("lab_q_form", clear_on_submit=False):
+    q1, q2, q3 = st.columns(3)
+    q_val = q1.text_input("Q (a number)", key="lab_q")
+    q_tau = q2.text_input("or ring-down time, 1/e of amplitude", key="lab_q_tau", placeholder="25 s")
+    q_f = q3.text_input("Mode frequency", key="lab_q_f", placeholder="16 Hz")
+    q4, q5, q6 = st.columns(3)
+    q_p = q4.text_input("Pressure", key="lab_q_p", placeholder="1e-3 Pa")
+    q_mode = q5.text_input("Mode", key="lab_q_mode", placeholder="vertical")
+    q_design = q6.text_input("Design or set-up", key="lab_q_design")
+    q_source = st.text_input("Source note (required: where the number comes from)", key="lab_q_source")
+    q_submit = st.form_submit_button("Record Q", key="lab_q_submit")
+if q_submit:
+    try:
+        qrow = dyn_lab.record_q_value(mid, q=q_val or None, ring_down=q_tau or None, frequency=q_f or None,
+                                      pressure=q_p or None, mode=q_mode, design=q_design,
+                                      source=q_source, url=url)
+    except MatdbError as exc:
+        st.error(sh.plain(f"not recorded: {exc}"))
     else:
-        st.caption(sh.plain(f"No measured Q recorded for {mid} yet."))
-    with st.form("lab_q_form", clear_on_submit=False):
-        q1, q2, q3 = st.columns(3)
-        q_val = q1.text_input("Q (a number)", key="lab_q")
-        q_tau = q2.text_input("or ring-down time, 1/e of amplitude", key="lab_q_tau", placeholder="25 s")
-        q_f = q3.text_input("Mode frequency", key="lab_q_f", placeholder="16 Hz")
-        q4, q5, q6 = st.columns(3)
-        q_p = q4.text_input("Pressure", key="lab_q_p", placeholder="1e-3 Pa")
-        q_mode = q5.text_input("Mode", key="lab_q_mode", placeholder="vertical")
-        q_design = q6.text_input("Design or set-up", key="lab_q_design")
-        q_source = st.text_input("Source note (required: where the number comes from)", key="lab_q_source")
-        q_submit = st.form_submit_button("Record Q", key="lab_q_submit")
-    if q_submit:
-        try:
-            qrow = dyn_lab.record_q_value(mid, q=q_val or None, ring_down=q_tau or None, frequency=q_f or None,
-                                          pressure=q_p or None, mode=q_mode, design=q_design,
-                                          source=q_source, url=url)
-        except MatdbError as exc:
-            st.error(sh.plain(f"not recorded: {exc}"))
-        else:
-            st.session_state["lab_flash"] = f"Recorded Q value {qrow['id']} for {mid}."
-            st.rerun()
+        st.session_state["lab_flash"] = f"Recorded Q value {qrow['id']} for {mid}."
+        st.rerun()

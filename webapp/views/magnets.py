@@ -15,10 +15,11 @@ except MatdbError as exc:
     st.error(sh.plain(f"magnet grades: {exc}"))
     st.stop()
 
-all_grades = list(grades["grade"])
+all_grades = grades["grade"].tolist()
 preferred = [g for g in ("N42", "N42SH", "N52", "N35EH") if g in all_grades]
-smco = [g for g in all_grades if grades.set_index("grade").loc[g, "family"] == "SmCo"][:1]
-ferrite = [g for g in all_grades if grades.set_index("grade").loc[g, "family"] == "ferrite"][:1]
+family_of = dict(zip(grades["grade"].tolist(), grades["family"].tolist()))
+smco = [g for g in all_grades if family_of[g] == "SmCo"][:1]
+ferrite = [g for g in all_grades if family_of[g] == "ferrite"][:1]
 default = (preferred[:3] + smco + ferrite) or all_grades[:3]
 
 # ---- lead chart -----------------------------------------------------------
@@ -73,17 +74,19 @@ else:
         # two charts in two columns that follow the screen width (a fixed-width pair ran past a 1000 px page)
         legend = dict(orient="bottom", columns=2, labelLimit=160, titleLimit=200)
         p1, p2 = st.columns(2)
-        p1.altair_chart(panel("br_t", "Br (T)", ".2f", "Remanence against temperature")
-                        .properties(width="container").configure_legend(**legend), width="stretch")
-        p2.altair_chart(panel("relative_lift", "relative lift (Br/Br at 20 degC)^2, %", ".0%",
-                              "Lift over a diamagnet, relative to 20 degC")
-                        .properties(width="container").configure_legend(**legend), width="stretch")
+        content = (sh.frame_key(curves), sh.frame_key(marks), tuple(chosen))
+        sh.chart(("magnets Br",) + content, lambda: panel("br_t", "Br (T)", ".2f", "Remanence against temperature")
+                 .properties(width="container").configure_legend(**legend), p1, width="stretch")
+        sh.chart(("magnets lift",) + content,
+                 lambda: panel("relative_lift", "relative lift (Br/Br at 20 degC)^2, %", ".0%",
+                               "Lift over a diamagnet, relative to 20 degC")
+                 .properties(width="container").configure_legend(**legend), p2, width="stretch")
         st.caption(
             "Br(T) = Br20 (1 + alpha/100 (T - 20 degC)) from each grade's reversible coefficient; lift over a "
             "diamagnet scales with B^2, so with Br^2. Each grade has its own colour and marker shape. Open "
             "diamonds and dotted rules: each grade's maximum working temperature; dashed line beyond it."
         )
-        st.download_button("Download curves (CSV, exact values)", sh.csv_bytes(curves),
+        st.download_button("Download curves (CSV, exact values)", lambda df=curves: sh.csv_bytes(df),
                            file_name="matdb-grade-curves.csv", mime="text/csv", key="curves_download")
 
 # ---- table ----------------------------------------------------------------
@@ -116,6 +119,6 @@ st.dataframe(
 )
 sh.status_legend()
 st.caption("Prices are illustrative, not quotes.")
-st.download_button("Download grades (CSV, exact values)", sh.csv_bytes(shown),
+st.download_button("Download grades (CSV, exact values)", lambda df=shown: sh.csv_bytes(df),
                    file_name="matdb-grades.csv", mime="text/csv", key="grades_download")
 sh.sources_expander(url, "grades_sources")

@@ -33,8 +33,10 @@ st.caption(
 )
 reach_df, band, reach_msg = None, None, ""
 try:
-    with st.spinner("Computing the field of common magnet arrangements..."):
-        reach_df = sh.arrangement_reach(url)
+    reach_bar = st.empty()
+    reach_bar.progress(0.1, text="Computing the field of common magnet arrangements...")
+    reach_df = sh.arrangement_reach(url)
+    reach_bar.empty()
     band = reach.reach_band(reach_df)
 except MatdbError as exc:
     reach_msg = f"range of common arrangements: {exc}"
@@ -51,41 +53,47 @@ else:
     VERDICTS, COLOURS = [""], ["#3d6fb6"]
 
 SHAPES = ["circle", "triangle-up", "cross"] if band is not None else ["circle"]
-points = alt.Chart(diam).mark_point(filled=True, opacity=0.9).encode(
-    x=alt.X("required_t2_m:Q", scale=alt.Scale(type="log"),
-            title="-B dB/dz needed to float (T^2/m, log scale)"),
-    y=alt.Y("name:N", sort=order, title=None, axis=alt.Axis(labelLimit=260)),
-    color=alt.Color("verdict:N", title="over NdFeB magnets", legend=alt.Legend(labelLimit=200),
-                    scale=alt.Scale(domain=VERDICTS, range=COLOURS)),
-    shape=alt.Shape("verdict:N", title="over NdFeB magnets", scale=alt.Scale(domain=VERDICTS, range=SHAPES)),
-    size=alt.condition("datum.chosen", alt.value(220), alt.value(90)),
-    tooltip=[
-        alt.Tooltip("name:N", title="material"),
-        alt.Tooltip("required_t2_m:Q", title="needs (T^2/m)", format=".3~g"),
-        alt.Tooltip("chi_si:Q", title="chi (SI volume)", format=".3e"),
-        alt.Tooltip("verdict:N", title="verdict"),
-        alt.Tooltip("density_kg_m3:Q", title="density (kg/m^3)", format=",.0f"),
-        alt.Tooltip("value_kind:N", title="value kind"),
-        alt.Tooltip("source:N", title="source"),
-    ],
-)
-layers = []
-if band is not None and reach_df is not None:
-    band_df = pd.DataFrame({"low": [band[0]], "high": [band[1]],
-                            "label": ["reach of common NdFeB arrangements at 0.2 mm"]})
-    layers.append(alt.Chart(band_df).mark_rect(color="#9ecae1", opacity=0.25).encode(
-        x="low:Q", x2="high:Q",
-        tooltip=[alt.Tooltip("label:N", title=""),
-                 alt.Tooltip("low:Q", title="plate average (T^2/m)", format=".3~g"),
-                 alt.Tooltip("high:Q", title="local peak (T^2/m)", format=".3~g")]))
-    layers.append(alt.Chart(reach_df).mark_rule(color="#3182bd", strokeDash=[3, 3]).encode(
-        x="plate_avg_t2_m:Q",
-        tooltip=[alt.Tooltip("description:N", title="arrangement"),
-                 alt.Tooltip("plate_avg_t2_m:Q", title="1 mm plate average (T^2/m)", format=".3~g"),
-                 alt.Tooltip("peak_t2_m:Q", title="local peak (T^2/m)", format=".3~g")]))
-chart = alt.layer(*layers, points).properties(height=max(260, 22 * len(diam)),
-                                             title="Field-gradient product each diamagnet needs to float")
-st.altair_chart(chart, width="stretch")
+
+
+def requirement_chart():
+    """What each diamagnet needs to float, against what common arrangements reach."""
+    points = alt.Chart(diam).mark_point(filled=True, opacity=0.9).encode(
+        x=alt.X("required_t2_m:Q", scale=alt.Scale(type="log"),
+                title="-B dB/dz needed to float (T^2/m, log scale)"),
+        y=alt.Y("name:N", sort=order, title=None, axis=alt.Axis(labelLimit=260)),
+        color=alt.Color("verdict:N", title="over NdFeB magnets", legend=alt.Legend(labelLimit=200),
+                        scale=alt.Scale(domain=VERDICTS, range=COLOURS)),
+        shape=alt.Shape("verdict:N", title="over NdFeB magnets", scale=alt.Scale(domain=VERDICTS, range=SHAPES)),
+        size=alt.condition("datum.chosen", alt.value(220), alt.value(90)),
+        tooltip=[
+            alt.Tooltip("name:N", title="material"),
+            alt.Tooltip("required_t2_m:Q", title="needs (T^2/m)", format=".3~g"),
+            alt.Tooltip("chi_si:Q", title="chi (SI volume)", format=".3e"),
+            alt.Tooltip("verdict:N", title="verdict"),
+            alt.Tooltip("density_kg_m3:Q", title="density (kg/m^3)", format=",.0f"),
+            alt.Tooltip("value_kind:N", title="value kind"),
+            alt.Tooltip("source:N", title="source"),
+        ],
+    )
+    layers = []
+    if band is not None and reach_df is not None:
+        band_df = pd.DataFrame({"low": [band[0]], "high": [band[1]],
+                                "label": ["reach of common NdFeB arrangements at 0.2 mm"]})
+        layers.append(alt.Chart(band_df).mark_rect(color="#9ecae1", opacity=0.25).encode(
+            x="low:Q", x2="high:Q",
+            tooltip=[alt.Tooltip("label:N", title=""),
+                     alt.Tooltip("low:Q", title="plate average (T^2/m)", format=".3~g"),
+                     alt.Tooltip("high:Q", title="local peak (T^2/m)", format=".3~g")]))
+        layers.append(alt.Chart(reach_df).mark_rule(color="#3182bd", strokeDash=[3, 3]).encode(
+            x="plate_avg_t2_m:Q",
+            tooltip=[alt.Tooltip("description:N", title="arrangement"),
+                     alt.Tooltip("plate_avg_t2_m:Q", title="1 mm plate average (T^2/m)", format=".3~g"),
+                     alt.Tooltip("peak_t2_m:Q", title="local peak (T^2/m)", format=".3~g")]))
+    return alt.layer(*layers, points).properties(height=max(260, 22 * len(diam)),
+                                                 title="Field-gradient product each diamagnet needs to float")
+
+
+sh.chart(("materials", sh.frame_key(diam), band, sh.frame_key(reach_df)), requirement_chart, width="stretch")
 if band is not None:
     st.caption(
         f"Shaded: what common NdFeB arrangements offer at a 0.2 mm gap, from {band[0]:.3g} T^2/m "
@@ -159,13 +167,14 @@ st.dataframe(
 sh.status_legend()
 if conv in ("si-molar", "cgs-molar") and shown["chi_shown"].isna().any():
     st.caption("Empty molar values: the database holds no molar mass for that material (e.g. polymers).")
-st.download_button("Download this table (CSV, exact values)", sh.csv_bytes(shown),
+st.download_button("Download this table (CSV, exact values)", lambda df=shown: sh.csv_bytes(df),
                    file_name="matdb-materials.csv", mime="text/csv", key="mat_download")
 
 # ---- compare -------------------------------------------------------------
 st.subheader("Compare")
-picked = st.multiselect("Materials to compare side by side", list(mats["id"]), key="mat_compare",
-                        format_func=lambda i: f"{mats.set_index('id').loc[i, 'name']} ({i})")
+names = dict(zip(mats["id"].tolist(), mats["name"].tolist()))
+picked = st.multiselect("Materials to compare side by side", list(names), key="mat_compare",
+                        format_func=lambda i: f"{names[i]} ({i})")
 if picked:
     with sh.shown_errors("compare"):
         st.dataframe(presentation.compare_materials(mats.merge(need[["id", "required_t2_m"]], on="id"), picked,
