@@ -19,6 +19,7 @@ from hypothesis import strategies as st
 from matdb.errors import InputError
 from matdb.physics.arrangement import Arrangement, Magnet, build_arrangement
 from matdb.constants import MU0
+from matdb.physics.fields import dipole_B
 
 RNG = np.random.default_rng(7)
 CUBE = (0.01, 0.01, 0.01)
@@ -233,8 +234,6 @@ def test_far_field_of_arrangement_is_dipole():
     size = 0.034
     d = RNG.normal(size=(30, 3))
     p = centre + 20 * size * d / np.linalg.norm(d, axis=1)[:, None]
-    from matdb.physics.fields import dipole_B
-
     ref = dipole_B(p, [mom], [centre])
     err = np.linalg.norm(a.B(p) - ref, axis=1) / np.linalg.norm(ref, axis=1)
     assert np.max(err) < (1 / 20) ** 2

@@ -180,7 +180,7 @@ def test_three_station_disc_shares_and_tilt_mode():
 # CLI
 # ---------------------------------------------------------------------------
 def test_cli_levitate_json(run_cli):
-    # matdb levitate DESIGN --format json (issue 4 contract)
+    # matdb levitate DESIGN --format json (regression check of the key contract)
     code, out, err = run_cli("levitate", str(EXAMPLE), "--format", "json")
     assert code == 0, err
     r = json.loads(out)
