@@ -1,7 +1,7 @@
 """``matdb field`` and ``matdb levitate`` (matdb.cli.physics, matdb.analysis.levitate).
 
-References: magpylib (independent field library) for ``field``; the issue-3 JSON key
-contract; the linear reversible temperature coefficient of Br (IEC 60404-8-1) and the
+References: magpylib (independent field library) for ``field``; a regression check of the JSON
+key contract; the linear reversible temperature coefficient of Br (IEC 60404-8-1) and the
 Br^2 |chi| scaling of diamagnetic lift (Berry & Geim, Eur. J. Phys. 18, 307 (1997)) for
 the thermal figures; standard gravity 9.80665 m/s^2 (CGPM 1901) for the weight.
 """
@@ -12,6 +12,8 @@ import csv
 import io
 import json
 import math
+import sys
+import types
 from pathlib import Path
 
 import magpylib as magpy
@@ -19,8 +21,10 @@ import numpy as np
 import pytest
 
 from matdb.design import load_design
-from matdb.analysis.levitate import CONTRACT_KEYS, levitate, levitate_plate, plate_geometry
+from matdb.analysis.levitate import CONTRACT_KEYS, STATE_KEYS, levitate, levitate_plate, plate_geometry
 from matdb.physics import plate as P
+from matdb.physics.thermal import SAFETY_TEXT
+from matdb.physics import thermal as TH
 
 DATA = Path(__file__).parent / "data"
 DEMO = str(DATA / "plate_checkerboard.toml")
@@ -193,9 +197,8 @@ def test_stripes_say_they_are_neutral_along_the_stripes():
 
 
 def test_large_magnet_gets_the_cautions(tmp_path):
-    # the strong-magnet cautions appear for a magnet larger than 25 mm (issue 3)
-    from matdb.physics.thermal import SAFETY_TEXT
-
+    # the strong-magnet cautions appear for a magnet larger than 25 mm (common practice, no
+    # source: pinching, shattering, implanted devices)
     f = tmp_path / "big.toml"
     f.write_text('[magnets]\nsize = ["30 mm", "30 mm", "10 mm"]\ngrade = "N42"\n'
                  '[plate]\nmaterial = "pyrolytic-graphite"\nsize = ["5 mm", "5 mm", "0.5 mm"]\n')
@@ -232,9 +235,6 @@ def test_levitate_bad_design(run_cli, tmp_path):
 
 def test_floating_magnet_designs_dispatch(monkeypatch):
     # levitate hands non-plate designs to matdb.analysis.floating.levitate_stabilized
-    import sys
-    import types
-
     fake = types.ModuleType("matdb.analysis.floating")
     fake.levitate_stabilized = lambda design, temp_k=None: {"mode": "stabilized", "t": temp_k}
     monkeypatch.setitem(sys.modules, "matdb.analysis.floating", fake)
@@ -270,7 +270,7 @@ def test_back_plate_equals_a_magnet_of_twice_the_height(tmp_path):
 
 
 def test_demag_check_covers_coldest_and_hottest(tmp_path):
-    # issue 3: the knee is checked at the hottest and the coldest temperature (hard
+    # regression check: the knee is checked at the hottest and the coldest temperature (hard
     # ferrite loses coercivity when cold)
     f = tmp_path / "ferrite.toml"
     f.write_text('[magnets]\nsize = ["20 mm", "20 mm", "5 mm"]\ngrade = "Ferrite-C8"\n'
@@ -299,9 +299,6 @@ def test_cold_and_hot_objects(tmp_path, run_cli):
     # lift ~ Br(T)^2 |chi(T)| (Berry & Geim 1997) with the linear reversible coefficients
     # (IEC 60404-8-1; seed_data, cited): at the coldest temperature the plate lifts more
     # and floats higher; each object equals a run at that temperature (regression check)
-    from matdb.analysis.levitate import STATE_KEYS
-    from matdb.physics import thermal as TH
-
     f = tmp_path / "range.toml"
     f.write_text(Path(DEMO).read_text().split("[conditions]")[0]
                  + '[conditions]\ntemp_min = "0 degC"\ntemp_max = "50 degC"\n')

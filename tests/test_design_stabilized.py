@@ -13,14 +13,17 @@ import tomllib
 from pathlib import Path
 
 import pytest
+import tomli_w
 
 from matdb.design import (
     DEFAULT_CLEARANCE_M,
     StabilizedDesign,
     parse_stabilized,
     design_to_toml,
+    load_design,
 )
 from matdb.errors import InputError
+from matdb.data.catalog import get_grade, get_material
 
 REPO = Path(__file__).resolve().parent.parent
 EXAMPLES = sorted((REPO / "examples").glob("floating_magnet*.toml"))
@@ -50,8 +53,6 @@ def test_parse_gives_si_floats():
 
 def test_catalogue_values_are_used():
     # the grade's Br and the graphite's chi_perp/chi_par as the catalogue serves them
-    from matdb.data.catalog import get_grade, get_material
-
     d = parse_stabilized(base())
     st = d.stations[0]
     assert st.lifter.br_t == get_grade("N42").br_t and not st.lifter.br_override
@@ -163,10 +164,6 @@ def test_round_trip_with_overrides_and_range():
 
 def test_load_design_dispatches_here(tmp_path):
     # matdb.design.toml_io.load_design hands lifter/floater/station designs to this module
-    import tomli_w
-
-    from matdb.design import load_design
-
     p = tmp_path / "d.toml"
     p.write_text(tomli_w.dumps(base()))
     d = load_design(p)

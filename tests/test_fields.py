@@ -28,7 +28,8 @@ RNG = np.random.default_rng(20260202)
 
 
 def _tol(ref: np.ndarray) -> float:
-    # acceptance used throughout the brief: 1e-9 of the largest |B| plus 1e-12 T
+    # tolerance of the field comparisons (regression check): 1e-9 of the largest |B|
+    # plus 1e-12 T
     return 1e-9 * float(np.max(np.linalg.norm(ref, axis=-1))) + 1e-12
 
 

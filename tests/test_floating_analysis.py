@@ -50,7 +50,7 @@ def demo_result(demo):
 
 
 def test_result_keys_are_plain_json(demo_result):
-    # the issue's contract keys, JSON round trip (json module)
+    # regression check of the JSON key contract; round trip through the json module
     keys = {"mode", "floats", "lifter_distance_m", "k_lifter_z_n_m", "k_lifter_r_n_m", "k_plates_n_m",
             "k_plates_dipole_n_m", "max_plate_distance_m", "max_plate_distance_dipole_m", "max_payload_kg",
             "verdict_model", "window", "safe_distance_m", "warnings", "tilt_stable"}
@@ -180,7 +180,7 @@ def test_three_station_disc_shares_and_tilt_mode():
 # CLI
 # ---------------------------------------------------------------------------
 def test_cli_levitate_json(run_cli):
-    # matdb levitate DESIGN --format json (issue 4 contract)
+    # matdb levitate DESIGN --format json (regression check of the key contract)
     code, out, err = run_cli("levitate", str(EXAMPLE), "--format", "json")
     assert code == 0, err
     r = json.loads(out)

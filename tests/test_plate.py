@@ -26,6 +26,7 @@ from matdb.errors import InputError
 from matdb.physics import plate as P
 from matdb.physics.arrangement import build_arrangement
 from matdb.constants import G_STANDARD, MU0
+from matdb.data.catalog import get_material
 
 A = 0.0127  # 1/2 inch cube [m]
 PG = dict(chi_perp_abs=4.5e-4, chi_par_abs=8.5e-5)  # pyrolytic graphite, Simon & Geim (2000)
@@ -101,7 +102,7 @@ def test_rectangle_footprint_weights_sum_to_area(checker):
 @pytest.mark.parametrize("shape", ["rectangle", "disc"])
 @pytest.mark.parametrize("gap", [0.0, 5e-5, 1e-3])
 def test_lift_quadrature_converges_including_zero_gap(checker, gap, shape):
-    # convergence criterion of the issue: doubling the Gauss order changes F by < 1e-6
+    # convergence (regression check): doubling the Gauss order changes F by < 1e-6
     if shape == "disc":
         plate = _geom(checker, 0.012, shape="disc", cx=1e-3)
     else:
@@ -140,8 +141,6 @@ def test_thin_plate_lift_per_volume_is_chi_over_2mu0_grad_b2(checker):
 def test_water_levitation_threshold_from_constants():
     # Berry & Geim (1997): water levitates where -B dB/dz >= mu0 rho g / |chi|, about
     # 1400 T^2/m; chi and rho of water from the database (Schenck 1996 / CRC)
-    from matdb.data.catalog import get_material
-
     w = get_material("water")
     need = MU0 * w.density_kg_m3 * G_STANDARD / abs(w.chi_si)
     assert need == pytest.approx(1400, rel=0.05)
@@ -300,7 +299,7 @@ def test_disc_plate_floats_and_is_neutral_in_yaw(checker):
 
 
 def test_equilibrium_is_highest_root_with_falling_force(checker):
-    # definition (issue 3): F(g) = W, dF/dg < 0, the highest such root
+    # definition (Simon and Geim 2000, stable float): F(g) = W, dF/dg < 0, the highest such root
     plate = _geom(checker, 0.010)
     r = P.analyse_plate(checker.B, plate, density=PG_RHO, **PG, with_stability=False)
     f = P.lift_force(checker.B, plate, [r.gap - 1e-6, r.gap, r.gap + 1e-6], **PG)

@@ -12,13 +12,15 @@ References used below:
 
 from __future__ import annotations
 
+import tomllib
 import warnings
+from pathlib import Path
 
 import magpylib as magpy
 import numpy as np
 import pytest
 
-from matdb.design import load_design_text
+from matdb.design import design_to_toml, load_design_text, parse_stabilized
 from matdb.physics import plate as P
 from matdb.physics import recoil as R
 from matdb.physics.arrangement import build_arrangement
@@ -52,6 +54,7 @@ def test_response_is_linear_in_remanence_and_cached():
 
 
 def _reference(arr, cells=5):
+    # lazy: the reference library is heavy and only the slow comparisons need it
     from magpylib_material_response.demag import apply_demag
     from magpylib_material_response.meshing import mesh_Cuboid
 
@@ -116,7 +119,7 @@ def test_subdivided_cells_satisfy_the_recoil_equation():
     sizes, centres, dj, owner = arr.cells
     assert sizes.shape == (2 * n ** 3, 3)
     for c in (0, 13, 2 * n ** 3 - 1):
-        q, w = R._quad_points("cuboid", sizes[c], centres[c], R.N_QUAD_CELL)
+        q, w = R.volume_quadrature("cuboid", sizes[c], centres[c], R.N_QUAD_CELL)
         mu0h = w @ (arr.H(q) * MU0)
         j_cell = np.asarray(arr.magnets[owner[c]].polarization) + dj[c]
         j_r = np.asarray(rigid.magnets[owner[c]].polarization)
@@ -164,27 +167,19 @@ def test_back_plate_cube_is_a_prism_of_twice_the_height():
     assert on.magnets[0].br == pytest.approx(tall.magnets[0].br, rel=1e-4)
 
 
-DESIGN = """
-[magnets]
-shape = "cuboid"
-size = ["12.7 mm", "12.7 mm", "12.7 mm"]
-grade = "N42"
-pattern = "checkerboard"
-rows = 2
-cols = 2
-{rigid}
-[plate]
-material = "pyrolytic-graphite"
-size = ["10 mm", "10 mm", "1 mm"]
-"""
+# demo design shared with the other plate tests: 2 x 2 N42 checkerboard, rigid = true
+CHECKER_DESIGN = Path(__file__).parent / "data" / "plate_checkerboard.toml"
 
 
 def test_design_default_and_rigid_switch():
-    rigid = load_design_text(DESIGN.format(rigid="rigid = true"))
-    default = load_design_text(DESIGN.format(rigid=""))
+    text = CHECKER_DESIGN.read_text(encoding="utf-8")
+    assert "rigid = true" in text
+    rigid = load_design_text(text)
+    default = load_design_text(text.replace("rigid = true", ""))
     assert rigid.magnets.rigid and not default.magnets.rigid
     ideal = rigid.arrangement()
-    assert all(m.br == pytest.approx(1.3) or m.br > 1.0 for m in ideal.magnets)
+    br_20 = rigid.magnets.grade_props.br_t  # the catalogue's Br at 20 C
+    assert all(m.br == pytest.approx(br_20, rel=1e-12) for m in ideal.magnets)
     assert [m.polarization for m in ideal.magnets] == \
         [m.polarization for m in default.arrangement(rigid=True).magnets]
     mu_rec = default.magnets.grade_props.mu_rec
@@ -192,17 +187,10 @@ def test_design_default_and_rigid_switch():
     np.testing.assert_allclose([m.polarization for m in default.arrangement().magnets],
                                [m.polarization for m in expect.magnets], rtol=1e-12)
     assert default.arrangement().magnets[0].br < ideal.magnets[0].br
-    from matdb.design import design_to_toml
-
     assert "rigid = true" in design_to_toml(rigid) and "rigid" not in design_to_toml(default)
 
 
 def test_floating_magnet_rigid_key():
-    import tomllib
-    from pathlib import Path
-
-    from matdb.design import parse_stabilized
-
     path = Path(__file__).parent.parent / "examples" / "floating_magnet.toml"
     doc = tomllib.loads(path.read_text())
     d = parse_stabilized(doc)

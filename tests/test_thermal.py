@@ -25,7 +25,6 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from matdb.errors import InputError
-from matdb.physics.arrangement import build_arrangement
 from matdb.physics.thermal import (
     KNEE_FRACTION,
     SAFETY_TEXT,
@@ -33,7 +32,6 @@ from matdb.physics.thermal import (
     DemagResult,
     br_at,
     chi_at,
-    demag_check,
     hcj_at,
     lift_derating_pct,
     lift_factor,
@@ -42,6 +40,8 @@ from matdb.physics.thermal import (
     worst_case_br,
 )
 from matdb.constants import MU0
+from matdb.physics.arrangement import build_arrangement
+from matdb.physics.thermal import demag_check
 
 C = 273.15  # degC -> K offset (definition of the Celsius scale)
 
@@ -157,7 +157,9 @@ def test_knee_fractions_cover_the_catalogue_families_and_carry_citations():
     assert set(KNEE_FRACTION) == {"NdFeB", "SmCo", "ferrite", "AlNiCo", "bonded-NdFeB"}
     for fraction, citation in KNEE_FRACTION.values():
         assert 0.0 < fraction <= 1.0
-        assert "verify" in citation or "conservative" in citation
+        # values from memory are marked so (project rule for seed data citations)
+        assert "from memory of" in citation
+        assert citation.endswith("verify.")
     assert KNEE_FRACTION["NdFeB"][0] > KNEE_FRACTION["bonded-NdFeB"][0]
     assert KNEE_FRACTION["NdFeB"][0] > KNEE_FRACTION["AlNiCo"][0]
 
@@ -492,9 +494,6 @@ def test_back_plate_images_are_included():
 def test_coefficient_extrapolated_past_zero_is_a_risk_not_a_crash():
     # Arithmetic of the reversible coefficient (IEC 60404-8-1 definition): beta = -0.5 %/K
     # from 20 C reaches Hcj = 0 at 220 C, so at 230 C there is no knee left: flag, don't raise.
-    from matdb.physics.arrangement import build_arrangement
-    from matdb.physics.thermal import demag_check
-
     arr = build_arrangement("cuboid", (0.01, 0.01, 0.01), br=1.1)
     res = demag_check(arr, 2785e3, -0.5, "NdFeB", [293.15, 503.15], alpha_pct_per_k=-0.10)
     assert res.risk and "extrapolates Hcj to zero" in res.message

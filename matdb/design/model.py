@@ -140,23 +140,23 @@ class PlateSpec:
     def overridden(self) -> bool:
         return self.chi_si is not None or self.chi_perp_si is not None
 
+    def _chi(self, own: float | None, catalogue_attr: str) -> float:
+        """The axis's own override, else the isotropic ``chi``, else the catalogue value."""
+        if own is not None:
+            return own
+        if self.chi_si is not None:
+            return self.chi_si
+        return getattr(self.material_props, catalogue_attr)
+
     @property
     def chi_perp(self) -> float:
         """chi for a field along the c axis (vertical) [1]."""
-        if self.chi_perp_si is not None:
-            return self.chi_perp_si
-        if self.chi_si is not None:
-            return self.chi_si
-        return self.material_props.chi_vertical
+        return self._chi(self.chi_perp_si, "chi_vertical")
 
     @property
     def chi_par(self) -> float:
         """chi for a field in the basal plane (horizontal) [1]."""
-        if self.chi_par_si is not None:
-            return self.chi_par_si
-        if self.chi_si is not None:
-            return self.chi_si
-        return self.material_props.chi_horizontal
+        return self._chi(self.chi_par_si, "chi_horizontal")
 
     @property
     def density_kg_m3(self) -> float:

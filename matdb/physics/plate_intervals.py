@@ -35,10 +35,8 @@ def is_stable_floating(field: FieldFn, plate: PlateGeometry, chi_perp_abs: float
 
     References
     ----------
-    .. [1] R. P. Brent, Algorithms for Minimization without Derivatives, Prentice-Hall
-       (1973) (the root finder behind scipy.optimize.brentq and the bounded minimiser).
-    .. [2] M. D. Simon and A. K. Geim, J. Appl. Phys. 87, 6200 (2000) (stable float: the
-       lift falls with height at the equilibrium).
+    Module reference [1] (a float is stable where the lift falls with height); the gap is
+    found as in :func:`matdb.physics.plate_lift.equilibrium_gap` (Brent's root finder).
     """
     mass = density * plate.volume
     weight = (mass + payload_kg) * G_STANDARD

@@ -7,10 +7,9 @@ metres above the magnets' top faces (module docstring of :mod:`matdb.physics.pla
 
 References
 ----------
-.. [1] M. V. Berry and A. K. Geim, "Of flying frogs and levitrons", Eur. J. Phys. 18,
-   307-313 (1997).
-.. [2] M. D. Simon and A. K. Geim, "Diamagnetic levitation: flying frogs and floating
-   magnets", J. Appl. Phys. 87, 6200-6204 (2000).
+.. [1] M. V. Berry and A. K. Geim, Eur. J. Phys. 18, 307 (1997) (full entry in
+   :mod:`matdb.physics.plate`).
+.. [2] M. D. Simon and A. K. Geim, J. Appl. Phys. 87, 6200 (2000).
 .. [3] R. P. Brent, Algorithms for Minimization without Derivatives, Prentice-Hall (1973).
 """
 
@@ -243,10 +242,8 @@ def highest_stable_root(gaps: np.ndarray, forces: np.ndarray, weight: float,
 
     References
     ----------
-    .. [1] R. P. Brent, Algorithms for Minimization without Derivatives, Prentice-Hall
-       (1973) (the root finder behind scipy.optimize.brentq and the bounded minimiser).
-    .. [2] M. D. Simon and A. K. Geim, J. Appl. Phys. 87, 6200 (2000) (stable float: the
-       lift falls with height at the equilibrium).
+    Module references [2] (a float is stable where the lift falls with height) and [3]
+    (Brent's root finder behind scipy.optimize.brentq).
     """
     above = forces >= weight
     idx = np.nonzero(above[:-1] & ~above[1:])[0]
@@ -274,10 +271,8 @@ def max_lift_above(gaps: np.ndarray, forces: np.ndarray, g_req: float,
 
     References
     ----------
-    .. [1] R. P. Brent, Algorithms for Minimization without Derivatives, Prentice-Hall
-       (1973) (the root finder behind scipy.optimize.brentq and the bounded minimiser).
-    .. [2] M. D. Simon and A. K. Geim, J. Appl. Phys. 87, 6200 (2000) (stable float: the
-       lift falls with height at the equilibrium).
+    Module references [2] (the equilibrium above the peak) and [3] (Brent's bounded
+    minimiser behind scipy.optimize.minimize_scalar).
     """
     f_req = float(force_at(g_req))
     sel = gaps > g_req
@@ -329,10 +324,7 @@ def lift_curve_range(field: FieldFn, plate: PlateGeometry, chi_perp_abs: float,
 
     References
     ----------
-    .. [1] R. P. Brent, Algorithms for Minimization without Derivatives, Prentice-Hall
-       (1973) (the root finder behind scipy.optimize.brentq and the bounded minimiser).
-    .. [2] M. D. Simon and A. K. Geim, J. Appl. Phys. 87, 6200 (2000) (stable float: the
-       lift falls with height at the equilibrium).
+    Module reference [2] (the lift falls with height beyond the peak).
     """
     f = _force_fn(field, plate, chi_perp_abs, chi_par_abs, order, memo)
     g = max(g_end, g_start + 1e-3)
@@ -427,9 +419,7 @@ def equilibrium_gap(field: FieldFn, plate: PlateGeometry, chi_perp_abs: float,
 
     References
     ----------
-    .. [1] M. D. Simon and A. K. Geim, J. Appl. Phys. 87, 6200 (2000).
-    .. [2] R. P. Brent, Algorithms for Minimization without Derivatives, Prentice-Hall
-       (1973).
+    Module references [2] (stable float) and [3] (brentq).
     """
     memo = PlaneMemo(field, plate)
     top = lift_curve_range(field, plate, chi_perp_abs, chi_par_abs, weight, g_start, 3e-3, order,

@@ -55,6 +55,7 @@ from typing import Sequence
 import numpy as np
 
 from matdb.physics.fields import MagnetSet
+from matdb.physics.quadrature import gauss_legendre
 
 __all__ = [
     "SUBDIVISION",
@@ -106,10 +107,29 @@ class Cell:
     magnet: int
 
 
-def _quad_points(shape: str, size: Sequence[float], position: Sequence[float],
-                 n: int = N_QUAD) -> tuple[np.ndarray, np.ndarray]:
-    """Interior quadrature points (q, 3) [m] and weights (q,) summing to 1."""
-    x, w = np.polynomial.legendre.leggauss(n)
+def volume_quadrature(shape: str, size: Sequence[float], position: Sequence[float],
+                      n: int = N_QUAD) -> tuple[np.ndarray, np.ndarray]:
+    """Interior points and weights for the volume mean over one magnet or cell.
+
+    Parameters
+    ----------
+    shape : str
+        ``"cuboid"``, ``"cylinder"`` or ``"ring"``.
+    size, position : sequence of float
+        As for :class:`matdb.physics.arrangement.Magnet` [m].
+    n : int
+        Gauss-Legendre points per axis (cylinders and rings add ``N_PHI`` azimuthal
+        points).
+
+    Returns
+    -------
+    (points (q, 3) [m], weights (q,) summing to 1)
+
+    References
+    ----------
+    .. [1] G. H. Golub and J. H. Welsch, Math. Comp. 23, 221 (1969) (Gauss-Legendre).
+    """
+    x, w = gauss_legendre(n)
     w = w / 2.0
     pos = np.asarray(position, dtype=float)
     if shape == "cuboid":
@@ -189,7 +209,7 @@ def interaction_matrix(cells, plate_z: float | None = None, n: int = N_QUAD) -> 
     types: dict = {}
     tid = np.array([types.setdefault((c.shape, tuple(float(v) for v in c.size)), len(types)) for c in cl])
     tlist = list(types)
-    quads = [_quad_points(t[0], t[1], (0.0, 0.0, 0.0), n) for t in tlist]
+    quads = [volume_quadrature(t[0], t[1], (0.0, 0.0, 0.0), n) for t in tlist]
     nq = quads[0][0].shape[0]
     pos = np.array([c.position for c in cl], dtype=float)
     scale = max(max(t[1]) for t in tlist)

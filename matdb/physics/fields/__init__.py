@@ -30,27 +30,17 @@ One file per geometry: :mod:`.cuboid` (:class:`CuboidSet`, :func:`cuboid_B`),
 values on surfaces; :mod:`._common` holds the input checks shared by all of them.
 
 Uniformly polarised, axis-aligned cuboids use the surface-charge solution of
-Engel-Herbert and Hesjedal [1]_ (equivalently Yang et al. [2]_): each component is a
-signed sum over the cuboid's eight corners of one arctangent or one logarithm. Because
-the sum is over corners, touching neighbours share corners, and :class:`CuboidSet`
-evaluates each distinct corner once, with its net signed coefficient (corners whose
-coefficients cancel are dropped).
-
-Axially polarised cylinders use the current-sheet solution of Derby and Olbert [3]_
-with Bulirsch's generalised complete elliptic integral ``cel`` [4]_; rings are an outer
+Engel-Herbert and Hesjedal (2005), equivalently Yang et al. (1990): each component is a
+signed sum over the cuboid's eight corners of one arctangent or one logarithm; touching
+neighbours share corners, and :class:`CuboidSet` evaluates each distinct corner once.
+Axially polarised cylinders use the current-sheet solution of Derby and Olbert (2010)
+with Bulirsch's generalised complete elliptic integral ``cel`` (1969); rings are an outer
 cylinder minus an inner one.
 
 References
 ----------
-.. [1] R. Engel-Herbert and T. Hesjedal, "Calculation of the magnetic stray field of a
-   uniaxial magnetic domain", J. Appl. Phys. 97, 074504 (2005).
-.. [2] Z. J. Yang, T. H. Johansen, H. Bratsberg, G. Helgesen and A. T. Skjeltorp,
-   "Potential and force between a magnet and a bulk Y1Ba2Cu3O7-d superconductor studied
-   by a mechanical pendulum", Supercond. Sci. Technol. 3, 591 (1990).
-.. [3] N. Derby and S. Olbert, "Cylindrical magnets and ideal solenoids",
-   Am. J. Phys. 78, 229-235 (2010).
-.. [4] R. Bulirsch, "Numerical calculation of elliptic integrals and elliptic
-   functions. III", Numer. Math. 13, 305-315 (1969).
+The full entries are in the docstrings of :mod:`.cuboid` and :mod:`.cylinder`, beside
+the formulas that use them.
 """
 
 from __future__ import annotations
