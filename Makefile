@@ -32,8 +32,9 @@ test: install lint
 report-page: install
 	$(BIN)/python scripts/report_page.py
 
+# every speed goal in one table (BENCH_ARGS: e.g. --skip-80mm, --repeats 5, --details)
 bench: install
-	$(BIN)/python scripts/bench.py
+	nice -n 10 $(BIN)/python scripts/bench.py $(BENCH_ARGS)
 
 clean:
 	rm -rf $(VENV) build *.egg-info test-artifacts

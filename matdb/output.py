@@ -7,9 +7,10 @@ import math
 import os
 import sys
 from pathlib import Path
-from typing import Any, Iterable, Sequence
+from typing import TYPE_CHECKING, Any, Iterable, Sequence
 
-import pandas as pd
+if TYPE_CHECKING:
+    import pandas as pd
 
 from matdb.errors import InputError
 
@@ -52,6 +53,8 @@ def csv_text(data, columns: Sequence[str] | None = None, float_format: str | Non
     written exactly (``repr``) unless ``float_format`` is given. The one CSV writer behind
     every download and every ``--format csv``.
     """
+    import pandas as pd  # lazy: tables and JSON need no pandas (keeps `matdb materials` start-up light)
+
     df = data.copy() if isinstance(data, pd.DataFrame) else pd.DataFrame(list(data))
     if columns:
         df = df[[c for c in columns if c in df.columns]]
@@ -95,7 +98,7 @@ def add_format_argument(parser, choices: Sequence[str] = FORMATS, default: str =
 
 def _json_default(o: Any):
     try:
-        import numpy as np
+        import numpy as np  # lazy: keeps numpy off the CLI start-up path (only numbers from numpy need it)
 
         if isinstance(o, np.generic):
             return o.item()
@@ -214,7 +217,7 @@ def check_output_path(path, field: str) -> Path:
     return p
 
 
-def records(df: pd.DataFrame) -> list[dict]:
+def records(df: "pd.DataFrame") -> list[dict]:
     """DataFrame rows as plain dicts with None for missing values."""
     out = []
     for r in df.to_dict(orient="records"):

@@ -55,6 +55,7 @@ def run() -> dict:
             "best_margin": best.get("margin"), "start_margin": (res2.start or {}).get("margin"),
             "improvement_pct": None if res2.improvement is None else 100 * res2.improvement,
             "load_average_1min_before": load0, "load_average_1min_after": os.getloadavg()[0],
+            "cores": os.cpu_count(),
         }
     finally:
         if old is None:

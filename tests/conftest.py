@@ -49,7 +49,8 @@ def run_cli(capsys):
 _RECORDER = """
 import sys, time
 from pathlib import Path
-from matdb.cli import main            # the slow imports happen before the start signal
+import matdb.cli.lab                 # the slow imports (the record command's module) happen before the start signal
+from matdb.cli import main
 go, i, tag = Path(sys.argv[1]), sys.argv[2], sys.argv[3]
 Path(sys.argv[1] + '.ready' + i).touch()
 while not go.exists():

@@ -43,6 +43,14 @@ def test_a_command_imports_only_its_own_module():
     assert "scipy" not in mods and "pint" not in mods
 
 
+def test_table_command_needs_no_pandas_pint_or_scipy():
+    # regression check: listing materials reads the database and prints; no unit registry,
+    # no DataFrame, no physics (the session's database is seeded on first use)
+    main(["seed"])
+    mods = _modules_imported_by(["materials"])
+    assert not {"pandas", "pint", "scipy"} & set(mods)
+
+
 def test_help_lists_every_command(capsys):
     assert main(["--help"]) == 0
     out = capsys.readouterr().out

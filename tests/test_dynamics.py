@@ -386,8 +386,9 @@ def test_conductivity_lookup_and_override():
 
 
 def test_record_q_requires_source_and_derives_ring_down(fresh_db):
-    with pytest.raises(InputError, match="--source"):
+    with pytest.raises(InputError, match="source") as info:
         record_q_value("pyrolytic-graphite", q=40, source="", url=fresh_db)
+    assert info.value.field == "source"
     assert list_q_values(url=fresh_db) == []
     row = record_q_value("pyrolytic-graphite", q="40", frequency="16 Hz", pressure="1e-3 Pa",
                          mode="vertical", source="demo ring-down, notebook 2 p. 5", url=fresh_db)

@@ -8,6 +8,7 @@ import pytest
 
 from matdb.errors import DataError, InputError, MatdbError, NotFoundError, PhysicsError
 from matdb.units import parse_length
+from webapp._shared import error_text
 
 
 def test_field_kept_apart_and_named_in_text():
@@ -39,3 +40,12 @@ def test_units_errors_carry_the_field():
     with pytest.raises(InputError) as info:
         parse_length("12 kg", "magnets.size")
     assert info.value.field == "magnets.size"
+
+
+def test_page_shows_the_field_by_its_label():
+    # the page's words for a library field (regression check of webapp._shared's mapping)
+    e = InputError("expected a temperature such as '20 degC', got 'hot'", field="conditions.temp_max")
+    assert error_text(e) == "hottest temperature: expected a temperature such as '20 degC', got 'hot'"
+    assert error_text(e, "compare").startswith("compare: hottest temperature: ")
+    assert error_text(InputError("bad", field="some.key")) == "some.key: bad"
+    assert error_text(PhysicsError("no equilibrium")) == "no equilibrium"

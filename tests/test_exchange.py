@@ -196,7 +196,7 @@ def test_escape_round_trip_and_neutralises_formulas(text):
     # OWASP "CSV Injection": a cell must not begin with = + - @ tab or CR when a spreadsheet opens it
     esc = output.escape_cell(text)
     assert output.unescape_cell(esc) == text
-    assert not esc or esc[0] not in "=+-@\t\r"
+    assert not esc.startswith(tuple("=+-@\t\r"))
 
 
 def test_history_csv_is_escaped_too(fresh_db, run_cli):

@@ -157,7 +157,7 @@ def test_materials_json_shows_the_measured_value_in_use(fresh_db, run_cli, recor
 
 
 def test_newest_measurement_by_date_then_entry_is_used(fresh_db, run_cli, record_json):
-    # rule stated in issue 7 and matdb.data.catalog.choose_preferred
+    # rule of matdb.data.catalog.choose_preferred (regression check)
     new = record_json("material", "bismuth", "--chi", "-1.60e-4", "--date", "2026-10-01", "--source", "a")
     old = record_json("material", "bismuth", "--chi", "-1.50e-4", "--date", "2025-10-01", "--source", "b")
     assert catalog.get_material("bismuth").value_id == new["value_id"]
@@ -204,7 +204,7 @@ def test_history_json_contract_keys(fresh_db, run_cli, record_json):
     assert code == 0
     rows = json.loads(out)
     for key in ("value_id", "value_kind", "chi_si", "source", "measured_by", "date", "method", "uncertainty",
-                "preferred", "retracted"):  # keys promised in issue 7
+                "preferred", "retracted"):  # JSON contract keys (regression check)
         assert all(key in r for r in rows), key
     assert sum(r["preferred"] for r in rows) == 1
     assert [r["value_id"] for r in rows] == sorted(r["value_id"] for r in rows)

@@ -1,4 +1,4 @@
-"""Provenance of the stored values (issue 14): every published number carries a status
+"""Provenance of the stored values: every published number carries a status
 (verified | corrected | unverified) and, when checked, a locator; the commands show them."""
 
 from __future__ import annotations

@@ -168,7 +168,7 @@ def test_numeric_columns_hold_plain_numbers(materials, sus, grades):
     }
     for name, (df, cols) in numeric.items():
         for c in cols:
-            assert pd.api.types.is_float_dtype(df[c]) or pd.api.types.is_integer_dtype(df[c]), (name, c)
+            assert df[c].dtype.kind in "fiu", (name, c)  # float or (unsigned) integer
 
 
 def test_every_source_key_resolves(sources, materials, sus, grades):
@@ -213,7 +213,7 @@ def test_every_value_carries_a_status_not_a_memory_note(sources, provenance, pro
 
 
 def test_corrections_are_listed_with_old_and_new_values(provenance):
-    # The closing note of issue 14 lists every correction: CHECKS.md has one line per
+    # seed_data/CHECKS.md lists every correction (regression check): one line per
     # corrected number with its old value (also kept in the provenance note, "was <old>").
     checks = (SEED / "CHECKS.md").read_text(encoding="utf-8")
     corrected = provenance[provenance.status == "corrected"]
@@ -452,7 +452,7 @@ def test_temperature_coefficients_by_family(grades):
     fam = grades.groupby("family")
     # Sintered NdFeB Br: -0.09 to -0.13 %/K (common practice, no source). Hcj: -(0.34-0.75)
     # %/C over 20-250 C (sourcemagnets family table); the Shanghai grade table prints -0.76 for
-    # plain N grades over 20-100 C (bound widened for issue 14, which took that table's value).
+    # plain N grades over 20-100 C (bound widened when the seed took that table's value).
     assert fam.get_group("NdFeB").alpha_br_pct_per_k.between(-0.13, -0.09).all()
     assert fam.get_group("NdFeB").beta_hcj_pct_per_k.between(-0.8, -0.34).all()
     # SmCo Br: -0.02 to -0.05 %/K (common practice, no source).
@@ -507,7 +507,7 @@ def test_ndfeb_suffix_ordering(grades):
         assert g.hcj_ka_m.is_monotonic_increasing and g.hcj_ka_m.is_unique, cls
         assert g.max_temp_c.is_monotonic_increasing and g.max_temp_c.is_unique, cls
         # Same N-number = about the same remanence class. The producers' tables the rows were
-        # checked against (issue 14) print ranges up to 0.02 T apart for one class.
+        # checked against print ranges up to 0.02 T apart for one class.
         assert g.br_t.max() - g.br_t.min() <= 0.021 and g.br_min_t.max() - g.br_min_t.min() <= 0.031, cls
 
 

@@ -69,7 +69,7 @@ def test_record_prefer_retract(backend, run_cli, export_text):
                              "--source", "bad holder", "--format", "json")
     assert code == 0, err
     second = json.loads(out)["value_id"]
-    # newest measured value is in use (rule of issue 7)
+    # newest measured value is in use (catalog.choose_preferred; regression check)
     assert catalog.get_material("bismuth").value_id == second
     assert run_cli("prefer", "bismuth", str(first))[0] == 0
     assert catalog.get_material("bismuth").value_id == first

@@ -106,8 +106,9 @@ def test_stock_list(tmp_path):
     p.write_text("shape,size\nsphere,3 mm\n")
     with pytest.raises(InputError, match="line 2"):
         S.read_stock(p)
-    with pytest.raises(InputError, match="--stock"):
+    with pytest.raises(InputError, match="stock") as info:
         S.read_stock(tmp_path / "missing.csv")
+    assert info.value.field == "stock"
 
 
 def test_objective_checked(run_cli):

@@ -39,6 +39,40 @@ def plain(text) -> str:
     return "  \n".join(one(line) for line in str(text).split("\n"))
 
 
+# the library names the field at fault (MatdbError.field); the page shows it by its label
+FIELD_LABELS = {
+    "chi": "chi", "chi_perp": "chi along the c axis", "chi_par": "chi in the basal plane",
+    "density": "density", "molar_mass": "molar mass", "temperature": "temperature",
+    "uncertainty": "uncertainty", "source": "source note", "date": "date", "method": "method",
+    "name": "name", "family": "magnet family", "br": "Br", "hcj": "Hcj", "alpha": "temperature coefficient of Br",
+    "max_temp": "maximum working temperature", "reason": "reason",
+    "mass": "payload mass", "total_mass": "total mass", "footprint": "footprint", "plate_size": "plate size",
+    "magnet_envelope": "magnet envelope", "envelope": "magnet envelope", "min_gap": "smallest gap",
+    "temp_min": "coldest temperature", "temp_max": "hottest temperature", "budget": "budget",
+    "weights": "score weights", "thickness": "plate thickness", "payload_height": "payload height",
+    "pressure": "pressure", "min_q": "smallest Q", "payload_range": "payload range",
+    "conditions.temp_min": "coldest temperature", "conditions.temp_max": "hottest temperature",
+    "magnets.size": "magnet size", "magnets.grade": "magnet grade", "magnets.rows": "magnet rows",
+    "magnets.cols": "magnet columns", "magnets.spacing": "gap between magnets", "plate.material": "plate material",
+    "plate.thickness": "plate thickness", "plate.size": "plate size", "plate.cover": "cover sheet",
+    "payload.mass": "payload mass", "payload.height": "payload height",
+}
+
+
+def field_label(field: str | None) -> str | None:
+    """The page's label for a library field name (a design-file key without one stays as it is)."""
+    if not field:
+        return None
+    return FIELD_LABELS.get(field, field)
+
+
+def error_text(exc: MatdbError, where: str | None = None) -> str:
+    """One line for a matdb error, its field shown by the page's label; ``where`` (optional)
+    names the place on the page it belongs to."""
+    text = exc.shown_as(field_label(exc.field))
+    return f"{where}: {text}" if where else text
+
+
 def csv_bytes(df) -> bytes:
     """A table as CSV for ``st.download_button``: the same escaping as every CSV matdb writes."""
     return csv_text(df).encode("utf-8")
@@ -52,7 +86,7 @@ def run_page(page) -> None:
     try:
         page.run()
     except MatdbError as exc:
-        st.error(plain(str(exc).replace("\n", " ")))
+        st.error(plain(error_text(exc)))
 
 
 def db_url() -> str:
@@ -79,7 +113,7 @@ def shown_errors(where: str | None = None):
     try:
         yield
     except MatdbError as exc:
-        st.error(plain(f"{where}: {exc}" if where else str(exc)))
+        st.error(plain(error_text(exc, where)))
 
 
 # ---------------------------------------------------------------------------
@@ -133,7 +167,7 @@ def sources_expander(url: str, key: str) -> None:
         try:
             src = sources_table(url)
         except MatdbError as exc:
-            st.error(plain(f"sources: {exc}"))
+            st.error(plain(error_text(exc, "sources")))
             return
         tot = src[["verified", "corrected", "unverified"]].sum()
         n = int(tot.sum())
@@ -208,7 +242,8 @@ def checked(parse, value: str, where: str):
     try:
         return parse(value)
     except MatdbError as exc:
-        st.error(plain(f"{where}: {exc}"))
+        # ``where`` is this field's own label: it stands in for the library's field name
+        st.error(plain(exc.shown_as(where) if exc.field else f"{where}: {exc}"))
         return None
 
 

@@ -386,21 +386,21 @@ def record_q_value(material_id: str, *, q: Any = None, ring_down: Any = None,
     from matdb.data.models import Material, QualityFactorValue
     from matdb.units import parse_number, parse_quantity, parse_temperature
 
-    note_src = require_source(source, "--source")
+    note_src = require_source(source, "source")
     qv = None
     if q is not None and str(q).strip() != "":
-        qv = parse_number(q, "--q")
+        qv = parse_number(q, "q")
         if not (qv > 0 and math.isfinite(qv)):
-            raise InputError(f"--q: expected a positive quality factor, got {q!r}")
-    tau = parse_quantity(ring_down, "s", "--ring-down", positive=True) \
+            raise InputError(f"expected a positive quality factor, got {q!r}", field="q")
+    tau = parse_quantity(ring_down, "s", "ring_down", positive=True) \
         if ring_down not in (None, "") else None
-    f = parse_quantity(frequency, "Hz", "--frequency", positive=True) \
+    f = parse_quantity(frequency, "Hz", "frequency", positive=True) \
         if frequency not in (None, "") else None
-    p = parse_quantity(pressure, "Pa", "--pressure", positive=True) \
+    p = parse_quantity(pressure, "Pa", "pressure", positive=True) \
         if pressure not in (None, "") else None
-    t_k = parse_temperature(temperature, "--temperature") if temperature not in (None, "") else None
+    t_k = parse_temperature(temperature, "temperature") if temperature not in (None, "") else None
     if qv is None and tau is None:
-        raise InputError("--q: give a measured Q (--q 1200) or a ring-down time (--ring-down '2.5 s')")
+        raise InputError("give a measured Q (--q 1200) or a ring-down time (--ring-down '2.5 s')", field="q")
     if f is not None:
         if qv is None:
             qv = math.pi * f * tau

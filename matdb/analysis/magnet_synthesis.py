@@ -302,8 +302,8 @@ def _grades(families, temperature_k):
     gs = [g for g in list_grades() if (families is None or g.family in families)
           and (g.max_temp_c is None or g.max_temp_c >= kelvin_to_celsius(temperature_k))]
     if not gs:
-        raise InputError(f"--family: no magnet grade of {', '.join(families or [])} is rated for "
-                         f"{kelvin_to_celsius(temperature_k):.0f} C")
+        raise InputError(f"no magnet grade of {', '.join(families or [])} is rated for "
+                         f"{kelvin_to_celsius(temperature_k):.0f} C", field="family")
     # keep the grades no other beats on both remanence (up) and price (down)
     out = []
     for g in gs:
@@ -387,10 +387,10 @@ def search(req: FMRequest, progress: Optional[Callable[[float, str], None]] = No
         try:
             m = get_material(mid)
         except Exception as exc:  # NotFoundError -> one line naming the option
-            raise InputError(f"--plates: {exc}") from exc
+            raise InputError(f"{exc}", field="plates") from exc
         cz, ch = float(m.chi_vertical), float(m.chi_horizontal)
         if not (cz < 0 and ch < 0):
-            raise InputError(f"--plates: {mid!r} is not diamagnetic; the plates need a negative susceptibility")
+            raise InputError(f"{mid!r} is not diamagnetic; the plates need a negative susceptibility", field="plates")
         coeff = m.temp_coeff_per_k or 0.0
         mats.append((m.id, cz * (1 + coeff * dt), ch * (1 + coeff * dt), m.density_kg_m3,
                      m.price_usd_per_kg if m.price_usd_per_kg is not None else np.nan))

@@ -91,17 +91,17 @@ def read_stock(path) -> tuple[StockItem, ...]:
     try:
         text = p.read_text(encoding="utf-8")
     except OSError as exc:
-        raise InputError(f"--stock: cannot read {str(p)!r}: {exc.strerror or exc}") from None
+        raise InputError(f"cannot read {str(p)!r}: {exc.strerror or exc}", field="stock") from None
     rows = list(csv.DictReader(text.splitlines()))
     if not rows or "shape" not in rows[0] or "size" not in rows[0]:
-        raise InputError(f"--stock: expected a CSV with columns shape,size in {str(p)!r}")
+        raise InputError(f"expected a CSV with columns shape,size in {str(p)!r}", field="stock")
     out = []
     for i, r in enumerate(rows, start=2):
         shape = (r.get("shape") or "").strip().lower()
         if shape not in ("cuboid", "cylinder"):
-            raise InputError(f"--stock: line {i}: expected shape cuboid or cylinder, got {shape!r}")
+            raise InputError(f"line {i}: expected shape cuboid or cylinder, got {shape!r}", field="stock")
         n = 3 if shape == "cuboid" else 2
-        size = A.parse_dimensions(r.get("size") or "", n, f"--stock: line {i}: size",
+        size = A.parse_dimensions(r.get("size") or "", n, f"stock, line {i}, size",
                                   "10 x 10 x 5 mm" if n == 3 else "12.7 x 6.35 mm")
         out.append(StockItem(shape, tuple(size)))
     return tuple(out)
@@ -577,11 +577,11 @@ def optimise(req: A.AdviceRequest, *, objective: str = "margin", min_margin: flo
     """
     t0 = time.perf_counter()
     if objective not in OBJECTIVES:
-        raise InputError(f"--objective: expected one of {', '.join(OBJECTIVES)}, got {objective!r}")
+        raise InputError(f"expected one of {', '.join(OBJECTIVES)}, got {objective!r}", field="objective")
     if objective == "cost":
         min_margin = 1.0 if min_margin is None else float(min_margin)
         if not (math.isfinite(min_margin) and min_margin > 0):
-            raise InputError(f"--min-margin: expected a positive number, got {min_margin!r}")
+            raise InputError(f"expected a positive number, got {min_margin!r}", field="min_margin")
     else:
         min_margin = 1.0
     prog = progress or (lambda f, t: None)
@@ -727,7 +727,7 @@ def records(result: OptimiseResult) -> list[dict]:
 def save(result: OptimiseResult, path, index: int = 0) -> Path:
     """Write design ``index`` (default the best) as a design file ``matdb levitate`` reads."""
     if not result.rows:
-        raise InputError("--save: no design to save")
+        raise InputError("no design to save", field="save")
     r = result.rows[index]
     mat = catalog.get_material(r["material"])
     grade = catalog.get_grade(r["grade"])

@@ -9,11 +9,14 @@ from __future__ import annotations
 
 import sys
 
+from matdb.analysis.dynamics import analyse_dynamics, record_q_value
 from matdb.cli import summary
-from matdb.errors import InputError
-from matdb.output import add_format_argument, emit, to_json
-from matdb.units import parse_length, parse_quantity, parse_temperature
 from matdb.constants import kelvin_to_celsius
+from matdb.data.catalog import conductivities_df
+from matdb.design import load_design
+from matdb.errors import InputError
+from matdb.output import add_format_argument, emit, records, to_json
+from matdb.units import parse_length, parse_quantity, parse_temperature
 
 MODE_COLUMNS = ("name", "frequency_hz", "q", "q_eddy", "q_air", "ring_down_s",
                 "dominant_damping", "noise_m_s2_rthz", "noise_micro_g_rthz")
@@ -67,9 +70,6 @@ def format_dynamics(r: dict) -> str:
 
 
 def cmd_dynamics(args) -> int:
-    from matdb.design import load_design
-    from matdb.analysis.dynamics import analyse_dynamics
-
     pressure = parse_pressure(args.pressure) if args.pressure else 101325.0
     temp = parse_temperature(args.temp, "--temp") if args.temp else None
     mesh = parse_length(args.mesh_size, "--mesh-size") if args.mesh_size else None
@@ -89,9 +89,6 @@ def cmd_dynamics(args) -> int:
 
 
 def cmd_conductivities(args) -> int:
-    from matdb.data.catalog import conductivities_df
-    from matdb.output import records
-
     df = conductivities_df()
     cols = ["material", "sigma_in_plane_s_m", "sigma_across_s_m", "quality", "source_key"]
     emit(records(df), args.format, columns=None if args.format == "json" else cols)
@@ -99,8 +96,6 @@ def cmd_conductivities(args) -> int:
 
 
 def cmd_record_q(args) -> int:
-    from matdb.analysis.dynamics import record_q_value
-
     row = record_q_value(args.material, q=args.q, ring_down=args.ring_down,
                          frequency=args.frequency, pressure=args.pressure,
                          temperature=args.temperature, mode=args.mode or "",

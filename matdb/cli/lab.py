@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import sys
 
-from matdb.analysis import inversions
 from matdb.cli import summary
+from matdb.cli.dynamics import register_record_q
 from matdb.data import exchange, lab_store
 from matdb.progress import progress_bar
 from matdb.output import add_format_argument, check_output_path, emit
@@ -51,8 +51,6 @@ def register(sub) -> None:
     _common_provenance(pm)
     add_format_argument(pm, choices=("table", "json"))
     pm.set_defaults(func=cmd_record_material)
-
-    from matdb.cli.dynamics import register_record_q
 
     register_record_q(rsub)
 
@@ -136,6 +134,8 @@ def cmd_record_material(args) -> int:
                   measured_by=args.measured_by, date=args.date, method=args.method, molar_mass=args.molar_mass,
                   name=args.name, allow_paramagnetic=args.allow_paramagnetic)
     if args.from_float_gap or args.design:
+        from matdb.analysis import inversions  # lazy: the plate physics loads only for a derived value
+
         row = inversions.record_chi_from_float_gap(args.id, args.from_float_gap, args.design, **fields)
     else:
         row = lab_store.record_material_value(args.id, **fields)
@@ -150,6 +150,8 @@ def cmd_record_magnet(args) -> int:
                   family=args.family, source=args.source, measured_by=args.measured_by, date=args.date,
                   method=args.method)
     if args.surface_field or args.shape or args.size or args.probe_offset:
+        from matdb.analysis import inversions  # lazy: the field physics loads only for a derived value
+
         row = inversions.record_magnet_from_surface_field(args.grade, args.surface_field, args.shape, args.size,
                                                           args.probe_offset, **fields)
     else:

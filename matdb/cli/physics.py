@@ -16,13 +16,15 @@ from pathlib import Path
 
 import numpy as np
 
+from matdb.analysis.levitate import _mm3, format_intervals, levitate
 from matdb.cli import summary
+from matdb.constants import kelvin_to_celsius
+from matdb.design import load_design, parse_payload_range
 from matdb.errors import InputError
 from matdb.limits import MAX_FILE_BYTES, MAX_POINTS, check_count, check_magnitude, read_text_limited
 from matdb.output import add_format_argument, emit, to_json
 from matdb.reporting.schedule import SCHEDULE_COLUMNS, payload_steps, schedule_records
 from matdb.units import parse_length, parse_number, parse_quantity, parse_temperature
-from matdb.constants import kelvin_to_celsius
 
 FIELD_COLUMNS = ("x_m", "y_m", "z_m", "bx_t", "by_t", "bz_t")
 
@@ -84,8 +86,6 @@ def read_points_csv(path: str) -> np.ndarray:
 
 
 def _load(path: str):
-    from matdb.design import load_design
-
     return load_design(path)
 
 
@@ -109,8 +109,6 @@ def cmd_field(args) -> int:
         raise InputError("--at: give at least one point (--at '0,0,1 mm') or --points FILE.csv")
     check_count(len(pts), MAX_POINTS, "--at/--points", "points")
     temp = parse_temperature(args.temp, "--temp") if args.temp else None
-    from matdb.design import load_design
-
     design = load_design(args.design, need_plate=False)  # a field needs only the magnets
     emit(field_records(design, np.asarray(pts, dtype=float), temp), args.format,
          columns=list(FIELD_COLUMNS))
@@ -131,16 +129,12 @@ def _num(v, scale: float = 1.0, digits: int = 4, unit: str = "") -> str:
 def _point_mm(p) -> str:
     if not p:
         return "none found"
-    from matdb.analysis.levitate import _mm3
-
     return f"({_mm3(p[0])}, {_mm3(p[1])}) mm"
 
 
 def _intervals_mm(iv) -> str:
     if iv is None:
         return "-"
-    from matdb.analysis.levitate import format_intervals
-
     return format_intervals(iv)
 
 
@@ -233,8 +227,6 @@ def format_levitate(r: dict) -> str:
 
 
 def _payloads(args) -> np.ndarray | None:
-    from matdb.design import parse_payload_range
-
     if getattr(args, "payload_range", None) is None:
         if getattr(args, "steps", None) is not None:
             raise InputError("--steps: give it with --payload-range")
@@ -247,8 +239,6 @@ def _payloads(args) -> np.ndarray | None:
 
 
 def cmd_levitate(args) -> int:
-    from matdb.analysis.levitate import levitate
-
     temp = parse_temperature(args.temp, "--temp") if args.temp else None
     gap = parse_length(args.gap, "--gap") if args.gap else None
     payloads = _payloads(args)

@@ -16,6 +16,8 @@ from pathlib import Path
 
 from matdb.cli import summary
 from matdb.errors import InputError
+from matdb.reporting.drawing import drawing_bytes
+from matdb.reporting.report import PAPERS, report_bytes
 
 REPORT_KINDS = {".html": "html", ".htm": "html", ".pdf": "pdf"}
 DRAWING_KINDS = {".dxf": "dxf", ".svg": "svg"}
@@ -56,8 +58,6 @@ def write_atomic(path: str, data: bytes) -> Path:
 
 
 def cmd_report(args) -> int:
-    from matdb.reporting.report import PAPERS, report_bytes
-
     kind = _kind(args.output, REPORT_KINDS)
     if args.paper not in PAPERS:
         raise InputError(f"--paper: expected one of {', '.join(PAPERS)}, got {args.paper!r}")
@@ -69,8 +69,6 @@ def cmd_report(args) -> int:
 
 
 def cmd_drawing(args) -> int:
-    from matdb.reporting.drawing import drawing_bytes
-
     kind = _kind(args.output, DRAWING_KINDS)
     text = _read(args.design)
     data = drawing_bytes(text, kind, source_name=Path(args.design).name)

@@ -10,10 +10,13 @@ from __future__ import annotations
 
 import datetime as _dt
 import difflib
+import re
 from dataclasses import asdict, dataclass
-from typing import Iterable, Optional
+from typing import TYPE_CHECKING, Iterable, Optional
 
-import pandas as pd
+if TYPE_CHECKING:
+    import pandas as pd
+
 from sqlmodel import Session, select
 
 from matdb.constants import kelvin_to_celsius
@@ -216,8 +219,6 @@ _SUFFIX_ORDER = {"": 0, "M": 1, "H": 2, "SH": 3, "UH": 4, "EH": 5, "AH": 6}
 
 def grade_sort_key(g) -> tuple:
     """Family, then the usual temperature-suffix order (N, M, H, SH, UH, EH, AH), then Br."""
-    import re
-
     m = re.match(r"^N(\d+)([A-Z]*)$", g.grade)
     suffix = _SUFFIX_ORDER.get(m.group(2), 9) if m else 0
     return (_FAMILY_ORDER.get(g.family, 9), suffix, g.br_t, g.grade)
@@ -277,8 +278,15 @@ def grade_record(g: GradeProps) -> dict:
     return {k: d[k] for k in first} | {k: v for k, v in d.items() if k not in first}
 
 
-def magnets_df(url: str | None = None) -> pd.DataFrame:
-    return pd.DataFrame([grade_record(g) for g in list_grades(url)])
+def _frame(rows, columns=None) -> "pd.DataFrame":
+    """Rows as a DataFrame (for the page)."""
+    import pandas as pd  # lazy: the CLI's table commands need no pandas (keeps start-up light)
+
+    return pd.DataFrame(rows, columns=columns)
+
+
+def magnets_df(url: str | None = None) -> "pd.DataFrame":
+    return _frame([grade_record(g) for g in list_grades(url)])
 
 
 def material_values(material_id: str, url: str | None = None) -> list[dict]:
@@ -556,7 +564,7 @@ def get_conductivity(material_id: str, url: str | None = None) -> Optional[Condu
                                  v.note, int(v.id))
 
 
-def conductivities_df(url: str | None = None) -> pd.DataFrame:
+def conductivities_df(url: str | None = None) -> "pd.DataFrame":
     """Every material's conductivity in use (materials without one are left out)."""
     rows = []
     for m in list_materials(url):
@@ -567,6 +575,6 @@ def conductivities_df(url: str | None = None) -> pd.DataFrame:
                      "sigma_in_plane_s_m": c.sigma_in_plane_s_m,
                      "sigma_across_s_m": c.sigma_across_s_m, "quality": c.quality,
                      "source_key": c.source_key, "source": c.source, "note": c.note})
-    return pd.DataFrame(rows, columns=["material", "name", "sigma_in_plane_s_m",
+    return _frame(rows, columns=["material", "name", "sigma_in_plane_s_m",
                                        "sigma_across_s_m", "quality", "source_key", "source",
                                        "note"])

@@ -13,6 +13,7 @@ from contextlib import contextmanager
 from pathlib import Path
 from typing import Iterator
 
+import platformdirs
 from sqlalchemy import event
 from sqlalchemy.engine import Engine
 from sqlmodel import Session, create_engine
@@ -29,8 +30,6 @@ def default_url() -> str:
     url = os.environ.get("MATDB_URL", "").strip()
     if url:
         return url
-    import platformdirs
-
     folder = Path(platformdirs.user_data_dir("matdb", appauthor=False))
     folder.mkdir(parents=True, exist_ok=True)
     return f"sqlite:///{folder / 'matdb.sqlite'}"

@@ -39,9 +39,17 @@ from contextlib import contextmanager
 from pathlib import Path
 from typing import Iterator, Optional
 
+from alembic import command
+from alembic.autogenerate import compare_metadata
+from alembic.config import Config
+from alembic.runtime.migration import MigrationContext
+from alembic.script import ScriptDirectory
 from sqlalchemy import create_engine, inspect, text
 from sqlalchemy.engine import Connection, Engine
+from sqlmodel import SQLModel
 
+from matdb.data import models  # noqa: F401  (registers the tables)
+from matdb.data.seed import seed_database
 from matdb.errors import DataError
 
 try:  # POSIX; elsewhere concurrent first use relies on create-if-absent being tolerated
@@ -59,8 +67,6 @@ _PG_LOCK_KEY = 0x6D617464  # "matd": one advisory lock for schema work on Postgr
 
 def alembic_config(url: Optional[str] = None):
     """An Alembic ``Config`` pointing at the migrations shipped inside the package."""
-    from alembic.config import Config
-
     cfg = Config()
     cfg.set_main_option("script_location", str(MIGRATIONS_DIR))
     cfg.set_main_option("path_separator", "os")
@@ -71,8 +77,6 @@ def alembic_config(url: Optional[str] = None):
 
 @functools.lru_cache(maxsize=1)
 def _script():
-    from alembic.script import ScriptDirectory
-
     return ScriptDirectory.from_config(alembic_config())
 
 
@@ -91,17 +95,11 @@ def known_revisions() -> set[str]:
 
 def current_revision(conn: Connection) -> Optional[str]:
     """Revision stamped in the database (None: not managed by Alembic yet)."""
-    from alembic.runtime.migration import MigrationContext
-
     heads = MigrationContext.configure(conn).get_current_heads()
     return heads[0] if heads else None
 
 
 def _metadata():
-    from sqlmodel import SQLModel
-
-    from matdb.data import models  # noqa: F401  (registers the tables)
-
     return SQLModel.metadata
 
 
@@ -112,8 +110,6 @@ def _expected_columns() -> dict[str, list[str]]:
 @functools.lru_cache(maxsize=1)
 def _baseline_columns() -> dict[str, list[str]]:
     """Tables and columns of revision 0001_baseline (built in a scratch in-memory database)."""
-    from alembic import command
-
     eng = create_engine("sqlite://")
     try:
         with eng.begin() as conn:
@@ -213,8 +209,6 @@ def _ready(engine: Engine, head: str, seed: bool) -> bool:
 
 
 def _upgrade(engine: Engine, target: str, stamp_first: Optional[str] = None) -> None:
-    from alembic import command
-
     with engine.begin() as conn:
         cfg = alembic_config()
         cfg.attributes["connection"] = conn
@@ -261,8 +255,6 @@ def ensure_schema(engine: Engine, *, seed: bool = True) -> Optional[str]:
             # first use: load seed_data/; after an upgrade: load it again so new tables get their
             # published rows (idempotent: published rows updated in place, lab rows and
             # preferences never touched)
-            from matdb.data.seed import seed_database
-
             seed_database(engine)
     if backup is not None:
         log.warning("matdb: database upgraded to schema %s; the previous file was copied to %s", head, backup)
@@ -284,8 +276,6 @@ def new_revision(message: str, *, autogenerate: bool = True) -> Path:
     With ``autogenerate`` the operations are worked out by comparing the models with a
     scratch SQLite database built at head; review the file before committing it.
     """
-    from alembic import command
-
     head = head_revision()
     number = max(int(r.split("_", 1)[0]) for r in known_revisions() if r.split("_", 1)[0].isdigit()) + 1
     rev_id = f"{number:04d}_{_slug(message)}"
@@ -308,14 +298,9 @@ def new_revision(message: str, *, autogenerate: bool = True) -> Path:
 
 def model_differences() -> list:
     """Differences between the models and a database built by the migrations (empty: agree)."""
-    from alembic.autogenerate import compare_metadata
-    from alembic.runtime.migration import MigrationContext
-
     eng = create_engine("sqlite://")
     try:
         with eng.begin() as conn:
-            from alembic import command
-
             cfg = alembic_config()
             cfg.attributes["connection"] = conn
             command.upgrade(cfg, head_revision())
@@ -326,7 +311,7 @@ def model_differences() -> list:
 
 
 def main(argv: Optional[list[str]] = None) -> int:
-    from matdb.data.db import default_url, reset_engines
+    from matdb.data.db import default_url, reset_engines  # lazy: db imports this module (cycle)
 
     p = argparse.ArgumentParser(prog="python -m matdb.data.migrate", description="matdb schema revisions (Alembic)")
     sub = p.add_subparsers(dest="cmd", required=True)

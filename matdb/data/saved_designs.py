@@ -48,7 +48,7 @@ def _clean_note(note: Any) -> str:
 
 
 def _check_text(text: Any) -> str:
-    from matdb.design import load_design_text
+    from matdb.design import load_design_text  # lazy: the data layer calls up into design only here
 
     if not isinstance(text, str) or not text.strip():
         raise InputError("expected the design-file text (TOML), got nothing", field="design")
@@ -183,8 +183,8 @@ def _names(idents: Sequence[Any]) -> list:
 
 
 def _default_evaluate(text: str) -> dict:
+    from matdb.analysis.levitate import levitate  # lazy: an upward call (data -> analysis), default only
     from matdb.design import load_design_text
-    from matdb.analysis.levitate import levitate
 
     return levitate(load_design_text(text))
 

@@ -13,6 +13,7 @@ import csv
 import math
 import os
 from dataclasses import dataclass, field
+from importlib.resources import files
 from pathlib import Path
 
 from sqlalchemy.engine import Engine
@@ -115,8 +116,6 @@ def seed_dir() -> Path:
         if (cand / FILES["sources"]).exists():
             return cand
     try:
-        from importlib.resources import files
-
         p = Path(str(files("matdb.seed_data")))
         if (p / FILES["sources"]).exists():
             return p

@@ -14,6 +14,9 @@ import math
 import altair as alt
 import numpy as np
 import pandas as pd
+import vl_convert as vlc
+
+from matdb.reporting.presentation import lift_curve_df
 
 LIFT_COLOUR = "#3d6fb6"
 WEIGHT_COLOUR = "#b2182b"
@@ -27,8 +30,6 @@ def lift_chart(result: dict, height: int = 300, width: int | str = "container") 
 
     ``result`` is :func:`matdb.analysis.levitate.levitate_plate` output.
     """
-    from matdb.reporting.presentation import lift_curve_df
-
     curve = lift_curve_df(result)
     lift = alt.Chart(curve).mark_line(color=LIFT_COLOUR, strokeWidth=2).encode(
         x=alt.X("gap_mm:Q", title="gap above the magnets (mm)"),
@@ -171,8 +172,6 @@ def to_svg(chart, width: int | None = None) -> str:
 
     ``"container"`` widths (which need a page around them) become ``width`` pixels.
     """
-    import vl_convert as vlc
-
     spec = chart.to_dict()
     spec = _fixed_width(spec, width or 560)
     svg = vlc.vegalite_to_svg(spec)

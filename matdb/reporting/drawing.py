@@ -26,6 +26,17 @@ from __future__ import annotations
 import io
 from typing import Any
 
+import ezdxf
+from ezdxf import units
+from ezdxf.addons.drawing import Frontend, RenderContext, layout, svg
+from ezdxf.addons.drawing.config import BackgroundPolicy, ColorPolicy, Configuration
+from ezdxf.enums import TextEntityAlignment
+
+from matdb.analysis.floating import levitate_stabilized
+from matdb.design import load_design_text
+from matdb.errors import InputError
+from matdb.physics.dynamics import plate_outline
+
 LAYERS = {  # name: ACI colour
     "PLATE": 5, "MAGNETS": 7, "MAGNET_BORES": 8, "POLARITY": 1, "BASE": 3, "MARKS": 6, "SIDE": 7,
 }
@@ -34,9 +45,6 @@ SHEET_GAP_MM = 40.0  # space between the two sheets of the floating-magnet drawi
 
 
 def _new_doc():
-    import ezdxf
-    from ezdxf import units
-
     doc = ezdxf.new("R2010", setup=True, units=units.MM)
     doc.header["$MEASUREMENT"] = 1  # metric
     for name, colour in LAYERS.items():
@@ -50,8 +58,6 @@ def _mm(v: float) -> float:
 
 
 def _text(msp, text: str, x: float, y: float, height: float, layer: str, align: str = "MIDDLE_CENTER"):
-    from ezdxf.enums import TextEntityAlignment
-
     t = msp.add_text(text, height=height, dxfattribs={"layer": layer})
     t.set_placement((x, y), align=getattr(TextEntityAlignment, align))
     return t
@@ -100,8 +106,6 @@ def _plate_top_view(msp, design) -> None:
             hx, hy = _mm(p.size[0]) / 2, _mm(p.size[1]) / 2
             _rect(msp, cx - hx, cy - hy, cx + hx, cy + hy, "PLATE")
         return
-    from matdb.physics.dynamics import plate_outline
-
     geom = plate_outline(p.shape, p.lx_m, p.ly_m, p.center_m[0], p.center_m[1], slots, holes)
     polys = list(getattr(geom, "geoms", [geom]))
     for poly in polys:
@@ -171,8 +175,6 @@ def stabilized_drawing(design, result: dict | None = None, title: str = ""):
     """The DXF document of a floating-magnet design: sheet 1 (top view) and sheet 2
     (side view with the schedule's distances) side by side in model space."""
     if result is None:
-        from matdb.analysis.floating import levitate_stabilized
-
         result = levitate_stabilized(design)
     doc = _new_doc()
     msp = doc.modelspace()
@@ -271,9 +273,6 @@ def dxf_bytes(doc) -> bytes:
 
 def svg_text(doc) -> str:
     """The model space rendered as SVG at 1:1 on a page sized to the drawing (mm)."""
-    from ezdxf.addons.drawing import Frontend, RenderContext, layout, svg
-    from ezdxf.addons.drawing.config import BackgroundPolicy, ColorPolicy, Configuration
-
     msp = doc.modelspace()
     backend = svg.SVGBackend()
     cfg = Configuration(background_policy=BackgroundPolicy.WHITE, color_policy=ColorPolicy.COLOR)
@@ -284,11 +283,8 @@ def svg_text(doc) -> str:
 
 def drawing_bytes(text: str, kind: str, source_name: str = "design.toml") -> bytes:
     """The drawing of a design's TOML text as ``dxf`` or ``svg`` bytes."""
-    from matdb.design import load_design_text
-    from matdb.errors import InputError
-
     if kind not in ("dxf", "svg"):
-        raise InputError(f"format: expected dxf or svg, got {kind!r}")
+        raise InputError(f"expected dxf or svg, got {kind!r}", field="format")
     design = load_design_text(text, source=source_name)
     doc = design_drawing(design)
     return dxf_bytes(doc) if kind == "dxf" else svg_text(doc).encode("utf-8")

@@ -16,6 +16,7 @@ from __future__ import annotations
 import datetime as _dt
 import hashlib
 import html as _html
+import importlib
 import inspect
 import json
 import math
@@ -25,9 +26,20 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Callable
 
+import jinja2
+from sqlalchemy import select as sa_select
+from sqlmodel import SQLModel
+
 from matdb import __version__
-from matdb.errors import InputError, PhysicsError
+from matdb.analysis.dynamics import analyse_dynamics
+from matdb.analysis.levitate import levitate, stability_scan
 from matdb.constants import kelvin_to_celsius
+from matdb.data import catalog
+from matdb.data.db import read_session
+from matdb.design import load_design_text
+from matdb.errors import InputError, PhysicsError
+from matdb.physics.thermal import SAFETY_TEXT
+from matdb.reporting import charts, presentation
 
 PAPERS = ("A4", "Letter")
 CASES = ("coldest", "nominal", "hottest", "worst")
@@ -51,81 +63,24 @@ class Figure:
     worst: str | None = None  # key of the worst-case counterpart
 
 
-def _figs(rows) -> tuple[Figure, ...]:
-    return tuple(Figure(*r) for r in rows)
+FIGURES_FILE = Path(__file__).with_name("figures.toml")
 
 
-_PLATE = "matdb.physics.plate"
-_TH = "matdb.physics.thermal"
+def load_figures(path: Path = FIGURES_FILE) -> tuple[Figure, ...]:
+    """The plate report's figures, in order, from ``figures.toml``.
+
+    A figure's display unit and scale follow its key's SI suffix (:func:`_suffix_unit`)
+    unless the file gives ``unit`` (and ``scale``).
+    """
+    figures = []
+    for r in tomllib.loads(path.read_text(encoding="utf-8"))["figure"]:
+        unit, scale = _suffix_unit(r["key"])
+        figures.append(Figure(r["key"], r["label"], r.get("unit", unit), float(r.get("scale", scale)),
+                              r["method"], r["ref"], r.get("worst")))
+    return tuple(figures)
+
+
 _ST = "matdb.analysis.floating"
-
-PLATE_FIGURES = _figs([
-    ("floats", "floats", "yes/no", 1, "The lift curve crosses the weight on a falling branch.",
-     f"{_PLATE}.analyse_plate"),
-    ("gap_m", "equilibrium gap", "mm", 1e3, "Highest root of lift(gap) = weight where the lift falls with "
-     "height, refined by Brent's method on the surface-integral lift.", f"{_PLATE}.equilibrium_gap", "gap_worst_m"),
-    ("clearance_m", "clearance above the cover sheet", "mm", 1e3, "Equilibrium gap minus the cover thickness.",
-     f"{_PLATE}.analyse_plate"),
-    ("weight_n", "weight (plate + payload)", "mN", 1e3, "Mass times standard gravity.", f"{_PLATE}.analyse_plate"),
-    ("plate_mass_kg", "plate mass", "g", 1e3, "Density times plate volume.", f"{_PLATE}.analyse_plate"),
-    ("payload_kg", "payload", "g", 1e3, "As given in the design.", f"{_PLATE}.analyse_plate"),
-    ("required_gap_m", "required gap", "mm", 1e3, "Design's min_gap (at least cover + 0.05 mm).",
-     f"{_PLATE}.analyse_plate"),
-    ("lift_at_required_gap_n", "lift at the required gap", "mN", 1e3,
-     "Maxwell-stress surface integral of B^2 over the plate faces (Gauss-Legendre panels).",
-     f"{_PLATE}.lift_force"),
-    ("margin", "margin (lift / weight at the required gap)", "", 1, "Lift at the required gap over the weight.",
-     f"{_PLATE}.lift_force"),
-    ("max_payload_kg", "largest payload at the required gap", "g", 1e3,
-     "Largest lift at or above the required gap over g, minus the plate mass.", f"{_PLATE}.max_lift_above",
-     "max_payload_worst_kg"),
-    ("k_z_n_m", "vertical stiffness k_z", "N/m", 1, "Minus the slope of the lift curve at the equilibrium.",
-     f"{_PLATE}.vertical_stiffness"),
-    ("f_z_hz", "vertical natural frequency f_z", "Hz", 1, "sqrt(k_z / m) / (2 pi) of plate and payload.",
-     f"{_PLATE}.analyse_plate"),
-    ("k_x_n_m", "lateral stiffness k_x", "N/m", 1, "Central differences of the generalised forces of the "
-     "rigid plate about the combined centre of mass.", f"{_PLATE}.stability"),
-    ("k_y_n_m", "lateral stiffness k_y", "N/m", 1, "As k_x, along y.", f"{_PLATE}.stability"),
-    ("k_tilt_n_m_per_rad", "tilt stiffness (smaller of pitch and roll)", "mN m/rad", 1e3,
-     "Rigid-body stiffness matrix, rotational terms.", f"{_PLATE}.stability"),
-    ("k_pitch_n_m_per_rad", "tilt stiffness, pitch", "mN m/rad", 1e3, "Rigid-body stiffness matrix.",
-     f"{_PLATE}.stability"),
-    ("k_roll_n_m_per_rad", "tilt stiffness, roll", "mN m/rad", 1e3, "Rigid-body stiffness matrix.",
-     f"{_PLATE}.stability"),
-    ("k_yaw_n_m_per_rad", "stiffness about the vertical (yaw)", "mN m/rad", 1e3,
-     "Rigid-body stiffness matrix (reported, not part of the verdict).", f"{_PLATE}.stability"),
-    ("laterally_stable", "laterally stable", "yes/no", 1, "k_x, k_y, pitch, roll > 0 and the coupled "
-     "(x, pitch) and (y, roll) blocks positive definite.", f"{_PLATE}.stability"),
-    ("stable_plate_side_max_m", "upper end of the stable side interval holding this plate", "mm", 1e3,
-     "Scan of square sides, each judged at its lateral equilibrium near the centre; bisection "
-     "at every change of verdict.", f"{_PLATE}.stable_side_intervals"),
-    ("lateral_force_n", "sideways force at the given position", "mN", 1e3,
-     "Side-face integral of the energy density at the position the design gives.",
-     f"{_PLATE}.lateral_force"),
-    ("lift_derating_pct", "lift lost against 20 C", "%", 1, "(Br(T)/Br(20 C))^2 and chi(T)/chi(20 C), "
-     "linear temperature coefficients.", f"{_TH}.lift_factor"),
-    ("derating_temperature_k", "temperature of the derating figure", "degC", 1, "Hottest temperature "
-     "(or the one asked for).", f"{_TH}.lift_derating_pct"),
-    ("gap_drift_um_per_k", "gap drift", "um/K", 1, "d(lift factor)/dT over the lift factor, times weight / k_z.",
-     f"{_TH}.lift_factor"),
-    ("demag_risk", "irreversible-loss (demagnetisation) risk", "yes/no", 1,
-     "Self- and mutual demagnetising field against Hcj(T) at the extreme temperatures.", f"{_TH}.demag_check"),
-    ("safe_distance_m", "distance to 0.5 mT", "cm", 1e2, "Farthest crossing of |B| = 0.5 mT along "
-     "ten rays from the arrangement, Brent's method.", f"{_TH}.safe_distance"),
-    ("temperature_k", "temperature of the analysis", "degC", 1, "As given (the case's temperature).",
-     f"{_TH}.br_at"),
-    ("temp_coldest_k", "coldest temperature named", "degC", 1, "From the design's conditions.", f"{_TH}.br_at"),
-    ("temp_hottest_k", "hottest temperature named", "degC", 1, "From the design's conditions.", f"{_TH}.br_at"),
-    ("br_t", "remanence Br at 20 C", "T", 1, "Value in use in the database (or the design).", f"{_TH}.br_at"),
-    ("br_at_temperature_t", "remanence Br at the temperature", "T", 1, "Linear reversible coefficient alpha.",
-     f"{_TH}.br_at"),
-    ("chi_perp_si", "chi perpendicular (c axis) at the temperature", "", 1,
-     "Value in use with its temperature coefficient.", f"{_TH}.chi_at"),
-    ("chi_par_si", "chi parallel (basal plane) at the temperature", "", 1,
-     "Value in use with its temperature coefficient.", f"{_TH}.chi_at"),
-    ("magnet_mass_kg", "magnet mass", "g", 1e3, "Volume times the grade's density.", f"{_TH}.safe_distance"),
-    ("magnet_count", "number of magnets", "", 1, "From the arrangement.", f"{_PLATE}.analyse_plate"),
-])
 
 STABILIZED_LABELS = {
     "floats": "floats",
@@ -161,13 +116,14 @@ def _suffix_unit(key: str) -> tuple[str, float]:
     return "", 1.0
 
 
+PLATE_FIGURES = load_figures()
+
+
 # ---------------------------------------------------------------------------
 # references from the docstrings
 # ---------------------------------------------------------------------------
 
 def _resolve(dotted: str):
-    import importlib
-
     mod, _, name = dotted.rpartition(".")
     return getattr(importlib.import_module(mod), name)
 
@@ -189,8 +145,6 @@ def docstring_references(fn: Callable, _depth: int = 0) -> list[str]:
             kind, target = see.groups()
             mod = inspect.getmodule(fn)
             if kind == "mod":
-                import importlib
-
                 try:
                     obj = importlib.import_module(target)
                 except ImportError:
@@ -218,11 +172,6 @@ def references_of(dotted: str) -> list[str]:
 def database_fingerprint(url: str | None = None) -> str:
     """SHA-256 over every stored row (all tables, primary-key order; entry timestamps
     left out, so two databases with the same content agree). 16 hex digits."""
-    from sqlalchemy import select as sa_select
-    from sqlmodel import SQLModel
-
-    from matdb.data.db import read_session
-
     h = hashlib.sha256()
     with read_session(url) as s:
         for name in sorted(SQLModel.metadata.tables):
@@ -286,7 +235,6 @@ def _temperatures(design) -> tuple[float, float, float]:
 def run_cases(design, levitate_fn=None) -> dict[str, dict]:
     """levitate results: ``nominal`` (the design as given, what ``matdb levitate``
     prints), ``coldest`` and ``hottest`` (``matdb levitate --temp``)."""
-    from matdb.analysis.levitate import levitate
 
     fn = levitate_fn or levitate
     return _three(design, fn)
@@ -396,7 +344,6 @@ def _inputs_as_typed(text: str) -> list[dict]:
 def _provenance(design, url: str | None) -> list[dict]:
     """Every database property the design uses: the value in use, its kind, source
     (with the lab's source note and date for a measured value) and uncertainty."""
-    from matdb.data import catalog
 
     rows: list[dict] = []
     mats: dict[str, Any] = {}
@@ -468,16 +415,9 @@ def _provenance(design, url: str | None) -> list[dict]:
 
 def _status_marks(rows: list[dict], material_ids: set, url: str | None) -> None:
     """The checked-against-source status of each number (verified, corrected, unverified,
-    measured) when the database keeps one (``catalog.status_marks``)."""
-    from matdb.data import catalog
-
-    fn = getattr(catalog, "status_marks", None)
-    if fn is None:
-        return
-    try:
-        marks = fn(url)
-    except Exception:  # an older database without the provenance tables
-        return
+    measured), from :func:`matdb.data.catalog.status_marks` (the schema is migrated on opening,
+    so every database has the provenance tables)."""
+    marks = catalog.status_marks(url)
     for r in rows:
         kind = "material" if r["item"] in material_ids else "magnet"
         st = marks.get(kind, {}).get(r["item"], {}).get(r.get("column", ""))
@@ -492,12 +432,8 @@ DYNAMICS_MODE_COLUMNS = (("frequency_hz", "frequency"), ("q", "Q"), ("q_eddy", "
 
 def _dynamics(design) -> dict | None:
     """Modes, damping, Q, ring-down and noise of a floating plate at the coldest, nominal
-    and hottest temperature, when :mod:`matdb.analysis.dynamics` is available (else None)."""
+    and hottest temperature (None for a floating-magnet design)."""
     if getattr(design, "mode", "plate") != "plate":
-        return None
-    try:
-        from matdb.analysis.dynamics import analyse_dynamics
-    except ImportError:
         return None
     try:
         cases = _three(design, analyse_dynamics)
@@ -527,9 +463,6 @@ def _dynamics(design) -> dict | None:
 
 
 def _charts_plate(design, result) -> list[dict]:
-    from matdb.reporting import charts
-    from matdb.reporting import presentation
-    from matdb.analysis.levitate import stability_scan
 
     out = [{"title": "Lift against gap",
             "caption": "Solid: magnetic lift on the plate; dashed: weight of plate and payload; dot: the "
@@ -554,8 +487,6 @@ def _charts_plate(design, result) -> list[dict]:
 
 
 def _charts_stabilized(result) -> list[dict]:
-    from matdb.reporting import charts
-    from matdb.reporting import presentation
 
     sched = presentation.stabilized_window_df(result)
     if not len(sched):
@@ -567,7 +498,6 @@ def _charts_stabilized(result) -> list[dict]:
 
 
 def _bom(design, url) -> dict | None:
-    from matdb.reporting import presentation
 
     if getattr(design, "mode", "") == "stabilized":
         return None
@@ -594,8 +524,6 @@ def build_report(text: str, *, source_name: str = "design.toml", url: str | None
     ``levitate_fn`` replaces :func:`matdb.analysis.levitate.levitate` (the page passes its cached
     call). Raises :class:`~matdb.errors.InputError` for a bad design.
     """
-    from matdb.design import load_design_text
-    from matdb.physics.thermal import SAFETY_TEXT
 
     design = load_design_text(text, source=source_name)
     mode = getattr(design, "mode", "plate")
@@ -710,8 +638,6 @@ def _warnings(results: dict[str, dict]) -> list[dict]:
 # ---------------------------------------------------------------------------
 
 def _env():
-    import jinja2
-
     return jinja2.Environment(
         loader=jinja2.PackageLoader("matdb", "templates"),
         autoescape=jinja2.select_autoescape(["html", "j2"]),
@@ -721,13 +647,13 @@ def _env():
 def render_html(ctx: dict, paper: str = "A4") -> str:
     """The report as one self-contained HTML page (inline CSS and SVG; nothing fetched)."""
     if paper not in PAPERS:
-        raise InputError(f"--paper: expected one of {', '.join(PAPERS)}, got {paper!r}")
+        raise InputError(f"expected one of {', '.join(PAPERS)}, got {paper!r}", field="paper")
     return _env().get_template("report.html.j2").render(**ctx, paper=paper)
 
 
 def html_to_pdf(html: str) -> bytes:
     """PDF of a report page with WeasyPrint (the page size comes from the HTML's @page)."""
-    import weasyprint
+    import weasyprint  # lazy: PDF only; ~1 s of import and the Pango libraries, which HTML does not need
 
     return weasyprint.HTML(string=html, base_url=None).write_pdf()
 
@@ -736,7 +662,7 @@ def report_bytes(text: str, fmt: str, *, paper: str = "A4", source_name: str = "
                  url: str | None = None, levitate_fn: Callable | None = None) -> bytes:
     """The report of a design's text as ``html`` or ``pdf`` bytes."""
     if fmt not in ("html", "pdf"):
-        raise InputError(f"format: expected html or pdf, got {fmt!r}")
+        raise InputError(f"expected html or pdf, got {fmt!r}", field="format")
     html = render_html(build_report(text, source_name=source_name, url=url, levitate_fn=levitate_fn), paper)
     return html.encode("utf-8") if fmt == "html" else html_to_pdf(html)
 
