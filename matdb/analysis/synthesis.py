@@ -43,7 +43,7 @@ import numpy as np
 import pandas as pd
 from scipy.optimize import Bounds, NonlinearConstraint, minimize
 
-from matdb import advisor as A
+from matdb import advisor as A  # the optimiser starts from the best catalogue candidate (the one upward import, see DEVELOPERS.md)
 from matdb.analysis import levitate as L
 from matdb.data import catalog
 from matdb.design import Conditions, MagnetSpec, PlateDesign, PlateSpec, write_design
