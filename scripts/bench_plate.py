@@ -21,7 +21,7 @@ import sys
 import time
 from pathlib import Path
 
-from matdb.analysis.levitate import _chi_at, levitate_plate, plate_geometry
+from matdb.analysis.levitate import plate_chi_at, levitate_plate, plate_geometry
 from matdb.design import load_design
 from matdb.physics import plate as P
 
@@ -61,7 +61,7 @@ def run() -> dict:
     t_k = design.conditions.extremes(None)[1]
     arr = design.arrangement(t_k)
     geom = plate_geometry(design, arr)
-    chi = _chi_at(design, t_k)
+    chi = plate_chi_at(design, t_k)
     p = design.plate
     levitate_plate(design)  # recoil solution and imports, once per geometry
     lev_cpu, lev_wall, res = _best(lambda: levitate_plate(design))

@@ -33,10 +33,10 @@ def _root_scatter_m(design, key: str, gap: float) -> float:
     t = max(design.conditions.extremes()[1], t_op) if worst else t_op  # as matdb.analysis.levitate
     geom = L.plate_geometry(design, design.arrangement(None))
     arr = design.arrangement(t, worst=worst)
-    chi = L._chi_at(design, t)
+    chi = L.plate_chi_at(design, t)
     if worst:
-        chi = L._chi_worst(design, *chi)
-    f = P._force_fn(arr.B, geom, chi[0], chi[1], P.DEFAULT_ORDER)
+        chi = L.plate_chi_worst(design, *chi)
+    f = P.lift_force_fn(arr.B, geom, chi[0], chi[1], P.DEFAULT_ORDER)
     xs = gap + np.linspace(-5e-7, 5e-7, 21)
     fs = np.array([f(x) for x in xs])
     slope, icpt = np.polyfit(xs, fs, 1)

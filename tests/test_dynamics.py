@@ -215,11 +215,11 @@ def test_vertical_mode_of_symmetric_design_is_sqrt_k_over_m(demo_vacuum):
     """Uncoupled vertical mode: f = sqrt(k_z / m) / (2 pi) with k_z = -dF/dg from the lift
     curve (a route independent of the 6 x 6 pose differences); plate mass rho a^2 t."""
     d = load_design(DEMO)
-    from matdb.analysis.levitate import _chi_at, plate_geometry
+    from matdb.analysis.levitate import plate_chi_at, plate_geometry
 
     arr = d.arrangement(d.conditions.nominal_k)
     geom = plate_geometry(d, arr)
-    cp, cq = _chi_at(d, d.conditions.nominal_k)
+    cp, cq = plate_chi_at(d, d.conditions.nominal_k)
     k_z = P.vertical_stiffness(arr.B, geom, demo_vacuum["gap_m"], cp, cq)
     m = d.plate.density_kg_m3 * 0.01 * 0.01 * 0.0005
     vert = [md for md in demo_vacuum["modes"] if md["dof"] == "z"]

@@ -28,7 +28,7 @@ def seed_copy(tmp_path):
 
 
 def _engine(tmp_path, name="db.sqlite"):
-    return db._make_engine(f"sqlite:///{tmp_path / name}")
+    return db.make_engine(f"sqlite:///{tmp_path / name}")
 
 
 def test_seed_parses_and_loads(tmp_path):

@@ -104,7 +104,7 @@ def prepare_dynamics(design: PlateDesign, temp_k: float | None = None,
     PhysicsError
         When the plate does not float.
     """
-    from matdb.analysis.levitate import _chi_at, plate_geometry
+    from matdb.analysis.levitate import plate_chi_at, plate_geometry
 
     if not isinstance(design, PlateDesign):
         raise InputError("design: dynamics needs a floating-plate design ([magnets] and [plate])")
@@ -113,7 +113,7 @@ def prepare_dynamics(design: PlateDesign, temp_k: float | None = None,
     t_op = float(temp_k) if temp_k is not None else design.conditions.nominal_k
     arr = design.arrangement(t_op)
     geom = plate_geometry(design, arr)
-    chi_perp, chi_par = _chi_at(design, t_op)
+    chi_perp, chi_par = plate_chi_at(design, t_op)
     mesh, h = plate_mesh(design, mesh_size)
     area, centroid, s2 = D.area_moments(mesh)
     plate_mass = p.density_kg_m3 * area * p.thickness_m
@@ -321,13 +321,13 @@ def screening_estimate(design: PlateDesign, pressure_pa: float = D.P_ATM,
     of the vertical mode. The error against :func:`analyse_dynamics` is stated in the
     README (mesh and screening study).
     """
-    from matdb.analysis.levitate import _chi_at, plate_geometry
+    from matdb.analysis.levitate import plate_chi_at, plate_geometry
 
     p = design.plate
     t_op = float(temp_k) if temp_k is not None else design.conditions.nominal_k
     arr = design.arrangement(t_op)
     geom = plate_geometry(design, arr)
-    chi_perp, chi_par = _chi_at(design, t_op)
+    chi_perp, chi_par = plate_chi_at(design, t_op)
     plate_mass = p.density_kg_m3 * geom.volume
     mass = plate_mass + p.payload_kg
     gap = P.equilibrium_gap(arr.B, geom, chi_perp, chi_par, mass * G_STANDARD,

@@ -47,14 +47,14 @@ def plate_geometry(design: PlateDesign, arrangement) -> P.PlateGeometry:
                            bx, by)
 
 
-def _chi_at(design: PlateDesign, t_k: float) -> tuple[float, float]:
+def plate_chi_at(design: PlateDesign, t_k: float) -> tuple[float, float]:
     """|chi_perp|, |chi_par| at ``t_k`` (the material's coefficient, when it has one)."""
     coeff = design.plate.material_props.temp_coeff_per_k
     return (abs(float(TH.chi_at(design.plate.chi_perp, coeff, t_k))),
             abs(float(TH.chi_at(design.plate.chi_par, coeff, t_k))))
 
 
-def _chi_worst(design: PlateDesign, chi_perp: float, chi_par: float) -> tuple[float, float]:
+def plate_chi_worst(design: PlateDesign, chi_perp: float, chi_par: float) -> tuple[float, float]:
     """|chi| minus its uncertainty, the relative uncertainty applied to both components."""
     mat = design.plate.material_props
     ref = abs(mat.chi_vertical)
@@ -131,7 +131,7 @@ def _state_at(design: PlateDesign, t_k: float, geom: P.PlateGeometry, g_start: f
     """:func:`_state` of a fresh analysis at ``t_k`` (nominal Br and chi there). With
     ``scale``, ``field`` times ``scale`` is the field at ``t_k`` and the plane integrals
     of ``memo`` are reused (``|chi|`` scaled by ``scale**2``: the same physics)."""
-    cp, cq = _chi_at(design, t_k)
+    cp, cq = plate_chi_at(design, t_k)
     if scale is None:
         field = design.arrangement(t_k).B
         memo = None
@@ -186,7 +186,7 @@ def levitate_plate(design: PlateDesign, temp_k: float | None = None,
     arr20 = design.arrangement(rigid=True)
     arr = design.arrangement(t_op)
     geom0 = plate_geometry(design, arr)
-    chi_perp, chi_par = _chi_at(design, t_op)
+    chi_perp, chi_par = plate_chi_at(design, t_op)
     density = plate_spec.density_kg_m3
     cover = mags.cover_m
     g_start = cover + P.MIN_GAP
@@ -279,7 +279,7 @@ def levitate_plate(design: PlateDesign, temp_k: float | None = None,
 
     # worst case: minimum-spec Br, |chi| minus its uncertainty, hottest temperature
     t_worst = max(t_hot, t_op)
-    cw_perp, cw_par = _chi_worst(design, *_chi_at(design, t_worst))
+    cw_perp, cw_par = plate_chi_worst(design, *plate_chi_at(design, t_worst))
     s_w = _field_scale(design, t_worst, True, ref)
     if s_w is None:
         field_w, memo_w = design.arrangement(t_worst, worst=True).B, None
@@ -437,7 +437,7 @@ def stability_scan(design: PlateDesign, temp_k: float | None = None, n: int = 10
     t_op = float(temp_k) if temp_k is not None else design.conditions.nominal_k
     arr = design.arrangement(t_op)
     geom = plate_geometry(design, arr)
-    chi_perp, chi_par = _chi_at(design, t_op)
+    chi_perp, chi_par = plate_chi_at(design, t_op)
     p = design.plate
     extent = arr.bounds()
     size = max(extent[1] - extent[0], extent[3] - extent[2])

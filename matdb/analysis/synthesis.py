@@ -408,7 +408,7 @@ def side_spare_ok(result: dict, side: float, spare: float = SIDE_SPARE, design=N
     t = result["temperature_k"]
     arr = design.arrangement(t)
     geom = L.plate_geometry(design, arr)
-    a, b = L._chi_at(design, t)
+    a, b = L.plate_chi_at(design, t)
     p = design.plate
     return all(P.is_stable_floating(arr.B, geom.with_side(sd), a, b, p.density_kg_m3, p.payload_kg,
                                     p.payload_height_m)
@@ -427,7 +427,7 @@ def check(z: Sizing, req: A.AdviceRequest, mat, grade, require_spare: bool = Tru
     t_hot = res["temp_hottest_k"]
     arr_w = design.arrangement(t_hot, worst=True)
     geom = L.plate_geometry(design, arr_w)
-    cw = L._chi_worst(design, *L._chi_at(design, t_hot))
+    cw = L.plate_chi_worst(design, *L.plate_chi_at(design, t_hot))
     g_req = res["required_gap_m"]
     lift_w = float(P.lift_force(arr_w.B, geom, [g_req], *cw)[0])
     weight = res["weight_n"]

@@ -43,7 +43,9 @@ def _sqlite_pragmas(dbapi_conn, _record) -> None:
     cur.close()
 
 
-def _make_engine(url: str) -> Engine:
+def make_engine(url: str) -> Engine:
+    """A SQLAlchemy engine for ``url`` without migrating or seeding (SQLite: busy timeout and
+    the connection pragmas of :func:`_sqlite_pragmas`)."""
     if url.startswith("sqlite"):
         engine = create_engine(url, connect_args={"timeout": 30, "check_same_thread": False})
         event.listen(engine, "connect", _sqlite_pragmas)
@@ -63,7 +65,7 @@ def get_engine(url: str | None = None, *, seed: bool = True) -> Engine:
     with _LOCK:
         engine = _ENGINES.get(url)
         if engine is None:
-            engine = _make_engine(url)
+            engine = make_engine(url)
             try:
                 ensure_schema(engine, seed=seed)
             except BaseException:

@@ -104,7 +104,7 @@ from matdb.physics.plate_intervals import (SETTLE_TOL, EquilibriumStability,  # 
                                            is_stable_floating, lateral_equilibrium,
                                            lateral_force, stability_at_equilibrium,
                                            stable_side_intervals, stable_side_max)
-from matdb.physics.plate_lift import (PlaneMemo, PlateResult, _force_fn, analyse_plate,  # noqa: F401
+from matdb.physics.plate_lift import (PlaneMemo, PlateResult, lift_force_fn, analyse_plate,  # noqa: F401
                                       equilibrium_gap, highest_stable_root, lift_curve_range,
                                       lift_force, lift_from_integrals, max_lift_above,
                                       plane_integrals, plate_surface_integrals,

@@ -310,7 +310,10 @@ class PlateResult:
         return self.gap is not None
 
 
-def _force_fn(field, plate, chi_perp_abs, chi_par_abs, order, memo=None):
+def lift_force_fn(field, plate, chi_perp_abs, chi_par_abs, order, memo=None):
+    """The lift [N] as a function of the gap [m] alone (the other arguments as in
+    :func:`lift_force`), for root finders and line fits."""
+
     def f(g: float) -> float:
         return float(lift_force(field, plate, [g], chi_perp_abs, chi_par_abs, order, memo)[0])
     return f
@@ -326,7 +329,7 @@ def lift_curve_range(field: FieldFn, plate: PlateGeometry, chi_perp_abs: float,
     ----------
     Module reference [2] (the lift falls with height beyond the peak).
     """
-    f = _force_fn(field, plate, chi_perp_abs, chi_par_abs, order, memo)
+    f = lift_force_fn(field, plate, chi_perp_abs, chi_par_abs, order, memo)
     g = max(g_end, g_start + 1e-3)
     while f(g) >= weight and g < g_cap:
         g *= 2.0
@@ -377,7 +380,7 @@ def analyse_plate(field: FieldFn, plate: PlateGeometry, chi_perp_abs: float,
     """
     mass = density * plate.volume
     weight = (mass + payload_kg) * G_STANDARD
-    f = _force_fn(field, plate, chi_perp_abs, chi_par_abs, order, memo)
+    f = lift_force_fn(field, plate, chi_perp_abs, chi_par_abs, order, memo)
     top = lift_curve_range(field, plate, chi_perp_abs, chi_par_abs, weight, g_start, g_end, order,
                            memo=memo)
     gaps = np.linspace(g_start, top, n_gaps)
@@ -440,7 +443,7 @@ def equilibrium_gap(field: FieldFn, plate: PlateGeometry, chi_perp_abs: float,
     if k.size == 0:
         return None
     i = int(k[-1])
-    f = _force_fn(field, plate, chi_perp_abs, chi_par_abs, order, memo)
+    f = lift_force_fn(field, plate, chi_perp_abs, chi_par_abs, order, memo)
     a, b = float(gaps[i]), float(gaps[i + 1])
     if forces[i] == weight:
         return a
