@@ -404,3 +404,26 @@ def test_plane_memo_scaled_by_remanence_squared(checker):
     np.testing.assert_allclose(scaled, direct, rtol=1e-12)
     again = P.lift_force(checker.B, plate, gaps, memo=memo, **PG)
     np.testing.assert_allclose(again * s ** 2, scaled, rtol=1e-12)
+
+
+@pytest.mark.parametrize("side,cx", [(0.010, 1e-3), (0.020, 0.0)])
+def test_stiffness_matrix_equals_differences_of_the_volume_torque(checker, side, cx):
+    # divergence theorem and Reynolds transport (Jackson sec. 5.16; Flanders, Amer. Math.
+    # Monthly 80, 615 (1973)): stiffness_split takes the turning of the anisotropic torque
+    # from the level pose and the sideways force from the side faces alone; the plain
+    # central differences of the closed-surface force and volume torque at moved poses
+    # (generalized_forces_split) give the same matrix
+    plate = _geom(checker, side, cx=cx, cy=-4e-4)
+    gap, pivot = 6e-4, (cx, -4e-4, 1.6e-3)
+    k = P.stiffness_split(checker.B, plate, gap, pivot, order=8)
+    hs, hr = max(1e-7, 5e-4 * min(side, 10 * gap)), 2e-4
+    steps = np.array([hs] * 3 + [hr] * 3)
+    poses = np.zeros((12, 6))
+    for d in range(6):
+        poses[2 * d, d], poses[2 * d + 1, d] = steps[d], -steps[d]
+    q = P.generalized_forces_split(checker.B, plate, gap, pivot, poses, order=8)
+    raw = -(q[0::2] - q[1::2]) / (2 * steps[:, None, None])  # (j, comp, i)
+    ref = np.transpose(raw, (1, 2, 0))
+    ref = 0.5 * (ref + np.swapaxes(ref, -1, -2))
+    for c in range(2):
+        np.testing.assert_allclose(k[c], ref[c], rtol=0, atol=1e-6 * np.abs(ref[c]).max())
