@@ -40,11 +40,12 @@ NEAR_NEUTRAL = 0.05  # a stiffness below this fraction of the other direction's
 
 def plate_geometry(design: PlateDesign, arrangement) -> P.PlateGeometry:
     """The plate of a design as :class:`~matdb.physics.plate.PlateGeometry`, with the
-    arrangement's edge lines as quadrature breaks."""
+    arrangement's edge lines as quadrature breaks and its mirror lines through the plate's
+    centre (:func:`~matdb.physics.plate.field_mirrors`)."""
     bx, by = P.edge_lines(arrangement.magnets)
     p = design.plate
     return P.PlateGeometry(p.shape, p.lx_m, p.ly_m, p.thickness_m, p.center_m[0], p.center_m[1],
-                           bx, by)
+                           bx, by, P.field_mirrors(arrangement.magnets, *p.center_m))
 
 
 def plate_chi_at(design: PlateDesign, t_k: float) -> tuple[float, float]:

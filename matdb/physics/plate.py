@@ -96,7 +96,7 @@ References
 """
 
 from matdb.physics.plate_geometry import (CHUNK, DEFAULT_ORDER, MIN_GAP, FieldFn,  # noqa: F401
-                                          PlateGeometry, edge_lines, eval_field,
+                                          PlateGeometry, edge_lines, eval_field, field_mirrors,
                                           footprint_rule, side_rule, surface_rule,
                                           volume_rule, z_rule)
 from matdb.physics.plate_intervals import (SETTLE_TOL, EquilibriumStability,  # noqa: F401

@@ -13,6 +13,7 @@ References
 from __future__ import annotations
 
 import math
+from functools import lru_cache
 from dataclasses import dataclass, replace
 from typing import Callable, Sequence
 
@@ -47,6 +48,11 @@ class PlateGeometry:
     breaks_x, breaks_y : tuple of float
         ``x`` (``y``) positions of the magnets' edge lines [m]; quadrature panels are
         bounded and graded there (see :func:`edge_lines`).
+    mirrors : tuple of (float or None)
+        ``(x0, y0)``: lines ``x = x0`` and ``y = y0`` [m] in which the field's energy
+        densities ``B_z^2`` and ``B_x^2 + B_y^2`` are mirror-symmetric (see
+        :func:`field_mirrors`), None where not known; a level plate centred on such a line
+        integrates over one half of its footprint (:func:`footprint_rule`).
     """
 
     shape: str
@@ -57,6 +63,7 @@ class PlateGeometry:
     cy: float = 0.0
     breaks_x: tuple[float, ...] = ()
     breaks_y: tuple[float, ...] = ()
+    mirrors: tuple[float | None, float | None] = (None, None)
 
     def __post_init__(self):
         if self.shape not in ("rectangle", "disc"):
@@ -138,13 +145,119 @@ def _dedupe(values: Sequence[float], tol: float = 1e-12) -> tuple[float, ...]:
     return tuple(float(x) for x in v[keep])
 
 
+def field_mirrors(magnets, x0: float, y0: float, rel_tol: float = 1e-9
+                  ) -> tuple[float | None, float | None]:
+    """Mirror lines of the magnets' energy densities through the point ``(x0, y0)`` [m].
+
+    Reflecting the arrangement in the plane ``x = x0`` moves each magnet to the mirrored
+    position and turns its polarisation, a pseudo-vector, into ``(J_x, -J_y, -J_z)`` (in
+    ``y = y0``: ``(-J_x, J_y, -J_z)``); when the result is the same set of magnets (shape,
+    size, position) with the same polarisations, or all reversed, the field at the mirrored
+    point is the mirrored field up to one sign, so ``B_z^2`` and ``B_x^2 + B_y^2`` are
+    symmetric. An ideal steel back plate under the magnets keeps the symmetry (its images
+    are mirrored with them), and so does the recoil correction, which the same geometry
+    determines.
+
+    Parameters
+    ----------
+    magnets : iterable
+        Objects with ``shape``, ``size``, ``position`` and ``polarization`` [m, T].
+    x0, y0 : float
+        The lines to test [m].
+
+    Returns
+    -------
+    (x0 or None, y0 or None)
+
+    References
+    ----------
+    .. [1] J. D. Jackson, Classical Electrodynamics, 3rd ed., Wiley (1999), sec. 6.10
+       (B and M are axial vectors: their behaviour under reflection).
+    """
+    mags = list(magnets)
+    if not mags:
+        return (None, None)
+    pos = np.array([[float(v) for v in m.position] for m in mags])
+    pol = np.array([[float(v) for v in m.polarization] for m in mags])
+    size = [(m.shape, tuple(float(v) for v in m.size)) for m in mags]
+    scale = max(float(np.ptp(pos, axis=0).max()), max(max(sz) for _, sz in size))
+    jmax = float(np.abs(pol).max()) or 1.0
+
+    def symmetric(axis: int, c: float) -> bool:
+        mp = pos.copy()
+        mp[:, axis] = 2.0 * c - mp[:, axis]
+        flip = -np.ones(3)
+        flip[axis] = 1.0
+        mj = pol * flip
+        for sign in (1.0, -1.0):
+            used = np.zeros(len(mags), dtype=bool)
+            ok = True
+            for i in range(len(mags)):
+                d = np.abs(pos - mp[i]).max(axis=1) <= rel_tol * scale
+                d &= np.abs(pol - sign * mj[i]).max(axis=1) <= rel_tol * jmax
+                d &= np.array([sz == size[i] for sz in size]) & ~used
+                hit = np.nonzero(d)[0]
+                if hit.size == 0:
+                    ok = False
+                    break
+                used[hit[0]] = True
+            if ok:
+                return True
+        return False
+
+    return (float(x0) if symmetric(0, float(x0)) else None,
+            float(y0) if symmetric(1, float(y0)) else None)
+
+
+@lru_cache(maxsize=4096)
+def _folded_rule(lo: float, hi: float, breaks: tuple[float, ...], scale: float, order: int,
+                 centre: float) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`matdb.physics.quadrature.graded_rule` on ``[lo, hi]`` folded about ``centre``
+    (:func:`_fold`), cached."""
+    x, w = Q.graded_rule(lo, hi, breaks, scale, order)
+    x, w = _fold(x, w, centre, 0.5 * (hi - lo))
+    x.flags.writeable = False
+    w.flags.writeable = False
+    return x, w
+
+
+def _fold(x: np.ndarray, w: np.ndarray, centre: float | None, half: float
+          ) -> tuple[np.ndarray, np.ndarray]:
+    """A 1-D rule folded about ``centre`` for integrands symmetric about it: each node
+    whose mirror image is also a node of equal weight stands for both (weight doubled, the
+    image dropped); nodes without an image, and a node on the centre, keep their weight.
+    The sum is the rule's own sum for every symmetric integrand. Unchanged when ``centre``
+    is None."""
+    if centre is None:
+        return x, w
+    m = x - centre
+    tol = 1e-12 * half
+    order = np.argsort(m)
+    ms, ws = m[order], w[order]
+    j = np.clip(np.searchsorted(ms, -ms), 0, ms.size - 1)  # candidate image of each node
+    for k in (j, np.clip(j - 1, 0, ms.size - 1)):
+        better = np.abs(ms[k] + ms) < np.abs(ms[j] + ms)
+        j = np.where(better, k, j)
+    paired = (np.abs(ms[j] + ms) <= tol) & np.isclose(ws[j], ws, rtol=1e-12, atol=0) \
+        & (np.abs(ms) > tol)
+    keep = ~paired | (ms > 0)
+    wt = np.where(paired, 2.0 * ws, ws)
+    return (x[order])[keep], wt[keep]
+
+
 # ---------------------------------------------------------------------------
 # quadrature rules (matdb.physics.quadrature)
 # ---------------------------------------------------------------------------
-def footprint_rule(plate: PlateGeometry, scale: float, order: int = DEFAULT_ORDER
-                   ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def footprint_rule(plate: PlateGeometry, scale: float, order: int = DEFAULT_ORDER,
+                   folded: bool = False) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Quadrature over the footprint, graded for a plane at distance ``scale`` from the
     magnets' edges.
+
+    With ``folded``, for integrands with the mirror symmetry of ``plate.mirrors`` (the
+    energy densities of the field), a rectangle centred on a mirror line keeps only the
+    nodes on one side of it with doubled weights: the same sum at half the field points
+    (a quarter with both lines). The rule must be symmetric itself (its panels end at the
+    magnets' edge lines, mirrored too); otherwise nothing is folded.
 
     Returns
     -------
@@ -162,6 +275,14 @@ def footprint_rule(plate: PlateGeometry, scale: float, order: int = DEFAULT_ORDE
                               scale, order)
         y, wy = Q.graded_rule(plate.cy - plate.ly / 2, plate.cy + plate.ly / 2, plate.breaks_y,
                               scale, order)
+        if folded:
+            mx, my = plate.mirrors
+            if mx is not None and abs(mx - plate.cx) <= 1e-12 * plate.lx:
+                x, wx = _folded_rule(plate.cx - plate.lx / 2, plate.cx + plate.lx / 2,
+                                     plate.breaks_x, float(scale), int(order), plate.cx)
+            if my is not None and abs(my - plate.cy) <= 1e-12 * plate.ly:
+                y, wy = _folded_rule(plate.cy - plate.ly / 2, plate.cy + plate.ly / 2,
+                                     plate.breaks_y, float(scale), int(order), plate.cy)
         return (np.repeat(x, y.size), np.tile(y, x.size), np.outer(wx, wy).ravel())
     return Q.disc_rule(plate.cx, plate.cy, plate.lx / 2, plate.breaks_x, plate.breaks_y, scale,
                        order)
