@@ -462,6 +462,13 @@ def test_field_mirrors_of_arrangements_checked_with_magpylib(checker):
                                     rtol=1e-9, atol=1e-12))
             assert (line is not None) == same, (arr.pattern, axis)
         assert (mx, my) == expect
+        # the diagonal: (x, y) -> (y, x)
+        b, bm = magpy.getB(c, pts), magpy.getB(c, pts[:, [1, 0, 2]])
+        same = (np.allclose(b[:, 2] ** 2, bm[:, 2] ** 2, rtol=1e-9, atol=1e-12)
+                and np.allclose(b[:, 0] ** 2 + b[:, 1] ** 2, bm[:, 0] ** 2 + bm[:, 1] ** 2,
+                                rtol=1e-9, atol=1e-12))
+        assert P.field_swaps(arr.magnets, 0.0, 0.0) == same
+    assert P.field_swaps(checker.magnets, 0.0, 0.0)
     assert P.field_mirrors(checker.magnets, 1e-3, 0.0) == (None, 0.0)
 
 
@@ -473,11 +480,13 @@ def test_folded_footprint_integrals_equal_the_full_rule(checker, side, gaps):
     bx, by = P.edge_lines(checker.magnets)
     full = P.PlateGeometry("rectangle", side, side, 1e-3, 0.0, 0.0, bx, by)
     mirrored = P.PlateGeometry("rectangle", side, side, 1e-3, 0.0, 0.0, bx, by, (0.0, 0.0))
+    eighth = dataclasses.replace(mirrored, swap=True)
     for order in (4, 8):
         a = P.plate_surface_integrals(checker.B, full, gaps, order)
-        b = P.plate_surface_integrals(checker.B, mirrored, gaps, order)
-        for u, v in zip(a, b):
-            np.testing.assert_allclose(v, u, rtol=1e-12)
+        for plate in (mirrored, eighth):
+            b = P.plate_surface_integrals(checker.B, plate, gaps, order)
+            for u, v in zip(a, b):
+                np.testing.assert_allclose(v, u, rtol=1e-12)
         x, _, _ = P.footprint_rule(mirrored, gaps[0], order, folded=True)
         assert x.size < 0.5 * P.footprint_rule(full, gaps[0], order)[0].size
     # off both mirror lines nothing is folded
@@ -487,3 +496,21 @@ def test_folded_footprint_integrals_equal_the_full_rule(checker, side, gaps):
     f = P.lateral_force(checker.B, mirrored, gaps[0], **PG)
     np.testing.assert_allclose(f, P.lateral_force(checker.B, full, gaps[0], **PG), rtol=0,
                                atol=1e-12 * P.lift_force(checker.B, full, gaps, **PG)[0])
+
+
+@pytest.mark.parametrize("side", [0.006, 0.012, 0.026])
+def test_mirrored_poses_give_the_stiffness_of_both_poses(checker, side):
+    # regression check: over a field with mirror lines through the plate's centre and
+    # the pivot, each perturbation's minus pose is the mirror image of its plus pose
+    # (forces polar, torques axial: Jackson sec. 6.10); the matrix equals the one from
+    # both poses evaluated
+    bx, by = P.edge_lines(checker.magnets)
+    plain = P.PlateGeometry("rectangle", side, side, 1e-3, 0.0, 0.0, bx, by)
+    mirrored = P.PlateGeometry("rectangle", side, side, 1e-3, 0.0, 0.0, bx, by, (0.0, 0.0))
+    gap = 5e-4
+    assert any(P.mirrored_rules(mirrored, gap, 8))
+    pivot = (0.0, 0.0, gap + 1.5e-3)
+    a = P.stiffness_split(checker.B, plain, gap, pivot, order=8)
+    b = P.stiffness_split(checker.B, mirrored, gap, pivot, order=8)
+    for c in range(2):
+        np.testing.assert_allclose(b[c], a[c], rtol=0, atol=1e-9 * np.abs(a[c]).max())

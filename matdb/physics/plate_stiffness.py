@@ -24,7 +24,8 @@ import numpy as np
 from scipy.spatial.transform import Rotation
 
 from matdb.physics.plate_geometry import (DEFAULT_ORDER, FieldFn, PlateGeometry, eval_field,
-                                          side_rule, surface_rule, volume_rule)
+                                          mirrored_rules, side_rule, surface_rule,
+                                          volume_rule)
 from matdb.constants import MU0
 
 # ---------------------------------------------------------------------------
@@ -191,35 +192,31 @@ def _columns(field: FieldFn, plate: PlateGeometry, gap: float, pivot, order: int
     sideways = [j for j, d in enumerate(perturbed) if d < 2]
     if sideways:
         pts, nrm, w = side_rule(plate, gap, gap + plate.thickness, order)
-        shifts = np.zeros((2 * len(sideways), 3))
-        for i, j in enumerate(sideways):
-            d = perturbed[j]
-            shifts[2 * i, d], shifts[2 * i + 1, d] = steps[d], -steps[d]
+        mirror = _mirror_axes(plate, gap, order, pivot)
+        pairs = [(j, perturbed[j], _paired(perturbed[j], mirror)) for j in sideways]
+        shifts = _poses(pairs, steps)[:, :3]
         b = eval_field(field, (pts[None, :, :] + shifts[:, None, :]).reshape(-1, 3))
         b = b.reshape(shifts.shape[0], pts.shape[0], 3)
         wz = b[:, :, 2] ** 2
         wxy = b[:, :, 0] ** 2 + b[:, :, 1] ** 2
-        f = np.stack([(wz * w) @ nrm[:, :2], (wxy * w) @ nrm[:, :2]], axis=1) \
-            * (-1.0 / (2.0 * MU0))  # (2 n, comp, 2)
-        for i, j in enumerate(sideways):
-            d = perturbed[j]
-            k[:, :2, j] = -(f[2 * i] - f[2 * i + 1]) / (2.0 * steps[d])
+        f = np.zeros((shifts.shape[0], 2, 6))
+        f[:, :, :2] = np.stack([(wz * w) @ nrm[:, :2], (wxy * w) @ nrm[:, :2]], axis=1) \
+            * (-1.0 / (2.0 * MU0))
+        k[:, :2, sideways] = _differences(f, pairs, steps)[:, :2, :]
     others = [j for j, d in enumerate(perturbed) if d >= 2]
     if others:
-        poses = np.zeros((2 * len(others), 6))
-        for i, j in enumerate(others):
-            d = perturbed[j]
-            poses[2 * i, d], poses[2 * i + 1, d] = steps[d], -steps[d]
-        turned = np.array([perturbed[j] >= 3 for j in others for _ in (0, 1)], dtype=bool)
+        sp, sn, sw = surface_rule(plate, gap, order)
+        mirror = _mirror_axes(plate, gap, order, pivot)
+        pairs = [(j, perturbed[j], _paired(perturbed[j], mirror)) for j in others]
+        poses = _poses(pairs, steps)
+        turned = poses[:, 2] == 0.0
         q = np.empty((poses.shape[0], 2, 6))
         if np.any(~turned):  # z translation: forces only
             q[~turned] = generalized_forces_split(field, plate, gap, pivot, poses[~turned],
                                                   order, torques=False)
         if np.any(turned):
             q[turned] = _surface_forces_split(field, plate, gap, pivot, poses[turned], order)
-        for i, j in enumerate(others):
-            d = perturbed[j]
-            k[:, :, j] = -(q[2 * i] - q[2 * i + 1]) / (2.0 * steps[d])
+        k[:, :, others] = _differences(q, pairs, steps)
         rot = [j for j in others if perturbed[j] >= 3]
         if rot:
             rates = _intrinsic_rates(field, plate, gap, pivot, order,
@@ -228,6 +225,59 @@ def _columns(field: FieldFn, plate: PlateGeometry, gap: float, pivot, order: int
                 k[0, 3:, j] -= rates[i]
                 k[1, 3:, j] += rates[i]
     return k[:, list(rows), :]
+
+
+#: the mirror (0: in x, 1: in y) that maps a coordinate's + step onto its - step
+_PAIRING = {0: (0,), 1: (1,), 3: (1,), 4: (0,), 5: (0, 1)}
+
+
+def _paired(d: int, mirror: tuple[bool, bool]) -> int | None:
+    return next((a for a in _PAIRING.get(d, ()) if mirror[a]), None)
+
+
+def _poses(pairs, steps: np.ndarray) -> np.ndarray:
+    """The poses to evaluate: ``+step`` of each coordinate, and ``-step`` unless a mirror
+    gives it."""
+    rows = []
+    for _, d, axis in pairs:
+        for sgn in ((1.0,) if axis is not None else (1.0, -1.0)):
+            p = np.zeros(6)
+            p[d] = sgn * steps[d]
+            rows.append(p)
+    return np.array(rows)
+
+
+def _differences(q: np.ndarray, pairs, steps: np.ndarray) -> np.ndarray:
+    """Central differences ``-(Q(+h) - Q(-h)) / (2 h)`` (2, 6, n) from the evaluated poses
+    (:func:`_poses`), with ``Q(-h) = D Q(+h)`` where a mirror in axis ``a`` maps the one
+    pose onto the other: forces (polar) change the sign of their ``a`` component, torques
+    about a pivot on the mirror (axial) that of the other two."""
+    out = np.empty((2, 6, len(pairs)))
+    i = 0
+    for n, (_, d, axis) in enumerate(pairs):
+        plus = q[i]
+        if axis is None:
+            minus = q[i + 1]
+            i += 2
+        else:
+            flip = np.ones(6)
+            flip[axis] = -1.0
+            flip[3:] = -1.0
+            flip[3 + axis] = 1.0
+            minus = plus * flip
+            i += 1
+        out[:, :, n] = -(plus - minus) / (2.0 * steps[d])
+    return out
+
+
+def _mirror_axes(plate: PlateGeometry, gap: float, order: int, pivot: np.ndarray
+                 ) -> tuple[bool, bool]:
+    """For each of x and y: the field's mirror line passes through the plate's centre and
+    the pivot, and the plate's rules are their own mirror images there
+    (:func:`~matdb.physics.plate_geometry.mirrored_rules`)."""
+    rules = mirrored_rules(plate, gap, order)
+    return tuple(bool(ok and abs(pivot[a] - plate.mirrors[a]) <= 1e-12 * size)
+                 for a, (ok, size) in enumerate(zip(rules, (plate.lx, plate.ly))))
 
 
 def _surface_forces_split(field: FieldFn, plate: PlateGeometry, gap: float, pivot,
