@@ -271,6 +271,12 @@ def _fold(x: np.ndarray, w: np.ndarray, centre: float | None, half: float
     tol = 1e-12 * half
     order = np.argsort(m)
     ms, ws = m[order], w[order]
+    if (np.abs(ms + ms[::-1]).max() <= tol
+            and np.abs(ws - ws[::-1]).max() <= 1e-12 * np.abs(ws).max()):
+        # the whole rule is its own mirror image
+        up = ms > tol
+        sel = up | (np.abs(ms) <= tol)
+        return (x[order])[sel], np.where(up, 2.0 * ws, ws)[sel]
     j = np.clip(np.searchsorted(ms, -ms), 0, ms.size - 1)  # candidate image of each node
     for k in (j, np.clip(j - 1, 0, ms.size - 1)):
         better = np.abs(ms[k] + ms) < np.abs(ms[j] + ms)
