@@ -124,11 +124,13 @@ class _Table:
         taper = np.cos(0.5 * np.pi * t) ** 2
         taper[kabs >= k_nyq] = 0.0
         spec = spec * (taper / h ** 2)[:, :, None]
-        coef = np.empty((3, self.nb[0], self.nb[1], nz), dtype=np.float32)
+        # (component, level, x, y): points of one horizontal plane (a plate's quadrature)
+        # then read two neighbouring levels, which stay in cache
+        coef = np.empty((3, nz, self.nb[0], self.nb[1]), dtype=np.float32)
         for j, zl in enumerate(levels):  # one level at a time: bounded memory
             lev = spec * np.exp(-kabs * zl)[:, :, None]
             vals = sfft.irfft2(lev, s=(n, n), axes=(0, 1), workers=-1)
-            coef[:, :, :, j] = np.moveaxis(vals[:self.nb[0], :self.nb[1], :], 2, 0)
+            coef[:, j] = np.moveaxis(vals[:self.nb[0], :self.nb[1], :], 2, 0)
         self.order = ORDER
         if ORDER > 1:
             for c in range(3):
@@ -184,9 +186,9 @@ class _Table:
 
     def __call__(self, p: np.ndarray) -> np.ndarray:
         coords = np.empty((3, p.shape[0]))
-        coords[0] = (p[:, 0] - self.origin[0]) / self.h
-        coords[1] = (p[:, 1] - self.origin[1]) / self.h
-        coords[2] = np.log1p((p[:, 2] - self.top) / self.z0) / Z_RATIO
+        coords[0] = np.log1p((p[:, 2] - self.top) / self.z0) / Z_RATIO
+        coords[1] = (p[:, 0] - self.origin[0]) / self.h
+        coords[2] = (p[:, 1] - self.origin[1]) / self.h
         out = np.empty((p.shape[0], 3))  # float32 table, float64 result
         for c in range(3):
             out[:, c] = ndimage.map_coordinates(self.coef[c], coords, order=self.order, mode="nearest",
