@@ -266,22 +266,41 @@ def field_map(magnets: str, temp_k: float | None, gap_m: float, extent: tuple, _
 
 
 # ---------------------------------------------------------------------------
-# dynamics (modes, damping, Q) of a plate design, cached by the design text
+# dynamics (modes, damping, Q) of a plate design, keyed on its content
 # ---------------------------------------------------------------------------
 
+def dynamics_key(design) -> str:
+    """Content key of a plate design's dynamics: its content with the catalogue values it
+    resolved to (:func:`design_key`) and the plate material's conductivity in use."""
+    from matdb.data.catalog import get_conductivity
+
+    return cache.content_key([design_key(design), get_conductivity(design.plate.material)])
+
+
 @st.cache_resource(show_spinner=False, max_entries=16)
-def dynamics_prep(text: str, url: str):
+def _dynamics_prep(key: str, _design):
     """Not pickled (it holds the factorised finite-element matrices): a shared resource."""
-    return prepare_dynamics(load_design_text(text))
+    return prepare_dynamics(_design)
 
 
-def dynamics_text(text: str, pressure_pa: float, url: str) -> dict:
-    return evaluate_dynamics(dynamics_prep(text, url), pressure_pa)
+def dynamics_prep(design):
+    """:func:`matdb.analysis.dynamics.prepare_dynamics` once per :func:`dynamics_key`."""
+    return _dynamics_prep(dynamics_key(design), design)
+
+
+def dynamics(design, pressure_pa: float) -> dict:
+    """Modes, damping, Q and noise of a parsed plate design at one gas pressure."""
+    return evaluate_dynamics(dynamics_prep(design), pressure_pa)
 
 
 @st.cache_data(show_spinner=False, max_entries=16)
-def pressure_sweep(text: str, url: str):
-    return pressure_sweep_df(load_design_text(text), prep=dynamics_prep(text, url))
+def _pressure_sweep(key: str, _design):
+    return pressure_sweep_df(_design, prep=dynamics_prep(_design))
+
+
+def pressure_sweep(design):
+    """Q against pressure for each mode, once per :func:`dynamics_key`."""
+    return _pressure_sweep(dynamics_key(design), design)
 
 
 # ---------------------------------------------------------------------------
@@ -292,7 +311,7 @@ _OPTIMISED = _Memo(4)
 
 
 def _optimise_key(key: tuple, url: str) -> tuple:
-    return key, url, cache.catalogue_key(url)
+    return key, url, sh.catalogue_stamp(url)
 
 
 def optimise_done(key: tuple, url: str) -> bool:
@@ -314,11 +333,3 @@ def run_optimise(key: tuple, url: str, label: str = "Sizing:"):
     return value
 
 
-def _forget() -> None:
-    """A database write: forget what is keyed by text only (dynamics reads conductivities)."""
-    dynamics_prep.clear()
-    pressure_sweep.clear()
-    field_map.clear()
-
-
-sh.CLEAR_HOOKS["results"] = _forget

@@ -150,37 +150,90 @@ def shown_errors(where: str | None = None):
 
 
 # ---------------------------------------------------------------------------
-# cached library calls (keyed by their arguments and the database URL)
+# cached library calls, keyed by their arguments and the catalogue's content
 # ---------------------------------------------------------------------------
 
+_STAMP = "_catalogue_stamp"
+
+
+def catalogue_stamp(url: str) -> str:
+    """Content key of the catalogue in force (every material's and grade's values in use,
+    :func:`matdb.analysis.cache.catalogue_key`), read once per page run (about 10 ms):
+    the page's tables are cached under it, so a value recorded, retracted or imported
+    anywhere (the CLI, another session) shows on the next run."""
+    held = st.session_state.get(_STAMP)
+    if held is not None and held[0] == url:
+        return held[1]
+    from matdb.analysis.cache import catalogue_key
+
+    stamp = catalogue_key(url)
+    st.session_state[_STAMP] = (url, stamp)
+    return stamp
+
+
+def begin_run(url: str) -> None:
+    """At the start of every page run: read the catalogue's content key afresh."""
+    st.session_state.pop(_STAMP, None)
+    catalogue_stamp(url)
+
+
 @st.cache_data(show_spinner=False, max_entries=32)
-def materials_table(convention: str, url: str):
+def _materials_table(convention: str, url: str, stamp: str):
     return presentation.materials_table(convention, url)
 
 
+def materials_table(convention: str, url: str):
+    """Materials with their values in use, in a susceptibility convention."""
+    return _materials_table(convention, url, catalogue_stamp(url))
+
+
 @st.cache_data(show_spinner=False, max_entries=8)
-def arrangement_reach(url: str):
+def _arrangement_reach(url: str, grades_key: str):
     return reach.arrangement_reach(url=url)
 
 
+def arrangement_reach(url: str):
+    """The reach of the common arrangements, keyed on the values of the grades they use."""
+    used = sorted({spec.grade for spec in reach.STANDARD_ARRANGEMENTS})
+    grades = magnets_df(url)
+    return _arrangement_reach(url, frame_key(grades[grades["grade"].isin(used)]))
+
+
 @st.cache_data(show_spinner=False, max_entries=8)
-def magnets_df(url: str):
+def _magnets_df(url: str, stamp: str):
     return catalog.magnets_df(url)
 
 
+def magnets_df(url: str):
+    """Magnet grades with their values in use."""
+    return _magnets_df(url, catalogue_stamp(url))
+
+
 @st.cache_data(show_spinner=False, max_entries=64)
-def grade_curves(url: str, grades: tuple[str, ...], t_min_c: float, t_max_c: float):
+def _grade_curves(url: str, stamp: str, grades: tuple[str, ...], t_min_c: float, t_max_c: float):
     return presentation.grade_temperature_curves(magnets_df(url), list(grades), t_min_c, t_max_c)
 
 
+def grade_curves(url: str, grades: tuple[str, ...], t_min_c: float, t_max_c: float):
+    return _grade_curves(url, catalogue_stamp(url), grades, t_min_c, t_max_c)
+
+
 @st.cache_data(show_spinner=False, max_entries=8)
-def status_marks(url: str):
+def _status_marks(url: str, stamp: str):
     return catalog.status_marks(url)
 
 
+def status_marks(url: str):
+    return _status_marks(url, catalogue_stamp(url))
+
+
 @st.cache_data(show_spinner=False, max_entries=8)
-def sources_table(url: str):
+def _sources_table(url: str, stamp: str):
     return presentation.sources_table(url)
+
+
+def sources_table(url: str):
+    return _sources_table(url, catalogue_stamp(url))
 
 
 def check_column_config(columns) -> dict:
@@ -246,22 +299,13 @@ def chart(content: tuple, build, where=None, **kwargs):
     return where.vega_lite_chart(_chart_spec(content, build), **kwargs)
 
 
-#: Functions that forget cached values after a database write, by name (modules that cache more add theirs).
-CLEAR_HOOKS: dict = {}
-
-
 def clear_catalog_caches() -> None:
-    """After a write to the database (a lab value), forget cached tables. Results keyed on
-    their content (levitate, advisor) need no clearing: the values in use are in their key."""
-    status_marks.clear()
-    materials_table.clear()
-    magnets_df.clear()
-    grade_curves.clear()
-    arrangement_reach.clear()
-    sources_table.clear()
-    _chart_spec.clear()
-    for hook in CLEAR_HOOKS.values():
-        hook()
+    """After a write to the database by this page: read the catalogue's content key afresh
+    (tables and results are keyed on it, or on the values they use) and forget what is
+    keyed on something else (status marks and sources follow provenance rows too)."""
+    st.session_state.pop(_STAMP, None)
+    _status_marks.clear()
+    _sources_table.clear()
 
 
 def checked(parse, value: str, where: str):

@@ -20,6 +20,7 @@ PAGES = [
     st.Page("views/lab_values.py", title="Lab values"),
 ]
 
+sh.begin_run(sh.db_url())  # the catalogue's content key: tables recompute after any write, wherever made
 if os.environ.get("MATDB_PAGE_WARM_UP", "1") != "0":  # MATDB_PAGE_WARM_UP=0: no background computing
     sh.warm_up_in_background(sh.db_url())
 sh.run_page(st.navigation(PAGES))  # one-line errors on the page, tracebacks to server stderr

@@ -26,11 +26,10 @@ import json
 from pathlib import Path
 from typing import Any
 
-import joblib
-
-from matdb import advisor as engine
-from matdb.analysis.levitate import levitate as _levitate_fn
 from matdb.data import catalog
+
+# joblib, the advisor and the levitate analysis are imported on first use: the light pages
+# key their tables on :func:`catalogue_key` without paying for the analysis modules
 
 #: Bumped when the layout of a cached value changes.
 CACHE_VERSION = "1"
@@ -42,17 +41,21 @@ _CODE = ("physics", "analysis", "design", "advisor", "data/catalog.py", "units.p
 _NOT_CONTENT = ("name", "description", "source")
 
 _FINGERPRINT: str | None = None
-_MEMORY: dict[str, joblib.Memory] = {}
+_MEMORY: dict = {}
 
 
 def cache_dir() -> Path:
     """``$MATDB_CACHE_DIR/results``, else the user cache folder's ``results`` (beside the
     advisor's tables, :func:`matdb.advisor.engine.cache_dir`)."""
+    from matdb import advisor as engine
+
     return engine.cache_dir().parent / "results"
 
 
-def memory() -> joblib.Memory:
-    """The joblib store in :func:`cache_dir` (one per folder, so tests can move it)."""
+def memory():
+    """The :class:`joblib.Memory` store in :func:`cache_dir` (one per folder, so tests can move it)."""
+    import joblib
+
     path = str(cache_dir())
     mem = _MEMORY.get(path)
     if mem is None:
@@ -151,6 +154,12 @@ def _memorized(func, ignore: list[str]):
     return fn
 
 
+def _levitate_fn(design, **kw) -> dict:
+    from matdb.analysis.levitate import levitate
+
+    return levitate(design, **kw)
+
+
 def _levitate(key: str, temp_k, gap_m, payloads, resolution_m, design) -> dict:
     return _levitate_fn(design, temp_k=temp_k, gap_m=gap_m,
                         payloads_kg=None if payloads is None else list(payloads), resolution_m=resolution_m)
@@ -172,6 +181,8 @@ def levitate(design, temp_k: float | None = None, gap_m: float | None = None, pa
 
 
 def _advise(key: str, params: tuple, url):
+    from matdb import advisor as engine
+
     return engine.advise(url=url, **dict(params))
 
 

@@ -400,7 +400,8 @@ def record_q_value(material_id: str, *, q: Any = None, ring_down: Any = None,
         if pressure not in (None, "") else None
     t_k = parse_temperature(temperature, "temperature") if temperature not in (None, "") else None
     if qv is None and tau is None:
-        raise InputError("give a measured Q (--q 1200) or a ring-down time (--ring-down '2.5 s')", field="q")
+        raise InputError("expected a measured quality factor (such as 1200) or a ring-down time "
+                         "(ring_down, such as '2.5 s'); neither was given", field="q")
     if f is not None:
         if qv is None:
             qv = math.pi * f * tau

@@ -245,7 +245,7 @@ def _json_rows(text: str, label: str) -> list[tuple[str, dict[str, str]]]:
     except json.JSONDecodeError as exc:
         raise InputError(f"{label}: not valid JSON (line {exc.lineno}: {exc.msg})") from None
     if not isinstance(data, dict) or data.get("format") != "matdb-export":
-        raise InputError(f"{label}: JSON import expects a file written by 'matdb export --format json'")
+        raise InputError(f"{label}: expected a matdb JSON export (an object with \"format\": \"matdb-export\")")
     rows = []
     for group in ("sources", "materials", "grades", "values"):
         items = data.get(group, [])

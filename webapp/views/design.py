@@ -456,9 +456,9 @@ if result.get("mode") == "plate":
         dyn_bar = st.progress(0.05, text="Meshing the plate, solving the eddy currents and the air film "
                                          "(step 1 of 2)...")
         try:
-            dres = rs.dynamics_text(text, pressure, url)
+            dres = rs.dynamics(design, pressure)
             dyn_bar.progress(0.5, text="Q against pressure for each mode (step 2 of 2)...")
-            sweep = rs.pressure_sweep(text, url)
+            sweep = rs.pressure_sweep(design)
         except MatdbError as exc:
             dyn_bar.empty()
             st.error(sh.plain(f"dynamics: {exc}"))
