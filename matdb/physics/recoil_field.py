@@ -105,11 +105,9 @@ class _Table:
             h *= 1.25
         n = sfft.next_fast_len(int(math.ceil(period / h)), real=True)
         self.h = h
+        self.origin = np.array([lo[0] - margin, lo[1] - margin])
         self.nb = np.array([int(math.ceil((hi[0] - lo[0] + 2 * margin) / h)) + 1,
                             int(math.ceil((hi[1] - lo[1] + 2 * margin) / h)) + 1])
-        # nodes placed symmetrically about the magnets' centre, so a mirror-symmetric
-        # arrangement gets a mirror-symmetric table (the plate analysis folds on it)
-        self.origin = 0.5 * (lo[:2] + hi[:2]) - 0.5 * (self.nb - 1) * h
         self.top = float(top_z)
         self.z0 = h
         z_span = max(HEIGHT_M, extent)
