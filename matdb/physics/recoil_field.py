@@ -58,6 +58,8 @@ __all__ = ["CorrectionField", "SPACING_M", "clear_tables"]
 SPACING_M = 2.5e-4
 #: Order of the spline interpolation between the tabulated values (1: trilinear).
 ORDER = 1
+#: Height levels transformed together.
+LEVEL_CHUNK = 8
 #: Largest FFT grid per axis.
 MAX_GRID = 768
 #: Relative spacing of the height levels (geometric above the first, ``h``).
@@ -66,8 +68,8 @@ Z_RATIO = 0.12
 #: the magnets' extent).
 MARGIN_M = 5e-3
 MARGIN_FRAC = 0.35
-#: Height of the table above the top face [m] (and at least the magnets' extent).
-HEIGHT_M = 1e-2
+#: Height of the table above the top face [m] (and at least twice the magnets' extent).
+HEIGHT_M = 5e-2
 _TABLES: dict = {}
 _LOCK = threading.Lock()
 _TABLES_MAX = 8
@@ -110,7 +112,7 @@ class _Table:
                             int(math.ceil((hi[1] - lo[1] + 2 * margin) / h)) + 1])
         self.top = float(top_z)
         self.z0 = h
-        z_span = max(HEIGHT_M, extent)
+        z_span = max(HEIGHT_M, 2 * extent)
         nz = int(math.ceil(math.log1p(z_span / self.z0) / Z_RATIO)) + 1
         self.nz = nz
         self.z_hi = self.top + self.z0 * math.expm1(Z_RATIO * (nz - 1))
@@ -127,10 +129,13 @@ class _Table:
         # (component, level, x, y): points of one horizontal plane (a plate's quadrature)
         # then read two neighbouring levels, which stay in cache
         coef = np.empty((3, nz, self.nb[0], self.nb[1]), dtype=np.float32)
-        for j, zl in enumerate(levels):  # one level at a time: bounded memory
-            lev = spec * np.exp(-kabs * zl)[:, :, None]
-            vals = sfft.irfft2(lev, s=(n, n), axes=(0, 1), workers=-1)
-            coef[:, j] = np.moveaxis(vals[:self.nb[0], :self.nb[1], :], 2, 0)
+        for j0 in range(0, nz, LEVEL_CHUNK):  # a few levels at a time: bounded memory
+            zl = levels[j0:j0 + LEVEL_CHUNK]
+            lev = spec[None] * np.exp(-kabs[None] * zl[:, None, None])[..., None]
+            # inverse along x, keep the table's rows, then along y (half spectrum)
+            lev = sfft.ifft(lev, axis=1, workers=-1)[:, :self.nb[0]]
+            vals = sfft.irfft(lev, n=n, axis=2, workers=-1)[:, :, :self.nb[1]]
+            coef[:, j0:j0 + zl.size] = np.moveaxis(vals, 3, 0)
         self.order = ORDER
         if ORDER > 1:
             for c in range(3):
