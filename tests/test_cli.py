@@ -24,8 +24,8 @@ print(json.dumps(sorted(m for m in sys.modules if m.split('.')[0] in {heavy!r}))
 """
 
 
-def _modules_imported_by(argv: list[str]) -> list[str]:
-    code = _PROBE.format(argv=argv, heavy=HEAVY)
+def _modules_imported_by(argv: list[str], heavy=HEAVY) -> list[str]:
+    code = _PROBE.format(argv=argv, heavy=heavy)
     r = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=300)
     assert r.returncode == 0, r.stderr
     return json.loads(r.stdout.strip().splitlines()[-1])
@@ -49,6 +49,16 @@ def test_table_command_needs_no_pandas_pint_or_scipy():
     main(["seed"])
     mods = _modules_imported_by(["materials"])
     assert not {"pandas", "pint", "scipy"} & set(mods)
+
+
+@pytest.mark.parametrize("argv", [["materials"], ["magnets"], ["show", "bismuth"]])
+def test_listing_reads_without_orm_models_or_alembic(argv):
+    # regression check: a seeded database at the newest schema is read with SQLAlchemy Core
+    # alone (no sqlmodel/pydantic models, no Alembic, no ORM)
+    main(["seed"])
+    mods = set(_modules_imported_by(argv, heavy=("sqlmodel", "pydantic", "alembic", "sqlalchemy", "pandas")))
+    assert "sqlalchemy" in mods
+    assert not {"sqlmodel", "pydantic", "alembic", "pandas", "sqlalchemy.orm", "matdb.data.models"} & mods
 
 
 def test_help_lists_every_command(capsys):

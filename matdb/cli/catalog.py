@@ -7,7 +7,6 @@ import math
 from matdb.cli import summary
 from matdb.data import catalog
 from matdb.data.db import default_url, get_engine
-from matdb.data.seed import seed_database
 from matdb.errors import InputError, NotFoundError
 from matdb.limits import check_chi
 from matdb.output import add_format_argument, emit, format_table, with_marks
@@ -286,6 +285,8 @@ def _register_admin(sub) -> None:
 
 
 def cmd_seed(args) -> int:
+    from matdb.data.seed import seed_database  # lazy: only `seed` needs the ORM models (start-up)
+
     url = default_url()
     counts = seed_database(get_engine(url, seed=False))
     shown = url if "@" not in url else url.split("@", 1)[-1]

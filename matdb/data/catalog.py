@@ -1,6 +1,10 @@
 """Lookups over the database: the value in use for each material and grade, as plain
 dataclasses of SI floats (for the physics) or pandas DataFrames (for tables and the page).
 
+Reads go through :func:`matdb.data.db.reading` (SQLAlchemy Core on the tables as the
+database has them; rows read as attributes), so a lookup or a listing imports neither the
+ORM models nor Alembic when the database is ready (start-up of the command line).
+
 The value in use is the *preferred* value: the one set with ``matdb prefer``; else the
 newest measured value (by measurement date, then entry time); else the published value
 (standard, then handbook, then estimate). Retracted values are never used.
@@ -17,23 +21,11 @@ from typing import TYPE_CHECKING, Iterable, Optional
 if TYPE_CHECKING:
     import pandas as pd
 
-from sqlmodel import Session, select
+from sqlalchemy import select
 
 from matdb.constants import kelvin_to_celsius
-from matdb.data.db import get_engine, read_session
-from matdb.data.models import (
-    FAMILIES,
-    PROVENANCE_STATUSES,
-    ConductivityValue,
-    MagnetGrade,
-    MagnetValue,
-    Material,
-    PropertyValue,
-    Source,
-    SusceptibilityValue,
-    ValueProvenance,
-)
-from matdb.data.seed import seed_database
+from matdb.data.db import Reader, get_engine, reading
+from matdb.data.vocab import FAMILIES, PROVENANCE_STATUSES
 from matdb.errors import InputError, NotFoundError
 
 _QUALITY_RANK = {"standard": 0, "handbook": 1, "estimate": 2, "measured": 3}
@@ -141,11 +133,11 @@ def choose_preferred(values: list, preferred_id: Optional[int]):
     return min(live, key=lambda v: (_QUALITY_RANK.get(v.quality, 9), v.id or 0))
 
 
-def _sources(s: Session) -> dict[str, Source]:
-    return {src.key: src for src in s.exec(select(Source)).all()}
+def _sources(r: Reader) -> dict:
+    return {src.key: src for src in r.rows("source")}
 
 
-def _material_props(m: Material, values: list[SusceptibilityValue], sources) -> MaterialProps:
+def _material_props(m, values: list, sources) -> MaterialProps:
     v = choose_preferred(values, m.preferred_value_id)
     if v is None:
         raise NotFoundError(f"material {m.id}: every value is retracted")
@@ -165,7 +157,7 @@ def _material_props(m: Material, values: list[SusceptibilityValue], sources) -> 
     )
 
 
-def _grade_props(g: MagnetGrade, values: list[MagnetValue], sources) -> GradeProps:
+def _grade_props(g, values: list, sources) -> GradeProps:
     v = choose_preferred(values, g.preferred_value_id)
     if v is None:
         raise NotFoundError(f"grade {g.grade}: every value is retracted")
@@ -189,26 +181,26 @@ def _grade_props(g: MagnetGrade, values: list[MagnetValue], sources) -> GradePro
     )
 
 
-def _values_by(s: Session, model, key_attr: str) -> dict[str, list]:
+def _values_by(r: Reader, table: str, key_attr: str) -> dict[str, list]:
     out: dict[str, list] = {}
-    for v in s.exec(select(model)).all():
+    for v in r.rows(table):
         out.setdefault(getattr(v, key_attr), []).append(v)
     return out
 
 
 def list_materials(url: str | None = None) -> list[MaterialProps]:
-    with read_session(url) as s:
-        sources = _sources(s)
-        values = _values_by(s, SusceptibilityValue, "material_id")
-        mats = s.exec(select(Material).order_by(Material.id)).all()
+    with reading(url) as r:
+        sources = _sources(r)
+        values = _values_by(r, "susceptibilityvalue", "material_id")
+        mats = r.rows("material", order_by=[lambda t: t.c.id])
         return [_material_props(m, values.get(m.id, []), sources) for m in mats if values.get(m.id)]
 
 
 def list_grades(url: str | None = None) -> list[GradeProps]:
-    with read_session(url) as s:
-        sources = _sources(s)
-        values = _values_by(s, MagnetValue, "grade")
-        grades = s.exec(select(MagnetGrade)).all()
+    with reading(url) as r:
+        sources = _sources(r)
+        values = _values_by(r, "magnetvalue", "grade")
+        grades = r.rows("magnetgrade")
         out = [_grade_props(g, values.get(g.grade, []), sources) for g in grades if values.get(g.grade)]
     return sorted(out, key=grade_sort_key)
 
@@ -224,29 +216,39 @@ def grade_sort_key(g) -> tuple:
     return (_FAMILY_ORDER.get(g.family, 9), suffix, g.br_t, g.grade)
 
 
+def _material_row(r: Reader, material_id: str):
+    m = r.first("material", lambda t: t.c.id == material_id)
+    if m is None:
+        ids = [x.id for x in r.rows("material")]
+        raise NotFoundError(f"unknown id {material_id!r}{did_you_mean(material_id, ids)}", field="material")
+    return m
+
+
+def _grade_row(r: Reader, grade: str):
+    g = r.first("magnetgrade", lambda t: t.c.grade == grade)
+    if g is None:
+        # grades are case-sensitive in the trade (N42SH); accept any case when unique
+        rows = r.rows("magnetgrade")
+        same = [x for x in rows if x.grade.lower() == grade.lower()]
+        if len(same) != 1:
+            raise NotFoundError(f"unknown magnet grade {grade!r}{did_you_mean(grade, [x.grade for x in rows])}",
+                                field="grade")
+        g = same[0]
+    return g
+
+
 def get_material(material_id: str, url: str | None = None) -> MaterialProps:
-    with read_session(url) as s:
-        m = s.get(Material, material_id)
-        if m is None:
-            ids = s.exec(select(Material.id)).all()
-            raise NotFoundError(f"unknown id {material_id!r}{did_you_mean(material_id, ids)}", field="material")
-        values = s.exec(select(SusceptibilityValue).where(SusceptibilityValue.material_id == m.id)).all()
-        return _material_props(m, list(values), _sources(s))
+    with reading(url) as r:
+        m = _material_row(r, material_id)
+        values = r.rows("susceptibilityvalue", lambda t: t.c.material_id == m.id)
+        return _material_props(m, values, _sources(r))
 
 
 def get_grade(grade: str, url: str | None = None) -> GradeProps:
-    with read_session(url) as s:
-        g = s.get(MagnetGrade, grade)
-        if g is None:
-            # grades are case-sensitive in the trade (N42SH); accept any case when unique
-            all_grades = s.exec(select(MagnetGrade.grade)).all()
-            same = [x for x in all_grades if x.lower() == grade.lower()]
-            if len(same) == 1:
-                g = s.get(MagnetGrade, same[0])
-            else:
-                raise NotFoundError(f"unknown magnet grade {grade!r}{did_you_mean(grade, all_grades)}", field="grade")
-        values = s.exec(select(MagnetValue).where(MagnetValue.grade == g.grade)).all()
-        return _grade_props(g, list(values), _sources(s))
+    with reading(url) as r:
+        g = _grade_row(r, grade)
+        values = r.rows("magnetvalue", lambda t: t.c.grade == g.grade)
+        return _grade_props(g, values, _sources(r))
 
 
 def material_record(p: MaterialProps) -> dict:
@@ -291,16 +293,12 @@ def magnets_df(url: str | None = None) -> "pd.DataFrame":
 
 def material_values(material_id: str, url: str | None = None) -> list[dict]:
     """Every susceptibility row of a material with its provenance (for show/history)."""
-    with read_session(url) as s:
-        m = s.get(Material, material_id)
-        if m is None:
-            ids = s.exec(select(Material.id)).all()
-            raise NotFoundError(f"unknown id {material_id!r}{did_you_mean(material_id, ids)}", field="material")
-        values = list(s.exec(select(SusceptibilityValue).where(SusceptibilityValue.material_id == m.id)
-                             .order_by(SusceptibilityValue.id)).all())
+    with reading(url) as r:
+        m = _material_row(r, material_id)
+        values = r.rows("susceptibilityvalue", lambda t: t.c.material_id == m.id, order_by=[lambda t: t.c.id])
         pref = choose_preferred(values, m.preferred_value_id)
-        sources = _sources(s)
-        prov = _prov_by_row(s, "chi")
+        sources = _sources(r)
+        prov = _prov_by_row(r, "chi")
         rows = []
         for v in values:
             src = sources.get(v.source_key)
@@ -327,13 +325,13 @@ def material_values(material_id: str, url: str | None = None) -> list[dict]:
 
 
 def grade_values(grade: str, url: str | None = None) -> list[dict]:
-    g = get_grade(grade, url)
-    with read_session(url) as s:
-        values = list(s.exec(select(MagnetValue).where(MagnetValue.grade == g.grade).order_by(MagnetValue.id)).all())
-        grade_row = s.get(MagnetGrade, g.grade)
+    g = get_grade(grade, url)  # unknown grade, or every value retracted: one line
+    with reading(url) as r:
+        grade_row = _grade_row(r, g.grade)
+        values = r.rows("magnetvalue", lambda t: t.c.grade == grade_row.grade, order_by=[lambda t: t.c.id])
         pref = choose_preferred(values, grade_row.preferred_value_id)
-        sources = _sources(s)
-        prov = _prov_by_row(s, "magnet")
+        sources = _sources(r)
+        prov = _prov_by_row(r, "magnet")
         rows = []
         for v in values:
             src = sources.get(v.source_key)
@@ -380,16 +378,16 @@ _CHI_FIELD_OF_COLUMN = {"chi_si": "value_published", "chi_perp_si": "value_publi
                         "uncertainty_si": "uncertainty_published", "uncertainty": "uncertainty_published"}
 
 
-def _prov_dict(p: ValueProvenance, sources: dict) -> dict:
+def _prov_dict(p, sources: dict) -> dict:
     src = sources.get(p.source_key) if p.source_key else None
     return {"field": p.field, "status": p.status, "locator": p.locator, "source_key": p.source_key,
             "source": src.citation if src else None, "sources_tried": p.sources_tried, "note": p.note}
 
 
-def _prov_by_row(s: Session, value_kind: str) -> dict:
-    """value_row_id (or owner id for materials and properties) -> [ValueProvenance]."""
+def _prov_by_row(r: Reader, value_kind: str) -> dict:
+    """value_row_id (or owner id for materials and properties) -> [valueprovenance rows]."""
     out: dict = {}
-    for p in s.exec(select(ValueProvenance).where(ValueProvenance.value_kind == value_kind)).all():
+    for p in r.rows("valueprovenance", lambda t: t.c.value_kind == value_kind):
         key = p.value_row_id if value_kind in ("chi", "magnet") else p.owner_id
         out.setdefault(key, []).append(p)
     return out
@@ -412,9 +410,9 @@ def _row_provenance(v, prov: dict, sources: dict, fields: Iterable[str]) -> list
 
 def material_provenance(material_id: str, url: str | None = None) -> list[dict]:
     """Provenance of the material row's own numbers (density, molar mass)."""
-    with read_session(url) as s:
-        prov = _prov_by_row(s, "material")
-        return [_prov_dict(p, _sources(s)) for p in prov.get(material_id, [])]
+    with reading(url) as r:
+        prov = _prov_by_row(r, "material")
+        return [_prov_dict(p, _sources(r)) for p in prov.get(material_id, [])]
 
 
 def status_marks(url: str | None = None) -> dict[str, dict[str, dict[str, str]]]:
@@ -424,11 +422,11 @@ def status_marks(url: str | None = None) -> dict[str, dict[str, dict[str, str]]]
     a lab row is ``measured``.
     """
     out: dict[str, dict[str, dict[str, str]]] = {"material": {}, "magnet": {}}
-    with read_session(url) as s:
-        chi_prov, mag_prov, mat_prov = _prov_by_row(s, "chi"), _prov_by_row(s, "magnet"), _prov_by_row(s, "material")
-        chi_values = _values_by(s, SusceptibilityValue, "material_id")
-        mag_values = _values_by(s, MagnetValue, "grade")
-        for m in s.exec(select(Material)).all():
+    with reading(url) as r:
+        chi_prov, mag_prov, mat_prov = _prov_by_row(r, "chi"), _prov_by_row(r, "magnet"), _prov_by_row(r, "material")
+        chi_values = _values_by(r, "susceptibilityvalue", "material_id")
+        mag_values = _values_by(r, "magnetvalue", "grade")
+        for m in r.rows("material"):
             v = choose_preferred(chi_values.get(m.id, []), m.preferred_value_id)
             if v is None:
                 continue
@@ -440,7 +438,7 @@ def status_marks(url: str | None = None) -> dict[str, dict[str, dict[str, str]]]
             marks["density_kg_m3"] = ("measured" if v.quality == "measured" and v.density_kg_m3
                                       else dens.get("density_kg_m3", "unverified"))
             out["material"][m.id] = marks
-        for g in s.exec(select(MagnetGrade)).all():
+        for g in r.rows("magnetgrade"):
             vals = mag_values.get(g.grade, [])
             v = choose_preferred(vals, g.preferred_value_id)
             if v is None:
@@ -466,12 +464,12 @@ def mark(status: str | None) -> str:
 
 def list_properties(subject_id: str | None = None, url: str | None = None) -> list[dict]:
     """Further published properties (resistivity, thermal expansion, ...) with provenance."""
-    with read_session(url) as s:
-        sources = _sources(s)
-        prov = _prov_by_row(s, "property")
-        q = select(PropertyValue).order_by(PropertyValue.subject_kind, PropertyValue.subject_id, PropertyValue.key)
+    with reading(url) as r:
+        sources = _sources(r)
+        prov = _prov_by_row(r, "property")
         rows = []
-        for p in s.exec(q).all():
+        for p in r.rows("propertyvalue", order_by=[lambda t: t.c.subject_kind, lambda t: t.c.subject_id,
+                                                   lambda t: t.c.key]):
             if subject_id is not None and p.subject_id.lower() != subject_id.lower():
                 continue
             pv = [_prov_dict(x, sources) for x in prov.get(p.key, [])]
@@ -495,13 +493,13 @@ def sources_summary(status: str | None = None, url: str | None = None) -> list[d
     """
     if status is not None and status not in PROVENANCE_STATUSES:
         raise InputError(f"expected one of {', '.join(PROVENANCE_STATUSES)}, got {status!r}", field="status")
-    with read_session(url) as s:
+    with reading(url) as r:
         counts: dict[str, dict[str, int]] = {}
-        for p in s.exec(select(ValueProvenance)).all():
+        for p in r.rows("valueprovenance"):
             c = counts.setdefault(p.source_key or "", {k: 0 for k in PROVENANCE_STATUSES})
             c[p.status] += 1
         rows = []
-        for src in s.exec(select(Source).order_by(Source.key)).all():
+        for src in r.rows("source", order_by=[lambda t: t.c.key]):
             c = counts.get(src.key, {k: 0 for k in PROVENANCE_STATUSES})
             if status is not None and c[status] == 0:
                 continue
@@ -512,9 +510,9 @@ def sources_summary(status: str | None = None, url: str | None = None) -> list[d
 
 def provenance_totals(url: str | None = None) -> dict[str, int]:
     """How many stored published numbers have each status."""
-    with read_session(url) as s:
+    with reading(url) as r:
         out = {k: 0 for k in PROVENANCE_STATUSES}
-        for p in s.exec(select(ValueProvenance)).all():
+        for p in r.rows("valueprovenance"):
             out[p.status] += 1
         return out
 # electrical conductivities (eddy damping)
@@ -536,8 +534,10 @@ class ConductivityProps:
 def _ensure_conductivities(url: str | None) -> None:
     """A database made before conductivities existed gets them from the seed files
     (the seed write is idempotent and never touches measured rows)."""
-    with read_session(url) as s:
-        if s.exec(select(ConductivityValue.id).limit(1)).first() is not None:
+    from matdb.data.seed import seed_database  # lazy: seeding needs the ORM models
+
+    with reading(url) as r:
+        if r.conn.execute(select(r.table("conductivityvalue").c.id).limit(1)).first() is not None:
             return
     seed_database(get_engine(url))
 
@@ -549,15 +549,15 @@ def get_conductivity(material_id: str, url: str | None = None) -> Optional[Condu
     estimate; retracted rows are never used.
     """
     _ensure_conductivities(url)
-    with read_session(url) as s:
-        rows = [r for r in s.exec(select(ConductivityValue).where(
-            ConductivityValue.material_id == material_id)).all() if not r.retracted]
+    with reading(url) as r:
+        rows = [v for v in r.rows("conductivityvalue", lambda t: t.c.material_id == material_id)
+                if not v.retracted]
         if not rows:
             return None
         rows.sort(key=lambda r: (_QUALITY_RANK.get(r.quality, 2), -(r.id or 0)))
         measured = [r for r in rows if r.quality == "measured"]
         v = measured[0] if measured else rows[0]
-        src = _sources(s).get(v.source_key)
+        src = _sources(r).get(v.source_key)
         return ConductivityProps(material_id, float(v.sigma_in_plane_s_m),
                                  float(v.sigma_across_s_m), v.quality, v.source_key,
                                  v.source_note or (src.citation if src else v.source_key),

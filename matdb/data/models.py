@@ -14,11 +14,15 @@ from typing import Optional
 
 from sqlmodel import Field, SQLModel
 
-QUALITY_CLASSES = ("handbook", "standard", "measured", "estimate")
-MATERIAL_KINDS = ("diamagnetic", "paramagnetic")
-FAMILIES = ("NdFeB", "SmCo", "ferrite", "AlNiCo", "bonded-NdFeB")
-SOURCE_KINDS = ("handbook", "standard", "paper", "datasheet", "common-practice", "lab")
-AXES = ("iso", "perp", "par")
+from matdb.data.vocab import (  # noqa: F401  (re-exported: the words of the text columns)
+    AXES,
+    FAMILIES,
+    MATERIAL_KINDS,
+    PROVENANCE_STATUSES,
+    QUALITY_CLASSES,
+    SOURCE_KINDS,
+    VALUE_KINDS,
+)
 
 
 def _now() -> _dt.datetime:
@@ -122,10 +126,6 @@ class MagnetValue(SQLModel, table=True):
     entered_at: _dt.datetime = Field(default_factory=_now)
     retracted: bool = False
     retract_reason: Optional[str] = None
-
-
-PROVENANCE_STATUSES = ("verified", "corrected", "unverified")
-VALUE_KINDS = ("chi", "magnet", "material", "property", "conductivity")
 
 
 class ValueProvenance(SQLModel, table=True):
