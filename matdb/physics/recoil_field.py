@@ -111,9 +111,12 @@ class _Table:
             h *= 1.25
         n = sfft.next_fast_len(int(math.ceil(period / h)), real=True)
         self.h = h
-        self.origin = np.array([lo[0] - margin, lo[1] - margin])
-        self.nb = np.array([int(math.ceil((hi[0] - lo[0] + 2 * margin) / h)) + 1,
-                            int(math.ceil((hi[1] - lo[1] + 2 * margin) / h)) + 1])
+        # nodes symmetric about the middle of the magnets: a mirror-symmetric arrangement
+        # keeps a mirror-symmetric table and interpolation
+        mid = 0.5 * (lo[:2] + hi[:2])
+        half = np.ceil((0.5 * (hi[:2] - lo[:2]) + margin) / h).astype(int)
+        self.nb = 2 * half + 1
+        self.origin = mid - half * h
         self.top = float(top_z)
         self.z0 = h
         z_span = max(HEIGHT_M, 2 * extent)
