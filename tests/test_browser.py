@@ -172,9 +172,10 @@ def _open_at(browser, url: str, width: int):
 
 
 def _ready(page, heading: str) -> None:
+    # the advisor ranks on its first visit: on a loaded 2-core machine that can take minutes
     page.get_by_role("heading", name=heading, exact=True).first.wait_for(timeout=120_000)
     page.locator('[data-testid="stVegaLiteChart"]:visible, [data-testid="stDataFrame"]:visible'
-                 ).first.wait_for(timeout=120_000)
+                 ).first.wait_for(timeout=300_000)
     _wait_idle(page)
 
 
