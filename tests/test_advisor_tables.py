@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 
 from matdb import advisor as A
-from matdb.physics import plate as P
+from matdb.physics import plate_tables as PT
 
 
 def test_disk_cache_is_reused(tmp_path, monkeypatch):
@@ -23,7 +23,7 @@ def test_disk_cache_is_reused(tmp_path, monkeypatch):
     def boom(*a, **k):
         raise AssertionError("recomputed despite the cache")
 
-    monkeypatch.setattr(P, "plane_integrals", boom)
+    monkeypatch.setattr(PT, "plane_integrals", boom)
     again = A.geometry(spec, (0.008, 0.008), 0.05).coarse(hs)
     assert np.array_equal(first, again)
     A.clear_memory_cache()

@@ -76,3 +76,73 @@ def test_highest_root_grid_is_exact_for_an_exponential_lift():
     assert gap == pytest.approx(lam * np.log(3.0 / y), rel=1e-12)
     none, _, _ = PT.highest_root_grid(G, np.array([10.0, 1e-9]), gaps)
     assert np.isnan(none).all()  # above the curve, or below it everywhere on the grid
+
+
+def test_mirror_symmetry_of_checkerboards_and_of_an_offset_magnet():
+    # B and J are axial vectors (Jackson, Classical Electrodynamics, 3rd ed., sec. 6.10): a
+    # checkerboard centred on the origin maps onto itself or its negative under x -> -x
+    # and y -> -y, so |B|^2 is even; a magnet off the y axis breaks the x mirror only.
+    arr = build_arrangement("cuboid", (0.005, 0.005, 0.005), "checkerboard", 3, 3, 0.0,
+                            br=1.0).with_recoil([0.05] * 9)
+    assert PT.mirror_symmetry(arr) == (True, True)
+    one = build_arrangement("cuboid", (0.005, 0.004, 0.003), "single", 1, 1, 0.0, br=1.0)
+    moved = type(one)(tuple(m.__class__(m.shape, m.size, (0.002, 0.0, m.position[2]), m.direction, m.br)
+                            for m in one.magnets))
+    assert PT.mirror_symmetry(moved) == (False, True)
+    p = np.array([[0.003, 0.001, 0.004]])
+    q = p * np.array([1.0, -1.0, 1.0])
+    assert np.sum(moved.B(p) ** 2) == pytest.approx(np.sum(moved.B(q) ** 2), rel=1e-12)
+
+
+@pytest.mark.parametrize("shape,size,pattern,n", [("cuboid", (0.00635,) * 3, "checkerboard", 3),
+                                                  ("cuboid", (0.01,) * 3, "stripes", 2),
+                                                  ("cylinder", (0.01, 0.005), "checkerboard", 2)])
+def test_folded_rules_integrate_as_well_as_the_whole_plate(shape, size, pattern, n):
+    # An even integrand integrates to twice its integral over one half (any calculus text);
+    # the folded rule must be about as close to a converged reference (order 12, graded
+    # to the lowest height: Davis and Rabinowitz, Methods of Numerical Integration, ch. 2)
+    # as the rule over the whole plate (within twice its error; measured: 0.7-1.2 times).
+    arr = build_arrangement(shape, size, pattern, n, n, 0.0, br=1.0).with_recoil([0.05] * n * n)
+    even = PT.mirror_symmetry(arr)
+    assert even == (True, True)
+    bx, by = P.edge_lines(arr.magnets)
+    hs = np.array([2e-4, 1e-3, 3e-3])
+    ref = PT.plane_integrals(arr.B, 0.017, 0.017, bx, by, hs, 12, 5e-5)
+    whole = PT.plane_integrals(arr.B, 0.017, 0.017, bx, by, hs, 4, 5e-4)
+    fold = PT.plane_integrals(arr.B, 0.017, 0.017, bx, by, hs, 4, 5e-4, even)
+    e_whole = np.max(np.abs(whole - ref) / np.abs(ref))
+    e_fold = np.max(np.abs(fold - ref) / np.abs(ref))
+    assert e_whole < 1e-2 and e_fold <= 2.0 * e_whole
+    lref = PT.lateral_line_integrals(arr.B, 0.017, 0.017, bx, by, hs, 12, 5e-5, 1e-6)
+    lwhole = PT.lateral_line_integrals(arr.B, 0.017, 0.017, bx, by, hs, 4, 5e-4, 1e-6)
+    lfold = PT.lateral_line_integrals(arr.B, 0.017, 0.017, bx, by, hs, 4, 5e-4, 1e-6, even)
+    scale = np.max(np.abs(lref))
+    assert np.max(np.abs(lfold - lref)) <= 2.0 * np.max(np.abs(lwhole - lref)) + 1e-12 * scale
+
+
+def test_plane_integrals_without_folding_equal_the_plate_code():
+    # the same rule as matdb.physics.plate.plane_integrals (regression check of the two paths)
+    arr = build_arrangement("cuboid", (0.01,) * 3, "checkerboard", 2, 2, 0.0, br=1.0)
+    bx, by = P.edge_lines(arr.magnets)
+    hs = np.array([2e-4, 1e-3])
+    geom = P.PlateGeometry("rectangle", 0.012, 0.012, 1e-3, 0.0, 0.0, bx, by)
+    iz, ixy = P.plane_integrals(arr.B, geom, hs, 4, rule_heights=np.maximum(hs, 5e-4))
+    got = PT.plane_integrals(arr.B, 0.012, 0.012, bx, by, hs, 4, 5e-4)
+    assert np.allclose(got, np.column_stack([iz, ixy]), rtol=1e-13, atol=0)
+
+
+@pytest.mark.parametrize("pattern,n", [("checkerboard", 3), ("stripes", 3), ("checkerboard", 2)])
+def test_linear_family_equals_each_field_on_its_own(pattern, n):
+    # superposition: the field is linear in the sources' polarisations (Jackson, Classical
+    # Electrodynamics, 3rd ed., sec. 5.8), so the basis combination equals each field
+    chis = (0.05, 0.1, 0.2, 1.0, 2.6)
+    arrs = [build_arrangement("cuboid", (0.00635,) * 3, pattern, n, n, 0.0, br=1.0).with_recoil([c] * n * n)
+            for c in chis]
+    fam = PT.linear_family(arrs)
+    rng = np.random.default_rng(7)
+    p = rng.uniform(-0.012, 0.012, (50, 3))
+    p[:, 2] = np.abs(p[:, 2]) + 0.0033
+    got = fam(p)
+    for a, b in zip(arrs, got):
+        want = a.B(p)
+        assert np.max(np.abs(b - want)) <= 1e-11 * np.max(np.abs(want))

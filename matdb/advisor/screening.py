@@ -29,7 +29,7 @@ import pandas as pd
 
 from matdb.advisor.candidates import Catalogue, grade_chi_rec
 from matdb.advisor.request import AdviceRequest
-from matdb.advisor.tables import SCREEN_HEIGHTS_M, GeometryData, geometry
+from matdb.advisor.tables import SCREEN_HEIGHTS_M, GeometryData, geometry, prepare_family
 from matdb.errors import InputError
 from matdb.physics import plate_tables as PT
 from matdb.physics import thermal as TH
@@ -68,24 +68,29 @@ def prepare_all(geos: list[GeometryData], heights: np.ndarray, lat_heights: np.n
     """Fill the tables every candidate needs. ``MATDB_ADVISOR_THREADS`` > 1 computes cold
     geometries in threads (numpy releases the GIL); the default is one thread, since on a
     busy 2-core machine threads measured no faster."""
-    def prep(g: GeometryData) -> None:
-        g.coarse(heights)
-        g.lateral(lat_heights)
-        g.demag_hmax()
-        g.save()
+    def prep(family: list[GeometryData]) -> None:
+        prepare_family(family, heights, lat_heights)
+        for g in family:
+            g.demag_hmax()
+            g.save()
 
-    cold = [g for g in geos if not g.is_ready(heights, lat_heights)]
+    groups: dict[tuple, list[GeometryData]] = {}
+    for g in geos:
+        if not g.is_ready(heights, lat_heights):
+            groups.setdefault((g.spec, g.plate_m), []).append(g)
+    cold = list(groups.values())
     try:
         want = int(os.environ.get("MATDB_ADVISOR_THREADS", "1"))
     except ValueError:
         want = 1
     workers = max(1, min(len(cold), want, os.cpu_count() or 1))
     if workers <= 1:
-        for i, g in enumerate(cold):
-            report(0.05 + 0.55 * i / len(cold), f"field integrals of {g.spec.description} ({i + 1} of {len(cold)})")
-            prep(g)
+        for i, fam in enumerate(cold):
+            report(0.05 + 0.55 * i / len(cold),
+                   f"field integrals of {fam[0].spec.description} ({i + 1} of {len(cold)})")
+            prep(fam)
         return
-    cold.sort(key=lambda g: -g.spec.count * (3 if g.spec.shape == "cylinder" else 1))
+    cold.sort(key=lambda f: -len(f) * f[0].spec.count * (3 if f[0].spec.shape == "cylinder" else 1))
     with ThreadPoolExecutor(max_workers=workers) as ex:
         list(ex.map(prep, cold))
 

@@ -29,7 +29,7 @@ from matdb.physics import plate as P
 from matdb.physics import plate_tables as PT
 from matdb.physics import thermal as TH
 
-CODE_VERSION = "advisor-2"
+CODE_VERSION = "advisor-3"
 
 #: screening height grid [m]: 0.05 to 0.2 mm, 0.25 mm steps to 6 mm, then wider to 20 mm
 SCREEN_HEIGHTS_M = np.concatenate([[5e-5, 1e-4, 1.5e-4, 2e-4], np.arange(1, 25) * 2.5e-4,
@@ -98,7 +98,7 @@ class GeometryData:
     Stores (all at ``B_r = 1 T``, split by field component):
 
     * ``coarse``: footprint integrals of ``B_z^2`` and ``B_x^2 + B_y^2`` per height, on the
-      screening rule of :func:`matdb.physics.plate.plane_integrals`;
+      screening rule of :func:`matdb.physics.plate_tables.plane_integrals`;
     * ``lateral``: :func:`matdb.physics.plate_tables.lateral_line_integrals` per height;
     * ``tilt<t>``: :func:`matdb.physics.plate_tables.tilt_tables` per gap for a thickness;
     * ``hmax``: the largest reverse field along the magnetisation found by
@@ -112,10 +112,9 @@ class GeometryData:
         self.plate_m = (float(plate_m[0]), float(plate_m[1]))
         self.chi_rec = float(chi_rec)
         # unit remanence, each magnet on its recoil line (linear in Br: scaled later)
-        self.unit = spec.build(1.0).with_recoil([self.chi_rec] * spec.count)
-        self.breaks = P.edge_lines(self.unit.magnets)
-        self.geom = P.PlateGeometry("rectangle", self.plate_m[0], self.plate_m[1], 1e-3, 0.0, 0.0,
-                                    *self.breaks)
+        self._unit = None
+        self.breaks = P.edge_lines(spec.build(1.0).magnets)
+        self._even: tuple[bool, bool] | None = None
         key = {"v": CODE_VERSION, "arr": spec.key(), "plate": [repr(v) for v in self.plate_m],
                "screen": [SCREEN_ORDER, repr(SCREEN_RULE_FLOOR_M), repr(LATERAL_STEP_M), TILT_ORDER],
                "physics": physics_fingerprint(), "chi_rec": repr(self.chi_rec)}
@@ -126,6 +125,22 @@ class GeometryData:
         self._arrays: dict[tuple, np.ndarray] = {}  # tables already assembled for a height set
         self.dirty = False
         self._loaded = False
+
+    @property
+    def unit(self):
+        """The arrangement at unit remanence on its recoil line (built on first use: a
+        geometry whose tables are all on disk never solves the recoil problem)."""
+        if self._unit is None:
+            self._unit = self.spec.build(1.0).with_recoil([self.chi_rec] * self.spec.count)
+        return self._unit
+
+    @property
+    def even(self) -> tuple[bool, bool]:
+        """Whether ``|B|^2`` is even in x and y (:func:`matdb.physics.plate_tables.mirror_symmetry`):
+        the plate rules are then folded onto a half or a quarter of the plate."""
+        if self._even is None:
+            self._even = PT.mirror_symmetry(self.unit)
+        return self._even
 
     # -- persistence ----------------------------------------------------------
     def load(self) -> None:
@@ -184,9 +199,8 @@ class GeometryData:
         """(n, 2): ``int B_z^2 dA``, ``int (B_x^2 + B_y^2) dA`` [T^2 m^2] at unit
         polarisation over the plate outline, on the screening rule."""
         def compute(h):
-            iz, ixy = P.plane_integrals(self.unit.B, self.geom, h, SCREEN_ORDER,
-                                        rule_heights=np.maximum(h, SCREEN_RULE_FLOOR_M))
-            return np.column_stack([iz, ixy])
+            return PT.plane_integrals(self.unit.B, *self.plate_m, *self.breaks, h, SCREEN_ORDER,
+                                      SCREEN_RULE_FLOOR_M, self.even)
 
         return self._fill("coarse", heights, compute)
 
@@ -194,7 +208,8 @@ class GeometryData:
         """(n, 4): :func:`matdb.physics.plate_tables.lateral_line_integrals` [T^2]."""
         def compute(hs):
             return PT.lateral_line_integrals(self.unit.B, *self.plate_m, *self.breaks, hs,
-                                             SCREEN_ORDER, SCREEN_RULE_FLOOR_M, LATERAL_STEP_M)
+                                             SCREEN_ORDER, SCREEN_RULE_FLOOR_M, LATERAL_STEP_M,
+                                             self.even)
 
         return self._fill("lateral", heights, compute)
 
@@ -231,6 +246,51 @@ class GeometryData:
         st = self.stores
         return (self.hmax is not None and all(k in st["coarse"] for k in _hkeys(heights))
                 and all(k in st["lateral"] for k in _hkeys(lat_heights)))
+
+
+def prepare_family(geos: list[GeometryData], heights, lat_heights) -> None:
+    """Fill the coarse and lateral tables of geometries that share an arrangement and a
+    plate and differ in recoil susceptibility, from one evaluation of their fields
+    (:func:`matdb.physics.plate_tables.linear_family`: the field is linear in the
+    magnets' polarisations, and the polarisations of the recoil solutions for the
+    catalogue's few recoil susceptibilities span fewer dimensions than there are values).
+    Each geometry's tables are the ones it would compute alone, to rounding."""
+    geos = list(dict.fromkeys(geos))
+    for g in geos:
+        g.load()
+    todo = {}
+    for name, hs in (("coarse", heights), ("lateral", lat_heights)):
+        keys = sorted({k for g in geos for k in _hkeys(hs) if k not in g.stores[name]})
+        if keys:
+            todo[name] = keys
+    if not todo:
+        return
+    family = PT.linear_family([g.unit for g in geos]) if len(geos) > 1 else None
+    # sources of each, the field once (the family holds every field)
+    evens = ({PT.mirror_symmetry(g.unit, field=family if i == 0 else False)
+              for i, g in enumerate(geos)} if family else set())
+    if len(evens) != 1:  # one geometry, or symmetries that differ: each on its own
+        for g in geos:
+            g.coarse(heights)
+            g.lateral(lat_heights)
+        return
+    even = evens.pop()
+    for g in geos:
+        g._even = even
+    first = geos[0]
+    for name, keys in todo.items():
+        h = np.array(keys, dtype=float) * HEIGHT_KEY_M
+        if name == "coarse":
+            vals = PT.plane_integrals(family, *first.plate_m, *first.breaks, h, SCREEN_ORDER,
+                                      SCREEN_RULE_FLOOR_M, even)
+        else:
+            vals = PT.lateral_line_integrals(family, *first.plate_m, *first.breaks, h, SCREEN_ORDER,
+                                             SCREEN_RULE_FLOOR_M, LATERAL_STEP_M, even)
+        for g, v in zip(geos, vals):
+            st = g.stores[name]
+            for k, row in zip(keys, v):
+                st.setdefault(k, tuple(float(x) for x in row))
+            g.dirty = True
 
 
 _GEOMETRIES: dict[tuple, GeometryData] = {}

@@ -29,11 +29,13 @@ References
 
 from __future__ import annotations
 
+from dataclasses import replace
 from typing import Callable
 
 import numpy as np
 
 from matdb.physics import plate as P
+from matdb.physics import quadrature as Q
 
 FieldFn = Callable[[np.ndarray], np.ndarray]
 
@@ -41,8 +43,250 @@ FieldFn = Callable[[np.ndarray], np.ndarray]
 TILT_DOFS = (0, 1, 3, 4)
 
 
+def mirror_symmetry(arrangement, rtol: float = 1e-9, field: FieldFn | None | bool = None
+                    ) -> tuple[bool, bool]:
+    """Whether ``|B|^2`` of ``arrangement`` is even in ``x`` and in ``y``.
+
+    A mirror ``x -> -x`` maps a magnet at ``(x, y, z)`` polarised ``(J_x, J_y, J_z)`` to one
+    at ``(-x, y, z)`` polarised ``(J_x, -J_y, -J_z)`` (polarisation and B are axial
+    vectors, [4]_); when the mirrored set of magnets (and of the recoil blocks
+    ``arrangement.cells``) is the original set times a common sign ``s = +-1``, the mirrored
+    field is ``s`` times the original one, so ``|B|^2`` is even in ``x``. A back plate
+    (a plane ``z = const``) does not break the symmetry. Checked on the sources, then
+    confirmed on the field at a few points (so a field model with parts that are not
+    sources is never folded wrongly); ``field`` (default ``arrangement.B``) is the field
+    checked, e.g. a :func:`linear_family` whose arrangements share these sources
+    (``False``: the sources only).
+
+    Returns
+    -------
+    (even_in_x, even_in_y) : tuple of bool
+
+    References
+    ----------
+    .. [4] J. D. Jackson, Classical Electrodynamics, 3rd ed., Wiley (1999), sec. 6.10
+       (B and M are axial vectors under reflection).
+    """
+    mags = list(arrangement.magnets)
+    if not mags:
+        return False, False
+    pos = np.array([m.position for m in mags], dtype=float)
+    size = np.array([tuple(m.size) + (0.0,) * (3 - len(m.size)) for m in mags], dtype=float)
+    kind = np.array([hash(m.shape) for m in mags], dtype=float)
+    J = np.array([m.polarization for m in mags], dtype=float)
+    desc = np.column_stack([kind, size])
+    cells = getattr(arrangement, "cells", None)
+    if cells is not None:
+        pos = np.concatenate([pos, np.asarray(cells[1], float)])
+        desc = np.concatenate([desc, np.column_stack([np.full(len(cells[0]), -1.0),
+                                                      np.asarray(cells[0], float)])])
+        J = np.concatenate([J, np.asarray(cells[2], float)])
+    scale = float(max(np.max(np.abs(pos)), np.max(np.abs(size)), 1e-300))
+    jmax = float(max(np.max(np.abs(J)), 1e-300))
+    out = []
+    for ax in (0, 1):
+        flip = np.ones(3)
+        flip[ax] = -1.0
+        out.append(_mirrored(pos, desc, J, flip, scale * rtol, jmax * rtol)
+                   and (field is False or _field_even(arrangement.B if field is None else field,
+                                                      arrangement, ax)))
+    return out[0], out[1]
+
+
+def _mirrored(pos, desc, J, flip, tol_x: float, tol_j: float) -> bool:
+    """Whether the sources mirrored by ``flip`` are the sources times one sign."""
+    mp = pos * flip
+    mj = -(J * flip)  # axial vector
+    d = np.max(np.abs(mp[:, None, :] - pos[None, :, :]), axis=2)
+    same = (d <= tol_x) & np.all(np.abs(desc[:, None, :] - desc[None, :, :]) <= tol_x, axis=2)
+    if not np.all(same.sum(axis=1) == 1):
+        return False
+    k = np.argmax(same, axis=1)
+    return any(np.all(np.abs(mj - s * J[k]) <= tol_j) for s in (1.0, -1.0))
+
+
+def _field_even(field: FieldFn, arrangement, ax: int) -> bool:
+    """``|B|^2`` at a few points above the magnets equals its value at their mirror
+    (``field`` may return one field (n, 3) or several (k, n, 3))."""
+    p = _probe_points(arrangement)
+    q = p.copy()
+    q[:, ax] *= -1.0
+    b = np.sum(field(np.concatenate([p, q])) ** 2, axis=-1)
+    n = p.shape[0]
+    return bool(np.all(np.abs(b[..., :n] - b[..., n:]) <= 1e-7 * float(np.max(b)) + 1e-300))
+
+
+def _source_vector(arrangement) -> np.ndarray:
+    """Every polarisation of the sources (magnets, then recoil blocks) as one vector [T]."""
+    j = [np.ravel([m.polarization for m in arrangement.magnets])]
+    if getattr(arrangement, "cells", None) is not None:
+        j.append(np.ravel(arrangement.cells[2]))
+    return np.concatenate(j)
+
+
+def _with_sources(arrangement, vector: np.ndarray):
+    """``arrangement`` with the source polarisations of ``vector`` (:func:`_source_vector`)."""
+    mags = []
+    m3 = 3 * len(arrangement.magnets)
+    for m, j in zip(arrangement.magnets, vector[:m3].reshape(-1, 3)):
+        n = float(np.linalg.norm(j))
+        mags.append(replace(m, direction=tuple(float(c) / n for c in j), br=n) if n > 0
+                    else replace(m, br=0.0))
+    cells = arrangement.cells
+    if cells is not None:
+        cells = (*cells[:2], vector[m3:].reshape(-1, 3), cells[3])
+    return replace(arrangement, magnets=tuple(mags), cells=cells)
+
+
+def linear_family(arrangements, rtol: float = 1e-12) -> FieldFn:
+    """One field function for several arrangements that differ only in polarisations.
+
+    The field is linear in the polarisations of its sources ([6]_), so when the
+    arrangements' source polarisations (magnets on recoil lines of different recoil
+    susceptibilities, say) span ``r`` dimensions, the fields of ``r`` basis arrangements
+    combine into all of them: ``B_j = sum_k Z[k, j] B_k``, from the singular value
+    decomposition of the polarisation vectors (directions below ``rtol`` of the largest
+    singular value dropped). The combination is checked against one arrangement's own
+    field at a few points (to 1e-9 of the largest value); where it fails, or the
+    arrangements differ in anything but polarisation, each field is evaluated on its own.
+
+    Returns
+    -------
+    callable
+        ``field(points (n, 3) [m]) -> B (k, n, 3) [T]``, one field per arrangement.
+
+    References
+    ----------
+    .. [6] J. D. Jackson, Classical Electrodynamics, 3rd ed., Wiley (1999), sec. 5.8
+       (the field of a magnetisation is linear in it: superposition).
+    """
+    arrs = list(arrangements)
+
+    def separate(p):
+        return np.stack([a.B(p) for a in arrs])
+
+    first = arrs[0]
+    same = all(len(a.magnets) == len(first.magnets) and a.back_plate == first.back_plate
+               and all(m.shape == n.shape and m.size == n.size and m.position == n.position
+                       for m, n in zip(a.magnets, first.magnets))
+               and (a.cells is None) == (first.cells is None)
+               and (a.cells is None or (np.array_equal(a.cells[0], first.cells[0])
+                                        and np.array_equal(a.cells[1], first.cells[1])))
+               for a in arrs)
+    if not same or len(arrs) == 1:
+        return separate
+    V = np.column_stack([_source_vector(a) for a in arrs])  # (sources x 3, k)
+    _, sv, zt = np.linalg.svd(V, full_matrices=False)
+    r = int(np.sum(sv > rtol * sv[0])) if sv.size and sv[0] > 0 else 0
+    if r == 0 or r >= len(arrs):
+        return separate
+    Z = zt[:r]  # (r, k)
+    basis = [_with_sources(first, u) for u in (V @ Z.T).T]  # exact zeros stay zeros
+
+    def combined(p):
+        b = np.stack([a.B(p) for a in basis])  # (r, n, 3)
+        return np.einsum("kj,knc->jnc", Z, b)
+
+    # the combination, checked on the arrangement furthest from the basis' first direction
+    probe = _probe_points(first)
+    far = int(np.argmin(np.abs(Z[0]) / np.linalg.norm(Z, axis=0)))
+    got, want = combined(probe)[far], arrs[far].B(probe)
+    if not np.all(np.abs(got - want) <= 1e-9 * float(np.max(np.abs(want))) + 1e-300):
+        return separate
+    return combined
+
+
+def _probe_points(arrangement) -> np.ndarray:
+    """A dozen points above and beside the magnets, for checks of a field model."""
+    pos = np.array([m.position for m in arrangement.magnets], dtype=float)
+    ext = np.array([m.half_extents for m in arrangement.magnets], dtype=float)
+    scale = float(np.max(np.abs(pos) + ext))
+    top = float(np.max(pos[:, 2] + ext[:, 2]))
+    rng = np.random.default_rng(12345)
+    p = rng.uniform(-1.0, 1.0, (12, 3)) * scale
+    p[:, 2] = top + scale * rng.uniform(0.02, 1.5, 12)
+    return p
+
+
+def axis_rule(length: float, breaks, scale: float, order: int, even: bool
+              ) -> tuple[np.ndarray, np.ndarray]:
+    """Graded compound Gauss-Legendre rule across a centred interval of ``length``.
+
+    ``even``: the integrand is even about 0, so only the half ``[0, length/2]`` is ruled
+    (graded towards every break, those at negative positions included) and its weights
+    doubled; the integral is the same, at half the nodes ([5]_). Otherwise the rule over
+    the whole interval of :func:`matdb.physics.quadrature.graded_rule`.
+
+    References
+    ----------
+    .. [5] P. J. Davis and P. Rabinowitz, Methods of Numerical Integration, 2nd ed.,
+       Academic Press (1984), ch. 2 (compound rules graded towards singular points).
+    """
+    half = 0.5 * float(length)
+    if not even:
+        return Q.graded_rule(-half, half, tuple(breaks), scale, order)
+    x, w = Q.graded_rule(0.0, half, tuple(breaks), scale, order)
+    return x, 2.0 * w
+
+
+def plane_integrals(field: FieldFn, lx: float, ly: float, breaks_x, breaks_y, heights,
+                    order: int, floor_m: float, even: tuple[bool, bool] = (False, False)
+                    ) -> np.ndarray:
+    """Integrals of ``B_z^2`` and ``B_x^2 + B_y^2`` over a centred ``lx`` x ``ly``
+    rectangle at each height, the rule graded for ``max(h, floor_m)``.
+
+    With ``even`` (from :func:`mirror_symmetry`) the rule covers one half (or quarter) of
+    the rectangle with doubled weights. Without, the same rule as
+    :func:`matdb.physics.plate.plane_integrals`.
+
+    Returns
+    -------
+    ndarray, shape (n, 2), or (k, n, 2) for a field returning k fields (:func:`linear_family`)
+        ``int B_z^2 dA``, ``int (B_x^2 + B_y^2) dA`` [T^2 m^2] per height.
+
+    References
+    ----------
+    .. [1] M. V. Berry and A. K. Geim, Eur. J. Phys. 18, 307 (1997).
+    """
+    hs = np.atleast_1d(np.asarray(heights, dtype=float))
+    pts, wts, idx = [], [], []
+    rules: dict[float, tuple] = {}
+    for i, h in enumerate(hs):
+        scale = max(float(h), floor_m)
+        r = rules.get(scale)
+        if r is None:
+            x, wx = axis_rule(lx, breaks_x, scale, order, even[0])
+            y, wy = axis_rule(ly, breaks_y, scale, order, even[1])
+            r = rules[scale] = (np.repeat(x, y.size), np.tile(y, x.size), np.outer(wx, wy).ravel())
+        pts.append(np.column_stack([r[0], r[1], np.full(r[0].size, h)]))
+        wts.append(r[2])
+        idx.append(np.full(r[0].size, i))
+    b = _evaluate(field, np.concatenate(pts))
+    w = np.concatenate(wts)
+    ii = np.concatenate(idx)
+    z = _sums(ii, w * b[..., 2] ** 2, hs.size)
+    xy = _sums(ii, w * (b[..., 0] ** 2 + b[..., 1] ** 2), hs.size)
+    return np.stack([z, xy], axis=-1)
+
+
+def _evaluate(field: FieldFn, points: np.ndarray) -> np.ndarray:
+    """``field`` at ``points`` in chunks; (n, 3) or, for several fields, (k, n, 3)."""
+    parts = [field(points[i:i + P.CHUNK]) for i in range(0, points.shape[0], P.CHUNK)]
+    return np.concatenate(parts, axis=-2)
+
+
+def _sums(index: np.ndarray, values: np.ndarray, n: int) -> np.ndarray:
+    """Sums of ``values`` (..., m) by ``index`` (m,): shape (..., n)."""
+    if values.ndim == 1:
+        return np.bincount(index, weights=values, minlength=n)
+    flat = values.reshape(-1, values.shape[-1])
+    out = np.stack([np.bincount(index, weights=v, minlength=n) for v in flat])
+    return out.reshape(*values.shape[:-1], n)
+
+
 def lateral_line_integrals(field: FieldFn, lx: float, ly: float, breaks_x, breaks_y, heights,
-                           order: int, floor_m: float, step_m: float) -> np.ndarray:
+                           order: int, floor_m: float, step_m: float,
+                           even: tuple[bool, bool] = (False, False)) -> np.ndarray:
     """Line integrals across the side faces of a centred ``lx`` x ``ly`` rectangle.
 
     For each height ``h`` and each of ``w_z = B_z^2`` and ``w_xy = B_x^2 + B_y^2``:
@@ -67,10 +311,13 @@ def lateral_line_integrals(field: FieldFn, lx: float, ly: float, breaks_x, break
         The rule is graded no finer than for this height [m].
     step_m : float
         Central-difference step across a face [m].
+    even : (bool, bool)
+        Whether ``|B|^2`` is even in x and in y (:func:`mirror_symmetry`): then half of
+        each face (:func:`axis_rule`) and one face of each pair are integrated.
 
     Returns
     -------
-    ndarray, shape (n, 4)
+    ndarray, shape (n, 4), or (k, n, 4) for a field returning k fields
         x faces ``w_z``, x faces ``w_xy``, y faces ``w_z``, y faces ``w_xy`` [T^2].
 
     References
@@ -79,36 +326,30 @@ def lateral_line_integrals(field: FieldFn, lx: float, ly: float, breaks_x, break
     """
     hs = np.atleast_1d(np.asarray(heights, dtype=float))
     d = float(step_m)
-    pts, wts, idx, comp = [], [], [], []
+    parts = []  # (points, weights, height index, 0 = x faces / 1 = y faces)
     for i, h in enumerate(hs):
         scale = max(float(h), floor_m)
-        y, wy = P.gauss_panels(P.graded_breaks(-ly / 2, ly / 2, breaks_y, scale), order)
-        x, wx = P.gauss_panels(P.graded_breaks(-lx / 2, lx / 2, breaks_x, scale), order)
-        for face in (1.0, -1.0):
-            for s in (1.0, -1.0):  # x faces, central difference in x
-                pts.append(np.column_stack([np.full(y.size, face * lx / 2 + s * d), y,
-                                            np.full(y.size, h)]))
-                wts.append(wy * s * face / (2 * d))
-                idx.append(np.full(y.size, i))
-                comp.append(np.zeros(y.size, dtype=int))
-            for s in (1.0, -1.0):  # y faces
-                pts.append(np.column_stack([x, np.full(x.size, face * ly / 2 + s * d),
-                                            np.full(x.size, h)]))
-                wts.append(wx * s * face / (2 * d))
-                idx.append(np.full(x.size, i))
-                comp.append(np.ones(x.size, dtype=int))
-    b = field(np.concatenate(pts))
-    w = np.concatenate(wts)
-    ii = np.concatenate(idx)
-    cc = np.concatenate(comp)
-    wz = w * b[:, 2] ** 2
-    wxy = w * (b[:, 0] ** 2 + b[:, 1] ** 2)
-    out = np.zeros((hs.size, 4))
-    for c in (0, 1):
-        sel = cc == c
-        out[:, 2 * c] = np.bincount(ii[sel], weights=wz[sel], minlength=hs.size)
-        out[:, 2 * c + 1] = np.bincount(ii[sel], weights=wxy[sel], minlength=hs.size)
-    return out
+        for c, (length, across, brk, ev_along, ev_across) in enumerate(
+                ((ly, lx, breaks_y, even[1], even[0]), (lx, ly, breaks_x, even[0], even[1]))):
+            t, wt = axis_rule(length, brk, scale, order, ev_along)
+            # faces at +-across/2, a central difference of w along the normal at each;
+            # w even across: the face at -across/2 adds what the one at +across/2 does
+            faces = (1.0,) if ev_across else (1.0, -1.0)
+            k = 2 * len(faces)
+            normal = np.repeat([f * across / 2 + sd * d for f in faces for sd in (1.0, -1.0)], t.size)
+            sign = np.repeat([sd * f * (2.0 if ev_across else 1.0) / (2 * d)
+                              for f in faces for sd in (1.0, -1.0)], t.size)
+            along = np.tile(t, k)
+            xy = (normal, along) if c == 0 else (along, normal)
+            parts.append((np.column_stack([xy[0], xy[1], np.full(along.size, h)]),
+                          sign * np.tile(wt, k), np.full(along.size, 2 * i + c)))
+    b = _evaluate(field, np.concatenate([q[0] for q in parts]))
+    w = np.concatenate([q[1] for q in parts])
+    ii = np.concatenate([q[2] for q in parts])
+    z = _sums(ii, w * b[..., 2] ** 2, 2 * hs.size)  # (..., height x faces)
+    xy = _sums(ii, w * (b[..., 0] ** 2 + b[..., 1] ** 2), 2 * hs.size)
+    out = np.stack([z, xy], axis=-1)  # (..., height x faces, part)
+    return out.reshape(*out.shape[:-2], hs.size, 4)
 
 
 def cumulative_over_height(lateral: np.ndarray, heights: np.ndarray) -> np.ndarray:
