@@ -166,24 +166,70 @@ def _cel_run(k: np.ndarray, runs: list, rtol: float, max_iter: int) -> list:
     return out
 
 
-def _cel_two(kc: np.ndarray, gamma: np.ndarray, rtol: float = 1e-8,
-             max_iter: int = 40) -> tuple[np.ndarray, np.ndarray]:
+def _cel_two(kc: np.ndarray, gamma: np.ndarray, rtol: float = 1e-8, max_iter: int = 40,
+             kmin: float | None = None) -> tuple[np.ndarray, np.ndarray]:
     """``cel(kc, 1, 1, -1)`` and ``cel(kc, gamma^2, 1, gamma)``, both divided by pi / 2,
     in one pass (``kc > 0``, ``gamma != 0``).
 
-    The first step of Bulirsch's algorithm written out for these parameters (``sqrt(p) = 1``
-    and ``|gamma|``), then the shared iteration of :func:`_cel_run` (same tolerance and
-    stopping rule as :func:`cel`).
+    Bulirsch's algorithm [1]_ with its first step written out for these parameters. For
+    ``p = 1`` its running ``p`` equals the arithmetic mean ``em`` at every step (both start
+    at ``1 + k`` and grow by the new ``k``), so that set needs no division by ``p``; the
+    second set runs as in :func:`_cel_run`. Same tolerance and stopping rule as :func:`cel`;
+    ``kmin`` is the smallest ``kc`` when the caller knows it.
+
+    References
+    ----------
+    .. [1] R. Bulirsch, Numer. Math. 13, 305-315 (1969), algorithm ``cel``.
     """
     k = kc
-    pp2 = np.abs(gamma)
-    g2 = k / pp2
-    run1 = [k + 1.0, np.zeros_like(k), 2.0 * (k - 1.0)]  # p = 1, c = 1, s = -1
-    cc2 = np.empty_like(k)
-    np.divide(1.0, gamma, out=cc2)  # broadcast over both moduli
-    cc2 += 1.0
-    run2 = [pp2 + g2, cc2, 2.0 * (np.sign(gamma) + g2)]  # p = gamma^2, c = 1, s = gamma
-    c1, c2 = _cel_run(k, [run1, run2], rtol, max_iter)
+    if kmin is None:
+        kmin = float(np.min(k)) if k.size else 1.0
+    steps = _agm_steps(kmin, rtol, max_iter)
+    em = k + 1.0
+    # set 1 (p = 1, c = 1, s = -1): after the first step c = 0, s = 2 (k - 1), p = em
+    c1 = np.zeros_like(k)
+    s1 = k - 1.0
+    s1 *= 2.0
+    # set 2 (p = gamma^2, c = 1, s = gamma): sqrt(p) = |gamma|, s / sqrt(p) = sign(gamma)
+    p2 = np.abs(gamma)
+    g = k / p2
+    c2 = np.empty_like(k)
+    np.divide(1.0, gamma, out=c2)  # broadcast over both end faces
+    c2 += 1.0
+    s2 = np.sign(gamma) + g
+    s2 *= 2.0
+    p2 = p2 + g
+    kk = k
+    for _ in range(steps):
+        k = np.sqrt(kk)
+        k *= 2.0
+        kk = k * em
+        # set 1: g = kk / em = k
+        t = c1 * k
+        c1 += s1 / em
+        s1 += t
+        s1 *= 2.0
+        # set 2
+        inv = 1.0 / p2
+        g = kk * inv
+        inv *= s2
+        inv += c2
+        c2 *= g
+        s2 += c2
+        s2 *= 2.0
+        p2 += g
+        c2 = inv
+        em += k
+    c1 *= em
+    c1 += s1
+    c1 /= em
+    c1 /= em
+    c1 *= 0.5  # (s + c em) / (em (em + p)) with p = em
+    c2 *= em
+    c2 += s2
+    p2 += em
+    p2 *= em
+    c2 /= p2
     return c1, c2
 
 
@@ -197,12 +243,13 @@ def _cyl_core(p: np.ndarray, radius, half_h, jz, centre, ell) -> np.ndarray:
     """
     x = p[:, 0:1] - centre[None, :, 0]
     y = p[:, 1:2] - centre[None, :, 1]
-    z = p[:, 2:3] - centre[None, :, 2]
+    zz = np.empty((2, p.shape[0], radius.shape[0]))  # z_+ and z_- (2, n, m)
+    np.subtract(p[:, 2:3], centre[:, 2] - half_h, out=zz[0])
+    np.subtract(p[:, 2:3], centre[:, 2] + half_h, out=zz[1])
     a = radius[None, :]
     rho = x * x
     rho += y * y
     np.sqrt(rho, out=rho)
-    zz = np.stack([z + half_h, z - half_h])  # z_+ and z_- (2, n, m)
     zz2 = zz * zz
     apr = a + rho
     amr = a - rho
@@ -219,12 +266,15 @@ def _cyl_core(p: np.ndarray, radius, half_h, jz, centre, ell) -> np.ndarray:
         gamma[on_wall] = 1.0
     # rim: kc == 0 only where rho == a and z == +-b; the divergent term is masked
     k_rim = ell / (2.0 * radius)
-    rim = kc <= EDGE_SNAP * k_rim
-    any_rim = bool(rim.any())
+    kmin = float(kc.min())
+    any_rim = kmin <= EDGE_SNAP * float(k_rim.max())
     if any_rim:
+        rim = kc <= EDGE_SNAP * k_rim
+        any_rim = bool(rim.any())
         kc = np.where(rim, k_rim, kc)
+        kmin = float(kc.min())
     # one iteration for both moduli and both parameter sets
-    c1, c2 = _cel_two(kc, gamma[None])
+    c1, c2 = _cel_two(kc, gamma[None], kmin=kmin)
     np.divide(1.0, d, out=d)
     c1 *= d  # alpha cel / a
     c2 *= d
@@ -237,8 +287,10 @@ def _cyl_core(p: np.ndarray, radius, half_h, jz, centre, ell) -> np.ndarray:
     b_z = c2[0] - c2[1]
     b_z *= half_ja
     b_z /= apr
-    with np.errstate(divide="ignore", invalid="ignore"):
-        w = np.divide(b_rho, rho, out=np.zeros_like(b_rho), where=rho > 0)  # B_rho / rho
+    if rho.min() > 0:
+        w = np.divide(b_rho, rho, out=b_rho)  # B_rho / rho
+    else:  # on an axis: B_rho = 0
+        w = np.divide(b_rho, rho, out=np.zeros_like(b_rho), where=rho > 0)
     return np.stack([np.einsum("ij,ij->i", w, x), np.einsum("ij,ij->i", w, y), b_z.sum(axis=1)], axis=1)
 
 
