@@ -8,9 +8,11 @@ under 2 s with a warm cache (the same candidate opened a second time).
 
 The server runs on a scratch database and a scratch results cache in a temporary folder
 (seeded on first use), so the bench never touches a user's files. "cold": the first visit
-of each page after the server started with an empty cache; "warm": later visits in new
-browser tabs (``--repeats`` of them, min and median printed); "restart": a new server on
-the same results cache (the persistent cache, without the server's memory). Run alone:
+of each page after the server started with an empty cache, in a browser with nothing
+cached; "warm": later visits in new tabs of one browser (its HTTP cache shared, as a
+person's browser keeps the page's scripts; ``--repeats`` of them, min and median printed,
+with the CPU seconds of the browser and the server, which the load does not change);
+"restart": a new server on the same results cache (the persistent cache, without the server's memory). Run alone:
 ``python scripts/bench_browser.py [--repeats N]``.
 """
 
@@ -37,6 +39,35 @@ IDLE_JS = ("() => !document.querySelector('[data-stale=\"true\"]')"
            " && !(document.querySelector('[data-testid=\"stStatusWidget\"]') || {innerText: ''}).innerText.includes('Running')")
 
 
+_TICK = os.sysconf("SC_CLK_TCK") if hasattr(os, "sysconf") else 100
+
+
+def _cpu() -> dict:
+    """CPU seconds (user + system) used so far by this bench's browser (Chromium processes)
+    and its page server (Streamlit), found among this process's descendants in Linux's
+    /proc (zeros elsewhere): their own work, whatever the machine's load (wall time on a
+    shared machine also counts waiting for a core)."""
+    procs = {}
+    for d in Path("/proc").glob("[0-9]*"):
+        try:
+            fields = (d / "stat").read_text().rsplit(")", 1)[1].split()
+            procs[int(d.name)] = (int(fields[1]), int(fields[11]) + int(fields[12]), (d / "cmdline").read_bytes())
+        except (OSError, IndexError, ValueError):
+            continue
+    mine, grew = {os.getpid()}, True
+    while grew:
+        more = {pid for pid, (ppid, _, _) in procs.items() if ppid in mine and pid not in mine}
+        mine |= more
+        grew = bool(more)
+    out = {"browser": 0.0, "server": 0.0}
+    for pid in mine - {os.getpid()}:
+        _, ticks, cmd = procs[pid]
+        who = "server" if b"streamlit" in cmd else "browser" if b"chrom" in cmd else None
+        if who:
+            out[who] += ticks / _TICK
+    return out
+
+
 def _wait_idle(page) -> None:
     page.wait_for_timeout(150)
     page.wait_for_function(IDLE_JS, timeout=300_000)
@@ -56,19 +87,28 @@ def _timed(fn) -> float:
     return time.perf_counter() - t0
 
 
-def _first_render(browser, base: str, path: str, heading: str) -> float:
-    page = browser.new_page(viewport=VIEWPORT)
+CPU: dict = {}  # "browser" / "server": CPU seconds of the last timed visit
+
+
+def _first_render(tabs, base: str, path: str, heading: str) -> float:
+    """Open ``path`` in a new tab of ``tabs`` (a browser context: its tabs share the HTTP
+    cache, as a person's browser does) and time it until rendered."""
+    page = tabs.new_page()
     try:
-        return _timed(lambda: (page.goto(f"{base}/{path}", wait_until="load", timeout=300_000),
+        before = _cpu()
+        wall = _timed(lambda: (page.goto(f"{base}/{path}", wait_until="load", timeout=300_000),
                                _rendered(page, heading)))
+        after = _cpu()
+        CPU.update({who: after[who] - before[who] for who in after})
+        return wall
     finally:
         page.close()
 
 
-def _open_candidate(browser, base: str) -> float:
+def _open_candidate(tabs, base: str) -> float:
     """On the Advisor page, the time from clicking "Open on the Design page" to the Design
     page's results on screen."""
-    page = browser.new_page(viewport=VIEWPORT)
+    page = tabs.new_page()
     try:
         page.goto(f"{base}/advisor", wait_until="load", timeout=300_000)
         _rendered(page, "Advisor")
@@ -109,27 +149,37 @@ def run(repeats: int = 3) -> dict:
     try:
         with sync_playwright() as p:
             browser = p.chromium.launch(executable_path=chromium, args=CHROMIUM_ARGS)
+
+            def fresh():  # a browser with nothing cached (a new context)
+                return browser.new_context(viewport=VIEWPORT)
+
             try:
                 with served(tmp / "streamlit.log", env=env, timeout_s=120) as base:
                     # a throwaway first visit starts the server's Python side (imports, database seeding)
-                    out["server_warm_up_s"] = _first_render(browser, base, "", "Materials")
-                    for path, heading in PAGES:
-                        out[f"first_render_cold_{path or 'materials'}_s"] = _first_render(browser, base, path, heading)
+                    out["server_warm_up_s"] = _first_render(fresh(), base, "", "Materials")
+                    for path, heading in PAGES:  # cold: nothing computed, nothing in the browser's cache
+                        out[f"first_render_cold_{path or 'materials'}_s"] = _first_render(fresh(), base, path, heading)
+                    browser_tabs = fresh()  # warm: new tabs of one browser
                     warm: dict = {path: [] for path, _ in PAGES}
+                    cpu: dict = {(path, who): [] for path, _ in PAGES for who in ("browser", "server")}
                     for _ in range(repeats):
                         for path, heading in PAGES:
-                            warm[path].append(_first_render(browser, base, path, heading))
+                            warm[path].append(_first_render(browser_tabs, base, path, heading))
+                            for who in ("browser", "server"):
+                                cpu[path, who].append(CPU[who])
                     for path, values in warm.items():
                         _stats(out, f"first_render_warm_{path or 'materials'}", values)
+                    for (path, who), values in cpu.items():  # CPU seconds: what the load does not change
+                        out[f"first_render_warm_{path or 'materials'}_{who}_cpu_min_s"] = min(values)
                     # per repeat, the slowest page of that round
                     _stats(out, "first_render_warm_worst", [max(r) for r in zip(*warm.values())])
-                    out["open_candidate_cold_s"] = _open_candidate(browser, base)
-                    _stats(out, "open_candidate_warm", [_open_candidate(browser, base) for _ in range(repeats)])
+                    out["open_candidate_cold_s"] = _open_candidate(fresh(), base)
+                    _stats(out, "open_candidate_warm", [_open_candidate(browser_tabs, base) for _ in range(repeats)])
                 # a new server on the same results cache: what a restart costs
                 with served(tmp / "streamlit-restart.log", env=env, timeout_s=120) as base:
-                    out["restart_server_warm_up_s"] = _first_render(browser, base, "", "Materials")
+                    out["restart_server_warm_up_s"] = _first_render(fresh(), base, "", "Materials")
                     for path, heading in PAGES[2:4]:
-                        out[f"first_render_restart_{path}_s"] = _first_render(browser, base, path, heading)
+                        out[f"first_render_restart_{path}_s"] = _first_render(browser_tabs, base, path, heading)
             finally:
                 browser.close()
     except RuntimeError as exc:

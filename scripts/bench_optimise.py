@@ -8,8 +8,9 @@ catalogue (every material and grade). Measured:
 * warm from disk: a new process with the advisor's geometry tables on disk (what a
   second ``matdb optimise`` sees).
 
-Goal: under 30 s on the 2-core machine. Wall time depends on what else runs: process CPU
-time and the load average are printed beside it.
+Goal: under 30 s on the 2-core machine, for the cold run (``goal_met_cold``, judged on
+its CPU time); the warm one is printed beside it. Wall time depends on what else runs:
+process CPU time and the load average are printed beside it.
 """
 
 from __future__ import annotations
@@ -48,7 +49,8 @@ def run() -> dict:
             "request": "0.3 g total, 20 x 20 mm, 0.5 mm, 0-50 C, 30 USD, envelope 24 x 24 x 15 mm",
             "cold_wall_s": w_cold, "cold_cpu_s": c_cold,
             "warm_from_disk_wall_s": w_warm, "warm_from_disk_cpu_s": c_warm,
-            "goal_s": 30.0, "goal_met_warm": bool(w_warm < 30.0),
+            "goal_s": 30.0, "goal_met_cold": bool(c_cold < 30.0),
+            "goal_met_warm": bool(c_warm < 30.0),
             "search_evaluations": res2.evaluations, "exact_checks": res2.checks,
             "best": f"{best.get('material')} {best.get('grade')} {best.get('arrangement')}, "
                     f"plate {1e3 * (best.get('plate_side_m') or 0):.3g} mm",

@@ -15,6 +15,7 @@ References used below:
 
 from __future__ import annotations
 
+import dataclasses
 import math
 
 import magpylib as magpy
@@ -24,7 +25,7 @@ from hypothesis import given, settings, strategies as st
 
 from matdb.errors import InputError
 from matdb.physics import plate as P
-from matdb.physics.arrangement import build_arrangement
+from matdb.physics.arrangement import Arrangement, build_arrangement
 from matdb.constants import G_STANDARD, MU0
 from matdb.data.catalog import get_material
 
@@ -404,3 +405,113 @@ def test_plane_memo_scaled_by_remanence_squared(checker):
     np.testing.assert_allclose(scaled, direct, rtol=1e-12)
     again = P.lift_force(checker.B, plate, gaps, memo=memo, **PG)
     np.testing.assert_allclose(again * s ** 2, scaled, rtol=1e-12)
+
+
+@pytest.mark.parametrize("side,cx", [(0.010, 1e-3), (0.020, 0.0)])
+def test_stiffness_matrix_equals_differences_of_the_volume_torque(checker, side, cx):
+    # divergence theorem and Reynolds transport (Jackson sec. 5.16; Flanders, Amer. Math.
+    # Monthly 80, 615 (1973)): stiffness_split takes the turning of the anisotropic torque
+    # from the level pose and the sideways force from the side faces alone; the plain
+    # central differences of the closed-surface force and volume torque at moved poses
+    # (generalized_forces_split) give the same matrix
+    plate = _geom(checker, side, cx=cx, cy=-4e-4)
+    gap, pivot = 6e-4, (cx, -4e-4, 1.6e-3)
+    k = P.stiffness_split(checker.B, plate, gap, pivot, order=8)
+    hs, hr = max(1e-7, 5e-4 * min(side, 10 * gap)), 2e-4
+    steps = np.array([hs] * 3 + [hr] * 3)
+    poses = np.zeros((12, 6))
+    for d in range(6):
+        poses[2 * d, d], poses[2 * d + 1, d] = steps[d], -steps[d]
+    q = P.generalized_forces_split(checker.B, plate, gap, pivot, poses, order=8)
+    raw = -(q[0::2] - q[1::2]) / (2 * steps[:, None, None])  # (j, comp, i)
+    ref = np.transpose(raw, (1, 2, 0))
+    ref = 0.5 * (ref + np.swapaxes(ref, -1, -2))
+    for c in range(2):
+        np.testing.assert_allclose(k[c], ref[c], rtol=0, atol=1e-6 * np.abs(ref[c]).max())
+
+
+# ---------------------------------------------------------------------------
+# mirror symmetry of the field (Jackson sec. 6.10: B and J are axial vectors)
+# ---------------------------------------------------------------------------
+def test_field_mirrors_of_arrangements_checked_with_magpylib(checker):
+    # the lines found are lines of symmetry of B_z^2 and B_x^2 + B_y^2 in magpylib's field
+    # (an independent field source); an arrangement without one is not given it
+    rng = np.random.default_rng(1)
+    pts = np.column_stack([rng.uniform(-0.02, 0.02, 50), rng.uniform(-0.02, 0.02, 50),
+                           rng.uniform(1e-4, 3e-3, 50)])
+    weak = dataclasses.replace(checker.magnets[0], br=1.1)  # one weaker cube: no mirror
+    cases = [(checker, (0.0, 0.0)),
+             (build_arrangement("cuboid", (A, A, A), "checkerboard", 2, 3, br=1.3), (0.0, 0.0)),
+             (build_arrangement("cylinder", (0.01, 0.005), "single", br=1.2), (0.0, 0.0)),
+             (Arrangement((weak,) + checker.magnets[1:]), (None, None))]
+    for arr, expect in cases:
+        c = magpy.Collection()
+        for m in arr.magnets:
+            src = (magpy.magnet.Cuboid(polarization=m.polarization, dimension=m.size,
+                                       position=m.position) if m.shape == "cuboid" else
+                   magpy.magnet.Cylinder(polarization=m.polarization, dimension=m.size,
+                                         position=m.position))
+            c.add(src)
+        mx, my = P.field_mirrors(arr.magnets, 0.0, 0.0)
+        for axis, line in ((0, mx), (1, my)):
+            mp = pts.copy()
+            mp[:, axis] *= -1
+            b, bm = magpy.getB(c, pts), magpy.getB(c, mp)
+            same = (np.allclose(b[:, 2] ** 2, bm[:, 2] ** 2, rtol=1e-9, atol=1e-12)
+                    and np.allclose(b[:, 0] ** 2 + b[:, 1] ** 2, bm[:, 0] ** 2 + bm[:, 1] ** 2,
+                                    rtol=1e-9, atol=1e-12))
+            assert (line is not None) == same, (arr.pattern, axis)
+        assert (mx, my) == expect
+        # the diagonal: (x, y) -> (y, x)
+        b, bm = magpy.getB(c, pts), magpy.getB(c, pts[:, [1, 0, 2]])
+        same = (np.allclose(b[:, 2] ** 2, bm[:, 2] ** 2, rtol=1e-9, atol=1e-12)
+                and np.allclose(b[:, 0] ** 2 + b[:, 1] ** 2, bm[:, 0] ** 2 + bm[:, 1] ** 2,
+                                rtol=1e-9, atol=1e-12))
+        assert P.field_swaps(arr.magnets, 0.0, 0.0) == same
+    assert P.field_swaps(checker.magnets, 0.0, 0.0)
+    assert P.field_mirrors(checker.magnets, 1e-3, 0.0) == (None, 0.0)
+
+
+@pytest.mark.parametrize("side,gaps", [(0.010, [6e-4]), (0.0047, [7e-5, 1e-3]),
+                                        (0.031, [1e-3, 2e-3])])
+def test_folded_footprint_integrals_equal_the_full_rule(checker, side, gaps):
+    # regression check: a plate centred on the field's mirror lines integrates a quarter
+    # of the nodes and gets the full rule's sums (to rounding), for every height
+    bx, by = P.edge_lines(checker.magnets)
+    full = P.PlateGeometry("rectangle", side, side, 1e-3, 0.0, 0.0, bx, by)
+    mirrored = P.PlateGeometry("rectangle", side, side, 1e-3, 0.0, 0.0, bx, by, (0.0, 0.0))
+    eighth = dataclasses.replace(mirrored, swap=True)
+    for order in (4, 8):
+        a = P.plate_surface_integrals(checker.B, full, gaps, order)
+        for plate in (mirrored, eighth):
+            b = P.plate_surface_integrals(checker.B, plate, gaps, order)
+            for u, v in zip(a, b):
+                np.testing.assert_allclose(v, u, rtol=1e-12)
+        x, _, _ = P.footprint_rule(mirrored, gaps[0], order, folded=True)
+        assert x.size < 0.5 * P.footprint_rule(full, gaps[0], order)[0].size
+    # off both mirror lines nothing is folded
+    off = mirrored.shifted(1e-3, 1e-3)
+    assert P.footprint_rule(off, gaps[0], 4, folded=True)[0].size == \
+        P.footprint_rule(off, gaps[0], 4)[0].size
+    f = P.lateral_force(checker.B, mirrored, gaps[0], **PG)
+    np.testing.assert_allclose(f, P.lateral_force(checker.B, full, gaps[0], **PG), rtol=0,
+                               atol=1e-12 * P.lift_force(checker.B, full, gaps, **PG)[0])
+
+
+@pytest.mark.parametrize("side,paired", [(0.006, True), (0.012, True), (0.026, False)])
+def test_mirrored_poses_give_the_stiffness_of_both_poses(checker, side, paired):
+    # regression check: over a field with mirror lines through the plate's centre and
+    # the pivot, each perturbation's minus pose is the mirror image of its plus pose
+    # (forces polar, torques axial: Jackson sec. 6.10); the matrix equals the one from
+    # both poses evaluated
+    bx, by = P.edge_lines(checker.magnets)
+    plain = P.PlateGeometry("rectangle", side, side, 1e-3, 0.0, 0.0, bx, by)
+    mirrored = P.PlateGeometry("rectangle", side, side, 1e-3, 0.0, 0.0, bx, by, (0.0, 0.0))
+    gap = 5e-4
+    # (the 26 mm plate's graded rule is not its own mirror image at this gap: both poses)
+    assert any(P.mirrored_rules(mirrored, gap, 8)) == paired
+    pivot = (0.0, 0.0, gap + 1.5e-3)
+    a = P.stiffness_split(checker.B, plain, gap, pivot, order=8)
+    b = P.stiffness_split(checker.B, mirrored, gap, pivot, order=8)
+    for c in range(2):
+        np.testing.assert_allclose(b[c], a[c], rtol=0, atol=1e-9 * np.abs(a[c]).max())

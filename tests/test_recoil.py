@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import tomllib
 import warnings
+from dataclasses import replace
 from pathlib import Path
 
 import magpylib as magpy
@@ -23,6 +24,7 @@ import pytest
 from matdb.design import design_to_toml, load_design_text, parse_stabilized
 from matdb.physics import plate as P
 from matdb.physics import recoil as R
+from matdb.physics import recoil_field as RF
 from matdb.physics.arrangement import build_arrangement
 from matdb.constants import MU0
 
@@ -32,8 +34,9 @@ CHI = 0.05  # sintered NdFeB, mu_rec 1.05 (seed_data magnet_grades.csv)
 
 
 def test_single_cube_follows_the_magnetometric_factor():
-    # uniform J on the recoil line with N = 1/3 (Aharoni 1998): J = Br / (1 + chi N)
-    arr = build_arrangement("cuboid", (A, A, A), "single", br=BR).with_recoil([CHI])
+    # the one-cell model: uniform J on the recoil line with N = 1/3 (Aharoni 1998):
+    # J = Br / (1 + chi N) (the subdivided default differs at order chi^2, tested below)
+    arr = build_arrangement("cuboid", (A, A, A), "single", br=BR).with_recoil([CHI], subdivision=1)
     assert arr.magnets[0].br == pytest.approx(BR / (1 + CHI / 3), rel=1e-9)
     assert arr.magnets[0].direction == pytest.approx((0.0, 0.0, 1.0))
 
@@ -53,7 +56,7 @@ def test_response_is_linear_in_remanence_and_cached():
     assert R.response_matrix(arr.magnets, [CHI] * 4) is R.response_matrix(arr.magnets, [CHI] * 4)
 
 
-def _reference(arr, cells=5):
+def _reference(arr, cells):
     # lazy: the reference library is heavy and only the slow comparisons need it
     from magpylib_material_response.demag import apply_demag
     from magpylib_material_response.meshing import mesh_Cuboid
@@ -67,36 +70,47 @@ def _reference(arr, cells=5):
         return apply_demag(c, susceptibility=CHI, interaction="newell")
 
 
-@pytest.mark.slow
-@pytest.mark.parametrize("pattern,n", [("single", 1), ("checkerboard", 2)])
-def test_default_against_the_moment_method_on_meshed_magnets(pattern, n):
-    rigid = build_arrangement("cuboid", (A, A, A), pattern, n, n, br=BR)
-    mine = rigid.with_recoil([CHI] * rigid.count)
-    ref = _reference(rigid)
-    # 1. each magnet's mean polarisation equals the mean over the reference's cells
-    #    (5 x 5 x 5 per magnet) to 5e-4 of Br
-    for cells, m in zip(ref.children, mine.magnets):
-        jm = np.mean([s.polarization for s in cells.children], axis=0)
-        np.testing.assert_allclose(m.polarization, jm, atol=5e-4 * BR)
-    # 2. the field 3-10 mm above the magnets: nearer the reference than the rigid model,
-    #    within 1.5 %
-    pts = np.array([[x, y, z] for x in (-6e-3, 0.0, 4e-3) for y in (-3e-3, 2e-3)
-                    for z in (3e-3, 5e-3, 1e-2)])
-    b_ref = magpy.getB(ref, pts)
-    err = np.linalg.norm(mine.B(pts) - b_ref, axis=1) / np.linalg.norm(b_ref, axis=1)
-    err_rigid = np.linalg.norm(rigid.B(pts) - b_ref, axis=1) / np.linalg.norm(b_ref, axis=1)
-    assert err.max() < 0.015 and err.max() < 0.6 * err_rigid.max()
-    # 3. the lift of a graphite plate at 0.5 and 1 mm: the default removes part of the
-    #    rigid model's excess; the reference, which resolves the stronger demagnetisation
-    #    near the edges, lifts less still (the default stays optimistic, see README)
+def _drops(rigid, fields, n):
     bx, by = P.edge_lines(rigid.magnets)
     side = 0.6 * A if n == 1 else 0.010
     geom = P.PlateGeometry("rectangle", side, side, 1e-3, 0.0, 0.0, bx, by)
     gaps = [5e-4, 1e-3]
     f_rigid = P.lift_force(rigid.B, geom, gaps, 4.5e-4, 8.5e-5)
-    f_mine = P.lift_force(mine.B, geom, gaps, 4.5e-4, 8.5e-5)
-    f_ref = P.lift_force(lambda p: magpy.getB(ref, p), geom, gaps, 4.5e-4, 8.5e-5)
-    assert np.all(f_rigid > f_mine) and np.all(f_mine > f_ref)
+    return [1 - P.lift_force(f, geom, gaps, 4.5e-4, 8.5e-5) / f_rigid for f in fields]
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("pattern,n", [("single", 1), ("checkerboard", 2)])
+def test_default_against_the_moment_method_on_meshed_magnets(pattern, n):
+    """The default model (5 cells along each cube edge, departure field tabulated)
+    against magpylib-material-response (Chadebec et al. 2006) on the same 5^3 meshing
+    and on a finer 7^3 one.
+
+    Measured lift reduction of the plate at 0.5 / 1 mm (default; reference 5^3; 7^3):
+    single cube 5.81 / 5.50 %; 5.81 / 5.50 %; 5.78 / 5.56 %; 2 x 2 checkerboard
+    3.55 / 3.81 %; 3.55 / 3.81 %; 4.03 / 4.25 % (the reference itself moves by half a
+    point from 5^3 to 7^3 next to the shared edges of opposite neighbours). Field 0.5-3 mm
+    above the magnets: within 1e-4 of the 5^3 reference (the rigid model: 2.8 %)."""
+    rigid = build_arrangement("cuboid", (A, A, A), pattern, n, n, br=BR)
+    mine = rigid.with_recoil([CHI] * rigid.count)
+    ref = _reference(rigid, 5)
+    # 1. each magnet's mean polarisation equals the mean over the reference's cells
+    for cells, m in zip(ref.children, mine.magnets):
+        jm = np.mean([s.polarization for s in cells.children], axis=0)
+        np.testing.assert_allclose(m.polarization, jm, atol=5e-4 * BR)
+    # 2. the field 0.5-3 mm above the magnets, tabulated departures included
+    pts = np.array([[x, y, z] for x in (-6e-3, 0.0, 4e-3) for y in (-3e-3, 2e-3)
+                    for z in (5e-4, 1e-3, 3e-3)])
+    b_ref = magpy.getB(ref, pts)
+    err = np.linalg.norm(mine.B(pts) - b_ref, axis=1) / np.linalg.norm(b_ref, axis=1)
+    assert err.max() < 3e-4
+    # 3. the lift drop of a graphite plate at 0.5 and 1 mm: equal at the same meshing
+    d_mine, d_ref = _drops(rigid, [mine.B, lambda p: magpy.getB(ref, p)], n)
+    np.testing.assert_allclose(d_mine, d_ref, rtol=0.01)
+    # 4. and at least 85 % of the finer reference's drop (see the docstring)
+    fine = _reference(rigid, 7)
+    (d_fine,) = _drops(rigid, [lambda p: magpy.getB(fine, p)], n)
+    assert np.all(d_mine >= 0.85 * d_fine)
 
 
 def test_subdivided_mean_follows_the_magnetometric_factor_to_first_order():
@@ -134,28 +148,6 @@ def test_subdivided_field_is_linear_in_remanence():
     # by symmetry the four magnets share one |J|: unit polarisation divides B by it
     np.testing.assert_allclose(arr.with_unit_polarization().B(pts), arr.B(pts) / arr.magnets[0].br,
                                rtol=1e-9)
-
-
-@pytest.mark.slow
-@pytest.mark.parametrize("pattern,n", [("single", 1), ("checkerboard", 2)])
-def test_subdivided_against_the_reference_at_the_same_meshing(pattern, n):
-    # magpylib-material-response with 5 x 5 x 5 cells per magnet against this module with
-    # subdivision 5: the same discretisation, so the lift reductions agree (measured:
-    # 5.81 / 5.50 % vs 5.81 / 5.50 % single, 3.55 / 3.81 % vs 3.55 / 3.81 % checkerboard)
-    rigid = build_arrangement("cuboid", (A, A, A), pattern, n, n, br=BR)
-    mine = rigid.with_recoil([CHI] * rigid.count, subdivision=5)
-    ref = _reference(rigid, 5)
-    for cells, m in zip(ref.children, mine.magnets):
-        jm = np.mean([s.polarization for s in cells.children], axis=0)
-        np.testing.assert_allclose(m.polarization, jm, atol=5e-4 * BR)
-    bx, by = P.edge_lines(rigid.magnets)
-    side = 0.6 * A if n == 1 else 0.010
-    geom = P.PlateGeometry("rectangle", side, side, 1e-3, 0.0, 0.0, bx, by)
-    gaps = [5e-4, 1e-3]
-    f_rigid = P.lift_force(rigid.B, geom, gaps, 4.5e-4, 8.5e-5)
-    drop_mine = 1 - P.lift_force(mine.B, geom, gaps, 4.5e-4, 8.5e-5) / f_rigid
-    drop_ref = 1 - P.lift_force(lambda p: magpy.getB(ref, p), geom, gaps, 4.5e-4, 8.5e-5) / f_rigid
-    np.testing.assert_allclose(drop_mine, drop_ref, rtol=0.03)
 
 
 def test_back_plate_cube_is_a_prism_of_twice_the_height():
@@ -200,3 +192,72 @@ def test_floating_magnet_rigid_key():
     doc["floater"]["rigid"] = True
     d2 = parse_stabilized(doc)
     assert d2.stations[0].lifter.recoil_factor == 1.0 and d2.stations[0].floater.recoil_factor == 1.0
+
+
+# -- the tabulated departure field (matdb.physics.recoil_field) ------------------------
+def test_prism_spectrum_against_the_closed_form_field():
+    # two uniformly polarised prisms with opposite polarisation along each axis (no net
+    # moment, as each magnet's departures have none; a net moment would alias across the
+    # FFT period), their field above the top face from the Fourier-domain form
+    # (Bhattacharyya, Geophysics 31, 97 (1966); Blakely 1995 ch. 11) against the closed
+    # form of Engel-Herbert and Hesjedal (J. Appl. Phys. 97, 074504 (2005)) as
+    # matdb.physics.fields evaluates it, at the table's nodes (no interpolation there)
+    # from 3 grid spacings up: within 3e-3 of the peak (measured 1.4e-3 at 0.6 mm, 2e-3
+    # at 1-2.5 mm: the periodic copies of the FFT, largest at the table's edge)
+    size = np.array([[4e-3, 3e-3, 2e-3], [4e-3, 3e-3, 1e-3]])
+    centre = np.array([[0.5e-3, -0.3e-3, -1e-3], [-1.5e-3, 2.7e-3, -0.5e-3]])
+    rng = np.random.default_rng(3)
+    for axis in range(3):
+        dj = np.zeros((2, 3))
+        dj[0, axis] = 1.0
+        dj[1, axis] = -2.0  # half the volume: opposite moment
+        RF.clear_tables()
+        cf = RF.CorrectionField(size, centre, dj, None, 0.0)
+        t = cf.table()
+        levels = t.z0 * np.expm1(RF.Z_RATIO * np.arange(t.nz))
+        ix = rng.integers(0, t.nb[0], 400)
+        iy = rng.integers(0, t.nb[1], 400)
+        iz = rng.choice(np.nonzero((levels >= 3 * t.h) & (levels <= 5e-3))[0], 400)
+        pts = np.column_stack([t.origin[0] + ix * t.h, t.origin[1] + iy * t.h, t.top + levels[iz]])
+        exact = cf.exact_set().B(pts)
+        np.testing.assert_allclose(cf.B(pts), exact, atol=3e-3 * np.abs(exact).max())
+
+
+@pytest.fixture(scope="module")
+def checker():
+    return build_arrangement("cuboid", (A, A, A), "checkerboard", 2, 2, br=BR)
+
+
+@pytest.mark.parametrize("back_plate", [False, True])
+def test_table_against_direct_cell_evaluation(checker, back_plate):
+    # interpolation error of the table against the cells evaluated one by one (the same
+    # departures, tabulated=False): pointwise at 0.5-5 mm above the magnets, measured at
+    # most 2.4e-4 of |B| (0.5 mm) falling to 1e-5 (2 mm); outside the table exact
+    arr = replace(checker, back_plate=back_plate).with_recoil([CHI] * 4)
+    exact = replace(arr, tabulated=False)
+    rng = np.random.default_rng(7)
+    for z, tol in ((5e-4, 5e-4), (1e-3, 2e-4), (2e-3, 5e-5), (5e-3, 5e-5)):
+        pts = rng.uniform([-0.015, -0.015, z], [0.015, 0.015, z], (2000, 3))
+        b = exact.B(pts)
+        err = np.linalg.norm(arr.B(pts) - b, axis=1) / np.linalg.norm(b, axis=1)
+        assert err.max() < tol, (z, err.max())
+    far = np.array([[0.1, 0.0, 1e-3], [0.0, 0.0, -2e-3], [0.0, 0.0, 0.2]])  # outside
+    np.testing.assert_array_equal(arr.correction().B(far), exact.correction().B(far))
+
+
+def test_table_lift_equals_direct_cells(checker):
+    # the plate's lift at 0.5 and 1 mm with the tabulated departures equals the lift with
+    # the cells evaluated one by one to 1e-4 (measured 2e-5)
+    arr = checker.with_recoil([CHI] * 4)
+    exact = replace(arr, tabulated=False)
+    bx, by = P.edge_lines(checker.magnets)
+    geom = P.PlateGeometry("rectangle", 0.010, 0.010, 1e-3, 0.0, 0.0, bx, by)
+    f_tab = P.lift_force(arr.B, geom, [5e-4, 1e-3], 4.5e-4, 8.5e-5)
+    f_exact = P.lift_force(exact.B, geom, [5e-4, 1e-3], 4.5e-4, 8.5e-5)
+    np.testing.assert_allclose(f_tab, f_exact, rtol=1e-4)
+
+
+def test_table_is_shared_across_remanences(checker):
+    # the departures are linear in Br: one table serves every temperature (regression check)
+    arr = checker.with_recoil([CHI] * 4)
+    assert arr.scaled(0.93).correction().table() is arr.correction().table()

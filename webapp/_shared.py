@@ -289,14 +289,19 @@ def frame_key(df) -> str | None:
     return h.hexdigest()
 
 
-def chart(content: tuple, build, where=None, **kwargs):
+def chart(content: tuple, build, where=None, canvas: bool = False, **kwargs):
     """Show the Altair chart ``build()`` (``st.altair_chart`` arguments in ``kwargs``),
     built and converted once per ``content``: a tuple naming everything the chart is drawn
-    from (content keys of results, form values). ``where``: a column or container."""
+    from (content keys of results, form values). ``where``: a column or container.
+    ``canvas``: drawn on a canvas, not as SVG (a map of a thousand cells or more: far less
+    work for the browser; its title and axis titles are drawn the same)."""
     where = st if where is None else where
     if _to_vega_lite is None:
         return where.altair_chart(build(), **kwargs)
-    return where.vega_lite_chart(_chart_spec(content, build), **kwargs)
+    spec = _chart_spec(content, build)
+    if canvas:
+        spec = {**spec, "usermeta": {**spec.get("usermeta", {}), "embedOptions": {"renderer": "canvas"}}}
+    return where.vega_lite_chart(spec, **kwargs)
 
 
 def clear_catalog_caches() -> None:

@@ -114,13 +114,13 @@ def _failures(df: pd.DataFrame) -> np.ndarray:
             + np.asarray(df["outside_envelope"], dtype=int) + np.asarray(df["too_heavy"], dtype=int))
 
 
-def _sort(df: pd.DataFrame) -> pd.DataFrame:
-    """Feasible first by score; then the rejected ones, fewest failed criteria first."""
+def _order(df: pd.DataFrame) -> np.ndarray:
+    """Positions of the rows in ranking order: feasible first by score; then the rejected
+    ones, fewest failed criteria first."""
     key_s = df["score"].fillna(-np.inf)
     key_m = df["margin"].fillna(-np.inf)
-    order = np.lexsort((-key_m.to_numpy(), -key_s.to_numpy(), _failures(df),
-                        ~df["feasible"].to_numpy()))
-    return df.iloc[order].reset_index(drop=True)
+    return np.lexsort((-key_m.to_numpy(), -key_s.to_numpy(), _failures(df),
+                       ~df["feasible"].to_numpy()))
 
 
 def refresh_flags(df: pd.DataFrame, idx, req: AdviceRequest) -> None:
@@ -170,20 +170,22 @@ def screen_plates(req: AdviceRequest, cat: Catalogue) -> pd.DataFrame:
 def _rank_locked(req: AdviceRequest, cat: Catalogue, polish: int, tilt_rows: int):
     report(0.02, "screening every candidate")
     df = screen_plates(req, cat)
-    df = _sort(df)
+    # the frame keeps its screening order (row labels stay put) until the end; the ranking
+    # order is an array of positions, recomputed as rows change
+    order = _order(df)
     report(0.65, "checking tilt of the best candidates")
     for _ in range(6):  # until the first `tilt_rows` feasible rows have had their tilt checked
-        head = df.head(tilt_rows)
+        head = df.iloc[order[:tilt_rows]]
         todo = [i for i in head.index if head.at[i, "feasible"] and not head.at[i, "tilt_checked"]
                 and not head.at[i, "exact"]]
         if not todo:
             break
         check_tilt(df, todo, req, cat)
         refresh_flags(df, todo, req)
-        df = _sort(df)
+        order = _order(df)
     report(0.8, "working the best candidate out exactly")
     for _ in range(8):  # polish until the first `polish` rows are all exact
-        head = df.head(polish)
+        head = df.iloc[order[:polish]]
         todo = [i for i in head.index if not df.at[i, "exact"]]
         if not todo:
             break
@@ -202,7 +204,8 @@ def _rank_locked(req: AdviceRequest, cat: Catalogue, polish: int, tilt_rows: int
             for k, v in upd.items():
                 df.at[i, k] = v
         refresh_flags(df, todo, req)
-        df = _sort(df)
+        order = _order(df)
+    df = df.iloc[order].reset_index(drop=True)
     save_all()  # every plate and recoil susceptibility used
     # the Pareto front over feasible candidates
     feas = df["feasible"].to_numpy(dtype=bool)

@@ -123,6 +123,7 @@ class GeometryData:
         self.hmax: float | None = None
         self.memo: dict[str, Any] = {}
         self._arrays: dict[tuple, np.ndarray] = {}  # tables already assembled for a height set
+        self._ready: set[tuple] = set()  # height sets found complete
         self.dirty = False
         self._loaded = False
 
@@ -241,11 +242,18 @@ class GeometryData:
         return self.hmax
 
     def is_ready(self, heights, lat_heights) -> bool:
-        """Whether every table of these heights (and ``hmax``) is already at hand."""
+        """Whether every table of these heights (and ``hmax``) is already at hand (a set of
+        heights found complete is remembered: tables are only ever added)."""
+        sig = (np.asarray(heights, dtype=float).tobytes(), np.asarray(lat_heights, dtype=float).tobytes())
+        if sig in self._ready:
+            return True
         self.load()
         st = self.stores
-        return (self.hmax is not None and all(k in st["coarse"] for k in _hkeys(heights))
-                and all(k in st["lateral"] for k in _hkeys(lat_heights)))
+        ok = (self.hmax is not None and all(k in st["coarse"] for k in _hkeys(heights))
+              and all(k in st["lateral"] for k in _hkeys(lat_heights)))
+        if ok:
+            self._ready.add(sig)
+        return ok
 
 
 def prepare_family(geos: list[GeometryData], heights, lat_heights) -> None:

@@ -40,11 +40,15 @@ NEAR_NEUTRAL = 0.05  # a stiffness below this fraction of the other direction's
 
 def plate_geometry(design: PlateDesign, arrangement) -> P.PlateGeometry:
     """The plate of a design as :class:`~matdb.physics.plate.PlateGeometry`, with the
-    arrangement's edge lines as quadrature breaks."""
+    arrangement's edge lines as quadrature breaks and its mirror lines and diagonal
+    symmetry through the plate's centre (:func:`~matdb.physics.plate.field_mirrors`,
+    :func:`~matdb.physics.plate.field_swaps`)."""
     bx, by = P.edge_lines(arrangement.magnets)
     p = design.plate
+    mirrors = P.field_mirrors(arrangement.magnets, *p.center_m)
+    swap = None not in mirrors and P.field_swaps(arrangement.magnets, *p.center_m)
     return P.PlateGeometry(p.shape, p.lx_m, p.ly_m, p.thickness_m, p.center_m[0], p.center_m[1],
-                           bx, by)
+                           bx, by, mirrors, swap)
 
 
 def plate_chi_at(design: PlateDesign, t_k: float) -> tuple[float, float]:

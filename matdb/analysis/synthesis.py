@@ -49,6 +49,7 @@ from matdb.data import catalog
 from matdb.design import Conditions, MagnetSpec, PlateDesign, PlateSpec, write_design
 from matdb.errors import InputError
 from matdb.physics import plate as P
+from matdb.physics import plate_tables as PT
 from matdb.physics.thermal import lift_derating_pct
 from matdb.constants import G_STANDARD, MU0, T_REF_K, kelvin_to_celsius
 
@@ -195,10 +196,12 @@ class _Model:
         if v is None:
             arr = z.spec().build(1.0)
             bx, by = P.edge_lines(arr.magnets)
-            geom = P.PlateGeometry("rectangle", z.side, z.side, z.thickness, 0.0, 0.0, bx, by)
             h = np.array([self.g_req, self.g_req + z.thickness])
-            rh = np.full(2, max(self.g_req, SEARCH_RULE_FLOOR_M))
-            iz, ixy = P.plane_integrals(arr.B, geom, h, SEARCH_ORDER, rule_heights=rh)
+            # both planes on the rule graded for the lower one; folded by the array's mirror
+            # symmetry (the same integral on a half or a quarter of the nodes)
+            (iz, ixy) = PT.plane_integrals(arr.B, z.side, z.side, bx, by, h, SEARCH_ORDER,
+                                           max(self.g_req, SEARCH_RULE_FLOOR_M),
+                                           PT.mirror_symmetry(arr), same_rule=True).T
             v = self.s_w * (self.a_w * (iz[0] - iz[1]) + self.b_w * (ixy[0] - ixy[1]))
             self.memo[key] = v
             self.evaluations += 1
@@ -516,7 +519,8 @@ def _catalogue_start(req: A.AdviceRequest, objective: str, min_margin: float, ur
         cat = A.Catalogue(cat.mats, cat.grades, inside or cat.specs, cat.thick, cat.thick_owner)
     cb = (lambda f, t: progress(0.12 * f, f"catalogue: {t}")) if progress else None
     with A.reporting_progress(cb):
-        df, cat = A.rank(req, polish=1, catalogue=cat, url=url, tilt_rows=40)
+        # no exact row here: the start is re-checked below by the same exact path (check)
+        df, cat = A.rank(req, polish=0, catalogue=cat, url=url, tilt_rows=40)
     feas = df[df["feasible"]]
     if objective == "cost":
         feas = feas[feas["margin"] >= min_margin]

@@ -31,6 +31,7 @@ from matdb.errors import InputError
 from matdb.constants import MU0
 from matdb.physics.fields import MagnetSet, as_points
 from matdb.physics.recoil import effective_polarizations, polarization_cells
+from matdb.physics.recoil_field import CorrectionField
 
 __all__ = ["Magnet", "Arrangement", "build_arrangement", "SHAPES", "PATTERNS", "SIZE_FORMS"]
 
@@ -180,20 +181,12 @@ class Magnet:
         return self.position[2] - self.height / 2
 
 
-def _sources(magnets: Sequence[Magnet], plate_z: float | None, cells=None) -> MagnetSet:
-    """All sources in priority order: the real magnets, then their images (if any), then
-    the blocks of non-uniform polarisation ``cells`` (sizes, centres, dJ, magnet index)
-    and their images."""
+def _sources(magnets: Sequence[Magnet], plate_z: float | None) -> MagnetSet:
+    """All sources in priority order: the real magnets, then their images (if any)."""
     kinds = [m.shape for m in magnets]
     sizes = [m.size for m in magnets]
     pols = [m.polarization for m in magnets]
     pos = [m.position for m in magnets]
-    if cells is not None:
-        for size, c, dj in zip(*cells[:3]):
-            kinds.append("cuboid")
-            sizes.append(tuple(size))
-            pols.append(tuple(dj))
-            pos.append(tuple(c))
     if plate_z is not None:
         for shape, size, (jx, jy, jz), (x, y, z) in list(zip(kinds, sizes, pols, pos)):
             kinds.append(shape)
@@ -215,10 +208,13 @@ class Arrangement:
         bottom face, modelled by image magnets with J' = (-Jx, -Jy, +Jz).
     pattern, rows, cols : descriptive.
     cells : tuple or None
-        Magnets on their recoil lines (:meth:`with_recoil`): blocks of each magnet whose
+        Magnets on their recoil lines (:meth:`with_recoil`): cells of each magnet whose
         polarisation departs from the magnet's mean (sizes (k, 3) [m], centres (k, 3)
-        [m], departures dJ (k, 3) [T], magnet index (k,)); their field is added to that
-        of the magnets with their mean polarisation.
+        [m], departures dJ (k, 3) [T], magnet index (k,)); their field
+        (:class:`matdb.physics.recoil_field.CorrectionField`, tabulated above the magnets)
+        is added to that of the magnets with their mean polarisation.
+    tabulated : bool
+        False: the cells' field is always evaluated exactly (cell by cell).
     """
 
     magnets: tuple[Magnet, ...]
@@ -227,6 +223,7 @@ class Arrangement:
     rows: int = 1
     cols: int = 1
     cells: tuple | None = field(default=None, compare=False, repr=False)
+    tabulated: bool = field(default=True, compare=False, repr=False)
     _cache: dict = field(default_factory=dict, init=False, repr=False, compare=False)
 
     def __post_init__(self) -> None:
@@ -270,9 +267,21 @@ class Arrangement:
     def _fields(self) -> MagnetSet:
         f = self._cache.get("fields")
         if f is None:
-            f = _sources(self.magnets, self.bottom_z if self.back_plate else None, self.cells)
+            f = _sources(self.magnets, self.bottom_z if self.back_plate else None)
             self._cache["fields"] = f
         return f
+
+    def correction(self) -> CorrectionField | None:
+        """Field of the cells' departures from their magnets' mean polarisation (None for
+        rigid or one-cell magnets)."""
+        if self.cells is None:
+            return None
+        c = self._cache.get("correction")
+        if c is None:
+            c = CorrectionField(*self.cells[:3], self.bottom_z if self.back_plate else None,
+                                self.top_z, tabulate=self.tabulated)
+            self._cache["correction"] = c
+        return c
 
     def B(self, points) -> np.ndarray:
         """Total flux density (images included) at ``points`` (3,) or (n, 3) [m].
@@ -283,7 +292,10 @@ class Arrangement:
         (inside the steel) include the images and have no physical meaning.
         """
         p = as_points(points, "points")
-        return self._fields().B(p)
+        b = self._fields().B(p)
+        if self.cells is not None:
+            b += self.correction().B(p)
+        return b
 
     def _pol_table(self) -> np.ndarray:
         t = self._cache.get("pol")
@@ -298,14 +310,14 @@ class Arrangement:
         J_inside is the polarisation of the real magnet containing the point (0 outside).
         """
         p = as_points(points, "points")
-        b = self._fields().B(p)
+        b = self.B(p)
         idx = self.inside(p)
         j = np.zeros_like(p)
         hit = idx >= 0
         j[hit] = self._pol_table()[idx[hit]]
-        if self.cells is not None and np.any(hit):  # the blocks' departures inside
+        if self.cells is not None and np.any(hit):  # the cells' departures inside
             k = self.cells[2].shape[0]
-            w = self._fields().weights(p[hit])[:, self.count:self.count + k]
+            w = self.correction().exact_set().weights(p[hit])[:, :k]
             j[hit] += w @ self.cells[2]
         return (b - j) / MU0
 
@@ -317,7 +329,7 @@ class Arrangement:
         """
         p = as_points(points, "points")
         idx = self._fields().owner(p)
-        idx[idx >= self.count] = -1  # images and blocks are not magnets
+        idx[idx >= self.count] = -1  # images are not magnets
         return idx
 
     # -- derived arrangements --------------------------------------------------
@@ -326,18 +338,22 @@ class Arrangement:
         f = _float(factor, "factor")
         mags = tuple(replace(m, br=m.br * f) for m in self.magnets)
         cells = None if self.cells is None else (*self.cells[:2], self.cells[2] * f, self.cells[3])
-        return Arrangement(mags, self.back_plate, self.pattern, self.rows, self.cols, cells)
+        return Arrangement(mags, self.back_plate, self.pattern, self.rows, self.cols, cells, self.tabulated)
 
-    def with_recoil(self, chis: Sequence[float], subdivision: int | None = None) -> "Arrangement":
+    def with_recoil(self, chis: Sequence[float], subdivision: int | None = None,
+                    tabulated: bool = True) -> "Arrangement":
         """The magnets on their recoil lines (:mod:`matdb.physics.recoil`), with recoil
         susceptibility ``chis[i] = mu_rec - 1`` (their own and their neighbours'
         demagnetising fields, images in the back plate included).
 
         ``br`` and ``direction`` of the returned magnets are the magnitude and direction
         of each magnet's mean polarisation; the non-uniform part (stronger demagnetisation
-        near the face centres) is carried by :attr:`cells` and included in :meth:`B`.
-        ``subdivision`` cells per edge (default :data:`matdb.physics.recoil.SUBDIVISION`;
-        1: one uniform polarisation per magnet). All zeros: ``self``."""
+        near the face centres and next to opposite neighbours) is carried by
+        :attr:`cells` and included in :meth:`B` (tabulated above the magnets once per
+        geometry, :mod:`matdb.physics.recoil_field`; ``tabulated=False``: cell by cell).
+        ``subdivision`` cells per edge (default :data:`matdb.physics.recoil.SUBDIVISION`,
+        reduced for large arrangements; 1: one uniform polarisation per magnet). All
+        zeros: ``self``."""
         chis = [_float(c, "mu_rec") for c in chis]
         if len(chis) != self.count:
             raise InputError(f"mu_rec: expected {self.count} values, got {len(chis)}")
@@ -353,7 +369,8 @@ class Arrangement:
         for m, j in zip(self.magnets, J):
             n = float(np.linalg.norm(j))
             mags.append(replace(m, direction=tuple(float(c) / n for c in j), br=n) if n > 0 else m)
-        return Arrangement(tuple(mags), self.back_plate, self.pattern, self.rows, self.cols, cells)
+        return Arrangement(tuple(mags), self.back_plate, self.pattern, self.rows, self.cols, cells,
+                           tabulated)
 
     def with_unit_polarization(self) -> "Arrangement":
         """Every |br| = 1 T, magnetisation directions kept (sign of br kept)."""
@@ -362,7 +379,7 @@ class Arrangement:
         if cells is not None:  # each magnet's blocks scaled with it
             f = np.array([1.0 / abs(m.br) if m.br != 0 else 0.0 for m in self.magnets])[cells[3]]
             cells = (*cells[:2], cells[2] * f[:, None], cells[3])
-        return Arrangement(mags, self.back_plate, self.pattern, self.rows, self.cols, cells)
+        return Arrangement(mags, self.back_plate, self.pattern, self.rows, self.cols, cells, self.tabulated)
 
 
 def _footprint(shape: str, size: tuple[float, ...]) -> tuple[float, float]:

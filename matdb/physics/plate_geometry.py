@@ -13,6 +13,7 @@ References
 from __future__ import annotations
 
 import math
+from functools import lru_cache
 from dataclasses import dataclass, replace
 from typing import Callable, Sequence
 
@@ -47,6 +48,15 @@ class PlateGeometry:
     breaks_x, breaks_y : tuple of float
         ``x`` (``y``) positions of the magnets' edge lines [m]; quadrature panels are
         bounded and graded there (see :func:`edge_lines`).
+    mirrors : tuple of (float or None)
+        ``(x0, y0)``: lines ``x = x0`` and ``y = y0`` [m] in which the field's energy
+        densities ``B_z^2`` and ``B_x^2 + B_y^2`` are mirror-symmetric (see
+        :func:`field_mirrors`), None where not known; a level plate centred on such a line
+        integrates over one half of its footprint (:func:`footprint_rule`).
+    swap : bool
+        The energy densities are also symmetric under exchanging ``x - x0`` and
+        ``y - y0`` (both mirror lines given; :func:`field_swaps`): a square plate centred
+        at ``(x0, y0)`` integrates over one eighth of its footprint.
     """
 
     shape: str
@@ -57,6 +67,8 @@ class PlateGeometry:
     cy: float = 0.0
     breaks_x: tuple[float, ...] = ()
     breaks_y: tuple[float, ...] = ()
+    mirrors: tuple[float | None, float | None] = (None, None)
+    swap: bool = False
 
     def __post_init__(self):
         if self.shape not in ("rectangle", "disc"):
@@ -138,13 +150,152 @@ def _dedupe(values: Sequence[float], tol: float = 1e-12) -> tuple[float, ...]:
     return tuple(float(x) for x in v[keep])
 
 
+def field_mirrors(magnets, x0: float, y0: float, rel_tol: float = 1e-9
+                  ) -> tuple[float | None, float | None]:
+    """Mirror lines of the magnets' energy densities through the point ``(x0, y0)`` [m].
+
+    Reflecting the arrangement in the plane ``x = x0`` moves each magnet to the mirrored
+    position and turns its polarisation, a pseudo-vector, into ``(J_x, -J_y, -J_z)`` (in
+    ``y = y0``: ``(-J_x, J_y, -J_z)``); when the result is the same set of magnets (shape,
+    size, position) with the same polarisations, or all reversed, the field at the mirrored
+    point is the mirrored field up to one sign, so ``B_z^2`` and ``B_x^2 + B_y^2`` are
+    symmetric. An ideal steel back plate under the magnets keeps the symmetry (its images
+    are mirrored with them), and so does the recoil correction, which the same geometry
+    determines.
+
+    Parameters
+    ----------
+    magnets : iterable
+        Objects with ``shape``, ``size``, ``position`` and ``polarization`` [m, T].
+    x0, y0 : float
+        The lines to test [m].
+
+    Returns
+    -------
+    (x0 or None, y0 or None)
+
+    References
+    ----------
+    .. [1] J. D. Jackson, Classical Electrodynamics, 3rd ed., Wiley (1999), sec. 6.10
+       (B and M are axial vectors: their behaviour under reflection).
+    """
+    mags = list(magnets)
+    if not mags:
+        return (None, None)
+    pos = np.array([[float(v) for v in m.position] for m in mags])
+    pol = np.array([[float(v) for v in m.polarization] for m in mags])
+    size = [(m.shape, tuple(float(v) for v in m.size)) for m in mags]
+    scale = max(float(np.ptp(pos, axis=0).max()), max(max(sz) for _, sz in size))
+    jmax = float(np.abs(pol).max()) or 1.0
+
+    def symmetric(axis: int, c: float) -> bool:
+        mp = pos.copy()
+        mp[:, axis] = 2.0 * c - mp[:, axis]
+        flip = -np.ones(3)
+        flip[axis] = 1.0
+        return _same_set(pos, pol, size, mp, pol * flip, size, rel_tol * scale, rel_tol * jmax)
+
+    return (float(x0) if symmetric(0, float(x0)) else None,
+            float(y0) if symmetric(1, float(y0)) else None)
+
+
+@lru_cache(maxsize=4096)
+def _folded_rule(lo: float, hi: float, breaks: tuple[float, ...], scale: float, order: int,
+                 centre: float) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`matdb.physics.quadrature.graded_rule` on ``[lo, hi]`` folded about ``centre``
+    (:func:`_fold`), cached."""
+    x, w = Q.graded_rule(lo, hi, breaks, scale, order)
+    x, w = _fold(x, w, centre, 0.5 * (hi - lo))
+    x.flags.writeable = False
+    w.flags.writeable = False
+    return x, w
+
+
+def field_swaps(magnets, x0: float, y0: float, rel_tol: float = 1e-9) -> bool:
+    """Whether the magnets' energy densities are symmetric under the reflection
+    ``(x - x0, y - y0) -> (y - y0, x - x0)`` (the diagonal through ``(x0, y0)``).
+
+    The reflection moves a magnet to the swapped position with its ``x`` and ``y`` sizes
+    exchanged and turns its polarisation, a pseudo-vector, into ``(-J_y, -J_x, -J_z)``;
+    when that gives the same set of magnets with the same polarisations, or all reversed,
+    ``B_z^2`` and ``B_x^2 + B_y^2`` are symmetric (as in :func:`field_mirrors`).
+
+    References
+    ----------
+    .. [1] J. D. Jackson, Classical Electrodynamics, 3rd ed., Wiley (1999), sec. 6.10.
+    """
+    mags = list(magnets)
+    if not mags:
+        return False
+    pos = np.array([[float(v) for v in m.position] for m in mags])
+    pol = np.array([[float(v) for v in m.polarization] for m in mags])
+    size = [(m.shape, tuple(float(v) for v in m.size)) for m in mags]
+    scale = max(float(np.ptp(pos, axis=0).max()), max(max(sz) for _, sz in size))
+    jmax = float(np.abs(pol).max()) or 1.0
+    mp = np.column_stack([x0 + (pos[:, 1] - y0), y0 + (pos[:, 0] - x0), pos[:, 2]])
+    mj = -pol[:, [1, 0, 2]]
+    msize = [(sh, (sz[1], sz[0]) + sz[2:]) if sh == "cuboid" else (sh, sz) for sh, sz in size]
+    return _same_set(pos, pol, size, mp, mj, msize, rel_tol * scale, rel_tol * jmax)
+
+
+def _same_set(pos, pol, size, mp, mj, msize, tol_pos: float, tol_j: float) -> bool:
+    """Whether the magnets (mp, mj, msize) are those of (pos, pol, size), all with the same
+    polarisation or all reversed."""
+    for sign in (1.0, -1.0):
+        used = np.zeros(len(size), dtype=bool)
+        ok = True
+        for i in range(len(size)):
+            d = np.abs(pos - mp[i]).max(axis=1) <= tol_pos
+            d &= np.abs(pol - sign * mj[i]).max(axis=1) <= tol_j
+            d &= np.array([sz == msize[i] for sz in size]) & ~used
+            hit = np.nonzero(d)[0]
+            if hit.size == 0:
+                ok = False
+                break
+            used[hit[0]] = True
+        if ok:
+            return True
+    return False
+
+
+def _fold(x: np.ndarray, w: np.ndarray, centre: float | None, half: float
+          ) -> tuple[np.ndarray, np.ndarray]:
+    """A 1-D rule folded about ``centre`` for integrands symmetric about it: each node
+    whose mirror image is also a node of equal weight stands for both (weight doubled, the
+    image dropped); nodes without an image, and a node on the centre, keep their weight.
+    The sum is the rule's own sum for every symmetric integrand. Unchanged when ``centre``
+    is None."""
+    if centre is None:
+        return x, w
+    m = x - centre
+    tol = 1e-12 * half
+    order = np.argsort(m)
+    ms, ws = m[order], w[order]
+    j = np.clip(np.searchsorted(ms, -ms), 0, ms.size - 1)  # candidate image of each node
+    for k in (j, np.clip(j - 1, 0, ms.size - 1)):
+        better = np.abs(ms[k] + ms) < np.abs(ms[j] + ms)
+        j = np.where(better, k, j)
+    paired = (np.abs(ms[j] + ms) <= tol) & np.isclose(ws[j], ws, rtol=1e-12, atol=0) \
+        & (np.abs(ms) > tol)
+    keep = ~paired | (ms > 0)
+    wt = np.where(paired, 2.0 * ws, ws)
+    return (x[order])[keep], wt[keep]
+
+
 # ---------------------------------------------------------------------------
 # quadrature rules (matdb.physics.quadrature)
 # ---------------------------------------------------------------------------
-def footprint_rule(plate: PlateGeometry, scale: float, order: int = DEFAULT_ORDER
-                   ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def footprint_rule(plate: PlateGeometry, scale: float, order: int = DEFAULT_ORDER,
+                   folded: bool = False) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Quadrature over the footprint, graded for a plane at distance ``scale`` from the
     magnets' edges.
+
+    With ``folded``, for integrands with the mirror symmetry of ``plate.mirrors`` (the
+    energy densities of the field), a rectangle centred on a mirror line keeps only the
+    nodes on one side of it with doubled weights: the same sum at half the field points
+    (a quarter with both lines; an eighth for a square with ``plate.swap``, the nodes on
+    one side of the diagonal). The rule must be symmetric itself (its panels end at the
+    magnets' edge lines, mirrored too); otherwise nothing is folded.
 
     Returns
     -------
@@ -162,6 +313,25 @@ def footprint_rule(plate: PlateGeometry, scale: float, order: int = DEFAULT_ORDE
                               scale, order)
         y, wy = Q.graded_rule(plate.cy - plate.ly / 2, plate.cy + plate.ly / 2, plate.breaks_y,
                               scale, order)
+        if folded:
+            mx, my = plate.mirrors
+            fx = mx is not None and abs(mx - plate.cx) <= 1e-12 * plate.lx
+            fy = my is not None and abs(my - plate.cy) <= 1e-12 * plate.ly
+            if fx:
+                x, wx = _folded_rule(plate.cx - plate.lx / 2, plate.cx + plate.lx / 2,
+                                     plate.breaks_x, float(scale), int(order), plate.cx)
+            if fy:
+                y, wy = _folded_rule(plate.cy - plate.ly / 2, plate.cy + plate.ly / 2,
+                                     plate.breaks_y, float(scale), int(order), plate.cy)
+            if (plate.swap and fx and fy and x.size == y.size
+                    and np.array_equal(x - plate.cx, y - plate.cy) and np.array_equal(wx, wy)):
+                # one eighth: the nodes with u >= v (u, v from the centre), off-diagonal
+                # ones standing for their swapped images too
+                u, v = np.meshgrid(x - plate.cx, y - plate.cy, indexing="ij")
+                ww = np.outer(wx, wy)
+                keep = u >= v
+                ww = np.where(u > v, 2.0 * ww, ww)
+                return (u[keep] + plate.cx, v[keep] + plate.cy, ww[keep])
         return (np.repeat(x, y.size), np.tile(y, x.size), np.outer(wx, wy).ravel())
     return Q.disc_rule(plate.cx, plate.cy, plate.lx / 2, plate.breaks_x, plate.breaks_y, scale,
                        order)
@@ -274,6 +444,36 @@ def volume_rule(plate: PlateGeometry, gap: float, order: int = DEFAULT_ORDER
     z, wz = z_rule(gap, gap + plate.thickness, max(4, order // 2 + 1))
     pts = np.column_stack([np.repeat(x, z.size), np.repeat(y, z.size), np.tile(z, x.size)])
     return pts, np.outer(w, wz).ravel()
+
+
+def mirrored_rules(plate: PlateGeometry, gap: float, order: int = DEFAULT_ORDER
+                   ) -> tuple[bool, bool]:
+    """For x and y: whether the level plate is centred on the field's mirror line
+    (``plate.mirrors``) and its closed-surface and side rules at ``gap``
+    (:func:`surface_rule`, :func:`side_rule`) are their own mirror images in it (points,
+    normals and weights), so a pose and its mirrored pose integrate mirrored values.
+    Rectangles only (False for discs)."""
+    if plate.shape != "rectangle":
+        return (False, False)
+    out = []
+    for line, centre, size, breaks in ((plate.mirrors[0], plate.cx, plate.lx, plate.breaks_x),
+                                       (plate.mirrors[1], plate.cy, plate.ly, plate.breaks_y)):
+        ok = line is not None and abs(line - centre) <= 1e-12 * size
+        ok = ok and all(_symmetric_rule(centre - size / 2, centre + size / 2, breaks, float(h),
+                                        int(order), centre)
+                        for h in (max(gap, 1e-9), gap + plate.thickness))
+        out.append(bool(ok))
+    return out[0], out[1]
+
+
+@lru_cache(maxsize=4096)
+def _symmetric_rule(lo: float, hi: float, breaks: tuple[float, ...], scale: float, order: int,
+                    centre: float) -> bool:
+    x, w = Q.graded_rule(lo, hi, breaks, scale, order)
+    o = np.argsort(x - centre)
+    ms, ws = (x - centre)[o], w[o]
+    return bool(np.allclose(ms, -ms[::-1], rtol=0, atol=1e-12 * (hi - lo))
+                and np.allclose(ws, ws[::-1], rtol=1e-12, atol=0))
 
 
 def eval_field(field: FieldFn, points: np.ndarray) -> np.ndarray:

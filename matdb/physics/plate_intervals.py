@@ -123,18 +123,28 @@ def lateral_force(field: FieldFn, plate: PlateGeometry, gap: float, chi_perp_abs
     Returns
     -------
     ndarray (2,)
-        ``(F_x, F_y)`` [N].
+        ``(F_x, F_y)`` [N]; zero without a field evaluation for a plate centred on both
+        mirror lines of the field (``plate.mirrors``), where the sideways forces on
+        opposite faces cancel.
 
     References
     ----------
     .. [1] M. V. Berry and A. K. Geim, Eur. J. Phys. 18, 307 (1997).
     .. [2] J. D. Jackson, Classical Electrodynamics, 3rd ed. (1999), sec. 5.16.
     """
+    if _centred_on_mirrors(plate):
+        return np.zeros(2)  # both components cancel by the field's mirror symmetry
     pts, nrm, w = side_rule(plate, gap, gap + plate.thickness, order)
     b = eval_field(field, pts)
     bz2 = b[:, 2] ** 2
     wd = chi_perp_abs * bz2 + chi_par_abs * (b[:, 0] ** 2 + b[:, 1] ** 2)
     return -(wd * w) @ nrm[:, :2] / (2.0 * MU0)
+
+
+def _centred_on_mirrors(plate: PlateGeometry) -> bool:
+    mx, my = plate.mirrors
+    return (mx is not None and my is not None and abs(mx - plate.cx) <= 1e-12 * plate.lx
+            and abs(my - plate.cy) <= 1e-12 * plate.ly)
 
 
 @dataclass(frozen=True)

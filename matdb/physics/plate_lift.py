@@ -76,7 +76,7 @@ def _planes(field: FieldFn, plate: PlateGeometry, h: np.ndarray, rh: np.ndarray,
     for i, (hi, ri) in enumerate(zip(h, rh)):
         key = float(ri)
         if key not in cache:
-            cache[key] = footprint_rule(plate, max(key, 1e-9), order)
+            cache[key] = footprint_rule(plate, max(key, 1e-9), order, folded=True)
         x, y, w = cache[key]
         pts.append(np.column_stack([x, y, np.full(x.size, hi)]))
         wts.append(w)

@@ -24,7 +24,8 @@ import numpy as np
 from scipy.spatial.transform import Rotation
 
 from matdb.physics.plate_geometry import (DEFAULT_ORDER, FieldFn, PlateGeometry, eval_field,
-                                          surface_rule, volume_rule)
+                                          mirrored_rules, side_rule, surface_rule,
+                                          volume_rule)
 from matdb.constants import MU0
 
 # ---------------------------------------------------------------------------
@@ -164,22 +165,227 @@ def _columns(field: FieldFn, plate: PlateGeometry, gap: float, pivot, order: int
              perturbed: Sequence[int], rows: Sequence[int], step_m: float | None,
              step_rad: float) -> np.ndarray:
     """Unsymmetrised columns ``-dQ_rows/dq_j`` for the ``perturbed`` coordinates j,
-    (2, len(rows), len(perturbed)); central differences of
-    :func:`generalized_forces_split` (the steps of :func:`stiffness_split`)."""
+    (2, len(rows), len(perturbed)); entries not computed are NaN (their mirror gives them,
+    see :func:`_symmetric`).
+
+    - x and y translations: central differences of the sideways force only, which only the
+      side faces carry (the normals of the top and bottom faces are vertical), so only the
+      side faces are moved; their vertical-force and torque rows are NaN;
+    - z translation: central differences of the force on the closed surface (torques NaN);
+    - rotations: central differences of the closed-surface force and torque, plus the exact
+      rate of change of the anisotropic volume torque (:func:`_intrinsic_rates`) from the
+      field at the level pose, shared by every rotation.
+
+    References
+    ----------
+    .. [1] J. D. Jackson, Classical Electrodynamics, 3rd ed. (1999), sec. 5.16.
+    .. [2] H. Flanders, "Differentiation under the integral sign", Amer. Math. Monthly 80,
+       615-627 (1973) (Reynolds transport: the rate of a volume integral over a moving
+       region is the flux of the integrand through its boundary plus the integral of the
+       integrand's own rate).
+    """
     hs = step_m if step_m is not None else max(1e-7, 5e-4 * min(plate.lx, plate.ly, 10 * gap))
-    steps = np.array([hs] * 3 + [step_rad] * 3)[list(perturbed)]
-    poses = np.zeros((2 * len(perturbed), 6))
-    for j, d in enumerate(perturbed):
-        poses[2 * j, d] = steps[j]
-        poses[2 * j + 1, d] = -steps[j]
-    q = np.empty((poses.shape[0], 2, 6))
-    moved = np.array([d < 3 for d in perturbed for _ in (0, 1)], dtype=bool)
-    for sel, tq in ((moved, False), (~moved, True)):  # translations: forces only
-        if np.any(sel):
-            q[sel] = generalized_forces_split(field, plate, gap, pivot, poses[sel], order, tq)
-    q = q[:, :, list(rows)]
-    k = -(q[0::2] - q[1::2]) / (2.0 * steps[:, None, None])  # (j, comp, i)
-    return np.transpose(k, (1, 2, 0))  # (comp, i, j)
+    steps = np.array([hs] * 3 + [step_rad] * 3)
+    pivot = np.asarray(pivot, dtype=float)
+    perturbed = [int(d) for d in perturbed]
+    k = np.full((2, 6, len(perturbed)), np.nan)
+    sideways = [j for j, d in enumerate(perturbed) if d < 2]
+    if sideways:
+        pts, nrm, w = side_rule(plate, gap, gap + plate.thickness, order)
+        mirror = _mirror_axes(plate, gap, order, pivot)
+        pairs = [(j, perturbed[j], _paired(perturbed[j], mirror)) for j in sideways]
+        shifts = _poses(pairs, steps)[:, :3]
+        b = eval_field(field, (pts[None, :, :] + shifts[:, None, :]).reshape(-1, 3))
+        b = b.reshape(shifts.shape[0], pts.shape[0], 3)
+        wz = b[:, :, 2] ** 2
+        wxy = b[:, :, 0] ** 2 + b[:, :, 1] ** 2
+        f = np.zeros((shifts.shape[0], 2, 6))
+        f[:, :, :2] = np.stack([(wz * w) @ nrm[:, :2], (wxy * w) @ nrm[:, :2]], axis=1) \
+            * (-1.0 / (2.0 * MU0))
+        k[:, :2, sideways] = _differences(f, pairs, steps)[:, :2, :]
+    others = [j for j, d in enumerate(perturbed) if d >= 2]
+    if others:
+        sp, sn, sw = surface_rule(plate, gap, order)
+        mirror = _mirror_axes(plate, gap, order, pivot)
+        pairs = [(j, perturbed[j], _paired(perturbed[j], mirror)) for j in others]
+        poses = _poses(pairs, steps)
+        turned = poses[:, 2] == 0.0
+        q = np.empty((poses.shape[0], 2, 6))
+        if np.any(~turned):  # z translation: forces only
+            q[~turned] = generalized_forces_split(field, plate, gap, pivot, poses[~turned],
+                                                  order, torques=False)
+        if np.any(turned):
+            q[turned] = _surface_forces_split(field, plate, gap, pivot, poses[turned], order)
+        k[:, :, others] = _differences(q, pairs, steps)
+        rot = [j for j in others if perturbed[j] >= 3]
+        if rot:
+            rates = _intrinsic_rates(field, plate, gap, pivot, order,
+                                     [perturbed[j] - 3 for j in rot])  # (n_rot, 3)
+            for i, j in enumerate(rot):
+                k[0, 3:, j] -= rates[i]
+                k[1, 3:, j] += rates[i]
+    return k[:, list(rows), :]
+
+
+#: the mirror (0: in x, 1: in y) that maps a coordinate's + step onto its - step
+_PAIRING = {0: (0,), 1: (1,), 3: (1,), 4: (0,), 5: (0, 1)}
+
+
+def _paired(d: int, mirror: tuple[bool, bool]) -> int | None:
+    return next((a for a in _PAIRING.get(d, ()) if mirror[a]), None)
+
+
+def _poses(pairs, steps: np.ndarray) -> np.ndarray:
+    """The poses to evaluate: ``+step`` of each coordinate, and ``-step`` unless a mirror
+    gives it."""
+    rows = []
+    for _, d, axis in pairs:
+        for sgn in ((1.0,) if axis is not None else (1.0, -1.0)):
+            p = np.zeros(6)
+            p[d] = sgn * steps[d]
+            rows.append(p)
+    return np.array(rows)
+
+
+def _differences(q: np.ndarray, pairs, steps: np.ndarray) -> np.ndarray:
+    """Central differences ``-(Q(+h) - Q(-h)) / (2 h)`` (2, 6, n) from the evaluated poses
+    (:func:`_poses`), with ``Q(-h) = D Q(+h)`` where a mirror in axis ``a`` maps the one
+    pose onto the other: forces (polar) change the sign of their ``a`` component, torques
+    about a pivot on the mirror (axial) that of the other two."""
+    out = np.empty((2, 6, len(pairs)))
+    i = 0
+    for n, (_, d, axis) in enumerate(pairs):
+        plus = q[i]
+        if axis is None:
+            minus = q[i + 1]
+            i += 2
+        else:
+            flip = np.ones(6)
+            flip[axis] = -1.0
+            flip[3:] = -1.0
+            flip[3 + axis] = 1.0
+            minus = plus * flip
+            i += 1
+        out[:, :, n] = -(plus - minus) / (2.0 * steps[d])
+    return out
+
+
+def _mirror_axes(plate: PlateGeometry, gap: float, order: int, pivot: np.ndarray
+                 ) -> tuple[bool, bool]:
+    """For each of x and y: the field's mirror line passes through the plate's centre and
+    the pivot, and the plate's rules are their own mirror images there
+    (:func:`~matdb.physics.plate_geometry.mirrored_rules`)."""
+    rules = mirrored_rules(plate, gap, order)
+    return tuple(bool(ok and abs(pivot[a] - plate.mirrors[a]) <= 1e-12 * size)
+                 for a, (ok, size) in enumerate(zip(rules, (plate.lx, plate.ly))))
+
+
+def _surface_forces_split(field: FieldFn, plate: PlateGeometry, gap: float, pivot,
+                          poses: np.ndarray, order: int) -> np.ndarray:
+    """:func:`generalized_forces_split` without the anisotropic volume torque: force and
+    torque of the closed-surface integrals alone at each pose, (P, 2, 6)."""
+    sp, sn, sw = surface_rule(plate, gap, order)
+    rot = Rotation.from_rotvec(poses[:, 3:]).as_matrix()
+    centre = pivot[None, :] + poses[:, :3]
+    sp_t = centre[:, None, :] + np.einsum("pij,mj->pmi", rot, sp - pivot)
+    sn_t = np.einsum("pij,mj->pmi", rot, sn)
+    bs = eval_field(field, sp_t.reshape(-1, 3)).reshape(sp_t.shape)
+    return _surface_terms(bs, sp_t, sn_t, sw, centre, rot[:, :, 2])
+
+
+def _surface_terms(bs: np.ndarray, sp_t: np.ndarray, sn_t: np.ndarray, sw: np.ndarray,
+                   centre: np.ndarray, axis: np.ndarray) -> np.ndarray:
+    """Split force and torque ``-(1/(2 mu0)) closed_integral w (n, (r - C) x n) dS`` at
+    posed surface points (P, m, 3) with their field, normals and weights, (P, 2, 6)."""
+    be_s = np.einsum("pmi,pi->pm", bs, axis)
+    w_perp = be_s ** 2
+    w_par = np.einsum("pmi,pmi->pm", bs, bs) - w_perp
+    lever = np.cross(sp_t - centre[:, None, :], sn_t)  # (P, m, 3)
+    out = np.empty((bs.shape[0], 2, 6))
+    for k, wk in enumerate((w_perp, w_par)):
+        ww = wk * sw[None, :] * (-1.0 / (2.0 * MU0))
+        out[:, k, :3] = np.einsum("pm,pmi->pi", ww, sn_t)
+        out[:, k, 3:] = np.einsum("pm,pmi->pi", ww, lever)
+    return out
+
+
+def _intrinsic_rates(field: FieldFn, plate: PlateGeometry, gap: float, pivot, order: int,
+                     axes: Sequence[int]) -> np.ndarray:
+    """Rate of the anisotropic volume torque ``T = (1/mu0) integral_V (B.e)(B x e) dV`` per
+    unit rotation about each of ``axes`` (0, 1, 2 = x, y, z) through ``pivot``, at the
+    level pose, (len(axes), 3) [N m/rad per unit (|chi_perp| - |chi_par|)].
+
+    Rotating by ``theta`` about ``a`` moves the region with velocity ``a x (r - C)`` and
+    turns the c axis ``e`` at the rate ``a x e``; by Reynolds' transport theorem
+
+        dT/dtheta = (1/mu0) [closed_integral_S (B.e)(B x e) ((a x (r - C)) . n) dS
+                             + integral_V ((B.u)(B x e) + (B.e)(B x u)) dV],  u = a x e,
+
+    which needs the field only at the level pose (no field gradient). The volume integral
+    is quadratic in ``B``: its moments ``integral_V B_i B_k dV`` are surface integrals too
+    (:func:`field_moments`), so only the level closed surface is evaluated. The volume
+    torque of :func:`generalized_forces_split` is differenced at turned poses instead; the
+    two agree to the quadrature error.
+
+    References
+    ----------
+    .. [1] H. Flanders, Amer. Math. Monthly 80, 615-627 (1973) (differentiation of an
+       integral over a moving region).
+    .. [2] J. D. Jackson, Classical Electrodynamics, 3rd ed. (1999), sec. 5.16 (torque
+       ``M x B`` on a magnetised body).
+    """
+    key = (plate, float(gap), tuple(float(v) for v in pivot), int(order))
+    hit = _LEVEL.get("key")
+    if hit == key and _LEVEL.get("field") == field:
+        sp, sn, sw, bs = _LEVEL["surface"]
+    else:
+        sp, sn, sw = surface_rule(plate, gap, order)
+        bs = eval_field(field, sp)
+        _LEVEL.update(key=key, field=field, surface=(sp, sn, sw, bs))
+    pivot = np.asarray(pivot, dtype=float)
+    e = np.array([0.0, 0.0, 1.0])
+    q = _moments(sp, sn, sw, bs, pivot)  # integral_V B_i B_k dV
+    gs = bs[:, 2:3] * np.cross(bs, e)  # (B.e)(B x e) on the surface
+    out = np.empty((len(axes), 3))
+    for i, ax in enumerate(axes):
+        a = np.zeros(3)
+        a[ax] = 1.0
+        u = np.cross(a, e)
+        vn = np.einsum("mi,mi->m", np.cross(a, sp - pivot), sn)
+        surf = (sw * vn) @ gs
+        # integral (B.u)(B x e) + (B.e)(B x u) dV, written with the moments Q_im
+        vol = np.einsum("i,lmn,n,im->l", u, _LEVI, e, q) + np.einsum("i,lmn,n,im->l", e, _LEVI, u, q)
+        out[i] = (surf + vol) / MU0
+    return out
+
+
+_LEVEL: dict = {}  # the level pose's surface field, kept for the next rotation stage
+_LEVI = np.zeros((3, 3, 3))
+_LEVI[0, 1, 2] = _LEVI[1, 2, 0] = _LEVI[2, 0, 1] = 1.0
+_LEVI[0, 2, 1] = _LEVI[2, 1, 0] = _LEVI[1, 0, 2] = -1.0
+
+
+def _moments(sp: np.ndarray, sn: np.ndarray, sw: np.ndarray, b: np.ndarray,
+             origin: np.ndarray) -> np.ndarray:
+    """``integral_V B_i B_k dV`` (3, 3) [T^2 m^3] over a body bounded by the closed surface
+    ``(sp, sn, sw)`` (points, outward normals, weights) with the field ``b`` there, for a
+    field free of sources inside the body (no magnet material, no currents).
+
+    The Maxwell stress ``T_ij = B_i B_j - |B|^2 delta_ij / 2`` is divergence-free there,
+    so ``integral_V T_ik dV = closed_integral_S (x_k - o_k) T_ij n_j dS`` (divergence
+    theorem on ``(x_k - o_k) T_ij``); ``integral |B|^2 dV = -2 trace`` of that.
+
+    References
+    ----------
+    .. [1] J. D. Jackson, Classical Electrodynamics, 3rd ed. (1999), sec. 5.6 and 6.7
+       (Maxwell stress tensor, divergence-free in a source-free region).
+    """
+    b2 = np.einsum("mi,mi->m", b, b)
+    tn = b * np.einsum("mj,mj->m", b, sn)[:, None] - 0.5 * b2[:, None] * sn  # T n
+    s = np.einsum("m,mi,mk->ik", sw, tn, sp - origin)  # integral_V T_ik dV
+    s = 0.5 * (s + s.T)
+    # integral B_i B_k = integral T_ik + delta_ik integral |B|^2 / 2, integral |B|^2 = -2 tr
+    return s - np.trace(s) * np.eye(3)
 
 
 def combine(split: np.ndarray, chi_perp_abs: float, chi_par_abs: float) -> np.ndarray:

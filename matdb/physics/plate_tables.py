@@ -230,10 +230,11 @@ def axis_rule(length: float, breaks, scale: float, order: int, even: bool
 
 
 def plane_integrals(field: FieldFn, lx: float, ly: float, breaks_x, breaks_y, heights,
-                    order: int, floor_m: float, even: tuple[bool, bool] = (False, False)
-                    ) -> np.ndarray:
+                    order: int, floor_m: float, even: tuple[bool, bool] = (False, False),
+                    same_rule: bool = False) -> np.ndarray:
     """Integrals of ``B_z^2`` and ``B_x^2 + B_y^2`` over a centred ``lx`` x ``ly``
-    rectangle at each height, the rule graded for ``max(h, floor_m)``.
+    rectangle at each height, the rule graded for ``max(h, floor_m)`` (``same_rule``: for
+    ``floor_m`` at every height, so differences between heights vary smoothly with them).
 
     With ``even`` (from :func:`mirror_symmetry`) the rule covers one half (or quarter) of
     the rectangle with doubled weights. Without, the same rule as
@@ -252,7 +253,7 @@ def plane_integrals(field: FieldFn, lx: float, ly: float, breaks_x, breaks_y, he
     pts, wts, idx = [], [], []
     rules: dict[float, tuple] = {}
     for i, h in enumerate(hs):
-        scale = max(float(h), floor_m)
+        scale = float(floor_m) if same_rule else max(float(h), floor_m)
         r = rules.get(scale)
         if r is None:
             x, wx = axis_rule(lx, breaks_x, scale, order, even[0])

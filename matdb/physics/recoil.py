@@ -7,8 +7,9 @@ recoil susceptibility ``chi_rec = mu_rec - 1`` (``mu_rec`` from the grade table)
 
 Method
 ------
-Each magnet is cut into ``n`` x ``n`` x ``n`` equal cuboid cells (``n`` =
-``subdivision``; cylinders and rings stay one cell), each cell given one uniform
+Each cuboid magnet is cut into near-cubic equal cells, ``n`` along its longest edge
+(``n`` = ``subdivision``, default :data:`SUBDIVISION`; cylinders and rings stay one
+cell), each cell given one uniform
 polarisation ``J_c`` (a Galerkin projection of the integral equation of
 magnetostatics onto piecewise-constant polarisations over the subdivided magnets: the
 method of moments with volume-averaged rather than point-matched interaction [1]_ [2]_):
@@ -20,20 +21,22 @@ where ``A_cd`` (3 x 3) is the volume average over cell ``c`` of ``mu0 H`` made b
 magnetometric demagnetising tensor of the cell [3]_), evaluated with the closed-form
 fields of :mod:`matdb.physics.fields` at Gauss-Legendre points inside each cell (images
 in a steel back plate included; the pairs of a regular grid share few distinct offsets,
-each evaluated once). The linear system ``(I - X A) J = J_r`` is solved once per
-geometry and recoil susceptibilities (cached), and since it is linear in ``J_r`` the
-response ``R`` (cells x magnets) is kept and reused for every remanence (temperature,
-minimum-spec worst case): ``J = R J_r``. Cylinders and rings keep their polarisation
+each evaluated once). The interaction ``A`` depends on the geometry only and is kept for every recoil
+susceptibility; the linear system ``(I - X A) J = J_r`` is solved by its Neumann series
+(``|X A|`` is about ``chi_rec``: a few matrix products for NdFeB, SmCo and ferrite; LU
+otherwise) once per geometry and susceptibilities (cached), and since it is linear in
+``J_r`` the response ``R`` (cells x magnets) is kept and reused for every remanence
+(temperature, minimum-spec worst case): ``J = R J_r``. Cylinders and rings keep their polarisation
 along their axis (only the axial part of the equation is solved for them).
 
 Each magnet's mean polarisation (its total moment, right to first order in ``chi_rec``)
-is what the magnets of :meth:`Arrangement.with_recoil` carry; with ``n > 1`` the cells'
-departures from it (stronger demagnetisation near the face centres and next to
-opposite neighbours) are added to the field as extra cuboid sources. With ``n = 1`` (the
-default, :data:`SUBDIVISION`) the non-uniform part is not represented and the lift
-reduction is about half the converged one; see :data:`SUBDIVISION` for the measured
-figures. Checked against the moment method of magpylib-material-response on meshed
-magnets in ``tests/test_recoil.py``.
+is what the magnets of :meth:`Arrangement.with_recoil` carry; the cells' departures
+from it (stronger demagnetisation near the face centres and next to opposite
+neighbours) make a field of a few per cent of B, which
+:mod:`matdb.physics.recoil_field` tabulates once per geometry above the magnets (exact
+cell by cell elsewhere), so the default model costs little more than the rigid one
+once the table exists. Checked against the moment method of
+magpylib-material-response on meshed magnets in ``tests/test_recoil.py``.
 
 References
 ----------
@@ -59,7 +62,7 @@ from matdb.physics.quadrature import gauss_legendre
 
 __all__ = [
     "SUBDIVISION",
-    "FIELD_BLOCKS",
+    "cell_counts",
     "interaction_matrix",
     "response_matrix",
     "effective_polarizations",
@@ -68,29 +71,29 @@ __all__ = [
     "clear_cache",
 ]
 
-#: Cells per edge of each cuboid magnet in the default model (1: one uniform
-#: polarisation per magnet). Measured lift reduction of a 10 mm graphite plate at 0.5 /
-#: 1 mm over a 2 x 2 checkerboard of 12.7 mm N42 cubes (chi_rec 0.05), this module vs
-#: magpylib-material-response at the same meshing: n = 1: 2.2 / 2.2 %; n = 5 (125 cells
-#: per magnet): 3.55 / 3.81 % vs 3.55 / 3.81 %; the reference at 7^3 cells: 4.0 / 4.2 %
-#: (the subdivision converges slowly next to the shared edges of opposite neighbours).
-#: The field of a subdivided magnet costs about (2n + 1)^2 (n + 1) corners instead of
-#: 18 for the 2 x 2 example, so n > 1 is offered on request (``subdivision=``) and the
-#: default stays 1 until the correction field is tabulated.
-SUBDIVISION = 1
-#: Blocks per edge of each cuboid magnet in the field model (None: the cells
-#: themselves). Averaging onto coarser blocks was measured to lose most of what the
-#: subdivision gains (2 blocks: 2.0 % instead of 3.2 % at n = 4), so the default keeps
-#: the cells.
-FIELD_BLOCKS = None
+#: Cells along the longest edge of each cuboid magnet in the default model (1: one
+#: uniform polarisation per magnet; reduced until the arrangement has at most
+#: :data:`MAX_CELLS` cells). Measured lift reduction of a 10 mm graphite plate at 0.5 /
+#: 1 mm over a 2 x 2 checkerboard of 12.7 mm N42 cubes (chi_rec 0.05): n = 1: 2.2 /
+#: 2.2 %; n = 3: 2.7 / 2.9 %; n = 4: 3.2 / 3.4 %; n = 5: 3.55 / 3.81 % (equal to
+#: magpylib-material-response at the same meshing); n = 6: 3.85 / 4.07 %; n = 7: 4.03 /
+#: 4.25 %. The subdivision converges slowly next to the shared edges of opposite
+#: neighbours (the reverse field there diverges logarithmically); a single cube is
+#: converged at n = 5 (5.81 / 5.50 %; n = 8: 5.81 / 5.57 %). n = 5 keeps the one-off
+#: solve of a 2 x 2 array under a second.
+SUBDIVISION = 5
 #: Upper bound on the number of cells of one solve (the dense system is 3 x cells).
 MAX_CELLS = 512
+SERIES_MAX = 40  # Neumann-series steps before falling back to LU
+SERIES_TOL = 1e-13  # last step of the series relative to the remanence
 N_QUAD = 5  # Gauss-Legendre points per axis inside a magnet solved as one cell
 N_QUAD_CELL = 3  # ... inside each cell of a subdivided magnet
 N_PHI = 12  # azimuthal points inside cylinders and rings
 _CACHE: dict = {}
 _LOCK = threading.Lock()
 _CACHE_MAX = 256
+_A_CACHE: dict = {}  # interaction matrices (tens of MB each): a few
+_A_CACHE_MAX = 4
 
 
 @dataclass(frozen=True)
@@ -149,18 +152,27 @@ def volume_quadrature(shape: str, size: Sequence[float], position: Sequence[floa
     return pts + pos, W.ravel()
 
 
+def cell_counts(size: Sequence[float], n: int) -> tuple[int, int, int]:
+    """Cells along x, y, z of a cuboid cut with ``n`` cells along its longest edge and
+    near-cubic cells (at least one per axis)."""
+    s = np.asarray(size, dtype=float)
+    return tuple(int(v) for v in np.maximum(1, np.rint(n * s / s.max())))  # type: ignore[return-value]
+
+
 def subdivide(magnets, n: int) -> list[Cell]:
-    """Cells of the magnets: each cuboid cut into ``n`` x ``n`` x ``n`` equal cells,
-    cylinders and rings kept whole (axial polarisation only)."""
+    """Cells of the magnets: each cuboid cut into near-cubic equal cells, ``n`` along its
+    longest edge (:func:`cell_counts`), in (x, y, z) index order; cylinders and rings kept
+    whole (axial polarisation only)."""
     cells = []
     for i, m in enumerate(magnets):
         size = tuple(float(v) for v in m.size)
         if m.shape != "cuboid" or n == 1:
             cells.append(Cell(m.shape, size, tuple(float(p) for p in m.position), i))
             continue
-        h = np.asarray(size) / n
-        f = (np.arange(n) + 0.5) / n - 0.5
-        X, Y, Z = np.meshgrid(f * size[0], f * size[1], f * size[2], indexing="ij")
+        k = cell_counts(size, n)
+        h = np.asarray(size) / np.asarray(k)
+        X, Y, Z = np.meshgrid(*[((np.arange(k[a]) + 0.5) / k[a] - 0.5) * size[a] for a in range(3)],
+                              indexing="ij")
         centres = np.column_stack([X.ravel(), Y.ravel(), Z.ravel()]) + np.asarray(m.position, dtype=float)
         cells.extend(Cell("cuboid", tuple(h), tuple(c), i) for c in centres.tolist())
     return cells
@@ -169,9 +181,11 @@ def subdivide(magnets, n: int) -> list[Cell]:
 def _subdivision(magnets, subdivision: int | None) -> int:
     """The subdivision asked for, reduced (never below 1) to stay within MAX_CELLS."""
     n = SUBDIVISION if subdivision is None else int(subdivision)
-    n_cub = sum(1 for m in magnets if m.shape == "cuboid")
-    n_other = len(magnets) - n_cub
-    while n > 1 and n_cub * n ** 3 + n_other > MAX_CELLS:
+
+    def count(k):
+        return sum(int(np.prod(cell_counts(m.size, k))) if m.shape == "cuboid" else 1 for m in magnets)
+
+    while n > 1 and count(n) > MAX_CELLS:
         n -= 1
     return max(n, 1)
 
@@ -222,10 +236,14 @@ def interaction_matrix(cells, plate_z: float | None = None, n: int = N_QUAD) -> 
             if img:
                 spos[:, 2] = 2.0 * plate_z - spos[:, 2]
             off = (pos[None, :, :] - spos[:, None, :]).reshape(-1, 3)  # target - source
-            keys = np.column_stack([np.tile(tid, src.size), np.round(off / scale * 1e9)])
-            _, first, inverse = np.unique(keys, axis=0, return_index=True, return_inverse=True)
+            ttype_all = np.tile(tid, src.size)
+            key = ttype_all.astype(np.int64)
+            for ax in range(3):  # one integer key per (target type, offset): 1-d unique
+                _, rank = np.unique(np.round(off[:, ax] / scale * 1e9), return_inverse=True)
+                key = key * (int(rank.max()) + 1) + rank.ravel()
+            _, first, inverse = np.unique(key, return_index=True, return_inverse=True)
             inverse = inverse.ravel()
-            ttype = keys[first, 0].astype(int)
+            ttype = ttype_all[first]
             # quadrature points of every distinct (target shape, offset), one call per k
             pts = np.concatenate([quads[t][0] for t in ttype]) + np.repeat(off[first], nq, axis=0)
             wts = np.concatenate([quads[t][1] for t in ttype])
@@ -244,6 +262,26 @@ def interaction_matrix(cells, plate_z: float | None = None, n: int = N_QUAD) -> 
     return A
 
 
+def _solve(M: np.ndarray, E: np.ndarray) -> np.ndarray:
+    """``M^-1 E`` for ``M = I - X A``: by the Neumann series ``R <- E + (I - M) R`` while it
+    contracts fast (small recoil susceptibility: a few matrix products instead of a
+    factorisation), else by LU (numpy.linalg.solve)."""
+    K = np.eye(M.shape[0]) - M
+    R = E.copy()
+    scale = float(np.max(np.abs(E)))
+    prev = np.inf
+    for _ in range(SERIES_MAX):
+        nxt = E + K @ R
+        step = float(np.max(np.abs(nxt - R)))
+        R = nxt
+        if step <= SERIES_TOL * scale:
+            return R
+        if step > 0.5 * prev:  # slow or diverging: factorise instead
+            break
+        prev = step
+    return np.linalg.solve(M, E)
+
+
 def _cell_response(magnets, chis: tuple, plate_z: float | None, n: int):
     """Cells and ``R`` (3 n_cell, 3 n_mag): cell polarisations ``J = R J_r`` (cached)."""
     mags = list(magnets)
@@ -254,7 +292,15 @@ def _cell_response(magnets, chis: tuple, plate_z: float | None, n: int):
         return hit
     cells = subdivide(mags, n)
     nc, nm = len(cells), len(mags)
-    A = interaction_matrix(cells, plate_z, N_QUAD if n == 1 else N_QUAD_CELL).reshape(3 * nc, 3 * nc)
+    akey = ("A", key[0], n)  # independent of the susceptibilities: shared by every grade
+    with _LOCK:
+        A = _A_CACHE.get(akey)
+    if A is None:
+        A = interaction_matrix(cells, plate_z, N_QUAD if n == 1 else N_QUAD_CELL).reshape(3 * nc, 3 * nc)
+        with _LOCK:
+            if len(_A_CACHE) >= _A_CACHE_MAX:
+                _A_CACHE.pop(next(iter(_A_CACHE)))
+            _A_CACHE[akey] = A
     owner = np.array([c.magnet for c in cells])
     free = np.ones(3 * nc, dtype=bool)
     for i, c in enumerate(cells):
@@ -267,7 +313,7 @@ def _cell_response(magnets, chis: tuple, plate_z: float | None, n: int):
     E = np.zeros((3 * nc, 3 * nm))  # each cell starts from its magnet's remanence
     rows = np.arange(3 * nc)
     E[rows, 3 * np.repeat(owner, 3) + np.tile(np.arange(3), nc)] = 1.0
-    R = np.linalg.solve(M, E)
+    R = _solve(M, E)
     out = (cells, owner, R)
     with _LOCK:
         if len(_CACHE) >= _CACHE_MAX:
@@ -332,14 +378,12 @@ def effective_polarizations(magnets, chis: Sequence[float], plate_z: float | Non
 
 
 def polarization_cells(magnets, chis: Sequence[float], plate_z: float | None = None,
-                       subdivision: int | None = None, blocks: int | None = FIELD_BLOCKS):
-    """The non-uniform part of the solved polarisation, on blocks, for the field model.
+                       subdivision: int | None = None):
+    """The non-uniform part of the solved polarisation, per cell, for the field model.
 
-    The cells' polarisations are averaged onto ``blocks``^3 equal blocks per cuboid
-    magnet (``blocks`` must divide the subdivision; None or otherwise: the cells
-    themselves) and each block's departure ``dJ`` from its magnet's mean polarisation is
-    returned: the field of the magnets on their recoil lines is the field of the magnets
-    with their mean polarisation plus that of these blocks.
+    Each cell's departure ``dJ`` from its magnet's mean polarisation: the field of the
+    magnets on their recoil lines is the field of the magnets with their mean
+    polarisation plus that of these cells.
 
     Returns
     -------
@@ -355,25 +399,16 @@ def polarization_cells(magnets, chis: Sequence[float], plate_z: float | None = N
     jr = np.array([m.polarization for m in mags], dtype=float).ravel()
     J = (R @ jr).reshape(-1, 3)
     mean = effective_polarizations(mags, chis_t, plate_z, n)
-    b = blocks if blocks is not None and blocks >= 1 and n % blocks == 0 else n
-    sizes, centres, dj, idx = [], [], [], []
-    per = n // b
-    for i, m in enumerate(mags):
-        if m.shape != "cuboid":
-            continue
-        sel = np.nonzero(owner == i)[0]  # n^3 cells in (x, y, z) index order
-        jc = J[sel].reshape(b, per, b, per, b, per, 3).mean(axis=(1, 3, 5)).reshape(-1, 3)
-        size = np.asarray(m.size, dtype=float)
-        f = (np.arange(b) + 0.5) / b - 0.5
-        X, Y, Z = np.meshgrid(f * size[0], f * size[1], f * size[2], indexing="ij")
-        sizes.append(np.tile(size / b, (b ** 3, 1)))
-        centres.append(np.column_stack([X.ravel(), Y.ravel(), Z.ravel()]) + np.asarray(m.position))
-        dj.append(jc - mean[i])
-        idx.append(np.full(b ** 3, i))
-    return (np.concatenate(sizes), np.concatenate(centres), np.concatenate(dj), np.concatenate(idx))
+    per = np.bincount(owner, minlength=len(mags))
+    sel = np.array([c.shape == "cuboid" for c in cells]) & (per[owner] > 1)
+    sizes = np.array([c.size for c, k in zip(cells, sel) if k], dtype=float)
+    centres = np.array([c.position for c, k in zip(cells, sel) if k], dtype=float)
+    idx = owner[sel]
+    return sizes, centres, J[sel] - mean[idx], idx
 
 
 def clear_cache() -> None:
-    """Forget every cached response."""
+    """Forget every cached response and interaction matrix."""
     with _LOCK:
         _CACHE.clear()
+        _A_CACHE.clear()

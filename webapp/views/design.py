@@ -191,8 +191,10 @@ with left:
     if design is not None:
         st.download_button("Download this design (TOML)", text.encode(), file_name="design.toml",
                            mime="application/toml", key="design_download")
-        with st.expander("Design file text"):
-            st.code(text, language="toml")
+        # drawn only when opened (highlighted code is work for the browser on every visit)
+        shown_text = st.expander("Design file text", key="d_show_text", on_change="rerun")
+        if shown_text.open:
+            shown_text.code(text, language="toml")
         st.markdown("**Report and drawing**")
         _downloads.report_buttons(text, url, "design")
     saved_designs_panel(text if design is not None else None)
@@ -393,7 +395,8 @@ legend = dict(orient="bottom", titleLimit=300)
 sh.chart(("field map", rs.design_key(design), result["temperature_k"], gap_mm, extent, quantity),
          lambda: charts.field_map_chart(
              rs.field_map(rs.magnets_key(design), result["temperature_k"], gap_mm * 1e-3, extent, design),
-             gap_mm, quantity, charts.plate_outline_df(design)).configure_legend(**legend), width="content")
+             gap_mm, quantity, charts.plate_outline_df(design)).configure_legend(**legend), width="content",
+         canvas=True)
 sh.chart(("polarity", rs.magnets_key(design)),
          lambda: charts.polarity_chart(presentation.polarity_df(design.arrangement())).configure_legend(**legend),
          width="content")
