@@ -8,6 +8,8 @@ with the machine's load average and core count, since a run under load differs b
   of 12.7 mm N50 cubes; default model: recoil on), modules imported, first call excluded
   (it builds the recoil solution once per geometry); goal < 0.5 s;
 - ``levitate_cli``: ``matdb levitate`` of the same file as a whole process; goal < 1.5 s;
+- ``levitate_field_points``: field points one ``levitate_plate`` evaluates (the work the
+  symmetry folds, pose pairing and level-surface torque rates save);
 - ``intervals``: the stable side intervals alone (each side judged at its lateral
   equilibrium), with the number of field points evaluated;
 - ``stiffness_6x6``: the 6 x 6 stiffness matrix at the equilibrium (order 8).
@@ -27,7 +29,7 @@ from matdb.physics import plate as P
 
 ROOT = Path(__file__).resolve().parent.parent
 DEMO = ROOT / "examples" / "plate_checkerboard_2x2.toml"
-REPEATS = 3
+REPEATS = 5
 
 
 def _best(fn, repeats: int = REPEATS):
@@ -55,6 +57,28 @@ def _cli_best(args: list[str], repeats: int = REPEATS) -> tuple[float, float]:
     return cpu, wall
 
 
+def _points_of(fn) -> int:
+    """Field points evaluated by ``fn()`` (counted where the plate modules call the field)."""
+    from matdb.physics import plate_geometry, plate_intervals, plate_lift, plate_stiffness
+
+    mods = (plate_geometry, plate_lift, plate_stiffness, plate_intervals)
+    orig = plate_geometry.eval_field
+    n = [0]
+
+    def counted(field, pts):
+        n[0] += len(pts)
+        return orig(field, pts)
+
+    for m in mods:
+        m.eval_field = counted
+    try:
+        fn()
+    finally:
+        for m in mods:
+            m.eval_field = orig
+    return n[0]
+
+
 def run() -> dict:
     load0 = os.getloadavg()
     design = load_design(DEMO)
@@ -65,6 +89,7 @@ def run() -> dict:
     p = design.plate
     levitate_plate(design)  # recoil solution and imports, once per geometry
     lev_cpu, lev_wall, res = _best(lambda: levitate_plate(design))
+    lev_points = _points_of(lambda: levitate_plate(design))
     n = [0]
 
     def counted(pts):
@@ -85,6 +110,7 @@ def run() -> dict:
     return {
         "design": "examples/plate_checkerboard_2x2.toml (demo), default model (recoil on)",
         "levitate_inprocess_cpu_s": lev_cpu, "levitate_inprocess_wall_s": lev_wall,
+        "levitate_field_points": lev_points,
         "levitate_goal_s": 0.5,
         "levitate_cli_cpu_s": cli_cpu, "levitate_cli_wall_s": cli_wall, "levitate_cli_goal_s": 1.5,
         "intervals_cpu_s": iv_cpu, "intervals_wall_s": iv_wall, "intervals_field_points": iv_points,

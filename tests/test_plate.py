@@ -512,6 +512,15 @@ def test_mirrored_poses_give_the_stiffness_of_both_poses(checker, side, paired):
     assert any(P.mirrored_rules(mirrored, gap, 8)) == paired
     pivot = (0.0, 0.0, gap + 1.5e-3)
     a = P.stiffness_split(checker.B, plain, gap, pivot, order=8)
-    b = P.stiffness_split(checker.B, mirrored, gap, pivot, order=8)
-    for c in range(2):
-        np.testing.assert_allclose(b[c], a[c], rtol=0, atol=1e-9 * np.abs(a[c]).max())
+    # and with the diagonal too: the y and roll columns from the x and pitch columns
+    swapped = dataclasses.replace(mirrored, swap=True)
+    assert P.swapped_rules(swapped, gap, 8)
+    for plate in (mirrored, swapped):
+        b = P.stiffness_split(checker.B, plate, gap, pivot, order=8)
+        for c in range(2):
+            np.testing.assert_allclose(b[c], a[c], rtol=0, atol=1e-9 * np.abs(a[c]).max())
+        staged = P.stability(checker.B, plate, gap, 4.5e-4, 8.5e-5, PG_RHO * plate.volume,
+                             order=8, full=False, staged=True)
+        assert staged.laterally_stable == P.stability(
+            checker.B, plain, gap, 4.5e-4, 8.5e-5, PG_RHO * plate.volume, order=8,
+            full=False).laterally_stable

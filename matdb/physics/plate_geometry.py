@@ -271,6 +271,12 @@ def _fold(x: np.ndarray, w: np.ndarray, centre: float | None, half: float
     tol = 1e-12 * half
     order = np.argsort(m)
     ms, ws = m[order], w[order]
+    if (np.abs(ms + ms[::-1]).max() <= tol
+            and np.abs(ws - ws[::-1]).max() <= 1e-12 * np.abs(ws).max()):
+        # the whole rule is its own mirror image
+        up = ms > tol
+        sel = up | (np.abs(ms) <= tol)
+        return (x[order])[sel], np.where(up, 2.0 * ws, ws)[sel]
     j = np.clip(np.searchsorted(ms, -ms), 0, ms.size - 1)  # candidate image of each node
     for k in (j, np.clip(j - 1, 0, ms.size - 1)):
         better = np.abs(ms[k] + ms) < np.abs(ms[j] + ms)
@@ -287,6 +293,22 @@ def _fold(x: np.ndarray, w: np.ndarray, centre: float | None, half: float
 # ---------------------------------------------------------------------------
 def footprint_rule(plate: PlateGeometry, scale: float, order: int = DEFAULT_ORDER,
                    folded: bool = False) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Quadrature over the footprint (:func:`_footprint_rule`), cached and read-only."""
+    return _footprint_cached(plate, float(scale), int(order), bool(folded))
+
+
+@lru_cache(maxsize=2048)
+def _footprint_cached(plate: PlateGeometry, scale: float, order: int, folded: bool
+                      ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    out = tuple(np.ascontiguousarray(a, dtype=float) for a in
+                _footprint_rule(plate, scale, order, folded))
+    for a in out:
+        a.flags.writeable = False
+    return out
+
+
+def _footprint_rule(plate: PlateGeometry, scale: float, order: int = DEFAULT_ORDER,
+                    folded: bool = False) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Quadrature over the footprint, graded for a plane at distance ``scale`` from the
     magnets' edges.
 
@@ -464,6 +486,24 @@ def mirrored_rules(plate: PlateGeometry, gap: float, order: int = DEFAULT_ORDER
                         for h in (max(gap, 1e-9), gap + plate.thickness))
         out.append(bool(ok))
     return out[0], out[1]
+
+
+def swapped_rules(plate: PlateGeometry, gap: float, order: int = DEFAULT_ORDER) -> bool:
+    """Whether the level plate's closed-surface and side rules at ``gap`` are their own
+    images under the exchange of ``x - cx`` and ``y - cy``: a square whose rules along x
+    and y are the same (its edge lines placed alike on both axes). Rectangles only."""
+    if plate.shape != "rectangle" or not plate.is_square:
+        return False
+    for h in (max(gap, 1e-9), gap + plate.thickness):
+        x, wx = Q.graded_rule(plate.cx - plate.lx / 2, plate.cx + plate.lx / 2, plate.breaks_x,
+                              float(h), int(order))
+        y, wy = Q.graded_rule(plate.cy - plate.ly / 2, plate.cy + plate.ly / 2, plate.breaks_y,
+                              float(h), int(order))
+        if not (x.size == y.size and np.allclose(x - plate.cx, y - plate.cy, rtol=0,
+                                                 atol=1e-12 * plate.lx)
+                and np.allclose(wx, wy, rtol=1e-12, atol=0)):
+            return False
+    return True
 
 
 @lru_cache(maxsize=4096)

@@ -25,6 +25,7 @@ from scipy.spatial.transform import Rotation
 
 from matdb.physics.plate_geometry import (DEFAULT_ORDER, FieldFn, PlateGeometry, eval_field,
                                           mirrored_rules, side_rule, surface_rule,
+                                          swapped_rules,
                                           volume_rule)
 from matdb.constants import MU0
 
@@ -188,6 +189,20 @@ def _columns(field: FieldFn, plate: PlateGeometry, gap: float, pivot, order: int
     steps = np.array([hs] * 3 + [step_rad] * 3)
     pivot = np.asarray(pivot, dtype=float)
     perturbed = [int(d) for d in perturbed]
+    derived = []  # coordinates whose column the diagonal symmetry gives
+    if _swap_ok(plate, gap, order, pivot):
+        derived = [d for d, src in _SWAP_SOURCE.items() if d in perturbed and src in perturbed]
+    if derived:
+        asked = perturbed
+        perturbed = [d for d in asked if d not in derived]
+        k = _columns(field, plate, gap, pivot, order, perturbed, range(6), step_m, step_rad)
+        out = np.full((2, 6, len(asked)), np.nan)
+        for j, d in enumerate(asked):
+            src = d if d not in derived else _SWAP_SOURCE[d]
+            col = k[:, :, perturbed.index(src)]
+            out[:, :, j] = col if d == src else np.stack([_swapped_column(c, range(6), d)
+                                                           for c in col])
+        return out[:, list(rows), :]
     k = np.full((2, 6, len(perturbed)), np.nan)
     sideways = [j for j, d in enumerate(perturbed) if d < 2]
     if sideways:
@@ -225,6 +240,44 @@ def _columns(field: FieldFn, plate: PlateGeometry, gap: float, pivot, order: int
                 k[0, 3:, j] -= rates[i]
                 k[1, 3:, j] += rates[i]
     return k[:, list(rows), :]
+
+
+#: under the reflection in the diagonal, (x, y, z, roll, pitch, yaw) -> (y, x, z, -pitch,
+#: -roll, -yaw): the partner of each coordinate and its sign
+_SWAP_PARTNER = (1, 0, 2, 4, 3, 5)
+_SWAP_SIGN = (1.0, 1.0, 1.0, -1.0, -1.0, -1.0)
+_SWAP_SOURCE = {1: 0, 3: 4}  # y from x, roll from pitch
+
+
+def _swapped_column(col: np.ndarray, rows: Sequence[int], d: int) -> np.ndarray:
+    """Column ``d`` of the stiffness matrix (entries for ``rows``) from the column of its
+    diagonal partner: with the energy invariant under the reflection ``q -> T q``,
+    ``K = T^T K T``, i.e. ``K[i, p(j)] = t_i t_p(j) K[p(i), j]``. ``col`` holds the
+    partner's column over the same ``rows`` (each row's partner among them).
+
+    References
+    ----------
+    .. [1] H. Goldstein, C. Poole and J. Safko, Classical Mechanics, 3rd ed. (2002),
+       ch. 6 (the stiffness matrix as the Hessian of the potential energy).
+    """
+    rows = list(rows)
+    where = {r: i for i, r in enumerate(rows)}
+    out = np.empty(len(rows))
+    for i, r in enumerate(rows):
+        out[i] = _SWAP_SIGN[r] * _SWAP_SIGN[d] * col[where[_SWAP_PARTNER[r]]]
+    return out
+
+
+def _swap_ok(plate: PlateGeometry, gap: float, order: int, pivot: np.ndarray) -> bool:
+    """The field is symmetric in the plate's diagonal (``plate.swap``), the plate is a
+    square centred on the field's mirror lines with the pivot above its centre, and its
+    rules are their own images under the exchange of x and y
+    (:func:`~matdb.physics.plate_geometry.swapped_rules`)."""
+    if not plate.swap or not all(mirrored_rules(plate, gap, order)):
+        return False
+    tol = 1e-12 * plate.lx
+    return bool(abs(pivot[0] - plate.cx) <= tol and abs(pivot[1] - plate.cy) <= tol
+                and swapped_rules(plate, gap, order))
 
 
 #: the mirror (0: in x, 1: in y) that maps a coordinate's + step onto its - step
@@ -502,11 +555,17 @@ def _staged_stability(field: FieldFn, plate: PlateGeometry, gap: float, pivot,
     pos = {d: i for i, d in enumerate(LATERAL_DOFS)}
     raw = np.full((n, n), np.nan)
     done: list[int] = []
+    swap = _swap_ok(plate, gap, order, np.asarray(pivot, dtype=float))
     for stage in _STAGES:
-        cols = combine(_columns(field, plate, gap, pivot, order, stage, LATERAL_DOFS, None,
-                                2e-4), chi_perp_abs, chi_par_abs)
-        for j, d in enumerate(stage):
-            raw[:, pos[d]] = cols[:, j]
+        if swap and len(stage) == 1 and _SWAP_SOURCE.get(stage[0]) in done:
+            # y from x, roll from pitch: the diagonal maps the one onto the other
+            raw[:, pos[stage[0]]] = _swapped_column(raw[:, pos[_SWAP_SOURCE[stage[0]]]],
+                                                    LATERAL_DOFS, stage[0])
+        else:
+            cols = combine(_columns(field, plate, gap, pivot, order, stage, LATERAL_DOFS, None,
+                                    2e-4), chi_perp_abs, chi_par_abs)
+            for j, d in enumerate(stage):
+                raw[:, pos[d]] = cols[:, j]
         done += list(stage)
         sym = _symmetric(raw)
         ok = all(sym[pos[d], pos[d]] > 0 for d in done)
