@@ -524,3 +524,41 @@ def test_mirrored_poses_give_the_stiffness_of_both_poses(checker, side, paired):
         assert staged.laterally_stable == P.stability(
             checker.B, plain, gap, 4.5e-4, 8.5e-5, PG_RHO * plate.volume, order=8,
             full=False).laterally_stable
+
+
+def test_default_model_folds_only_where_its_field_is_symmetric():
+    # regression check: with the default model (recoil on, its correction tabulated) the
+    # plate of a design is given only the mirror lines and diagonal along which the field's
+    # B_z^2 and B_x^2 + B_y^2 are symmetric (Jackson sec. 6.10) to 1e-12, and the folded
+    # footprint integrals then equal the full rule's
+    from pathlib import Path
+
+    from matdb.analysis.levitate import plate_geometry
+    from matdb.design import load_design
+
+    design = load_design(Path(__file__).resolve().parent.parent / "examples"
+                         / "plate_checkerboard_2x2.toml")
+    arr = design.arrangement(293.15)
+    geom = plate_geometry(design, arr)
+    rng = np.random.default_rng(3)
+    pts = np.column_stack([rng.uniform(-0.015, 0.015, 400), rng.uniform(-0.015, 0.015, 400),
+                           rng.uniform(5e-5, 3e-3, 400)])
+    b = arr.B(pts)
+    scale = (b ** 2).sum(axis=1).max()
+    images = [(geom.mirrors[0] is not None, pts * [-1, 1, 1]),
+              (geom.mirrors[1] is not None, pts * [1, -1, 1]), (geom.swap, pts[:, [1, 0, 2]])]
+    for claimed, image in images:
+        if claimed:
+            bm = arr.B(image)
+            np.testing.assert_allclose(bm[:, 2] ** 2, b[:, 2] ** 2, rtol=0, atol=1e-11 * scale)
+            np.testing.assert_allclose((bm[:, :2] ** 2).sum(axis=1), (b[:, :2] ** 2).sum(axis=1),
+                                       rtol=0, atol=1e-11 * scale)
+    plain = dataclasses.replace(geom, mirrors=(None, None), swap=False)
+    gaps = [1e-4, 5e-4]
+    for u, v in zip(P.plate_surface_integrals(arr.B, geom, gaps, 4),
+                    P.plate_surface_integrals(arr.B, plain, gaps, 4)):
+        np.testing.assert_allclose(u, v, rtol=1e-11)
+    # the rigid magnets' field has every symmetry of the layout
+    rigid = design.arrangement(293.15, rigid=True)
+    g = plate_geometry(design, rigid)
+    assert g.mirrors == (0.0, 0.0) and g.swap

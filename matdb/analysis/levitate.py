@@ -47,8 +47,41 @@ def plate_geometry(design: PlateDesign, arrangement) -> P.PlateGeometry:
     p = design.plate
     mirrors = P.field_mirrors(arrangement.magnets, *p.center_m)
     swap = None not in mirrors and P.field_swaps(arrangement.magnets, *p.center_m)
+    mirrors, swap = _field_checked(arrangement, p.center_m, mirrors, swap)
     return P.PlateGeometry(p.shape, p.lx_m, p.ly_m, p.thickness_m, p.center_m[0], p.center_m[1],
                            bx, by, mirrors, swap)
+
+
+def _field_checked(arrangement, centre, mirrors, swap):
+    """The symmetries the field itself shows: the magnets' layout gives the mirror lines
+    and the diagonal, but a field computed approximately (e.g. a correction tabulated on a
+    grid that is not symmetric) may break them; each is kept only when the energy
+    densities at sample points above the magnets and at their images agree to 1e-12 of
+    their largest value (the folds are then exact to that)."""
+    if None in mirrors and not swap:
+        return mirrors, swap
+    x0, y0 = float(centre[0]), float(centre[1])
+    lo_x, hi_x, lo_y, hi_y, _, top = arrangement.bounds()
+    rng = np.random.default_rng(0)
+    pts = np.column_stack([rng.uniform(lo_x, hi_x, 64), rng.uniform(lo_y, hi_y, 64),
+                           top + np.geomspace(5e-5, 3e-3, 64)])
+    b = arrangement.B(pts)
+    tol = 1e-12 * float((b ** 2).sum(axis=1).max())
+
+    def same(img) -> bool:
+        bm = arrangement.B(img)
+        return bool(np.abs(bm[:, 2] ** 2 - b[:, 2] ** 2).max() <= tol
+                    and np.abs((bm[:, :2] ** 2).sum(axis=1) - (b[:, :2] ** 2).sum(axis=1)).max()
+                    <= tol)
+
+    mx, my = mirrors
+    if mx is not None and not same(pts * [-1, 1, 1] + [2 * x0, 0, 0]):
+        mx = None
+    if my is not None and not same(pts * [1, -1, 1] + [0, 2 * y0, 0]):
+        my = None
+    if swap and not same(np.column_stack([x0 + pts[:, 1] - y0, y0 + pts[:, 0] - x0, pts[:, 2]])):
+        swap = False
+    return (mx, my), bool(swap and mx is not None and my is not None)
 
 
 def plate_chi_at(design: PlateDesign, t_k: float) -> tuple[float, float]:

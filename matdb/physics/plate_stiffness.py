@@ -388,13 +388,13 @@ def _intrinsic_rates(field: FieldFn, plate: PlateGeometry, gap: float, pivot, or
        ``M x B`` on a magnetised body).
     """
     key = (plate, float(gap), tuple(float(v) for v in pivot), int(order))
-    hit = _LEVEL.get("key")
-    if hit == key and _LEVEL.get("field") == field:
-        sp, sn, sw, bs = _LEVEL["surface"]
+    entry = _LEVEL.get("entry")  # one tuple, read and replaced whole (threads share it)
+    if entry is not None and entry[0] == key and entry[1] == field:
+        sp, sn, sw, bs = entry[2]
     else:
         sp, sn, sw = surface_rule(plate, gap, order)
         bs = eval_field(field, sp)
-        _LEVEL.update(key=key, field=field, surface=(sp, sn, sw, bs))
+        _LEVEL["entry"] = (key, field, (sp, sn, sw, bs))
     pivot = np.asarray(pivot, dtype=float)
     e = np.array([0.0, 0.0, 1.0])
     q = _moments(sp, sn, sw, bs, pivot)  # integral_V B_i B_k dV
