@@ -30,12 +30,13 @@ References
 from __future__ import annotations
 
 from dataclasses import replace
-from typing import Callable
+from typing import Callable, NamedTuple
 
 import numpy as np
 
 from matdb.physics import plate as P
 from matdb.physics import quadrature as Q
+from matdb.physics.plate_geometry import field_mirrors
 
 FieldFn = Callable[[np.ndarray], np.ndarray]
 
@@ -47,16 +48,13 @@ def mirror_symmetry(arrangement, rtol: float = 1e-9, field: FieldFn | None | boo
                     ) -> tuple[bool, bool]:
     """Whether ``|B|^2`` of ``arrangement`` is even in ``x`` and in ``y``.
 
-    A mirror ``x -> -x`` maps a magnet at ``(x, y, z)`` polarised ``(J_x, J_y, J_z)`` to one
-    at ``(-x, y, z)`` polarised ``(J_x, -J_y, -J_z)`` (polarisation and B are axial
-    vectors, [4]_); when the mirrored set of magnets (and of the recoil blocks
-    ``arrangement.cells``) is the original set times a common sign ``s = +-1``, the mirrored
-    field is ``s`` times the original one, so ``|B|^2`` is even in ``x``. A back plate
-    (a plane ``z = const``) does not break the symmetry. Checked on the sources, then
-    confirmed on the field at a few points (so a field model with parts that are not
-    sources is never folded wrongly); ``field`` (default ``arrangement.B``) is the field
-    checked, e.g. a :func:`linear_family` whose arrangements share these sources
-    (``False``: the sources only).
+    The sources -- the magnets and the recoil cells ``arrangement.cells`` (their
+    departures from the magnets' mean polarisation) -- are tested together by
+    :func:`matdb.physics.plate_geometry.field_mirrors` (mirrored set equal to the original
+    up to one sign, [4]_), then the symmetry is confirmed on the field at a few points, so
+    a field model with parts that are not sources is never folded wrongly; ``field``
+    (default ``arrangement.B``) is the field checked, e.g. a :func:`linear_family` whose
+    arrangements share these sources (``False``: the sources only).
 
     Returns
     -------
@@ -67,42 +65,28 @@ def mirror_symmetry(arrangement, rtol: float = 1e-9, field: FieldFn | None | boo
     .. [4] J. D. Jackson, Classical Electrodynamics, 3rd ed., Wiley (1999), sec. 6.10
        (B and M are axial vectors under reflection).
     """
-    mags = list(arrangement.magnets)
-    if not mags:
+    sources = list(arrangement.magnets)
+    if not sources:
         return False, False
-    pos = np.array([m.position for m in mags], dtype=float)
-    size = np.array([tuple(m.size) + (0.0,) * (3 - len(m.size)) for m in mags], dtype=float)
-    kind = np.array([hash(m.shape) for m in mags], dtype=float)
-    J = np.array([m.polarization for m in mags], dtype=float)
-    desc = np.column_stack([kind, size])
     cells = getattr(arrangement, "cells", None)
     if cells is not None:
-        pos = np.concatenate([pos, np.asarray(cells[1], float)])
-        desc = np.concatenate([desc, np.column_stack([np.full(len(cells[0]), -1.0),
-                                                      np.asarray(cells[0], float)])])
-        J = np.concatenate([J, np.asarray(cells[2], float)])
-    scale = float(max(np.max(np.abs(pos)), np.max(np.abs(size)), 1e-300))
-    jmax = float(max(np.max(np.abs(J)), 1e-300))
+        sources += [_Source("cuboid", tuple(float(v) for v in sz), tuple(float(v) for v in c),
+                            tuple(float(v) for v in dj)) for sz, c, dj in zip(*cells[:3])]
+    mx, my = field_mirrors(sources, 0.0, 0.0, rtol)
     out = []
-    for ax in (0, 1):
-        flip = np.ones(3)
-        flip[ax] = -1.0
-        out.append(_mirrored(pos, desc, J, flip, scale * rtol, jmax * rtol)
-                   and (field is False or _field_even(arrangement.B if field is None else field,
-                                                      arrangement, ax)))
+    for ax, m in ((0, mx), (1, my)):
+        out.append(m is not None and (field is False or _field_even(
+            arrangement.B if field is None else field, arrangement, ax)))
     return out[0], out[1]
 
 
-def _mirrored(pos, desc, J, flip, tol_x: float, tol_j: float) -> bool:
-    """Whether the sources mirrored by ``flip`` are the sources times one sign."""
-    mp = pos * flip
-    mj = -(J * flip)  # axial vector
-    d = np.max(np.abs(mp[:, None, :] - pos[None, :, :]), axis=2)
-    same = (d <= tol_x) & np.all(np.abs(desc[:, None, :] - desc[None, :, :]) <= tol_x, axis=2)
-    if not np.all(same.sum(axis=1) == 1):
-        return False
-    k = np.argmax(same, axis=1)
-    return any(np.all(np.abs(mj - s * J[k]) <= tol_j) for s in (1.0, -1.0))
+class _Source(NamedTuple):
+    """A recoil cell as :func:`matdb.physics.plate_geometry.field_mirrors` reads it."""
+
+    shape: str
+    size: tuple
+    position: tuple
+    polarization: tuple
 
 
 def _field_even(field: FieldFn, arrangement, ax: int) -> bool:
