@@ -51,12 +51,21 @@ def registry() -> "pint.UnitRegistry":
     """The one unit registry of matdb, built on first use.
 
     Building it (importing pint and reading its definitions) costs about half a second, so
-    it is not built at import: commands that only list tables never pay for it. Offset
-    temperatures ("20 degC") convert to kelvin; ``MGOe`` and ``USD`` are added.
+    it is not built at import: commands that only list tables never pay for it; pint keeps
+    its parsed definitions in ``<cache>/pint`` (:func:`matdb.paths.cache_root`), which cuts
+    reading them from about 0.35 s to 0.05 s after the first run. Offset temperatures
+    ("20 degC") convert to kelvin; ``MGOe`` and ``USD`` are added.
     """
     import pint  # lazy: keeps `matdb --help` and table commands from importing pint at all
 
-    ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
+    from matdb.paths import cache_root
+
+    folder = cache_root() / "pint"
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+        ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True, cache_folder=folder)
+    except OSError:  # a read-only or full cache folder: read the definitions each time
+        ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
     ureg.define("MGOe = 1e5 / (4 * pi) * J / m**3")
     ureg.define("USD = [currency]")
     return ureg

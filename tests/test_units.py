@@ -158,3 +158,24 @@ def test_protect_negative_numbers():
     out = protect_negative_numbers(argv)
     assert out[1] == " -280.1e-6" and out[4] == " -1.6e-4" and out[5] == "--chi=-1.6e-4"
     assert out[6] == "-h" and out[7] == " -280e-6 cm^3/mol"
+
+
+@pytest.mark.parametrize("writable", [True, False])
+def test_registry_built_with_or_without_its_definitions_cache(tmp_path, monkeypatch, writable):
+    # pint's own cache of parsed definitions (cache_folder); a cache path that cannot be a
+    # folder falls back to reading the definitions. 52 MGOe = 413.8 kJ/m^3 and 1 T = 10 kG in
+    # the Gaussian context (common practice, no source)
+    from matdb.units import registry
+
+    target = tmp_path / "cache"
+    if not writable:
+        target.write_text("a file, not a folder")
+    monkeypatch.setenv("MATDB_CACHE_DIR", str(target))
+    for _ in range(2):  # the second build reads the cache when there is one
+        ureg = registry.__wrapped__()
+        assert ureg.Quantity("52 MGOe").to("kJ/m^3").magnitude == pytest.approx(413.8, rel=1e-3)
+        assert ureg.Quantity(1, "T").to("gauss", "Gaussian").magnitude == pytest.approx(1e4, rel=1e-9)
+        assert ureg.Quantity("20 degC").to("K").magnitude == pytest.approx(293.15)
+    assert (target / "pint").is_dir() == writable
+    if writable:
+        assert any((target / "pint").iterdir())

@@ -16,7 +16,6 @@ from pathlib import Path
 
 import numpy as np
 
-from matdb.analysis.levitate import _mm3, format_intervals, levitate
 from matdb.cli import summary
 from matdb.constants import kelvin_to_celsius
 from matdb.design import load_design, parse_payload_range
@@ -127,12 +126,16 @@ def _num(v, scale: float = 1.0, digits: int = 4, unit: str = "") -> str:
 
 
 def _point_mm(p) -> str:
+    from matdb.analysis.levitate import _mm3  # lazy: `field` needs no plate analysis (start-up)
+
     if not p:
         return "none found"
     return f"({_mm3(p[0])}, {_mm3(p[1])}) mm"
 
 
 def _intervals_mm(iv) -> str:
+    from matdb.analysis.levitate import format_intervals  # lazy, as in _point_mm
+
     if iv is None:
         return "-"
     return format_intervals(iv)
@@ -239,6 +242,8 @@ def _payloads(args) -> np.ndarray | None:
 
 
 def cmd_levitate(args) -> int:
+    from matdb.analysis.levitate import levitate  # lazy: `field` needs no plate analysis (start-up)
+
     temp = parse_temperature(args.temp, "--temp") if args.temp else None
     gap = parse_length(args.gap, "--gap") if args.gap else None
     payloads = _payloads(args)

@@ -40,9 +40,12 @@ from __future__ import annotations
 import re
 import tomllib
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import tomli_w
+
+if TYPE_CHECKING:
+    from matdb.physics.dynamics import Hole, Slots
 
 from matdb import limits
 from matdb.constants import T_REF_K, kelvin_to_celsius
@@ -51,7 +54,6 @@ from matdb.design.model import (DEFAULT_CLEARANCE_M, MAGNET_SHAPES, PATTERNS, PL
                                 Conditions, MagnetItem, MagnetSpec, PayloadSpec, PlateDesign,
                                 PlatesSpec, PlateSpec, SingleMagnet, StabilizedDesign, Station)
 from matdb.errors import InputError, NotFoundError
-from matdb.physics.dynamics import Hole, Slots, outline_pieces, plate_outline
 from matdb.units import (parse_chi, parse_flux_density, parse_length, parse_mass, parse_number,
                          parse_quantity, parse_temperature)
 
@@ -321,6 +323,8 @@ def _sigma(value: Any, key: str) -> float:
 
 
 def _parse_slots(t: Any, shape: str, size: tuple[float, ...]) -> Slots:
+    from matdb.physics.dynamics import Slots  # lazy: the plate geometry module imports scipy (start-up)
+
     t = _check_keys(t, SLOT_KEYS, "plate.slots")
     for need in ("count", "width", "length"):
         _require(t, need, "plate.slots", "slots need count, width and length")
@@ -343,6 +347,8 @@ def _parse_slots(t: Any, shape: str, size: tuple[float, ...]) -> Slots:
 
 
 def _parse_holes(value: Any) -> tuple[Hole, ...]:
+    from matdb.physics.dynamics import Hole  # lazy: the plate geometry module imports scipy (start-up)
+
     if not isinstance(value, list):
         raise InputError("expected a list of tables such as "
                          "[{center = [\"0 mm\", \"0 mm\"], diameter = \"1 mm\"}]", field="plate.holes")
@@ -377,6 +383,8 @@ def _parse_plate(t: Any) -> PlateSpec:
     spec = PlateSpec(mat.id, shape, size, chi, chi_perp, chi_par, payload, ph, min_gap,
                      center, mat, sig_ab, sig_c, slots, holes, psize)
     if slots is not None or holes:
+        from matdb.physics.dynamics import outline_pieces, plate_outline  # lazy, as in _parse_slots
+
         n = len(outline_pieces(plate_outline(spec.shape, spec.lx_m, spec.ly_m, center[0], center[1],
                                              slots, holes)))
         if n > 1:

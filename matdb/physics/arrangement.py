@@ -279,7 +279,7 @@ class Arrangement:
         c = self._cache.get("correction")
         if c is None:
             c = CorrectionField(*self.cells[:3], self.bottom_z if self.back_plate else None,
-                                self.top_z, tabulate=self.tabulated)
+                                self.top_z, tabulate=self.tabulated, owner=self.cells[3])
             self._cache["correction"] = c
         return c
 

@@ -262,16 +262,16 @@ def interaction_matrix(cells, plate_z: float | None = None, n: int = N_QUAD) -> 
     return A
 
 
-def _solve(M: np.ndarray, E: np.ndarray) -> np.ndarray:
-    """``M^-1 E`` for ``M = I - X A``: by the Neumann series ``R <- E + (I - M) R`` while it
+def _solve(K: np.ndarray, E: np.ndarray) -> np.ndarray:
+    """``(I - K)^-1 E`` for ``K = X A``: by the Neumann series ``R <- E + K R`` while it
     contracts fast (small recoil susceptibility: a few matrix products instead of a
     factorisation), else by LU (numpy.linalg.solve)."""
-    K = np.eye(M.shape[0]) - M
     R = E.copy()
     scale = float(np.max(np.abs(E)))
     prev = np.inf
     for _ in range(SERIES_MAX):
-        nxt = E + K @ R
+        nxt = K @ R
+        nxt += E
         step = float(np.max(np.abs(nxt - R)))
         R = nxt
         if step <= SERIES_TOL * scale:
@@ -279,6 +279,8 @@ def _solve(M: np.ndarray, E: np.ndarray) -> np.ndarray:
         if step > 0.5 * prev:  # slow or diverging: factorise instead
             break
         prev = step
+    M = -K
+    M[np.diag_indices_from(M)] += 1.0
     return np.linalg.solve(M, E)
 
 
@@ -306,14 +308,14 @@ def _cell_response(magnets, chis: tuple, plate_z: float | None, n: int):
     for i, c in enumerate(cells):
         if c.shape != "cuboid":
             free[3 * i:3 * i + 2] = False
-    X = np.repeat(np.asarray(chis)[owner], 3)
-    M = np.eye(3 * nc)
-    f = np.nonzero(free)[0]
-    M[np.ix_(f, f)] -= X[f, None] * A[np.ix_(f, f)]
+    X = np.repeat(np.asarray(chis)[owner], 3) * free  # transverse rows of cylinders: none
+    K = X[:, None] * A
+    if not free.all():
+        K[:, ~free] = 0.0
     E = np.zeros((3 * nc, 3 * nm))  # each cell starts from its magnet's remanence
     rows = np.arange(3 * nc)
     E[rows, 3 * np.repeat(owner, 3) + np.tile(np.arange(3), nc)] = 1.0
-    R = _solve(M, E)
+    R = _solve(K, E)
     out = (cells, owner, R)
     with _LOCK:
         if len(_CACHE) >= _CACHE_MAX:

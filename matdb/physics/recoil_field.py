@@ -49,7 +49,8 @@ import numpy as np
 from scipy import fft as sfft
 from scipy import ndimage
 
-from matdb.physics.fields import MagnetSet
+from matdb.constants import MU0
+from matdb.physics.fields import MagnetSet, dipole_B
 
 __all__ = ["CorrectionField", "SPACING_M", "clear_tables"]
 
@@ -58,6 +59,8 @@ __all__ = ["CorrectionField", "SPACING_M", "clear_tables"]
 SPACING_M = 2.5e-4
 #: Order of the spline interpolation between the tabulated values (1: trilinear).
 ORDER = 1
+#: Height levels transformed together.
+LEVEL_CHUNK = 8
 #: Largest FFT grid per axis.
 MAX_GRID = 768
 #: Relative spacing of the height levels (geometric above the first, ``h``).
@@ -66,8 +69,11 @@ Z_RATIO = 0.12
 #: the magnets' extent).
 MARGIN_M = 5e-3
 MARGIN_FRAC = 0.35
-#: Height of the table above the top face [m] (and at least the magnets' extent).
-HEIGHT_M = 1e-2
+#: Height of the table above the top face [m] (and at least twice the magnets' extent).
+HEIGHT_M = 5e-2
+#: Beyond this many times the largest magnet's extent from the magnets, the cells are
+#: point dipoles (:meth:`CorrectionField.far_set`).
+FAR_FACTOR = 1.0
 _TABLES: dict = {}
 _LOCK = threading.Lock()
 _TABLES_MAX = 8
@@ -105,12 +111,15 @@ class _Table:
             h *= 1.25
         n = sfft.next_fast_len(int(math.ceil(period / h)), real=True)
         self.h = h
-        self.origin = np.array([lo[0] - margin, lo[1] - margin])
-        self.nb = np.array([int(math.ceil((hi[0] - lo[0] + 2 * margin) / h)) + 1,
-                            int(math.ceil((hi[1] - lo[1] + 2 * margin) / h)) + 1])
+        # nodes symmetric about the middle of the magnets: a mirror-symmetric arrangement
+        # keeps a mirror-symmetric table and interpolation
+        mid = 0.5 * (lo[:2] + hi[:2])
+        half = np.ceil((0.5 * (hi[:2] - lo[:2]) + margin) / h).astype(int)
+        self.nb = 2 * half + 1
+        self.origin = mid - half * h
         self.top = float(top_z)
         self.z0 = h
-        z_span = max(HEIGHT_M, extent)
+        z_span = max(HEIGHT_M, 2 * extent)
         nz = int(math.ceil(math.log1p(z_span / self.z0) / Z_RATIO)) + 1
         self.nz = nz
         self.z_hi = self.top + self.z0 * math.expm1(Z_RATIO * (nz - 1))
@@ -127,10 +136,13 @@ class _Table:
         # (component, level, x, y): points of one horizontal plane (a plate's quadrature)
         # then read two neighbouring levels, which stay in cache
         coef = np.empty((3, nz, self.nb[0], self.nb[1]), dtype=np.float32)
-        for j, zl in enumerate(levels):  # one level at a time: bounded memory
-            lev = spec * np.exp(-kabs * zl)[:, :, None]
-            vals = sfft.irfft2(lev, s=(n, n), axes=(0, 1), workers=-1)
-            coef[:, j] = np.moveaxis(vals[:self.nb[0], :self.nb[1], :], 2, 0)
+        for j0 in range(0, nz, LEVEL_CHUNK):  # a few levels at a time: bounded memory
+            zl = levels[j0:j0 + LEVEL_CHUNK]
+            lev = spec[None] * np.exp(-kabs[None] * zl[:, None, None])[..., None]
+            # inverse along x, keep the table's rows, then along y (half spectrum)
+            lev = sfft.ifft(lev, axis=1, workers=-1)[:, :self.nb[0]]
+            vals = sfft.irfft(lev, n=n, axis=2, workers=-1)[:, :, :self.nb[1]]
+            coef[:, j0:j0 + zl.size] = np.moveaxis(vals, 3, 0)
         self.order = ORDER
         if ORDER > 1:
             for c in range(3):
@@ -217,10 +229,11 @@ class CorrectionField:
     temperature of a geometry.
     """
 
-    def __init__(self, sizes, centres, dj, plate_z, top_z, tabulate: bool = True):
+    def __init__(self, sizes, centres, dj, plate_z, top_z, tabulate: bool = True, owner=None):
         self.sizes = np.asarray(sizes, dtype=float)
         self.centres = np.asarray(centres, dtype=float)
         self.dj = np.asarray(dj, dtype=float)
+        self.owner = np.zeros(len(self.sizes), dtype=int) if owner is None else np.asarray(owner, dtype=int)
         self.plate_z = None if plate_z is None else float(plate_z)
         self.top_z = float(top_z)
         self.tabulate = bool(tabulate)
@@ -234,19 +247,20 @@ class CorrectionField:
         hsh.update(repr((self.plate_z, self.top_z)).encode())
         return hsh.hexdigest()
 
-    def table(self) -> _Table:
-        """The shared table of these departures at unit scale (built on first use)."""
+    def _shared(self) -> "_Shared":
         key = self._key()
         with _LOCK:
-            t = _TABLES.get(key)
-        if t is None:
-            s, c, d = _sources(self.sizes, self.centres, self.dj / self._norm, self.plate_z)
-            t = _Table(s, c, d, self.top_z)
-            with _LOCK:
+            sh = _TABLES.get(key)
+            if sh is None:
                 if len(_TABLES) >= _TABLES_MAX:
                     _TABLES.pop(next(iter(_TABLES)))
-                _TABLES[key] = t
-        return t
+                sh = _TABLES[key] = _Shared(self.sizes, self.centres, self.dj / self._norm,
+                                            self.plate_z, self.top_z, self.owner)
+        return sh
+
+    def table(self) -> _Table:
+        """The shared table of these departures at unit scale (built on first use)."""
+        return self._shared().table()
 
     def exact_set(self) -> MagnetSet:
         """The cells (and images) as cuboid sources."""
@@ -255,6 +269,12 @@ class CorrectionField:
             self._exact = MagnetSet(["cuboid"] * s.shape[0], s, d, c)
         return self._exact
 
+    def far_set(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """The cells (and images) as point dipoles of their moments, with the box beyond
+        which they stand for the cells: (moments [A m^2], positions [m], lo, hi [m])."""
+        mom, pos, lo, hi = self._shared().far()
+        return mom * self._norm, pos, lo, hi
+
     def B(self, p: np.ndarray) -> np.ndarray:
         """Departure field at ``p`` (n, 3) [m], shape (n, 3) [T]: tabulated above the top
         face over the magnets, exact elsewhere."""
@@ -262,7 +282,8 @@ class CorrectionField:
             return np.zeros_like(p)
         if not self.tabulate:
             return self.exact_set().B(p)
-        t = self.table()
+        sh = self._shared()
+        t = sh.table()
         inside = t.covers(p)
         if inside.all():
             return t(p) * self._norm
@@ -270,5 +291,54 @@ class CorrectionField:
         out[inside] = t(p[inside]) * self._norm
         rest = ~inside
         if rest.any():
-            out[rest] = self.exact_set().B(p[rest])
+            out[rest] = sh.outside(p[rest]) * self._norm
+        return out
+
+
+class _Shared:
+    """What every field of proportional departures shares, at unit scale: the table, the
+    cells as sources, the cells as point dipoles."""
+
+    def __init__(self, sizes, centres, dj, plate_z, top_z, owner):
+        self.sizes, self.centres, self.dj = sizes, centres, dj
+        self.plate_z, self.top_z, self.owner = plate_z, top_z, owner
+        self._table = self._exact = self._far = None
+        self._lock = threading.Lock()
+
+    def table(self) -> _Table:
+        with self._lock:
+            if self._table is None:
+                s, c, d = _sources(self.sizes, self.centres, self.dj, self.plate_z)
+                self._table = _Table(s, c, d, self.top_z)
+        return self._table
+
+    def exact(self) -> MagnetSet:
+        if self._exact is None:
+            s, c, d = _sources(self.sizes, self.centres, self.dj, self.plate_z)
+            self._exact = MagnetSet(["cuboid"] * s.shape[0], s, d, c)
+        return self._exact
+
+    def far(self):
+        if self._far is None:
+            lo_c = self.centres - self.sizes / 2
+            hi_c = self.centres + self.sizes / 2
+            ext = max(float(np.max(hi_c[self.owner == m].max(axis=0) - lo_c[self.owner == m].min(axis=0)))
+                      for m in np.unique(self.owner))
+            s, c, d = _sources(self.sizes, self.centres, self.dj, self.plate_z)
+            mom = d * (np.prod(s, axis=1) / MU0)[:, None]
+            reach = FAR_FACTOR * ext
+            self._far = (mom, c, lo_c.min(axis=0) - reach, hi_c.max(axis=0) + reach)
+        return self._far
+
+    def outside(self, p: np.ndarray) -> np.ndarray:
+        """Exact cells near the magnets, point dipoles far from them."""
+        mom, pos, lo, hi = self.far()
+        away = np.any((p < lo) | (p > hi), axis=1)
+        if self.plate_z is not None:  # images lie below the plate as well
+            away &= p[:, 2] >= self.plate_z
+        out = np.empty_like(p)
+        if away.any():
+            out[away] = dipole_B(p[away], mom, pos)
+        if not away.all():
+            out[~away] = self.exact().B(p[~away])
         return out

@@ -26,7 +26,6 @@ import math
 from dataclasses import dataclass, replace
 
 import numpy as np
-from scipy.optimize import brentq
 
 from matdb.errors import InputError, PhysicsError
 from matdb.constants import T_REF_K, kelvin_to_celsius
@@ -658,6 +657,8 @@ def safe_distance(arrangement, threshold_t: float = PACEMAKER_THRESHOLD_T) -> fl
     .. [2] Jackson (1999), eq. (5.56): the far field falls as a dipole's, r^-3, so
        the threshold is crossed once at large distance.
     """
+    from scipy.optimize import brentq  # lazy: scipy.optimize is heavy to import (start-up)
+
     thr = float(threshold_t)
     if not (math.isfinite(thr) and thr > 0):
         raise InputError(f"threshold_t: expected a positive flux density in T, got {threshold_t!r}")
