@@ -19,8 +19,8 @@ from streamlit.testing.v1 import AppTest  # noqa: E402
 APP = str(Path(__file__).resolve().parent.parent / "webapp" / "app.py")
 
 
-def _app(page: str | None = None) -> AppTest:
-    at = AppTest.from_file(APP, default_timeout=180).run()
+def _app(page: str | None = None, timeout: float = 180) -> AppTest:
+    at = AppTest.from_file(APP, default_timeout=timeout).run()
     if page:
         at.switch_page(page).run()
     assert not at.exception, [e.message for e in at.exception]
@@ -107,6 +107,7 @@ def test_design_dynamics_recompute_only_when_the_plate_values_change(fresh_db, m
     assert len(prepared) == 2  # the handbook value again: its dynamics are still held
 
 
+@pytest.mark.slow
 def test_optimiser_result_follows_the_catalogue(fresh_db, monkeypatch):
     """The optimiser's result on the Advisor page is kept for the form values and the
     catalogue in force: shown again without running, run afresh after a value recorded
@@ -122,7 +123,7 @@ def test_optimiser_result_follows_the_catalogue(fresh_db, monkeypatch):
 
     monkeypatch.setattr(synthesis, "optimise", fake_optimise)
     _results._OPTIMISED.clear()
-    at = _app("views/advisor.py")
+    at = _app("views/advisor.py", timeout=900)  # a new catalogue ranks afresh: minutes on a loaded machine
     at.button(key="opt_run").click().run()
     assert not at.exception, [e.message for e in at.exception]
     assert len(runs) == 1 and any("No sized design" in w.value for w in at.warning)
