@@ -30,7 +30,7 @@ References
 from __future__ import annotations
 
 from dataclasses import replace
-from typing import Callable, NamedTuple
+from typing import Callable
 
 import numpy as np
 
@@ -48,10 +48,9 @@ def mirror_symmetry(arrangement, rtol: float = 1e-9, field: FieldFn | None | boo
                     ) -> tuple[bool, bool]:
     """Whether ``|B|^2`` of ``arrangement`` is even in ``x`` and in ``y``.
 
-    The sources -- the magnets and the recoil cells ``arrangement.cells`` (their
-    departures from the magnets' mean polarisation) -- are tested together by
-    :func:`matdb.physics.plate_geometry.field_mirrors` (mirrored set equal to the original
-    up to one sign, [4]_), then the symmetry is confirmed on the field at a few points, so
+    The magnets are tested by :func:`matdb.physics.plate_geometry.field_mirrors` (mirrored
+    set equal to the original up to one sign, [4]_; the recoil cells follow from the same
+    geometry), then the symmetry is confirmed on the field at a few points, so
     a field model with parts that are not sources is never folded wrongly; ``field``
     (default ``arrangement.B``) is the field checked, e.g. a :func:`linear_family` whose
     arrangements share these sources (``False``: the sources only).
@@ -68,25 +67,14 @@ def mirror_symmetry(arrangement, rtol: float = 1e-9, field: FieldFn | None | boo
     sources = list(arrangement.magnets)
     if not sources:
         return False, False
-    cells = getattr(arrangement, "cells", None)
-    if cells is not None:
-        sources += [_Source("cuboid", tuple(float(v) for v in sz), tuple(float(v) for v in c),
-                            tuple(float(v) for v in dj)) for sz, c, dj in zip(*cells[:3])]
+    # the recoil cells follow from the same geometry (field_mirrors' notes); the field
+    # check below confirms, without matching thousands of cells pair by pair
     mx, my = field_mirrors(sources, 0.0, 0.0, rtol)
     out = []
     for ax, m in ((0, mx), (1, my)):
         out.append(m is not None and (field is False or _field_even(
             arrangement.B if field is None else field, arrangement, ax)))
     return out[0], out[1]
-
-
-class _Source(NamedTuple):
-    """A recoil cell as :func:`matdb.physics.plate_geometry.field_mirrors` reads it."""
-
-    shape: str
-    size: tuple
-    position: tuple
-    polarization: tuple
 
 
 def _field_even(field: FieldFn, arrangement, ax: int) -> bool:
