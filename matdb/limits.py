@@ -10,6 +10,7 @@ the limit, before any work is done. The same numbers are stated in the README
 * nesting of brackets and braces in a TOML design or JSON import: :data:`MAX_NESTING`;
 * magnets in an arrangement: ``rows`` and ``cols`` each at most :data:`MAX_ROWS_COLS`,
   at most :data:`MAX_MAGNETS` magnets in all (grid or list);
+* cells along a cube edge in the recoil model (``[magnets] recoil_cells``): :data:`MAX_RECOIL_CELLS`;
 * field points (``--at`` plus ``--points``): :data:`MAX_POINTS`;
 * rows in one import file: :data:`MAX_IMPORT_ROWS`;
 * magnitudes: every quantity finite, and within :data:`LARGEST` for its unit (lengths,
@@ -31,6 +32,7 @@ MAX_IMPORT_ROWS = 200_000
 MAX_NESTING = 32                    # [ and { nested in TOML or JSON text
 MAX_ROWS_COLS = 100                 # magnets.rows, magnets.cols
 MAX_MAGNETS = 100                   # magnets in one arrangement (grid, list, or 2 per station); the advisor's own cap
+MAX_RECOIL_CELLS = 8                # recoil_cells (the dense solve: recoil.MAX_CELLS caps the total)
 MAX_POINTS = 20_000                 # field points in one call (--at plus --points)
 
 #: largest magnitude accepted for a quantity returned in these SI units

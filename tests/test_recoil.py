@@ -27,6 +27,7 @@ from matdb.physics import recoil as R
 from matdb.physics import recoil_field as RF
 from matdb.physics.arrangement import build_arrangement
 from matdb.constants import MU0
+from matdb.errors import InputError
 
 A = 0.0127  # 1/2 inch cube [m]
 BR = 1.3
@@ -81,8 +82,8 @@ def _drops(rigid, fields, n):
 
 @pytest.mark.slow
 @pytest.mark.parametrize("pattern,n", [("single", 1), ("checkerboard", 2)])
-def test_default_against_the_moment_method_on_meshed_magnets(pattern, n):
-    """The default model (5 cells along each cube edge, departure field tabulated)
+def test_subdivided_model_against_the_moment_method_on_meshed_magnets(pattern, n):
+    """The accurate model (5 cells along each cube edge, departure field tabulated)
     against magpylib-material-response (Chadebec et al. 2006) on the same 5^3 meshing
     and on a finer 7^3 one.
 
@@ -92,7 +93,7 @@ def test_default_against_the_moment_method_on_meshed_magnets(pattern, n):
     point from 5^3 to 7^3 next to the shared edges of opposite neighbours). Field 0.5-3 mm
     above the magnets: within 1e-4 of the 5^3 reference (the rigid model: 2.8 %)."""
     rigid = build_arrangement("cuboid", (A, A, A), pattern, n, n, br=BR)
-    mine = rigid.with_recoil([CHI] * rigid.count)
+    mine = rigid.with_recoil([CHI] * rigid.count, subdivision=R.ACCURATE_SUBDIVISION)
     ref = _reference(rigid, 5)
     # 1. each magnet's mean polarisation equals the mean over the reference's cells
     for cells, m in zip(ref.children, mine.magnets):
@@ -233,7 +234,7 @@ def test_table_against_direct_cell_evaluation(checker, back_plate):
     # interpolation error of the table against the cells evaluated one by one (the same
     # departures, tabulated=False): pointwise at 0.5-5 mm above the magnets, measured at
     # most 2.4e-4 of |B| (0.5 mm) falling to 1e-5 (2 mm); beside the magnets exact
-    arr = replace(checker, back_plate=back_plate).with_recoil([CHI] * 4)
+    arr = replace(checker, back_plate=back_plate).with_recoil([CHI] * 4, subdivision=R.ACCURATE_SUBDIVISION)
     exact = replace(arr, tabulated=False)
     rng = np.random.default_rng(7)
     for z, tol in ((5e-4, 5e-4), (1e-3, 2e-4), (2e-3, 5e-5), (5e-3, 5e-5)):
@@ -249,7 +250,7 @@ def test_table_against_direct_cell_evaluation(checker, back_plate):
 def test_table_lift_equals_direct_cells(checker):
     # the plate's lift at 0.5 and 1 mm with the tabulated departures equals the lift with
     # the cells evaluated one by one to 1e-4 (measured 2e-5)
-    arr = checker.with_recoil([CHI] * 4)
+    arr = checker.with_recoil([CHI] * 4, subdivision=R.ACCURATE_SUBDIVISION)
     exact = replace(arr, tabulated=False)
     bx, by = P.edge_lines(checker.magnets)
     geom = P.PlateGeometry("rectangle", 0.010, 0.010, 1e-3, 0.0, 0.0, bx, by)
@@ -260,7 +261,7 @@ def test_table_lift_equals_direct_cells(checker):
 
 def test_table_is_shared_across_remanences(checker):
     # the departures are linear in Br: one table serves every temperature (regression check)
-    arr = checker.with_recoil([CHI] * 4)
+    arr = checker.with_recoil([CHI] * 4, subdivision=R.ACCURATE_SUBDIVISION)
     assert arr.scaled(0.93).correction().table() is arr.correction().table()
 
 
@@ -269,7 +270,7 @@ def test_far_cells_as_point_dipoles(checker):
     # moments (Jackson 3rd ed. eq. 5.56): against the cells' closed-form field, within
     # 5e-3 of the departure field (measured 3e-3 at the nearest corner of that box, 2e-4
     # 20 % further out; below 1e-5 of |B|)
-    arr = checker.with_recoil([CHI] * 4)
+    arr = checker.with_recoil([CHI] * 4, subdivision=R.ACCURATE_SUBDIVISION)
     cf = arr.correction()
     mom, pos, lo, hi = cf.far_set()
     d = np.random.default_rng(5).normal(size=(500, 3))
@@ -280,3 +281,21 @@ def test_far_cells_as_point_dipoles(checker):
     exact = cf.exact_set().B(p)
     err = np.linalg.norm(cf.B(p) - exact, axis=1) / np.linalg.norm(exact, axis=1)
     assert p.shape[0] > 100 and err.max() < 5e-3
+
+
+def test_design_recoil_cells_key():
+    # the accurate model is chosen per design: [magnets] recoil_cells = n gives the
+    # subdivided moment method (cells present, mean polarisation below the one-cell
+    # model's, Chadebec et al. 2006), round-trips through the TOML writer, and a bad value
+    # is one error naming the key; the default (no key) is the one-cell model
+    text = (Path(__file__).resolve().parent.parent / "examples" / "plate_checkerboard_2x2.toml").read_text()
+    plain = load_design_text(text)
+    fine = load_design_text(text.replace("[magnets]\n", "[magnets]\nrecoil_cells = 5\n", 1))
+    assert plain.magnets.recoil_cells is None and plain.arrangement().cells is None
+    assert fine.magnets.recoil_cells == 5 and fine.arrangement().cells is not None
+    assert "recoil_cells = 5" in design_to_toml(fine)
+    assert load_design_text(design_to_toml(fine)) == fine
+    for bad in ("0", "2.5", "true", "99"):
+        with pytest.raises(InputError) as err:
+            load_design_text(text.replace("[magnets]\n", f"[magnets]\nrecoil_cells = {bad}\n", 1))
+        assert err.value.field == "magnets.recoil_cells"

@@ -90,6 +90,9 @@ class MagnetSpec:
     items: tuple[MagnetItem, ...] = ()
     grades: dict = field(default_factory=dict, compare=False, repr=False)
     rigid: bool = False  # True: polarisation exactly Br (no recoil permeability)
+    #: cells along each cube edge in the recoil model (None: the default, one cell per magnet;
+    #: 5: the accurate model, :data:`matdb.physics.recoil.ACCURATE_SUBDIVISION`)
+    recoil_cells: int | None = None
 
     @property
     def grade_props(self):
@@ -269,7 +272,7 @@ class PlateDesign:
                                 back_plate=m.back_plate, items=items, grade=m.grade)
         if rigid if rigid is not None else m.rigid:
             return arr
-        return arr.with_recoil(self.recoil_chis(arr))
+        return arr.with_recoil(self.recoil_chis(arr), subdivision=m.recoil_cells)
 
     def magnet_mass_kg(self) -> float:
         """Total magnet mass from the grades' densities [kg]."""

@@ -8,7 +8,7 @@ volume values (a bare number) or carry one of the conventions
 Floating plate (:class:`~matdb.design.model.PlateDesign`)::
 
     [magnets]   shape, size, grade, br, pattern, rows, cols, spacing, back_plate, cover,
-                rigid, [[magnets.item]] (position, direction, shape, size, grade, br)
+                rigid, recoil_cells, [[magnets.item]] (position, direction, shape, size, grade, br)
     [plate]     material, shape, size, chi | chi_perp + chi_par, payload, payload_height,
                 min_gap, center, sigma_in_plane, sigma_across, slots, holes, payload_size
     [conditions] temperature, temp_min, temp_max
@@ -62,7 +62,7 @@ __all__ = ["load_design", "load_design_text", "parse_design", "parse_stabilized"
 
 TOP_KEYS = {"name", "description", "magnets", "plate", "conditions"}
 MAGNET_KEYS = {"shape", "size", "grade", "br", "pattern", "rows", "cols", "spacing",
-               "back_plate", "cover", "item", "rigid"}
+               "back_plate", "cover", "item", "rigid", "recoil_cells"}
 ITEM_KEYS = {"position", "direction", "size", "shape", "grade", "br"}
 PLATE_KEYS = {"material", "shape", "size", "chi", "chi_perp", "chi_par", "payload",
               "payload_height", "min_gap", "center", "sigma_in_plane", "sigma_across",
@@ -309,8 +309,12 @@ def _parse_magnets(t: Any) -> MagnetSpec:
     elif "item" in t:
         raise InputError("only used with pattern = \"list\"", field="magnets.item")
     rigid = _bool(t.get("rigid", False), "magnets.rigid")
+    cells = t.get("recoil_cells")
+    if cells is not None:
+        cells = _int(cells, "magnets.recoil_cells")
+        limits.check_count(cells, limits.MAX_RECOIL_CELLS, "magnets.recoil_cells", "cells along a magnet edge")
     return MagnetSpec(shape, size, g.grade, br, pattern, rows, cols, spacing, back, cover,
-                      tuple(items), grades, rigid)
+                      tuple(items), grades, rigid, cells)
 
 
 def _sigma(value: Any, key: str) -> float:
@@ -667,6 +671,8 @@ def _plate_doc(design: PlateDesign) -> dict:
                  "back_plate": m.back_plate, "cover": _mm(m.cover_m)})
     if m.rigid:
         mags["rigid"] = True
+    if m.recoil_cells is not None:
+        mags["recoil_cells"] = m.recoil_cells
     if m.items:
         items = []
         for it in m.items:

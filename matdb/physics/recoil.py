@@ -62,6 +62,7 @@ from matdb.physics.quadrature import gauss_legendre
 
 __all__ = [
     "SUBDIVISION",
+    "ACCURATE_SUBDIVISION",
     "cell_counts",
     "interaction_matrix",
     "response_matrix",
@@ -79,9 +80,15 @@ __all__ = [
 #: magpylib-material-response at the same meshing); n = 6: 3.85 / 4.07 %; n = 7: 4.03 /
 #: 4.25 %. The subdivision converges slowly next to the shared edges of opposite
 #: neighbours (the reverse field there diverges logarithmically); a single cube is
-#: converged at n = 5 (5.81 / 5.50 %; n = 8: 5.81 / 5.57 %). n = 5 keeps the one-off
-#: solve of a 2 x 2 array under a second.
-SUBDIVISION = 5
+#: converged at n = 5 (5.81 / 5.50 %; n = 8: 5.81 / 5.57 %).
+#: The default stays n = 1: with n > 1 every geometry and recoil susceptibility needs its
+#: own departure-field table (0.3-0.7 s each, quiet machine), and the advisor's catalogue
+#: needs about a hundred of them (``advise`` 17 mm cold: 88 s wall with n = 5 against
+#: about 8 s with n = 1, measured 2026-12-03 at load 1). ``subdivision=5`` (see
+#: :data:`ACCURATE_SUBDIVISION`) is the accurate model for one design.
+SUBDIVISION = 1
+#: Cells along the longest edge for the accurate model of one design (see above).
+ACCURATE_SUBDIVISION = 5
 #: Upper bound on the number of cells of one solve (the dense system is 3 x cells).
 MAX_CELLS = 512
 SERIES_MAX = 40  # Neumann-series steps before falling back to LU
