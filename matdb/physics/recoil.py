@@ -84,7 +84,7 @@ __all__ = [
 #: The default stays n = 1: with n > 1 every geometry and recoil susceptibility needs its
 #: own departure-field table (0.3-0.7 s each, quiet machine), and the advisor's catalogue
 #: needs about a hundred of them (``advise`` 17 mm cold: 88 s wall with n = 5 against
-#: about 8 s with n = 1, measured 2026-12-03 at load 1). ``subdivision=5`` (see
+#: 5-6 s with n = 1, measured 2026-12-03 at load 1-2). ``subdivision=5`` (see
 #: :data:`ACCURATE_SUBDIVISION`) is the accurate model for one design.
 SUBDIVISION = 1
 #: Cells along the longest edge for the accurate model of one design (see above).
