@@ -14,17 +14,16 @@ from __future__ import annotations
 
 import hashlib
 import json
-import os
 import threading
 from pathlib import Path
 from typing import Any
 
 import diskcache
 import numpy as np
-from platformdirs import user_cache_dir
 
 from matdb.advisor.candidates import ArrangementSpec
 from matdb.constants import T_REF_K
+from matdb.paths import cache_root
 from matdb.physics import plate as P
 from matdb.physics import plate_tables as PT
 from matdb.physics import thermal as TH
@@ -44,9 +43,7 @@ HEIGHT_KEY_M = 1e-12  # heights closer than this share a table entry [m]
 
 def cache_dir() -> Path:
     """``MATDB_CACHE_DIR`` or the user cache directory, with an ``advisor`` sub-folder."""
-    env = os.environ.get("MATDB_CACHE_DIR")
-    base = Path(env) if env else Path(user_cache_dir("matdb"))
-    return base / "advisor"
+    return cache_root() / "advisor"
 
 
 _DISKS: dict[str, diskcache.Cache] = {}

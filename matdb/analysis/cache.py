@@ -27,6 +27,7 @@ from pathlib import Path
 from typing import Any
 
 from matdb.data import catalog
+from matdb.paths import cache_root
 
 # joblib, the advisor and the levitate analysis are imported on first use: the light pages
 # key their tables on :func:`catalogue_key` without paying for the analysis modules
@@ -46,10 +47,8 @@ _MEMORY: dict = {}
 
 def cache_dir() -> Path:
     """``$MATDB_CACHE_DIR/results``, else the user cache folder's ``results`` (beside the
-    advisor's tables, :func:`matdb.advisor.engine.cache_dir`)."""
-    from matdb import advisor as engine
-
-    return engine.cache_dir().parent / "results"
+    advisor's tables, :func:`matdb.advisor.tables.cache_dir`)."""
+    return cache_root() / "results"
 
 
 def memory():

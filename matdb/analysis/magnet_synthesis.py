@@ -32,14 +32,12 @@ References
 from __future__ import annotations
 
 import math
-import os
 from dataclasses import dataclass, field
 from functools import lru_cache
 from typing import Callable, Optional
 
 import joblib
 import numpy as np
-import platformdirs
 from scipy.interpolate import CubicSpline
 
 from matdb.errors import InputError
@@ -47,6 +45,7 @@ from matdb.analysis.floating import levitate_stabilized
 from matdb.constants import G_STANDARD, MU0, T_REF_K, kelvin_to_celsius
 from matdb.data.catalog import get_material, list_grades
 from matdb.design import parse_stabilized
+from matdb.paths import cache_root
 from matdb.physics.floating import Body, FinitePlates, axial_pull, pull_table
 
 __all__ = [
@@ -211,10 +210,7 @@ _MEMORY = None
 def _memory():
     """joblib's on-disk cache of the tables: ``$MATDB_CACHE_DIR`` or the user cache folder."""
     global _MEMORY
-    d = os.environ.get("MATDB_CACHE_DIR")
-    if d is None:
-        d = platformdirs.user_cache_dir("matdb")
-    path = os.path.join(d, "synthesis")
+    path = str(cache_root() / "synthesis")
     if _MEMORY is None or _MEMORY.location != path:
         _MEMORY = joblib.Memory(path, verbose=0)
     return _MEMORY
