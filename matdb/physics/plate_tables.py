@@ -448,8 +448,8 @@ def highest_root_grid(G: np.ndarray, y: np.ndarray, gaps: np.ndarray, rows=None)
     """
     m = np.maximum.accumulate(G[:, ::-1], axis=1)[:, ::-1]  # max over g' >= g
     r = np.arange(G.shape[0]) if rows is None else np.asarray(rows)
-    count = np.sum(m[r] >= y[:, None], axis=1)
     n = G.shape[1]
+    count = _count_at_least(m, r, y)
     ok = (count > 0) & (count < n) & (y > 0)
     i = np.clip(count - 1, 0, n - 2)
     g0, g1 = G[r, i], G[r, i + 1]
@@ -461,6 +461,25 @@ def highest_root_grid(G: np.ndarray, y: np.ndarray, gaps: np.ndarray, rows=None)
     fr = np.clip(np.nan_to_num(fr, nan=0.0), 0.0, 1.0)
     gap = np.where(ok, gaps[i] + fr * (gaps[i + 1] - gaps[i]), np.nan)
     return gap, i, fr
+
+
+def _count_at_least(m: np.ndarray, rows: np.ndarray, y: np.ndarray) -> np.ndarray:
+    """How many entries of ``m[rows[k]]`` are at least ``y[k]``, for rows that do not
+    increase (running maxima from the right): a bisection per value, without gathering
+    whole rows; rows holding NaN are counted entry by entry."""
+    if np.isnan(m).any():
+        return np.sum(m[rows] >= y[:, None], axis=1)
+    n = m.shape[1]
+    lo = np.zeros(rows.shape, dtype=np.intp)
+    hi = np.full(rows.shape, n, dtype=np.intp)
+    while True:
+        open_ = lo < hi
+        if not open_.any():
+            return lo
+        mid = (lo + hi) // 2
+        up = open_ & (m[rows, np.minimum(mid, n - 1)] >= y)
+        lo = np.where(up, mid + 1, lo)
+        hi = np.where(open_ & ~up, mid, hi)
 
 
 def interp_rows(tab: np.ndarray, rows: np.ndarray, x: np.ndarray, grid: np.ndarray) -> np.ndarray:
