@@ -175,19 +175,10 @@ def stacked_field(arrangements) -> FieldFn | None:
     """The fields of arrangements that differ only in their magnets' polarisations, from
     one evaluation: each corner term of a cuboid and each elliptic-integral term of a
     cylinder is computed once and weighted by every arrangement's polarisation (the field
-    is linear in it, [6]_). For points above every magnet's top face (where the plate
-    is); elsewhere, and for back plates, recoil cells or rings, None (the caller then
-    evaluates each field, or combines a basis).
-
-    Returns
-    -------
-    callable or None
-        ``field(points (n, 3) [m]) -> B (k, n, 3) [T]``, one field per arrangement.
-
-    References
-    ----------
-    .. [6] J. D. Jackson, Classical Electrodynamics, 3rd ed., Wiley (1999), sec. 5.8
-       (the field of a magnetisation is linear in it: superposition).
+    is linear in it: superposition, Jackson sec. 5.8 as in :func:`linear_family`). For
+    points above every magnet's top face (where the plate is); elsewhere the full model
+    of each arrangement. Returns None for back plates, recoil cells or rings (the caller
+    then combines a basis): else ``field(points (n, 3) [m]) -> B (k, n, 3) [T]``.
     """
     arrs = list(arrangements)
     first = arrs[0]
