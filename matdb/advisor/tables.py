@@ -227,14 +227,14 @@ class GeometryData:
         """Largest reverse field along the magnetisation at unit polarisation [A/m]."""
         self.load()
         if self.hmax is None:
-            self.hmax = _HMAX.get(self.spec)
+            self.hmax = _HMAX.get(shape_key(self.spec))
             if self.hmax is None:
                 knee = TH.KNEE_FRACTION["NdFeB"][0]
                 # the idealised (rigid) magnets: their reverse field is a little larger than
                 # on the recoil line, so the check errs on the safe side (as levitate's)
                 r = TH.demag_check(self.spec.build(1.0), 1.0, 0.0, "NdFeB", [T_REF_K])
                 self.hmax = float(r.worst_ratio * knee)
-            _HMAX[self.spec] = self.hmax
+            _HMAX[shape_key(self.spec)] = self.hmax
             self.dirty = True
         return self.hmax
 
@@ -299,7 +299,26 @@ def prepare_family(geos: list[GeometryData], heights, lat_heights) -> None:
 
 
 _GEOMETRIES: dict[tuple, GeometryData] = {}
-_HMAX: dict[ArrangementSpec, float] = {}  # the reverse field does not depend on plate or recoil
+#: the reverse field at unit polarisation by :func:`shape_key`: it depends neither on the
+#: plate nor on the recoil line (the rigid magnets are checked), nor on the size
+_HMAX: dict[tuple, float] = {}
+
+
+def shape_key(spec: ArrangementSpec) -> tuple:
+    """``spec`` in units of its first magnet dimension: arrangements equal up to scale share
+    it. Magnetostatics has no length scale: scaling every length by ``l`` scales the
+    field points with it and leaves H at the scaled points unchanged ([1]_), and the
+    demagnetisation check samples each magnet at points fixed relative to it.
+
+    References
+    ----------
+    .. [1] J. D. Jackson, Classical Electrodynamics, 3rd ed., Wiley (1999), sec. 5.8 (the
+       field of a uniform magnetisation from its surface charge, an integral of
+       ``(x - x') / |x - x'|^3`` over the surfaces, invariant under ``x -> l x``).
+    """
+    a = float(spec.size[0])
+    return (spec.shape, tuple(float(s) / a for s in spec.size), spec.pattern, spec.rows, spec.cols,
+            float(spec.spacing) / a, spec.back_plate)
 
 
 def geometry(spec: ArrangementSpec, plate_m: tuple[float, float], chi_rec: float) -> GeometryData:
