@@ -83,14 +83,10 @@ def diagonal_symmetry(arrangement, rtol: float = 1e-9, field: FieldFn | None | b
 
     The reflection in the plane ``x = y`` moves a magnet at ``(x, y, z)`` of size
     ``(a, b, h)`` to ``(y, x, z)`` with size ``(b, a, h)`` and turns its polarisation, an
-    axial vector, into ``-(J_y, J_x, J_z)`` ([4]_); when that is the same set of magnets
-    with the same polarisations, or all reversed, ``|B|^2`` is symmetric. Confirmed on the
-    field at a few points as :func:`mirror_symmetry` does (``field`` as there).
-
-    References
-    ----------
-    .. [4] J. D. Jackson, Classical Electrodynamics, 3rd ed., Wiley (1999), sec. 6.10
-       (B and M are axial vectors under reflection).
+    axial vector, into ``-(J_y, J_x, J_z)`` (Jackson sec. 6.10, as in
+    :func:`mirror_symmetry`); when that is the same set of magnets with the same
+    polarisations, or all reversed, ``|B|^2`` is symmetric. Confirmed on the field at a
+    few points as :func:`mirror_symmetry` does (``field`` as there).
     """
     mags = list(arrangement.magnets)
     if not mags:
