@@ -147,6 +147,12 @@ def linear_family(arrangements, rtol: float = 1e-12) -> FieldFn:
                for a in arrs)
     if not same or len(arrs) == 1:
         return separate
+    if first.cells is not None:  # magnets on recoil lines: their cells' tables read once for all
+        from matdb.physics.arrangement import linear_fields
+
+        fam = linear_fields(arrs, rtol)
+        if fam is not None:
+            return fam
     V = np.column_stack([_source_vector(a) for a in arrs])  # (sources x 3, k)
     _, sv, zt = np.linalg.svd(V, full_matrices=False)
     r = int(np.sum(sv > rtol * sv[0])) if sv.size and sv[0] > 0 else 0
