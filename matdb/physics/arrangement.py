@@ -385,7 +385,7 @@ class Arrangement:
         return Arrangement(mags, self.back_plate, self.pattern, self.rows, self.cols, cells, self.tabulated)
 
 
-def linear_fields(arrangements, rtol: float = 1e-12):
+def linear_fields(arrangements, rtol: float = 1e-12, stacked=None):
     """One field function for arrangements on recoil lines that differ only in their
     polarisations (the same magnets and cells; several recoil susceptibilities, say).
 
@@ -394,6 +394,10 @@ def linear_fields(arrangements, rtol: float = 1e-12):
     magnets' mean polarisations (singular values below ``rtol`` of the largest dropped),
     and the cells' departures are read from their shared tables once for all
     (:func:`matdb.physics.recoil_field.family_field`).
+
+    ``stacked``: a function that returns one field function for the magnets alone (cells
+    removed) or None (then the basis above), e.g.
+    :func:`matdb.physics.plate_tables.stacked_field`.
 
     Returns
     -------
@@ -407,6 +411,15 @@ def linear_fields(arrangements, rtol: float = 1e-12):
     corr = family_field([a.correction() for a in arrs])
     if corr is None:
         return None
+    bare = stacked([replace(a, cells=None) for a in arrs]) if stacked is not None else None
+    if bare is not None:
+        def field_stacked(points) -> np.ndarray:
+            p = as_points(points, "points")
+            out = corr(p)
+            out += bare(p)
+            return out
+
+        return field_stacked
     V = np.column_stack([np.ravel([m.polarization for m in a.magnets]) for a in arrs])
     _, sv, zt = np.linalg.svd(V, full_matrices=False)
     r = int(np.sum(sv > rtol * sv[0])) if sv.size and sv[0] > 0 else 0

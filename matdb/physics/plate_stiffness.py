@@ -229,10 +229,12 @@ def _columns(field: FieldFn, plate: PlateGeometry, gap: float, pivot, order: int
         if np.any(~turned):  # z translation: forces only
             q[~turned] = generalized_forces_split(field, plate, gap, pivot, poses[~turned],
                                                   order, torques=False)
-        if np.any(turned):
-            q[turned] = _surface_forces_split(field, plate, gap, pivot, poses[turned], order)
-        k[:, :, others] = _differences(q, pairs, steps)
         rot = [j for j in others if perturbed[j] >= 3]
+        if np.any(turned):
+            # the level surface's field (for the intrinsic rates below) in the same evaluation
+            q[turned] = _surface_forces_split(field, plate, gap, pivot, poses[turned], order,
+                                              level=bool(rot))
+        k[:, :, others] = _differences(q, pairs, steps)
         if rot:
             rates = _intrinsic_rates(field, plate, gap, pivot, order,
                                      [perturbed[j] - 3 for j in rot])  # (n_rot, 3)
@@ -334,16 +336,33 @@ def _mirror_axes(plate: PlateGeometry, gap: float, order: int, pivot: np.ndarray
 
 
 def _surface_forces_split(field: FieldFn, plate: PlateGeometry, gap: float, pivot,
-                          poses: np.ndarray, order: int) -> np.ndarray:
+                          poses: np.ndarray, order: int, level: bool = False) -> np.ndarray:
     """:func:`generalized_forces_split` without the anisotropic volume torque: force and
-    torque of the closed-surface integrals alone at each pose, (P, 2, 6)."""
+    torque of the closed-surface integrals alone at each pose, (P, 2, 6). With ``level``,
+    the field on the level surface is evaluated in the same call and kept for
+    :func:`_intrinsic_rates` (unless already kept)."""
     sp, sn, sw = surface_rule(plate, gap, order)
     rot = Rotation.from_rotvec(poses[:, 3:]).as_matrix()
     centre = pivot[None, :] + poses[:, :3]
     sp_t = centre[:, None, :] + np.einsum("pij,mj->pmi", rot, sp - pivot)
     sn_t = np.einsum("pij,mj->pmi", rot, sn)
-    bs = eval_field(field, sp_t.reshape(-1, 3)).reshape(sp_t.shape)
+    key = _level_key(plate, gap, pivot, order)
+    if level and not _level_kept(key, field):
+        b = eval_field(field, np.concatenate([sp_t.reshape(-1, 3), sp]))
+        _LEVEL["entry"] = (key, field, (sp, sn, sw, b[sp_t.shape[0] * sp_t.shape[1]:]))
+        bs = b[:sp_t.shape[0] * sp_t.shape[1]].reshape(sp_t.shape)
+    else:
+        bs = eval_field(field, sp_t.reshape(-1, 3)).reshape(sp_t.shape)
     return _surface_terms(bs, sp_t, sn_t, sw, centre, rot[:, :, 2])
+
+
+def _level_key(plate: PlateGeometry, gap: float, pivot, order: int) -> tuple:
+    return (plate, float(gap), tuple(float(v) for v in pivot), int(order))
+
+
+def _level_kept(key: tuple, field: FieldFn) -> bool:
+    entry = _LEVEL.get("entry")
+    return entry is not None and entry[0] == key and entry[1] == field
 
 
 def _surface_terms(bs: np.ndarray, sp_t: np.ndarray, sn_t: np.ndarray, sw: np.ndarray,
@@ -387,7 +406,7 @@ def _intrinsic_rates(field: FieldFn, plate: PlateGeometry, gap: float, pivot, or
     .. [2] J. D. Jackson, Classical Electrodynamics, 3rd ed. (1999), sec. 5.16 (torque
        ``M x B`` on a magnetised body).
     """
-    key = (plate, float(gap), tuple(float(v) for v in pivot), int(order))
+    key = _level_key(plate, gap, pivot, order)
     entry = _LEVEL.get("entry")  # one tuple, read and replaced whole (threads share it)
     if entry is not None and entry[0] == key and entry[1] == field:
         sp, sn, sw, bs = entry[2]

@@ -150,9 +150,12 @@ def linear_family(arrangements, rtol: float = 1e-12) -> FieldFn:
     if first.cells is not None:  # magnets on recoil lines: their cells' tables read once for all
         from matdb.physics.arrangement import linear_fields
 
-        fam = linear_fields(arrs, rtol)
+        fam = linear_fields(arrs, rtol, stacked=stacked_field)
         if fam is not None:
             return fam
+    stacked = stacked_field(arrs)
+    if stacked is not None:
+        return stacked
     V = np.column_stack([_source_vector(a) for a in arrs])  # (sources x 3, k)
     _, sv, zt = np.linalg.svd(V, full_matrices=False)
     r = int(np.sum(sv > rtol * sv[0])) if sv.size and sv[0] > 0 else 0
@@ -172,6 +175,52 @@ def linear_family(arrangements, rtol: float = 1e-12) -> FieldFn:
     if not np.all(np.abs(got - want) <= 1e-9 * float(np.max(np.abs(want))) + 1e-300):
         return separate
     return combined
+
+
+def stacked_field(arrangements) -> FieldFn | None:
+    """The fields of arrangements that differ only in their magnets' polarisations, from
+    one evaluation: each corner term of a cuboid and each elliptic-integral term of a
+    cylinder is computed once and weighted by every arrangement's polarisation (the field
+    is linear in it: superposition, Jackson sec. 5.8 as in :func:`linear_family`). For
+    points above every magnet's top face (where the plate is); elsewhere the full model
+    of each arrangement. Returns None for back plates, recoil cells or rings (the caller
+    then combines a basis): else ``field(points (n, 3) [m]) -> B (k, n, 3) [T]``.
+    """
+    arrs = list(arrangements)
+    first = arrs[0]
+    if any(a.back_plate or a.cells is not None for a in arrs) or \
+            any(m.shape not in ("cuboid", "cylinder") for m in first.magnets):
+        return None
+    from matdb.physics.fields._common import EDGE_ROUNDING
+    from matdb.physics.fields.cuboid import CuboidSet
+    from matdb.physics.fields.cylinder import _cyl_sum
+
+    J = np.array([[m.polarization for m in a.magnets] for a in arrs], dtype=float)  # (k, m, 3)
+    pos = np.array([m.position for m in first.magnets], dtype=float)
+    cub = np.array([m.shape == "cuboid" for m in first.magnets])
+    size = [m.size for m in first.magnets]
+    cuboids = None
+    if cub.any():
+        ci = np.nonzero(cub)[0]
+        cuboids = CuboidSet(np.array([size[i] for i in ci], dtype=float), J[:, ci], pos[ci])
+    yi = np.nonzero(~cub)[0]
+    radius = np.array([size[i][0] / 2 for i in yi], dtype=float)
+    half_h = np.array([size[i][1] / 2 for i in yi], dtype=float)
+    ell = EDGE_ROUNDING * np.minimum(2.0 * radius, 2.0 * half_h)
+    top = first.top_z
+
+    def field(p):
+        p = np.asarray(p, dtype=float)
+        if p.shape[0] and not np.all(p[:, 2] > top):  # faces and insides: the full model
+            return np.stack([a.B(p) for a in arrs])
+        out = np.zeros((len(arrs), *p.shape))
+        if cuboids is not None:
+            out += cuboids.mu0_h_mean(p)
+        if yi.size:
+            out += _cyl_sum(p, radius, half_h, J[:, yi, 2], pos[yi], ell)
+        return out
+
+    return field
 
 
 def _probe_points(arrangement) -> np.ndarray:
@@ -454,8 +503,8 @@ def highest_root_grid(G: np.ndarray, y: np.ndarray, gaps: np.ndarray, rows=None)
     """
     m = np.maximum.accumulate(G[:, ::-1], axis=1)[:, ::-1]  # max over g' >= g
     r = np.arange(G.shape[0]) if rows is None else np.asarray(rows)
-    count = np.sum(m[r] >= y[:, None], axis=1)
     n = G.shape[1]
+    count = _count_at_least(m, r, y)
     ok = (count > 0) & (count < n) & (y > 0)
     i = np.clip(count - 1, 0, n - 2)
     g0, g1 = G[r, i], G[r, i + 1]
@@ -467,6 +516,25 @@ def highest_root_grid(G: np.ndarray, y: np.ndarray, gaps: np.ndarray, rows=None)
     fr = np.clip(np.nan_to_num(fr, nan=0.0), 0.0, 1.0)
     gap = np.where(ok, gaps[i] + fr * (gaps[i + 1] - gaps[i]), np.nan)
     return gap, i, fr
+
+
+def _count_at_least(m: np.ndarray, rows: np.ndarray, y: np.ndarray) -> np.ndarray:
+    """How many entries of ``m[rows[k]]`` are at least ``y[k]``, for rows that do not
+    increase (running maxima from the right): a bisection per value, without gathering
+    whole rows; rows holding NaN are counted entry by entry."""
+    if np.isnan(m).any():
+        return np.sum(m[rows] >= y[:, None], axis=1)
+    n = m.shape[1]
+    lo = np.zeros(rows.shape, dtype=np.intp)
+    hi = np.full(rows.shape, n, dtype=np.intp)
+    while True:
+        open_ = lo < hi
+        if not open_.any():
+            return lo
+        mid = (lo + hi) // 2
+        up = open_ & (m[rows, np.minimum(mid, n - 1)] >= y)
+        lo = np.where(up, mid + 1, lo)
+        hi = np.where(open_ & ~up, mid, hi)
 
 
 def interp_rows(tab: np.ndarray, rows: np.ndarray, x: np.ndarray, grid: np.ndarray) -> np.ndarray:
