@@ -177,6 +177,12 @@ def linear_family(arrangements, rtol: float = 1e-12) -> FieldFn:
                for a in arrs)
     if not same or len(arrs) == 1:
         return separate
+    if first.cells is not None:  # magnets on recoil lines: their cells' tables read once for all
+        from matdb.physics.arrangement import linear_fields
+
+        fam = linear_fields(arrs, rtol, stacked=stacked_field)
+        if fam is not None:
+            return fam
     stacked = stacked_field(arrs)
     if stacked is not None:
         return stacked
