@@ -96,6 +96,38 @@ def test_several_cuboids_touching_and_apart_match_magpylib():
     assert np.max(np.abs(got - ref)) < _tol(ref)
 
 
+def test_stacked_polarisation_sets_match_magpylib_set_by_set():
+    # reference: magpylib Collections of Cuboids and Cylinders, one per polarisation set;
+    # matdb evaluates the k sets of the same magnets together (the field is linear in J)
+    from matdb.physics.fields.cylinder import _cyl_sum
+
+    dims = np.array([[0.01, 0.01, 0.01], [0.01, 0.01, 0.01], [0.004, 0.01, 0.002]])
+    pos = np.array([[-0.005, 0, -0.005], [0.005, 0, -0.005], [0.012, 0.0, -0.001]])
+    rng = np.random.default_rng(3)
+    stack = rng.uniform(-1.3, 1.3, (4, 3, 3))
+    stack[1, :, :2] = 0.0  # a set along z only beside sets with every component
+    p = _points(2000, 0.03)
+    p = p[~_near_cuboid_edges(p, dims, pos, 1e-7)]
+    from matdb.physics.fields import CuboidSet
+
+    got = CuboidSet(dims, stack, pos).mu0_h_mean(p)
+    assert got.shape == (4, p.shape[0], 3)
+    outside = ~np.any(np.all(np.abs(p[:, None, :] - pos[None]) < dims[None] / 2, axis=2), axis=1)
+    for j, b in zip(stack, got):
+        ref = magpy.getB(magpy.Collection(*[magpy.magnet.Cuboid(polarization=jj, dimension=d, position=c)
+                                            for d, jj, c in zip(dims, j, pos)]), p)
+        assert np.max(np.abs(b[outside] - ref[outside])) < _tol(ref)
+    d = np.array([0.010, 0.004])
+    h = np.array([0.005, 0.012])
+    cpos = np.array([[0.0, 0.0, -0.0025], [0.012, -0.003, 0.004]])
+    jz = rng.uniform(-1.3, 1.3, (3, 2))
+    got = _cyl_sum(p, d / 2, h / 2, jz, cpos, 1e-6 * np.minimum(d, h))
+    for j, b in zip(jz, got):
+        ref = magpy.getB(magpy.Collection(*[magpy.magnet.Cylinder(polarization=(0, 0, jj), dimension=(dd, hh), position=c)
+                                            for dd, hh, jj, c in zip(d, h, j, cpos)]), p)
+        assert np.max(np.abs(b - ref)) < _tol(ref)
+
+
 def test_cylinders_match_magpylib():
     # reference: magpylib.magnet.Cylinder, axial polarisation, signed
     d = np.array([0.010, 0.004, 0.020])

@@ -124,6 +124,31 @@ def test_folded_rules_integrate_as_well_as_the_whole_plate(shape, size, pattern,
     assert np.max(np.abs(lfold - lref)) <= 2.0 * np.max(np.abs(lwhole - lref)) + 1e-12 * scale
 
 
+@pytest.mark.parametrize("shape,size", [("cuboid", (0.00635,) * 3), ("cylinder", (0.01, 0.005))])
+def test_diagonal_fold_is_the_same_sum_as_the_quarter(shape, size):
+    # B and J are axial vectors (Jackson, Classical Electrodynamics, 3rd ed., sec. 6.10): a
+    # checkerboard maps onto its negative under x <-> y, so |B|^2 is symmetric there and the
+    # quarter rule's sum over nodes (x_i, y_j) equals the sum over i <= j with the nodes off
+    # the diagonal counted twice (regression check of the two sums); stripes are not
+    # symmetric, and their fold is refused
+    arr = build_arrangement(shape, size, "checkerboard", 3, 3, 0.0, br=1.0).with_recoil([0.05] * 9)
+    assert PT.diagonal_symmetry(arr)
+    p = np.array([[0.003, 0.001, 0.004], [0.007, -0.002, 0.0045]])
+    assert np.sum(arr.B(p) ** 2, axis=1) == pytest.approx(np.sum(arr.B(p[:, [1, 0, 2]]) ** 2, axis=1), rel=1e-12)
+    bx, by = P.edge_lines(arr.magnets)
+    hs = np.array([2e-4, 1e-3, 3e-3])
+    quarter = PT.plane_integrals(arr.B, 0.017, 0.017, bx, by, hs, 4, 5e-4, (True, True))
+    eighth = PT.plane_integrals(arr.B, 0.017, 0.017, bx, by, hs, 4, 5e-4, (True, True, True))
+    assert np.allclose(eighth, quarter, rtol=1e-12, atol=0)
+    lq = PT.lateral_line_integrals(arr.B, 0.017, 0.017, bx, by, hs, 4, 5e-4, 1e-6, (True, True))
+    le = PT.lateral_line_integrals(arr.B, 0.017, 0.017, bx, by, hs, 4, 5e-4, 1e-6, (True, True, True))
+    assert np.allclose(le, lq, rtol=1e-9, atol=1e-12 * np.max(np.abs(lq)))
+    stripes = build_arrangement(shape, size, "stripes", 3, 3, 0.0, br=1.0)
+    assert not PT.diagonal_symmetry(stripes)
+    assert PT.diagonal_symmetry(build_arrangement("cuboid", (0.005, 0.004, 0.003), "single", 1, 1, 0.0,
+                                                  br=1.0)) is False  # not square
+
+
 def test_plane_integrals_without_folding_equal_the_plate_code():
     # the same rule as matdb.physics.plate.plane_integrals (regression check of the two paths)
     arr = build_arrangement("cuboid", (0.01,) * 3, "checkerboard", 2, 2, 0.0, br=1.0)
@@ -150,3 +175,47 @@ def test_linear_family_equals_each_field_on_its_own(pattern, n):
     for a, b in zip(arrs, got):
         want = a.B(p)
         assert np.max(np.abs(b - want)) <= 1e-11 * np.max(np.abs(want))
+
+
+@pytest.mark.parametrize("shape,size,back", [("cylinder", (0.0127, 0.00635), False),
+                                              ("cuboid", (0.00635,) * 3, True)])
+def test_stacked_and_combined_families_equal_each_field(shape, size, back):
+    # superposition (Jackson, Classical Electrodynamics, 3rd ed., sec. 5.8): one evaluation
+    # weighted per arrangement equals each arrangement's own field, above the magnets and
+    # (through the full model) at points beside and inside them; a back plate takes the
+    # basis combination instead
+    chis = (0.05, 0.2, 2.6)
+    arrs = [build_arrangement(shape, size, "checkerboard", 3, 3, 0.0, br=1.0,
+                              back_plate=back).with_recoil([c] * 9) for c in chis]
+    assert (PT.stacked_field(arrs) is None) == back
+    fam = PT.linear_family(arrs)
+    rng = np.random.default_rng(11)
+    top = arrs[0].top_z
+    above = rng.uniform(-0.015, 0.015, (60, 3))
+    above[:, 2] = top + np.abs(above[:, 2]) + 5e-5
+    level = above.copy()
+    level[:, 2] = rng.uniform(top - size[-1], top, 60)
+    for p in (above, level):
+        got = fam(p)
+        for a, b in zip(arrs, got):
+            want = a.B(p)
+            assert np.max(np.abs(b - want)) <= 1e-11 * np.max(np.abs(want))
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.integers(1, 40), st.integers(2, 40), st.integers(0, 2 ** 31 - 1))
+def test_highest_root_grid_bisection_counts_as_the_direct_sum(u, n, seed):
+    # regression check: the bisection over running maxima counts exactly what comparing
+    # every tabulated node does (curves with ties, negative values and plateaus included)
+    rng = np.random.default_rng(seed)
+    G = np.round(rng.normal(size=(u, n)), 1)
+    m = np.maximum.accumulate(G[:, ::-1], axis=1)[:, ::-1]
+    rows = rng.integers(0, u, 3 * u)
+    y = np.concatenate([np.round(rng.normal(size=3 * u - 2), 1), [np.inf, np.nan]])
+    direct = np.sum(m[rows] >= y[:, None], axis=1)
+    assert np.array_equal(PT._count_at_least(m, rows, y), direct)
+    gaps = np.cumsum(rng.uniform(0.1, 1.0, n))
+    G[0, 0] = np.nan  # a NaN takes the entry-by-entry path, with the same answer
+    m = np.maximum.accumulate(G[:, ::-1], axis=1)[:, ::-1]
+    assert np.array_equal(PT._count_at_least(m, rows, y), np.sum(m[rows] >= y[:, None], axis=1))
+    assert PT.highest_root_grid(G, y, gaps, rows=rows)[0].shape == y.shape

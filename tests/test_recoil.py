@@ -196,7 +196,7 @@ def test_floating_magnet_rigid_key():
 
 
 # -- the tabulated departure field (matdb.physics.recoil_field) ------------------------
-def test_prism_spectrum_against_the_closed_form_field():
+def test_prism_spectrum_against_the_closed_form_field(monkeypatch):
     # two uniformly polarised prisms with opposite polarisation along each axis (no net
     # moment, as each magnet's departures have none; a net moment would alias across the
     # FFT period), their field above the top face from the Fourier-domain form
@@ -205,6 +205,8 @@ def test_prism_spectrum_against_the_closed_form_field():
     # matdb.physics.fields evaluates it, at the table's nodes (no interpolation there)
     # from 3 grid spacings up: within 3e-3 of the peak (measured 1.4e-3 at 0.6 mm, 2e-3
     # at 1-2.5 mm: the periodic copies of the FFT, largest at the table's edge)
+    # grid spacing 0.25 mm (12 nodes across the 3 mm cells), at which the bounds were measured
+    monkeypatch.setattr(RF, "CELL_NODES", 12)
     size = np.array([[4e-3, 3e-3, 2e-3], [4e-3, 3e-3, 1e-3]])
     centre = np.array([[0.5e-3, -0.3e-3, -1e-3], [-1.5e-3, 2.7e-3, -0.5e-3]])
     rng = np.random.default_rng(3)
@@ -218,8 +220,8 @@ def test_prism_spectrum_against_the_closed_form_field():
         levels = t.z0 * np.expm1(RF.Z_RATIO * np.arange(t.nz))
         ix = rng.integers(0, t.nb[0], 400)
         iy = rng.integers(0, t.nb[1], 400)
-        iz = rng.choice(np.nonzero((levels >= 3 * t.h) & (levels <= 5e-3))[0], 400)
-        pts = np.column_stack([t.origin[0] + ix * t.h, t.origin[1] + iy * t.h, t.top + levels[iz]])
+        iz = rng.choice(np.nonzero((levels >= 3 * t.h) & (levels <= 5e-3 / cf.scale))[0], 400)
+        pts = cf.scale * np.column_stack([t.origin[0] + ix * t.h, t.origin[1] + iy * t.h, t.top + levels[iz]])
         exact = cf.exact_set().B(pts)
         np.testing.assert_allclose(cf.B(pts), exact, atol=3e-3 * np.abs(exact).max())
 
@@ -277,7 +279,7 @@ def test_far_cells_as_point_dipoles(checker):
     d /= np.linalg.norm(d, axis=1)[:, None]
     radius = float(np.max(np.abs(np.concatenate([lo, hi]))))
     p = d * radius * np.random.default_rng(6).uniform(1.0, 2.0, (500, 1))  # beyond the box
-    p = p[~cf.table().covers(p)]  # (the rest is tabulated)
+    p = p[~cf.table().covers(p / cf.scale)]  # (the rest is tabulated)
     exact = cf.exact_set().B(p)
     err = np.linalg.norm(cf.B(p) - exact, axis=1) / np.linalg.norm(exact, axis=1)
     assert p.shape[0] > 100 and err.max() < 5e-3

@@ -107,20 +107,26 @@ def score_values(margin, cost, derating, weights: Weights) -> np.ndarray:
 
 def _failures(df: pd.DataFrame) -> np.ndarray:
     """How many of the feasibility criteria a candidate misses (0 when feasible)."""
-    return (np.asarray(~df["diamagnetic"], dtype=int) + np.asarray(~(df["margin"] >= 1.0), dtype=int)
-            + np.asarray(~df["laterally_stable"].astype(bool), dtype=int)
-            + np.asarray(df["demag_risk"], dtype=int) + np.asarray(df["too_hot"], dtype=int)
-            + np.asarray(df["over_budget"], dtype=int)
-            + np.asarray(df["outside_envelope"], dtype=int) + np.asarray(df["too_heavy"], dtype=int))
+    def col(name: str) -> np.ndarray:
+        return df[name].to_numpy(dtype=bool)
+
+    n = (~col("diamagnetic")).astype(np.int64)
+    with np.errstate(invalid="ignore"):
+        n += ~(df["margin"].to_numpy(dtype=float) >= 1.0)
+    n += ~col("laterally_stable")
+    for name in ("demag_risk", "too_hot", "over_budget", "outside_envelope", "too_heavy"):
+        n += col(name)
+    return n
 
 
 def _order(df: pd.DataFrame) -> np.ndarray:
     """Positions of the rows in ranking order: feasible first by score; then the rejected
     ones, fewest failed criteria first."""
-    key_s = df["score"].fillna(-np.inf)
-    key_m = df["margin"].fillna(-np.inf)
-    return np.lexsort((-key_m.to_numpy(), -key_s.to_numpy(), _failures(df),
-                       ~df["feasible"].to_numpy()))
+    key_s = df["score"].to_numpy(dtype=float)
+    key_m = df["margin"].to_numpy(dtype=float)
+    key_s = np.where(np.isnan(key_s), -np.inf, key_s)
+    key_m = np.where(np.isnan(key_m), -np.inf, key_m)
+    return np.lexsort((-key_m, -key_s, _failures(df), ~df["feasible"].to_numpy(dtype=bool)))
 
 
 def refresh_flags(df: pd.DataFrame, idx, req: AdviceRequest) -> None:

@@ -29,7 +29,7 @@ import pandas as pd
 
 from matdb.advisor.candidates import Catalogue, grade_chi_rec
 from matdb.advisor.request import AdviceRequest
-from matdb.advisor.tables import SCREEN_HEIGHTS_M, GeometryData, geometry, prepare_family
+from matdb.advisor.tables import SCREEN_HEIGHTS_M, GeometryData, geometry, prepare_family, save_all
 from matdb.errors import InputError
 from matdb.physics import plate_tables as PT
 from matdb.physics import thermal as TH
@@ -72,7 +72,6 @@ def prepare_all(geos: list[GeometryData], heights: np.ndarray, lat_heights: np.n
         prepare_family(family, heights, lat_heights)
         for g in family:
             g.demag_hmax()
-            g.save()
 
     groups: dict[tuple, list[GeometryData]] = {}
     for g in geos:
@@ -89,10 +88,12 @@ def prepare_all(geos: list[GeometryData], heights: np.ndarray, lat_heights: np.n
             report(0.05 + 0.55 * i / len(cold),
                    f"field integrals of {fam[0].spec.description} ({i + 1} of {len(cold)})")
             prep(fam)
+        save_all(geos)
         return
     cold.sort(key=lambda f: -len(f) * f[0].spec.count * (3 if f[0].spec.shape == "cylinder" else 1))
     with ThreadPoolExecutor(max_workers=workers) as ex:
         list(ex.map(prep, cold))
+    save_all(geos)
 
 
 def _material_arrays(mats, t_k: float):
@@ -104,6 +105,14 @@ def _material_arrays(mats, t_k: float):
                       if m.uncertainty_si is not None and m.chi_vertical != 0 else 1.0 for m in mats])
     return (-chi_v * cf, -chi_h * cf, unc_f, (chi_v < 0) & (chi_h < 0),
             np.array([m.density_kg_m3 for m in mats]), np.array([_fnum(m.price_usd_per_kg) for m in mats]))
+
+
+def _labels(names: list[str], index: np.ndarray) -> pd.Categorical:
+    """``names[index]`` as a categorical column (codes into the distinct names: no string
+    is built per row, and reordering the frame moves integers)."""
+    cats = list(dict.fromkeys(names))
+    codes = np.array([cats.index(x) for x in names], dtype=np.int32)[index]
+    return pd.Categorical.from_codes(codes, categories=cats)
 
 
 def screen(req: AdviceRequest, cat: Catalogue) -> pd.DataFrame:
@@ -284,9 +293,9 @@ def screen(req: AdviceRequest, cat: Catalogue) -> pd.DataFrame:
                 & ~outside & ~too_heavy)
     ext = np.array([s.extent for s in specs]).reshape(ns, 2)
     return pd.DataFrame({
-        "material": np.array([m.id for m in mats], dtype=object)[im],
-        "grade": np.array([g.grade for g in grades], dtype=object)[ig],
-        "family": np.array([g.family for g in grades], dtype=object)[ig],
+        "material": _labels([m.id for m in mats], im),
+        "grade": _labels([g.grade for g in grades], ig),
+        "family": _labels([g.family for g in grades], ig),
         "spec_index": is_, "mat_index": im, "grade_index": ig,
         "thickness_m": t_c, "plate_mass_kg": plate_mass, "magnet_mass_kg": magnet_mass,
         "payload_kg": payload, "too_heavy": too_heavy, "outside_envelope": outside,
@@ -304,7 +313,7 @@ def screen(req: AdviceRequest, cat: Catalogue) -> pd.DataFrame:
         "cost_usd": cost, "price_illustrative": illus, "over_budget": over_budget,
         "score": np.full(n, np.nan), "exact": np.zeros(n, dtype=bool),
         "stable_plate_side_max_m": np.full(n, np.nan), "tilt_stable": np.ones(n, dtype=bool),
-        "stable_sides_text": np.full(n, "", dtype=object),
+        "stable_sides_text": pd.Series(np.full(n, "", dtype=object), dtype=object),
         "tilt_checked": np.zeros(n, dtype=bool),
     })
 
@@ -318,43 +327,65 @@ def check_tilt(df: pd.DataFrame, idx, req: AdviceRequest, cat: Catalogue) -> Non
     mass (:func:`matdb.physics.plate_tables.move_pivot`). Sets ``k_tilt_n_m_per_rad``,
     ``tilt_stable``, ``laterally_stable`` and ``tilt_checked``.
     """
-    rows = [i for i in idx if math.isfinite(df.at[i, "gap_m"]) and not df.at[i, "exact"]
-            and bool(df.at[i, "diamagnetic"])]
+    idx = np.asarray(list(idx))
+    if idx.size == 0:
+        return
+    sub = df.loc[idx]
+    gap_all = sub["gap_m"].to_numpy(dtype=float)
+    keep = (np.isfinite(gap_all) & ~sub["exact"].to_numpy(dtype=bool)
+            & sub["diamagnetic"].to_numpy(dtype=bool))
+    if not keep.any():
+        return
+    sub = sub[keep]
+    rows = idx[keep]
+    si_a = sub["spec_index"].to_numpy()
+    mi_a = sub["mat_index"].to_numpy()
+    gi_a = sub["grade_index"].to_numpy()
+    t_a = sub["thickness_m"].to_numpy(dtype=float)
+    gap_a = gap_all[keep]
+    if "plate_x_m" in sub.columns:
+        px, py = sub["plate_x_m"].to_numpy(dtype=float), sub["plate_y_m"].to_numpy(dtype=float)
+    else:
+        px = np.full(rows.size, float(req.plate_m[0]))
+        py = np.full(rows.size, float(req.plate_m[1]))
     groups: dict[tuple, list] = {}
-    for i in rows:
-        pk = (float(df.at[i, "plate_x_m"]), float(df.at[i, "plate_y_m"])) if "plate_x_m" in df.columns \
-            else tuple(req.plate_m)
-        chi_rec = grade_chi_rec(cat.grades[int(df.at[i, "grade_index"])])
-        key = (int(df.at[i, "spec_index"]), float(df.at[i, "thickness_m"]), pk, chi_rec)
-        groups.setdefault(key, []).append(i)
+    for n_ in range(rows.size):
+        chi_rec = grade_chi_rec(cat.grades[int(gi_a[n_])])
+        key = (int(si_a[n_]), float(t_a[n_]), (float(px[n_]), float(py[n_])), chi_rec)
+        groups.setdefault(key, []).append(n_)
     lg = np.log(TILT_GAPS_M)
     t_op = req.temp_max_k
+    # per row: |chi| parts at temperature and Br at temperature
+    a_r = np.abs(np.array([TH.chi_at(cat.mats[int(i)].chi_vertical, cat.mats[int(i)].temp_coeff_per_k, t_op)
+                           for i in mi_a], dtype=float))
+    b_r = np.abs(np.array([TH.chi_at(cat.mats[int(i)].chi_horizontal, cat.mats[int(i)].temp_coeff_per_k, t_op)
+                           for i in mi_a], dtype=float))
+    br_r = np.array([TH.br_at(cat.grades[int(i)].br_t, cat.grades[int(i)].alpha_br_pct_per_k, t_op)
+                     for i in gi_a], dtype=float)
+    K_r = np.empty((rows.size, 2, 4, 4))
     for (si, t, pk, chi_rec), members in groups.items():
         g = geometry(cat.specs[si], pk, chi_rec)
-        gaps = np.array([float(df.at[i, "gap_m"]) for i in members])
+        gaps = gap_a[members]
         x = np.clip(np.log(gaps), lg[0], lg[-1])
         j = np.clip(np.searchsorted(lg, x) - 1, 0, lg.size - 2)
         f = (x - lg[j]) / (lg[j + 1] - lg[j])
         need = np.unique(np.concatenate([j, j + 1]))
-        K = dict(zip(need.tolist(), g.tilt(t, TILT_GAPS_M[need])))  # only the brackets used
+        tab = np.empty((TILT_GAPS_M.size, 2, 4, 4))
+        tab[need] = g.tilt(t, TILT_GAPS_M[need])  # only the brackets used
         g.save()
-        for n_, i in enumerate(members):
-            mat = cat.mats[int(df.at[i, "mat_index"])]
-            grade = cat.grades[int(df.at[i, "grade_index"])]
-            kk = K[int(j[n_])] * (1 - f[n_]) + K[int(j[n_]) + 1] * f[n_]
-            a = abs(float(TH.chi_at(mat.chi_vertical, mat.temp_coeff_per_k, t_op)))
-            b = abs(float(TH.chi_at(mat.chi_horizontal, mat.temp_coeff_per_k, t_op)))
-            br = float(TH.br_at(grade.br_t, grade.alpha_br_pct_per_k, t_op))
-            k = br ** 2 * (a * kk[0] + b * kk[1])  # about the plate's centre
-            pm = float(df.at[i, "plate_mass_kg"])
-            pl = float(df.at[i, "payload_kg"])
-            m_tot = pm + pl
-            zo = gaps[n_] + t / 2
-            zl = gaps[n_] + t + req.payload_height_m
-            zc = (pm * zo + pl * zl) / m_tot if m_tot > 0 else zo
-            mv = PT.move_pivot(k, zc - zo, float(df.at[i, "weight_n"]))
-            df.at[i, "k_tilt_n_m_per_rad"] = float(min(mv["k_pitch"], mv["k_roll"]))
-            df.at[i, "tilt_stable"] = bool(mv["tilt_stable"])
-            df.at[i, "laterally_stable"] = (bool(df.at[i, "laterally_stable"]) and bool(mv["xp_stable"])
-                                            and bool(mv["yr_stable"]))
-            df.at[i, "tilt_checked"] = True
+        K_r[members] = tab[j] * (1 - f)[:, None, None, None] + tab[j + 1] * f[:, None, None, None]
+    k = br_r[:, None, None] ** 2 * (a_r[:, None, None] * K_r[:, 0] + b_r[:, None, None] * K_r[:, 1])
+    pm = sub["plate_mass_kg"].to_numpy(dtype=float)
+    pl = sub["payload_kg"].to_numpy(dtype=float)
+    m_tot = pm + pl
+    zo = gap_a + t_a / 2
+    zl = gap_a + t_a + req.payload_height_m
+    with np.errstate(invalid="ignore", divide="ignore"):
+        zc = np.where(m_tot > 0, (pm * zo + pl * zl) / np.where(m_tot > 0, m_tot, 1.0), zo)
+    mv = PT.move_pivot(k, zc - zo, sub["weight_n"].to_numpy(dtype=float))
+    df.loc[rows, "k_tilt_n_m_per_rad"] = np.minimum(mv["k_pitch"], mv["k_roll"])
+    df.loc[rows, "tilt_stable"] = np.asarray(mv["tilt_stable"], dtype=bool)
+    df.loc[rows, "laterally_stable"] = (sub["laterally_stable"].to_numpy(dtype=bool)
+                                        & np.asarray(mv["xp_stable"], dtype=bool)
+                                        & np.asarray(mv["yr_stable"], dtype=bool))
+    df.loc[rows, "tilt_checked"] = True

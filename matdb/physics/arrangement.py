@@ -31,9 +31,9 @@ from matdb.errors import InputError
 from matdb.constants import MU0
 from matdb.physics.fields import MagnetSet, as_points
 from matdb.physics.recoil import effective_polarizations, polarization_cells
-from matdb.physics.recoil_field import CorrectionField
+from matdb.physics.recoil_field import CorrectionField, family_field
 
-__all__ = ["Magnet", "Arrangement", "build_arrangement", "SHAPES", "PATTERNS", "SIZE_FORMS"]
+__all__ = ["Magnet", "Arrangement", "build_arrangement", "linear_fields", "SHAPES", "PATTERNS", "SIZE_FORMS"]
 
 SHAPES = ("cuboid", "cylinder", "ring")
 PATTERNS = ("single", "grid", "checkerboard", "stripes", "list")
@@ -278,8 +278,11 @@ class Arrangement:
             return None
         c = self._cache.get("correction")
         if c is None:
+            # the pattern of the magnets' polarisation directions: checkerboards and stripes
+            # of the same magnets keep apart departure tables
+            label = tuple(np.sign(np.round([m.direction for m in self.magnets], 6)).astype(int).ravel().tolist())
             c = CorrectionField(*self.cells[:3], self.bottom_z if self.back_plate else None,
-                                self.top_z, tabulate=self.tabulated, owner=self.cells[3])
+                                self.top_z, tabulate=self.tabulated, owner=self.cells[3], label=label)
             self._cache["correction"] = c
         return c
 
@@ -380,6 +383,66 @@ class Arrangement:
             f = np.array([1.0 / abs(m.br) if m.br != 0 else 0.0 for m in self.magnets])[cells[3]]
             cells = (*cells[:2], cells[2] * f[:, None], cells[3])
         return Arrangement(mags, self.back_plate, self.pattern, self.rows, self.cols, cells, self.tabulated)
+
+
+def linear_fields(arrangements, rtol: float = 1e-12, stacked=None):
+    """One field function for arrangements on recoil lines that differ only in their
+    polarisations (the same magnets and cells; several recoil susceptibilities, say).
+
+    The field is linear in the sources ([1]_ of :mod:`matdb.physics.recoil`: superposition):
+    the magnets' part is the field of ``r`` basis arrangements, ``r`` the rank of the
+    magnets' mean polarisations (singular values below ``rtol`` of the largest dropped),
+    and the cells' departures are read from their shared tables once for all
+    (:func:`matdb.physics.recoil_field.family_field`).
+
+    ``stacked``: a function that returns one field function for the magnets alone (cells
+    removed) or None (then the basis above), e.g.
+    :func:`matdb.physics.plate_tables.stacked_field`.
+
+    Returns
+    -------
+    callable or None
+        ``field(points (n, 3) [m]) -> B (k, n, 3) [T]``; None when some arrangement has no
+        cells or they do not share their tables.
+    """
+    arrs = list(arrangements)
+    if not arrs or any(a.cells is None for a in arrs):
+        return None
+    corr = family_field([a.correction() for a in arrs])
+    if corr is None:
+        return None
+    bare = stacked([replace(a, cells=None) for a in arrs]) if stacked is not None else None
+    if bare is not None:
+        def field_stacked(points) -> np.ndarray:
+            p = as_points(points, "points")
+            out = corr(p)
+            out += bare(p)
+            return out
+
+        return field_stacked
+    V = np.column_stack([np.ravel([m.polarization for m in a.magnets]) for a in arrs])
+    _, sv, zt = np.linalg.svd(V, full_matrices=False)
+    r = int(np.sum(sv > rtol * sv[0])) if sv.size and sv[0] > 0 else 0
+    Z = zt[:r]
+    first = arrs[0]
+    basis = []
+    for u in (V @ Z.T).T:
+        mags = []
+        for m, j in zip(first.magnets, u.reshape(-1, 3)):
+            n = float(np.linalg.norm(j))
+            mags.append(replace(m, direction=tuple(float(c) / n for c in j), br=n) if n > 0
+                        else replace(m, br=0.0))
+        basis.append(Arrangement(tuple(mags), first.back_plate, first.pattern, first.rows, first.cols))
+
+    def field(points) -> np.ndarray:
+        p = as_points(points, "points")
+        out = corr(p)
+        if r:
+            b = np.stack([a.B(p) for a in basis])
+            out += np.einsum("kj,knc->jnc", Z, b)
+        return out
+
+    return field
 
 
 def _footprint(shape: str, size: tuple[float, ...]) -> tuple[float, float]:

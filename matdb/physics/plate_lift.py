@@ -425,11 +425,23 @@ def equilibrium_gap(field: FieldFn, plate: PlateGeometry, chi_perp_abs: float,
     Module references [2] (stable float) and [3] (brentq).
     """
     memo = PlaneMemo(field, plate)
-    top = lift_curve_range(field, plate, chi_perp_abs, chi_par_abs, weight, g_start, 3e-3, order,
-                           memo=memo)
-    gaps = np.geomspace(g_start, top, n_gaps)
+    # the first batch of the curve up to the usual top ends at that top: one field
+    # evaluation checks the range (:func:`lift_curve_range`) and starts the curve
+    top = max(3e-3, g_start + 1e-3)
+    gaps = np.geomspace(g_start, top, n_gaps)  # endpoints exact
     forces = np.full(n_gaps, np.nan)
+    lo = max(n_gaps - EQ_BATCH, 0)
+    forces[lo:] = lift_force(field, plate, gaps[lo:], chi_perp_abs, chi_par_abs, order, memo)
     hi = n_gaps
+    if forces[-1] >= weight:  # still lifting there: extend the range as lift_curve_range does
+        top = lift_curve_range(field, plate, chi_perp_abs, chi_par_abs, weight, g_start, 3e-3,
+                               order, memo=memo)
+        gaps = np.geomspace(g_start, top, n_gaps)
+        forces = np.full(n_gaps, np.nan)
+    elif np.any(forces[lo:] >= weight):
+        hi = 0  # the bracket is in the first batch
+    else:
+        hi = lo
     while hi > 0:
         lo = max(hi - EQ_BATCH, 0)
         forces[lo:hi] = lift_force(field, plate, gaps[lo:hi], chi_perp_abs, chi_par_abs, order,

@@ -50,13 +50,16 @@ References
 
 from __future__ import annotations
 
+import hashlib
 import math
 import threading
 from dataclasses import dataclass
+from pathlib import Path
 from typing import Sequence
 
 import numpy as np
 
+from matdb.paths import cache_root
 from matdb.physics.fields import MagnetSet
 from matdb.physics.quadrature import gauss_legendre
 
@@ -93,6 +96,10 @@ ACCURATE_SUBDIVISION = 5
 MAX_CELLS = 512
 SERIES_MAX = 40  # Neumann-series steps before falling back to LU
 SERIES_TOL = 1e-13  # last step of the series relative to the remanence
+GMRES_COLUMNS = 4  # right-hand sides up to which GMRES replaces LU when the series is slow
+GMRES_TOL = 1e-12  # relative residual of GMRES (I - X A has its spectrum in [1, 1 + chi])
+GMRES_RESTART = 60
+GMRES_MAXITER = 10
 N_QUAD = 5  # Gauss-Legendre points per axis inside a magnet solved as one cell
 N_QUAD_CELL = 3  # ... inside each cell of a subdivided magnet
 N_PHI = 12  # azimuthal points inside cylinders and rings
@@ -101,6 +108,8 @@ _LOCK = threading.Lock()
 _CACHE_MAX = 256
 _A_CACHE: dict = {}  # interaction matrices (tens of MB each): a few
 _A_CACHE_MAX = 4
+KEY_DIGITS = 9  # geometry keys: lengths in units of the largest magnet edge, rounded
+CODE_VERSION = "recoil-2"  # with the source hash: what the stored solutions were computed by
 
 
 @dataclass(frozen=True)
@@ -169,7 +178,20 @@ def cell_counts(size: Sequence[float], n: int) -> tuple[int, int, int]:
 def subdivide(magnets, n: int) -> list[Cell]:
     """Cells of the magnets: each cuboid cut into near-cubic equal cells, ``n`` along its
     longest edge (:func:`cell_counts`), in (x, y, z) index order; cylinders and rings kept
-    whole (axial polarisation only)."""
+    whole (axial polarisation only). (Cached: callers must not change the list.)"""
+    key = ("cells", tuple((m.shape, tuple(m.size), tuple(m.position)) for m in magnets), n)
+    with _LOCK:
+        hit = _CACHE.get(key)
+    if hit is None:
+        hit = _subdivide(magnets, n)
+        with _LOCK:
+            if len(_CACHE) >= _CACHE_MAX:
+                _CACHE.pop(next(iter(_CACHE)))
+            _CACHE[key] = hit
+    return hit
+
+
+def _subdivide(magnets, n: int) -> list[Cell]:
     cells = []
     for i, m in enumerate(magnets):
         size = tuple(float(v) for v in m.size)
@@ -197,9 +219,95 @@ def _subdivision(magnets, subdivision: int | None) -> int:
     return max(n, 1)
 
 
+def length_scale(magnets) -> float:
+    """The arrangement's unit of length: the largest edge or diameter of its magnets [m].
+
+    Magnetostatics has no length of its own: ``B(l r; l geometry) = B(r; geometry)`` for
+    the same polarisations, so the interaction matrix, the recoil response and the
+    departure-field tables are computed on the geometry in this unit and shared by every
+    size of one shape and pattern."""
+    return float(max(max(float(s) for s in m.size) for m in magnets))
+
+
+def _round(v: float) -> float:
+    return round(float(v), KEY_DIGITS) + 0.0
+
+
 def _key(magnets, plate_z) -> tuple:
-    return (tuple((m.shape, tuple(float(s) for s in m.size), tuple(float(p) for p in m.position))
-                  for m in magnets), None if plate_z is None else float(plate_z))
+    """The geometry in units of :func:`length_scale` (rounded): equal for scaled copies."""
+    scale = length_scale(magnets)
+    return (tuple((m.shape, tuple(_round(s / scale) for s in m.size),
+                   tuple(_round(p / scale) for p in m.position)) for m in magnets),
+            None if plate_z is None else _round(plate_z / scale))
+
+
+def _scaled_cells(cells, scale: float) -> list[Cell]:
+    return [Cell(c.shape, tuple(s / scale for s in c.size), tuple(p / scale for p in c.position), c.magnet)
+            for c in cells]
+
+
+_FINGERPRINT: str | None = None
+
+
+def code_fingerprint() -> str:
+    """Hash of the source of the field and recoil modules: stored solutions and tables
+    computed by other code are never read."""
+    global _FINGERPRINT
+    if _FINGERPRINT is None:
+        here = Path(__file__).resolve().parent
+        h = hashlib.sha256(CODE_VERSION.encode())
+        for f in [here / "recoil.py", here / "recoil_field.py", *sorted((here / "fields").glob("*.py"))]:
+            h.update(f.name.encode())
+            h.update(f.read_bytes())
+        _FINGERPRINT = h.hexdigest()[:16]
+    return _FINGERPRINT
+
+
+_DISKS: dict = {}
+
+
+def disk_cache():
+    """The on-disk store of recoil solutions and departure-field tables
+    (:func:`matdb.paths.cache_root` / ``recoil``; one :class:`diskcache.Cache` per folder
+    and process), or None when it cannot be opened (then everything is recomputed)."""
+    folder = str(cache_root() / "recoil")
+    with _LOCK:
+        if folder not in _DISKS:
+            try:
+                import diskcache  # lazy: only when a subdivided model is solved
+
+                _DISKS[folder] = diskcache.Cache(folder)
+            except Exception:  # an unusable cache folder: compute without one
+                _DISKS[folder] = None
+        return _DISKS[folder]
+
+
+def disk_folder() -> Path | None:
+    """Folder of the departure-field tables' values (beside :func:`disk_cache`), or None
+    when there is no usable cache."""
+    return None if disk_cache() is None else cache_root() / "recoil" / "tables"
+
+
+def disk_get(key: str):
+    """A stored value, or None (missing, unreadable or damaged: recomputed, never trusted)."""
+    c = disk_cache()
+    if c is None:
+        return None
+    try:
+        return c.get(key)
+    except Exception:
+        return None
+
+
+def disk_set(key: str, value) -> None:
+    """Store ``value`` (a failure to write only costs a recomputation later)."""
+    c = disk_cache()
+    if c is None:
+        return
+    try:
+        c.set(key, value)
+    except Exception:
+        pass
 
 
 def interaction_matrix(cells, plate_z: float | None = None, n: int = N_QUAD) -> np.ndarray:
@@ -269,15 +377,18 @@ def interaction_matrix(cells, plate_z: float | None = None, n: int = N_QUAD) -> 
     return A
 
 
-def _solve(K: np.ndarray, E: np.ndarray) -> np.ndarray:
+def _solve(K: np.ndarray, E: np.ndarray, x: float | None = None) -> np.ndarray:
     """``(I - K)^-1 E`` for ``K = X A``: by the Neumann series ``R <- E + K R`` while it
     contracts fast (small recoil susceptibility: a few matrix products instead of a
-    factorisation), else by LU (numpy.linalg.solve)."""
+    factorisation), else by LU (numpy.linalg.solve). ``x``: ``K`` is ``x A`` with ``A``
+    given as ``K`` (one susceptibility: the product is not formed)."""
     R = E.copy()
     scale = float(np.max(np.abs(E)))
     prev = np.inf
-    for _ in range(SERIES_MAX):
+    for _ in range(SERIES_MAX if E.shape[1] > GMRES_COLUMNS else 0):
         nxt = K @ R
+        if x is not None:
+            nxt *= x
         nxt += E
         step = float(np.max(np.abs(nxt - R)))
         R = nxt
@@ -286,49 +397,95 @@ def _solve(K: np.ndarray, E: np.ndarray) -> np.ndarray:
         if step > 0.5 * prev:  # slow or diverging: factorise instead
             break
         prev = step
-    M = -K
+    if E.shape[1] <= GMRES_COLUMNS:  # few right-hand sides: Krylov iterations, no factorisation
+        from scipy.sparse.linalg import LinearOperator, gmres  # lazy: only for large chi_rec
+
+        f = 1.0 if x is None else x
+        op = LinearOperator(K.shape, matvec=lambda v: v - f * (K @ v), dtype=float)
+        cols = []
+        for j in range(E.shape[1]):
+            sol, info = gmres(op, E[:, j], x0=E[:, j].copy(), rtol=GMRES_TOL, atol=0.0,
+                              restart=GMRES_RESTART, maxiter=GMRES_MAXITER)
+            if info != 0:
+                break
+            cols.append(sol)
+        else:
+            return np.column_stack(cols)
+    M = -K if x is None else K * -x
     M[np.diag_indices_from(M)] += 1.0
     return np.linalg.solve(M, E)
 
 
-def _cell_response(magnets, chis: tuple, plate_z: float | None, n: int):
-    """Cells and ``R`` (3 n_cell, 3 n_mag): cell polarisations ``J = R J_r`` (cached)."""
+def _cell_response(magnets, chis: tuple, plate_z: float | None, n: int, jr: np.ndarray | None = None):
+    """Cells and ``R`` (3 n_cell, 3 n_mag): cell polarisations ``J = R J_r`` (cached in
+    memory by the geometry in units of :func:`length_scale`, and on disk when the magnets
+    are subdivided). With ``jr`` (the magnets' remanent polarisations, (3 n_mag,)): the
+    cells' polarisations for it alone, (3 n_cell,) (one right-hand side, solved for its
+    direction and cached by it: every uniform scaling of the remanences, such as a
+    temperature or the minimum-spec worst case, shares it)."""
     mags = list(magnets)
-    key = (_key(mags, plate_z), chis, n)
+    gkey = _key(mags, plate_z)
+    size = 1.0
+    if jr is not None:
+        size = float(np.max(np.abs(jr)))
+        if size == 0.0:
+            cells = subdivide(mags, n)
+            return cells, np.array([c.magnet for c in cells]), np.zeros(3 * len(cells))
+        jr = np.asarray(jr, dtype=float) / size
+    key = (gkey, chis, n, None if jr is None else tuple(np.round(jr, 12) + 0.0))
     with _LOCK:
         hit = _CACHE.get(key)
-    if hit is not None:
-        return hit
     cells = subdivide(mags, n)
+    if hit is not None:
+        return cells, hit[0], hit[1] * size
     nc, nm = len(cells), len(mags)
-    akey = ("A", key[0], n)  # independent of the susceptibilities: shared by every grade
+    owner = np.array([c.magnet for c in cells])
+    shape = (3 * nc, 3 * nm) if jr is None else (3 * nc,)
+    dkey = None
+    if nc > nm:  # a subdivided solve (seconds at most): kept on disk too
+        dkey = "response-" + hashlib.sha256(repr((key, code_fingerprint())).encode()).hexdigest()[:32]
+        got = disk_get(dkey)
+        if isinstance(got, np.ndarray) and got.shape == shape:
+            with _LOCK:
+                _CACHE[key] = (owner, got)
+            return cells, owner, got * size
+    akey = ("A", gkey, n)  # independent of the susceptibilities: shared by every grade
     with _LOCK:
         A = _A_CACHE.get(akey)
     if A is None:
-        A = interaction_matrix(cells, plate_z, N_QUAD if n == 1 else N_QUAD_CELL).reshape(3 * nc, 3 * nc)
+        scale = length_scale(mags)  # dimensionless: computed on the geometry in that unit
+        A = interaction_matrix(_scaled_cells(cells, scale), None if plate_z is None else plate_z / scale,
+                               N_QUAD if n == 1 else N_QUAD_CELL).reshape(3 * nc, 3 * nc)
         with _LOCK:
             if len(_A_CACHE) >= _A_CACHE_MAX:
                 _A_CACHE.pop(next(iter(_A_CACHE)))
             _A_CACHE[akey] = A
-    owner = np.array([c.magnet for c in cells])
     free = np.ones(3 * nc, dtype=bool)
     for i, c in enumerate(cells):
         if c.shape != "cuboid":
             free[3 * i:3 * i + 2] = False
-    X = np.repeat(np.asarray(chis)[owner], 3) * free  # transverse rows of cylinders: none
-    K = X[:, None] * A
-    if not free.all():
-        K[:, ~free] = 0.0
     E = np.zeros((3 * nc, 3 * nm))  # each cell starts from its magnet's remanence
     rows = np.arange(3 * nc)
     E[rows, 3 * np.repeat(owner, 3) + np.tile(np.arange(3), nc)] = 1.0
-    R = _solve(K, E)
-    out = (cells, owner, R)
+    if jr is not None:
+        E = E @ jr[:, None]
+    if free.all() and len(set(chis)) == 1:  # one susceptibility: K = chi A, never formed
+        R = _solve(A, E, float(chis[0]))
+    else:
+        X = np.repeat(np.asarray(chis)[owner], 3) * free  # transverse rows of cylinders: none
+        K = X[:, None] * A
+        if not free.all():
+            K[:, ~free] = 0.0
+        R = _solve(K, E)
+    if jr is not None:
+        R = R[:, 0]
     with _LOCK:
         if len(_CACHE) >= _CACHE_MAX:
             _CACHE.pop(next(iter(_CACHE)))
-        _CACHE[key] = out
-    return out
+        _CACHE[key] = (owner, R)
+    if dkey is not None:
+        disk_set(dkey, R)
+    return cells, owner, R * size
 
 
 def response_matrix(magnets, chis: Sequence[float], plate_z: float | None = None,
@@ -381,9 +538,19 @@ def effective_polarizations(magnets, chis: Sequence[float], plate_z: float | Non
     .. [1] O. Chadebec, J.-L. Coulomb and F. Janet, IEEE Trans. Magn. 42, 515 (2006).
     """
     mags = list(magnets)
+    n = _subdivision(mags, subdivision)
     jr = np.array([m.polarization for m in mags], dtype=float).ravel()
-    s = response_matrix(mags, chis, plate_z, subdivision)
-    return (s @ jr).reshape(-1, 3)
+    _, owner, J = _cell_response(mags, tuple(float(c) for c in chis), plate_z, n, jr)
+    return _means(J, owner, len(mags))
+
+
+def _means(J: np.ndarray, owner: np.ndarray, count: int) -> np.ndarray:
+    """Each magnet's mean over its (equal) cells, (count, 3)."""
+    J = J.reshape(-1, 3)
+    per = np.bincount(owner, minlength=count).astype(float)
+    out = np.zeros((count, 3))
+    np.add.at(out, owner, J)
+    return out / per[:, None]
 
 
 def polarization_cells(magnets, chis: Sequence[float], plate_z: float | None = None,
@@ -404,10 +571,10 @@ def polarization_cells(magnets, chis: Sequence[float], plate_z: float | None = N
     if n == 1 or not any(m.shape == "cuboid" for m in mags):
         return None
     chis_t = tuple(float(c) for c in chis)
-    cells, owner, R = _cell_response(mags, chis_t, plate_z, n)
     jr = np.array([m.polarization for m in mags], dtype=float).ravel()
-    J = (R @ jr).reshape(-1, 3)
-    mean = effective_polarizations(mags, chis_t, plate_z, n)
+    cells, owner, J = _cell_response(mags, chis_t, plate_z, n, jr)
+    J = J.reshape(-1, 3)
+    mean = _means(J, owner, len(mags))
     per = np.bincount(owner, minlength=len(mags))
     sel = np.array([c.shape == "cuboid" for c in cells]) & (per[owner] > 1)
     sizes = np.array([c.size for c, k in zip(cells, sel) if k], dtype=float)

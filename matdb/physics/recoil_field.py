@@ -43,46 +43,59 @@ from __future__ import annotations
 
 import hashlib
 import math
+import os
 import threading
 
 import numpy as np
 from scipy import fft as sfft
-from scipy import ndimage
 
 from matdb.constants import MU0
 from matdb.physics.fields import MagnetSet, dipole_B
+from matdb.physics.recoil import code_fingerprint, disk_folder, disk_get, disk_set
 
-__all__ = ["CorrectionField", "SPACING_M", "clear_tables"]
+__all__ = ["CorrectionField", "family_field", "CELL_NODES", "BASIS_TOL", "clear_tables", "table_count"]
 
-#: Largest horizontal grid spacing of a table [m]; smaller for small cells (an eighth of
-#: the smallest cell's width) and larger when the grid would exceed :data:`MAX_GRID`.
-SPACING_M = 2.5e-4
-#: Order of the spline interpolation between the tabulated values (1: trilinear).
-ORDER = 1
+#: Horizontal grid nodes per cell width (the grid spacing ``h`` is the narrowest cell's
+#: width over this; coarser when the grid would exceed :data:`MAX_GRID`).
+CELL_NODES = 10
 #: Height levels transformed together.
 LEVEL_CHUNK = 8
 #: Largest FFT grid per axis.
 MAX_GRID = 768
 #: Relative spacing of the height levels (geometric above the first, ``h``).
 Z_RATIO = 0.12
-#: Horizontal margin of the table around the magnets [m] (and at least this fraction of
-#: the magnets' extent).
-MARGIN_M = 5e-3
+#: Horizontal margin of the table around the magnets, in units of the largest magnet edge
+#: (and at least this fraction of the magnets' extent).
+MARGIN_L = 0.8
 MARGIN_FRAC = 0.35
-#: Height of the table above the top face [m] (and at least twice the magnets' extent).
-HEIGHT_M = 5e-2
+#: Height of the table above the top face, in units of the largest magnet edge (and at
+#: least twice the magnets' extent).
+HEIGHT_L = 4.0
 #: Beyond this many times the largest magnet's extent from the magnets, the cells are
 #: point dipoles (:meth:`CorrectionField.far_set`).
 FAR_FACTOR = 1.0
-_TABLES: dict = {}
+#: Departures are combined from the tables of earlier ones when their part outside the
+#: span of those (2-norm over the cells) is below this fraction of their norm; otherwise
+#: that part gets a table of its own. Tested error bound: see ``tests/test_recoil.py``.
+BASIS_TOL = 2e-2
+_BASES: dict = {}  # departure bases, by geometry in units of the magnet size
+_SHARED: dict = {}  # exact sources and dipoles, by real geometry and departures
 _LOCK = threading.Lock()
-_TABLES_MAX = 8
+_BASES_MAX = 16
+_SHARED_MAX = 32
+_BUILT = [0]  # basis tables computed by this process (table_count)
 
 
 def clear_tables() -> None:
-    """Forget every cached table."""
+    """Forget every table held in memory (the disk cache stays)."""
     with _LOCK:
-        _TABLES.clear()
+        _BASES.clear()
+        _SHARED.clear()
+
+
+def table_count() -> int:
+    """How many basis tables this process has computed (not read from disk)."""
+    return _BUILT[0]
 
 
 def _sources(sizes, centres, dj, plate_z):
@@ -97,14 +110,15 @@ def _sources(sizes, centres, dj, plate_z):
 
 
 class _Table:
-    """Cubic B-spline coefficients of the departure field on (x, y, level) (SI)."""
+    """The departure field of unit departures on (level, x, y) nodes, in units of the
+    geometry's largest magnet edge (float32)."""
 
     def __init__(self, sizes, centres, dj, top_z):
         lo = (centres - sizes / 2).min(axis=0)
         hi = (centres + sizes / 2).max(axis=0)
         extent = float(max(hi[0] - lo[0], hi[1] - lo[1]))
-        margin = max(MARGIN_M, MARGIN_FRAC * extent)
-        h = min(SPACING_M, float(np.min(sizes[:, :2])) / 8.0)
+        margin = max(MARGIN_L, MARGIN_FRAC * extent)
+        h = float(np.min(sizes[:, :2])) / CELL_NODES
         box_w = extent + 2 * margin
         period = box_w + extent + margin
         while period / h > MAX_GRID:
@@ -119,7 +133,7 @@ class _Table:
         self.origin = mid - half * h
         self.top = float(top_z)
         self.z0 = h
-        z_span = max(HEIGHT_M, 2 * extent)
+        z_span = max(HEIGHT_L, 2 * extent)
         nz = int(math.ceil(math.log1p(z_span / self.z0) / Z_RATIO)) + 1
         self.nz = nz
         self.z_hi = self.top + self.z0 * math.expm1(Z_RATIO * (nz - 1))
@@ -133,20 +147,20 @@ class _Table:
         taper = np.cos(0.5 * np.pi * t) ** 2
         taper[kabs >= k_nyq] = 0.0
         spec = spec * (taper / h ** 2)[:, :, None]
-        # (component, level, x, y): points of one horizontal plane (a plate's quadrature)
-        # then read two neighbouring levels, which stay in cache
-        coef = np.empty((3, nz, self.nb[0], self.nb[1]), dtype=np.float32)
+        # (component, k_y, k_x), float32: the first inverse transform along contiguous memory
+        spec = np.ascontiguousarray(np.transpose(spec, (2, 1, 0)), dtype=np.complex64)
+        kabs_t = np.ascontiguousarray(kabs.T, dtype=np.float32)
+        # (level, x, y, component): the eight corners of a point's cell are eight rows of
+        # a (nodes, components) matrix, gathered for every table of the geometry at once
+        coef = np.empty((nz, self.nb[0], self.nb[1], 3), dtype=np.float32)
         for j0 in range(0, nz, LEVEL_CHUNK):  # a few levels at a time: bounded memory
-            zl = levels[j0:j0 + LEVEL_CHUNK]
-            lev = spec[None] * np.exp(-kabs[None] * zl[:, None, None])[..., None]
+            zl = levels[j0:j0 + LEVEL_CHUNK].astype(np.float32)
+            lev = spec[None] * np.exp(-kabs_t[None] * zl[:, None, None])[:, None]  # (l, c, ky, kx)
             # inverse along x, keep the table's rows, then along y (half spectrum)
-            lev = sfft.ifft(lev, axis=1, workers=-1)[:, :self.nb[0]]
-            vals = sfft.irfft(lev, n=n, axis=2, workers=-1)[:, :, :self.nb[1]]
-            coef[:, j0:j0 + zl.size] = np.moveaxis(vals, 3, 0)
-        self.order = ORDER
-        if ORDER > 1:
-            for c in range(3):
-                coef[c] = ndimage.spline_filter(coef[c], order=ORDER, mode="nearest")
+            lev = sfft.ifft(lev, axis=3, workers=1)[..., :self.nb[0]]
+            lev = np.ascontiguousarray(np.swapaxes(lev, 2, 3))  # (l, c, x, ky)
+            vals = sfft.irfft(lev, n=n, axis=3, workers=1)[..., :self.nb[1]]  # (l, c, x, y)
+            coef[j0:j0 + zl.size] = np.moveaxis(vals, 1, 3)
         self.coef = coef
 
     def _spectrum(self, sizes, centres, dj, n):
@@ -196,16 +210,159 @@ class _Table:
         return ((fx >= 0) & (fx <= self.nb[0] - 1) & (fy >= 0) & (fy <= self.nb[1] - 1)
                 & (p[:, 2] > self.top) & (p[:, 2] <= self.z_hi))
 
-    def __call__(self, p: np.ndarray) -> np.ndarray:
-        coords = np.empty((3, p.shape[0]))
-        coords[0] = np.log1p((p[:, 2] - self.top) / self.z0) / Z_RATIO
-        coords[1] = (p[:, 0] - self.origin[0]) / self.h
-        coords[2] = (p[:, 1] - self.origin[1]) / self.h
-        out = np.empty((p.shape[0], 3))  # float32 table, float64 result
-        for c in range(3):
-            out[:, c] = ndimage.map_coordinates(self.coef[c], coords, order=self.order, mode="nearest",
-                                                prefilter=False)
+    def __getstate__(self) -> dict:  # the grid only: the values are stored as .npy
+        state = dict(self.__dict__)
+        state["coef"] = None
+        return state
+
+    def values(self) -> np.ndarray:
+        """The tabulated field as (nodes, 3) [T per T of departure]."""
+        return self.coef.reshape(-1, 3)
+
+    def gather(self, q: np.ndarray, values) -> np.ndarray:
+        """Trilinear interpolation (in x, y and the level index) of ``values``, a list of
+        (nodes, m_j) arrays (tables on this grid), at points ``q`` (n, 3) in the table's
+        units (inside :meth:`covers`); (n, sum m_j)."""
+        f = np.empty((3, q.shape[0]))
+        f[0] = np.log1p(np.maximum(q[:, 2] - self.top, 0.0) / self.z0) / Z_RATIO
+        f[1] = (q[:, 0] - self.origin[0]) / self.h
+        f[2] = (q[:, 1] - self.origin[1]) / self.h
+        dims = np.array([self.nz, self.nb[0], self.nb[1]])
+        np.clip(f, 0.0, (dims - 1)[:, None], out=f)
+        i = np.minimum(f.astype(np.intp), (dims - 2)[:, None])
+        t = f - i
+        base = (i[0] * dims[1] + i[1]) * dims[2] + i[2]
+        sz, sx = int(dims[1] * dims[2]), int(dims[2])
+        widths = np.cumsum([0] + [v.shape[1] for v in values])
+        out = np.zeros((q.shape[0], int(widths[-1])))
+        for dz, wz in ((0, 1.0 - t[0]), (sz, t[0])):
+            for dx, wx in ((0, 1.0 - t[1]), (sx, t[1])):
+                w = wz * wx
+                w0 = (w * (1.0 - t[2]))[:, None]
+                w1 = (w * t[2])[:, None]
+                k = base + (dz + dx)
+                for v, a, b in zip(values, widths[:-1], widths[1:]):
+                    out[:, a:b] += w0 * v[k]
+                    out[:, a:b] += w1 * v[k + 1]
         return out
+
+    def __call__(self, p: np.ndarray) -> np.ndarray:
+        """The tabulated field at ``p`` (n, 3) in the table's units, (n, 3)."""
+        return self.gather(p, [self.values()])
+
+
+def _hash(*arrays, extra=()) -> str:
+    h = hashlib.sha1()
+    for a in arrays:
+        h.update(np.ascontiguousarray(a, dtype=float).tobytes())
+    h.update(repr(extra).encode())
+    return h.hexdigest()
+
+
+def _store(key: str, vid: str, table: "_Table") -> None:
+    """Keep a table on disk: its grid in the disk cache, its values as a .npy file
+    (written whole, then renamed: a reader never sees half a file)."""
+    folder = disk_folder()
+    if folder is None:
+        return
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+        path = folder / f"{key}-{vid}.npy"
+        tmp = path.with_suffix(f".{os.getpid()}.{threading.get_ident()}.tmp")
+        with open(tmp, "wb") as fh:
+            np.save(fh, table.coef)
+        os.replace(tmp, path)
+    except OSError:  # a cache that cannot be written only costs a recomputation later
+        return
+    disk_set(f"rtable-{key}-{vid}", table)
+
+
+def _fetch(key: str, vid: str):
+    """A stored table, or None (missing or damaged: recomputed, never trusted)."""
+    folder = disk_folder()
+    meta = disk_get(f"rtable-{key}-{vid}")
+    if folder is None or not isinstance(meta, _Table):
+        return None
+    try:
+        coef = np.load(folder / f"{key}-{vid}.npy", allow_pickle=False)
+    except (OSError, ValueError):
+        return None
+    if coef.dtype != np.float32 or coef.shape != (meta.nz, int(meta.nb[0]), int(meta.nb[1]), 3):
+        return None
+    meta.coef = coef
+    return meta
+
+
+class _Basis:
+    """The departure tables of one geometry, in units of its largest magnet edge.
+
+    ``vectors`` are orthonormal departure patterns over the cells (rows), each with the
+    table of its field; a departure ``v`` is read as ``sum_j (u_j . v) T_j`` when its part
+    outside their span is below :data:`BASIS_TOL` of its norm, and otherwise that part
+    becomes a new vector with its own table. The departures of one geometry for every
+    recoil susceptibility lie close to a space of one or two dimensions (the Neumann
+    series ``sum_k chi^k (X A)^k`` is dominated by its first terms, and the departures of
+    large susceptibilities are near their span too), so one or two tables serve every
+    grade of every catalogue size of one shape and pattern. Stored on disk by key
+    (:func:`matdb.physics.recoil.disk_cache`)."""
+
+    def __init__(self, key: str, sizes, centres, plate_z, top_z):
+        self.key = key
+        self.sizes, self.centres, self.plate_z, self.top_z = sizes, centres, plate_z, top_z
+        self.vectors: list[np.ndarray] = []
+        self.ids: list[str] = []
+        self.tables: list = []
+        self.lock = threading.Lock()
+        got = disk_get(f"rbasis-{key}")
+        n = 3 * sizes.shape[0]
+        if isinstance(got, list) and all(isinstance(g, tuple) and len(g) == 2 for g in got):
+            for vid, vec in got:
+                if isinstance(vec, np.ndarray) and vec.shape == (n,):
+                    self.ids.append(str(vid))
+                    self.vectors.append(vec)
+                    self.tables.append(None)
+
+    def coefficients(self, v: np.ndarray) -> np.ndarray:
+        """``c`` with ``v ~ sum_j c_j u_j`` (a new vector and table when needed)."""
+        with self.lock:
+            U = np.array(self.vectors) if self.vectors else np.zeros((0, v.size))
+            c = U @ v
+            r = v - c @ U
+            nv = float(np.linalg.norm(v))
+            if nv == 0.0 or float(np.linalg.norm(r)) <= BASIS_TOL * nv:
+                return c
+            r -= (U @ r) @ U  # once more: orthogonal to rounding
+            u = r / float(np.linalg.norm(r))
+            vid = _hash(u)[:16]
+            table = _Table(*_sources(self.sizes, self.centres, u.reshape(-1, 3), self.plate_z), self.top_z)
+            _BUILT[0] += 1
+            self.vectors.append(u)
+            self.ids.append(vid)
+            self.tables.append(table)
+            _store(self.key, vid, table)
+            disk_set(f"rbasis-{self.key}", list(zip(self.ids, self.vectors)))
+            return np.append(c, float(u @ v))
+
+    def grid(self) -> "_Table":
+        """The first table: the grid every table of this geometry shares."""
+        return self.table(0)
+
+    def values(self) -> list[np.ndarray]:
+        """Every table's values, (nodes, 3) float32 each."""
+        return [self.table(i).values() for i in range(len(self.vectors))]
+
+    def table(self, i: int) -> "_Table":
+        with self.lock:
+            t = self.tables[i]
+            if t is None:
+                t = _fetch(self.key, self.ids[i])
+                if t is None:  # lost from the disk cache: recompute the same vector's table
+                    t = _Table(*_sources(self.sizes, self.centres, self.vectors[i].reshape(-1, 3),
+                                         self.plate_z), self.top_z)
+                    _BUILT[0] += 1
+                    _store(self.key, self.ids[i], t)
+                self.tables[i] = t
+            return t
 
 
 class CorrectionField:
@@ -223,13 +380,21 @@ class CorrectionField:
         Highest top face of the magnets [m]; the table holds points above it.
     tabulate : bool
         False: always the exact cell field.
+    owner : ndarray (k,), optional
+        Magnet of each cell (default: all one magnet).
+    label : tuple
+        Fields of the same cells whose departures differ in kind (the magnets' pattern of
+        polarisations) keep apart tables under different labels.
 
-    The table is built on first use and shared (by content, up to a common factor) by
-    every field whose departures are proportional: one table serves every remanence and
-    temperature of a geometry.
+    The tables are built on first use on the geometry in units of its largest magnet
+    (:attr:`scale`; the field of a scaled geometry is the same function of the scaled
+    position) and shared by every field of that geometry whose departures lie in the span
+    of the tables' departures (:class:`_Basis`): every remanence and temperature, every
+    recoil susceptibility, every catalogue size of one shape and pattern.
     """
 
-    def __init__(self, sizes, centres, dj, plate_z, top_z, tabulate: bool = True, owner=None):
+    def __init__(self, sizes, centres, dj, plate_z, top_z, tabulate: bool = True, owner=None,
+                 label=()):
         self.sizes = np.asarray(sizes, dtype=float)
         self.centres = np.asarray(centres, dtype=float)
         self.dj = np.asarray(dj, dtype=float)
@@ -237,30 +402,70 @@ class CorrectionField:
         self.plate_z = None if plate_z is None else float(plate_z)
         self.top_z = float(top_z)
         self.tabulate = bool(tabulate)
+        self.label = tuple(label)
         self._exact = None
+        self._sh = None
+        self._cmat = None
+        self._b = None
         self._norm = float(np.max(np.abs(self.dj))) if self.dj.size else 0.0
+        if self.sizes.size:
+            lo, hi = self.centres - self.sizes / 2, self.centres + self.sizes / 2
+            self.scale = max(float(np.max(hi[self.owner == m].max(axis=0) - lo[self.owner == m].min(axis=0)))
+                             for m in np.unique(self.owner))
+        else:
+            self.scale = 1.0
 
-    def _key(self) -> str:
-        hsh = hashlib.sha1()
-        for a in (self.sizes, self.centres, np.round(self.dj / self._norm, 12) + 0.0):
-            hsh.update(np.ascontiguousarray(a).tobytes())
-        hsh.update(repr((self.plate_z, self.top_z)).encode())
-        return hsh.hexdigest()
+    def _basis(self) -> _Basis:
+        L = self.scale
+        geo = [np.round(a / L, 9) + 0.0 for a in (self.sizes, self.centres)]
+        pz = None if self.plate_z is None else round(self.plate_z / L, 9) + 0.0
+        tz = round(self.top_z / L, 9) + 0.0
+        key = _hash(*geo, extra=(self.label, pz, tz, code_fingerprint(), CELL_NODES, Z_RATIO, MAX_GRID,
+                                 MARGIN_L, MARGIN_FRAC, HEIGHT_L))[:32]
+        with _LOCK:
+            b = _BASES.get(key)
+            if b is None:
+                if len(_BASES) >= _BASES_MAX:
+                    _BASES.pop(next(iter(_BASES)))
+                b = _BASES[key] = _Basis(key, *geo, pz, tz)
+        return b
 
     def _shared(self) -> "_Shared":
-        key = self._key()
-        with _LOCK:
-            sh = _TABLES.get(key)
-            if sh is None:
-                if len(_TABLES) >= _TABLES_MAX:
-                    _TABLES.pop(next(iter(_TABLES)))
-                sh = _TABLES[key] = _Shared(self.sizes, self.centres, self.dj / self._norm,
-                                            self.plate_z, self.top_z, self.owner)
-        return sh
+        if self._sh is None:
+            key = _hash(self.sizes, self.centres, np.round(self.dj / self._norm, 12) + 0.0,
+                        extra=(self.plate_z, self.top_z))
+            with _LOCK:
+                sh = _SHARED.get(key)
+                if sh is None:
+                    if len(_SHARED) >= _SHARED_MAX:
+                        _SHARED.pop(next(iter(_SHARED)))
+                    sh = _SHARED[key] = _Shared(self.sizes, self.centres, self.dj / self._norm,
+                                                self.plate_z, self.top_z, self.owner)
+            self._sh = sh
+        return self._sh
+
+    def coefficients(self) -> np.ndarray:
+        """``C`` (3 K, 3): the departure field is ``gather(q) @ C`` (:meth:`_Basis.values`)."""
+        if self._cmat is None:
+            b = self._basis()
+            c = b.coefficients(self.dj.ravel() / self._norm)
+            self._cmat = np.kron(c[:, None], np.eye(3)) * self._norm
+            self._b = b
+        return self._cmat
 
     def table(self) -> _Table:
-        """The shared table of these departures at unit scale (built on first use)."""
-        return self._shared().table()
+        """The grid shared by the tables of this geometry (in units of :attr:`scale`; built
+        on first use)."""
+        self.coefficients()
+        return self._b.grid()
+
+    def _tabulated(self, p: np.ndarray, inside: np.ndarray, out: np.ndarray, cmats) -> None:
+        """Fill ``out[j][inside]`` with the tabulated fields of ``cmats[j]``."""
+        q = p[inside] / self.scale
+        k = max(c.shape[0] for c in cmats) // 3  # the basis may have grown since
+        g = self._b.grid().gather(q, self._b.values()[:k])
+        for o, c in zip(out, cmats):
+            o[inside] = g[:, :c.shape[0]] @ c
 
     def exact_set(self) -> MagnetSet:
         """The cells (and images) as cuboid sources."""
@@ -282,35 +487,54 @@ class CorrectionField:
             return np.zeros_like(p)
         if not self.tabulate:
             return self.exact_set().B(p)
-        sh = self._shared()
-        t = sh.table()
-        inside = t.covers(p)
-        if inside.all():
-            return t(p) * self._norm
+        cmat = self.coefficients()
+        inside = self.table().covers(p / self.scale)
         out = np.empty_like(p)
-        out[inside] = t(p[inside]) * self._norm
+        self._tabulated(p, inside, [out], [cmat])
         rest = ~inside
         if rest.any():
-            out[rest] = sh.outside(p[rest]) * self._norm
+            out[rest] = self._shared().outside(p[rest]) * self._norm
         return out
 
 
+def family_field(fields):
+    """One function for the departure fields of several :class:`CorrectionField` s of one
+    geometry (each tabulated): ``field(p (n, 3) [m]) -> (k, n, 3) [T]``, the tables read
+    once for all of them; None when they do not share their tables."""
+    fs = list(fields)
+    if not fs or any((not f.tabulate) or f._norm == 0.0 for f in fs):
+        return None
+    # the largest departures first (the strongest recoil): the smaller ones then mostly lie
+    # in the span of the first and one more, so fewer tables are built
+    for i in np.argsort([-f._norm for f in fs], kind="stable"):
+        fs[i].coefficients()
+    cm = [f.coefficients() for f in fs]
+    b = fs[0]._b
+    if any(f._b is not b or f.scale != fs[0].scale for f in fs):
+        return None
+    first = fs[0]
+
+    def field(p: np.ndarray) -> np.ndarray:
+        out = np.empty((len(fs),) + p.shape)
+        inside = first.table().covers(p / first.scale)
+        first._tabulated(p, inside, out, cm)
+        rest = ~inside
+        if rest.any():
+            for o, f in zip(out, fs):
+                o[rest] = f._shared().outside(p[rest]) * f._norm
+        return out
+
+    return field
+
+
 class _Shared:
-    """What every field of proportional departures shares, at unit scale: the table, the
-    cells as sources, the cells as point dipoles."""
+    """What every field of proportional departures shares, at unit scale: the cells as
+    sources and as point dipoles."""
 
     def __init__(self, sizes, centres, dj, plate_z, top_z, owner):
         self.sizes, self.centres, self.dj = sizes, centres, dj
         self.plate_z, self.top_z, self.owner = plate_z, top_z, owner
-        self._table = self._exact = self._far = None
-        self._lock = threading.Lock()
-
-    def table(self) -> _Table:
-        with self._lock:
-            if self._table is None:
-                s, c, d = _sources(self.sizes, self.centres, self.dj, self.plate_z)
-                self._table = _Table(s, c, d, self.top_z)
-        return self._table
+        self._exact = self._far = None
 
     def exact(self) -> MagnetSet:
         if self._exact is None:

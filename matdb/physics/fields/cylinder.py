@@ -281,7 +281,8 @@ def _cyl_core(p: np.ndarray, radius, half_h, jz, centre, ell) -> np.ndarray:
     c2 *= zz  # beta cel
     if any_rim:
         c2[rim] = 0.0  # z_+- = 0 on the rim: beta K -> 0
-    half_ja = 0.5 * jz * radius  # J / pi times the pi / 2 of cel, times a
+    multi = np.ndim(jz) == 2  # k polarisation sets (k, m): unit fields, weighted at the end
+    half_ja = 0.5 * radius if multi else 0.5 * jz * radius  # J / pi times the pi / 2 of cel, times a
     b_rho = c1[0] - c1[1]
     b_rho *= half_ja
     b_z = c2[0] - c2[1]
@@ -291,18 +292,22 @@ def _cyl_core(p: np.ndarray, radius, half_h, jz, centre, ell) -> np.ndarray:
         w = np.divide(b_rho, rho, out=b_rho)  # B_rho / rho
     else:  # on an axis: B_rho = 0
         w = np.divide(b_rho, rho, out=np.zeros_like(b_rho), where=rho > 0)
+    if multi:  # (k, n, 3)
+        return np.stack([(w * x) @ jz.T, (w * y) @ jz.T, b_z @ jz.T], axis=-1).transpose(1, 0, 2)
     return np.stack([np.einsum("ij,ij->i", w, x), np.einsum("ij,ij->i", w, y), b_z.sum(axis=1)], axis=1)
 
 
 def _cyl_sum(p: np.ndarray, radii, half_h, jz, positions, ell) -> np.ndarray:
-    out = np.zeros_like(p)
+    """Sum of :func:`_cyl_core` in chunks; ``jz`` (m,) gives (n, 3), a stack (k, m) of
+    polarisation sets gives (k, n, 3) (the field is linear in ``jz``)."""
+    out = np.zeros((*np.shape(jz)[:-1], *p.shape))
     m = radii.shape[0]
     if m == 0 or p.shape[0] == 0:
         return out
     # both end faces are stacked (2, n, m): half the usual chunk keeps each temporary at
     # 64 kB, below the allocator's mmap threshold (measured 2.4x faster than 128 kB)
     for sl in _chunks(p.shape[0], 4 * m):
-        out[sl] = _cyl_core(p[sl], radii, half_h, jz, positions, ell)
+        out[..., sl, :] = _cyl_core(p[sl], radii, half_h, jz, positions, ell)
     return out
 
 
