@@ -14,6 +14,12 @@ person's browser keeps the page's scripts; ``--repeats`` of them, min and median
 with the CPU seconds of the browser and the server, which the load does not change);
 "restart": a new server on the same results cache (the persistent cache, without the server's memory). Run alone:
 ``python scripts/bench_browser.py [--repeats N]``.
+
+``--breakdown``: instead, what the browser spends a warm first render of each page on: the
+page's elements by kind (charts, tables, widgets, DOM nodes), Chromium's own counters for the
+tab (DevTools protocol ``Performance.getMetrics``: script, layout and style time) and the CPU
+seconds of each kind of browser process (the tab's renderer, the GPU process drawing in
+software, the browser process).
 """
 
 from __future__ import annotations
@@ -126,6 +132,85 @@ def _open_candidate(tabs, base: str) -> float:
         page.close()
 
 
+# elements on the page by kind (Streamlit marks each with data-testid)
+COUNT_JS = """() => {
+  const ids = {};
+  for (const el of document.querySelectorAll('[data-testid]')) {
+    const t = el.getAttribute('data-testid'); ids[t] = (ids[t] || 0) + 1; }
+  const out = {dom_nodes: document.querySelectorAll('*').length, svg_nodes: document.querySelectorAll('svg *').length,
+               canvases: document.querySelectorAll('canvas').length};
+  for (const k of ['stVegaLiteChart', 'stDataFrame', 'stElementContainer', 'stMarkdown', 'stCaptionContainer',
+                   'stTextInput', 'stSelectbox', 'stMultiSelect', 'stNumberInput', 'stButton', 'stDownloadButton',
+                   'stMetric', 'stAlert', 'stExpander', 'stTabs'])
+    out[k.replace('st', '').toLowerCase()] = ids[k] || 0;
+  return out;
+}"""
+
+
+def _process_kinds() -> dict:
+    """CPU seconds so far of this bench's Chromium processes by kind (renderer, gpu-process,
+    browser, utility), from /proc."""
+    out: dict = {}
+    for d in Path("/proc").glob("[0-9]*"):
+        try:
+            cmd = (d / "cmdline").read_bytes()
+            if b"chrom" not in cmd:
+                continue
+            fields = (d / "stat").read_text().rsplit(")", 1)[1].split()
+        except (OSError, IndexError):
+            continue
+        kind = next((a.split(b"=", 1)[1].decode() for a in cmd.split(b"\0") if a.startswith(b"--type=")), "browser")
+        out[kind] = out.get(kind, 0.0) + (int(fields[11]) + int(fields[12])) / _TICK
+    return out
+
+
+def breakdown(repeats: int = 2) -> dict:
+    """Per page, the warm first render with the fewest CPU seconds of ``repeats``: elements,
+    Chromium's counters for the tab and CPU seconds by process kind."""
+    from playwright.sync_api import sync_playwright
+
+    tmp = Path(tempfile.mkdtemp(prefix="matdb-bench-browser-"))
+    env = dict(os.environ, MATDB_URL=f"sqlite:///{tmp / 'bench.sqlite'}", MATDB_CACHE_DIR=str(tmp / "cache"))
+    out: dict = {"load_average_1min": os.getloadavg()[0]}
+    try:
+        with sync_playwright() as p:
+            browser = p.chromium.launch(executable_path=shutil.which("chromium"), args=CHROMIUM_ARGS)
+            try:
+                tabs = browser.new_context(viewport=VIEWPORT)
+                with served(tmp / "streamlit.log", env=env, timeout_s=120) as base:
+                    for path, heading in PAGES:  # cold visits: computed, cached
+                        _first_render(tabs, base, path, heading)
+                    for path, heading in PAGES:
+                        best = None
+                        for _ in range(repeats):
+                            page = tabs.new_page()
+                            try:
+                                cdp = tabs.new_cdp_session(page)
+                                cdp.send("Performance.enable")
+                                k0 = _process_kinds()
+                                page.goto(f"{base}/{path}", wait_until="load", timeout=300_000)
+                                _rendered(page, heading)
+                                k1 = _process_kinds()
+                                metrics = {m["name"]: m["value"] for m in cdp.send("Performance.getMetrics")["metrics"]}
+                                row = {"cpu_s": {k: round(k1[k] - k0.get(k, 0.0), 2) for k in k1},
+                                       "tab": {k: round(metrics.get(k, 0.0), 3) for k in
+                                               ("TaskDuration", "ScriptDuration", "LayoutDuration",
+                                                "RecalcStyleDuration", "LayoutCount", "RecalcStyleCount")},
+                                       "elements": page.evaluate(COUNT_JS)}
+                                total = sum(row["cpu_s"].values())
+                                if best is None or total < best[0]:
+                                    best = (total, row)
+                            finally:
+                                page.close()
+                        out[path or "materials"] = best[1]
+            finally:
+                browser.close()
+    finally:
+        shutil.rmtree(tmp, ignore_errors=True)
+    out["load_average_1min_after"] = os.getloadavg()[0]
+    return out
+
+
 def _stats(out: dict, name: str, values: list[float]) -> None:
     """``<name>_s``: every repeat (``make bench`` prints their min / median), and the two
     figures apart."""
@@ -203,7 +288,10 @@ def run(repeats: int = 3) -> dict:
 if __name__ == "__main__":
     ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     ap.add_argument("--repeats", type=int, default=3, help="warm visits of each page (default 3)")
-    res = run(ap.parse_args().repeats)
+    ap.add_argument("--breakdown", action="store_true",
+                    help="what the browser spends each page's warm first render on (elements, tab counters, CPU by process)")
+    args = ap.parse_args()
+    res = breakdown(args.repeats) if args.breakdown else run(args.repeats)
     for k, v in res.items():
         if isinstance(v, list):
             v = "[" + ", ".join(f"{x:.3g}" for x in v) + "]"
