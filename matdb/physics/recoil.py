@@ -89,7 +89,7 @@ __all__ = [
 #: needs about a hundred of them (``advise`` 17 mm cold: 88 s wall with n = 5 against
 #: 5-6 s with n = 1, measured 2026-12-03 at load 1-2). ``subdivision=5`` (see
 #: :data:`ACCURATE_SUBDIVISION`) is the accurate model for one design.
-SUBDIVISION = 1
+SUBDIVISION = 5
 #: Cells along the longest edge for the accurate model of one design (see above).
 ACCURATE_SUBDIVISION = 5
 #: Upper bound on the number of cells of one solve (the dense system is 3 x cells).
