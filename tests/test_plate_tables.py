@@ -124,6 +124,31 @@ def test_folded_rules_integrate_as_well_as_the_whole_plate(shape, size, pattern,
     assert np.max(np.abs(lfold - lref)) <= 2.0 * np.max(np.abs(lwhole - lref)) + 1e-12 * scale
 
 
+@pytest.mark.parametrize("shape,size", [("cuboid", (0.00635,) * 3), ("cylinder", (0.01, 0.005))])
+def test_diagonal_fold_is_the_same_sum_as_the_quarter(shape, size):
+    # B and J are axial vectors (Jackson, Classical Electrodynamics, 3rd ed., sec. 6.10): a
+    # checkerboard maps onto its negative under x <-> y, so |B|^2 is symmetric there and the
+    # quarter rule's sum over nodes (x_i, y_j) equals the sum over i <= j with the nodes off
+    # the diagonal counted twice (regression check of the two sums); stripes are not
+    # symmetric, and their fold is refused
+    arr = build_arrangement(shape, size, "checkerboard", 3, 3, 0.0, br=1.0).with_recoil([0.05] * 9)
+    assert PT.diagonal_symmetry(arr)
+    p = np.array([[0.003, 0.001, 0.004], [0.007, -0.002, 0.0045]])
+    assert np.sum(arr.B(p) ** 2, axis=1) == pytest.approx(np.sum(arr.B(p[:, [1, 0, 2]]) ** 2, axis=1), rel=1e-12)
+    bx, by = P.edge_lines(arr.magnets)
+    hs = np.array([2e-4, 1e-3, 3e-3])
+    quarter = PT.plane_integrals(arr.B, 0.017, 0.017, bx, by, hs, 4, 5e-4, (True, True))
+    eighth = PT.plane_integrals(arr.B, 0.017, 0.017, bx, by, hs, 4, 5e-4, (True, True, True))
+    assert np.allclose(eighth, quarter, rtol=1e-12, atol=0)
+    lq = PT.lateral_line_integrals(arr.B, 0.017, 0.017, bx, by, hs, 4, 5e-4, 1e-6, (True, True))
+    le = PT.lateral_line_integrals(arr.B, 0.017, 0.017, bx, by, hs, 4, 5e-4, 1e-6, (True, True, True))
+    assert np.allclose(le, lq, rtol=1e-9, atol=1e-12 * np.max(np.abs(lq)))
+    stripes = build_arrangement(shape, size, "stripes", 3, 3, 0.0, br=1.0)
+    assert not PT.diagonal_symmetry(stripes)
+    assert PT.diagonal_symmetry(build_arrangement("cuboid", (0.005, 0.004, 0.003), "single", 1, 1, 0.0,
+                                                  br=1.0)) is False  # not square
+
+
 def test_plane_integrals_without_folding_equal_the_plate_code():
     # the same rule as matdb.physics.plate.plane_integrals (regression check of the two paths)
     arr = build_arrangement("cuboid", (0.01,) * 3, "checkerboard", 2, 2, 0.0, br=1.0)

@@ -15,6 +15,7 @@ from __future__ import annotations
 import hashlib
 import json
 import threading
+from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
@@ -111,7 +112,7 @@ class GeometryData:
         # unit remanence, each magnet on its recoil line (linear in Br: scaled later)
         self._unit = None
         self.breaks = P.edge_lines(spec.build(1.0).magnets)
-        self._even: tuple[bool, bool] | None = None
+        self._even: tuple[bool, bool, bool] | None = None
         key = {"v": CODE_VERSION, "arr": spec.key(), "plate": [repr(v) for v in self.plate_m],
                "screen": [SCREEN_ORDER, repr(SCREEN_RULE_FLOOR_M), repr(LATERAL_STEP_M), TILT_ORDER],
                "physics": physics_fingerprint(), "chi_rec": repr(self.chi_rec)}
@@ -133,11 +134,13 @@ class GeometryData:
         return self._unit
 
     @property
-    def even(self) -> tuple[bool, bool]:
+    def even(self) -> tuple[bool, bool, bool]:
         """Whether ``|B|^2`` is even in x and y (:func:`matdb.physics.plate_tables.mirror_symmetry`):
-        the plate rules are then folded onto a half or a quarter of the plate."""
+        the plate rules are then folded onto a half or a quarter of the plate; and whether
+        it is symmetric under ``x <-> y`` (:func:`matdb.physics.plate_tables.diagonal_symmetry`):
+        then about half of the quarter's nodes are evaluated."""
         if self._even is None:
-            self._even = PT.mirror_symmetry(self.unit)
+            self._even = (*PT.mirror_symmetry(self.unit), PT.diagonal_symmetry(self.unit))
         return self._even
 
     # -- persistence ----------------------------------------------------------
@@ -227,14 +230,15 @@ class GeometryData:
         """Largest reverse field along the magnetisation at unit polarisation [A/m]."""
         self.load()
         if self.hmax is None:
-            self.hmax = _HMAX.get(self.spec)
+            self.hmax = _HMAX.get(shape_key(self.spec))
             if self.hmax is None:
                 knee = TH.KNEE_FRACTION["NdFeB"][0]
                 # the idealised (rigid) magnets: their reverse field is a little larger than
-                # on the recoil line, so the check errs on the safe side (as levitate's)
-                r = TH.demag_check(self.spec.build(1.0), 1.0, 0.0, "NdFeB", [T_REF_K])
+                # on the recoil line, so the check errs on the safe side (as levitate's);
+                # at the canonical size of the shape, so every size gets the same number
+                r = TH.demag_check(canonical_spec(self.spec).build(1.0), 1.0, 0.0, "NdFeB", [T_REF_K])
                 self.hmax = float(r.worst_ratio * knee)
-            _HMAX[self.spec] = self.hmax
+            _HMAX[shape_key(self.spec)] = self.hmax
             self.dirty = True
         return self.hmax
 
@@ -272,7 +276,8 @@ def prepare_family(geos: list[GeometryData], heights, lat_heights) -> None:
         return
     family = PT.linear_family([g.unit for g in geos]) if len(geos) > 1 else None
     # sources of each, the field once (the family holds every field)
-    evens = ({PT.mirror_symmetry(g.unit, field=family if i == 0 else False)
+    evens = ({(*PT.mirror_symmetry(g.unit, field=family if i == 0 else False),
+               PT.diagonal_symmetry(g.unit, field=family if i == 0 else False))
               for i, g in enumerate(geos)} if family else set())
     if len(evens) != 1:  # one geometry, or symmetries that differ: each on its own
         for g in geos:
@@ -299,7 +304,39 @@ def prepare_family(geos: list[GeometryData], heights, lat_heights) -> None:
 
 
 _GEOMETRIES: dict[tuple, GeometryData] = {}
-_HMAX: dict[ArrangementSpec, float] = {}  # the reverse field does not depend on plate or recoil
+#: the reverse field at unit polarisation by :func:`shape_key`: it depends neither on the
+#: plate nor on the recoil line (the rigid magnets are checked), nor on the size
+_HMAX: dict[tuple, float] = {}
+
+
+CANONICAL_SIZE_M = 0.01  # first magnet dimension of :func:`canonical_spec` [m]
+
+
+def canonical_spec(spec: ArrangementSpec) -> ArrangementSpec:
+    """``spec`` scaled to a first magnet dimension of :data:`CANONICAL_SIZE_M` (the
+    representative of its :func:`shape_key`). The demagnetisation check's worst point is
+    often on an edge shared by touching magnets, where the value is sensitive to the
+    rounding of coordinates (about 1e-7 of it between sizes): one size for all keeps the
+    number independent of which size was seen first."""
+    f = CANONICAL_SIZE_M / float(spec.size[0])
+    return replace(spec, size=tuple(float(s) * f for s in spec.size), spacing=float(spec.spacing) * f)
+
+
+def shape_key(spec: ArrangementSpec) -> tuple:
+    """``spec`` in units of its first magnet dimension: arrangements equal up to scale share
+    it. Magnetostatics has no length scale: scaling every length by ``l`` scales the
+    field points with it and leaves H at the scaled points unchanged ([1]_), and the
+    demagnetisation check samples each magnet at points fixed relative to it.
+
+    References
+    ----------
+    .. [1] J. D. Jackson, Classical Electrodynamics, 3rd ed., Wiley (1999), sec. 5.8 (the
+       field of a uniform magnetisation from its surface charge, an integral of
+       ``(x - x') / |x - x'|^3`` over the surfaces, invariant under ``x -> l x``).
+    """
+    a = float(spec.size[0])
+    return (spec.shape, tuple(float(s) / a for s in spec.size), spec.pattern, spec.rows, spec.cols,
+            float(spec.spacing) / a, spec.back_plate)
 
 
 def geometry(spec: ArrangementSpec, plate_m: tuple[float, float], chi_rec: float) -> GeometryData:

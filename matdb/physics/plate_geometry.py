@@ -346,14 +346,16 @@ def _footprint_rule(plate: PlateGeometry, scale: float, order: int = DEFAULT_ORD
                 y, wy = _folded_rule(plate.cy - plate.ly / 2, plate.cy + plate.ly / 2,
                                      plate.breaks_y, float(scale), int(order), plate.cy)
             if (plate.swap and fx and fy and x.size == y.size
-                    and np.array_equal(x - plate.cx, y - plate.cy) and np.array_equal(wx, wy)):
+                    and ((x is y and wx is wy and plate.cx == plate.cy)  # one cached rule
+                         or (np.array_equal(x - plate.cx, y - plate.cy)
+                             and np.array_equal(wx, wy)))):
                 # one eighth: the nodes with u >= v (u, v from the centre), off-diagonal
                 # ones standing for their swapped images too
-                u, v = np.meshgrid(x - plate.cx, y - plate.cy, indexing="ij")
-                ww = np.outer(wx, wy)
-                keep = u >= v
-                ww = np.where(u > v, 2.0 * ww, ww)
-                return (u[keep] + plate.cx, v[keep] + plate.cy, ww[keep])
+                u, v = x - plate.cx, y - plate.cy
+                i, j = np.nonzero(u[:, None] >= v[None, :])  # row-major, as a mask of the grid
+                ui, vj = u[i], v[j]
+                ww = wx[i] * wy[j]
+                return (ui + plate.cx, vj + plate.cy, np.where(ui > vj, 2.0 * ww, ww))
         return (np.repeat(x, y.size), np.tile(y, x.size), np.outer(wx, wy).ravel())
     return Q.disc_rule(plate.cx, plate.cy, plate.lx / 2, plate.breaks_x, plate.breaks_y, scale,
                        order)

@@ -210,6 +210,10 @@ def _columns(field: FieldFn, plate: PlateGeometry, gap: float, pivot, order: int
         mirror = _mirror_axes(plate, gap, order, pivot)
         pairs = [(j, perturbed[j], _paired(perturbed[j], mirror)) for j in sideways]
         shifts = _poses(pairs, steps)[:, :3]
+        folds = {_fold_axes(d, mirror) for _, d, _ in pairs}
+        axes = folds.pop() if len(folds) == 1 else ()
+        sel, fac = _folded_subset(pts, plate, axes)
+        pts, nrm, w = pts[sel], nrm[sel], w[sel] * fac
         b = eval_field(field, (pts[None, :, :] + shifts[:, None, :]).reshape(-1, 3))
         b = b.reshape(shifts.shape[0], pts.shape[0], 3)
         wz = b[:, :, 2] ** 2
@@ -217,23 +221,20 @@ def _columns(field: FieldFn, plate: PlateGeometry, gap: float, pivot, order: int
         f = np.zeros((shifts.shape[0], 2, 6))
         f[:, :, :2] = np.stack([(wz * w) @ nrm[:, :2], (wxy * w) @ nrm[:, :2]], axis=1) \
             * (-1.0 / (2.0 * MU0))
+        f[:, :, _odd_components(axes)] = 0.0  # zero by the mirror symmetry
         k[:, :2, sideways] = _differences(f, pairs, steps)[:, :2, :]
     others = [j for j, d in enumerate(perturbed) if d >= 2]
     if others:
-        sp, sn, sw = surface_rule(plate, gap, order)
         mirror = _mirror_axes(plate, gap, order, pivot)
         pairs = [(j, perturbed[j], _paired(perturbed[j], mirror)) for j in others]
         poses = _poses(pairs, steps)
-        turned = poses[:, 2] == 0.0
-        q = np.empty((poses.shape[0], 2, 6))
-        if np.any(~turned):  # z translation: forces only
-            q[~turned] = generalized_forces_split(field, plate, gap, pivot, poses[~turned],
-                                                  order, torques=False)
+        coords = [d for _, d, axis in pairs for _ in ((0,) if axis is not None else (0, 1))]
         rot = [j for j in others if perturbed[j] >= 3]
-        if np.any(turned):
-            # the level surface's field (for the intrinsic rates below) in the same evaluation
-            q[turned] = _surface_forces_split(field, plate, gap, pivot, poses[turned], order,
-                                              level=bool(rot))
+        # every pose in one evaluation, each on the surface folded in the mirrors that map
+        # it onto itself, with the level surface's field for the intrinsic rates below
+        q = _surface_forces_split(field, plate, gap, pivot, poses, order, level=bool(rot),
+                                  fold=[_fold_axes(d, mirror) for d in coords])
+        q[poses[:, 2] != 0.0, :, 3:] = np.nan  # z translation: forces only
         k[:, :, others] = _differences(q, pairs, steps)
         if rot:
             rates = _intrinsic_rates(field, plate, gap, pivot, order,
@@ -336,24 +337,91 @@ def _mirror_axes(plate: PlateGeometry, gap: float, order: int, pivot: np.ndarray
 
 
 def _surface_forces_split(field: FieldFn, plate: PlateGeometry, gap: float, pivot,
-                          poses: np.ndarray, order: int, level: bool = False) -> np.ndarray:
+                          poses: np.ndarray, order: int, level: bool = False,
+                          fold: Sequence[tuple[int, ...]] | None = None) -> np.ndarray:
     """:func:`generalized_forces_split` without the anisotropic volume torque: force and
-    torque of the closed-surface integrals alone at each pose, (P, 2, 6). With ``level``,
-    the field on the level surface is evaluated in the same call and kept for
-    :func:`_intrinsic_rates` (unless already kept)."""
+    torque of the closed-surface integrals alone at each pose, (P, 2, 6), in one field
+    evaluation.
+
+    ``fold[p]``: mirror lines (0: ``x = cx``, 1: ``y = cy``) that map pose ``p`` onto
+    itself (:func:`_fold_axes`); its surface is integrated over the nodes on one side of
+    each with doubled weights (:func:`_folded_subset`) and the components odd under the
+    mirror are zero. With ``level``, the field on the level surface is evaluated in the
+    same call and kept for :func:`_intrinsic_rates` (unless already kept).
+
+    References
+    ----------
+    .. [1] J. D. Jackson, Classical Electrodynamics, 3rd ed. (1999), sec. 6.10 (force a
+       polar vector, torque an axial one: their behaviour under reflection).
+    """
     sp, sn, sw = surface_rule(plate, gap, order)
+    pivot = np.asarray(pivot, dtype=float)
+    fold = [()] * poses.shape[0] if fold is None else list(fold)
     rot = Rotation.from_rotvec(poses[:, 3:]).as_matrix()
     centre = pivot[None, :] + poses[:, :3]
-    sp_t = centre[:, None, :] + np.einsum("pij,mj->pmi", rot, sp - pivot)
-    sn_t = np.einsum("pij,mj->pmi", rot, sn)
+    parts, rules = [], []
+    for p, axes in enumerate(fold):  # a few poses; the nodes are vectorised
+        sel, fac = _folded_subset(sp, plate, axes)
+        sp_t = centre[p] + np.einsum("ij,mj->mi", rot[p], sp[sel] - pivot)
+        sn_t = np.einsum("ij,mj->mi", rot[p], sn[sel])
+        parts.append(sp_t)
+        rules.append((sp_t, sn_t, sw[sel] * fac))
     key = _level_key(plate, gap, pivot, order)
-    if level and not _level_kept(key, field):
-        b = eval_field(field, np.concatenate([sp_t.reshape(-1, 3), sp]))
-        _LEVEL["entry"] = (key, field, (sp, sn, sw, b[sp_t.shape[0] * sp_t.shape[1]:]))
-        bs = b[:sp_t.shape[0] * sp_t.shape[1]].reshape(sp_t.shape)
-    else:
-        bs = eval_field(field, sp_t.reshape(-1, 3)).reshape(sp_t.shape)
-    return _surface_terms(bs, sp_t, sn_t, sw, centre, rot[:, :, 2])
+    keep_level = level and not _level_kept(key, field)
+    if keep_level:
+        parts.append(sp)
+    b = eval_field(field, np.concatenate(parts))
+    if keep_level:
+        _LEVEL["entry"] = (key, field, (sp, sn, sw, b[b.shape[0] - sp.shape[0]:]))
+    out = np.empty((poses.shape[0], 2, 6))
+    start = 0
+    for p, (sp_t, sn_t, w) in enumerate(rules):
+        bs = b[start:start + sp_t.shape[0]]
+        start += sp_t.shape[0]
+        out[p] = _surface_terms(bs[None], sp_t[None], sn_t[None], w, centre[p:p + 1],
+                                rot[p:p + 1, :, 2])[0]
+        out[p, :, _odd_components(fold[p])] = 0.0  # zero by the mirror symmetry
+    return out
+
+
+#: the mirror lines (0: in x, 1: in y) that map a pose of each coordinate onto itself
+_INVARIANT = {0: (1,), 1: (0,), 2: (0, 1), 3: (0,), 4: (1,), 5: ()}
+
+
+def _fold_axes(d: int, mirror: tuple[bool, bool]) -> tuple[int, ...]:
+    """The field's mirror lines through the plate and pivot (``mirror``, as from
+    :func:`_mirror_axes`) that map a pose of coordinate ``d`` onto itself: a shift along
+    x and a turn about the x axis keep the plane y = cy, and so on."""
+    return tuple(a for a in _INVARIANT[d] if mirror[a])
+
+
+def _folded_subset(points: np.ndarray, plate: PlateGeometry, axes: Sequence[int]
+                   ) -> tuple[np.ndarray, np.ndarray]:
+    """Nodes of a level rule that is its own mirror image in the lines ``axes`` through
+    the plate's centre (0: x = cx, 1: y = cy; see
+    :func:`~matdb.physics.plate_geometry.mirrored_rules`): a mask keeping the nodes on the
+    centre line or on its + side, and their weight factors (2 off the line, 1 on it). For
+    an integrand with that symmetry the folded sum is the full sum."""
+    sel = np.ones(points.shape[0], dtype=bool)
+    fac = np.ones(points.shape[0])
+    for a in axes:
+        c, size = ((plate.cx, plate.lx), (plate.cy, plate.ly))[a]
+        tol = 1e-12 * size
+        u = points[:, a] - c
+        sel &= u >= -tol
+        fac = np.where(u > tol, 2.0 * fac, fac)
+    return sel, fac[sel]
+
+
+def _odd_components(axes: Sequence[int]) -> list[int]:
+    """Components of ``(F, tau)`` odd under the mirrors in ``axes`` (force: a polar
+    vector, its ``a`` component; torque about a pivot on the mirror: an axial vector, the
+    other two)."""
+    out: set[int] = set()
+    for a in axes:
+        out.add(a)
+        out.update(3 + b for b in range(3) if b != a)
+    return sorted(out)
 
 
 def _level_key(plate: PlateGeometry, gap: float, pivot, order: int) -> tuple:

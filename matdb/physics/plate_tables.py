@@ -36,7 +36,7 @@ import numpy as np
 
 from matdb.physics import plate as P
 from matdb.physics import quadrature as Q
-from matdb.physics.plate_geometry import field_mirrors
+from matdb.physics.plate_geometry import _same_set, field_mirrors
 
 FieldFn = Callable[[np.ndarray], np.ndarray]
 
@@ -77,12 +77,42 @@ def mirror_symmetry(arrangement, rtol: float = 1e-9, field: FieldFn | None | boo
     return out[0], out[1]
 
 
-def _field_even(field: FieldFn, arrangement, ax: int) -> bool:
-    """``|B|^2`` at a few points above the magnets equals its value at their mirror
-    (``field`` may return one field (n, 3) or several (k, n, 3))."""
+def diagonal_symmetry(arrangement, rtol: float = 1e-9, field: FieldFn | None | bool = None) -> bool:
+    """Whether ``|B|^2`` of ``arrangement`` is symmetric under ``x <-> y`` (a checkerboard of
+    square magnets or cylinders, say; not stripes).
+
+    The reflection in the plane ``x = y`` moves a magnet at ``(x, y, z)`` of size
+    ``(a, b, h)`` to ``(y, x, z)`` with size ``(b, a, h)`` and turns its polarisation, an
+    axial vector, into ``-(J_y, J_x, J_z)`` (Jackson sec. 6.10, as in
+    :func:`mirror_symmetry`); when that is the same set of magnets with the same
+    polarisations, or all reversed, ``|B|^2`` is symmetric. Confirmed on the field at a
+    few points as :func:`mirror_symmetry` does (``field`` as there).
+    """
+    mags = list(arrangement.magnets)
+    if not mags:
+        return False
+    pos = np.array([m.position for m in mags], dtype=float)
+    pol = np.array([m.polarization for m in mags], dtype=float)
+    size = [(m.shape, tuple(float(v) for v in m.size)) for m in mags]
+    msize = [(sh, (sz[1], sz[0], *sz[2:]) if sh == "cuboid" else sz) for sh, sz in size]
+    scale = max(float(np.ptp(pos, axis=0).max()), max(max(sz) for _, sz in size))
+    jmax = float(np.abs(pol).max()) or 1.0
+    swap = [1, 0, 2]
+    if not _same_set(pos, pol, size, pos[:, swap], -pol[:, swap], msize, rtol * scale, rtol * jmax):
+        return False
+    return field is False or _field_even(arrangement.B if field is None else field, arrangement, None)
+
+
+def _field_even(field: FieldFn, arrangement, ax: int | None) -> bool:
+    """``|B|^2`` at a few points above the magnets equals its value at their mirror in
+    ``x_ax = 0`` (``ax`` None: in ``x = y``); ``field`` may return one field (n, 3) or
+    several (k, n, 3)."""
     p = _probe_points(arrangement)
     q = p.copy()
-    q[:, ax] *= -1.0
+    if ax is None:
+        q[:, [0, 1]] = p[:, [1, 0]]
+    else:
+        q[:, ax] *= -1.0
     b = np.sum(field(np.concatenate([p, q])) ** 2, axis=-1)
     n = p.shape[0]
     return bool(np.all(np.abs(b[..., :n] - b[..., n:]) <= 1e-7 * float(np.max(b)) + 1e-300))
@@ -257,7 +287,7 @@ def axis_rule(length: float, breaks, scale: float, order: int, even: bool
 
 
 def plane_integrals(field: FieldFn, lx: float, ly: float, breaks_x, breaks_y, heights,
-                    order: int, floor_m: float, even: tuple[bool, bool] = (False, False),
+                    order: int, floor_m: float, even: tuple[bool, ...] = (False, False),
                     same_rule: bool = False) -> np.ndarray:
     """Integrals of ``B_z^2`` and ``B_x^2 + B_y^2`` over a centred ``lx`` x ``ly``
     rectangle at each height, the rule graded for ``max(h, floor_m)`` (``same_rule``: for
@@ -265,7 +295,10 @@ def plane_integrals(field: FieldFn, lx: float, ly: float, breaks_x, breaks_y, he
 
     With ``even`` (from :func:`mirror_symmetry`) the rule covers one half (or quarter) of
     the rectangle with doubled weights. Without, the same rule as
-    :func:`matdb.physics.plate.plane_integrals`.
+    :func:`matdb.physics.plate.plane_integrals`. A third flag ``even[2]``
+    (:func:`diagonal_symmetry`) where the rules across x and y are the same: the
+    integrand is symmetric in the nodes ``(x_i, y_j)``, so only ``i <= j`` are evaluated,
+    those off the diagonal with doubled weight (the same sum, about half the nodes).
 
     Returns
     -------
@@ -285,7 +318,11 @@ def plane_integrals(field: FieldFn, lx: float, ly: float, breaks_x, breaks_y, he
         if r is None:
             x, wx = axis_rule(lx, breaks_x, scale, order, even[0])
             y, wy = axis_rule(ly, breaks_y, scale, order, even[1])
-            r = rules[scale] = (np.repeat(x, y.size), np.tile(y, x.size), np.outer(wx, wy).ravel())
+            if _diagonal(even, x, y, wx, wy):
+                a, b = np.triu_indices(x.size)
+                r = rules[scale] = (x[a], y[b], wx[a] * wy[b] * np.where(a < b, 2.0, 1.0))
+            else:
+                r = rules[scale] = (np.repeat(x, y.size), np.tile(y, x.size), np.outer(wx, wy).ravel())
         pts.append(np.column_stack([r[0], r[1], np.full(r[0].size, h)]))
         wts.append(r[2])
         idx.append(np.full(r[0].size, i))
@@ -295,6 +332,12 @@ def plane_integrals(field: FieldFn, lx: float, ly: float, breaks_x, breaks_y, he
     z = _sums(ii, w * b[..., 2] ** 2, hs.size)
     xy = _sums(ii, w * (b[..., 0] ** 2 + b[..., 1] ** 2), hs.size)
     return np.stack([z, xy], axis=-1)
+
+
+def _diagonal(even, x, y, wx, wy) -> bool:
+    """Whether the diagonal fold applies: flagged symmetric, and the same rule across x and y."""
+    return (len(even) > 2 and bool(even[2]) and x.size == y.size and np.array_equal(x, y)
+            and np.array_equal(wx, wy))
 
 
 def _evaluate(field: FieldFn, points: np.ndarray) -> np.ndarray:
@@ -314,7 +357,7 @@ def _sums(index: np.ndarray, values: np.ndarray, n: int) -> np.ndarray:
 
 def lateral_line_integrals(field: FieldFn, lx: float, ly: float, breaks_x, breaks_y, heights,
                            order: int, floor_m: float, step_m: float,
-                           even: tuple[bool, bool] = (False, False)) -> np.ndarray:
+                           even: tuple[bool, ...] = (False, False)) -> np.ndarray:
     """Line integrals across the side faces of a centred ``lx`` x ``ly`` rectangle.
 
     For each height ``h`` and each of ``w_z = B_z^2`` and ``w_xy = B_x^2 + B_y^2``:
@@ -339,9 +382,11 @@ def lateral_line_integrals(field: FieldFn, lx: float, ly: float, breaks_x, break
         The rule is graded no finer than for this height [m].
     step_m : float
         Central-difference step across a face [m].
-    even : (bool, bool)
+    even : (bool, bool[, bool])
         Whether ``|B|^2`` is even in x and in y (:func:`mirror_symmetry`): then half of
-        each face (:func:`axis_rule`) and one face of each pair are integrated.
+        each face (:func:`axis_rule`) and one face of each pair are integrated; and
+        whether it is symmetric under ``x <-> y`` (:func:`diagonal_symmetry`): then, where
+        the faces' rules are the same, the y faces equal the x faces and are not evaluated.
 
     Returns
     -------
@@ -355,10 +400,14 @@ def lateral_line_integrals(field: FieldFn, lx: float, ly: float, breaks_x, break
     hs = np.atleast_1d(np.asarray(heights, dtype=float))
     d = float(step_m)
     parts = []  # (points, weights, height index, 0 = x faces / 1 = y faces)
+    faces_xy = ((ly, lx, breaks_y, even[1], even[0]), (lx, ly, breaks_x, even[0], even[1]))
+    # symmetric under x <-> y with the same rules on both pairs of faces: the y faces are
+    # the x faces mirrored, their integrals the same
+    diag = (len(even) > 2 and bool(even[2]) and float(lx) == float(ly) and even[0] == even[1]
+            and tuple(np.ravel(breaks_x)) == tuple(np.ravel(breaks_y)))
     for i, h in enumerate(hs):
         scale = max(float(h), floor_m)
-        for c, (length, across, brk, ev_along, ev_across) in enumerate(
-                ((ly, lx, breaks_y, even[1], even[0]), (lx, ly, breaks_x, even[0], even[1]))):
+        for c, (length, across, brk, ev_along, ev_across) in enumerate(faces_xy[:1] if diag else faces_xy):
             t, wt = axis_rule(length, brk, scale, order, ev_along)
             # faces at +-across/2, a central difference of w along the normal at each;
             # w even across: the face at -across/2 adds what the one at +across/2 does
@@ -377,7 +426,10 @@ def lateral_line_integrals(field: FieldFn, lx: float, ly: float, breaks_x, break
     z = _sums(ii, w * b[..., 2] ** 2, 2 * hs.size)  # (..., height x faces)
     xy = _sums(ii, w * (b[..., 0] ** 2 + b[..., 1] ** 2), 2 * hs.size)
     out = np.stack([z, xy], axis=-1)  # (..., height x faces, part)
-    return out.reshape(*out.shape[:-2], hs.size, 4)
+    out = out.reshape(*out.shape[:-2], hs.size, 4)
+    if diag:
+        out[..., 2:] = out[..., :2]
+    return out
 
 
 def cumulative_over_height(lateral: np.ndarray, heights: np.ndarray) -> np.ndarray:

@@ -115,37 +115,46 @@ def graded_breaks(lo: float, hi: float, singular: Sequence[float], scale: float,
 @lru_cache(maxsize=8192)
 def _graded_breaks(lo: float, hi: float, singular: tuple[float, ...], scale: float,
                    ratio: float) -> np.ndarray:
+    # plain Python on purpose: a few dozen candidates, built anew for every height the
+    # root finders visit, so per-call overhead is what counts (same arithmetic as numpy)
     length = hi - lo
     if not (length > 0) or scale <= 0:
         return _frozen(np.array([lo, hi]))[0]
-    sing = sorted(x for x in singular if max(lo - x, x - hi, 0.0) <= 0.5 * length)
+    half = 0.5 * length
+    sing = sorted(x for x in singular if max(lo - x, x - hi, 0.0) <= half)
     if not sing:
         return _frozen(np.array([lo, hi]))[0]
     levels = int(math.ceil(math.log(max(2.0 * length / scale, 1.0)) / math.log(ratio))) + 1
-    steps = scale * ratio ** np.arange(levels)
-    s = np.asarray(sing)
-    cand = np.concatenate([s, (s[:, None] - steps).ravel(), (s[:, None] + steps).ravel()])
-    inner = np.unique(cand[(cand > lo) & (cand < hi)]).tolist()
+    steps = [scale * ratio ** k for k in range(levels)]
+    cand = set(sing)
+    for x in sing:
+        cand.update(x - st for st in steps)
+        cand.update(x + st for st in steps)
+    pts = sorted(c for c in cand if lo < c < hi)
     hard = {x for x in sing if lo < x < hi}
     allowed = ratio - 1.0
-
-    def dist(a: float, b: float) -> float:
-        # distance from the panel [a, b] to the nearest singular point
-        k = bisect.bisect_left(sing, a)
-        if k < len(sing) and sing[k] <= b:
-            return 0.0
-        left = a - sing[k - 1] if k > 0 else math.inf
-        right = sing[k] - b if k < len(sing) else math.inf
-        return min(left, right)
-
-    out = [lo]
-    pts = inner + [hi]
+    n_sing = len(sing)
     tiny = 1e-9 * length
-    for i, p in enumerate(pts[:-1]):
-        nxt = pts[i + 1]
-        if p in hard or (nxt - out[-1]) > allowed * max(dist(out[-1], nxt), scale):
-            if p - out[-1] > tiny:
-                out.append(p)
+    out = [lo]
+    last = lo
+    pts.append(hi)
+    for i in range(len(pts) - 1):
+        p, nxt = pts[i], pts[i + 1]
+        if p in hard:
+            cut = True
+        else:
+            # distance from the panel [last, nxt] to the nearest singular point
+            k = bisect.bisect_left(sing, last)
+            if k < n_sing and sing[k] <= nxt:
+                d = 0.0
+            else:
+                left = last - sing[k - 1] if k > 0 else math.inf
+                right = sing[k] - nxt if k < n_sing else math.inf
+                d = min(left, right)
+            cut = (nxt - last) > allowed * max(d, scale)
+        if cut and p - last > tiny:
+            out.append(p)
+            last = p
     out.append(hi)
     return _frozen(np.array(out))[0]
 
