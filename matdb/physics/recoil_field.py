@@ -18,14 +18,23 @@ sizes ``s``, centre ``x_c``, top ``z_t,c``; images in a steel back plate are mor
 cells). :class:`CorrectionField` sums ``S(k)`` once on an FFT grid (the cells share few
 distinct x, y positions: the sum is three small tensor contractions), continues it to a
 stack of heights spaced geometrically above the top face, transforms back
-(``scipy.fft``) and keeps the values over the region a plate can occupy, as cubic
-B-spline coefficients (``scipy.ndimage.spline_filter``); a point is then three cubic
-interpolations (``scipy.ndimage.map_coordinates``). Points outside that region (inside or
-beside the magnets, far away, high above) are evaluated exactly from the cells.
+(``scipy.fft``, single precision) and keeps the values over the region a plate can
+occupy; a point is then one trilinear interpolation in x, y and the level index, of every
+table of the geometry at once. Points outside that region (inside or beside the magnets,
+far away, high above) are evaluated exactly from the cells.
+
+Sharing (what keeps the default model cheap): the tables are built on the geometry in
+units of its largest magnet edge (``B(l r; l geometry) = B(r; geometry)``: every size of
+one shape and pattern reads the same table), and one geometry keeps a small orthonormal
+basis of departure patterns with one table each (:class:`_Basis`): a departure is read as
+its projection on the basis when the part outside is below :data:`BASIS_TOL` of the
+field's scale, else that part gets a table. The recoil susceptibilities of the catalogue
+(0.05 to 2.6) need two or three tables per pattern. Tables are kept as ``.npy`` files
+beside the disk cache of :func:`matdb.physics.recoil.disk_cache`.
 
 The table is band-limited at the grid's Nyquist wavenumber (a cosine taper over its upper
-half): within about ``3 h`` of the top face (``h`` the grid spacing, :data:`SPACING_M`)
-it is the field of the departures smoothed over ``h``. There the exact cell field carries
+half): within about ``3 h`` of the top face (``h`` the grid spacing, a cell's width over
+:data:`CELL_NODES`) it is the field of the departures smoothed over ``h``. There the exact cell field carries
 the steps of the piecewise-constant cells, which are themselves an artefact of the
 discretisation. The interpolation error is tested against the exact cell field in
 ``tests/test_recoil.py``.
