@@ -190,7 +190,7 @@ class GeometryData:
         if missing:
             vals = compute(np.array(missing, dtype=float) * HEIGHT_KEY_M)
             for k, v in zip(missing, vals):
-                st[k] = tuple(float(x) for x in np.ravel(v))
+                st[k] = tuple(np.ravel(v).tolist())
             self.dirty = True
         out = np.array([st[k] for k in keys], dtype=float).reshape(len(hs), -1)
         self._arrays[akey] = out
@@ -299,7 +299,7 @@ def prepare_family(geos: list[GeometryData], heights, lat_heights) -> None:
         for g, v in zip(geos, vals):
             st = g.stores[name]
             for k, row in zip(keys, v):
-                st.setdefault(k, tuple(float(x) for x in row))
+                st.setdefault(k, tuple(row.tolist()))
             g.dirty = True
 
 
@@ -350,10 +350,15 @@ def geometry(spec: ArrangementSpec, plate_m: tuple[float, float], chi_rec: float
     return g
 
 
-def save_all() -> None:
-    """Write every geometry with new tables to the disk cache."""
-    for g in list(_GEOMETRIES.values()):
-        g.save()
+def save_all(geos=None) -> None:
+    """Write every geometry (or those of ``geos``) with new tables to the disk cache, in
+    one transaction."""
+    todo = [g for g in (list(_GEOMETRIES.values()) if geos is None else geos) if g.dirty]
+    if not todo:
+        return
+    with disk_cache().transact():
+        for g in todo:
+            g.save()
 
 
 def clear_memory_cache() -> None:
