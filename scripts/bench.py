@@ -22,7 +22,11 @@ How each row is measured
 Everything runs on a scratch database and cache folder in a temporary folder, never the
 user's. Options: ``--repeats N`` (default 3), ``--skip-80mm`` (the 80 mm footprint row is
 the slowest), ``--only TEXT`` (rows whose name contains TEXT), ``--details`` (also print
-every per-topic script's full output), ``--json FILE``.
+every per-topic script's full output), ``--json FILE``, ``--baseline DIR``: a checkout of
+an earlier matdb (e.g. ``git worktree add /tmp/before COMMIT``); the plate ``levitate``
+rows are then also measured with that code (``PYTHONPATH=DIR``, same interpreter and
+packages), the two interleaved repeat by repeat, and a ratio row (before / now, minimum
+CPU times) follows each pair, so the comparison holds while the machine's load drifts.
 """
 
 from __future__ import annotations
@@ -166,6 +170,41 @@ def footprint_rows(env: dict[str, str], sizes: tuple[int, ...]) -> list[Row]:
     return rows
 
 
+def baseline_rows(label: str, goals: tuple[str, str], argv: list[str], env: dict[str, str],
+                  base_dir: str, repeats: int) -> list[Row]:
+    """In-process (cold, warm) and whole-process rows of ``argv`` for the code in
+    ``base_dir`` ("before") and this checkout ("now"), interleaved repeat by repeat,
+    each pair followed by the ratio of the minimum CPU times (before / now)."""
+    base_env = dict(env, PYTHONPATH=str(Path(base_dir).resolve()))
+    now_env = dict(env, PYTHONPATH=str(REPO))
+    rows = {k: (Row(f"{label}, in-process, {k}, before", goals[0 if k == "cold" else 1], load=_load()),
+                Row(f"{label}, in-process, {k}, now", goals[0 if k == "cold" else 1], load=_load()))
+            for k in ("cold", "warm")}
+    cli = (Row(f"{label}, CLI (whole process), before", goals[2], load=_load()),
+           Row(f"{label}, CLI (whole process), now", goals[2], load=_load()))
+    for e in (base_env, now_env):
+        time_process([_matdb_exe(), *argv], e)  # warm-up: seeds the database, pint's cache
+    for _ in range(repeats):
+        for i, e in enumerate((base_env, now_env)):
+            res = in_process(argv, e, 3)
+            rows["cold"][i].cpu.append(res["cpu"][0])
+            rows["cold"][i].wall.append(res["wall"][0])
+            rows["warm"][i].cpu += res["cpu"][1:]
+            rows["warm"][i].wall += res["wall"][1:]
+            cpu, wall, code = time_process([_matdb_exe(), *argv], e)
+            if code != 0:
+                cli[i].note = f"exit status {code}"
+            cli[i].cpu.append(cpu)
+            cli[i].wall.append(wall)
+    out: list[Row] = []
+    for before, now in (rows["cold"], rows["warm"], cli):
+        ratio = Row(now.name.replace(", now", ", before / now"), "-", load=_load())
+        ratio.ratio = [min(before.cpu) / min(now.cpu)]
+        ratio.note = f"baseline {base_dir}"
+        out += [before, now, ratio]
+    return out
+
+
 # ----------------------------------------------------------------------------- per-topic scripts
 def load_script(name: str):
     path = HERE / f"{name}.py"
@@ -261,6 +300,9 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--only", help="only rows whose name contains this text")
     ap.add_argument("--details", action="store_true", help="also print each per-topic script's figures")
     ap.add_argument("--json", help="write every figure to this file")
+    ap.add_argument("--baseline", metavar="DIR",
+                    help="a checkout of earlier code: the plate levitate rows also run with it, "
+                    "interleaved, with before/now ratios")
     ap.add_argument("--worker", type=int, help=argparse.SUPPRESS)
     ap.add_argument("rest", nargs="*", help=argparse.SUPPRESS)
     args = ap.parse_args(argv)
@@ -284,6 +326,9 @@ def main(argv: list[str] | None = None) -> int:
                                                    ["levitate", plate, "--format", "json"], env, n)),
         ("plate levitate CLI", lambda: [process_row("plate levitate 2x2 example, CLI (whole process)", "< 1.5 s",
                                                     ["levitate", plate, "--format", "json"], env, n)]),
+        ("plate levitate before/now", lambda: baseline_rows(
+            "plate levitate 2x2 example", ("-", "< 0.5 s", "< 1.5 s"), ["levitate", plate, "--format", "json"],
+            env, args.baseline, n) if args.baseline else []),
         ("floating one", lambda: in_process_rows("floating magnet, one station", ("-", "< 0.3 s"),
                                                  ["levitate", fm1, "--format", "json"], env, n)),
         ("floating two", lambda: in_process_rows("floating magnet, two stations", ("-", "< 0.8 s"),

@@ -563,3 +563,58 @@ def test_default_model_folds_only_where_its_field_is_symmetric():
     rigid = design.arrangement(293.15, rigid=True)
     g = plate_geometry(design, rigid)
     assert g.mirrors == (0.0, 0.0) and g.swap
+
+
+@pytest.mark.parametrize("lx,ly,cx,gap", [(0.012, 0.012, 0.0, 5e-5), (0.02, 0.012, 0.0, 5.5e-4),
+                                         (0.012, 0.012, 1e-3, 5.5e-4), (0.006, 0.006, 0.0, 0.0)])
+def test_surface_images_are_the_mirrored_nodes(checker, lx, ly, cx, gap):
+    # regression check: the image of each closed-surface node in a mirror line through the
+    # plate's centre is the node at the mirrored point, with the same weight and the normal
+    # mirrored (a polar vector: Jackson sec. 6.10); off a line there is no image
+    bx, by = P.edge_lines(checker.magnets)
+    plate = P.PlateGeometry("rectangle", lx, ly, 1e-3, cx, 0.0, bx, by, (0.0, 0.0))
+    sp, sn, sw = P.surface_rule(plate, gap, 8)
+    images = P.surface_images(plate, gap, 8)
+    assert [a for a, _, _ in images] == [a for a, ok in enumerate(P.mirrored_rules(plate, gap, 8))
+                                         if ok]
+    assert (0 in [a for a, _, _ in images]) == (cx == 0.0)
+    for axis, image, kept in images:
+        c = (plate.cx, plate.cy)[axis]
+        want = sp.copy()
+        want[:, axis] = 2 * c - sp[:, axis]
+        np.testing.assert_allclose(sp[image], want, rtol=0, atol=1e-12 * lx)
+        np.testing.assert_allclose(sw[image], sw, rtol=1e-12)
+        nm = sn.copy()
+        nm[:, axis] *= -1
+        np.testing.assert_array_equal(sn[image], nm)
+        assert np.array_equal(image[image], np.arange(image.size))  # an involution
+        assert np.all(kept[image] | kept)  # each pair keeps at least one node
+    disc = P.PlateGeometry("disc", lx, lx, 1e-3, 0.0, 0.0, bx, by, (0.0, 0.0))
+    assert P.surface_images(disc, gap, 8) == ()
+
+
+@settings(max_examples=200, deadline=None)
+@given(lo=st.floats(-0.05, 0.05), width=st.floats(1e-4, 0.06),
+       sing=st.lists(st.floats(-0.08, 0.08), max_size=6), scale=st.floats(1e-7, 1e-2),
+       ratio=st.sampled_from([2.0, 3.0, 4.5]))
+def test_graded_breaks_panels_grow_geometrically_from_singular_points(lo, width, sing, scale,
+                                                                      ratio):
+    # Davis & Rabinowitz (1984) ch. 2: panels graded towards a singular point; the rule's
+    # contract: sorted breaks from lo to hi through every singular point inside, and each
+    # panel away from them no wider than ratio (ratio - 1) x its distance (at least
+    # `scale`): the candidate grid's panels have (ratio - 1), merging at most one more step
+    from matdb.physics.quadrature import graded_breaks
+
+    hi = lo + width
+    b = graded_breaks(lo, hi, sing, scale, ratio)
+    assert b[0] == lo and b[-1] == hi and np.all(np.diff(b) > 0)
+    near = sorted(s for s in sing if max(lo - s, s - hi, 0.0) <= 0.5 * width)
+    for s in near:
+        if lo + 1e-9 * width < s < hi - 1e-9 * width:
+            assert np.min(np.abs(b - s)) <= 1e-9 * width
+    if near:
+        s = np.asarray(near)
+        for a, c in zip(b[:-1], b[1:]):
+            inside = np.any((s >= a) & (s <= c))
+            d = 0.0 if inside else float(np.min(np.minimum(np.abs(s - a), np.abs(s - c))))
+            assert inside or c - a <= ratio * (ratio - 1.0) * max(d, scale) * (1 + 1e-9)

@@ -98,7 +98,7 @@ References
 from matdb.physics.plate_geometry import (CHUNK, DEFAULT_ORDER, MIN_GAP, FieldFn,  # noqa: F401
                                           PlateGeometry, edge_lines, eval_field, field_mirrors,
                                           field_swaps, footprint_rule, mirrored_rules,
-                                          side_rule, surface_rule, swapped_rules,
+                                          side_rule, surface_images, surface_rule, swapped_rules,
                                           volume_rule, z_rule)
 from matdb.physics.plate_intervals import (SETTLE_TOL, EquilibriumStability,  # noqa: F401
                                            LateralEquilibrium, interval_holding,

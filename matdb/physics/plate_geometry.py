@@ -523,3 +523,79 @@ def eval_field(field: FieldFn, points: np.ndarray) -> np.ndarray:
     for i in range(0, points.shape[0], CHUNK):
         out[i:i + CHUNK] = field(points[i:i + CHUNK])
     return out
+
+
+def surface_images(plate: PlateGeometry, gap: float, order: int = DEFAULT_ORDER
+                   ) -> tuple[tuple[int, np.ndarray, np.ndarray], ...]:
+    """Mirror images among the nodes of :func:`surface_rule`: for each line ``x = cx`` (0)
+    and ``y = cy`` (1) in which the level plate's rules are their own mirror images
+    (:func:`mirrored_rules`), ``(axis, image, kept)``: ``image[m]`` is the index of node
+    ``m``'s mirror image (same weight, mirrored normal) and ``kept`` marks the nodes on the
+    line or on its + side. Empty for discs and plates off the field's mirror lines.
+
+    The closed surface is laid out as :func:`surface_rule` builds it (bottom and top
+    footprints as x-major grids, then the side faces +x, +y, -x, -y), each 1-D rule
+    sorted and symmetric, so an image reverses one grid index or swaps two opposite faces.
+
+    References
+    ----------
+    .. [1] J. D. Jackson, Classical Electrodynamics, 3rd ed., Wiley (1999), sec. 6.10.
+    """
+    mirrored = mirrored_rules(plate, gap, order)
+    if not any(mirrored):
+        return ()
+    return _surface_images(plate, float(gap), int(order), mirrored)
+
+
+@lru_cache(maxsize=512)
+def _surface_images(plate: PlateGeometry, gap: float, order: int,
+                    mirrored: tuple[bool, bool]) -> tuple[tuple[int, np.ndarray, np.ndarray], ...]:
+    t = plate.thickness
+
+    def counts(scale: float) -> tuple[int, int]:  # nodes of the x and y rules
+        return (Q.graded_rule(plate.cx - plate.lx / 2, plate.cx + plate.lx / 2, plate.breaks_x,
+                              scale, order)[0].size,
+                Q.graded_rule(plate.cy - plate.ly / 2, plate.cy + plate.ly / 2, plate.breaks_y,
+                              scale, order)[0].size)
+
+    (nxb, nyb), (nxt, nyt) = counts(gap), counts(gap + t)  # as footprint_rule grades them
+    nxs, nys = counts(max(gap, 1e-9))  # as side_rule grades the side faces
+    nz = z_rule(gap, gap + t, order)[0].size
+    blocks = [(nxb, nyb), (nxt, nyt)]
+    sizes = [nxb * nyb, nxt * nyt, nys * nz, nxs * nz, nys * nz, nxs * nz]
+    starts = np.concatenate([[0], np.cumsum(sizes)])
+    n = int(starts[-1])
+    out = []
+    pts = surface_rule(plate, gap, order)[0]
+    if pts.shape[0] != n:
+        return ()  # not the layout this function knows: no images
+    for axis in (0, 1):
+        if not mirrored[axis]:
+            continue
+        image = np.empty(n, dtype=np.intp)
+        for b, (nx, ny) in enumerate(blocks):  # footprints: reverse the grid index of `axis`
+            g = np.arange(nx * ny).reshape(nx, ny)
+            g = g[::-1, :] if axis == 0 else g[:, ::-1]
+            image[starts[b]:starts[b + 1]] = starts[b] + g.ravel()
+        # side faces 2..5 = +x (y-major grid), +y (x-major), -x, -y
+        for f in range(4):
+            lo, hi = starts[2 + f], starts[3 + f]
+            normal_axis = 0 if f % 2 == 0 else 1
+            if normal_axis == axis:  # the opposite face, node for node
+                other = 2 + (f + 2) % 4
+                image[lo:hi] = starts[other] + np.arange(hi - lo)
+            else:  # the same face, its along-face index reversed
+                m_along = (nys if f % 2 == 0 else nxs)
+                g = np.arange(hi - lo).reshape(m_along, nz)[::-1, :]
+                image[lo:hi] = lo + g.ravel()
+        c, size = ((plate.cx, plate.lx), (plate.cy, plate.ly))[axis]
+        u = pts[:, axis] - c
+        mirrored_pts = pts.copy()
+        mirrored_pts[:, axis] = 2.0 * c - pts[:, axis]
+        if not np.allclose(pts[image], mirrored_pts, rtol=0, atol=1e-12 * size):
+            return ()  # not the layout this function knows: no images
+        image.flags.writeable = False
+        kept = u >= -1e-12 * size
+        kept.flags.writeable = False
+        out.append((axis, image, kept))
+    return tuple(out)

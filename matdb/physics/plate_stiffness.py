@@ -24,9 +24,8 @@ import numpy as np
 from scipy.spatial.transform import Rotation
 
 from matdb.physics.plate_geometry import (DEFAULT_ORDER, FieldFn, PlateGeometry, eval_field,
-                                          mirrored_rules, side_rule, surface_rule,
-                                          swapped_rules,
-                                          volume_rule)
+                                          mirrored_rules, side_rule, surface_images,
+                                          surface_rule, swapped_rules, volume_rule)
 from matdb.constants import MU0
 
 # ---------------------------------------------------------------------------
@@ -369,10 +368,17 @@ def _surface_forces_split(field: FieldFn, plate: PlateGeometry, gap: float, pivo
     key = _level_key(plate, gap, pivot, order)
     keep_level = level and not _level_kept(key, field)
     if keep_level:
-        parts.append(sp)
+        # the level surface on one side of the field's mirror lines: its field elsewhere
+        # is the mirrored field (up to one sign, which the quadratic rates do not see)
+        images = surface_images(plate, gap, order)
+        kept = np.logical_and.reduce([k for _, _, k in images]) if images else None
+        parts.append(sp if kept is None else sp[kept])
     b = eval_field(field, np.concatenate(parts))
     if keep_level:
-        _LEVEL["entry"] = (key, field, (sp, sn, sw, b[b.shape[0] - sp.shape[0]:]))
+        bl = b[b.shape[0] - parts[-1].shape[0]:]
+        if kept is not None:
+            bl = _unfolded(bl, kept, images)
+        _LEVEL["entry"] = (key, field, (sp, sn, sw, bl))
     out = np.empty((poses.shape[0], 2, 6))
     start = 0
     for p, (sp_t, sn_t, w) in enumerate(rules):
@@ -382,6 +388,33 @@ def _surface_forces_split(field: FieldFn, plate: PlateGeometry, gap: float, pivo
                                 rot[p:p + 1, :, 2])[0]
         out[p, :, _odd_components(fold[p])] = 0.0  # zero by the mirror symmetry
     return out
+
+
+def _unfolded(b_kept: np.ndarray, kept: np.ndarray, images) -> np.ndarray:
+    """The field at every node of a rule from its values at the ``kept`` nodes, through
+    the mirror images ``images`` (:func:`~matdb.physics.plate_geometry.surface_images`):
+    B at a node's image in the line ``x = cx`` is ``(B_x, -B_y, -B_z)`` (B an axial
+    vector; ``y = cy`` likewise), up to one sign for the whole field, (n, 3) [T].
+
+    References
+    ----------
+    .. [1] J. D. Jackson, Classical Electrodynamics, 3rd ed. (1999), sec. 6.10.
+    """
+    n = kept.size
+    pos = np.full(n, -1, dtype=np.intp)
+    pos[kept] = np.arange(int(kept.sum()))
+    cur = np.arange(n)
+    sign = np.ones((n, 3))
+    for axis, image, side in images:
+        flip = ~side[cur]  # on the - side of this line: take the image
+        cur = np.where(flip, image[cur], cur)
+        m = -np.ones(3)
+        m[axis] = 1.0
+        sign[flip] *= m
+    rep = pos[cur]
+    if np.any(rep < 0):  # pragma: no cover - guarded by surface_images' own check
+        raise RuntimeError("mirror images of the level surface are not among the kept nodes")
+    return b_kept[rep] * sign
 
 
 #: the mirror lines (0: in x, 1: in y) that map a pose of each coordinate onto itself

@@ -68,12 +68,13 @@ def _weigh(coefficients: np.ndarray, values: np.ndarray) -> np.ndarray:
     return out.reshape(*coefficients.shape[1:], values.shape[1])
 
 
-def _near_any(x: np.ndarray, values: np.ndarray, tol: float) -> np.ndarray:
-    """Which of ``x`` (n,) lie within ``tol`` of one of the sorted ``values``."""
+def _near_any(x: np.ndarray, values: np.ndarray, tol: float) -> tuple[np.ndarray, np.ndarray]:
+    """Which of ``x`` (n,) equal one of the sorted, distinct ``values`` (as ``np.isin``),
+    and which lie within ``tol`` of one: one search for both."""
     i = np.searchsorted(values, x)
     lo = values[np.maximum(i - 1, 0)]
     hi = values[np.minimum(i, values.size - 1)]
-    return (np.abs(x - lo) <= tol) | (np.abs(x - hi) <= tol)
+    return (x == lo) | (x == hi), (np.abs(x - lo) <= tol) | (np.abs(x - hi) <= tol)
 
 
 class _LogPlan:
@@ -325,9 +326,8 @@ class CuboidSet:
         pn = p / self._scale
         # which points lie on a corner plane (arctangent masked) or near a corner line
         # (logarithm regularised): found once, so the chunks below skip the masks
-        on_plane = [np.isin(pn[:, a], self._values[a]) for a in range(3)]
         snap = EDGE_SNAP * self._ell
-        close = [_near_any(pn[:, a], self._values[a], snap) for a in range(3)]
+        on_plane, close = zip(*(_near_any(pn[:, a], self._values[a], snap) for a in range(3)))
         on_line = [close[b] & close[c] for b, c in ((1, 2), (0, 2), (0, 1))]
         # strictly between the outermost corner planes of an axis: paired arctangents
         # there may need their branch
