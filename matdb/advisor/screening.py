@@ -29,7 +29,7 @@ import pandas as pd
 
 from matdb.advisor.candidates import Catalogue, grade_chi_rec
 from matdb.advisor.request import AdviceRequest
-from matdb.advisor.tables import SCREEN_HEIGHTS_M, GeometryData, geometry, prepare_family
+from matdb.advisor.tables import SCREEN_HEIGHTS_M, GeometryData, geometry, prepare_family, save_all
 from matdb.errors import InputError
 from matdb.physics import plate_tables as PT
 from matdb.physics import thermal as TH
@@ -72,7 +72,6 @@ def prepare_all(geos: list[GeometryData], heights: np.ndarray, lat_heights: np.n
         prepare_family(family, heights, lat_heights)
         for g in family:
             g.demag_hmax()
-            g.save()
 
     groups: dict[tuple, list[GeometryData]] = {}
     for g in geos:
@@ -89,10 +88,12 @@ def prepare_all(geos: list[GeometryData], heights: np.ndarray, lat_heights: np.n
             report(0.05 + 0.55 * i / len(cold),
                    f"field integrals of {fam[0].spec.description} ({i + 1} of {len(cold)})")
             prep(fam)
+        save_all(geos)
         return
     cold.sort(key=lambda f: -len(f) * f[0].spec.count * (3 if f[0].spec.shape == "cylinder" else 1))
     with ThreadPoolExecutor(max_workers=workers) as ex:
         list(ex.map(prep, cold))
+    save_all(geos)
 
 
 def _material_arrays(mats, t_k: float):

@@ -111,7 +111,7 @@ class GeometryData:
         self.chi_rec = float(chi_rec)
         # unit remanence, each magnet on its recoil line (linear in Br: scaled later)
         self._unit = None
-        self.breaks = P.edge_lines(spec.build(1.0).magnets)
+        self.breaks = P.edge_lines(_built(spec).magnets)
         self._even: tuple[bool, bool, bool] | None = None
         key = {"v": CODE_VERSION, "arr": spec.key(), "plate": [repr(v) for v in self.plate_m],
                "screen": [SCREEN_ORDER, repr(SCREEN_RULE_FLOOR_M), repr(LATERAL_STEP_M), TILT_ORDER],
@@ -130,7 +130,7 @@ class GeometryData:
         """The arrangement at unit remanence on its recoil line (built on first use: a
         geometry whose tables are all on disk never solves the recoil problem)."""
         if self._unit is None:
-            self._unit = self.spec.build(1.0).with_recoil([self.chi_rec] * self.spec.count)
+            self._unit = _built(self.spec).with_recoil([self.chi_rec] * self.spec.count)
         return self._unit
 
     @property
@@ -190,7 +190,7 @@ class GeometryData:
         if missing:
             vals = compute(np.array(missing, dtype=float) * HEIGHT_KEY_M)
             for k, v in zip(missing, vals):
-                st[k] = tuple(float(x) for x in np.ravel(v))
+                st[k] = tuple(np.ravel(v).tolist())
             self.dirty = True
         out = np.array([st[k] for k in keys], dtype=float).reshape(len(hs), -1)
         self._arrays[akey] = out
@@ -298,8 +298,8 @@ def prepare_family(geos: list[GeometryData], heights, lat_heights) -> None:
                                              SCREEN_RULE_FLOOR_M, LATERAL_STEP_M, even)
         for g, v in zip(geos, vals):
             st = g.stores[name]
-            for k, row in zip(keys, v):
-                st.setdefault(k, tuple(float(x) for x in row))
+            for k, row in zip(keys, np.asarray(v).tolist()):
+                st.setdefault(k, tuple(row))
             g.dirty = True
 
 
@@ -339,6 +339,17 @@ def shape_key(spec: ArrangementSpec) -> tuple:
             float(spec.spacing) / a, spec.back_plate)
 
 
+_BUILT: dict[ArrangementSpec, Any] = {}
+
+
+def _built(spec: ArrangementSpec):
+    """``spec.build(1.0)``, once per arrangement (an immutable :class:`Arrangement`)."""
+    a = _BUILT.get(spec)
+    if a is None:
+        a = _BUILT[spec] = spec.build(1.0)
+    return a
+
+
 def geometry(spec: ArrangementSpec, plate_m: tuple[float, float], chi_rec: float) -> GeometryData:
     """The (memory-cached) :class:`GeometryData` of ``spec`` under a plate of ``plate_m``,
     magnets of recoil susceptibility ``chi_rec`` (``mu_rec - 1`` of their family)."""
@@ -350,13 +361,19 @@ def geometry(spec: ArrangementSpec, plate_m: tuple[float, float], chi_rec: float
     return g
 
 
-def save_all() -> None:
-    """Write every geometry with new tables to the disk cache."""
-    for g in list(_GEOMETRIES.values()):
-        g.save()
+def save_all(geos=None) -> None:
+    """Write every geometry (or those of ``geos``) with new tables to the disk cache, in
+    one transaction."""
+    todo = [g for g in (list(_GEOMETRIES.values()) if geos is None else geos) if g.dirty]
+    if not todo:
+        return
+    with disk_cache().transact():
+        for g in todo:
+            g.save()
 
 
 def clear_memory_cache() -> None:
     """Forget the in-memory geometry cache (the disk cache stays)."""
     _GEOMETRIES.clear()
     _HMAX.clear()
+    _BUILT.clear()
