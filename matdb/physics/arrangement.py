@@ -282,7 +282,8 @@ class Arrangement:
             # of the same magnets keep apart departure tables
             label = tuple(np.sign(np.round([m.direction for m in self.magnets], 6)).astype(int).ravel().tolist())
             c = CorrectionField(*self.cells[:3], self.bottom_z if self.back_plate else None,
-                                self.top_z, tabulate=self.tabulated, owner=self.cells[3], label=label)
+                                self.top_z, tabulate=self.tabulated, owner=self.cells[3], label=label,
+                                ref=max(abs(m.br) for m in self.magnets))
             self._cache["correction"] = c
         return c
 

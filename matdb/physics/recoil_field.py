@@ -18,14 +18,23 @@ sizes ``s``, centre ``x_c``, top ``z_t,c``; images in a steel back plate are mor
 cells). :class:`CorrectionField` sums ``S(k)`` once on an FFT grid (the cells share few
 distinct x, y positions: the sum is three small tensor contractions), continues it to a
 stack of heights spaced geometrically above the top face, transforms back
-(``scipy.fft``) and keeps the values over the region a plate can occupy, as cubic
-B-spline coefficients (``scipy.ndimage.spline_filter``); a point is then three cubic
-interpolations (``scipy.ndimage.map_coordinates``). Points outside that region (inside or
-beside the magnets, far away, high above) are evaluated exactly from the cells.
+(``scipy.fft``, single precision) and keeps the values over the region a plate can
+occupy; a point is then one trilinear interpolation in x, y and the level index, of every
+table of the geometry at once. Points outside that region (inside or beside the magnets,
+far away, high above) are evaluated exactly from the cells.
+
+Sharing (what keeps the default model cheap): the tables are built on the geometry in
+units of its largest magnet edge (``B(l r; l geometry) = B(r; geometry)``: every size of
+one shape and pattern reads the same table), and one geometry keeps a small orthonormal
+basis of departure patterns with one table each (:class:`_Basis`): a departure is read as
+its projection on the basis when the part outside is below :data:`BASIS_TOL` of the
+field's scale, else that part gets a table. The recoil susceptibilities of the catalogue
+(0.05 to 2.6) need two or three tables per pattern. Tables are kept as ``.npy`` files
+beside the disk cache of :func:`matdb.physics.recoil.disk_cache`.
 
 The table is band-limited at the grid's Nyquist wavenumber (a cosine taper over its upper
-half): within about ``3 h`` of the top face (``h`` the grid spacing, :data:`SPACING_M`)
-it is the field of the departures smoothed over ``h``. There the exact cell field carries
+half): within about ``3 h`` of the top face (``h`` the grid spacing, a cell's width over
+:data:`CELL_NODES`) it is the field of the departures smoothed over ``h``. There the exact cell field carries
 the steps of the piecewise-constant cells, which are themselves an artefact of the
 discretisation. The interpolation error is tested against the exact cell field in
 ``tests/test_recoil.py``.
@@ -75,9 +84,11 @@ HEIGHT_L = 4.0
 #: point dipoles (:meth:`CorrectionField.far_set`).
 FAR_FACTOR = 1.0
 #: Departures are combined from the tables of earlier ones when their part outside the
-#: span of those (2-norm over the cells) is below this fraction of their norm; otherwise
-#: that part gets a table of its own. Tested error bound: see ``tests/test_recoil.py``.
-BASIS_TOL = 2e-2
+#: span of those (2-norm over the cells) is below this fraction of their norm times the
+#: magnets' polarisation over the largest departure (so the error is this fraction of the
+#: field's scale, however large the departures); otherwise that part gets a table of its
+#: own. Tested error bound: see ``tests/test_recoil.py``.
+BASIS_TOL = 1e-3
 _BASES: dict = {}  # departure bases, by geometry in units of the magnet size
 _SHARED: dict = {}  # exact sources and dipoles, by real geometry and departures
 _LOCK = threading.Lock()
@@ -322,14 +333,16 @@ class _Basis:
                     self.vectors.append(vec)
                     self.tables.append(None)
 
-    def coefficients(self, v: np.ndarray) -> np.ndarray:
-        """``c`` with ``v ~ sum_j c_j u_j`` (a new vector and table when needed)."""
+    def coefficients(self, v: np.ndarray, share: float = 1.0) -> np.ndarray:
+        """``c`` with ``v ~ sum_j c_j u_j`` (a new vector and table when the part of ``v``
+        outside the span, relative to ``v`` and times ``share`` (the departures' size over
+        the polarisation's), exceeds :data:`BASIS_TOL`)."""
         with self.lock:
             U = np.array(self.vectors) if self.vectors else np.zeros((0, v.size))
             c = U @ v
             r = v - c @ U
             nv = float(np.linalg.norm(v))
-            if nv == 0.0 or float(np.linalg.norm(r)) <= BASIS_TOL * nv:
+            if nv == 0.0 or float(np.linalg.norm(r)) * share <= BASIS_TOL * nv:
                 return c
             r -= (U @ r) @ U  # once more: orthogonal to rounding
             u = r / float(np.linalg.norm(r))
@@ -385,6 +398,9 @@ class CorrectionField:
     label : tuple
         Fields of the same cells whose departures differ in kind (the magnets' pattern of
         polarisations) keep apart tables under different labels.
+    ref : float, optional
+        The magnets' largest polarisation [T]: the scale of the field for
+        :data:`BASIS_TOL` (default: the departures' own).
 
     The tables are built on first use on the geometry in units of its largest magnet
     (:attr:`scale`; the field of a scaled geometry is the same function of the scaled
@@ -394,7 +410,7 @@ class CorrectionField:
     """
 
     def __init__(self, sizes, centres, dj, plate_z, top_z, tabulate: bool = True, owner=None,
-                 label=()):
+                 label=(), ref: float | None = None):
         self.sizes = np.asarray(sizes, dtype=float)
         self.centres = np.asarray(centres, dtype=float)
         self.dj = np.asarray(dj, dtype=float)
@@ -403,6 +419,7 @@ class CorrectionField:
         self.top_z = float(top_z)
         self.tabulate = bool(tabulate)
         self.label = tuple(label)
+        self.ref = None if not ref else float(ref)
         self._exact = None
         self._sh = None
         self._cmat = None
@@ -448,7 +465,8 @@ class CorrectionField:
         """``C`` (3 K, 3): the departure field is ``gather(q) @ C`` (:meth:`_Basis.values`)."""
         if self._cmat is None:
             b = self._basis()
-            c = b.coefficients(self.dj.ravel() / self._norm)
+            c = b.coefficients(self.dj.ravel() / self._norm,
+                               1.0 if self.ref is None else self._norm / self.ref)
             self._cmat = np.kron(c[:, None], np.eye(3)) * self._norm
             self._b = b
         return self._cmat
