@@ -170,6 +170,36 @@ def footprint_rows(env: dict[str, str], sizes: tuple[int, ...]) -> list[Row]:
     return rows
 
 
+#: what ``matdb levitate`` imports before it computes, in the order it needs them
+STARTUP_STEPS = ("numpy", "scipy.optimize", "sqlalchemy", "pint", "matdb.cli.physics",
+                 "matdb.analysis.levitate")
+
+
+def startup_row(env: dict[str, str], repeats: int) -> Row:
+    """CPU time of a whole process that only imports what ``matdb levitate`` imports (the
+    floor under the CLI row); the note splits it by package, each step's CPU time after
+    the steps before it (minimum of the repeats)."""
+    code = ("import json, time\nout = []\n"
+            + "".join(f"t = time.process_time(); import {m}; out.append(time.process_time() - t)\n"
+                      for m in STARTUP_STEPS)
+            + "print(json.dumps(out))")
+    row = Row("plate levitate CLI start-up: imports only (whole process)", "-", load=_load())
+    steps = []
+    for _ in range(repeats):
+        t0 = time.perf_counter()
+        proc = subprocess.Popen([sys.executable, "-c", code], env=env, stdout=subprocess.PIPE,
+                                stderr=subprocess.DEVNULL, text=True)
+        out = proc.stdout.read()
+        _, status, usage = os.wait4(proc.pid, 0)
+        row.wall.append(time.perf_counter() - t0)
+        row.cpu.append(usage.ru_utime + usage.ru_stime)
+        if os.waitstatus_to_exitcode(status) == 0 and out.strip():
+            steps.append(json.loads(out.strip().splitlines()[-1]))
+    if steps:
+        row.note = ", ".join(f"{m} {min(s[i] for s in steps):.2f}" for i, m in enumerate(STARTUP_STEPS))
+    return row
+
+
 def baseline_rows(label: str, goals: tuple[str, str], argv: list[str], env: dict[str, str],
                   base_dir: str, repeats: int) -> list[Row]:
     """In-process (cold, warm) and whole-process rows of ``argv`` for the code in
@@ -326,6 +356,7 @@ def main(argv: list[str] | None = None) -> int:
                                                    ["levitate", plate, "--format", "json"], env, n)),
         ("plate levitate CLI", lambda: [process_row("plate levitate 2x2 example, CLI (whole process)", "< 1.5 s",
                                                     ["levitate", plate, "--format", "json"], env, n)]),
+        ("plate levitate CLI start-up", lambda: [startup_row(env, max(n, 5))]),
         ("plate levitate before/now", lambda: baseline_rows(
             "plate levitate 2x2 example", ("-", "< 0.5 s", "< 1.5 s"), ["levitate", plate, "--format", "json"],
             env, args.baseline, n) if args.baseline else []),
