@@ -366,13 +366,19 @@ class Arrangement:
         plate_z = self.bottom_z if self.back_plate else None
         J = effective_polarizations(self.magnets, chis, plate_z, subdivision)
         cells = polarization_cells(self.magnets, chis, plate_z, subdivision)
-        # components at rounding level (symmetry makes them zero) are zero: the field code
+        # components at the solver's tolerance (symmetry makes them zero) are zero: the field code
         # then skips the terms of those components, as for the rigid magnets
-        J = np.where(np.abs(J) < 1e-12 * np.abs(J).max(axis=1, keepdims=True), 0.0, J)
+        J = np.where(np.abs(J) < 1e-9 * np.abs(J).max(axis=1, keepdims=True), 0.0, J)
         mags = []
+        seen: list[float] = []
         for m, j in zip(self.magnets, J):
             n = float(np.linalg.norm(j))
-            mags.append(replace(m, direction=tuple(float(c) / n for c in j), br=n) if n > 0 else m)
+            # magnitudes equal to the solver's tolerance (symmetry makes them equal) are equal:
+            # the field code shares the terms of magnets with the same polarisation
+            n = next((v for v in seen if abs(v - n) <= 1e-9 * n), n)
+            seen.append(n)
+            mags.append(replace(m, direction=tuple(float(c) / np.linalg.norm(j) for c in j), br=n)
+                        if n > 0 else m)
         return Arrangement(tuple(mags), self.back_plate, self.pattern, self.rows, self.cols, cells,
                            tabulated)
 

@@ -84,7 +84,7 @@ __all__ = [
 #: converges slowly next to the shared edges of opposite neighbours (the reverse field there
 #: diverges logarithmically); a single cube is converged at n = 5 (5.81 / 5.50 %; n = 8:
 #: 5.81 / 5.57 %). Its cost is kept down by sharing: see :mod:`matdb.physics.recoil_field`
-#: and README "Recoil permeability" (``advise`` 17 mm cold 2.4x the one-cell model).
+#: and README "Recoil permeability" (``advise`` 17 mm cold 2.9x the one-cell model).
 SUBDIVISION = 5
 #: The accurate model of one design (the default; kept as a name for callers).
 ACCURATE_SUBDIVISION = 5

@@ -18,7 +18,7 @@ sizes ``s``, centre ``x_c``, top ``z_t,c``; images in a steel back plate are mor
 cells). :class:`CorrectionField` sums ``S(k)`` once on an FFT grid (the cells share few
 distinct x, y positions: the sum is three small tensor contractions), continues it to a
 stack of heights spaced geometrically above the top face, transforms back
-(``scipy.fft``, single precision) and keeps the values over the region a plate can
+(``scipy.fft``), stores them in single precision and keeps the values over the region a plate can
 occupy; a point is then one trilinear interpolation in x, y and the level index, of every
 table of the geometry at once. Points outside that region (inside or beside the magnets,
 far away, high above) are evaluated exactly from the cells.
@@ -74,8 +74,9 @@ MAX_GRID = 768
 #: Relative spacing of the height levels (geometric above the first, ``h``).
 Z_RATIO = 0.12
 #: Horizontal margin of the table around the magnets, in units of the largest magnet edge
-#: (and at least this fraction of the magnets' extent).
-MARGIN_L = 0.8
+#: (and at least this fraction of the magnets' extent): at least :data:`FAR_FACTOR`, so a
+#: point beside the table is in the point-dipole zone, never one for the cells one by one.
+MARGIN_L = 1.0
 MARGIN_FRAC = 0.35
 #: Height of the table above the top face, in units of the largest magnet edge (and at
 #: least twice the magnets' extent).
@@ -200,14 +201,16 @@ class _Table:
         taper = np.cos(0.5 * np.pi * t) ** 2
         taper[kabs >= k_nyq] = 0.0
         spec = spec * (taper / h ** 2)[:, :, None]
-        # (component, k_y, k_x), float32: the first inverse transform along contiguous memory
-        spec = np.ascontiguousarray(np.transpose(spec, (2, 1, 0)), dtype=np.complex64)
-        kabs_t = np.ascontiguousarray(kabs.T, dtype=np.float32)
+        # (component, k_y, k_x): the first inverse transform along contiguous memory (double
+        # precision: a mirror-symmetric geometry keeps a table symmetric to rounding, which
+        # the plate code's symmetry checks ask for, 1e-12)
+        spec = np.ascontiguousarray(np.transpose(spec, (2, 1, 0)))
+        kabs_t = np.ascontiguousarray(kabs.T)
         # (level, x, y, component): the eight corners of a point's cell are eight rows of
         # a (nodes, components) matrix, gathered for every table of the geometry at once
         coef = np.empty((nz, self.nb[0], self.nb[1], 3), dtype=np.float32)
         for j0 in range(0, nz, LEVEL_CHUNK):  # a few levels at a time: bounded memory
-            zl = levels[j0:j0 + LEVEL_CHUNK].astype(np.float32)
+            zl = levels[j0:j0 + LEVEL_CHUNK]
             lev = spec[None] * np.exp(-kabs_t[None] * zl[:, None, None])[:, None]  # (l, c, ky, kx)
             # inverse along x, keep the table's rows, then along y (half spectrum)
             lev = sfft.ifft(lev, axis=3, workers=1)[..., :self.nb[0]]
@@ -287,11 +290,12 @@ class _Table:
         base = (i[0] * dims[1] + i[1]) * dims[2] + i[2]
         sz, sx = int(dims[1] * dims[2]), int(dims[2])
         widths = np.cumsum([0] + [v.shape[1] for v in values])
-        out = np.zeros((q.shape[0], int(widths[-1])))
-        for dz, wz in ((0, 1.0 - t[0]), (sz, t[0])):
-            for dx, wx in ((0, 1.0 - t[1]), (sx, t[1])):
+        out = np.zeros((q.shape[0], int(widths[-1])))  # (float32 values, double weights: exact mirrors)
+        u = 1.0 - t
+        for dz, wz in ((0, u[0]), (sz, t[0])):
+            for dx, wx in ((0, u[1]), (sx, t[1])):
                 w = wz * wx
-                w0 = (w * (1.0 - t[2]))[:, None]
+                w0 = (w * u[2])[:, None]
                 w1 = (w * t[2])[:, None]
                 k = base + (dz + dx)
                 for v, a, b in zip(values, widths[:-1], widths[1:]):
