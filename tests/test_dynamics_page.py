@@ -27,6 +27,8 @@ def test_design_page_dynamics_section():
     at = AppTest.from_file(APP, default_timeout=180).run()
     at.switch_page("views/design.py").run()
     assert not at.exception, [e.message for e in at.exception]
+    at.session_state["d_view"] = "Dynamics: modes, damping, Q, noise"  # a view built when chosen
+    at.run()
     drawing = [df for _, df in _frames(at) if "ring" in df.columns and "x_mm" in df.columns]
     assert drawing, "no plate drawing"
     # the default 12 mm square: the outer ring spans 12 mm (design file), closed
@@ -53,6 +55,8 @@ def test_lab_values_page_records_a_measured_q():
     at = AppTest.from_file(APP, default_timeout=120).run()
     at.switch_page("views/lab_values.py").run()
     assert not at.exception, [e.message for e in at.exception]
+    at.session_state["lab_q_panel"] = True  # the panel is built when opened
+    at.run()
     at.text_input(key="lab_q").set_value("40")
     at.text_input(key="lab_q_f").set_value("16 Hz")
     at.button(key="lab_q_submit").click().run()

@@ -153,6 +153,8 @@ def test_page_tables_show_a_status_mark_beside_each_value():
     assert row["br_t"] == pytest.approx(1.31) and row["br_t_check"] == "c" and row["hcj_ka_m_check"] == "v"
     assert set(grades["br_t_check"]) <= {"v", "c", "?", "m"}
     assert any("v = verified" in c.value for c in at.caption)
+    at.session_state["grades_sources_panel"] = True  # the sources panel is built when opened
+    at.run()
     sources = next(d.value for d in at.dataframe if "citation" in d.value.columns)
     assert {"verified", "corrected", "unverified"} <= set(sources.columns)
     at.switch_page("views/materials.py").run()

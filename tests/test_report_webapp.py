@@ -20,6 +20,9 @@ def test_design_page_offers_report_and_drawing_downloads():
     assert not at.exception, [e.message for e in at.exception]
     labels = [d.label for d in at.get("download_button")]
     assert not any(lbl.startswith("Report") for lbl in labels)  # made on request only
+    at.session_state["d_report_panel"] = True  # the panel is built when opened
+    at.session_state["d_view"] = "Field map and polarity"
+    at.run()
     at.button(key="design_prepare").click().run()
     assert not at.exception, [e.message for e in at.exception]
     labels = [d.label for d in at.get("download_button")]
@@ -36,5 +39,7 @@ def test_advisor_page_offers_the_report_of_the_chosen_candidate():
     at = AppTest.from_file(APP, default_timeout=600).run()
     at.switch_page("views/advisor.py").run()
     assert not at.exception, [e.message for e in at.exception]
+    at.session_state["adv_report_panel"] = True  # the panel is built when opened
+    at.run()
     assert any(b.key == "adv_prepare" for b in at.button)
     assert any(s.key == "adv_paper" for s in at.selectbox)

@@ -103,6 +103,8 @@ def test_materials_reach_band_separates_graphite_from_bismuth(materials_page):
     need = _frame_with(_charts(at)[0], "verdict").set_index("id")
     assert need.loc["pyrolytic-graphite", "verdict"] == "plate floats"
     assert need.loc["bismuth", "verdict"] != "plate floats"
+    at.session_state["reach_panel"] = True  # the table's panel is built when opened
+    at.run()
     reach = _table(at, "peak_t2_m")
     assert len(reach) >= 3
     assert (reach["peak_t2_m"] > reach["plate_avg_t2_m"]).all()
@@ -228,6 +230,22 @@ def _design_page():
     return at
 
 
+def _view(at, name: str):
+    """Open one of the Design page's views (tabs built only when chosen)."""
+    at.session_state["d_view"] = name
+    at.run()
+    assert not at.exception, [e.message for e in at.exception]
+    return at
+
+
+def _saved_panel(at):
+    """Open the Design page's saved-designs panel (built only when opened)."""
+    at.session_state["d_saved_panel"] = True
+    at.run()
+    assert not at.exception, [e.message for e in at.exception]
+    return at
+
+
 def _metric(at, label):
     for m in at.metric:
         if m.label == label:
@@ -255,7 +273,7 @@ def test_design_default_floats_with_weight_line_and_equilibrium():
 
 
 def test_design_polarity_map_bill_of_materials_and_cautions():
-    at = _design_page()
+    at = _view(_design_page(), "Field map and polarity")
     pol = None
     for el in _charts(at):
         for df in _chart_frames(el):
@@ -266,6 +284,7 @@ def test_design_polarity_map_bill_of_materials_and_cautions():
     first = pol.sort_values(["y_mm", "x_mm"]).iloc[0]
     assert first["points"] == "north up"
     assert sorted(pol["label"]) == ["N", "N", "S", "S"]
+    _view(at, "Numbers and bill of materials")
     bom = _table(at, "grade_or_material").set_index("item")
     n50 = catalog.get_grade("N50")
     assert bom.loc["magnet", "count"] == 4
@@ -494,7 +513,7 @@ def _saved_names(url=None):
 
 
 def test_design_save_list_reopen_and_bad_input_writes_nothing(fresh_db):
-    at = _design_page()
+    at = _saved_panel(_design_page())
     # a bad name: a message, nothing written
     at.text_input(key="d_save_name").set_value("   ")
     at.button(key="d_save").click().run()
@@ -535,7 +554,7 @@ def test_design_duplicate_delete_and_compare(fresh_db):
     small = design_text_from_fields(dict(DESIGN_FORM_DEFAULTS, size="6 mm, 6 mm, 6 mm"))
     saved_designs.save_design("demo small", small, "demo", url=fresh_db)
     saved_designs.save_design("demo large", design_text_from_fields(DESIGN_FORM_DEFAULTS), "demo", url=fresh_db)
-    at = _design_page()
+    at = _saved_panel(_design_page())
     at.selectbox(key="d_saved_pick").set_value("demo small")
     at.button(key="d_saved_dup").click().run()
     assert not at.exception
@@ -546,6 +565,7 @@ def test_design_duplicate_delete_and_compare(fresh_db):
     at.button(key="d_saved_delete").click().run()
     assert not at.exception
     assert sorted(_saved_names(fresh_db)) == ["demo large", "demo small"]
+    _view(at, "Compare saved designs")
     at.multiselect(key="d_compare").set_value(["demo small", "demo large"]).run()
     assert not at.exception, [e.message for e in at.exception]
     table = _table(at, "figure").set_index("figure")

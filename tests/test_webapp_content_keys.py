@@ -28,6 +28,8 @@ def _app(page: str | None = None, timeout: float = 180) -> AppTest:
 
 
 def _reach_table(at):
+    at.session_state["reach_panel"] = True  # the table's panel is built when opened
+    at.run()
     return next(d.value for d in at.dataframe if "plate_avg_t2_m" in d.value.columns)
 
 
@@ -90,6 +92,8 @@ def test_design_dynamics_recompute_only_when_the_plate_values_change(fresh_db, m
     _results._dynamics_prep.clear()
     _results._pressure_sweep.clear()
     at = _app("views/design.py")
+    at.session_state["d_view"] = "Dynamics: modes, damping, Q, noise"  # a view built when chosen
+    at.run()
     at.checkbox(key="d_dyn_run").check().run()
     assert not at.exception, [e.message for e in at.exception]
     assert len(prepared) == 1
@@ -124,6 +128,8 @@ def test_optimiser_result_follows_the_catalogue(fresh_db, monkeypatch):
     monkeypatch.setattr(synthesis, "optimise", fake_optimise)
     _results._OPTIMISED.clear()
     at = _app("views/advisor.py", timeout=900)  # a new catalogue ranks afresh: minutes on a loaded machine
+    at.session_state["opt_panel"] = True  # the optimiser's panel is built when opened
+    at.run()
     at.button(key="opt_run").click().run()
     assert not at.exception, [e.message for e in at.exception]
     assert len(runs) == 1 and any("No sized design" in w.value for w in at.warning)

@@ -68,6 +68,8 @@ def test_bad_envelope_is_a_message_next_to_the_form():
 def test_optimiser_on_the_page():
     at = _advisor()
     _request(at)
+    at.session_state["opt_panel"] = True  # the optimiser's panel is built when opened
+    at.run()
     at.button(key="opt_run").click().run()
     assert not at.exception, [e.message for e in at.exception]
     table = _table(at, "source")

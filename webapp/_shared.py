@@ -187,16 +187,30 @@ def materials_table(convention: str, url: str):
     return _materials_table(convention, url, catalogue_stamp(url))
 
 
+_REACH_DONE: set = set()  # (url, grades key) of reaches computed by this server
+
+
 @st.cache_data(show_spinner=False, max_entries=8)
 def _arrangement_reach(url: str, grades_key: str):
-    return reach.arrangement_reach(url=url)
+    value = reach.arrangement_reach(url=url)
+    _REACH_DONE.add((url, grades_key))
+    return value
+
+
+def _reach_key(url: str) -> str:
+    used = sorted({spec.grade for spec in reach.STANDARD_ARRANGEMENTS})
+    grades = magnets_df(url)
+    return frame_key(grades[grades["grade"].isin(used)])
 
 
 def arrangement_reach(url: str):
     """The reach of the common arrangements, keyed on the values of the grades they use."""
-    used = sorted({spec.grade for spec in reach.STANDARD_ARRANGEMENTS})
-    grades = magnets_df(url)
-    return _arrangement_reach(url, frame_key(grades[grades["grade"].isin(used)]))
+    return _arrangement_reach(url, _reach_key(url))
+
+
+def arrangement_reach_ready(url: str) -> bool:
+    """True when :func:`arrangement_reach` has these grade values computed (no progress bar)."""
+    return (url, _reach_key(url)) in _REACH_DONE
 
 
 @st.cache_data(show_spinner=False, max_entries=8)
@@ -248,8 +262,12 @@ def status_legend() -> None:
 
 
 def sources_expander(url: str, key: str) -> None:
-    """The bibliography with how many values each source supports, by status."""
-    with st.expander("Sources and checks"):
+    """The bibliography with how many values each source supports, by status (built when
+    the panel is opened: ``key`` names its table, ``key`` + "_panel" the panel)."""
+    panel = st.expander("Sources and checks", key=f"{key}_panel", on_change="rerun")
+    if not panel.open:
+        return
+    with panel:
         try:
             src = sources_table(url)
         except MatdbError as exc:

@@ -14,6 +14,14 @@ from webapp import _downloads
 from webapp import _results as rs
 from webapp import _shared as sh
 
+# "Open on the Design page" was clicked: go there at once with the candidate prepared on the
+# last run (unless the box changed since), without drawing this page again first
+_prepared = st.session_state.get("adv_prepared_open")
+if st.session_state.get("adv_open") and _prepared and \
+        st.session_state.get(_prepared["choice_key"]) == _prepared["choice"]:
+    st.session_state["d_open"] = _prepared["open"]
+    st.switch_page("views/design.py")
+
 st.title("Advisor")
 url = sh.db_url()
 mats = sh.materials_table("si-volume", url)
@@ -128,7 +136,10 @@ def pareto_chart(table):
                  "verdict:N", alt.Tooltip("reasons_text:N", title="reasons")],
     ).add_params(pick)
     rule = alt.Chart(plot.head(1)).mark_rule(color="#b2182b", strokeDash=[4, 3]).encode(y=alt.datum(1.0))
-    return alt.layer(points, rule).properties(height=360, title="Indicative cost against worst-case margin")
+    # each material's best-ranked point carries the material's name: colour is not the only carrier
+    names = alt.Chart(plot.drop_duplicates("material")).mark_text(align="left", dx=8, dy=-8, fontSize=11).encode(
+        x="cost_usd:Q", y="margin:Q", text="material:N", color=alt.Color("material:N", legend=None))
+    return alt.layer(points, rule, names).properties(height=360, title="Indicative cost against worst-case margin")
 
 
 sig = presentation.ranking_signature(params)
@@ -136,7 +147,7 @@ event = sh.chart(("pareto", call.key, int(top)), lambda: pareto_chart(table), wi
                  key=f"adv_chart_{sig}")
 st.caption("Diamonds: feasible and on the Pareto front (no other candidate beats them on margin, cost and "
            "derating at once); circles: other feasible candidates; crosses, faded: rejected. Dashed line: "
-           "margin 1 (just floats). Click a point to choose it.")
+           "margin 1 (just floats). Each material's best candidate is named beside its point. Click a point to choose it.")
 
 # ---- ranked table -------------------------------------------------------------
 st.subheader("Ranking")
@@ -186,52 +197,58 @@ with sh.shown_errors("candidate design"):
     big = max(row["size_m"]) > LARGE_MAGNET_M or (row.get("magnet_mass_kg") or 0) > LARGE_MAGNET_MASS_KG
     if big:
         st.warning(SAFETY_TEXT.replace("\n", "  \n"))
+    fields = presentation.form_fields_from_design(load_design_text(toml_text))
+    opening = {"fields": fields, "text": toml_text, "message": f"Opened advisor candidate {labels[choice]}."}
+    st.session_state["adv_prepared_open"] = {"choice_key": choice_key, "choice": choice, "open": opening}
     d1, d2 = st.columns(2)
     d1.download_button("Download this design (TOML)", toml_text.encode(),
                        file_name=f"design-{row['material']}-{row['grade']}.toml", mime="application/toml",
                        key="adv_download_design")
-    _downloads.report_buttons(toml_text, url, "adv", name=f"design-{row['material']}-{row['grade']}")
     if d2.button("Open on the Design page", key="adv_open", type="primary"):
-        fields = presentation.form_fields_from_design(load_design_text(toml_text))
-        st.session_state["d_open"] = {"fields": fields, "text": toml_text,
-                                      "message": f"Opened advisor candidate {labels[choice]}."}
+        st.session_state["d_open"] = opening
         st.switch_page("views/design.py")
+    report = st.expander("Report and drawing of this candidate", key="adv_report_panel", on_change="rerun")
+    if report.open:
+        with report:
+            _downloads.report_buttons(toml_text, url, "adv", name=f"design-{row['material']}-{row['grade']}")
 
 # ---- sizing optimiser ---------------------------------------------------------------
-st.subheader("Size beyond the catalogue")
-st.caption("Starts from the best feasible candidate above and varies the magnet size, rows and columns, "
-           "spacing, plate side and thickness within the footprint, envelope and budget; every design shown "
-           "is re-checked exactly as the Design page computes it. This takes a while (see the progress bar).")
-objective = st.selectbox("Objective", ("margin", "cost"), key="opt_objective",
-                         format_func=lambda o: {"margin": "largest worst-case margin within the budget",
-                                                "cost": "cheapest design reaching a margin"}[o])
-o2, o3 = st.columns(2)
-min_margin = o2.number_input("Margin to reach (cost objective)", 0.5, 10.0, 1.2, 0.1, key="opt_min_margin")
-run_opt = o3.button("Optimise sizes", key="opt_run", type="primary")
-opt_key = (tuple(sorted(params.items())), objective, float(min_margin) if objective == "cost" else None)
-if run_opt or rs.optimise_done(opt_key, url):
-    try:
-        result = rs.run_optimise(opt_key, url, label="Sizing:")
-    except MatdbError as exc:
-        st.error(sh.plain(f"optimiser: {exc}"))
-        st.stop()
-    if not result.rows:
-        st.warning(sh.plain("No sized design passed the exact check. " + " ".join(result.notes)))
-    else:
-        if result.improvement is not None:
-            word = "margin" if result.objective == "margin" else "cost"
-            st.success(sh.plain(f"Best: {presentation.candidate_label(result.rows[0])}; {word} "
-                                f"{'+' if result.objective == 'margin' else '-'}{abs(result.improvement):.1%} "
-                                "against the best catalogue candidate (re-checked the same way)."))
-        for n in result.notes:
-            st.info(sh.plain(n))
-        opt_table = presentation.advisor_table(presentation.optimised_frame(result.rows))
-        st.dataframe(opt_table[["rank", "source"] + [c for c in presentation.ADVISOR_SHOWN
-                                                      if c not in ("rank", "score", "pareto")]],
-                     hide_index=True, key="opt_table")
-        best_row = result.rows[0]
-        if max(best_row["size_m"]) > LARGE_MAGNET_M or (best_row.get("magnet_mass_kg") or 0) > LARGE_MAGNET_MASS_KG:
-            st.warning(SAFETY_TEXT.replace("\n", "  \n"))
-        st.download_button("Download the best sized design (TOML)", presentation.optimised_toml(result).encode(),
-                           file_name=f"design-sized-{best_row['material']}-{best_row['grade']}.toml",
-                           mime="application/toml", key="opt_download")
+sizing = st.expander("Size beyond the catalogue (optimiser)", key="opt_panel", on_change="rerun")
+if sizing.open:  # built when opened
+    with sizing:
+        st.caption("Starts from the best feasible candidate above and varies the magnet size, rows and columns, "
+                   "spacing, plate side and thickness within the footprint, envelope and budget; every design shown "
+                   "is re-checked exactly as the Design page computes it. This takes a while (see the progress bar).")
+        objective = st.selectbox("Objective", ("margin", "cost"), key="opt_objective",
+                                 format_func=lambda o: {"margin": "largest worst-case margin within the budget",
+                                                        "cost": "cheapest design reaching a margin"}[o])
+        o2, o3 = st.columns(2)
+        min_margin = o2.number_input("Margin to reach (cost objective)", 0.5, 10.0, 1.2, 0.1, key="opt_min_margin")
+        run_opt = o3.button("Optimise sizes", key="opt_run", type="primary")
+        opt_key = (tuple(sorted(params.items())), objective, float(min_margin) if objective == "cost" else None)
+        if run_opt or rs.optimise_done(opt_key, url):
+            try:
+                result = rs.run_optimise(opt_key, url, label="Sizing:")
+            except MatdbError as exc:
+                st.error(sh.plain(f"optimiser: {exc}"))
+                st.stop()
+            if not result.rows:
+                st.warning(sh.plain("No sized design passed the exact check. " + " ".join(result.notes)))
+            else:
+                if result.improvement is not None:
+                    word = "margin" if result.objective == "margin" else "cost"
+                    st.success(sh.plain(f"Best: {presentation.candidate_label(result.rows[0])}; {word} "
+                                        f"{'+' if result.objective == 'margin' else '-'}{abs(result.improvement):.1%} "
+                                        "against the best catalogue candidate (re-checked the same way)."))
+                for n in result.notes:
+                    st.info(sh.plain(n))
+                opt_table = presentation.advisor_table(presentation.optimised_frame(result.rows))
+                st.dataframe(opt_table[["rank", "source"] + [c for c in presentation.ADVISOR_SHOWN
+                                                              if c not in ("rank", "score", "pareto")]],
+                             hide_index=True, key="opt_table")
+                best_row = result.rows[0]
+                if max(best_row["size_m"]) > LARGE_MAGNET_M or (best_row.get("magnet_mass_kg") or 0) > LARGE_MAGNET_MASS_KG:
+                    st.warning(SAFETY_TEXT.replace("\n", "  \n"))
+                st.download_button("Download the best sized design (TOML)", presentation.optimised_toml(result).encode(),
+                                   file_name=f"design-sized-{best_row['material']}-{best_row['grade']}.toml",
+                                   mime="application/toml", key="opt_download")

@@ -138,7 +138,6 @@ def open_saved(name: str) -> None:
 
 def saved_designs_panel(design_text: str | None) -> None:
     """Save the design on screen with a name and a note; list, reopen, duplicate, delete."""
-    st.subheader("Saved designs")
     with st.form("d_save_form", clear_on_submit=False, border=False):
         name = st.text_input("Name", key="d_save_name", placeholder="e.g. demo desk toy, 2x2 N50")
         note = st.text_area("Note (optional)", key="d_save_note", height=68)
@@ -195,9 +194,15 @@ with left:
         shown_text = st.expander("Design file text", key="d_show_text", on_change="rerun")
         if shown_text.open:
             shown_text.code(text, language="toml")
-        st.markdown("**Report and drawing**")
-        _downloads.report_buttons(text, url, "design")
-    saved_designs_panel(text if design is not None else None)
+        # built when opened: widgets nobody asked for are work for the browser on every visit
+        report = st.expander("Report and drawing", key="d_report_panel", on_change="rerun")
+        if report.open:
+            with report:
+                _downloads.report_buttons(text, url, "design")
+    panel = st.expander("Saved designs: save, open, duplicate, delete", key="d_saved_panel", on_change="rerun")
+    if panel.open:
+        with panel:
+            saved_designs_panel(text if design is not None else None)
     if design is None:
         st.stop()
 
@@ -205,8 +210,8 @@ def compare_section() -> None:
     """Key figures of two to four saved designs side by side, and their lift curves."""
     listed = saved.list_designs(url)
     if len(listed) < 2:
+        st.caption("Save two or more designs (panel on the left) to compare them here.")
         return
-    st.subheader("Compare saved designs")
     names = list(listed["name"])
     chosen = st.multiselect("Saved designs to compare (two to four)", names, key="d_compare", max_selections=4)
     if len(chosen) < 2:
@@ -364,7 +369,10 @@ with right:
         for w in result.get("warnings", []):
             st.warning(sh.plain(w))
         progress.empty()
-        compare_section()
+        shown_compare = st.expander("Compare saved designs", key="d_compare_panel", on_change="rerun")
+        if shown_compare.open:
+            with shown_compare:
+                compare_section()
         st.stop()
 
     # two by two, so each value keeps its unit in full on a narrow screen
@@ -381,55 +389,58 @@ with right:
              width="stretch")
     st.caption("Solid: magnetic lift on the plate; dashed: weight of plate and payload; dot: where they balance "
                "on the falling branch (the equilibrium gap).")
-
-st.subheader("Field over the footprint, and which magnet points up")
-m1, m2 = st.columns(2)
-default_gap = result["gap_m"] if result["gap_m"] is not None else design.plate.min_gap_m
-gap_mm = m1.slider("Height of the map above the magnets (mm)", 0.05, 5.0,
-                   float(min(5.0, max(0.05, round(default_gap * 1e3, 2)))), 0.05, key="d_map_gap")
-quantity = m2.radio("Show", ["|B| (T)", "B^2 (T^2)"], key="d_map_q", horizontal=True)
-extent = (design.plate.size[0], design.plate.size[1] if design.plate.shape == "rectangle" else design.plate.size[0])
+    st.subheader("Warnings and cautions")
+    warns = result.get("warnings", [])
+    for w in warns:
+        st.warning(sh.plain(w))
+    if not warns:
+        st.success("No warnings.")
+    with st.expander("Strong-magnet cautions", expanded=any("Strong magnets" in w for w in warns)):
+        st.markdown(SAFETY_TEXT.replace("\n", "  \n"))
 progress.empty()
-# one under the other, legends below: square maps that fit a 1000 px screen without being cut
-legend = dict(orient="bottom", titleLimit=300)
-sh.chart(("field map", rs.design_key(design), result["temperature_k"], gap_mm, extent, quantity),
-         lambda: charts.field_map_chart(
-             rs.field_map(rs.magnets_key(design), result["temperature_k"], gap_mm * 1e-3, extent, design),
-             gap_mm, quantity, charts.plate_outline_df(design)).configure_legend(**legend), width="content",
-         canvas=True)
-sh.chart(("polarity", rs.magnets_key(design)),
-         lambda: charts.polarity_chart(presentation.polarity_df(design.arrangement())).configure_legend(**legend),
-         width="content")
 
-st.subheader("Numbers")
-n1, n2 = st.columns([3, 2])
-with n1:
-    summary = presentation.plate_summary(result)
-    st.dataframe(summary, hide_index=True, key="design_summary", height=35 * (len(summary) + 1) + 3)
-with n2:
-    st.markdown("**Bill of materials**")
-    with sh.shown_errors("bill of materials"):
-        bom = presentation.bill_of_materials(design, url)
-        st.dataframe(bom[["item", "size", "grade_or_material", "count", "mass_g", "cost_usd"]], hide_index=True,
-                     column_config={
-                         "grade_or_material": "grade / material",
-                         "mass_g": st.column_config.NumberColumn("mass (g)", format="%.3g"),
-                         "cost_usd": st.column_config.NumberColumn("indicative cost (USD, illustrative)", format="%.2f")},
-                     key="design_bom")
-        total = bom["cost_usd"].sum(min_count=1)
-        if not math.isnan(total):
-            st.caption(f"Indicative total about {total:.2f} USD. Prices are illustrative, not quotes.")
 
-st.subheader("Warnings and cautions")
-warns = result.get("warnings", [])
-for w in warns:
-    st.warning(sh.plain(w))
-if not warns:
-    st.success("No warnings.")
-with st.expander("Strong-magnet cautions", expanded=any("Strong magnets" in w for w in warns)):
-    st.markdown(SAFETY_TEXT.replace("\n", "  \n"))
+def field_view() -> None:
+    """The field over the footprint (|B| or B^2) and which magnet points up."""
+    m1, m2 = st.columns(2)
+    default_gap = result["gap_m"] if result["gap_m"] is not None else design.plate.min_gap_m
+    gap_mm = m1.slider("Height of the map above the magnets (mm)", 0.05, 5.0,
+                       float(min(5.0, max(0.05, round(default_gap * 1e3, 2)))), 0.05, key="d_map_gap")
+    quantity = m2.radio("Show", ["|B| (T)", "B^2 (T^2)"], key="d_map_q", horizontal=True)
+    extent = (design.plate.size[0], design.plate.size[1] if design.plate.shape == "rectangle" else design.plate.size[0])
+    # one under the other, legends below: square maps that fit a 1000 px screen without being cut
+    legend = dict(orient="bottom", titleLimit=300)
+    sh.chart(("field map", rs.design_key(design), result["temperature_k"], gap_mm, extent, quantity),
+             lambda: charts.field_map_chart(
+                 rs.field_map(rs.magnets_key(design), result["temperature_k"], gap_mm * 1e-3, extent, design),
+                 gap_mm, quantity, charts.plate_outline_df(design)).configure_legend(**legend), width="content",
+             canvas=True)
+    sh.chart(("polarity", rs.magnets_key(design)),
+             lambda: charts.polarity_chart(presentation.polarity_df(design.arrangement())).configure_legend(**legend),
+             width="content")
 
-# ---- dynamics ---------------------------------------------------------------
+
+def numbers_view() -> None:
+    """The key figures and the bill of materials."""
+    n1, n2 = st.columns([3, 2])
+    with n1:
+        summary = presentation.plate_summary(result)
+        st.dataframe(summary, hide_index=True, key="design_summary", height=35 * (len(summary) + 1) + 3)
+    with n2:
+        st.markdown("**Bill of materials**")
+        with sh.shown_errors("bill of materials"):
+            bom = presentation.bill_of_materials(design, url)
+            st.dataframe(bom[["item", "size", "grade_or_material", "count", "mass_g", "cost_usd"]], hide_index=True,
+                         column_config={
+                             "grade_or_material": "grade / material",
+                             "mass_g": st.column_config.NumberColumn("mass (g)", format="%.3g"),
+                             "cost_usd": st.column_config.NumberColumn("indicative cost (USD, illustrative)", format="%.2f")},
+                         key="design_bom")
+            total = bom["cost_usd"].sum(min_count=1)
+            if not math.isnan(total):
+                st.caption(f"Indicative total about {total:.2f} USD. Prices are illustrative, not quotes.")
+
+
 def outline_chart(design):
     """The plate's outline with its slots and holes, at 1:1 aspect."""
     ring = dyn_mod.outline_df(design)
@@ -443,8 +454,8 @@ def outline_chart(design):
         detail="path:N", order="order:Q").properties(width=300, height=300, title="plate outline, slots and holes")
 
 
-if result.get("mode") == "plate":
-    st.subheader("Dynamics: modes, damping, Q and noise floor")
+def dynamics_view() -> None:
+    """Modes, damping, Q and noise floor of the plate, with its outline (slots and holes)."""
     g1, g2 = st.columns([2, 3], gap="large")
     with g1:
         with sh.shown_errors("plate drawing"):
@@ -493,4 +504,20 @@ if result.get("mode") == "plate":
             for w in dres.get("warnings", []):
                 st.warning(sh.plain(w))
 
-compare_section()
+
+VIEWS = ("Numbers and bill of materials", "Field map and polarity", "Dynamics: modes, damping, Q, noise",
+         "Compare saved designs")
+
+
+@st.fragment
+def views_section() -> None:
+    """One view at a time, built when chosen (a tab not shown costs nothing); choosing one
+    reruns only this part of the page."""
+    tabs = st.tabs(VIEWS, key="d_view", on_change="rerun")
+    for tab, build in zip(tabs, (numbers_view, field_view, dynamics_view, compare_section)):
+        if tab.open:
+            with tab:
+                build()
+
+
+views_section()

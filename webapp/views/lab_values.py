@@ -196,35 +196,38 @@ with p2:
             st.rerun()
 
 # ---- measured Q / ring-down -----------------------------------------------------
-st.subheader("Measured quality factor or ring-down of a floating plate")
-qrows = dyn_lab.list_q_values(mid, url)
-if qrows:
-    st.dataframe(qrows, hide_index=True, key="lab_q_table", column_config={
-        "frequency_hz": st.column_config.NumberColumn("frequency (Hz)", format="%.4g"),
-        "q": st.column_config.NumberColumn("Q", format="%.4g"),
-        "ring_down_s": st.column_config.NumberColumn("ring-down (s)", format="%.4g"),
-        "pressure_pa": st.column_config.NumberColumn("pressure (Pa)", format="%.3g"),
-        "temperature_k": st.column_config.NumberColumn("temperature (K)", format="%.5g")})
-else:
-    st.caption(sh.plain(f"No measured Q recorded for {mid} yet."))
-with st.form("lab_q_form", clear_on_submit=False):
-    q1, q2, q3 = st.columns(3)
-    q_val = q1.text_input("Q (a number)", key="lab_q")
-    q_tau = q2.text_input("or ring-down time, 1/e of amplitude", key="lab_q_tau", placeholder="25 s")
-    q_f = q3.text_input("Mode frequency", key="lab_q_f", placeholder="16 Hz")
-    q4, q5, q6 = st.columns(3)
-    q_p = q4.text_input("Pressure", key="lab_q_p", placeholder="1e-3 Pa")
-    q_mode = q5.text_input("Mode", key="lab_q_mode", placeholder="vertical")
-    q_design = q6.text_input("Design or set-up", key="lab_q_design")
-    q_source = st.text_input("Source note (required: where the number comes from)", key="lab_q_source")
-    q_submit = st.form_submit_button("Record Q", key="lab_q_submit")
-if q_submit:
-    try:
-        qrow = dyn_lab.record_q_value(mid, q=q_val or None, ring_down=q_tau or None, frequency=q_f or None,
-                                      pressure=q_p or None, mode=q_mode, design=q_design,
-                                      source=q_source, url=url)
-    except MatdbError as exc:
-        st.error(sh.plain(f"not recorded: {exc}"))
-    else:
-        st.session_state["lab_flash"] = f"Recorded Q value {qrow['id']} for {mid}."
-        st.rerun()
+q_panel = st.expander("Measured quality factor or ring-down of a floating plate", key="lab_q_panel",
+                      on_change="rerun")
+if q_panel.open:  # built when opened
+    with q_panel:
+        qrows = dyn_lab.list_q_values(mid, url)
+        if qrows:
+            st.dataframe(qrows, hide_index=True, key="lab_q_table", column_config={
+                "frequency_hz": st.column_config.NumberColumn("frequency (Hz)", format="%.4g"),
+                "q": st.column_config.NumberColumn("Q", format="%.4g"),
+                "ring_down_s": st.column_config.NumberColumn("ring-down (s)", format="%.4g"),
+                "pressure_pa": st.column_config.NumberColumn("pressure (Pa)", format="%.3g"),
+                "temperature_k": st.column_config.NumberColumn("temperature (K)", format="%.5g")})
+        else:
+            st.caption(sh.plain(f"No measured Q recorded for {mid} yet."))
+        with st.form("lab_q_form", clear_on_submit=False):
+            q1, q2, q3 = st.columns(3)
+            q_val = q1.text_input("Q (a number)", key="lab_q")
+            q_tau = q2.text_input("or ring-down time, 1/e of amplitude", key="lab_q_tau", placeholder="25 s")
+            q_f = q3.text_input("Mode frequency", key="lab_q_f", placeholder="16 Hz")
+            q4, q5, q6 = st.columns(3)
+            q_p = q4.text_input("Pressure", key="lab_q_p", placeholder="1e-3 Pa")
+            q_mode = q5.text_input("Mode", key="lab_q_mode", placeholder="vertical")
+            q_design = q6.text_input("Design or set-up", key="lab_q_design")
+            q_source = st.text_input("Source note (required: where the number comes from)", key="lab_q_source")
+            q_submit = st.form_submit_button("Record Q", key="lab_q_submit")
+        if q_submit:
+            try:
+                qrow = dyn_lab.record_q_value(mid, q=q_val or None, ring_down=q_tau or None, frequency=q_f or None,
+                                              pressure=q_p or None, mode=q_mode, design=q_design,
+                                              source=q_source, url=url)
+            except MatdbError as exc:
+                st.error(sh.plain(f"not recorded: {exc}"))
+            else:
+                st.session_state["lab_flash"] = f"Recorded Q value {qrow['id']} for {mid}."
+                st.rerun()

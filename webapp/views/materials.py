@@ -33,10 +33,13 @@ st.caption(
 )
 reach_df, band, reach_msg = None, None, ""
 try:
-    reach_bar = st.empty()
-    reach_bar.progress(0.1, text="Computing the field of common magnet arrangements...")
-    reach_df = sh.arrangement_reach(url)
-    reach_bar.empty()
+    if sh.arrangement_reach_ready(url):  # from memory: no progress bar
+        reach_df = sh.arrangement_reach(url)
+    else:
+        reach_bar = st.empty()
+        reach_bar.progress(0.1, text="Computing the field of common magnet arrangements...")
+        reach_df = sh.arrangement_reach(url)
+        reach_bar.empty()
     band = reach.reach_band(reach_df)
 except MatdbError as exc:
     reach_msg = f"range of common arrangements: {exc}"
@@ -101,8 +104,9 @@ if band is not None:
         f"{band[1]:.3g} T^2/m (the strongest local spot near magnet edges: only small pieces there). "
         "Dashed lines: each arrangement's plate average (hover for its name)."
     )
-    with st.expander("Arrangements behind the shaded range"):
-        st.dataframe(
+    behind = st.expander("Arrangements behind the shaded range", key="reach_panel", on_change="rerun")
+    if behind.open:  # built when opened
+        behind.dataframe(
             reach_df[["description", "grade", "br_t", "plate_avg_t2_m", "peak_t2_m"]], hide_index=True,
             column_config={
                 "description": "arrangement",
