@@ -18,7 +18,7 @@ sizes ``s``, centre ``x_c``, top ``z_t,c``; images in a steel back plate are mor
 cells). :class:`CorrectionField` sums ``S(k)`` once on an FFT grid (the cells share few
 distinct x, y positions: the sum is three small tensor contractions), continues it to a
 stack of heights spaced geometrically above the top face, transforms back
-(``scipy.fft``), stores them in single precision and keeps the values over the region a plate can
+(``scipy.fft``, single precision) and keeps the values over the region a plate can
 occupy; a point is then one trilinear interpolation in x, y and the level index, of every
 table of the geometry at once. Points outside that region (inside or beside the magnets,
 far away, high above) are evaluated exactly from the cells.
@@ -147,7 +147,11 @@ def _symmetrised(coef: np.ndarray, tol: float = SYMMETRY_TOL) -> np.ndarray:
     .. [1] J. D. Jackson, Classical Electrodynamics, 3rd ed., Wiley (1999), sec. 6.10
        (B and M are axial vectors: their behaviour under reflection).
     """
-    top = float(np.abs(coef).max())
+    # judged on the lowest and the highest level (the lowest, next to the sources, shows any
+    # asymmetry of theirs most and holds the largest values): comparing whole tables per
+    # reflection cost about as much as the table's transforms
+    probe = coef[[0, -1]]
+    top = float(np.abs(probe).max())
     if top == 0.0:
         return coef
     images = [lambda c: c[:, ::-1, :, :] * np.array([1, -1, -1], dtype=c.dtype),
@@ -155,10 +159,17 @@ def _symmetrised(coef: np.ndarray, tol: float = SYMMETRY_TOL) -> np.ndarray:
     if coef.shape[1] == coef.shape[2]:
         images.append(lambda c: -np.swapaxes(c, 1, 2)[..., [1, 0, 2]])
     for image in images:
-        m = image(coef)
+        m = image(probe)
         for sign in (1.0, -1.0):
-            if float(np.abs(coef - sign * m).max()) <= tol * top:
-                coef = (coef + np.float32(sign) * m) * np.float32(0.5)
+            if float(np.abs(probe - sign * m).max()) <= tol * top:
+                full = image(coef)  # a new array: (coef + sign * image) / 2 in place in it
+                if sign > 0:
+                    full += coef
+                else:
+                    np.subtract(coef, full, out=full)
+                full *= np.float32(0.5)
+                coef = full
+                probe = coef[[0, -1]]
                 break
     return np.ascontiguousarray(coef)
 
@@ -201,16 +212,15 @@ class _Table:
         taper = np.cos(0.5 * np.pi * t) ** 2
         taper[kabs >= k_nyq] = 0.0
         spec = spec * (taper / h ** 2)[:, :, None]
-        # (component, k_y, k_x): the first inverse transform along contiguous memory (double
-        # precision: a mirror-symmetric geometry keeps a table symmetric to rounding, which
-        # the plate code's symmetry checks ask for, 1e-12)
-        spec = np.ascontiguousarray(np.transpose(spec, (2, 1, 0)))
-        kabs_t = np.ascontiguousarray(kabs.T)
+        # (component, k_y, k_x), single precision: the first inverse transform along
+        # contiguous memory (mirrored nodes then differ by rounding: _symmetrised)
+        spec = np.ascontiguousarray(np.transpose(spec, (2, 1, 0)), dtype=np.complex64)
+        kabs_t = np.ascontiguousarray(kabs.T, dtype=np.float32)
         # (level, x, y, component): the eight corners of a point's cell are eight rows of
         # a (nodes, components) matrix, gathered for every table of the geometry at once
         coef = np.empty((nz, self.nb[0], self.nb[1], 3), dtype=np.float32)
         for j0 in range(0, nz, LEVEL_CHUNK):  # a few levels at a time: bounded memory
-            zl = levels[j0:j0 + LEVEL_CHUNK]
+            zl = levels[j0:j0 + LEVEL_CHUNK].astype(np.float32)
             lev = spec[None] * np.exp(-kabs_t[None] * zl[:, None, None])[:, None]  # (l, c, ky, kx)
             # inverse along x, keep the table's rows, then along y (half spectrum)
             lev = sfft.ifft(lev, axis=3, workers=1)[..., :self.nb[0]]
