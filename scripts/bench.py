@@ -125,9 +125,9 @@ def worker(argv: list[str], calls: int) -> dict:
     return out
 
 
-def in_process(argv: list[str], env: dict[str, str], calls: int) -> dict:
-    """Run :func:`worker` in a fresh process with a fresh cache folder."""
-    run_env = dict(env, MATDB_CACHE_DIR=tempfile.mkdtemp(dir=env["BENCH_TMP"]))
+def in_process(argv: list[str], env: dict[str, str], calls: int, cache: str | None = None) -> dict:
+    """Run :func:`worker` in a fresh process with a fresh cache folder (or ``cache``)."""
+    run_env = dict(env, MATDB_CACHE_DIR=cache or tempfile.mkdtemp(dir=env["BENCH_TMP"]))
     r = subprocess.run([sys.executable, __file__, "--worker", str(calls), "--", *argv], env=run_env,
                        capture_output=True, text=True)
     if r.returncode != 0:
@@ -151,6 +151,25 @@ def in_process_rows(label: str, goals: tuple[str, str], argv: list[str], env: di
     return cold, warm
 
 
+def new_request_rows(env: dict[str, str], repeats: int) -> list[Row]:
+    """``advise`` 17 mm in a fresh process whose cache folder already holds one earlier
+    request (a 12 mm footprint): what a user meets for any new request after the first.
+    The recoil correction tables depend only on the catalogue's shapes (in magnet-size
+    units), not on the request, so they are built once per cache folder."""
+    row = Row("advise 17 mm, in-process, new request (cache of a 12 mm one)", "-", load=_load())
+    earlier = list(ADVISE_17)
+    earlier[earlier.index("--footprint") + 1] = "12 mm x 12 mm"
+    for _ in range(repeats):
+        cache = tempfile.mkdtemp(dir=env["BENCH_TMP"])
+        in_process(earlier + ["--exact", "0"], env, 1, cache=cache)
+        res = in_process(ADVISE_17 + ["--exact", "0"], env, 1, cache=cache)
+        if any(res["status"]):
+            row.note = f"exit status {res['status']}"
+        row.cpu += res["cpu"]
+        row.wall += res["wall"]
+    return [row]
+
+
 def footprint_rows(env: dict[str, str], sizes: tuple[int, ...]) -> list[Row]:
     """``advise`` cold (fresh process and cache) against the footprint side, with growth vs plate area."""
     rows: list[Row] = []
@@ -168,6 +187,36 @@ def footprint_rows(env: dict[str, str], sizes: tuple[int, ...]) -> list[Row]:
             row.note = f"x{grow:.3g} the {base[0]} mm time; area x{area:.3g} ({'ok' if grow <= area else 'FASTER'})"
         rows.append(row)
     return rows
+
+
+#: what ``matdb levitate`` imports before it computes, in the order it needs them
+STARTUP_STEPS = ("numpy", "scipy.optimize", "sqlalchemy", "pint", "matdb.cli.physics",
+                 "matdb.analysis.levitate")
+
+
+def startup_row(env: dict[str, str], repeats: int) -> Row:
+    """CPU time of a whole process that only imports what ``matdb levitate`` imports (the
+    floor under the CLI row); the note splits it by package, each step's CPU time after
+    the steps before it (minimum of the repeats)."""
+    code = ("import json, time\nout = []\n"
+            + "".join(f"t = time.process_time(); import {m}; out.append(time.process_time() - t)\n"
+                      for m in STARTUP_STEPS)
+            + "print(json.dumps(out))")
+    row = Row("plate levitate CLI start-up: imports only (whole process)", "-", load=_load())
+    steps = []
+    for _ in range(repeats):
+        t0 = time.perf_counter()
+        proc = subprocess.Popen([sys.executable, "-c", code], env=env, stdout=subprocess.PIPE,
+                                stderr=subprocess.DEVNULL, text=True)
+        out = proc.stdout.read()
+        _, status, usage = os.wait4(proc.pid, 0)
+        row.wall.append(time.perf_counter() - t0)
+        row.cpu.append(usage.ru_utime + usage.ru_stime)
+        if os.waitstatus_to_exitcode(status) == 0 and out.strip():
+            steps.append(json.loads(out.strip().splitlines()[-1]))
+    if steps:
+        row.note = ", ".join(f"{m} {min(s[i] for s in steps):.2f}" for i, m in enumerate(STARTUP_STEPS))
+    return row
 
 
 def baseline_rows(label: str, goals: tuple[str, str], argv: list[str], env: dict[str, str],
@@ -326,6 +375,7 @@ def main(argv: list[str] | None = None) -> int:
                                                    ["levitate", plate, "--format", "json"], env, n)),
         ("plate levitate CLI", lambda: [process_row("plate levitate 2x2 example, CLI (whole process)", "< 1.5 s",
                                                     ["levitate", plate, "--format", "json"], env, n)]),
+        ("plate levitate CLI start-up", lambda: [startup_row(env, max(n, 5))]),
         ("plate levitate before/now", lambda: baseline_rows(
             "plate levitate 2x2 example", ("-", "< 0.5 s", "< 1.5 s"), ["levitate", plate, "--format", "json"],
             env, args.baseline, n) if args.baseline else []),
@@ -335,6 +385,7 @@ def main(argv: list[str] | None = None) -> int:
                                                  ["levitate", fm2, "--format", "json"], env, n)),
         ("advise 17 mm", lambda: in_process_rows("advise full catalogue 17 mm", ("< 2 s", "< 0.2 s"),
                                                  ADVISE_17 + ["--exact", "0"], env, n)),
+        ("advise new request", lambda: new_request_rows(env, n)),
         ("advise CLI cold", lambda: [process_row("advise CLI cold, one exact row (whole process)", "< 4 s",
                                                  ADVISE_17 + ["--exact", "1"], env, n, fresh_cache=True)]),
         ("advise footprint", lambda: footprint_rows(env, tuple(s for s in FOOTPRINTS_MM

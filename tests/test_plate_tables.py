@@ -131,7 +131,9 @@ def test_diagonal_fold_is_the_same_sum_as_the_quarter(shape, size):
     # quarter rule's sum over nodes (x_i, y_j) equals the sum over i <= j with the nodes off
     # the diagonal counted twice (regression check of the two sums); stripes are not
     # symmetric, and their fold is refused
-    arr = build_arrangement(shape, size, "checkerboard", 3, 3, 0.0, br=1.0).with_recoil([0.05] * 9)
+    # (one cell per magnet: the default model's departure table is float32, mirror
+    # symmetric to its rounding only, and this is an exact check of the two sums)
+    arr = build_arrangement(shape, size, "checkerboard", 3, 3, 0.0, br=1.0).with_recoil([0.05] * 9, subdivision=1)
     assert PT.diagonal_symmetry(arr)
     p = np.array([[0.003, 0.001, 0.004], [0.007, -0.002, 0.0045]])
     assert np.sum(arr.B(p) ** 2, axis=1) == pytest.approx(np.sum(arr.B(p[:, [1, 0, 2]]) ** 2, axis=1), rel=1e-12)

@@ -188,7 +188,10 @@ def _rank_locked(req: AdviceRequest, cat: Catalogue, polish: int, tilt_rows: int
             break
         check_tilt(df, todo, req, cat)
         refresh_flags(df, todo, req)
-        order = _order(df)
+        # rows checked here were feasible; if they all still are, no criterion and no score
+        # changed, and neither did the order
+        if not df.loc[todo, "feasible"].to_numpy(dtype=bool).all():
+            order = _order(df)
     report(0.8, "working the best candidate out exactly")
     for _ in range(8):  # polish until the first `polish` rows are all exact
         head = df.iloc[order[:polish]]

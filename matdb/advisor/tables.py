@@ -111,7 +111,7 @@ class GeometryData:
         self.chi_rec = float(chi_rec)
         # unit remanence, each magnet on its recoil line (linear in Br: scaled later)
         self._unit = None
-        self.breaks = P.edge_lines(spec.build(1.0).magnets)
+        self.breaks = P.edge_lines(_built(spec).magnets)
         self._even: tuple[bool, bool, bool] | None = None
         key = {"v": CODE_VERSION, "arr": spec.key(), "plate": [repr(v) for v in self.plate_m],
                "screen": [SCREEN_ORDER, repr(SCREEN_RULE_FLOOR_M), repr(LATERAL_STEP_M), TILT_ORDER],
@@ -130,7 +130,7 @@ class GeometryData:
         """The arrangement at unit remanence on its recoil line (built on first use: a
         geometry whose tables are all on disk never solves the recoil problem)."""
         if self._unit is None:
-            self._unit = self.spec.build(1.0).with_recoil([self.chi_rec] * self.spec.count)
+            self._unit = _built(self.spec).with_recoil([self.chi_rec] * self.spec.count)
         return self._unit
 
     @property
@@ -298,8 +298,8 @@ def prepare_family(geos: list[GeometryData], heights, lat_heights) -> None:
                                              SCREEN_RULE_FLOOR_M, LATERAL_STEP_M, even)
         for g, v in zip(geos, vals):
             st = g.stores[name]
-            for k, row in zip(keys, v):
-                st.setdefault(k, tuple(row.tolist()))
+            for k, row in zip(keys, np.asarray(v).tolist()):
+                st.setdefault(k, tuple(row))
             g.dirty = True
 
 
@@ -339,6 +339,17 @@ def shape_key(spec: ArrangementSpec) -> tuple:
             float(spec.spacing) / a, spec.back_plate)
 
 
+_BUILT: dict[ArrangementSpec, Any] = {}
+
+
+def _built(spec: ArrangementSpec):
+    """``spec.build(1.0)``, once per arrangement (an immutable :class:`Arrangement`)."""
+    a = _BUILT.get(spec)
+    if a is None:
+        a = _BUILT[spec] = spec.build(1.0)
+    return a
+
+
 def geometry(spec: ArrangementSpec, plate_m: tuple[float, float], chi_rec: float) -> GeometryData:
     """The (memory-cached) :class:`GeometryData` of ``spec`` under a plate of ``plate_m``,
     magnets of recoil susceptibility ``chi_rec`` (``mu_rec - 1`` of their family)."""
@@ -365,3 +376,4 @@ def clear_memory_cache() -> None:
     """Forget the in-memory geometry cache (the disk cache stays)."""
     _GEOMETRIES.clear()
     _HMAX.clear()
+    _BUILT.clear()

@@ -282,7 +282,8 @@ class Arrangement:
             # of the same magnets keep apart departure tables
             label = tuple(np.sign(np.round([m.direction for m in self.magnets], 6)).astype(int).ravel().tolist())
             c = CorrectionField(*self.cells[:3], self.bottom_z if self.back_plate else None,
-                                self.top_z, tabulate=self.tabulated, owner=self.cells[3], label=label)
+                                self.top_z, tabulate=self.tabulated, owner=self.cells[3], label=label,
+                                ref=max(abs(m.br) for m in self.magnets))
             self._cache["correction"] = c
         return c
 
@@ -365,13 +366,19 @@ class Arrangement:
         plate_z = self.bottom_z if self.back_plate else None
         J = effective_polarizations(self.magnets, chis, plate_z, subdivision)
         cells = polarization_cells(self.magnets, chis, plate_z, subdivision)
-        # components at rounding level (symmetry makes them zero) are zero: the field code
+        # components at the solver's tolerance (symmetry makes them zero) are zero: the field code
         # then skips the terms of those components, as for the rigid magnets
-        J = np.where(np.abs(J) < 1e-12 * np.abs(J).max(axis=1, keepdims=True), 0.0, J)
+        J = np.where(np.abs(J) < 1e-9 * np.abs(J).max(axis=1, keepdims=True), 0.0, J)
         mags = []
+        seen: list[float] = []
         for m, j in zip(self.magnets, J):
             n = float(np.linalg.norm(j))
-            mags.append(replace(m, direction=tuple(float(c) / n for c in j), br=n) if n > 0 else m)
+            # magnitudes equal to the solver's tolerance (symmetry makes them equal) are equal:
+            # the field code shares the terms of magnets with the same polarisation
+            n = next((v for v in seen if abs(v - n) <= 1e-9 * n), n)
+            seen.append(n)
+            mags.append(replace(m, direction=tuple(float(c) / np.linalg.norm(j) for c in j), br=n)
+                        if n > 0 else m)
         return Arrangement(tuple(mags), self.back_plate, self.pattern, self.rows, self.cols, cells,
                            tabulated)
 

@@ -30,6 +30,7 @@ References
 from __future__ import annotations
 
 from dataclasses import replace
+from functools import lru_cache
 from typing import Callable
 
 import numpy as np
@@ -279,11 +280,23 @@ def axis_rule(length: float, breaks, scale: float, order: int, even: bool
     .. [5] P. J. Davis and P. Rabinowitz, Methods of Numerical Integration, 2nd ed.,
        Academic Press (1984), ch. 2 (compound rules graded towards singular points).
     """
-    half = 0.5 * float(length)
+    return _axis_rule(float(length), tuple(float(b) for b in np.ravel(breaks)), float(scale),
+                      int(order), bool(even))
+
+
+@lru_cache(maxsize=4096)
+def _axis_rule(length: float, breaks: tuple, scale: float, order: int, even: bool):
+    """:func:`axis_rule`, cached (read-only arrays)."""
+    half = 0.5 * length
     if not even:
-        return Q.graded_rule(-half, half, tuple(breaks), scale, order)
-    x, w = Q.graded_rule(0.0, half, tuple(breaks), scale, order)
-    return x, 2.0 * w
+        x, w = Q.graded_rule(-half, half, breaks, scale, order)
+    else:
+        x, w = Q.graded_rule(0.0, half, breaks, scale, order)
+        w = 2.0 * w
+    x, w = np.array(x), np.array(w)
+    x.flags.writeable = False
+    w.flags.writeable = False
+    return x, w
 
 
 def plane_integrals(field: FieldFn, lx: float, ly: float, breaks_x, breaks_y, heights,
@@ -405,8 +418,12 @@ def lateral_line_integrals(field: FieldFn, lx: float, ly: float, breaks_x, break
     # the x faces mirrored, their integrals the same
     diag = (len(even) > 2 and bool(even[2]) and float(lx) == float(ly) and even[0] == even[1]
             and tuple(np.ravel(breaks_x)) == tuple(np.ravel(breaks_y)))
+    # heights sharing a rule (those below floor_m) take its points once, tiled over them
+    groups: dict[float, list[int]] = {}
     for i, h in enumerate(hs):
-        scale = max(float(h), floor_m)
+        groups.setdefault(max(float(h), floor_m), []).append(i)
+    for scale, members in groups.items():
+        idx = np.array(members)
         for c, (length, across, brk, ev_along, ev_across) in enumerate(faces_xy[:1] if diag else faces_xy):
             t, wt = axis_rule(length, brk, scale, order, ev_along)
             # faces at +-across/2, a central difference of w along the normal at each;
@@ -418,8 +435,10 @@ def lateral_line_integrals(field: FieldFn, lx: float, ly: float, breaks_x, break
                               for f in faces for sd in (1.0, -1.0)], t.size)
             along = np.tile(t, k)
             xy = (normal, along) if c == 0 else (along, normal)
-            parts.append((np.column_stack([xy[0], xy[1], np.full(along.size, h)]),
-                          sign * np.tile(wt, k), np.full(along.size, 2 * i + c)))
+            n = along.size
+            parts.append((np.column_stack([np.tile(xy[0], idx.size), np.tile(xy[1], idx.size),
+                                           np.repeat(hs[idx], n)]),
+                          np.tile(sign * np.tile(wt, k), idx.size), np.repeat(2 * idx + c, n)))
     b = _evaluate(field, np.concatenate([q[0] for q in parts]))
     w = np.concatenate([q[1] for q in parts])
     ii = np.concatenate([q[2] for q in parts])

@@ -75,22 +75,18 @@ __all__ = [
     "clear_cache",
 ]
 
-#: Cells along the longest edge of each cuboid magnet in the default model (1: one
-#: uniform polarisation per magnet; reduced until the arrangement has at most
-#: :data:`MAX_CELLS` cells). Measured lift reduction of a 10 mm graphite plate at 0.5 /
-#: 1 mm over a 2 x 2 checkerboard of 12.7 mm N42 cubes (chi_rec 0.05): n = 1: 2.2 /
-#: 2.2 %; n = 3: 2.7 / 2.9 %; n = 4: 3.2 / 3.4 %; n = 5: 3.55 / 3.81 % (equal to
-#: magpylib-material-response at the same meshing); n = 6: 3.85 / 4.07 %; n = 7: 4.03 /
-#: 4.25 %. The subdivision converges slowly next to the shared edges of opposite
-#: neighbours (the reverse field there diverges logarithmically); a single cube is
-#: converged at n = 5 (5.81 / 5.50 %; n = 8: 5.81 / 5.57 %).
-#: The default stays n = 1: with n > 1 every geometry and recoil susceptibility needs its
-#: own departure-field table (0.3-0.7 s each, quiet machine), and the advisor's catalogue
-#: needs about a hundred of them (``advise`` 17 mm cold: 88 s wall with n = 5 against
-#: 5-6 s with n = 1, measured 2026-12-03 at load 1-2). ``subdivision=5`` (see
-#: :data:`ACCURATE_SUBDIVISION`) is the accurate model for one design.
-SUBDIVISION = 1
-#: Cells along the longest edge for the accurate model of one design (see above).
+#: Cells along the longest edge of each cuboid magnet in the default model (reduced until
+#: the arrangement has at most :data:`MAX_CELLS` cells; 1: one uniform polarisation per
+#: magnet). Measured lift reduction of a 10 mm graphite plate at 0.5 / 1 mm over a 2 x 2
+#: checkerboard of 12.7 mm N42 cubes (chi_rec 0.05): n = 1: 2.2 / 2.2 %; n = 3: 2.7 /
+#: 2.9 %; n = 4: 3.2 / 3.4 %; n = 5: 3.55 / 3.81 % (equal to magpylib-material-response at
+#: the same meshing); n = 6: 3.85 / 4.07 %; n = 7: 4.03 / 4.25 %. The subdivision
+#: converges slowly next to the shared edges of opposite neighbours (the reverse field there
+#: diverges logarithmically); a single cube is converged at n = 5 (5.81 / 5.50 %; n = 8:
+#: 5.81 / 5.57 %). Its cost is kept down by sharing: see :mod:`matdb.physics.recoil_field`
+#: and README "Recoil permeability" (``advise`` 17 mm cold 2.9x the one-cell model).
+SUBDIVISION = 5
+#: The accurate model of one design (the default; kept as a name for callers).
 ACCURATE_SUBDIVISION = 5
 #: Upper bound on the number of cells of one solve (the dense system is 3 x cells).
 MAX_CELLS = 512

@@ -18,14 +18,23 @@ sizes ``s``, centre ``x_c``, top ``z_t,c``; images in a steel back plate are mor
 cells). :class:`CorrectionField` sums ``S(k)`` once on an FFT grid (the cells share few
 distinct x, y positions: the sum is three small tensor contractions), continues it to a
 stack of heights spaced geometrically above the top face, transforms back
-(``scipy.fft``) and keeps the values over the region a plate can occupy, as cubic
-B-spline coefficients (``scipy.ndimage.spline_filter``); a point is then three cubic
-interpolations (``scipy.ndimage.map_coordinates``). Points outside that region (inside or
-beside the magnets, far away, high above) are evaluated exactly from the cells.
+(``scipy.fft``, single precision) and keeps the values over the region a plate can
+occupy; a point is then one trilinear interpolation in x, y and the level index, of every
+table of the geometry at once. Points outside that region (inside or beside the magnets,
+far away, high above) are evaluated exactly from the cells.
+
+Sharing (what keeps the default model cheap): the tables are built on the geometry in
+units of its largest magnet edge (``B(l r; l geometry) = B(r; geometry)``: every size of
+one shape and pattern reads the same table), and one geometry keeps a small orthonormal
+basis of departure patterns with one table each (:class:`_Basis`): a departure is read as
+its projection on the basis when the part outside is below :data:`BASIS_TOL` of the
+field's scale, else that part gets a table. The recoil susceptibilities of the catalogue
+(0.05 to 2.6) need two or three tables per pattern. Tables are kept as ``.npy`` files
+beside the disk cache of :func:`matdb.physics.recoil.disk_cache`.
 
 The table is band-limited at the grid's Nyquist wavenumber (a cosine taper over its upper
-half): within about ``3 h`` of the top face (``h`` the grid spacing, :data:`SPACING_M`)
-it is the field of the departures smoothed over ``h``. There the exact cell field carries
+half): within about ``3 h`` of the top face (``h`` the grid spacing, a cell's width over
+:data:`CELL_NODES`) it is the field of the departures smoothed over ``h``. There the exact cell field carries
 the steps of the piecewise-constant cells, which are themselves an artefact of the
 discretisation. The interpolation error is tested against the exact cell field in
 ``tests/test_recoil.py``.
@@ -65,8 +74,9 @@ MAX_GRID = 768
 #: Relative spacing of the height levels (geometric above the first, ``h``).
 Z_RATIO = 0.12
 #: Horizontal margin of the table around the magnets, in units of the largest magnet edge
-#: (and at least this fraction of the magnets' extent).
-MARGIN_L = 0.8
+#: (and at least this fraction of the magnets' extent): at least :data:`FAR_FACTOR`, so a
+#: point beside the table is in the point-dipole zone, never one for the cells one by one.
+MARGIN_L = 1.0
 MARGIN_FRAC = 0.35
 #: Height of the table above the top face, in units of the largest magnet edge (and at
 #: least twice the magnets' extent).
@@ -75,9 +85,11 @@ HEIGHT_L = 4.0
 #: point dipoles (:meth:`CorrectionField.far_set`).
 FAR_FACTOR = 1.0
 #: Departures are combined from the tables of earlier ones when their part outside the
-#: span of those (2-norm over the cells) is below this fraction of their norm; otherwise
-#: that part gets a table of its own. Tested error bound: see ``tests/test_recoil.py``.
-BASIS_TOL = 2e-2
+#: span of those (2-norm over the cells) is below this fraction of their norm times the
+#: magnets' polarisation over the largest departure (so the error is this fraction of the
+#: field's scale, however large the departures); otherwise that part gets a table of its
+#: own. Tested error bound: see ``tests/test_recoil.py``.
+BASIS_TOL = 1e-3
 _BASES: dict = {}  # departure bases, by geometry in units of the magnet size
 _SHARED: dict = {}  # exact sources and dipoles, by real geometry and departures
 _LOCK = threading.Lock()
@@ -107,6 +119,59 @@ def _sources(sizes, centres, dj, plate_z):
     img_j = dj * np.array([-1.0, -1.0, 1.0])
     return (np.concatenate([sizes, sizes]), np.concatenate([centres, img_c]),
             np.concatenate([dj, img_j]))
+
+
+#: A table whose values and mirror image (or diagonal image) differ by no more than this
+#: fraction of its largest value is made exactly symmetric (:func:`_symmetrised`).
+SYMMETRY_TOL = 1e-4
+
+
+def _symmetrised(coef: np.ndarray, tol: float = SYMMETRY_TOL) -> np.ndarray:
+    """``coef`` (level, x, y, component) made exactly symmetric under the reflections its
+    sources have: the mirror planes through the middle of the grid and its diagonal.
+
+    Reflecting the sources in ``x = x_mid`` turns a polarisation, a pseudo-vector, into
+    ``(J_x, -J_y, -J_z)`` and the field the same way [1]_; in ``y = y_mid`` into
+    ``(-J_x, J_y, -J_z)``; in the diagonal into ``(-J_y, -J_x, -J_z)``. When the sources are
+    symmetric (up to one overall sign) the field is, but the single-precision transforms
+    leave mirrored nodes unequal by their rounding (a few 1e-7 of the largest value), which
+    breaks the exact symmetry the plate's quadrature folds rely on. Each reflection under
+    which the table agrees with its image to ``tol`` of its largest value (far above that
+    rounding, far below the departures of any asymmetric layout's field) replaces the table
+    by the mean of the two: mirrored nodes then hold values equal to the last bit, and the
+    table moves by less than ``tol / 2`` of its largest value. Tables of asymmetric sources
+    are returned unchanged.
+
+    References
+    ----------
+    .. [1] J. D. Jackson, Classical Electrodynamics, 3rd ed., Wiley (1999), sec. 6.10
+       (B and M are axial vectors: their behaviour under reflection).
+    """
+    # judged on the lowest and the highest level (the lowest, next to the sources, shows any
+    # asymmetry of theirs most and holds the largest values): comparing whole tables per
+    # reflection cost about as much as the table's transforms
+    probe = coef[[0, -1]]
+    top = float(np.abs(probe).max())
+    if top == 0.0:
+        return coef
+    images = [lambda c: c[:, ::-1, :, :] * np.array([1, -1, -1], dtype=c.dtype),
+              lambda c: c[:, :, ::-1, :] * np.array([-1, 1, -1], dtype=c.dtype)]
+    if coef.shape[1] == coef.shape[2]:
+        images.append(lambda c: -np.swapaxes(c, 1, 2)[..., [1, 0, 2]])
+    for image in images:
+        m = image(probe)
+        for sign in (1.0, -1.0):
+            if float(np.abs(probe - sign * m).max()) <= tol * top:
+                full = image(coef)  # a new array: (coef + sign * image) / 2 in place in it
+                if sign > 0:
+                    full += coef
+                else:
+                    np.subtract(coef, full, out=full)
+                full *= np.float32(0.5)
+                coef = full
+                probe = coef[[0, -1]]
+                break
+    return np.ascontiguousarray(coef)
 
 
 class _Table:
@@ -147,7 +212,8 @@ class _Table:
         taper = np.cos(0.5 * np.pi * t) ** 2
         taper[kabs >= k_nyq] = 0.0
         spec = spec * (taper / h ** 2)[:, :, None]
-        # (component, k_y, k_x), float32: the first inverse transform along contiguous memory
+        # (component, k_y, k_x), single precision: the first inverse transform along
+        # contiguous memory (mirrored nodes then differ by rounding: _symmetrised)
         spec = np.ascontiguousarray(np.transpose(spec, (2, 1, 0)), dtype=np.complex64)
         kabs_t = np.ascontiguousarray(kabs.T, dtype=np.float32)
         # (level, x, y, component): the eight corners of a point's cell are eight rows of
@@ -161,7 +227,7 @@ class _Table:
             lev = np.ascontiguousarray(np.swapaxes(lev, 2, 3))  # (l, c, x, ky)
             vals = sfft.irfft(lev, n=n, axis=3, workers=1)[..., :self.nb[1]]  # (l, c, x, y)
             coef[j0:j0 + zl.size] = np.moveaxis(vals, 1, 3)
-        self.coef = coef
+        self.coef = _symmetrised(coef)
 
     def _spectrum(self, sizes, centres, dj, n):
         """``B^`` at the top face on the rfft grid, (n, n//2+1, 3) (before the 1/h^2 of
@@ -234,11 +300,12 @@ class _Table:
         base = (i[0] * dims[1] + i[1]) * dims[2] + i[2]
         sz, sx = int(dims[1] * dims[2]), int(dims[2])
         widths = np.cumsum([0] + [v.shape[1] for v in values])
-        out = np.zeros((q.shape[0], int(widths[-1])))
-        for dz, wz in ((0, 1.0 - t[0]), (sz, t[0])):
-            for dx, wx in ((0, 1.0 - t[1]), (sx, t[1])):
+        out = np.zeros((q.shape[0], int(widths[-1])))  # (float32 values, double weights: exact mirrors)
+        u = 1.0 - t
+        for dz, wz in ((0, u[0]), (sz, t[0])):
+            for dx, wx in ((0, u[1]), (sx, t[1])):
                 w = wz * wx
-                w0 = (w * (1.0 - t[2]))[:, None]
+                w0 = (w * u[2])[:, None]
                 w1 = (w * t[2])[:, None]
                 k = base + (dz + dx)
                 for v, a, b in zip(values, widths[:-1], widths[1:]):
@@ -322,14 +389,16 @@ class _Basis:
                     self.vectors.append(vec)
                     self.tables.append(None)
 
-    def coefficients(self, v: np.ndarray) -> np.ndarray:
-        """``c`` with ``v ~ sum_j c_j u_j`` (a new vector and table when needed)."""
+    def coefficients(self, v: np.ndarray, share: float = 1.0) -> np.ndarray:
+        """``c`` with ``v ~ sum_j c_j u_j`` (a new vector and table when the part of ``v``
+        outside the span, relative to ``v`` and times ``share`` (the departures' size over
+        the polarisation's), exceeds :data:`BASIS_TOL`)."""
         with self.lock:
             U = np.array(self.vectors) if self.vectors else np.zeros((0, v.size))
             c = U @ v
             r = v - c @ U
             nv = float(np.linalg.norm(v))
-            if nv == 0.0 or float(np.linalg.norm(r)) <= BASIS_TOL * nv:
+            if nv == 0.0 or float(np.linalg.norm(r)) * share <= BASIS_TOL * nv:
                 return c
             r -= (U @ r) @ U  # once more: orthogonal to rounding
             u = r / float(np.linalg.norm(r))
@@ -385,6 +454,9 @@ class CorrectionField:
     label : tuple
         Fields of the same cells whose departures differ in kind (the magnets' pattern of
         polarisations) keep apart tables under different labels.
+    ref : float, optional
+        The magnets' largest polarisation [T]: the scale of the field for
+        :data:`BASIS_TOL` (default: the departures' own).
 
     The tables are built on first use on the geometry in units of its largest magnet
     (:attr:`scale`; the field of a scaled geometry is the same function of the scaled
@@ -394,7 +466,7 @@ class CorrectionField:
     """
 
     def __init__(self, sizes, centres, dj, plate_z, top_z, tabulate: bool = True, owner=None,
-                 label=()):
+                 label=(), ref: float | None = None):
         self.sizes = np.asarray(sizes, dtype=float)
         self.centres = np.asarray(centres, dtype=float)
         self.dj = np.asarray(dj, dtype=float)
@@ -403,6 +475,7 @@ class CorrectionField:
         self.top_z = float(top_z)
         self.tabulate = bool(tabulate)
         self.label = tuple(label)
+        self.ref = None if not ref else float(ref)
         self._exact = None
         self._sh = None
         self._cmat = None
@@ -448,7 +521,8 @@ class CorrectionField:
         """``C`` (3 K, 3): the departure field is ``gather(q) @ C`` (:meth:`_Basis.values`)."""
         if self._cmat is None:
             b = self._basis()
-            c = b.coefficients(self.dj.ravel() / self._norm)
+            c = b.coefficients(self.dj.ravel() / self._norm,
+                               1.0 if self.ref is None else self._norm / self.ref)
             self._cmat = np.kron(c[:, None], np.eye(3)) * self._norm
             self._b = b
         return self._cmat
