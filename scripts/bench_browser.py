@@ -26,6 +26,7 @@ from __future__ import annotations
 
 import argparse
 import os
+import re
 import shutil
 import statistics
 import sys
@@ -48,11 +49,9 @@ IDLE_JS = ("() => !document.querySelector('[data-stale=\"true\"]')"
 _TICK = os.sysconf("SC_CLK_TCK") if hasattr(os, "sysconf") else 100
 
 
-def _cpu() -> dict:
-    """CPU seconds (user + system) used so far by this bench's browser (Chromium processes)
-    and its page server (Streamlit), found among this process's descendants in Linux's
-    /proc (zeros elsewhere): their own work, whatever the machine's load (wall time on a
-    shared machine also counts waiting for a core)."""
+def _my_processes() -> dict:
+    """pid -> (CPU ticks, command line) of this process's descendants, from Linux's /proc
+    (empty elsewhere)."""
     procs = {}
     for d in Path("/proc").glob("[0-9]*"):
         try:
@@ -65,9 +64,16 @@ def _cpu() -> dict:
         more = {pid for pid, (ppid, _, _) in procs.items() if ppid in mine and pid not in mine}
         mine |= more
         grew = bool(more)
+    return {pid: procs[pid][1:] for pid in mine - {os.getpid()}}
+
+
+def _cpu() -> dict:
+    """CPU seconds (user + system) used so far by this bench's browser (Chromium processes)
+    and its page server (Streamlit), found among this process's descendants in Linux's
+    /proc (zeros elsewhere): their own work, whatever the machine's load (wall time on a
+    shared machine also counts waiting for a core)."""
     out = {"browser": 0.0, "server": 0.0}
-    for pid in mine - {os.getpid()}:
-        _, ticks, cmd = procs[pid]
+    for ticks, cmd in _my_processes().values():
         who = "server" if b"streamlit" in cmd else "browser" if b"chrom" in cmd else None
         if who:
             out[who] += ticks / _TICK
@@ -149,18 +155,15 @@ COUNT_JS = """() => {
 
 def _process_kinds() -> dict:
     """CPU seconds so far of this bench's Chromium processes by kind (renderer, gpu-process,
-    browser, utility), from /proc."""
+    browser, utility)."""
     out: dict = {}
-    for d in Path("/proc").glob("[0-9]*"):
-        try:
-            cmd = (d / "cmdline").read_bytes()
-            if b"chrom" not in cmd:
-                continue
-            fields = (d / "stat").read_text().rsplit(")", 1)[1].split()
-        except (OSError, IndexError):
+    for ticks, cmd in _my_processes().values():
+        if b"chrom" not in cmd:
             continue
-        kind = next((a.split(b"=", 1)[1].decode() for a in cmd.split(b"\0") if a.startswith(b"--type=")), "browser")
-        out[kind] = out.get(kind, 0.0) + (int(fields[11]) + int(fields[12])) / _TICK
+        # child processes rewrite their command line with spaces (not NULs) between arguments
+        found = re.search(rb"--type=([a-z-]+)", cmd)
+        kind = found.group(1).decode() if found else "browser"
+        out[kind] = out.get(kind, 0.0) + ticks / _TICK
     return out
 
 
