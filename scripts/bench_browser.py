@@ -14,12 +14,19 @@ person's browser keeps the page's scripts; ``--repeats`` of them, min and median
 with the CPU seconds of the browser and the server, which the load does not change);
 "restart": a new server on the same results cache (the persistent cache, without the server's memory). Run alone:
 ``python scripts/bench_browser.py [--repeats N]``.
+
+``--breakdown``: instead, what the browser spends a warm first render of each page on: the
+page's elements by kind (charts, tables, widgets, DOM nodes), Chromium's own counters for the
+tab (DevTools protocol ``Performance.getMetrics``: script, layout and style time) and the CPU
+seconds of each kind of browser process (the tab's renderer, the GPU process drawing in
+software, the browser process).
 """
 
 from __future__ import annotations
 
 import argparse
 import os
+import re
 import shutil
 import statistics
 import sys
@@ -42,11 +49,9 @@ IDLE_JS = ("() => !document.querySelector('[data-stale=\"true\"]')"
 _TICK = os.sysconf("SC_CLK_TCK") if hasattr(os, "sysconf") else 100
 
 
-def _cpu() -> dict:
-    """CPU seconds (user + system) used so far by this bench's browser (Chromium processes)
-    and its page server (Streamlit), found among this process's descendants in Linux's
-    /proc (zeros elsewhere): their own work, whatever the machine's load (wall time on a
-    shared machine also counts waiting for a core)."""
+def _my_processes() -> dict:
+    """pid -> (CPU ticks, command line) of this process's descendants, from Linux's /proc
+    (empty elsewhere)."""
     procs = {}
     for d in Path("/proc").glob("[0-9]*"):
         try:
@@ -59,9 +64,16 @@ def _cpu() -> dict:
         more = {pid for pid, (ppid, _, _) in procs.items() if ppid in mine and pid not in mine}
         mine |= more
         grew = bool(more)
+    return {pid: procs[pid][1:] for pid in mine - {os.getpid()}}
+
+
+def _cpu() -> dict:
+    """CPU seconds (user + system) used so far by this bench's browser (Chromium processes)
+    and its page server (Streamlit), found among this process's descendants in Linux's
+    /proc (zeros elsewhere): their own work, whatever the machine's load (wall time on a
+    shared machine also counts waiting for a core)."""
     out = {"browser": 0.0, "server": 0.0}
-    for pid in mine - {os.getpid()}:
-        _, ticks, cmd = procs[pid]
+    for ticks, cmd in _my_processes().values():
         who = "server" if b"streamlit" in cmd else "browser" if b"chrom" in cmd else None
         if who:
             out[who] += ticks / _TICK
@@ -124,6 +136,82 @@ def _open_candidate(tabs, base: str) -> float:
         return _timed(open_it)
     finally:
         page.close()
+
+
+# elements on the page by kind (Streamlit marks each with data-testid)
+COUNT_JS = """() => {
+  const ids = {};
+  for (const el of document.querySelectorAll('[data-testid]')) {
+    const t = el.getAttribute('data-testid'); ids[t] = (ids[t] || 0) + 1; }
+  const out = {dom_nodes: document.querySelectorAll('*').length, svg_nodes: document.querySelectorAll('svg *').length,
+               canvases: document.querySelectorAll('canvas').length};
+  for (const k of ['stVegaLiteChart', 'stDataFrame', 'stElementContainer', 'stMarkdown', 'stCaptionContainer',
+                   'stTextInput', 'stSelectbox', 'stMultiSelect', 'stNumberInput', 'stButton', 'stDownloadButton',
+                   'stMetric', 'stAlert', 'stExpander', 'stTabs'])
+    out[k.replace('st', '').toLowerCase()] = ids[k] || 0;
+  return out;
+}"""
+
+
+def _process_kinds() -> dict:
+    """CPU seconds so far of this bench's Chromium processes by kind (renderer, gpu-process,
+    browser, utility)."""
+    out: dict = {}
+    for ticks, cmd in _my_processes().values():
+        if b"chrom" not in cmd:
+            continue
+        # child processes rewrite their command line with spaces (not NULs) between arguments
+        found = re.search(rb"--type=([a-z-]+)", cmd)
+        kind = found.group(1).decode() if found else "browser"
+        out[kind] = out.get(kind, 0.0) + ticks / _TICK
+    return out
+
+
+def breakdown(repeats: int = 2) -> dict:
+    """Per page, the warm first render with the fewest CPU seconds of ``repeats``: elements,
+    Chromium's counters for the tab and CPU seconds by process kind."""
+    from playwright.sync_api import sync_playwright
+
+    tmp = Path(tempfile.mkdtemp(prefix="matdb-bench-browser-"))
+    env = dict(os.environ, MATDB_URL=f"sqlite:///{tmp / 'bench.sqlite'}", MATDB_CACHE_DIR=str(tmp / "cache"))
+    out: dict = {"load_average_1min": os.getloadavg()[0]}
+    try:
+        with sync_playwright() as p:
+            browser = p.chromium.launch(executable_path=shutil.which("chromium"), args=CHROMIUM_ARGS)
+            try:
+                tabs = browser.new_context(viewport=VIEWPORT)
+                with served(tmp / "streamlit.log", env=env, timeout_s=120) as base:
+                    for path, heading in PAGES:  # cold visits: computed, cached
+                        _first_render(tabs, base, path, heading)
+                    for path, heading in PAGES:
+                        best = None
+                        for _ in range(repeats):
+                            page = tabs.new_page()
+                            try:
+                                cdp = tabs.new_cdp_session(page)
+                                cdp.send("Performance.enable")
+                                k0 = _process_kinds()
+                                page.goto(f"{base}/{path}", wait_until="load", timeout=300_000)
+                                _rendered(page, heading)
+                                k1 = _process_kinds()
+                                metrics = {m["name"]: m["value"] for m in cdp.send("Performance.getMetrics")["metrics"]}
+                                row = {"cpu_s": {k: round(k1[k] - k0.get(k, 0.0), 2) for k in k1},
+                                       "tab": {k: round(metrics.get(k, 0.0), 3) for k in
+                                               ("TaskDuration", "ScriptDuration", "LayoutDuration",
+                                                "RecalcStyleDuration", "LayoutCount", "RecalcStyleCount")},
+                                       "elements": page.evaluate(COUNT_JS)}
+                                total = sum(row["cpu_s"].values())
+                                if best is None or total < best[0]:
+                                    best = (total, row)
+                            finally:
+                                page.close()
+                        out[path or "materials"] = best[1]
+            finally:
+                browser.close()
+    finally:
+        shutil.rmtree(tmp, ignore_errors=True)
+    out["load_average_1min_after"] = os.getloadavg()[0]
+    return out
 
 
 def _stats(out: dict, name: str, values: list[float]) -> None:
@@ -203,7 +291,10 @@ def run(repeats: int = 3) -> dict:
 if __name__ == "__main__":
     ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     ap.add_argument("--repeats", type=int, default=3, help="warm visits of each page (default 3)")
-    res = run(ap.parse_args().repeats)
+    ap.add_argument("--breakdown", action="store_true",
+                    help="what the browser spends each page's warm first render on (elements, tab counters, CPU by process)")
+    args = ap.parse_args()
+    res = breakdown(args.repeats) if args.breakdown else run(args.repeats)
     for k, v in res.items():
         if isinstance(v, list):
             v = "[" + ", ".join(f"{x:.3g}" for x in v) + "]"
